@@ -1,0 +1,69 @@
+"""The core's own hook implementations: its methods, fluid models, readers and commands.
+
+Each command lives in its own module under ``ventflux.cli`` and exposes
+``COMMAND`` (a ``registry.Command``) and optionally ``METHODS`` (a list of
+``registry.Method``).
+"""
+
+from __future__ import annotations
+
+import importlib
+
+from .hookspecs import hookimpl
+from .registry import FluidModelInfo
+
+_COMMAND_MODULES = (
+    "ventflux.cli.methods",
+    "ventflux.cli.orifice",
+    "ventflux.cli.plume",
+    "ventflux.cli.diffuse",
+    "ventflux.cli.summarize",
+    "ventflux.cli.survey",
+)
+
+
+def _modules():
+    out = []
+    for name in _COMMAND_MODULES:
+        if importlib.util.find_spec(name) is None:  # not yet written
+            continue
+        out.append(importlib.import_module(name))
+    return out
+
+
+@hookimpl
+def ventflux_commands():
+    return [m.COMMAND for m in _modules() if hasattr(m, "COMMAND")]
+
+
+@hookimpl
+def ventflux_estimation_methods():
+    return [meth for m in _modules() for meth in getattr(m, "METHODS", [])]
+
+
+@hookimpl
+def ventflux_fluid_models():
+    from .properties import ventfluid
+
+    return [
+        FluidModelInfo(
+            name=ventfluid.DEFAULT_MODEL,
+            summary="pure water, IAPWS-95 (CoolProp), with a cached interpolation table",
+            factory=ventfluid.IAPWS95Water,
+        ),
+        FluidModelInfo(
+            name="iapws95-water-direct",
+            summary="pure water, IAPWS-95 (CoolProp), every point solved directly (slow, exact)",
+            factory=lambda: ventfluid.IAPWS95Water(tabulated=False),
+        ),
+    ]
+
+
+@hookimpl
+def ventflux_input_readers():
+    return []
+
+
+@hookimpl
+def ventflux_velocity_sources():
+    return []

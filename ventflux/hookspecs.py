@@ -1,0 +1,82 @@
+"""Hook specifications: the contract between the ventflux core and its plugins.
+
+A plugin is a module (or object) with functions named like the specifications
+below, each decorated with ``ventflux.hookimpl``. It is found through the
+``ventflux`` entry-point group, for example in the plugin's ``pyproject.toml``::
+
+    [project.entry-points.ventflux]
+    thermal = "ventflux_thermal.plugin"
+
+Every hook returns a list (possibly empty) of small description objects from
+``ventflux.registry``; the core collects the lists from all plugins. Hooks are
+called without side effects, so listing the methods is cheap.
+"""
+
+from __future__ import annotations
+
+import pluggy
+
+PROJECT = "ventflux"
+hookspec = pluggy.HookspecMarker(PROJECT)
+hookimpl = pluggy.HookimplMarker(PROJECT)
+
+
+@hookspec
+def ventflux_estimation_methods():
+    """Estimation methods this distribution provides.
+
+    Returns
+    -------
+    list of ventflux.registry.Method
+        Each names a method (``"orifice"``, ``"plume-rise"``, ...), what it
+        estimates, and the inputs it needs.
+    """
+
+
+@hookspec
+def ventflux_fluid_models():
+    """Equations of state for hot vent fluid.
+
+    Returns
+    -------
+    list of ventflux.registry.FluidModelInfo
+        Each with a name (``"iapws95-water"``) and a factory returning an
+        object that implements ``ventflux.properties.FluidModel``.
+    """
+
+
+@hookspec
+def ventflux_input_readers():
+    """Readers for field-data files (CTD casts, probe records, video, ...).
+
+    Returns
+    -------
+    list of ventflux.registry.Reader
+        Each with a name, the kind of data it reads, the file suffixes it
+        accepts and a ``read(path, **options)`` callable.
+    """
+
+
+@hookspec
+def ventflux_velocity_sources():
+    """Sources of a fluid velocity that can feed the orifice and diffuse estimators.
+
+    Returns
+    -------
+    list of ventflux.registry.VelocitySource
+        Each with a name, which estimators it feeds (``"orifice"``,
+        ``"diffuse"``) and a callable returning a velocity as a pint quantity
+        (plus, optionally, its standard uncertainty).
+    """
+
+
+@hookspec
+def ventflux_commands():
+    """Command-line subcommands.
+
+    Returns
+    -------
+    list of ventflux.registry.Command
+        Each with a name, a one-line help, ``configure(parser)`` to add its
+        arguments to an ``argparse`` sub-parser, and ``run(args) -> int``.
+    """

@@ -1,0 +1,168 @@
+"""Plugin discovery and the description objects the hooks return.
+
+The core registers its own methods through the same hooks as any plugin
+(``ventflux.core_plugin``), so ``ventflux methods`` lists both alike.
+"""
+
+from __future__ import annotations
+
+import functools
+from dataclasses import dataclass, field
+from importlib import metadata
+from typing import Callable
+
+import pluggy
+
+from . import hookspecs
+
+
+@dataclass(frozen=True)
+class Method:
+    """An estimation method: its name, what it gives and what it needs."""
+
+    name: str
+    summary: str
+    estimates: str = "heat power"
+    inputs: tuple[str, ...] = ()
+    command: str | None = None
+    provider: str = "ventflux"
+
+
+@dataclass(frozen=True)
+class FluidModelInfo:
+    """An equation of state for vent fluid, built on demand by ``factory()``."""
+
+    name: str
+    summary: str
+    factory: Callable
+    provider: str = "ventflux"
+
+
+@dataclass(frozen=True)
+class Reader:
+    """A reader of one kind of field data (``kind``) from files with ``suffixes``."""
+
+    name: str
+    kind: str
+    suffixes: tuple[str, ...]
+    read: Callable
+    provider: str = "ventflux"
+
+
+@dataclass(frozen=True)
+class VelocitySource:
+    """A measured velocity: ``feeds`` lists the estimators that accept it."""
+
+    name: str
+    summary: str
+    feeds: tuple[str, ...]
+    estimate: Callable
+    provider: str = "ventflux"
+
+
+@dataclass(frozen=True)
+class Command:
+    """A ``ventflux`` subcommand."""
+
+    name: str
+    help: str
+    configure: Callable
+    run: Callable
+    provider: str = "ventflux"
+    aliases: tuple[str, ...] = field(default_factory=tuple)
+
+
+
+
+@functools.lru_cache(maxsize=1)
+def plugin_manager() -> pluggy.PluginManager:
+    """The process-wide plugin manager, core plus every installed plugin."""
+    pm = pluggy.PluginManager(hookspecs.PROJECT)
+    pm.add_hookspecs(hookspecs)
+    from . import core_plugin
+
+    pm.register(core_plugin, name="ventflux")
+    pm.load_setuptools_entrypoints(hookspecs.PROJECT)
+    return pm
+
+
+def _collect(hook_name: str):
+    pm = plugin_manager()
+    out = []
+    for impl in getattr(pm.hook, hook_name).get_hookimpls():
+        items = getattr(impl.plugin, hook_name)() or []
+        dist = pm.get_plugin_name(impl.plugin)
+        for item in items:
+            out.append(_with_provider(item, dist))
+    return out
+
+
+def _with_provider(item, plugin_name):
+    from dataclasses import replace
+
+    if getattr(item, "provider", "ventflux") != "ventflux" or plugin_name == "ventflux":
+        return item
+    dist = _distribution_for(plugin_name)
+    return replace(item, provider=dist)
+
+
+def _distribution_for(plugin_name: str) -> str:
+    for ep in metadata.entry_points(group=hookspecs.PROJECT):
+        if ep.name == plugin_name and ep.dist is not None:
+            return ep.dist.name
+    return plugin_name
+
+
+def methods() -> list[Method]:
+    return _collect("ventflux_estimation_methods")
+
+
+def fluid_models() -> list[FluidModelInfo]:
+    return _collect("ventflux_fluid_models")
+
+
+def readers() -> list[Reader]:
+    return _collect("ventflux_input_readers")
+
+
+def velocity_sources() -> list[VelocitySource]:
+    return _collect("ventflux_velocity_sources")
+
+
+def commands() -> list[Command]:
+    return _collect("ventflux_commands")
+
+
+def fluid_model(name: str):
+    """Build the fluid model called ``name`` (``InputError`` listing the known ones if absent)."""
+    from .errors import InputError
+
+    known = {m.name: m for m in fluid_models()}
+    if name not in known:
+        raise InputError("fluid model", name, "one of " + ", ".join(sorted(known)))
+    return known[name].factory()
+
+
+def velocity_source(name: str) -> VelocitySource:
+    from .errors import InputError
+
+    known = {s.name: s for s in velocity_sources()}
+    if name not in known:
+        raise InputError("velocity source", name, "one of " + (", ".join(sorted(known)) or "(none installed)"))
+    return known[name]
+
+
+def distribution_versions() -> dict[str, str]:
+    """Versions of ventflux and of every installed plugin distribution (for provenance)."""
+    out = {"ventflux": _version("ventflux")}
+    for ep in metadata.entry_points(group=hookspecs.PROJECT):
+        if ep.dist is not None:
+            out[ep.dist.name] = ep.dist.version
+    return out
+
+
+def _version(dist: str) -> str:
+    try:
+        return metadata.version(dist)
+    except metadata.PackageNotFoundError:
+        return "unknown"

@@ -1,0 +1,153 @@
+"""The package's single pint unit registry and quantity parsing.
+
+Every module imports ``ureg`` and ``Q_`` from here so that quantities from
+different parts of ventflux (and from plugins) can be combined. Offset units
+(``degC``) are converted to kelvin automatically in multiplicative
+expressions, so ``Q_(352, "degC").to("K")`` and arithmetic on temperature
+differences behave as a scientist expects.
+"""
+
+from __future__ import annotations
+
+import re
+
+import numpy as np
+import pint
+
+from .errors import InputError
+
+ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+ureg.formatter.default_format = "~P"
+# Practical salinity is dimensionless (PSS-78); "psu" is the trade's label for it.
+ureg.define("practical_salinity_unit = [] = psu = PSU")
+Q_ = ureg.Quantity
+pint.set_application_registry(ureg)
+
+# Dimensions by name, for messages and validation.
+DIMENSIONS = {
+    "temperature": "[temperature]",
+    "length": "[length]",
+    "area": "[length] ** 2",
+    "velocity": "[length] / [time]",
+    "pressure": "[mass] / [length] / [time] ** 2",
+    "frequency": "1 / [time]",
+    "time": "[time]",
+    "power": "[mass] * [length] ** 2 / [time] ** 3",
+    "energy": "[mass] * [length] ** 2 / [time] ** 2",
+    "mass flux": "[mass] / [time]",
+    "density": "[mass] / [length] ** 3",
+    "volume": "[length] ** 3",
+    "dimensionless": "[]",
+    "thermal conductivity": "[mass] * [length] / [time] ** 3 / [temperature]",
+    "heat flux": "[mass] / [time] ** 3",
+    "angle": "[]",
+}
+
+_EXAMPLES = {
+    "temperature": "'352 degC' or '625 K'",
+    "length": "'0.12 m' or '12 cm'",
+    "area": "'0.011 m^2'",
+    "velocity": "'1.4 m/s'",
+    "pressure": "'26 MPa' or '2600 dbar'",
+    "frequency": "'1.0e-3/s'",
+    "time": "'30 s'",
+    "power": "'100 MW'",
+    "dimensionless": "'34.6'",
+}
+
+_NUMBER_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
+
+
+def parse_quantity(text, dimension: str, field: str, default_unit: str | None = None):
+    """Parse a quantity string such as ``"352 degC"``, ``"25MPa"`` or ``"1.0e-3/s"``.
+
+    Parameters
+    ----------
+    text : str or pint.Quantity or float
+        The value as typed. A bare number takes ``default_unit`` if given.
+    dimension : str
+        A key of ``DIMENSIONS`` (e.g. ``"temperature"``).
+    field : str
+        Name of the input, used in error messages (e.g. ``"--diameter"``).
+    default_unit : str, optional
+        Unit for bare numbers; without it a bare number is an error unless the
+        dimension is dimensionless.
+
+    Returns
+    -------
+    pint.Quantity
+
+    Raises
+    ------
+    InputError
+        If the text does not parse or has the wrong dimension.
+    """
+    if isinstance(text, pint.Quantity):
+        q = text
+    elif isinstance(text, (int, float, np.floating, np.integer)):
+        q = _bare(float(text), dimension, field, default_unit, str(text))
+    else:
+        raw = str(text).strip()
+        if not raw:
+            raise InputError(field, text, f"a {dimension}, e.g. {_EXAMPLES.get(dimension, 'a number with a unit')}")
+        m = _NUMBER_UNIT.match(raw)
+        try:
+            if m and m.group(2) == "":
+                q = _bare(float(m.group(1)), dimension, field, default_unit, raw)
+            elif m and not m.group(2).startswith(("*", "/")):
+                # "352 degC", "25MPa": number then unit; parse the unit alone so
+                # offset units are not multiplied (pint refuses that).
+                q = Q_(float(m.group(1)), ureg.parse_units(m.group(2)))
+            else:
+                q = ureg.parse_expression(raw)  # "1.0e-3/s", "2*m"
+                if not isinstance(q, pint.Quantity):
+                    q = Q_(float(q), "dimensionless")
+        except InputError:
+            raise
+        except Exception:
+            raise InputError(
+                field, text, f"a {dimension} with a unit, e.g. {_EXAMPLES.get(dimension, 'a number with a unit')}"
+            ) from None
+    return require_dimension(q, dimension, field)
+
+
+def _bare(value, dimension, field, default_unit, shown):
+    if default_unit is not None:
+        return Q_(value, default_unit)
+    if dimension == "dimensionless":
+        return Q_(value, "dimensionless")
+    raise InputError(field, shown, f"a {dimension} with a unit, e.g. {_EXAMPLES.get(dimension, 'a number with a unit')}")
+
+
+def require_dimension(q, dimension: str, field: str):
+    """Return ``q`` if it has the named dimension, else raise ``InputError``."""
+    want = DIMENSIONS[dimension]
+    if not isinstance(q, pint.Quantity):
+        if dimension == "dimensionless":
+            return Q_(q, "dimensionless")
+        raise InputError(field, q, f"a {dimension} given as a pint quantity, e.g. Q_(1.4, 'm/s')")
+    if not q.check(want):
+        raise InputError(field, f"{q:~P}", f"a {dimension}, e.g. {_EXAMPLES.get(dimension, 'a number with a unit')}")
+    return q
+
+
+def magnitude(q, unit: str, dimension: str | None = None, field: str = "value"):
+    """Magnitude of ``q`` in ``unit`` as a float or ndarray (temperatures to K correctly)."""
+    if dimension is not None:
+        q = require_dimension(q, dimension, field)
+    elif not isinstance(q, pint.Quantity):
+        raise InputError(field, q, f"a quantity convertible to {unit}")
+    return q.to(unit).magnitude
+
+
+def column_name(name: str, unit: str) -> str:
+    """Table column label with its unit, as used throughout: ``heat_power [MW]``."""
+    return f"{name} [{unit}]"
+
+
+def parse_column_name(label: str):
+    """Split ``'temperature [degC]'`` into ``('temperature', 'degC')``; unit ``None`` if absent."""
+    m = re.match(r"^\s*(.*?)\s*\[(.*)\]\s*$", label)
+    if not m:
+        return label.strip(), None
+    return m.group(1), m.group(2).strip()
