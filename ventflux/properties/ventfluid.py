@@ -1,0 +1,306 @@
+"""Hot vent fluid: pure water from IAPWS-95 through CoolProp.
+
+Vent fluids are seawater-derived brines or vapours, but no equation of state
+for H2O-NaCl of IAPWS-95's accuracy is in a standard library; ventflux treats
+the fluid as pure water. For a fluid near seawater salinity the enthalpy
+difference between exit and ambient temperature, which is what the heat
+budget uses, differs from pure water's by a few percent (mostly through the
+lower heat capacity of saline water); densities differ by a few percent too.
+A brine model can be added as a plugin through the ``ventflux_fluid_models``
+hook (see DEVELOPERS.md).
+
+Speed: CoolProp solves the Helmholtz equation for density at every (T, p)
+point (about 20–30 µs a point). ``IAPWS95Water`` instead evaluates bicubic
+splines on a table of direct IAPWS-95 values built once and cached on disk,
+and falls back to direct evaluation in the narrow bands where a spline cannot
+follow the fluid (next to the saturation curve and around the critical
+point). ``tests/benchmarks/bench_properties.py`` measures speed and error.
+
+References
+----------
+.. [1] IAPWS R6-95(2018), Revised Release on the IAPWS Formulation 1995 for
+   the Thermodynamic Properties of Ordinary Water Substance for General and
+   Scientific Use.
+.. [2] Bell, I. H., Wronski, J., Quoilin, S., Lemort, V. (2014). Pure and
+   pseudo-pure fluid thermophysical property evaluation and the open-source
+   thermophysical property library CoolProp. Ind. Eng. Chem. Res. 53, 2498.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+from pathlib import Path
+from typing import Protocol
+
+import numpy as np
+
+from ..errors import InputError
+
+DEFAULT_MODEL = "iapws95-water"
+
+# IAPWS-95 critical constants [1], section 2.
+T_CRIT = 647.096  # K
+P_CRIT = 22.064e6  # Pa
+# Range of validity stated in [1], section 5: 273.16 K (triple point) to
+# 1273 K at pressures up to 1000 MPa (the release extrapolates beyond; we do not).
+T_MIN, T_MAX = 273.16, 1273.0
+P_MIN, P_MAX = 611.657, 1000e6  # Pa; the lower bound is the triple-point pressure
+
+
+class FluidModel(Protocol):
+    """What every vent-fluid equation of state provides (SI floats or arrays).
+
+    ``check(T, p, field)`` raises ``InputError`` for any point outside the
+    model's validity or not in a single liquid-like phase;
+    ``enthalpy_density(T, p)`` returns specific enthalpy [J/kg] and density
+    [kg/m³]; ``saturation_temperature(p)`` [K] is NaN above the critical
+    pressure.
+    """
+
+    name: str
+
+    def check(self, T, p, field: str = "temperature") -> None: ...
+
+    def enthalpy_density(self, T, p) -> tuple[np.ndarray, np.ndarray]: ...
+
+    def saturation_temperature(self, p) -> np.ndarray: ...
+
+
+def _coolprop():
+    import CoolProp.CoolProp as CP
+
+    return CP
+
+
+def _direct(T, p):
+    """Direct IAPWS-95 enthalpy and density (CoolProp's vectorized PropsSI)."""
+    CP = _coolprop()
+    T = np.atleast_1d(np.asarray(T, float))
+    p = np.atleast_1d(np.asarray(p, float))
+    T, p = np.broadcast_arrays(T, p)
+    if T.size == 0:
+        return np.empty(T.shape), np.empty(T.shape)
+    h = CP.PropsSI("Hmass", "T", T.ravel(), "P", p.ravel(), "Water").reshape(T.shape)
+    d = CP.PropsSI("Dmass", "T", T.ravel(), "P", p.ravel(), "Water").reshape(T.shape)
+    return h, d
+
+
+# ---- the cached table ------------------------------------------------------
+# Table domain and node spacing. Nodes are dense where the fluid changes fast:
+# the compressed-liquid-to-supercritical transition at 600-720 K and the
+# pressures 18-45 MPa where the pseudo-critical line lies.
+_T_NODES = np.unique(np.concatenate([
+    np.arange(273.16, 600.0, 1.0),
+    np.arange(600.0, 720.0, 0.2),
+    np.arange(720.0, 900.0 + 1e-9, 1.0),
+]))
+_P_NODES = np.unique(np.concatenate([
+    np.arange(1e6, 18e6, 0.5e6),
+    np.arange(18e6, P_CRIT, 0.25e6),
+    [P_CRIT],
+    np.arange(22.25e6, 45e6, 0.25e6),
+    np.arange(45e6, 100e6 + 1, 1e6),
+]))
+_TABLE_VERSION = "3"
+# The supercritical table starts a little below the critical pressure with
+# true (vapour-like) nodes; the subcritical one ends at it. Points in the seam
+# lie in the near-critical box and are solved directly.
+_P_OVERLAP = 0.0
+# Bands solved directly instead of interpolated (K, Pa): within _SAT_BAND of
+# the saturation temperature below the critical pressure, and in a box around
+# the critical point. Chosen from the benchmark's error map.
+_SAT_BAND = 4.0
+_CRIT_BOX_T = (12.0, 20.0)  # below, above the critical temperature
+_CRIT_BOX_P = (2.5e6, 4.0e6)  # below, above the critical pressure
+
+
+def _saturation_temperature_direct(p):
+    CP = _coolprop()
+    p = np.atleast_1d(np.asarray(p, float))
+    out = np.full(p.shape, np.nan)
+    sub = (p < P_CRIT) & (p >= P_MIN)
+    if sub.any():
+        out[sub] = CP.PropsSI("T", "P", p[sub], "Q", 0, "Water")
+    return out
+
+
+def _cache_dir() -> Path:
+    root = os.environ.get("VENTFLUX_CACHE") or os.path.join(
+        os.environ.get("XDG_CACHE_HOME") or os.path.expanduser("~/.cache"), "ventflux")
+    return Path(root)
+
+
+def _table_key():
+    CP = _coolprop()
+    tag = f"{_TABLE_VERSION}|{CP.get_global_param_string('version')}|{_T_NODES.size}|{_P_NODES.size}"
+    tag += f"|{_T_NODES[0]:.6f}|{_T_NODES[-1]:.6f}|{_P_NODES[0]:.1f}|{_P_NODES[-1]:.1f}"
+    return hashlib.sha256(tag.encode()).hexdigest()[:16]
+
+
+def _build_table():
+    """Direct IAPWS-95 values on the grid; vapour nodes continued from the liquid side.
+
+    Below the critical pressure the nodes above the saturation temperature lie
+    in the vapour; a spline through the liquid-vapour jump would ring into the
+    liquid. Those nodes are filled with a linear continuation from saturated
+    liquid (value and temperature slope), which keeps the spline smooth on the
+    liquid side. Points near saturation are never read from the table anyway.
+    """
+    CP = _coolprop()
+    TT, PP = np.meshgrid(_T_NODES, _P_NODES, indexing="ij")
+    tsat = _saturation_temperature_direct(_P_NODES)
+    vapour = np.isfinite(tsat)[None, :] & (TT >= tsat[None, :] - 0.5)
+    h = np.empty(TT.shape)
+    d = np.empty(TT.shape)
+    liq = ~vapour
+    h[liq], d[liq] = _direct(TT[liq], PP[liq])
+    for j in np.flatnonzero(np.isfinite(tsat)):
+        col = vapour[:, j]
+        if not col.any():
+            continue
+        ts = tsat[j] - 0.5
+        p = _P_NODES[j]
+        h0, d0 = _direct(ts, p)
+        hm, dm = _direct(ts - 0.5, p)
+        dT = TT[col, j] - ts
+        h[col, j] = h0[0] + (h0[0] - hm[0]) / 0.5 * dT
+        d[col, j] = d0[0] + (d0[0] - dm[0]) / 0.5 * dT
+    return h, d
+
+
+def _load_table():
+    path = _cache_dir() / f"iapws95-water-{_table_key()}.npz"
+    if path.exists():
+        try:
+            with np.load(path) as z:
+                return z["h"], z["d"]
+        except Exception:  # a damaged cache is rebuilt, never trusted
+            pass
+    h, d = _build_table()
+    path.parent.mkdir(parents=True, exist_ok=True)
+    tmp = path.with_name(f"{path.stem}.{os.getpid()}.part.npz")
+    np.savez(tmp, h=h, d=d)
+    os.replace(tmp, path)
+    return h, d
+
+
+class IAPWS95Water:
+    """Pure water from IAPWS-95 [1] via CoolProp [2], tabulated for speed.
+
+    Parameters
+    ----------
+    tabulated : bool, default True
+        Interpolate a cached table (max. relative error ~1e-5 away from the
+        pseudo-critical line, see the benchmark) or solve every point
+        directly.
+    allow_vapour : bool, default False
+        Below the critical pressure a fluid above its saturation temperature
+        has boiled; by default this is an error naming the saturation
+        temperature. With ``True`` such points are returned as single-phase
+        vapour (the fluid exits as steam, not a two-phase mixture).
+    """
+
+    name = DEFAULT_MODEL
+
+    def __init__(self, tabulated: bool = True, allow_vapour: bool = False):
+        self.tabulated = tabulated
+        self.allow_vapour = allow_vapour
+        self._splines = None
+        self._tsat = None
+
+    # -- phase and validity ---------------------------------------------------
+    def saturation_temperature(self, p):
+        """Saturation temperature [K] at pressure ``p`` [Pa]; NaN at or above the critical pressure."""
+        p = np.asarray(p, float)
+        if self._tsat is None:
+            from scipy.interpolate import CubicSpline
+
+            grid = np.geomspace(P_MIN, P_CRIT * (1 - 1e-9), 600)
+            self._tsat = CubicSpline(np.log(grid), _saturation_temperature_direct(grid))
+        out = np.full(p.shape, np.nan)
+        sub = (p < P_CRIT) & (p >= P_MIN)
+        out[sub] = self._tsat(np.log(p[sub]))
+        return out
+
+    def check(self, T, p, field: str = "temperature") -> None:
+        """Raise ``InputError`` for points outside IAPWS-95's validity or two-phase."""
+        T = np.asarray(T, float)
+        p = np.asarray(p, float)
+        T, p = np.broadcast_arrays(T, p)
+        bad_p = ~((p >= P_MIN) & (p <= P_MAX))
+        if bad_p.any():
+            v = p[bad_p].flat[0]
+            raise InputError("pressure", f"{v / 1e6:.6g} MPa",
+                             f"a pressure within IAPWS-95's validity, {P_MIN / 1e6:g} to {P_MAX / 1e6:g} MPa")
+        bad_t = ~((T >= T_MIN) & (T <= T_MAX))
+        if bad_t.any():
+            v = T[bad_t].flat[0]
+            raise InputError(field, f"{v - 273.15:.6g} degC",
+                             f"a temperature within IAPWS-95's validity, {T_MIN - 273.15:.2f} to "
+                             f"{T_MAX - 273.15:.0f} degC (pure-water vent-fluid model)")
+        if not self.allow_vapour:
+            tsat = self.saturation_temperature(p)
+            boiling = np.isfinite(tsat) & (T >= tsat)
+            if boiling.any():
+                i = np.flatnonzero(boiling.ravel())[0]
+                raise InputError(
+                    field, f"{T.ravel()[i] - 273.15:.6g} degC",
+                    f"a temperature below the saturation temperature {tsat.ravel()[i] - 273.15:.2f} degC at "
+                    f"{p.ravel()[i] / 1e6:.4g} MPa: at or above it the fluid boils (two-phase); "
+                    "a boiling vent needs a phase-separation model, not this estimate")
+
+    # -- properties -----------------------------------------------------------
+    def enthalpy_density(self, T, p):
+        """Specific enthalpy [J/kg] and density [kg/m³] at ``T`` [K], ``p`` [Pa].
+
+        Points are not checked here (call ``check`` first); the caller's
+        arrays are never modified.
+        """
+        T = np.asarray(T, float)
+        p = np.asarray(p, float)
+        T, p = np.broadcast_arrays(T, p)
+        shape = T.shape
+        T = T.ravel()
+        p = p.ravel()
+        if not self.tabulated:
+            h, d = _direct(T, p)
+            return h.reshape(shape), d.reshape(shape)
+        h = np.empty(T.shape)
+        d = np.empty(T.shape)
+        direct = self._needs_direct(T, p)
+        table = ~direct
+        if table.any():
+            # Two tables meet at the critical pressure, so the vapour-side fill
+            # of the subcritical one never leaks into supercritical points.
+            for (sh, sd), part in zip(self._spline(), (p < P_CRIT, p >= P_CRIT)):
+                sel = table & part
+                if sel.any():
+                    h[sel] = sh.ev(T[sel], p[sel])
+                    d[sel] = sd.ev(T[sel], p[sel])
+        if direct.any():
+            h[direct], d[direct] = _direct(T[direct], p[direct])
+        return h.reshape(shape), d.reshape(shape)
+
+    def _needs_direct(self, T, p):
+        outside = (T < _T_NODES[0]) | (T > _T_NODES[-1]) | (p < _P_NODES[0]) | (p > _P_NODES[-1])
+        near_crit = ((T > T_CRIT - _CRIT_BOX_T[0]) & (T < T_CRIT + _CRIT_BOX_T[1])
+                     & (p > P_CRIT - _CRIT_BOX_P[0]) & (p < P_CRIT + _CRIT_BOX_P[1]))
+        near_sat = np.zeros(T.shape, bool)
+        sub = p < P_CRIT
+        if sub.any():
+            near_sat[sub] = T[sub] > self.saturation_temperature(p[sub]) - _SAT_BAND
+        return outside | near_crit | near_sat
+
+    def _spline(self):
+        if self._splines is None:
+            from scipy.interpolate import RectBivariateSpline
+
+            h, d = _load_table()
+            below = _P_NODES <= P_CRIT + _P_OVERLAP
+            above = _P_NODES >= P_CRIT - _P_OVERLAP
+            self._splines = tuple(
+                (RectBivariateSpline(_T_NODES, _P_NODES[sel], h[:, sel]),
+                 RectBivariateSpline(_T_NODES, _P_NODES[sel], d[:, sel]))
+                for sel in (below, above))
+        return self._splines
