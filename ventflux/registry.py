@@ -91,7 +91,7 @@ def _collect(hook_name: str):
     out = []
     for impl in getattr(pm.hook, hook_name).get_hookimpls():
         items = getattr(impl.plugin, hook_name)() or []
-        dist = pm.get_plugin_name(impl.plugin)
+        dist = pm.get_name(impl.plugin)
         for item in items:
             out.append(_with_provider(item, dist))
     return out
