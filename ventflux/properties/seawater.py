@@ -79,7 +79,7 @@ def pressure_from_depth(depth, latitude=None):
 
 
 def _degrees(angle):
-    return angle.to("degree").magnitude if hasattr(angle, "to") else float(angle)
+    return angle.to("degree").magnitude if hasattr(angle, "to") else np.asarray(angle, float)
 
 
 def absolute_salinity(practical_salinity, sea_pressure, longitude=None, latitude=None):

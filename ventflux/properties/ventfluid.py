@@ -60,7 +60,18 @@ class FluidModel(Protocol):
 
     name: str
 
+    def valid(self, T, p):
+        """Boolean mask of points inside the model's validity and in one liquid-like phase."""
+        T, p = np.broadcast_arrays(np.asarray(T, float), np.asarray(p, float))
+        ok = (p >= P_MIN) & (p <= P_MAX) & (T >= T_MIN) & (T <= T_MAX)
+        if not self.allow_vapour:
+            tsat = self.saturation_temperature(p)
+            ok &= ~(np.isfinite(tsat) & (T >= tsat))
+        return ok
+
     def check(self, T, p, field: str = "temperature") -> None: ...
+
+    def valid(self, T, p) -> np.ndarray: ...
 
     def enthalpy_density(self, T, p) -> tuple[np.ndarray, np.ndarray]: ...
 
@@ -222,6 +233,15 @@ class IAPWS95Water:
         sub = (p < P_CRIT) & (p >= P_MIN)
         out[sub] = self._tsat(np.log(p[sub]))
         return out
+
+    def valid(self, T, p):
+        """Boolean mask of points inside the model's validity and in one liquid-like phase."""
+        T, p = np.broadcast_arrays(np.asarray(T, float), np.asarray(p, float))
+        ok = (p >= P_MIN) & (p <= P_MAX) & (T >= T_MIN) & (T <= T_MAX)
+        if not self.allow_vapour:
+            tsat = self.saturation_temperature(p)
+            ok &= ~(np.isfinite(tsat) & (T >= tsat))
+        return ok
 
     def check(self, T, p, field: str = "temperature") -> None:
         """Raise ``InputError`` for points outside IAPWS-95's validity or two-phase."""

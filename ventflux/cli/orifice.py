@@ -1,0 +1,139 @@
+"""``ventflux orifice``: heat, mass and volume discharge of one vent orifice."""
+
+from __future__ import annotations
+
+import sys
+
+from ..errors import Collector, InputError
+from ..registry import Command, Method
+from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
+from .output import add_output_options, print_json
+
+# (attribute, unit shown, label) of the readable table.
+_SHOWN = (
+    ("heat_power", "MW", "heat power (enthalpy difference)"),
+    ("heat_power_constant_cp", "MW", "heat power, constant-cp shortcut"),
+    ("shortcut_difference", "percent", "shortcut minus enthalpy result"),
+    ("mass_flux", "kg/s", "mass flux"),
+    ("volume_flux_exit", "L/s", "volume flux at exit conditions"),
+    ("volume_flux_ambient", "L/s", "volume flux at ambient conditions"),
+    ("specific_heat_content", "kJ/kg", "enthalpy above ambient"),
+    ("exit_density", "kg/m^3", "exit density (IAPWS-95)"),
+    ("ambient_density", "kg/m^3", "ambient density (TEOS-10)"),
+    ("mean_velocity", "m/s", "area-mean exit velocity"),
+    ("area", "cm^2", "orifice area"),
+    ("pressure", "MPa", "in-situ pressure"),
+)
+
+_UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) unit'"
+
+
+def configure(p):
+    g = p.add_argument_group("orifice measurements")
+    g.add_argument("--temperature", required=True, metavar="Q", help="exit temperature, e.g. '352 degC'" + _UNC)
+    g.add_argument("--velocity", required=True, metavar="Q",
+                   help="exit velocity, e.g. '1.4 m/s' (area-mean unless --velocity-kind centerline)" + _UNC)
+    size = g.add_mutually_exclusive_group(required=True)
+    size.add_argument("--diameter", metavar="Q", help="orifice diameter (major axis if elliptical), e.g. '12 cm'")
+    size.add_argument("--area", metavar="Q", help="orifice area, e.g. '0.011 m^2'")
+    g.add_argument("--minor-diameter", metavar="Q", help="minor axis of an elliptical orifice")
+    g.add_argument("--velocity-kind", choices=("area-mean", "centerline"), default="area-mean",
+                   help="what the velocity is: the area mean (default) or the centreline value")
+    g.add_argument("--profile-factor", type=float, default=None, metavar="X",
+                   help="mean/centreline velocity ratio for --velocity-kind centerline (default 49/60, "
+                        "1/7-power-law turbulent profile)")
+    a = p.add_argument_group("site and ambient seawater")
+    where = a.add_mutually_exclusive_group(required=True)
+    where.add_argument("--pressure", metavar="Q", help="absolute in-situ pressure, e.g. '26 MPa'")
+    where.add_argument("--depth", metavar="Q", help="depth below the sea surface, e.g. '2550 m' (TEOS-10 p_from_z)")
+    a.add_argument("--latitude", type=float, default=None, metavar="DEG", help="latitude in degrees north (for --depth)")
+    a.add_argument("--ambient-temperature", required=True, metavar="Q", help="in-situ ambient temperature, e.g. '2.1 degC'")
+    a.add_argument("--ambient-salinity", default="35", metavar="S", help="practical salinity (default 35)")
+    m = p.add_argument_group("model and uncertainty")
+    m.add_argument("--fluid", default="iapws95-water", help="vent-fluid model (see 'ventflux methods')")
+    m.add_argument("--draws", type=int, default=None, metavar="N",
+                   help=f"Monte Carlo draws (default {DEFAULT_DRAWS} when any input carries an uncertainty)")
+    m.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+    add_output_options(p)
+
+
+def _inputs(args):
+    errs = Collector()
+    vals = {}
+    spec = [("temperature", "temperature", "--temperature"), ("velocity", "velocity", "--velocity"),
+            ("diameter", "length", "--diameter"), ("area", "area", "--area"),
+            ("minor_diameter", "length", "--minor-diameter"), ("pressure", "pressure", "--pressure"),
+            ("depth", "length", "--depth"), ("ambient_temperature", "temperature", "--ambient-temperature"),
+            ("ambient_salinity", "dimensionless", "--ambient-salinity")]
+    for key, dim, flag in spec:
+        text = getattr(args, key)
+        if text is None:
+            continue
+        with errs.check():
+            vals[key] = parse_uncertain(text, dim, flag)
+    if args.minor_diameter is not None and args.diameter is None:
+        errs.add(InputError("--minor-diameter", args.minor_diameter, "a minor diameter only together with --diameter"))
+    if args.draws is not None and args.draws < 2:
+        errs.add(InputError("--draws", args.draws, "an integer ≥ 2"))
+    errs.raise_if_any()
+    if "ambient_salinity" in vals and not isinstance(vals["ambient_salinity"], Uncertain):
+        vals["ambient_salinity"] = float(vals["ambient_salinity"].to("dimensionless").magnitude)
+    if args.latitude is not None:
+        vals["latitude"] = args.latitude
+    vals["velocity_kind"] = args.velocity_kind
+    if args.profile_factor is not None:
+        vals["profile_factor"] = args.profile_factor
+    vals["fluid"] = args.fluid
+    return vals
+
+
+def run(args) -> int:
+    from ..orifice import orifice_discharge, orifice_discharge_uncertain
+
+    vals = _inputs(args)
+    uncertain = any(isinstance(v, Uncertain) for v in vals.values())
+    draws = args.draws if args.draws is not None else (DEFAULT_DRAWS if uncertain else None)
+    if draws:
+        res = orifice_discharge_uncertain(draws=draws, seed=args.seed, **vals)
+        result, summaries = res.nominal, res.summaries
+        payload = res.as_dict()
+    else:
+        result, summaries = orifice_discharge(**vals), {}
+        payload = result.as_dict()
+    payload["fluid_model"] = args.fluid
+    if args.json:
+        print_json(payload)
+        return 0
+    _print_readable(result, summaries, draws, args.seed)
+    return 0
+
+
+def _print_readable(result, summaries, draws, seed, out=None):
+    out = out or sys.stdout
+    head = ["quantity", "value", "unit"] + (["median", "5 %", "95 %"] if summaries else [])
+    rows = []
+    for attr, unit, label in _SHOWN:
+        q = getattr(result, attr).to(unit)
+        row = [label, f"{q.magnitude:.4g}", f"{q.units:~P}"]
+        if summaries:
+            s = summaries.get(attr)
+            row += [f"{getattr(s, k).to(unit).magnitude:.4g}" if s else "" for k in ("median", "p05", "p95")]
+        rows.append(row)
+    widths = [max(len(r[i]) for r in rows + [head]) for i in range(len(head))]
+    fmt = "  ".join(f"{{:<{w}}}" if i in (0, 2) else f"{{:>{w}}}" for i, w in enumerate(widths))
+    out.write("Vent orifice discharge (vent fluid: pure water, IAPWS-95; ambient: TEOS-10)\n")
+    out.write(fmt.format(*head) + "\n")
+    for r in rows:
+        out.write(fmt.format(*r) + "\n")
+    if summaries:
+        out.write(f"Monte Carlo: {draws} draws, seed {seed}; value column is the nominal estimate.\n")
+
+
+COMMAND = Command(name="orifice", help="heat, mass and volume discharge of one vent orifice", configure=configure,
+                  run=run)
+METHODS = [Method(name="orifice", summary="exit temperature, velocity and orifice size → heat power with "
+                                          "IAPWS-95 enthalpy difference; constant-cp shortcut beside it",
+                  estimates="heat power, mass flux, volume flux",
+                  inputs=("exit temperature", "exit velocity", "orifice size", "pressure or depth",
+                          "ambient temperature", "ambient salinity"),
+                  command="ventflux orifice")]
