@@ -41,6 +41,10 @@ DIMENSIONS = {
     "thermal conductivity": "[mass] * [length] / [time] ** 3 / [temperature]",
     "heat flux": "[mass] / [time] ** 3",
     "angle": "[]",
+    "specific heat capacity": "[length] ** 2 / [time] ** 2 / [temperature]",
+    "specific energy": "[length] ** 2 / [time] ** 2",
+    "diffusivity": "[length] ** 2 / [time]",
+    "energy per area": "[mass] / [time] ** 2",
 }
 
 _EXAMPLES = {
