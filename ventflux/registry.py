@@ -133,8 +133,9 @@ def commands() -> list[Command]:
     return _collect("ventflux_commands")
 
 
+@functools.lru_cache(maxsize=None)
 def fluid_model(name: str):
-    """Build the fluid model called ``name`` (``InputError`` listing the known ones if absent)."""
+    """The fluid model called ``name``, built once (``InputError`` listing the known ones if absent)."""
     from .errors import InputError
 
     known = {m.name: m for m in fluid_models()}

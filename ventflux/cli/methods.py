@@ -34,8 +34,8 @@ def _section(title, rows):
     if not rows:
         print("  (none installed)")
         return
-    w0 = max(len(r[0]) for r in rows)
-    w1 = max(len(r[1]) for r in rows)
+    w0 = max(len(r[0]) for r in rows + [("name", "")])
+    w1 = max(len(r[1]) for r in rows + [("", "provided by")])
     print(f"  {'name':<{w0}}  {'provided by':<{w1}}  what it does")
     for a, b, c in rows:
         print(f"  {a:<{w0}}  {b:<{w1}}  {c}")

@@ -88,6 +88,20 @@ def _inputs(args):
 
 
 def run(args) -> int:
+    try:
+        return _run(args)
+    except InputError as err:  # name the command-line option rather than the library argument
+        flag = "--" + err.field.replace(" ", "-").replace("_", "-")
+        if err.where is None and flag in _FLAGS:
+            raise InputError(flag, err.value, err.allowed) from None
+        raise
+
+
+_FLAGS = {"--temperature", "--velocity", "--diameter", "--area", "--minor-diameter", "--pressure", "--depth",
+          "--ambient-temperature", "--ambient-salinity", "--profile-factor", "--velocity-kind"}
+
+
+def _run(args) -> int:
     from ..orifice import orifice_discharge, orifice_discharge_uncertain
 
     vals = _inputs(args)

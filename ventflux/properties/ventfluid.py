@@ -28,6 +28,7 @@ References
 
 from __future__ import annotations
 
+import functools
 import hashlib
 import os
 from pathlib import Path
@@ -196,6 +197,15 @@ def _load_table():
     return h, d
 
 
+@functools.lru_cache(maxsize=1)
+def _saturation_spline():
+    """Saturation temperature against log pressure, from direct IAPWS-95 values."""
+    from scipy.interpolate import CubicSpline
+
+    grid = np.geomspace(P_MIN, P_CRIT * (1 - 1e-9), 600)
+    return CubicSpline(np.log(grid), _saturation_temperature_direct(grid))
+
+
 class IAPWS95Water:
     """Pure water from IAPWS-95 [1] via CoolProp [2], tabulated for speed.
 
@@ -225,10 +235,7 @@ class IAPWS95Water:
         """Saturation temperature [K] at pressure ``p`` [Pa]; NaN at or above the critical pressure."""
         p = np.asarray(p, float)
         if self._tsat is None:
-            from scipy.interpolate import CubicSpline
-
-            grid = np.geomspace(P_MIN, P_CRIT * (1 - 1e-9), 600)
-            self._tsat = CubicSpline(np.log(grid), _saturation_temperature_direct(grid))
+            self._tsat = _saturation_spline()
         out = np.full(p.shape, np.nan)
         sub = (p < P_CRIT) & (p >= P_MIN)
         out[sub] = self._tsat(np.log(p[sub]))
@@ -314,13 +321,19 @@ class IAPWS95Water:
 
     def _spline(self):
         if self._splines is None:
-            from scipy.interpolate import RectBivariateSpline
-
-            h, d = _load_table()
-            below = _P_NODES <= P_CRIT + _P_OVERLAP
-            above = _P_NODES >= P_CRIT - _P_OVERLAP
-            self._splines = tuple(
-                (RectBivariateSpline(_T_NODES, _P_NODES[sel], h[:, sel]),
-                 RectBivariateSpline(_T_NODES, _P_NODES[sel], d[:, sel]))
-                for sel in (below, above))
+            self._splines = _splines()
         return self._splines
+
+
+@functools.lru_cache(maxsize=1)
+def _splines():
+    """Splines on the cached table, built once per process and shared by all instances."""
+    from scipy.interpolate import RectBivariateSpline
+
+    h, d = _load_table()
+    below = _P_NODES <= P_CRIT + _P_OVERLAP
+    above = _P_NODES >= P_CRIT - _P_OVERLAP
+    return tuple(
+        (RectBivariateSpline(_T_NODES, _P_NODES[sel], h[:, sel]),
+         RectBivariateSpline(_T_NODES, _P_NODES[sel], d[:, sel]))
+        for sel in (below, above))
