@@ -1,0 +1,222 @@
+"""Diffuse-flow heat balance: checks against TEOS-10 as implemented independently, geometry and statistics."""
+
+import json
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from iapws import SeaWater
+
+from ventflux.cli import main
+from ventflux.diffuse import (
+    diffuse_discharge,
+    diffuse_discharge_uncertain,
+    polygon_area,
+    read_patch_table,
+    scale_up_by_area_class,
+    temperature_difference,
+)
+from ventflux.errors import InputError, InputErrors
+from ventflux.uncertainty import parse_uncertain
+from ventflux.units import Q_
+
+SP = 35.0  # practical salinity
+SA = 35.16504e-3  # kg/kg: TEOS-10 reference salinity of SP = 35 (IOC et al. 2010, eq. 2.4.1: SA = 35.16504/35 SP)
+P_ABS_MPA = 22.0
+
+
+def _iapws_heat(area, frac, dT, w, t_amb_c, p_mpa=P_ABS_MPA):
+    """ρ·w·A·Δh from IAPWS-08 seawater (the `iapws` package), the IAPWS release TEOS-10 adopts.
+
+    Source: IAPWS R13-08, Release on the IAPWS Formulation 2008 for the
+    Thermodynamic Properties of Seawater, implemented independently of gsw by
+    the `iapws` package; P is absolute pressure in MPa, h in kJ/kg.
+    """
+    amb = SeaWater(T=273.15 + t_amb_c, P=p_mpa, S=SA)
+    warm = SeaWater(T=273.15 + t_amb_c + dT, P=p_mpa, S=SA)
+    return warm.rho * w * area * frac * (warm.h - amb.h) * 1e3
+
+
+def test_heat_power_matches_iapws08_seawater():
+    # Source: IAPWS R13-08 via the `iapws` package (independent implementation of the TEOS-10 Gibbs function).
+    r = diffuse_discharge(Q_([12.0, 250.0], "m^2"), np.array([0.4, 0.05]), Q_([3.2, 18.0], "K"),
+                          Q_([0.8, 0.3], "cm/s"), Q_(2.1, "degC"), SP, Q_(P_ABS_MPA, "MPa"))
+    want = [_iapws_heat(12.0, 0.4, 3.2, 0.008, 2.1), _iapws_heat(250.0, 0.05, 18.0, 0.003, 2.1)]
+    np.testing.assert_allclose(r.heat_power.to("W").magnitude, want, rtol=1e-5)
+    np.testing.assert_allclose(r.volume_flux.to("m^3/s").magnitude, [12 * 0.4 * 0.008, 250 * 0.05 * 0.003])
+
+
+def test_cp_shortcut_is_reported_and_differs_for_large_anomaly():
+    # Shortcut ρ·w·A·cp(T_amb)·ΔT with cp from IAPWS R13-08 (`iapws` package) at ambient; 5 MPa so that
+    # 27 degC lies inside TEOS-10's funnel (McDougall et al. 2003, via gsw.infunnel).
+    r = diffuse_discharge(Q_([10.0], "m^2"), np.array([1.0]), Q_([25.0], "K"), Q_([1.0], "cm/s"),
+                          Q_(2.0, "degC"), SP, Q_(5.0, "MPa"))
+    assert not r.beyond_teos10.any()
+    amb = SeaWater(T=275.15, P=5.0, S=SA)
+    warm = SeaWater(T=300.15, P=5.0, S=SA)
+    want = warm.rho * 0.01 * 10 * amb.cp * 1e3 * 25.0
+    np.testing.assert_allclose(r.heat_power_cp_shortcut.to("W").magnitude, [want], rtol=1e-5)
+    np.testing.assert_allclose(r.heat_power.to("W").magnitude, [_iapws_heat(10, 1, 25.0, 0.01, 2.0, 5.0)], rtol=1e-5)
+    # seawater cp rises between 2 and 27 degC (IAPWS R13-08), so cp(T_amb)·ΔT falls short of Δh by a few 0.1 %
+    ratio = r.heat_power_cp_shortcut.magnitude[0] / r.heat_power.magnitude[0]
+    assert 0.99 < ratio < 0.9995
+
+
+def test_warm_fluid_beyond_teos10_funnel_uses_iapws95_at_both_ends():
+    # 2 -> 32 degC at 22 MPa is outside the funnel (gsw.infunnel); both ends then come from IAPWS-95
+    # (IAPWS R6-95(2018), as implemented independently by the `iapws` package: IAPWS95(T [K], P [MPa])).
+    from iapws import IAPWS95
+
+    r = diffuse_discharge(Q_([10.0], "m^2"), 1.0, Q_([30.0], "K"), Q_([1.0], "cm/s"), Q_(2.0, "degC"), SP,
+                          Q_(P_ABS_MPA, "MPa"))
+    assert r.beyond_teos10.all()
+    hot, cold = IAPWS95(T=305.15, P=P_ABS_MPA), IAPWS95(T=275.15, P=P_ABS_MPA)
+    want = hot.rho * 0.01 * 10 * (hot.h - cold.h) * 1e3
+    np.testing.assert_allclose(r.heat_power.to("W").magnitude, [want], rtol=2e-4)
+
+
+def test_anomaly_in_degc_is_a_difference():
+    # pint convention: degC is an offset unit; an anomaly of 2.5 degC means 2.5 K (definition of the Celsius scale).
+    assert temperature_difference(Q_(2.5, "degC")).magnitude == pytest.approx(2.5)
+    a = diffuse_discharge(Q_([5.0], "m^2"), 0.5, Q_([2.5], "degC"), Q_([1.0], "cm/s"), Q_(2, "degC"), SP, Q_(20, "MPa"))
+    b = diffuse_discharge(Q_([5.0], "m^2"), 0.5, Q_([2.5], "K"), Q_([1.0], "cm/s"), Q_(2, "degC"), SP, Q_(20, "MPa"))
+    np.testing.assert_allclose(a.heat_power.magnitude, b.heat_power.magnitude)
+
+
+def test_polygon_area_shoelace():
+    # Geometry: a 4 m × 3 m rectangle has 12 m²; the right triangle (0,0),(6,0),(0,5) has 15 m².
+    assert polygon_area(Q_([0, 4, 4, 0], "m"), Q_([0, 0, 3, 3], "m")).magnitude == pytest.approx(12.0)
+    assert polygon_area(Q_([0, 0, 600], "cm"), Q_([0, 5, 0], "m")).magnitude == pytest.approx(15.0)
+    with pytest.raises(InputError):
+        polygon_area(Q_([0, 1], "m"), Q_([0, 1], "m"))
+
+
+def test_bad_inputs_each_reported():
+    with pytest.raises(InputErrors) as e:
+        diffuse_discharge(Q_([-1.0], "m^2"), np.array([1.5]), Q_([0.0], "K"), Q_([-0.1], "cm/s"),
+                          Q_(2, "degC"), SP, Q_(20, "MPa"))
+    fields = [err.field for err in e.value.errors]
+    assert fields == ["area", "active fraction", "temperature anomaly", "velocity"]
+
+
+def test_boiling_diffuse_fluid_is_refused():
+    # Saturation temperature of water at 1 MPa is 179.9 degC (IAPWS R6-95; steam tables): 250 K above 2 degC boils.
+    with pytest.raises(InputError, match="saturation temperature"):
+        diffuse_discharge(Q_([1.0], "m^2"), 1.0, Q_([250.0], "K"), Q_([1.0], "cm/s"), Q_(2, "degC"), SP, Q_(1, "MPa"))
+
+
+@settings(max_examples=30, deadline=None)
+@given(st.floats(0.1, 30.0), st.floats(0.1, 30.0))
+def test_heat_power_increases_with_anomaly(d1, d2):
+    # Invariant: enthalpy increases with temperature at fixed pressure (positive heat capacity).
+    lo, hi = sorted((d1, d2))
+    r = diffuse_discharge(Q_([1.0, 1.0], "m^2"), 1.0, Q_([lo, hi], "K"), Q_(1.0, "cm/s"), Q_(2, "degC"), SP,
+                          Q_(20, "MPa"))
+    assert r.heat_power.magnitude[0] <= r.heat_power.magnitude[1]
+
+
+@settings(max_examples=20, deadline=None)
+@given(st.floats(0.01, 1000.0), st.floats(0.0, 1.0), st.floats(0.05, 20.0), st.floats(1e-4, 0.1))
+def test_unit_invariance(area, frac, dT, w):
+    # Invariant: the same physical inputs in other units give the same answer.
+    a = diffuse_discharge(Q_([area], "m^2"), frac, Q_([dT], "K"), Q_([w], "m/s"), Q_(2.0, "degC"), SP, Q_(20, "MPa"))
+    b = diffuse_discharge(Q_([area * 1e4], "cm^2"), frac, Q_([dT * 1.8], "delta_degF"), Q_([w * 100], "cm/s"),
+                          Q_(275.15, "K"), SP, Q_(2000, "dbar"))
+    np.testing.assert_allclose(a.heat_power.to("W").magnitude, b.heat_power.to("W").magnitude, rtol=1e-9)
+
+
+def test_draw_axis_broadcasts_and_matches_one_by_one():
+    area = Q_(np.array([10.0, 20.0]), "m^2")
+    w = Q_(np.array([[0.5, 1.0, 1.5], [0.2, 0.4, 0.6]]), "cm/s")
+    r = diffuse_discharge(area, np.array([0.3, 0.6]), Q_(np.array([3.0, 4.0]), "K"), w, Q_(2, "degC"), SP,
+                          Q_(20, "MPa"))
+    assert r.heat_power.shape == (2, 3)
+    one = diffuse_discharge(Q_([20.0], "m^2"), 0.6, Q_([4.0], "K"), Q_([0.4], "cm/s"), Q_(2, "degC"), SP,
+                            Q_(20, "MPa"))
+    assert r.heat_power.magnitude[1, 1] == pytest.approx(one.heat_power.magnitude[0])
+
+
+def test_monte_carlo_spread_follows_velocity_spread():
+    # Linear propagation (first-order): H ∝ w, so sd(H)/H = sd(w)/w for a normal w with small spread.
+    nom, dr = diffuse_discharge_uncertain(Q_([10.0, 30.0], "m^2"), np.array([0.5, 0.2]), Q_([3.0, 5.0], "K"),
+                                          parse_uncertain("1.0 ± 0.05 cm/s", "velocity", "v"), Q_(2, "degC"), SP,
+                                          Q_(20, "MPa"), draws=4000, seed=1)
+    tot = dr.total_heat_power.magnitude
+    assert tot.std() / nom.total_heat_power.magnitude == pytest.approx(0.05, rel=0.08)
+    assert tot.mean() == pytest.approx(nom.total_heat_power.magnitude, rel=0.01)
+
+
+def test_scale_up_ratio_and_bootstrap_standard_error():
+    # Ratio estimator ΣH/ΣA × mapped area; with equal patch areas the bootstrap standard error of the ratio is
+    # the bootstrap SE of a mean, sqrt((n-1)/n)·s/sqrt(n) (Efron & Tibshirani 1993, eq. 5.11 and ch. 6).
+    rng = np.random.default_rng(3)
+    q = rng.uniform(50, 150, 12)  # W/m² of each patch
+    area = Q_(np.full(12, 2.0), "m^2")
+    H = Q_(np.repeat((q * 2.0)[:, None], 4000, axis=1), "W")
+    V = Q_(np.repeat((q * 1e-5)[:, None], 4000, axis=1), "m^3/s")
+    su = scale_up_by_area_class(["mat"] * 12, area, H, V, ["mat"], Q_(np.full((1, 4000), 500.0), "m^2"), seed=5)
+    flux = su.heat_flux_density.magnitude[0]
+    assert flux.mean() == pytest.approx(q.mean(), rel=0.01)
+    se = np.sqrt(11 / 12) * q.std(ddof=1) / np.sqrt(12)
+    assert flux.std() == pytest.approx(se, rel=0.08)
+    assert su.heat_power.magnitude[0].mean() == pytest.approx(500.0 * q.mean(), rel=0.01)
+    # without draws: plain ratio
+    nd = scale_up_by_area_class(["mat", "crack"], Q_([2.0, 4.0], "m^2"), Q_([100.0, 40.0], "W"),
+                                Q_([1e-4, 2e-4], "m^3/s"), ["mat", "crack"], Q_([10.0, 100.0], "m^2"))
+    np.testing.assert_allclose(nd.heat_power.magnitude, [500.0, 1000.0])
+    np.testing.assert_allclose(nd.volume_flux.magnitude, [5e-4, 5e-3])
+
+
+def test_scale_up_refuses_unsampled_class():
+    with pytest.raises(InputError, match="at least one sampled patch"):
+        scale_up_by_area_class(["mat"], Q_([2.0], "m^2"), Q_([1.0], "W"), Q_([1.0], "m^3/s"), ["sediment"],
+                               Q_([10.0], "m^2"))
+
+
+def _write(path, text):
+    path.write_text(text)
+    return str(path)
+
+
+def test_patch_table_reports_bad_rows_by_line(tmp_path):
+    p = _write(tmp_path / "p.csv", "patch,class,area [m^2],active_fraction,temperature_anomaly [K]\n"
+                                   "A,mat,4,0.5,2\nB,mat,-1,0.5,2\nC,mat,3,1.2,0\n")
+    with pytest.raises(InputErrors) as e:
+        read_patch_table(p)
+    lines = e.value.lines()
+    assert any(":3: area" in s for s in lines) and any(":4: active_fraction" in s for s in lines)
+    assert any(":4: temperature_anomaly" in s for s in lines)
+
+
+def test_cli_table_polygons_and_scale_up(tmp_path, capsys):
+    patches = _write(tmp_path / "patches.csv",
+                     "patch,class,active_fraction,temperature_anomaly [degC],temperature_anomaly_sd [K]\n"
+                     "P1,mat,0.5,3.0,0.3\nP2,mat,0.3,5.0,0.5\nP3,basalt,0.1,1.5,0.2\n")
+    polys = _write(tmp_path / "poly.csv", "patch,x [m],y [m]\nP1,0,0\nP1,2,0\nP1,2,2\nP2,0,0\nP2,3,0\nP2,0,2\n"
+                                          "P3,0,0\nP3,10,0\nP3,10,1\nP3,0,1\n")
+    classes = _write(tmp_path / "classes.csv", "class,area [m^2],area_sd [m^2]\nmat,400,40\nbasalt,2000,300\n")
+    rc = main(["diffuse", "--patches", patches, "--polygons", polys, "--classes", classes, "--velocity",
+               "0.5 ± 0.1 cm/s", "--ambient-temperature", "2.0 degC", "--depth", "2000 m", "--draws", "500",
+               "--json"])
+    assert rc == 0
+    out = json.loads(capsys.readouterr().out)
+    assert [p["effective_area_m2"] for p in out["patches"]] == pytest.approx([1.0, 0.9, 1.0])  # triangle 2 m² × 0.5, triangle 3 m² × 0.3, 10 m² × 0.1
+    su = out["scale_up"]
+    assert [c["class"] for c in su["classes"]] == ["mat", "basalt"]
+    assert su["heat_power_MW_p05"] < su["heat_power_MW_median"] < su["heat_power_MW_p95"]
+    assert out["heat_power_cp_shortcut_MW"] == pytest.approx(out["heat_power_MW"], rel=0.01)
+
+
+@pytest.mark.parametrize("args, field", [
+    (["--area", "-3 m^2", "--active-fraction", "0.5", "--anomaly", "2 K", "--velocity", "1 cm/s"], "area"),
+    (["--area", "3 m^2", "--active-fraction", "1.5", "--anomaly", "2 K", "--velocity", "1 cm/s"], "active fraction"),
+    (["--area", "3 m^2", "--active-fraction", "0.5", "--anomaly", "-2 K", "--velocity", "1 cm/s"],
+     "temperature anomaly"),
+    (["--area", "3 m^2", "--active-fraction", "0.5", "--anomaly", "2 K", "--velocity", "0 cm/s"], "velocity"),
+])
+def test_cli_bad_input_one_line_exit_2(capsys, args, field):
+    rc = main(["diffuse", *args, "--ambient-temperature", "2 degC", "--depth", "2000 m", "--draws", "100"])
+    assert rc == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and f"error: {field}:" in err[0] and "Traceback" not in err[0]
