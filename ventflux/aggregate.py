@@ -1,0 +1,409 @@
+"""Field totals with correlated Monte Carlo draws, the focused/diffuse split, and method comparison.
+
+Shared inputs
+-------------
+Vents measured with the same instrument share its error: one pixel scale for
+every vent filmed through one camera, one probe calibration for every patch,
+one CTD cast for every ambient temperature. If each vent drew its own value,
+the errors would average away in the field total (its spread would grow as
+√n instead of n). ``SharedDraws`` hands out draws by input *name*: every
+consumer asking for ``"camera-2 pixel scale"`` gets the same array, so draw
+``j`` of every vent uses the same scale. Names that are unique to one vent
+(``"vent A/velocity"``) give independent draws. Each name seeds its own
+random stream from the run's seed and the name, so the draws depend neither
+on the order in which inputs are asked for nor on which other inputs exist.
+
+Per-item draws are arrays of shape ``(n_items, n_draws)`` whose column ``j``
+is one consistent realization of the whole field; ``field_total`` sums over
+items within each draw and summarizes the totals.
+
+Method comparison and combination
+---------------------------------
+Where one vent has several estimates (orifice measurements, video, plume
+rise), each is a set of draws of heat power. Errors of such estimates are
+multiplicative, so they are compared and combined on log power.
+
+*Consistency.* For each pair the normalized difference is
+``z = mean(ln a − ln b) / sd(ln a − ln b)``, taken over the paired draws, so a
+shared input (one exit temperature for both methods) enters the spread of the
+difference exactly as it should. A pair is consistent when ``|z| ≤ 2``
+(about the 95 % two-sided level of a normal difference); the vent is
+consistent when every pair is. Whether the 90 % intervals overlap is
+reported beside it as a looser, visual check.
+
+*Combination.* The best linear unbiased estimate on log power [1, 2]:
+weights ``w = C⁻¹1 / (1ᵀC⁻¹1)`` with ``C`` the covariance of the methods' log
+draws (independent methods make ``C`` diagonal and this is inverse-variance
+weighting; correlated ones can give a weight below zero, which is correct
+for the linear model [2]). The weights are applied to each draw,
+``ln P_j = Σ wᵢ ln Pᵢⱼ``, so the combined draws stay aligned with the shared
+inputs of other vents and the field total keeps its correlations. If the
+methods disagree beyond their errors (``χ² = rᵀC⁻¹r`` above its degrees of
+freedom ``n − 1``), the spread about the combined value is widened by the
+scale factor ``S = √(χ²/(n − 1))`` [3].
+
+References
+----------
+.. [1] Aitken, A. C. (1935). On least squares and linear combination of
+   observations. Proc. R. Soc. Edinburgh 55, 42–48.
+.. [2] Lyons, L., Gibaut, D. and Clifford, P. (1988). How to combine
+   correlated estimates of a single physical quantity. Nucl. Instrum.
+   Methods A 270, 110–117.
+.. [3] Birge, R. T. (1932). The calculation of errors by the method of least
+   squares. Phys. Rev. 40, 207–227 (the scale factor used in the Particle
+   Data Group's averages).
+"""
+
+from __future__ import annotations
+
+import zlib
+from dataclasses import dataclass, field
+
+import numpy as np
+import pint
+
+from .errors import InputError
+from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Summary, Uncertain, summarize
+from .units import Q_
+
+#: |z| at or below which two methods agree (about 95 % two-sided for a normal difference).
+CONSISTENCY_LIMIT = 2.0
+
+
+class SharedDraws:
+    """Monte Carlo draws of named inputs; one name, one draw array, for every consumer.
+
+    Parameters
+    ----------
+    n_draws : int
+        Draws per input.
+    seed : int, optional
+        Run seed; each name's stream is seeded from ``(seed, crc32(name))``.
+
+    Examples
+    --------
+    >>> d = SharedDraws(1000, seed=1)
+    >>> from ventflux.uncertainty import normal
+    >>> s = normal(Q_(1.0, "dimensionless"), Q_(0.02, "dimensionless"))
+    >>> a = d.draw("camera pixel scale", s)
+    >>> b = d.draw("camera pixel scale", s)
+    >>> bool((a == b).all())
+    True
+    """
+
+    def __init__(self, n_draws: int = DEFAULT_DRAWS, seed: int | None = DEFAULT_SEED):
+        if int(n_draws) < 2:
+            raise InputError("draws", n_draws, "at least 2 Monte Carlo draws")
+        self.n_draws = int(n_draws)
+        self.seed = DEFAULT_SEED if seed is None else int(seed)
+        self._shared: dict[str, pint.Quantity] = {}
+        self._known: dict[str, object] = {}
+
+    def _rng(self, name: str) -> np.random.Generator:
+        return np.random.default_rng(np.random.SeedSequence([self.seed, zlib.crc32(name.encode("utf-8"))]))
+
+    def _register(self, name: str, value):
+        if not isinstance(name, str) or not name:
+            raise InputError("input name", name, "a non-empty name for the input")
+        previous = self._known.get(name)
+        if previous is not None and not _same(previous, value):
+            raise InputError(name, str(value), f"the value already given under this name ({previous}); "
+                             "inputs that share a name share their draws, so give different inputs different names")
+        self._known[name] = value
+
+    def draw(self, name: str, value) -> pint.Quantity:
+        """Draws of the input ``name`` (shape ``(n_draws,)``); the same array on every call.
+
+        An exact quantity is returned unchanged and broadcasts.
+        """
+        self._register(name, value)
+        if not isinstance(value, Uncertain):
+            return value
+        if name not in self._shared:
+            self._shared[name] = value.sample(self.n_draws, self._rng(name))
+        return self._shared[name]
+
+    def draw_each(self, names, values, unit: str | None = None) -> pint.Quantity:
+        """Independent draws for per-item inputs, stacked to shape ``(n_items, n_draws)``.
+
+        ``names`` are the inputs' names (unique per item, e.g. ``"vent A/velocity"``);
+        exact values are repeated along the draws. The arrays are not kept:
+        the same names give the same draws on every call, because each name
+        seeds its own stream.
+        """
+        names, values = list(names), list(values)
+        if len(names) != len(values):
+            raise InputError("names", f"{len(names)} names", f"one name per value ({len(values)})")
+        if not values:
+            raise InputError("values", "none", "at least one item")
+        unit = unit or (values[0].unit if isinstance(values[0], Uncertain) else str(values[0].units))
+        out = np.empty((len(values), self.n_draws))
+        for i, (name, value) in enumerate(zip(names, values)):
+            self._register(name, value)
+            q = value.sample(self.n_draws, self._rng(name)) if isinstance(value, Uncertain) else value
+            out[i] = q.to(unit).magnitude
+        return Q_(out, unit)
+
+    def names(self) -> list[str]:
+        return sorted(self._known)
+
+    def shared_names(self) -> list[str]:
+        """Names drawn through ``draw`` (the inputs shared between items)."""
+        return sorted(self._shared)
+
+    def describe(self) -> dict:
+        """Every input by name with its distribution or value, for provenance."""
+        return {k: str(self._known[k]) for k in sorted(self._known)}
+
+    def __contains__(self, name):
+        return name in self._known
+
+    def __len__(self):
+        return len(self._known)
+
+
+def _same(a, b) -> bool:
+    if isinstance(a, Uncertain) or isinstance(b, Uncertain):
+        return a == b
+    try:
+        return bool(np.all(np.asarray(a.to(b.units).magnitude) == np.asarray(b.magnitude)))
+    except Exception:
+        return False
+
+
+@dataclass(frozen=True)
+class FieldTotal:
+    """Field total: its Monte Carlo summary, the per-draw totals and the number of items."""
+
+    summary: Summary
+    draws: pint.Quantity
+    n_items: int
+
+
+def _chunks(per_item):
+    if isinstance(per_item, pint.Quantity):
+        return [per_item]
+    return per_item
+
+
+def field_total(per_item, unit: str | None = None, seed: int | None = None) -> FieldTotal:
+    """Sum per-item draws within each draw and summarize the field total.
+
+    Parameters
+    ----------
+    per_item : pint.Quantity or iterable of pint.Quantity
+        Draws of shape ``(n_items, n_draws)`` (or ``(n_items, 1)`` for exact
+        items, or ``(n_draws,)`` for one item), or an iterable of such chunks
+        (e.g. a generator over groups of vents, to bound memory). Every draw
+        column must be one realization of the shared inputs (see
+        ``SharedDraws``).
+    unit : str, optional
+        Unit of the result; default that of the first chunk.
+    seed : int, optional
+        Recorded in the summary.
+
+    Returns
+    -------
+    FieldTotal
+    """
+    total = None
+    n_items = 0
+    for chunk in _chunks(per_item):
+        if not isinstance(chunk, pint.Quantity):
+            raise InputError("per-item draws", type(chunk).__name__, "pint quantity arrays")
+        unit = unit or str(chunk.units)
+        m = np.asarray(chunk.to(unit).magnitude, float)
+        m = m.reshape(1, -1) if m.ndim <= 1 else m
+        n_items += m.shape[0]
+        part = m.sum(axis=0)
+        if total is not None and part.size != total.size and 1 not in (part.size, total.size):
+            raise InputError("per-item draws", f"{part.size} draws", f"the same number of draws ({total.size})")
+        total = part if total is None else total + part
+    if total is None:
+        raise InputError("per-item draws", "none", "at least one item")
+    q = Q_(total, unit)
+    return FieldTotal(summary=summarize(q, seed), draws=q, n_items=n_items)
+
+
+def summarize_items(per_item: pint.Quantity, unit: str | None = None) -> dict:
+    """Mean, median, 5th and 95th percentile and standard deviation of each row (item).
+
+    Returns a dict of quantity arrays of length ``n_items`` (vectorized over items).
+    """
+    unit = unit or str(per_item.units)
+    m = np.atleast_2d(np.asarray(per_item.to(unit).magnitude, float))
+    p05, med, p95 = np.nanpercentile(m, [5, 50, 95], axis=1)
+    sd = np.nanstd(m, axis=1, ddof=1) if m.shape[1] > 1 else np.zeros(m.shape[0])
+    return {"mean": Q_(np.nanmean(m, axis=1), unit), "median": Q_(med, unit), "p05": Q_(p05, unit),
+            "p95": Q_(p95, unit), "std": Q_(sd, unit)}
+
+
+@dataclass(frozen=True)
+class FocusedDiffuseSplit:
+    """Focused, diffuse and total output, and the diffuse fraction, per draw and summarized."""
+
+    focused: Summary
+    diffuse: Summary
+    total: Summary
+    diffuse_fraction: Summary
+    draws: dict
+
+    def as_dict(self, name: str = "heat_power", unit: str = "MW") -> dict:
+        out = {}
+        for part in ("focused", "diffuse", "total"):
+            out.update(getattr(self, part).as_dict(f"{part}_{name}", unit))
+        out.update(self.diffuse_fraction.as_dict("diffuse_fraction", "dimensionless"))
+        return out
+
+
+def focused_diffuse_split(focused, diffuse, seed: int | None = None) -> FocusedDiffuseSplit:
+    """Split of a field's output into focused and diffuse parts, with uncertainty.
+
+    Parameters
+    ----------
+    focused, diffuse : pint.Quantity or FieldTotal
+        Per-draw totals of shape ``(n_draws,)`` from the same ``SharedDraws``
+        (draw ``j`` of each is one realization of the field), or scalars.
+
+    Returns
+    -------
+    FocusedDiffuseSplit
+        The diffuse fraction ``D / (F + D)`` is computed draw by draw, so an
+        input shared by both parts (an ambient temperature) is not counted twice.
+    """
+    f = focused.draws if isinstance(focused, FieldTotal) else focused
+    d = diffuse.draws if isinstance(diffuse, FieldTotal) else diffuse
+    unit = str(f.units)
+    fm, dm = np.broadcast_arrays(np.atleast_1d(f.to(unit).magnitude), np.atleast_1d(d.to(unit).magnitude))
+    total = fm + dm
+    if np.any(total <= 0):
+        raise InputError("field total", f"{np.min(total):g} {unit}", "a positive total of focused and diffuse output")
+    draws = {"focused": Q_(fm, unit), "diffuse": Q_(dm, unit), "total": Q_(total, unit),
+             "diffuse_fraction": Q_(dm / total, "dimensionless")}
+    return FocusedDiffuseSplit(**{k: summarize(v, seed) for k, v in draws.items()}, draws=draws)
+
+
+@dataclass(frozen=True)
+class MethodPair:
+    """Agreement of two methods for one vent."""
+
+    first: str
+    second: str
+    ratio: float  # exp(mean ln(first/second))
+    normalized_difference: float  # z
+    intervals_overlap: bool  # 90 % intervals
+    consistent: bool  # |z| ≤ limit
+
+
+@dataclass(frozen=True)
+class MethodComparison:
+    """Several methods' estimates for one vent, their agreement and their combination."""
+
+    methods: dict  # name → Summary
+    pairs: list
+    consistent: bool
+    combined: Summary
+    combined_draws: pint.Quantity
+    weights: dict  # name → weight on log power
+    scale_factor: float  # Birge factor applied (≥ 1)
+    chi_squared: float
+    limit: float = CONSISTENCY_LIMIT
+    rule: str = field(default="best linear unbiased estimate on log power, draws' covariance, Birge scale factor")
+
+    def rows(self, name: str = "heat_power", unit: str = "MW") -> list[dict]:
+        """One row per method plus the combination, units in the keys (for a CSV table)."""
+        rows = []
+        for meth, s in self.methods.items():
+            rows.append({"method": meth, **s.as_dict(name, unit), "weight": self.weights[meth]})
+        rows.append({"method": "combined", **self.combined.as_dict(name, unit), "weight": float("nan")})
+        return rows
+
+    def pair_rows(self) -> list[dict]:
+        return [{"first": p.first, "second": p.second, "ratio": p.ratio,
+                 "normalized_difference": p.normalized_difference, "intervals_overlap": p.intervals_overlap,
+                 "consistent": p.consistent} for p in self.pairs]
+
+
+def _log_draws(estimates: dict, unit: str):
+    names = list(estimates)
+    if len(names) < 1:
+        raise InputError("methods", "none", "at least one method's estimate")
+    arrays = []
+    for n in names:
+        v = np.atleast_1d(np.asarray(estimates[n].to(unit).magnitude, float))
+        if np.any(~np.isfinite(v)) or np.any(v <= 0):
+            raise InputError(f"{n} estimate", f"{np.nanmin(v):g} {unit}", "positive, finite draws")
+        arrays.append(v)
+    sizes = {a.size for a in arrays}
+    if len(sizes) != 1:
+        raise InputError("methods", "draws of " + ", ".join(str(a.size) for a in arrays),
+                         "the same number of draws for every method (one SharedDraws for the whole run)")
+    return names, np.log(np.vstack(arrays))
+
+
+def compare_methods(estimates: dict, unit: str = "MW", limit: float = CONSISTENCY_LIMIT,
+                    seed: int | None = None) -> MethodComparison:
+    """Compare and combine several methods' draws of one vent's output.
+
+    Parameters
+    ----------
+    estimates : dict
+        Method name → draws (pint quantity, shape ``(n_draws,)``), all from
+        the same ``SharedDraws`` so that draw ``j`` is one realization.
+    unit : str, default "MW"
+    limit : float, default 2
+        Largest ``|z|`` at which a pair counts as consistent.
+    seed : int, optional
+        Recorded in the summaries.
+
+    Returns
+    -------
+    MethodComparison
+        See the module notes for the rule; with one method the combination is
+        that method.
+
+    References
+    ----------
+    .. [1] Aitken (1935); [2] Lyons, Gibaut & Clifford (1988); [3] Birge (1932).
+    """
+    names, L = _log_draws(estimates, unit)
+    n, m = L.shape
+    summaries = {k: summarize(Q_(np.exp(L[i]), unit), seed) for i, k in enumerate(names)}
+    lo, hi = np.percentile(L, [5, 95], axis=1)
+    pairs = []
+    for i in range(n):
+        for j in range(i + 1, n):
+            diff = L[i] - L[j]
+            sd = diff.std(ddof=1) if m > 1 else 0.0
+            mean = diff.mean()
+            z = mean / sd if sd > 0 else (0.0 if mean == 0 else np.inf * np.sign(mean))
+            pairs.append(MethodPair(names[i], names[j], float(np.exp(mean)), float(z),
+                                    bool(lo[i] <= hi[j] and lo[j] <= hi[i]), bool(abs(z) <= limit)))
+    mu = L.mean(axis=1)
+    if n == 1:
+        w = np.ones(1)
+        chi2, scale = 0.0, 1.0
+    else:
+        C = np.atleast_2d(np.cov(L))
+        try:
+            Ci = np.linalg.inv(C)
+        except np.linalg.LinAlgError:
+            raise InputError("methods", ", ".join(names),
+                             "methods whose estimates are not exact copies of each other (covariance is singular)") \
+                from None
+        one = np.ones(n)
+        w = Ci @ one / (one @ Ci @ one)
+        r = mu - w @ mu
+        chi2 = float(r @ Ci @ r)
+        scale = max(1.0, float(np.sqrt(chi2 / (n - 1))))
+    centre = float(w @ mu)
+    combined_log = centre + scale * (w @ L - centre)
+    combined = Q_(np.exp(combined_log), unit)
+    return MethodComparison(methods=summaries, pairs=pairs, consistent=all(p.consistent for p in pairs),
+                            combined=summarize(combined, seed), combined_draws=combined,
+                            weights={k: float(w[i]) for i, k in enumerate(names)}, scale_factor=scale,
+                            chi_squared=chi2, limit=float(limit))
+
+
+__all__ = ["SharedDraws", "FieldTotal", "field_total", "summarize_items", "FocusedDiffuseSplit",
+           "focused_diffuse_split", "MethodPair", "MethodComparison", "compare_methods", "CONSISTENCY_LIMIT"]
