@@ -45,6 +45,8 @@ DIMENSIONS = {
     "specific energy": "[length] ** 2 / [time] ** 2",
     "diffusivity": "[length] ** 2 / [time]",
     "energy per area": "[mass] / [time] ** 2",
+    "energy per length": "[mass] * [length] / [time] ** 2",
+    "volumetric heat capacity": "[mass] / [length] / [time] ** 2 / [temperature]",
 }
 
 _EXAMPLES = {
