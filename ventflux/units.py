@@ -47,6 +47,9 @@ DIMENSIONS = {
     "energy per area": "[mass] / [time] ** 2",
     "energy per length": "[mass] * [length] / [time] ** 2",
     "volumetric heat capacity": "[mass] / [length] / [time] ** 2 / [temperature]",
+    "volume flux": "[length] ** 3 / [time]",
+    "momentum flux": "[length] ** 4 / [time] ** 2",
+    "buoyancy flux": "[length] ** 4 / [time] ** 3",
 }
 
 _EXAMPLES = {
