@@ -1,0 +1,369 @@
+"""Ambient water-column profiles: a CTD cast, or a constant buoyancy frequency.
+
+A CTD cast is a CSV whose headers carry units (``ventflux.tables``): a depth
+or a pressure column, in-situ ``temperature`` and practical ``salinity``::
+
+    pressure [dbar],temperature [degC],salinity
+    1800.0,2.61,34.58
+    ...
+
+A ``pressure`` column is *sea pressure* (zero at the sea surface), as CTDs
+report it; a ``depth`` column is metres below the sea surface, positive down.
+With only one of them the other follows from TEOS-10's ``p_from_z`` /
+``z_from_p`` at the given latitude (0° if none). TEOS-10 [1]_ then gives
+absolute salinity (the position-dependent anomaly when latitude and
+longitude are both given, the reference salinity otherwise), conservative
+temperature, potential density (reference 0 dbar) and the squared buoyancy
+frequency N² (``gsw.Nsquared``).
+
+Processing, in this order:
+
+1. **Order.** Depths must increase (down-cast) or decrease (up-cast) strictly
+   from row to row; a cast with loops or repeated depths is refused, naming
+   the first line that breaks the order. Up-casts are reversed.
+2. **Validity.** Every row must lie in TEOS-10's oceanographic funnel [2]_.
+3. **Binning.** Rows are averaged in depth bins ``window`` wide (default
+   ``DEFAULT_WINDOW``, 5 m; ``window=None`` keeps every row). Averaging SA and
+   CT (not in-situ temperature) keeps the averages conservative. This removes
+   sensor noise and salinity spiking at scales far below a plume's rise of
+   tens to hundreds of metres while keeping the structure that sets it (a
+   choice made here; common practice, no source).
+4. **Stability.** N² < 0 between bins is kept when the unstable stretch is
+   short (a noise or mixing inversion; the plume model works with densities
+   directly and copes with it), and the cast is refused when a contiguous
+   unstable stretch is longer than ``max_unstable`` (default
+   ``DEFAULT_MAX_UNSTABLE``, 50 m; a choice made here, no source), because a
+   water column overturning over such a height is not steady.
+
+References
+----------
+.. [1] IOC, SCOR and IAPSO (2010). The international thermodynamic equation of
+   seawater – 2010: Calculation and use of thermodynamic properties.
+   Intergovernmental Oceanographic Commission, Manuals and Guides No. 56.
+.. [2] McDougall, T. J. and Barker, P. M. (2011). Getting started with TEOS-10
+   and the Gibbs Seawater (GSW) Oceanographic Toolbox, SCOR/IAPSO WG127.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import gsw
+import numpy as np
+
+from .errors import InputError
+from .properties.seawater import STANDARD_ATMOSPHERE, absolute_salinity, check_funnel, sea_pressure_dbar
+from .tables import read_quantity_table
+from .units import Q_, magnitude, require_dimension
+
+#: Default bin width for a CTD cast (a choice made here; see the module notes).
+DEFAULT_WINDOW = Q_(5.0, "m")
+#: Longest contiguous stretch with N² < 0 that a cast may have (a choice made here).
+DEFAULT_MAX_UNSTABLE = Q_(50.0, "m")
+#: Grid spacing of a constant-N profile (fine enough that linear interpolation is exact to < 1e-6 K).
+CONSTANT_N_SPACING = Q_(2.0, "m")
+
+
+@dataclass(frozen=True)
+class AmbientProfile:
+    """A water column ordered by increasing depth; every field a quantity array.
+
+    Attributes
+    ----------
+    depth : metres below the sea surface (positive down, increasing).
+    sea_pressure : dbar (absolute pressure minus one standard atmosphere).
+    temperature : in-situ temperature.
+    practical_salinity : PSS-78 (dimensionless).
+    absolute_salinity, conservative_temperature : TEOS-10 (g/kg, degC).
+    potential_density : TEOS-10 density at the sea surface pressure (kg/m³).
+    buoyancy_frequency_squared : N² (1/s²) at ``n2_depth``, between the points.
+    n2_depth : depths of the N² values (midpoints).
+    latitude, longitude : degrees, or None.
+    source : where the profile came from (a file path, or ``"constant N"``).
+    window : bin width used (None: no binning).
+    """
+
+    depth: object
+    sea_pressure: object
+    temperature: object
+    practical_salinity: object
+    absolute_salinity: object
+    conservative_temperature: object
+    potential_density: object
+    buoyancy_frequency_squared: object
+    n2_depth: object
+    latitude: float | None
+    longitude: float | None
+    source: str
+    window: object = None
+
+    @property
+    def bottom(self):
+        """Depth of the deepest point."""
+        return self.depth[-1]
+
+    @property
+    def top(self):
+        """Depth of the shallowest point."""
+        return self.depth[0]
+
+    def at_depth(self, depth):
+        """SA [g/kg], CT [degC] and sea pressure [dbar] interpolated at ``depth`` (plain arrays)."""
+        z = np.asarray(magnitude(depth, "m", "length", "depth"), float)
+        d = self.depth.to("m").magnitude
+        return (np.interp(z, d, self.absolute_salinity.to("g/kg").magnitude),
+                np.interp(z, d, self.conservative_temperature.to("degC").magnitude),
+                np.interp(z, d, self.sea_pressure.to("dbar").magnitude))
+
+    def mean_buoyancy_frequency(self, lower_depth, height):
+        """Depth-weighted mean N over ``height`` above ``lower_depth``: sqrt(∫N² dz / height).
+
+        Negative stretches count against the mean; a non-positive mean gives NaN.
+        Arrays broadcast; plain SI floats in and out (m, 1/s).
+        """
+        z2 = np.asarray(lower_depth, float)
+        z1 = z2 - np.asarray(height, float)
+        d = self.n2_depth.to("m").magnitude
+        n2 = self.buoyancy_frequency_squared.to("1/s^2").magnitude
+        # Cumulative integral of N² on the midpoint grid, then differences.
+        dd = np.concatenate([[self.depth[0].to("m").magnitude], d, [self.depth[-1].to("m").magnitude]])
+        nn = np.concatenate([[n2[0]], n2, [n2[-1]]])
+        cum = np.concatenate([[0.0], np.cumsum(0.5 * (nn[1:] + nn[:-1]) * np.diff(dd))])
+        integral = np.interp(z2, dd, cum) - np.interp(z1, dd, cum)
+        with np.errstate(invalid="ignore", divide="ignore"):
+            mean = integral / (z2 - z1)
+        return np.where(mean > 0, np.sqrt(np.abs(mean)), np.nan)
+
+
+def _degrees(x, field):
+    if x is None:
+        return None
+    v = float(x.to("degree").magnitude) if hasattr(x, "to") else float(x)
+    limit = 90 if field == "latitude" else 360
+    if not -limit <= v <= limit:
+        raise InputError(field, f"{v:g}", f"degrees between {-limit} and {limit}")
+    return v
+
+
+def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
+                  max_unstable=DEFAULT_MAX_UNSTABLE) -> AmbientProfile:
+    """Read and process a CTD cast into an ``AmbientProfile``.
+
+    Parameters
+    ----------
+    path : path-like
+        CSV with ``depth [m]`` and/or ``pressure [dbar]`` (sea pressure),
+        ``temperature [degC]`` (in situ) and ``salinity`` (practical).
+    latitude, longitude : float (degrees) or pint.Quantity, optional
+        Position; latitude sets gravity and the depth–pressure relation, and
+        both together give TEOS-10's absolute-salinity anomaly.
+    window : pint.Quantity (length) or None
+        Bin width (see the module notes); None keeps every row.
+    max_unstable : pint.Quantity (length)
+        Longest contiguous stretch with N² < 0 that is accepted.
+
+    Returns
+    -------
+    AmbientProfile
+
+    Raises
+    ------
+    InputError or InputErrors
+        Missing columns, non-numeric cells, a non-monotonic or unstable cast,
+        or rows outside TEOS-10's validity, each with file and line.
+    """
+    lat = _degrees(latitude, "latitude")
+    lon = _degrees(longitude, "longitude")
+    tbl = read_quantity_table(path, columns={"temperature": "temperature", "salinity": "dimensionless"},
+                              optional={"depth": "length", "pressure": "pressure"},
+                              alternatives=[("depth", "pressure")])
+    where = lambda i: f"{path}:{tbl.lines[i]}"  # noqa: E731
+    lat0 = 0.0 if lat is None else lat
+    if "pressure" in tbl:
+        p = tbl["pressure"].to("dbar").magnitude  # sea pressure, as a CTD reports it
+        key, label = p, "pressure"
+    if "depth" in tbl:
+        z = tbl["depth"].to("m").magnitude
+        key, label = z, "depth"
+    if "pressure" not in tbl:
+        p = gsw.p_from_z(-z, lat0)
+    if "depth" not in tbl:
+        z = -gsw.z_from_p(p, lat0)
+    step = np.diff(key)
+    if key.size > 1:
+        sign = 1.0 if step[0] > 0 else -1.0
+        bad = np.flatnonzero(~(sign * step > 0))
+        if bad.size:
+            i = bad[0] + 1
+            raise InputError(label, f"{key[i]:g}", f"values that strictly {'increase' if sign > 0 else 'decrease'} "
+                             f"row by row (a single down- or up-cast); after {key[i - 1]:g}", where=where(i))
+    order = np.argsort(z)
+    t = tbl["temperature"].to("degC").magnitude
+    sp = tbl["salinity"].to("dimensionless").magnitude
+    for name, v, lo, hi in (("depth", z, 0, 11000), ("salinity", sp, 0, 42)):
+        bad = np.flatnonzero((v < lo) | (v > hi))
+        if bad.size:
+            raise InputError(name, f"{v[bad[0]]:g}", f"a value from {lo} to {hi}", where=where(bad[0]))
+    SA = absolute_salinity(sp, p, lon, lat)
+    CT = gsw.CT_from_t(SA, t, p)
+    outside = np.flatnonzero(~np.asarray(gsw.infunnel(SA, CT, p), bool))
+    if outside.size:
+        i = outside[0]
+        raise InputError("temperature", f"{t[i]:g} degC at {p[i]:.0f} dbar",
+                         "seawater within TEOS-10's validity (freezing point to 40 degC, 0-8000 dbar)",
+                         where=where(i))
+    z, p, SA, CT, t, sp = (a[order] for a in (z, p, SA, CT, t, sp))
+    if window is not None:
+        w = float(magnitude(require_dimension(window, "length", "window"), "m"))
+        if not w > 0:
+            raise InputError("window", f"{window:~P}", "a bin width > 0 m, or none")
+        z, p, SA, CT, t, sp = _bin(w, z, p, SA, CT, t, sp)
+    if z.size < 3:
+        raise InputError("ctd cast", str(path), "at least 3 depth levels after binning (a longer cast or a "
+                         "narrower window)")
+    prof = _profile(z, p, SA, CT, t, sp, lat, lon, str(path), window)
+    _check_stability(prof, max_unstable, path)
+    return prof
+
+
+def _bin(w, z, *cols):
+    """Average every column in depth bins ``w`` wide; empty bins are dropped."""
+    k = np.floor((z - z[0]) / w).astype(int)
+    counts = np.bincount(k)
+    keep = counts > 0
+    out = [np.bincount(k, weights=c)[keep] / counts[keep] for c in (z, *cols)]
+    return out
+
+
+def _profile(z, p, SA, CT, t, sp, lat, lon, source, window):
+    n2, p_mid = gsw.Nsquared(SA, CT, p, lat=0.0 if lat is None else lat)
+    z_mid = 0.5 * (z[1:] + z[:-1])
+    return AmbientProfile(
+        depth=Q_(z, "m"), sea_pressure=Q_(p, "dbar"), temperature=Q_(t, "degC"),
+        practical_salinity=Q_(sp, "dimensionless"), absolute_salinity=Q_(SA, "g/kg"),
+        conservative_temperature=Q_(CT, "degC"), potential_density=Q_(gsw.rho(SA, CT, 0.0), "kg/m^3"),
+        buoyancy_frequency_squared=Q_(n2, "1/s^2"), n2_depth=Q_(z_mid, "m"),
+        latitude=lat, longitude=lon, source=source, window=window)
+
+
+def _check_stability(prof, max_unstable, path):
+    limit = float(magnitude(require_dimension(max_unstable, "length", "max_unstable"), "m"))
+    z = prof.depth.to("m").magnitude
+    neg = prof.buoyancy_frequency_squared.magnitude < 0
+    # Runs of consecutive negative intervals: interval i spans z[i]..z[i+1].
+    edges = np.diff(np.concatenate([[0], neg.astype(int), [0]]))
+    starts, ends = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
+    for s, e in zip(starts, ends):
+        length = z[e] - z[s]
+        if length > limit:
+            raise InputError("ctd cast", str(path),
+                             f"a statically stable cast: N² < 0 from {z[s]:.0f} m to {z[e]:.0f} m depth "
+                             f"({length:.0f} m, more than the {limit:g} m allowed)")
+
+
+def constant_stratification(buoyancy_frequency, temperature, salinity, depth=None, pressure=None,
+                            latitude=None, longitude=None, height=None,
+                            spacing=CONSTANT_N_SPACING) -> AmbientProfile:
+    """A water column with constant N above a vent, built with TEOS-10.
+
+    Absolute salinity is uniform and conservative temperature increases
+    upward so that N² = g α_Θ dΘ/dz is the same everywhere (α_Θ evaluated at
+    each level's own Θ and pressure) [1]_.
+
+    Parameters
+    ----------
+    buoyancy_frequency : pint.Quantity (frequency)
+        N > 0.
+    temperature : pint.Quantity
+        In-situ temperature at the vent depth.
+    salinity : float or pint.Quantity
+        Practical salinity at the vent depth.
+    depth, pressure : pint.Quantity
+        The vent's depth below the sea surface, or its *absolute* pressure
+        (ventflux's convention for a single value); give one.
+    latitude, longitude : optional
+        Degrees.
+    height : pint.Quantity (length), optional
+        Height of the column above the vent; default up to the sea surface.
+    spacing : pint.Quantity (length)
+        Grid spacing.
+
+    Returns
+    -------
+    AmbientProfile
+    """
+    N = float(magnitude(require_dimension(buoyancy_frequency, "frequency", "buoyancy frequency"), "1/s"))
+    if not N > 0:
+        raise InputError("buoyancy frequency", f"{buoyancy_frequency:~P}", "a buoyancy frequency N > 0 s^-1")
+    return _column(N, temperature, salinity, depth, pressure, latitude, longitude, height, spacing, "constant N")
+
+
+def uniform_ambient(temperature, salinity, depth=None, pressure=None, latitude=None, longitude=None,
+                    height=None, spacing=CONSTANT_N_SPACING) -> AmbientProfile:
+    """An unstratified column (uniform SA and CT, N = 0) above a vent; see ``constant_stratification``."""
+    return _column(0.0, temperature, salinity, depth, pressure, latitude, longitude, height, spacing, "uniform")
+
+
+def vent_depth_of(depth=None, pressure=None, latitude=None):
+    """Vent depth [m] from a depth or an absolute pressure (exactly one must be given)."""
+    if (depth is None) == (pressure is None):
+        raise InputError("vent depth", "both" if depth is not None else "neither",
+                         "exactly one of a depth or a pressure for the vent")
+    lat = 0.0 if latitude is None else latitude
+    if depth is not None:
+        z = float(magnitude(require_dimension(depth, "length", "depth"), "m"))
+        if not 0 < z <= 11000:
+            raise InputError("depth", f"{depth:~P}", "a depth below the sea surface, 0 to 11000 m")
+        return z
+    ps = float(sea_pressure_dbar(require_dimension(pressure, "pressure", "pressure")))
+    if not 0 < ps <= 8000:
+        raise InputError("pressure", f"{pressure:~P}", "an absolute pressure above one atmosphere, up to 80 MPa "
+                         "(TEOS-10 validity)")
+    return float(-gsw.z_from_p(ps, lat))
+
+
+def _column(N, temperature, salinity, depth, pressure, latitude, longitude, height, spacing, source):
+    lat = _degrees(latitude, "latitude")
+    lon = _degrees(longitude, "longitude")
+    lat0 = 0.0 if lat is None else lat
+    zv = vent_depth_of(depth, pressure, lat0)
+    h = zv if height is None else float(magnitude(require_dimension(height, "length", "height"), "m"))
+    if not 0 < h <= zv:
+        raise InputError("height", f"{h:g} m", f"a column height from 0 to the vent depth, {zv:g} m")
+    dz = float(magnitude(spacing, "m", "length", "spacing"))
+    n = max(int(np.ceil(h / dz)), 2)
+    z = np.linspace(zv - h, zv, n + 1)
+    p = gsw.p_from_z(-z, lat0)
+    t0 = float(magnitude(require_dimension(temperature, "temperature", "ambient temperature"), "degC"))
+    sp0 = float(salinity.to("dimensionless").magnitude) if hasattr(salinity, "to") else float(salinity)
+    if not 0 <= sp0 <= 42:
+        raise InputError("ambient salinity", f"{sp0:g}", "a practical salinity from 0 to 42")
+    SA0 = float(absolute_salinity(sp0, p[-1], lon, lat))
+    CT0 = float(gsw.CT_from_t(SA0, t0, p[-1]))
+    check_funnel(SA0, CT0, p[-1], np.asarray(t0))
+    SA = np.full_like(z, SA0)
+    CT = np.full_like(z, CT0)
+    if N > 0:
+        g = gsw.grav(lat0, p)
+        rise = zv - z  # height above the vent
+        for _ in range(4):  # fixed point: α depends on the Θ being built
+            rate = N * N / (g * gsw.alpha(SA, CT, p))
+            # cumulative trapezoid from the vent upward (arrays run top to bottom)
+            seg = 0.5 * (rate[1:] + rate[:-1]) * -np.diff(rise)
+            CT = CT0 + np.concatenate([np.cumsum(seg[::-1])[::-1], [0.0]])
+        check_funnel(SA, CT, p, field="ambient temperature (top of the constant-N column)")
+    t = gsw.t_from_CT(SA, CT, p)
+    sp = gsw.SP_from_SA(SA, p, 0.0 if lon is None else lon, lat0) if lon is not None and lat is not None \
+        else gsw.SP_from_SR(SA)
+    prof = _profile(z, p, SA, CT, t, sp, lat, lon, source, None)
+    return prof
+
+
+def sea_pressure_at(profile: AmbientProfile, depth) -> float:
+    """Sea pressure [dbar] at ``depth`` [m] on ``profile`` (plain floats)."""
+    return float(np.interp(depth, profile.depth.to("m").magnitude, profile.sea_pressure.to("dbar").magnitude))
+
+
+def absolute_pressure_at(profile: AmbientProfile, depth):
+    """Absolute pressure at ``depth`` [m] as a quantity."""
+    return Q_(sea_pressure_at(profile, depth) * 1e4 + STANDARD_ATMOSPHERE, "Pa")
