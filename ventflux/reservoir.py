@@ -63,6 +63,7 @@ LATENT_HEAT = Q_(4.0e5, "J/kg")
 MELT_DENSITY = Q_(2700.0, "kg/m^3")
 #: Output fraction at which a declining reservoir counts as spent (a choice, not a law).
 SPENT_FRACTION = 0.1
+_FLUID_T_MIN = 273.16  # K, the triple point: IAPWS-95's lower temperature bound [2]
 
 
 @dataclass(frozen=True)
@@ -113,7 +114,12 @@ def pore_fluid_heat_density(temperature, temperature_drop, pressure, model=None)
     """Heat released per unit pore volume [J/m³]: ρ_f(T₀, p) · [h(T₀, p) − h(T₀ − ΔT, p)] (IAPWS-95 [2])."""
     T0 = magnitude(temperature, "K", "temperature", "reservoir temperature")
     dT = _positive(temperature_drop, "K", "temperature", "temperature drop")
-    T1 = Q_(T0 - dT, "K")
+    low = np.asarray(T0 - dT)
+    if np.any(low < _FLUID_T_MIN):
+        raise InputError("temperature drop", f"{np.max(dT):g} K",
+                         f"a drop that leaves the pore fluid above {_FLUID_T_MIN - 273.15:.2f} degC "
+                         f"(reservoir temperature {np.min(T0) - 273.15:.4g} degC), or porosity 0 for dry rock")
+    T1 = Q_(low, "K")
     dh = specific_heat_content(Q_(T0, "K"), T1, pressure, model)
     rho = vent_fluid_state(Q_(T0, "K"), pressure, model, field="reservoir temperature").density
     return (rho * dh).to("J/m^3")

@@ -1,0 +1,185 @@
+"""``ventflux summarize``: what a vent field's heat output means, one question at a time.
+
+Examples
+--------
+Water carried by a 100 MW vent at 350 °C and 25 MPa::
+
+    ventflux summarize water --power "100 ± 20 MW" --temperature "350 degC" \\
+        --pressure 25MPa --ambient-temperature "2 degC"
+
+How long 10⁻² km³ of dry hot rock cooled by 800 K sustains it (and L²/κ beside it)::
+
+    ventflux summarize reservoir --power "100 MW" --volume "0.01 km^3" --temperature-drop "800 K" --porosity 0
+
+With pore fluid (IAPWS-95 enthalpy difference at the reservoir pressure) and a melt lens::
+
+    ventflux summarize reservoir --power "100 ± 30 MW" --area "1 km^2" --thickness "50 m" \\
+        --temperature-drop "uniform(250, 350) K" --temperature "420 degC" --pressure 30MPa \\
+        --melt-volume "0.001 km^3"
+
+The reservoir needed for 100 MW over 10 years under 1 km²::
+
+    ventflux summarize size --power "100 MW" --duration "10 yr" --temperature-drop "300 K" --area "1 km^2" \\
+        --porosity 0
+
+Ridge-flank heat deficit against GDH1 and the water column for a 10 K rise::
+
+    ventflux summarize flank --observed "1 Myr=120 mW/m^2" --observed "5 Myr=110 mW/m^2" \\
+        --observed "10 Myr=100 mW/m^2" --half-rate "25 mm/yr" --temperature-rise "10 K" --pressure 35MPa
+
+Every quantity may carry an uncertainty (``"100 ± 20 MW"``, ``"uniform(600, 900) K"``,
+``"lognormal(0.01, 2) km^3"``); results are then medians with 5th–95th percentiles.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .. import reservoir as rv
+from .. import summarizer as sm
+from ..errors import InputError
+from ..orifice import DEFAULT_AMBIENT_SALINITY
+from ..registry import Command, Method
+from ..ridge_flank import REFERENCES
+from ..tables import read_quantity_table
+from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, parse_uncertain
+from ..units import Q_, parse_quantity
+from .output import add_output_options, print_json, print_table
+
+# (option, dimension, required, default text, help) per question; the option's
+# dest is the library function's parameter name.
+_COMMON_WATER = [
+    ("--power", "power", True, None, "heat power, e.g. '100 ± 20 MW'"),
+    ("--temperature", "temperature", True, None, "vent exit temperature, e.g. '350 degC'"),
+    ("--pressure", "pressure", True, None, "absolute in-situ pressure, e.g. '25 MPa'"),
+    ("--ambient-temperature", "temperature", True, None, "ambient seawater temperature, e.g. '2 degC'"),
+    ("--salinity", "dimensionless", False, f"{DEFAULT_AMBIENT_SALINITY:g}",
+     "ambient practical salinity (default: TEOS-10's reference salinity)"),
+]
+_HEAT = [
+    ("--temperature-drop", "temperature", True, None, "cooling of the hot rock, e.g. '800 K'"),
+    ("--rock-density", "density", False, f"{rv.ROCK_DENSITY.magnitude:g} kg/m^3", "rock density"),
+    ("--rock-heat-capacity", "specific heat capacity", False, f"{rv.ROCK_HEAT_CAPACITY.magnitude:g} J/(kg*K)",
+     "rock specific heat capacity"),
+    ("--porosity", "dimensionless", False, f"{rv.POROSITY:g}", "pore fraction filled with fluid"),
+    ("--temperature", "temperature", False, None,
+     "initial reservoir temperature (needed for the pore fluid when porosity > 0)"),
+    ("--pressure", "pressure", False, None, "absolute reservoir pressure (needed for the pore fluid)"),
+]
+QUESTIONS = {
+    "water": (sm.water_answer, "mass flux, volume flux and annual throughput carried by a heat power",
+              _COMMON_WATER),
+    "reservoir": (sm.reservoir_answer, "heat-mining time, decline lifetime and conductive timescale of a reservoir",
+                  [("--power", "power", True, None, "heat power drawn from the reservoir")] + _HEAT + [
+                      ("--volume", "volume", False, None, "hot-rock volume, e.g. '0.01 km^3'"),
+                      ("--area", "area", False, None, "reservoir area (with --thickness)"),
+                      ("--thickness", "length", False, None, "reservoir thickness (with --area)"),
+                      ("--melt-volume", "volume", False, None, "volume of a crystallizing melt lens"),
+                      ("--latent-heat", "specific energy", False, f"{rv.LATENT_HEAT.magnitude:g} J/kg",
+                       "latent heat of crystallization of the melt"),
+                      ("--melt-density", "density", False, f"{rv.MELT_DENSITY.magnitude:g} kg/m^3", "melt density"),
+                      ("--size", "length", False, None, "size L for L^2/kappa (default: cube root of the volume)"),
+                      ("--diffusivity", "diffusivity", False, f"{rv.THERMAL_DIFFUSIVITY.magnitude:g} m^2/s",
+                       "thermal diffusivity of the rock"),
+                  ]),
+    "size": (sm.reservoir_size_answer, "reservoir size needed to sustain a power for a time",
+             [("--power", "power", True, None, "heat power to sustain"),
+              ("--duration", "time", True, None, "how long, e.g. '10 yr'")] + _HEAT + [
+                 ("--area", "area", False, None, "area, to give the thickness")]),
+    "flank": (sm.flank_answer, "ridge-flank heat deficit against a conductive cooling reference",
+              [("--half-rate", "velocity", False, None, "half spreading rate, e.g. '25 mm/yr'"),
+               ("--temperature-rise", "temperature", False, None, "warming of the circulated seawater, e.g. '10 K'"),
+               ("--ambient-temperature", "temperature", False, "2 degC", "bottom-water temperature"),
+               ("--pressure", "pressure", False, None, "absolute seafloor pressure (with --temperature-rise)"),
+               ("--salinity", "dimensionless", False, f"{DEFAULT_AMBIENT_SALINITY:g}", "bottom-water salinity"),
+               ("--conductivity", "thermal conductivity", False, None, "half-space: thermal conductivity"),
+               ("--diffusivity", "diffusivity", False, None, "half-space: thermal diffusivity"),
+               ("--temperature-difference", "temperature", False, None,
+                "half-space: mantle minus surface temperature")]),
+}
+_RENAME = {"half_rate": "half_spreading_rate"}
+
+
+def _dest(option):
+    name = option.lstrip("-").replace("-", "_")
+    return name
+
+
+def configure(p):
+    sub = p.add_subparsers(dest="question", metavar="QUESTION", parser_class=type(p))
+    sub.required = True
+    for name, (_, help_text, options) in QUESTIONS.items():
+        q = sub.add_parser(name, help=help_text, description=help_text)
+        for option, _dim, required, default, help_ in options:
+            shown = f" (default {default})" if default is not None else ""
+            q.add_argument(option, dest=_dest(option), required=required, default=default, help=help_ + shown)
+        if name == "reservoir":
+            q.add_argument("--spent-fraction", type=float, default=rv.SPENT_FRACTION,
+                           help=f"output fraction at which a declining reservoir is spent (default {rv.SPENT_FRACTION})")
+        if name == "flank":
+            q.add_argument("--observed", action="append", default=[], metavar="AGE=HEAT_FLOW",
+                           help="one observation, e.g. '5 Myr=110 mW/m^2' (repeatable)")
+            q.add_argument("--profile", help="CSV with columns 'age [Myr]' and 'heat_flow [mW/m^2]'")
+            q.add_argument("--reference", choices=REFERENCES, default="gdh1",
+                           help="conductive cooling reference (default gdh1)")
+        q.add_argument("--draws", type=int, default=DEFAULT_DRAWS, help=f"Monte Carlo draws (default {DEFAULT_DRAWS})")
+        q.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+        add_output_options(q)
+
+
+def _observations(args):
+    if bool(args.observed) == bool(args.profile):
+        raise InputError("--observed/--profile", "both" if args.profile else "neither",
+                         "heat-flow observations from --observed (repeated) or --profile, not both")
+    if args.profile:
+        t = read_quantity_table(args.profile, columns={"age": "time", "heat_flow": "heat flux"})
+        return t["age"], t["heat_flow"]
+    ages, flows = [], []
+    for item in args.observed:
+        age, sep, flow = item.partition("=")
+        if not sep:
+            raise InputError("--observed", item, "AGE=HEAT_FLOW, e.g. '5 Myr=110 mW/m^2'")
+        ages.append(parse_quantity(age, "time", "--observed age").to("Myr").magnitude)
+        flows.append(parse_quantity(flow, "heat flux", "--observed heat flow").to("mW/m^2").magnitude)
+    return Q_(np.array(ages), "Myr"), Q_(np.array(flows), "mW/m^2")
+
+
+def run(args) -> int:
+    fn, _, options = QUESTIONS[args.question]
+    kwargs = {}
+    for option, dim, _required, _default, _help in options:
+        text = getattr(args, _dest(option))
+        if text is None:
+            continue
+        kwargs[_RENAME.get(_dest(option), _dest(option))] = parse_uncertain(text, dim, option)
+    if args.question == "reservoir":
+        kwargs["spent_fraction"] = args.spent_fraction
+    if args.question == "flank":
+        kwargs["age"], kwargs["heat_flow"] = _observations(args)
+        kwargs["reference"] = args.reference
+    answer = fn(**kwargs, draws=args.draws, seed=args.seed)
+    if args.json:
+        print_json(answer.as_dict())
+    else:
+        title = f"{answer.question}: " + ("exact inputs" if answer.draws == 1 else
+                                          f"median [5th, 95th percentile] of {answer.draws} draws, seed {answer.seed}")
+        print_table(answer.rows(), title=title)
+    return 0
+
+
+COMMAND = Command(name="summarize", help="water throughput, reservoir lifetime and size, ridge-flank heat deficit",
+                  configure=configure, run=run)
+
+METHODS = [
+    Method(name="power_to_water_throughput", summary="mass and volume flux and annual throughput from heat power "
+           "(IAPWS-95 enthalpy difference, TEOS-10 ambient density)", estimates="water throughput",
+           inputs=("power", "temperature", "pressure", "ambient temperature"), command="summarize water"),
+    Method(name="reservoir_heat_mining", summary="heat-mining time, exponential-decline lifetime and L^2/kappa of a "
+           "hot-rock reservoir", estimates="reservoir lifetime",
+           inputs=("power", "volume or area and thickness", "temperature drop"), command="summarize reservoir"),
+    Method(name="reservoir_sizing", summary="hot-rock volume that sustains a power for a time",
+           estimates="reservoir size", inputs=("power", "duration", "temperature drop"), command="summarize size"),
+    Method(name="flank_heat_deficit", summary="conductive heat-flow deficit against half-space cooling or GDH1, "
+           "per area, per ridge length and as a circulated-water column", estimates="advective heat loss",
+           inputs=("age", "heat flow", "half spreading rate", "fluid temperature rise"), command="summarize flank"),
+]

@@ -1,0 +1,301 @@
+"""The summarizer: the questions asked of a vent field's output, with uncertainty.
+
+Four questions, each a function taking exact quantities or ``Uncertain``
+inputs and returning an ``Answer`` (Monte Carlo summaries with units):
+
+* ``water_answer``: heat power → mass flux, volume flux at vent and ambient
+  conditions, annual throughput (``ventflux.throughput``);
+* ``reservoir_answer``: heat-mining time, decline lifetime and conductive
+  timescale of a reservoir, with the controlling one (``ventflux.reservoir``);
+* ``reservoir_size_answer``: the reservoir needed to sustain a power for a time;
+* ``flank_answer``: ridge-flank heat deficit against a plate-cooling
+  reference and the equivalent column of circulated seawater
+  (``ventflux.ridge_flank``).
+
+Monte Carlo follows the package's rule: every uncertain input is drawn once
+as an array, the domain function runs once on the arrays, and the outputs are
+summarized. Inputs that must be positive (a power, a volume) drop the draws
+that are not, and refuse the distribution if more than 5 % are dropped.
+Without an uncertain input the answer is exact (one evaluation).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import reservoir as rv
+from . import ridge_flank as rf
+from .errors import InputError
+from .orifice import DEFAULT_AMBIENT_SALINITY
+from .throughput import water_throughput
+from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Summary, Uncertain, draw_inputs, summarize, unit_tag
+from .units import Q_
+
+#: Largest share of draws that may be dropped as unphysical before a distribution is refused.
+MAX_DROPPED_SHARE = 0.05
+
+
+@dataclass(frozen=True)
+class Answer:
+    """One question's answer: outputs (name → (Summary, unit)), labels and the inputs used."""
+
+    question: str
+    outputs: dict
+    labels: dict = field(default_factory=dict)
+    inputs: dict = field(default_factory=dict)
+    draws: int = 1
+    dropped: int = 0
+    seed: int | None = None
+
+    def value(self, name):
+        """Median of an output as a quantity in its reporting unit."""
+        s, unit = self.outputs[name]
+        return s.median.to(unit)
+
+    def as_dict(self) -> dict:
+        """Flat JSON-ready dictionary, units in the key names (``mass_flux_kg_s_median``)."""
+        out = {"question": self.question, "draws": self.draws, "dropped_draws": self.dropped, "seed": self.seed}
+        for name, (s, unit) in self.outputs.items():
+            if self.draws > 1:
+                out.update(s.as_dict(name, unit))
+            else:
+                out[f"{name}_{unit_tag(unit)}"] = float(s.median.to(unit).magnitude)
+        out.update(self.labels)
+        out["inputs"] = dict(self.inputs)
+        return out
+
+    def rows(self) -> list:
+        """``(label, value, unit)`` rows for ``print_table``; ``median [p05, p95]`` when uncertain."""
+        rows = []
+        for name, (s, unit) in self.outputs.items():
+            s = s.to(unit)
+            if self.draws > 1:
+                shown = f"{s.median.magnitude:.4g} [{s.p05.magnitude:.4g}, {s.p95.magnitude:.4g}]"
+            else:
+                shown = float(s.median.magnitude)
+            rows.append((name.replace("_", " "), shown, unit))
+        rows.extend((k.replace("_", " "), v, "") for k, v in self.labels.items())
+        return rows
+
+
+def _run(question, fn, inputs, outputs, positive=(), draws=DEFAULT_DRAWS, seed=DEFAULT_SEED):
+    """Draw the uncertain inputs once, call ``fn`` once, summarize ``outputs`` (name → (attr path, unit))."""
+    uncertain = {k: v for k, v in inputs.items() if isinstance(v, Uncertain)}
+    n = int(draws) if uncertain else 1
+    if uncertain and n < 2:
+        raise InputError("draws", draws, "an integer ≥ 2")
+    args = dict(inputs)
+    dropped = 0
+    if uncertain:
+        sampled = draw_inputs(uncertain, n, seed)
+        keep = np.ones(n, bool)
+        for k in positive:
+            if k in sampled:
+                keep &= np.asarray(sampled[k].magnitude) > 0
+        dropped = int(n - keep.sum())
+        if dropped > MAX_DROPPED_SHARE * n:
+            worst = max((k for k in positive if k in sampled),
+                        key=lambda k: np.count_nonzero(np.asarray(sampled[k].magnitude) <= 0))
+            raise InputError(worst, str(uncertain[worst]),
+                             f"a distribution whose draws are positive; {dropped} of {n} were not "
+                             "(use a smaller spread or a lognormal)")
+        args.update({k: v[keep] for k, v in sampled.items()})
+    result = fn(**args)
+    summaries = {}
+    for name, (get, unit) in outputs.items():
+        q = get(result)
+        if q is None:
+            continue
+        q = q.to(unit)
+        mag = np.atleast_1d(np.asarray(q.magnitude, float))
+        if uncertain:
+            # an output that no uncertain input reaches is one value: repeat it over the draws
+            mag = mag if mag.size > 1 else np.full(n - dropped, mag[0])
+            summaries[name] = (summarize(Q_(mag, unit), seed), unit)
+        elif mag.size == 1:
+            summaries[name] = (_exact(Q_(float(mag[0]), unit)), unit)
+        else:
+            raise InputError("inputs", f"arrays of {mag.size} values",
+                             "single values or distributions (for arrays call the domain functions directly)")
+    shown = {k: (str(v) if v is not None else None) for k, v in inputs.items()}
+    return result, Answer(question, summaries, {}, shown, n - dropped, dropped, seed if uncertain else None)
+
+
+def _exact(q) -> Summary:
+    return Summary(q, q, q, q, q * 0, 1, None)
+
+
+def _attr(*path):
+    def get(obj):
+        for p in path:
+            obj = obj[p] if isinstance(obj, dict) else getattr(obj, p)
+            if obj is None:
+                return None
+        return obj
+    return get
+
+
+WATER_OUTPUTS = {
+    "mass_flux": (_attr("mass_flux"), "kg/s"),
+    "volume_flux_vent": (_attr("volume_flux_vent"), "m^3/s"),
+    "volume_flux_ambient": (_attr("volume_flux_ambient"), "m^3/s"),
+    "annual_mass": (_attr("annual_mass"), "kg/year"),
+    "annual_volume": (_attr("annual_volume"), "km^3/year"),
+    "specific_heat_content": (_attr("specific_heat_content"), "kJ/kg"),
+    "vent_density": (_attr("vent_density"), "kg/m^3"),
+    "ambient_density": (_attr("ambient_density"), "kg/m^3"),
+    "shortcut_heat_content": (_attr("shortcut_heat_content"), "kJ/kg"),
+    "shortcut_mass_flux": (_attr("shortcut_mass_flux"), "kg/s"),
+}
+
+
+def water_answer(power, temperature, pressure, ambient_temperature, salinity=DEFAULT_AMBIENT_SALINITY,
+                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
+    """Mass flux, volume fluxes and annual water throughput carried by ``power``.
+
+    Parameters are those of ``ventflux.throughput.water_throughput``; any may
+    be ``Uncertain``. The shortcut ``c_p ΔT`` figures are reported beside
+    the enthalpy-difference ones for comparison only.
+    """
+    _, ans = _run("water", water_throughput,
+                  dict(power=power, temperature=temperature, pressure=pressure,
+                       ambient_temperature=ambient_temperature, salinity=salinity),
+                  WATER_OUTPUTS, positive=("power", "pressure"), draws=draws, seed=seed)
+    return ans
+
+
+RESERVOIR_OUTPUTS = {
+    "stored_heat": (_attr("heat", "total"), "J"),
+    "rock_heat": (_attr("heat", "rock"), "J"),
+    "pore_fluid_heat": (_attr("heat", "pore_fluid"), "J"),
+    "latent_heat": (_attr("heat", "latent"), "J"),
+    "volume": (_attr("heat", "volume"), "km^3"),
+    "heat_mining_time": (_attr("mining_time"), "year"),
+    "efolding_time": (_attr("efolding_time"), "year"),
+    "decline_time": (_attr("decline_time"), "year"),
+    "conductive_time": (_attr("conductive_time"), "year"),
+    "size": (_attr("size"), "m"),
+}
+
+
+def _lifetime(power, size=None, diffusivity=rv.THERMAL_DIFFUSIVITY, spent_fraction=rv.SPENT_FRACTION, **heat):
+    return rv.reservoir_lifetime(power, rv.reservoir_heat(**heat), size=size, diffusivity=diffusivity,
+                                 fraction=spent_fraction)
+
+
+def reservoir_answer(power, temperature_drop, volume=None, area=None, thickness=None,
+                     rock_density=rv.ROCK_DENSITY, rock_heat_capacity=rv.ROCK_HEAT_CAPACITY, porosity=rv.POROSITY,
+                     temperature=None, pressure=None, melt_volume=None, latent_heat=rv.LATENT_HEAT,
+                     melt_density=rv.MELT_DENSITY, size=None, diffusivity=rv.THERMAL_DIFFUSIVITY,
+                     spent_fraction=rv.SPENT_FRACTION, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
+    """Heat-mining time, exponential-decline lifetime and ``L²/κ``, with the controlling one.
+
+    Parameters are those of ``ventflux.reservoir.reservoir_heat`` and
+    ``reservoir_lifetime`` (defaults documented there, with sources); any
+    quantity may be ``Uncertain``. ``controlling`` is labelled with the share
+    of draws in which each process is the faster.
+    """
+    inputs = dict(power=power, temperature_drop=temperature_drop, volume=volume, area=area, thickness=thickness,
+                  rock_density=rock_density, rock_heat_capacity=rock_heat_capacity, porosity=porosity,
+                  temperature=temperature, pressure=pressure, melt_volume=melt_volume, latent_heat=latent_heat,
+                  melt_density=melt_density, size=size, diffusivity=diffusivity, spent_fraction=spent_fraction)
+    life, ans = _run("reservoir", _lifetime, inputs, RESERVOIR_OUTPUTS,
+                     positive=("power", "temperature_drop", "volume", "area", "thickness", "rock_density",
+                               "rock_heat_capacity", "size", "diffusivity", "melt_volume", "latent_heat"),
+                     draws=draws, seed=seed)
+    share = float(np.mean(np.atleast_1d(life.controlling) == "advective decline"))
+    label = "advective decline" if share >= 0.5 else "conductive cooling"
+    ans.labels["controlling"] = label
+    ans.labels["controlling_share"] = share if label == "advective decline" else 1.0 - share
+    ans.labels["spent_fraction"] = float(spent_fraction)
+    return ans
+
+
+SIZE_OUTPUTS = {
+    "volume": (_attr("volume_km3"), "km^3"),
+    "cube_side": (_attr("cube_side"), "m"),
+    "thickness": (_attr("thickness"), "m"),
+    "heat_per_volume": (_attr("heat_per_volume"), "MJ/m^3"),
+}
+
+
+def reservoir_size_answer(power, duration, temperature_drop, area=None, rock_density=rv.ROCK_DENSITY,
+                          rock_heat_capacity=rv.ROCK_HEAT_CAPACITY, porosity=rv.POROSITY, temperature=None,
+                          pressure=None, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
+    """Hot-rock volume (and thickness under ``area``) that sustains ``power`` for ``duration``."""
+    inputs = dict(power=power, duration=duration, temperature_drop=temperature_drop, area=area,
+                  rock_density=rock_density, rock_heat_capacity=rock_heat_capacity, porosity=porosity,
+                  temperature=temperature, pressure=pressure)
+    _, ans = _run("reservoir size", rv.reservoir_size_for, inputs, SIZE_OUTPUTS,
+                  positive=("power", "duration", "temperature_drop", "area", "rock_density", "rock_heat_capacity"),
+                  draws=draws, seed=seed)
+    return ans
+
+
+FLANK_OUTPUTS = {
+    "reference_heat": (_attr("deficit", "reference_heat"), "J/m^2"),
+    "conductive_heat": (_attr("deficit", "conductive_heat"), "J/m^2"),
+    "heat_deficit": (_attr("deficit", "deficit"), "J/m^2"),
+    "deficit_fraction": (_attr("deficit", "fraction"), "dimensionless"),
+    "mean_advective_flux": (_attr("deficit", "mean_advective_flux"), "mW/m^2"),
+    "advective_loss_per_length": (_attr("deficit", "per_length"), "MW/km"),
+    "water_column": (_attr("water_column"), "km"),
+    "circulated_water_per_length": (_attr("water_per_length"), "m^3/(s*km)"),
+}
+
+
+def _flank(age, heat_flow, reference, half_spreading_rate, temperature_rise, ambient_temperature, pressure,
+           salinity, **half_space):
+    d = rf.heat_deficit(age, heat_flow, reference, half_spreading_rate=half_spreading_rate, **half_space)
+    out = {"deficit": d, "water_column": None, "water_per_length": None}
+    if temperature_rise is not None:
+        uptake = rf.seawater_heat_uptake(temperature_rise, ambient_temperature, pressure, salinity)
+        # A negative deficit (more conducted than the reference) means no advective loss: no water.
+        heat = np.maximum(d.deficit.to("J/m^2").magnitude, 0.0)
+        out["water_column"] = Q_(heat / uptake.to("J/m^3").magnitude, "m")
+        if d.per_length is not None:
+            out["water_per_length"] = (Q_(np.maximum(d.per_length.to("W/m").magnitude, 0.0), "W/m")
+                                       / uptake).to("m^3/(s*km)")
+    return out
+
+
+def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, temperature_rise=None,
+                 ambient_temperature=Q_(2.0, "degC"), pressure=None, salinity=DEFAULT_AMBIENT_SALINITY,
+                 conductivity=None, diffusivity=None, temperature_difference=None,
+                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
+    """Ridge-flank heat deficit, advective loss per area and per ridge length, and the water column.
+
+    Parameters
+    ----------
+    age, heat_flow : pint.Quantity
+        Observed conductive heat flow (exact arrays) at crustal ages.
+    reference : {"gdh1", "half-space"}
+    half_spreading_rate : pint.Quantity or Uncertain, optional
+    temperature_rise : pint.Quantity or Uncertain, optional
+        Warming of the circulated seawater; gives the water column.
+    ambient_temperature : pint.Quantity, default 2 degC
+        Bottom-water temperature (from memory: deep water is about 1.5–3 °C).
+    pressure : pint.Quantity
+        Absolute pressure at the seafloor; required with ``temperature_rise``.
+    conductivity, diffusivity, temperature_difference : optional
+        Half-space parameters (defaults in ``ventflux.ridge_flank``).
+    """
+    if temperature_rise is not None and pressure is None:
+        raise InputError("pressure", "none", "the seafloor pressure, needed for the circulated seawater's enthalpy")
+    half_space = {k: v for k, v in dict(conductivity=conductivity, diffusivity=diffusivity,
+                                        temperature_difference=temperature_difference).items() if v is not None}
+    if half_space and reference != "half-space":
+        raise InputError("reference", reference, "'half-space' when half-space parameters are given")
+    inputs = dict(age=age, heat_flow=heat_flow, reference=reference, half_spreading_rate=half_spreading_rate,
+                  temperature_rise=temperature_rise, ambient_temperature=ambient_temperature, pressure=pressure,
+                  salinity=salinity, **half_space)
+    out, ans = _run("ridge flank", _flank, inputs, FLANK_OUTPUTS,
+                    positive=("half_spreading_rate", "temperature_rise", "conductivity", "diffusivity",
+                              "temperature_difference"), draws=draws, seed=seed)
+    ans.labels["reference"] = reference
+    ans.labels["age_range_Myr"] = f"{out['deficit'].age_from.magnitude:g}-{out['deficit'].age_to.magnitude:g}"
+    ans.inputs["age"] = f"{np.asarray(age.to('Myr').magnitude).tolist()} Myr"
+    ans.inputs["heat_flow"] = f"{np.asarray(heat_flow.to('mW/m^2').magnitude).tolist()} mW/m^2"
+    return ans
