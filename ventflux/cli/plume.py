@@ -1,0 +1,257 @@
+"""``ventflux plume-rise``: heat power from a plume's rise height in a stratification, or the reverse."""
+
+from __future__ import annotations
+
+import sys
+
+import numpy as np
+
+from ..errors import Collector, InputError
+from ..registry import Command, Method
+from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
+from ..units import Q_, column_name, parse_quantity
+from .output import add_output_options, print_json
+
+_UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) unit'"
+
+# Library field names → command-line options, so messages name what the user typed.
+_FLAGS = {"rise height": "--rise-height", "heat power": "--heat-power", "buoyancy frequency": "--buoyancy-frequency",
+          "ambient temperature": "--ambient-temperature", "ambient salinity": "--ambient-salinity",
+          "pressure": "--pressure", "depth": "--depth", "vent depth": "--depth", "entrainment": "--entrainment",
+          "current": "--current", "method": "--method", "level": "--level", "window": "--window",
+          "latitude": "--latitude", "longitude": "--longitude", "draws": "--draws"}
+
+
+def configure(p):
+    d = p.add_argument_group("what is known (give one)")
+    which = d.add_mutually_exclusive_group(required=True)
+    which.add_argument("--rise-height", metavar="Q", help="observed rise above the vent, e.g. '250 m'" + _UNC)
+    which.add_argument("--heat-power", metavar="Q", help="heat power of the source, e.g. '100 MW' (forward)" + _UNC)
+    d.add_argument("--level", default="maximum", metavar="LEVEL",
+                   help="which height --rise-height is: 'maximum' (top of the plume, default) or 'spreading' "
+                        "(neutral-buoyancy level)")
+    s = p.add_argument_group("stratification (give one)")
+    strat = s.add_mutually_exclusive_group(required=True)
+    strat.add_argument("--buoyancy-frequency", metavar="Q", help="constant N, e.g. '1.0e-3/s'" + _UNC)
+    strat.add_argument("--ctd", metavar="CSV", help="CTD cast: 'depth [m]' or 'pressure [dbar]' (sea pressure), "
+                                                   "'temperature [degC]', 'salinity' (practical)")
+    s.add_argument("--window", default="5 m", metavar="Q", help="CTD bin width (default '5 m'; 'none' keeps every row)")
+    s.add_argument("--stratification-scale", default=None, metavar="X",
+                   help="factor on N² (e.g. '1 ± 0.1' for a 10 %% uncertainty of the profile's N²)")
+    a = p.add_argument_group("vent site and ambient seawater")
+    where = a.add_mutually_exclusive_group()
+    where.add_argument("--pressure", metavar="Q", help="absolute pressure at the vent, e.g. '25MPa'")
+    where.add_argument("--depth", metavar="Q", help="vent depth, e.g. '2500 m' (default with --ctd: the cast's "
+                                                     "deepest point)")
+    a.add_argument("--ambient-temperature", metavar="Q", help="in-situ temperature at the vent (with "
+                                                              "--buoyancy-frequency), e.g. '2.0degC'")
+    a.add_argument("--ambient-salinity", metavar="S", help="practical salinity at the vent (with "
+                                                           "--buoyancy-frequency), e.g. '34.6'")
+    a.add_argument("--latitude", type=float, default=None, metavar="DEG", help="latitude in degrees north")
+    a.add_argument("--longitude", type=float, default=None, metavar="DEG", help="longitude in degrees east")
+    m = p.add_argument_group("model and uncertainty")
+    m.add_argument("--method", default="integral", metavar="METHOD",
+                   help="'integral' (TEOS-10 integral plume model, default) or 'closed-form' (point-source formula)")
+    m.add_argument("--entrainment", default="0.132", metavar="X",
+                   help="top-hat entrainment coefficient (Gaussian × √2; default 0.132)" + _UNC)
+    m.add_argument("--current", default=None, metavar="Q", help="horizontal current speed, e.g. '0.05 m/s'" + _UNC)
+    m.add_argument("--draws", type=int, default=None, metavar="N",
+                   help=f"Monte Carlo draws (default {DEFAULT_DRAWS} when any input carries an uncertainty)")
+    m.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+    o = p.add_argument_group("extra outputs")
+    o.add_argument("--figure", metavar="PNG", help="write a figure of the plume's profiles beside the stratification")
+    o.add_argument("--profile-table", metavar="CSV", help="write radius, speed and volume flux along the plume")
+    add_output_options(p)
+
+
+def run(args) -> int:
+    try:
+        return _run(args)
+    except InputError as err:
+        flag = _FLAGS.get(err.field)
+        if err.where is None and flag is not None:
+            raise InputError(flag, err.value, err.allowed) from None
+        raise
+
+
+def _inputs(args):
+    errs = Collector()
+    vals = {}
+    spec = [("rise_height", "length"), ("heat_power", "power"), ("buoyancy_frequency", "frequency"),
+            ("ambient_temperature", "temperature"), ("ambient_salinity", "dimensionless"),
+            ("pressure", "pressure"), ("depth", "length"), ("entrainment", "dimensionless"),
+            ("current", "velocity"), ("stratification_scale", "dimensionless")]
+    for key, dim in spec:
+        text = getattr(args, key)
+        if text is None:
+            continue
+        with errs.check():
+            exact_only = key in ("ambient_temperature", "ambient_salinity", "pressure", "depth")
+            vals[key] = (parse_quantity if exact_only else parse_uncertain)(text, dim, "--" + key.replace("_", "-"))
+    with errs.check():
+        if args.method not in ("integral", "closed-form"):
+            raise InputError("--method", args.method, "one of integral, closed-form")
+    with errs.check():
+        if args.level not in ("maximum", "spreading"):
+            raise InputError("--level", args.level, "one of maximum, spreading")
+    if args.draws is not None and args.draws < 2:
+        errs.add(InputError("--draws", args.draws, "an integer ≥ 2"))
+    if args.buoyancy_frequency is not None:
+        for key in ("ambient_temperature", "ambient_salinity"):
+            if getattr(args, key) is None:
+                errs.add(InputError("--" + key.replace("_", "-"), "(none)", "a value with --buoyancy-frequency"))
+        if args.pressure is None and args.depth is None:
+            errs.add(InputError("--pressure", "(none)", "the vent's --pressure or --depth with --buoyancy-frequency"))
+    with errs.check():
+        for key in ("buoyancy_frequency", "rise_height", "heat_power"):
+            v = vals.get(key)
+            if v is not None and not isinstance(v, Uncertain) and not v.magnitude > 0:
+                raise InputError("--" + key.replace("_", "-"), getattr(args, key), "a value > 0")
+    window = None
+    with errs.check():
+        if str(args.window).strip().lower() != "none":
+            window = parse_quantity(args.window, "length", "--window")
+            if not window.magnitude > 0:
+                raise InputError("--window", args.window, "a bin width > 0 m, or 'none'")
+    errs.raise_if_any()
+    return vals, window
+
+
+def _run(args) -> int:
+    from ..plume import inversion, figures
+    from ..profiles import read_ctd_cast
+
+    vals, window = _inputs(args)
+    uncertain = any(isinstance(v, Uncertain) for v in vals.values())
+    draws = args.draws if args.draws is not None else (DEFAULT_DRAWS if uncertain else None)
+    if args.ctd is not None:
+        strat = read_ctd_cast(args.ctd, latitude=args.latitude, longitude=args.longitude, window=window)
+        if args.ambient_temperature is not None or args.ambient_salinity is not None:
+            print("ventflux plume-rise: note: the CTD cast gives the ambient at the vent; --ambient-temperature and "
+                  "--ambient-salinity are not used with --ctd", file=sys.stderr)
+    else:
+        strat = vals["buoyancy_frequency"]
+    common = dict(level=args.level, method=args.method, entrainment=vals.get("entrainment"),
+                  current=vals.get("current"), draws=draws, seed=args.seed, vent_depth=vals.get("depth"),
+                  pressure=vals.get("pressure"), ambient_temperature=vals.get("ambient_temperature"),
+                  ambient_salinity=vals.get("ambient_salinity"), latitude=args.latitude, longitude=args.longitude,
+                  stratification_scale=vals.get("stratification_scale"),
+                  track=bool(args.figure or args.profile_table))
+    if args.rise_height is not None:
+        res = inversion.heat_power_from_rise_height(vals["rise_height"], strat, **common)
+        direction = "rise height to heat power"
+    else:
+        res = inversion.rise_height_from_heat_power(vals["heat_power"], strat, **common)
+        direction = "heat power to rise height"
+    nom = res.nominal if res.nominal is not None else res
+    if draws and res.failed == draws:
+        raise InputError("--draws", draws, "inputs for which some draws give a plume within the ambient profile")
+    payload = _payload(res, nom, direction, args, strat)
+    if args.figure:
+        figures.save_plume_figure(res, args.figure)
+    if args.profile_table:
+        _write_track(nom, args.profile_table)
+    if args.json:
+        print_json(payload)
+    else:
+        _print_readable(payload, res)
+    return 0
+
+
+def _val(q, unit):
+    return float(np.asarray(q.to(unit).magnitude))
+
+
+def _payload(res, nom, direction, args, strat):
+    from ..plume import closed_form
+    from ..properties.seawater import CP0
+
+    col = nom.column
+    out = {
+        "direction": direction, "method": nom.method, "level": nom.level,
+        "heat_power_W": _val(nom.heat_power, "W"), "buoyancy_flux_m4_s3": _val(nom.buoyancy_flux, "m^4/s^3"),
+        "rise_height_m": _val(nom.rise_height, "m"), "spreading_height_m": _val(nom.spreading_height, "m"),
+        "downstream_distance_m": _val(nom.downstream_distance, "m"),
+        "spreading_volume_flux_m3_s": _val(nom.spreading_volume_flux, "m^3/s"),
+        "spreading_ct_excess_K": _val(nom.spreading_anomaly, "K"),
+        "vent_depth_m": col.vent_depth, "vent_sea_pressure_dbar": col.p0,
+        "ambient_absolute_salinity_g_kg": col.SA0, "ambient_conservative_temperature_degC": col.CT0,
+        "ambient_density_kg_m3": col.rho0, "thermal_expansion_1_K": col.alpha0, "cp0_J_kg_K": CP0,
+        "stratification": ("constant N" if args.ctd is None else f"CTD cast {args.ctd}"),
+        "mean_buoyancy_frequency_1_s": float(col.mean_n(max(_val(nom.rise_height, "m"), 1.0))),
+        "entrainment_tophat": args.entrainment,
+    }
+    if nom.method == "integral" and args.rise_height is not None:
+        # The common practice beside the full computation: the point-source formula with the mean N.
+        F = closed_form.buoyancy_flux_point_source(_val(nom.rise_height, "m"), out["mean_buoyancy_frequency_1_s"])
+        out["closed_form_heat_power_W"] = float(F / col.heat_to_buoyancy())
+    if res.summary:
+        out["draws"] = res.draws
+        out["seed"] = res.seed
+        out["failed_draws"] = res.failed
+        units = {"heat_power": "W", "buoyancy_flux": "m^4/s^3", "rise_height": "m", "spreading_height": "m",
+                 "downstream_distance": "m"}
+        for k, s in res.summary.items():
+            out.update(s.as_dict(k, units[k]))
+    return out
+
+
+def _print_readable(p, res):
+    out = sys.stdout
+    out.write(f"Plume rise, {p['direction']} ({p['method']}, {p['stratification']}; densities TEOS-10)\n")
+    rows = [("heat power", p["heat_power_W"] / 1e6, "MW", "heat_power", 1e-6),
+            ("buoyancy flux", p["buoyancy_flux_m4_s3"], "m⁴/s³", "buoyancy_flux", 1.0),
+            ("maximum rise height", p["rise_height_m"], "m", "rise_height", 1.0),
+            ("spreading height", p["spreading_height_m"], "m", "spreading_height", 1.0),
+            ("downstream distance of the top", p["downstream_distance_m"], "m", "downstream_distance", 1.0),
+            ("volume flux at spreading level", p["spreading_volume_flux_m3_s"], "m³/s", None, 1.0),
+            ("CT excess at spreading level", p["spreading_ct_excess_K"], "K", None, 1.0),
+            ("mean N over the rise", p["mean_buoyancy_frequency_1_s"], "1/s", None, 1.0)]
+    if "closed_form_heat_power_W" in p:
+        rows.insert(1, ("heat power, closed form", p["closed_form_heat_power_W"] / 1e6, "MW", None, 1e-6))
+    for label, v, unit, key, f in rows:
+        line = f"  {label:<32} {_fmt(v):>10}  {unit:<6}"
+        if res.summary and key in res.summary:
+            s = res.summary[key]
+            line += "  median {}  5–95 % {} – {}".format(*(_fmt(getattr(s, k).magnitude * f) for k in
+                                                        ("median", "p05", "p95")))
+        out.write(line + "\n")
+    if res.summary:
+        out.write(f"Monte Carlo: {p['draws']} draws, seed {p['seed']}, {p['failed_draws']} failed; value column is "
+                  "the nominal estimate.\n")
+
+
+def _fmt(v):
+    return "–" if v is None or not np.isfinite(v) else f"{v:.4g}"
+
+
+def _write_track(res, path):
+    from ..io import atomic_write_text
+
+    t = res.track
+    if t is None:
+        return
+    cols = [("height", "m"), ("distance", "m"), ("radius", "m"), ("velocity", "m/s"), ("volume_flux", "m^3/s"),
+            ("reduced_gravity", "m/s^2")]
+    lines = [",".join(column_name(k, u) for k, u in cols)]
+    data = np.column_stack([t[k].to(u).magnitude for k, u in cols])
+    lines += [",".join(f"{v:.6g}" for v in row) for row in data]
+    atomic_write_text(path, "\n".join(lines) + "\n")
+
+
+COMMAND = Command(name="plume-rise", help="heat power from a plume's rise height in a measured stratification "
+                                          "(or rise height from heat power)", configure=configure, run=run)
+METHODS = [
+    Method(name="plume-rise-integral",
+           summary="rise height ↔ heat power with a top-hat integral plume model on TEOS-10 densities, "
+                   "in a CTD profile or constant N, optionally bent over by a current",
+           estimates="heat power, buoyancy flux, rise height",
+           inputs=("rise height or heat power", "CTD cast or buoyancy frequency", "vent depth or pressure",
+                   "entrainment coefficient", "current"),
+           command="ventflux plume-rise --method integral"),
+    Method(name="plume-rise-closed-form",
+           summary="rise height ↔ buoyancy flux with the point-source formula z = 5.0 (F/π)^(1/4) N^(-3/4)",
+           estimates="heat power, buoyancy flux, rise height",
+           inputs=("rise height or heat power", "buoyancy frequency (or the mean of a CTD cast)"),
+           command="ventflux plume-rise --method closed-form"),
+]
