@@ -162,3 +162,17 @@ def test_total_does_not_depend_on_units(n, seed):
     a = field_total(per, unit="MW").summary
     b = field_total(per.to("kW"), unit="MW").summary
     assert a.median.magnitude == pytest.approx(b.median.magnitude, rel=1e-12)
+
+
+def test_field_sums_keep_several_outputs_over_chunks():
+    # By hand: 5 items of 1 MW and 2 kg/s in every draw → 5 MW and 10 kg/s.
+    from ventflux.aggregate import FieldSums
+
+    s = FieldSums({"heat": "MW"})
+    for k in (3, 2):
+        s.add(heat=Q_(np.full((k, 50), 1000.0), "kW"), mass=Q_(np.full((k, 50), 2.0), "kg/s"))
+    t = s.totals()
+    assert t["heat"].summary.median.to("MW").magnitude == pytest.approx(5.0)
+    assert t["mass"].summary.median.magnitude == pytest.approx(10.0) and t["mass"].n_items == 5
+    with pytest.raises(InputError, match="output"):
+        s.total("volume")

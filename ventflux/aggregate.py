@@ -180,10 +180,53 @@ class FieldTotal:
     n_items: int
 
 
-def _chunks(per_item):
-    if isinstance(per_item, pint.Quantity):
-        return [per_item]
-    return per_item
+class FieldSums:
+    """Running per-draw sums of several outputs over items, added a chunk of items at a time.
+
+    A field of 1000 vents × 10 000 draws is 80 MB per output; adding chunks of
+    vents (``add(heat_power=..., mass_flux=...)``, each ``(n_chunk, n_draws)``)
+    keeps only one chunk and the running totals in memory.
+
+    Examples
+    --------
+    >>> s = FieldSums()
+    >>> s.add(heat_power=Q_(np.ones((3, 4)), "MW"))
+    >>> s.add(heat_power=Q_(np.ones((2, 4)), "MW"))
+    >>> float(s.total("heat_power").draws.magnitude[0]), s.total("heat_power").n_items
+    (5.0, 5)
+    """
+
+    def __init__(self, units: dict | None = None):
+        self._units = dict(units or {})
+        self._sums: dict[str, np.ndarray] = {}
+        self._items: dict[str, int] = {}
+
+    def add(self, **per_item):
+        for name, chunk in per_item.items():
+            if not isinstance(chunk, pint.Quantity):
+                raise InputError(f"{name} draws", type(chunk).__name__, "pint quantity arrays")
+            unit = self._units.setdefault(name, str(chunk.units))
+            m = np.asarray(chunk.to(unit).magnitude, float)
+            m = m.reshape(1, -1) if m.ndim <= 1 else m
+            part = m.sum(axis=0)
+            total = self._sums.get(name)
+            if total is not None and part.size != total.size and 1 not in (part.size, total.size):
+                raise InputError(f"{name} draws", f"{part.size} draws", f"the same number of draws ({total.size})")
+            self._sums[name] = part if total is None else total + part
+            self._items[name] = self._items.get(name, 0) + m.shape[0]
+
+    def names(self) -> list[str]:
+        return list(self._sums)
+
+    def total(self, name: str, unit: str | None = None, seed: int | None = None) -> "FieldTotal":
+        if name not in self._sums:
+            raise InputError("output", name, "one of " + (", ".join(self._sums) or "(nothing added)"))
+        q = Q_(self._sums[name], self._units[name])
+        q = q.to(unit) if unit else q
+        return FieldTotal(summary=summarize(q, seed), draws=q, n_items=self._items[name])
+
+    def totals(self, seed: int | None = None) -> dict:
+        return {k: self.total(k, seed=seed) for k in self._sums}
 
 
 def field_total(per_item, unit: str | None = None, seed: int | None = None) -> FieldTotal:
@@ -206,23 +249,12 @@ def field_total(per_item, unit: str | None = None, seed: int | None = None) -> F
     -------
     FieldTotal
     """
-    total = None
-    n_items = 0
-    for chunk in _chunks(per_item):
-        if not isinstance(chunk, pint.Quantity):
-            raise InputError("per-item draws", type(chunk).__name__, "pint quantity arrays")
-        unit = unit or str(chunk.units)
-        m = np.asarray(chunk.to(unit).magnitude, float)
-        m = m.reshape(1, -1) if m.ndim <= 1 else m
-        n_items += m.shape[0]
-        part = m.sum(axis=0)
-        if total is not None and part.size != total.size and 1 not in (part.size, total.size):
-            raise InputError("per-item draws", f"{part.size} draws", f"the same number of draws ({total.size})")
-        total = part if total is None else total + part
-    if total is None:
+    sums = FieldSums()
+    for chunk in [per_item] if isinstance(per_item, pint.Quantity) else per_item:
+        sums.add(total=chunk)
+    if not sums.names():
         raise InputError("per-item draws", "none", "at least one item")
-    q = Q_(total, unit)
-    return FieldTotal(summary=summarize(q, seed), draws=q, n_items=n_items)
+    return sums.total("total", unit=unit, seed=seed)
 
 
 def summarize_items(per_item: pint.Quantity, unit: str | None = None) -> dict:
@@ -405,5 +437,5 @@ def compare_methods(estimates: dict, unit: str = "MW", limit: float = CONSISTENC
                             chi_squared=chi2, limit=float(limit))
 
 
-__all__ = ["SharedDraws", "FieldTotal", "field_total", "summarize_items", "FocusedDiffuseSplit",
+__all__ = ["SharedDraws", "FieldTotal", "FieldSums", "field_total", "summarize_items", "FocusedDiffuseSplit",
            "focused_diffuse_split", "MethodPair", "MethodComparison", "compare_methods", "CONSISTENCY_LIMIT"]
