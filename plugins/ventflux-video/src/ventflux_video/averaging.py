@@ -1,0 +1,144 @@
+"""Time averaging of displacement fields over many frame pairs, in constant memory.
+
+Running sums (count, sum, sum of squares) per grid point are all that is
+kept, so a ten-minute clip costs what a ten-second one does. Vectors the
+outlier test replaced are left out of the averages (their count is reported).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ventflux.errors import InputError
+from ventflux.units import Q_, magnitude
+
+from .correlation import VectorField, check_passes, displacement_field
+from .frames import frame_pairs
+
+
+@dataclass
+class MeanField:
+    """Time-averaged displacement per frame interval ``interval`` on a grid (pixels)."""
+
+    x: np.ndarray
+    y: np.ndarray
+    dx: np.ndarray  # mean, right
+    dy: np.ndarray  # mean, down the image
+    dx_sd: np.ndarray  # standard deviation over pairs
+    dy_sd: np.ndarray
+    count: np.ndarray  # valid vectors per point
+    pairs: int
+    replaced_fraction: float
+    snr: np.ndarray  # mean peak ratio (correlation) or NaN (tracking)
+    interval: object  # pint time between the two frames of a pair
+    background: np.ndarray | None = None  # a frame of the clip, for figures
+    origin: tuple = (0, 0)
+    skipped_frames: int = 0
+    missing_frames: int = 0
+    mode: str = "correlation"
+
+    def velocity(self, metres_per_pixel):
+        """Mean and sd of ``u`` (right) and ``w`` (up) in m/s: ``(u, w, u_sd, w_sd)``."""
+        s = magnitude(metres_per_pixel, "m", "length", "metres per pixel") / magnitude(self.interval, "s", "time")
+        return (Q_(self.dx * s, "m/s"), Q_(-self.dy * s, "m/s"), Q_(self.dx_sd * s, "m/s"), Q_(self.dy_sd * s, "m/s"))
+
+
+class FieldAccumulator:
+    """Running count, sum and sum of squares of valid vectors on a fixed grid."""
+
+    def __init__(self):
+        self.n = None
+
+    def add(self, dx, dy, valid, snr=None):
+        if self.n is None:
+            shape = dx.shape
+            self.n = np.zeros(shape)
+            self.sx, self.sy, self.sxx, self.syy, self.ssnr = (np.zeros(shape) for _ in range(5))
+            self.pairs = 0
+            self.invalid = 0
+        v = valid.astype(float)
+        self.n += v
+        self.sx += np.where(valid, dx, 0.0)
+        self.sy += np.where(valid, dy, 0.0)
+        self.sxx += np.where(valid, dx * dx, 0.0)
+        self.syy += np.where(valid, dy * dy, 0.0)
+        if snr is not None:
+            self.ssnr += np.where(valid & np.isfinite(snr), snr, 0.0)
+        self.pairs += 1
+        self.invalid += int((~valid).sum())
+
+    def moments(self):
+        with np.errstate(invalid="ignore", divide="ignore"):
+            n = self.n
+            mx, my = self.sx / n, self.sy / n
+            var_x = (self.sxx - n * mx * mx) / (n - 1)
+            var_y = (self.syy - n * my * my) / (n - 1)
+            sd_x = np.sqrt(np.clip(var_x, 0, None))
+            sd_y = np.sqrt(np.clip(var_y, 0, None))
+            snr = self.ssnr / n
+        return mx, my, sd_x, sd_y, snr
+
+
+def check_pairs(pairs, available, field="--pairs"):
+    """Refuse averaging over more pairs than a clip holds."""
+    if pairs is None:
+        if available is not None and available < 1:
+            raise InputError(field, "(all)", "a clip with at least two frames in the range for one frame pair")
+        return
+    if not (isinstance(pairs, int) and pairs >= 1):
+        raise InputError(field, pairs, "a whole number of frame pairs ≥ 1")
+    if available is not None and pairs > available:
+        raise InputError(field, pairs, f"at most {max(available, 0)} frame pairs, all this clip's range holds")
+
+
+def mean_displacement_field(stream, passes=(64, 32, 32), overlap=0.5, gap=1, pairs=None, **options) -> MeanField:
+    """Average the correlation displacement field over the frame pairs of a stream.
+
+    Parameters
+    ----------
+    stream : ventflux_video.frames.FrameStream
+    passes, overlap, options
+        As for ``correlation.displacement_field``.
+    gap : int
+        Pair frames ``gap`` (delivered) frames apart.
+    pairs : int, optional
+        Average over this many pairs (all if not given); more than the clip
+        holds is an error.
+
+    Returns
+    -------
+    MeanField
+    """
+    check_passes(passes, overlap)
+    if not (isinstance(gap, int) and gap >= 1):
+        raise InputError("--gap", gap, "a whole number of frames ≥ 1")
+    available = None if stream.expected_frames is None else stream.expected_frames - gap
+    check_pairs(pairs, available)
+    acc = FieldAccumulator()
+    last = None
+    background = None
+    for _, a, b in frame_pairs(stream, gap):
+        last = displacement_field(a, b, passes, overlap, origin=stream.origin, **options)
+        acc.add(last.dx, last.dy, ~last.replaced, last.snr)
+        if background is None:
+            background = a.copy()
+        if pairs is not None and acc.pairs >= pairs:
+            break
+    return _finish(acc, last, stream, gap, pairs, background)
+
+
+def _finish(acc, last, stream, gap, pairs, background, mode="correlation"):
+    got = 0 if acc.n is None else acc.pairs
+    if got == 0 or (pairs is not None and got < pairs):
+        raise InputError("--pairs" if pairs else "clip", pairs if pairs else stream.source,
+                         f"a clip whose range yields {'the requested' if pairs else 'at least one'} frame pair"
+                         f"{'s' if pairs else ''} (got {got}; {stream.skipped} frames skipped)")
+    mx, my, sx, sy, snr = acc.moments()
+    x, y = (last.x, last.y) if isinstance(last, VectorField) else last
+    return MeanField(x=x, y=y, dx=mx, dy=my, dx_sd=sx, dy_sd=sy, count=acc.n, pairs=got,
+                     replaced_fraction=acc.invalid / max(acc.n.size * got, 1), snr=snr if mode == "correlation" else
+                     np.full(mx.shape, np.nan), interval=(gap * stream.step / stream.frame_rate).to("s"),
+                     background=background, origin=stream.origin, skipped_frames=stream.skipped,
+                     missing_frames=stream.missing, mode=mode)
