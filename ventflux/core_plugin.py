@@ -67,3 +67,17 @@ def ventflux_input_readers():
 @hookimpl
 def ventflux_velocity_sources():
     return []
+
+
+@hookimpl
+def ventflux_survey_methods():
+    from .survey import builtin
+
+    return list(builtin.METHODS)
+
+
+@hookimpl
+def ventflux_survey_sections():
+    from .survey import builtin
+
+    return list(builtin.SECTIONS)

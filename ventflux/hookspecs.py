@@ -80,3 +80,30 @@ def ventflux_commands():
         Each with a name, a one-line help, ``configure(parser)`` to add its
         arguments to an ``argparse`` sub-parser, and ``run(args) -> int``.
     """
+
+
+@hookspec
+def ventflux_survey_methods():
+    """Methods a focused vent of a field survey may be measured with.
+
+    Returns
+    -------
+    list of ventflux.survey.SurveyMethod
+        Each names the key of the vent's table in the survey file
+        (``orifice``, ``plume_rise``, ``video``, ...), parses and validates
+        that table, and turns it into Monte Carlo draws of the vent's heat
+        power using the run's shared draws.
+    """
+
+
+@hookspec
+def ventflux_survey_sections():
+    """Field-wide sections of a survey file (diffuse patches, sediment probes, ...).
+
+    Returns
+    -------
+    list of ventflux.survey.SurveySection
+        Each names a top-level table of the survey file, parses and validates
+        it, and returns per-item draws of heat power and volume flux with the
+        category they count towards (``focused`` or ``diffuse``).
+    """

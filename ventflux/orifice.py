@@ -344,10 +344,10 @@ def orifice_discharge_uncertain(draws: int = DEFAULT_DRAWS, seed: int = DEFAULT_
     exact = {k: nominal(v) for k, v in inputs.items()}
     nominal_result = orifice_discharge(**exact)
     sampled = draw_inputs(uncertain, int(draws), seed)
-    keep = _physical_draws(sampled, exact, int(draws))
+    keep = physical_draws(sampled, exact, int(draws))
     rejected = int(draws) - int(keep.sum())
     if rejected > MAX_REJECTED_SHARE * draws:
-        name = max(sampled, key=lambda k: np.count_nonzero(~_physical_draws({k: sampled[k]}, exact, int(draws))))
+        name = max(sampled, key=lambda k: np.count_nonzero(~physical_draws({k: sampled[k]}, exact, int(draws))))
         raise InputError(name, str(uncertain[name]),
                          f"a distribution whose draws are physical; {rejected} of {draws} draws were not "
                          "(use a smaller spread or a lognormal for a positive quantity)")
@@ -360,7 +360,8 @@ def orifice_discharge_uncertain(draws: int = DEFAULT_DRAWS, seed: int = DEFAULT_
     return UncertainDischarge(nominal_result, result, summaries, int(keep.sum()), rejected, seed)
 
 
-def _physical_draws(sampled, exact, n):
+def physical_draws(sampled, exact, n):
+    """Mask of draws that are physically possible (positive sizes and velocity, hot, one phase)."""
     keep = np.ones(n, bool)
     for k in ("velocity", "diameter", "area", "minor_diameter", "pressure", "depth"):
         if k in sampled:

@@ -7,6 +7,7 @@ The core registers its own methods through the same hooks as any plugin
 from __future__ import annotations
 
 import functools
+import warnings
 from dataclasses import dataclass, field
 from importlib import metadata
 from typing import Callable
@@ -82,8 +83,23 @@ def plugin_manager() -> pluggy.PluginManager:
     from . import core_plugin
 
     pm.register(core_plugin, name="ventflux")
-    pm.load_setuptools_entrypoints(hookspecs.PROJECT)
+    # Load plugins one by one: a broken plugin is reported, not fatal, so the
+    # core and the other plugins keep working.
+    for ep in metadata.entry_points(group=hookspecs.PROJECT):
+        if pm.get_plugin(ep.name) is not None or pm.is_blocked(ep.name):
+            continue
+        try:
+            plugin = ep.load()
+            pm.register(plugin, name=ep.name)
+        except Exception as exc:  # noqa: BLE001 - any failure of third-party code
+            BROKEN_PLUGINS[ep.name] = f"{type(exc).__name__}: {exc}"
+            warnings.warn(f"ventflux plugin '{ep.name}' ({ep.value}) failed to load and is skipped: "
+                          f"{type(exc).__name__}: {exc}", RuntimeWarning, stacklevel=2)
     return pm
+
+
+#: Plugins whose entry point failed to load: name -> reason.
+BROKEN_PLUGINS: dict[str, str] = {}
 
 
 def _collect(hook_name: str):

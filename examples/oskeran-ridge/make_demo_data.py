@@ -1,0 +1,78 @@
+"""Make the data files of the fictional Oskeran Ridge survey (cruise OSK-26).
+
+Everything here is invented: the site, its vents, the numbers. They are
+plausible in magnitude for a basalt-hosted vent field at about 2.5 km depth
+and serve only as a demonstration; no check of ventflux uses them.
+
+Run: python make_demo_data.py   (writes into data/ next to this script; deterministic)
+"""
+
+from __future__ import annotations
+
+import csv
+from pathlib import Path
+
+import numpy as np
+
+HERE = Path(__file__).resolve().parent
+DATA = HERE / "data"
+RNG = np.random.default_rng(2026_11_07)
+
+
+def write_csv(path, header, rows, comment=None):
+    path.parent.mkdir(parents=True, exist_ok=True)
+    with open(path, "w", newline="", encoding="utf-8") as fh:
+        if comment:
+            fh.write(f"# {comment}\n")
+        w = csv.writer(fh)
+        w.writerow(header)
+        w.writerows(rows)
+
+
+def ctd_cast():
+    """A downcast from 1500 m to 10 m above the seafloor at 2480 m, 2 dbar bins.
+
+    Deep-water stratification of the invented site: potential temperature
+    falling by about 0.9 K over the lowest kilometre, salinity rising slightly,
+    which gives a buoyancy frequency near 1e-3 1/s, with 1 mK sensor noise.
+    """
+    import gsw
+
+    p = np.arange(1520.0, 2500.0 + 0.1, 2.0)  # sea pressure, dbar
+    z = -gsw.z_from_p(p, -17.3)
+    theta = 2.02 + 0.95 * np.exp(-(z - 1500.0) / 520.0) - 0.95 * np.exp(-(2480 - 1500.0) / 520.0)
+    sp = 34.686 - 0.045 * np.exp(-(z - 1500.0) / 600.0)
+    sa = gsw.SA_from_SP(sp, p, -113.6, -17.3)
+    ct = gsw.CT_from_pt(sa, theta)
+    t = gsw.t_from_CT(sa, ct, p) + RNG.normal(0, 0.001, p.size)
+    rows = [(f"{a:.1f}", f"{b:.4f}", f"{c:.4f}") for a, b, c in zip(p, t, sp + RNG.normal(0, 0.0005, p.size))]
+    write_csv(DATA / "ctd_cast.csv", ["pressure [dbar]", "temperature [degC]", "salinity"], rows,
+              "Oskeran Ridge, cast OSK-26-C03 (invented), in-situ temperature, practical salinity")
+
+
+def patches():
+    """Sampled diffuse-flow patches: photo-mosaic areas, thermistor anomalies, seepage velocities."""
+    classes = {"mat": (8, 3.5, 0.45, 0.25), "cracked basalt": (6, 2.0, 0.25, 0.2), "sediment": (4, 0.8, 0.15, 0.06)}
+    rows = []
+    k = 1
+    for cls, (n, dT, frac, w_cm) in classes.items():
+        for _ in range(n):
+            area = RNG.uniform(4, 35)
+            rows.append((f"P{k:02d}", cls, f"{area:.1f}", f"{area * 0.08:.1f}",
+                         f"{np.clip(frac * RNG.lognormal(0, 0.3), 0.02, 0.95):.2f}", "0.05",
+                         f"{dT * RNG.lognormal(0, 0.35):.2f}", f"{0.3 + 0.1 * dT:.2f}",
+                         f"{w_cm * RNG.lognormal(0, 0.4):.3f}", f"{0.3 * w_cm:.3f}"))
+            k += 1
+    write_csv(DATA / "patches.csv",
+              ["patch", "class", "area [m^2]", "area_sd [m^2]", "active_fraction", "active_fraction_sd",
+               "temperature_anomaly [K]", "temperature_anomaly_sd [K]", "velocity [cm/s]", "velocity_sd [cm/s]"],
+              rows, "diffuse-flow patches sampled on dives OSK-26-D04 to D09 (invented)")
+    write_csv(DATA / "area_classes.csv", ["class", "area [m^2]", "area_sd [m^2]"],
+              [("mat", "1850", "250"), ("cracked basalt", "4200", "600"), ("sediment", "9500", "1500")],
+              "mapped area of each seafloor class from the photo mosaic (invented)")
+
+
+if __name__ == "__main__":
+    ctd_cast()
+    patches()
+    print(f"wrote demo data to {DATA}")

@@ -1,0 +1,86 @@
+"""What a survey method or section provides, and what it is given.
+
+Plugins extend the field survey through two hooks
+(``ventflux_survey_methods``, ``ventflux_survey_sections``) returning these
+objects. A method measures one focused vent (its table in the survey file
+is ``[vent.<key>]`` or ``[[vent.<key>]]``); a section is a field-wide table
+(``[<key>]``). Both work in two steps: ``parse`` validates the table and
+records every problem in the ``Fields`` it is given (nothing is computed),
+then ``estimate`` turns the parsed value into Monte Carlo draws, drawing
+every input through ``context.draws`` so that inputs shared between vents
+are drawn once per draw.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Callable
+
+
+@dataclass(frozen=True)
+class SurveyMethod:
+    key: str
+    summary: str
+    parse: Callable  # (fields: Fields, context: ParseContext) -> spec
+    estimate: Callable  # (spec, vent_name: str, context: RunContext) -> MethodEstimate
+    many: bool = False  # an array of tables ([[vent.orifice]]) rather than one table
+    provider: str = "ventflux"
+
+
+@dataclass(frozen=True)
+class SurveySection:
+    key: str
+    summary: str
+    parse: Callable  # (fields, context) -> spec
+    estimate: Callable  # (spec, context) -> SectionEstimate
+    provider: str = "ventflux"
+
+
+@dataclass
+class MethodEstimate:
+    """One method's estimate of one vent: heat power draws (shape ``(n_draws,)``) and its tables."""
+
+    heat_power: object  # pint quantity (n_draws,)
+    nominal_heat_power: object
+    exit_temperature: object = None  # for the vent's water throughput, if the method measured it
+    mass_flux: object = None  # draws, if the method measures it directly
+    rows: list = field(default_factory=list)  # detail rows for this method's table
+    figures: list = field(default_factory=list)  # (file stem, matplotlib figure, caption)
+    notes: list = field(default_factory=list)
+
+
+@dataclass
+class SectionEstimate:
+    """A field-wide section's items: per-item draws, shape ``(n_items, n_draws)``."""
+
+    category: str  # "focused" or "diffuse"
+    names: list
+    heat_power: object
+    volume_flux: object = None
+    rows: list = field(default_factory=list)
+    tables: dict = field(default_factory=dict)  # extra tables: name -> list of dict rows
+    figures: list = field(default_factory=list)
+    notes: list = field(default_factory=list)
+
+
+@dataclass
+class ParseContext:
+    """What a parser may consult: the survey's folder and its site-wide values."""
+
+    base_dir: Path
+    site: object
+    input_files: dict  # path -> role, every file the survey reads (for hashing)
+
+
+@dataclass
+class RunContext:
+    """What an estimator is given: the shared draws and the site."""
+
+    draws: object  # ventflux.aggregate.SharedDraws
+    site: object  # parsed SiteSpec
+    pressure: object  # absolute pressure quantity
+    ambient_temperature: object  # draws (n,) shared by every consumer
+    ambient_salinity: object  # draws or float
+    stratification: object = None  # ventflux.profiles object, if a CTD cast is given
+    progress: Callable = lambda msg: None

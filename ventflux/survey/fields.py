@@ -1,0 +1,199 @@
+"""Reading one table of a survey file with every problem collected, not just the first.
+
+``Fields`` wraps one TOML table and its key path (``vent[2].orifice[1]``). Each
+getter parses one key, records a problem in the shared ``Collector`` instead
+of raising, and notes which defaults were used so the run's provenance can
+list them. Unknown keys are reported too: a misspelt key is a silent wrong
+answer otherwise.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from ..errors import Collector, InputError
+from ..uncertainty import Uncertain, parse_uncertain
+from ..units import Q_, parse_quantity
+
+
+class Fields:
+    """Typed access to one TOML table, collecting errors under a key path."""
+
+    def __init__(self, table, path: str, errors: Collector, where: str, base_dir: Path, defaults: dict,
+                 shared: dict | None = None):
+        self.table = table if isinstance(table, dict) else {}
+        self.path = path
+        self.errors = errors
+        self.where = where
+        self.base_dir = base_dir
+        self.defaults = defaults
+        self.shared = shared if shared is not None else {}
+        self.used: set[str] = set()
+        if not isinstance(table, dict):
+            self.error("", type(table).__name__, "a table (section) of keys")
+
+    # -- plumbing ---------------------------------------------------------------
+    def key(self, name: str) -> str:
+        return f"{self.path}.{name}" if self.path else name
+
+    def error(self, name, value, allowed):
+        self.errors.add(InputError(self.key(name) if name else self.path, value, allowed, where=self.where))
+
+    def _get(self, name, required, default):
+        self.used.add(name)
+        if name in self.table:
+            return self.table[name], False
+        if required:
+            self.error(name, "(missing)", "a value for this required key")
+        elif default is not None:
+            self.defaults[self.key(name)] = str(default)
+        return default, True
+
+    def has(self, name) -> bool:
+        return name in self.table
+
+    def sub(self, name, required=False) -> "Fields | None":
+        self.used.add(name)
+        if name not in self.table:
+            if required:
+                self.error(name, "(missing)", "a table for this required section")
+            return None
+        return Fields(self.table[name], self.key(name), self.errors, self.where, self.base_dir, self.defaults,
+                      self.shared)
+
+    def subs(self, name) -> list["Fields"]:
+        """An array of tables (``[[vent]]``) as ``Fields`` with indexed key paths."""
+        self.used.add(name)
+        items = self.table.get(name, [])
+        if isinstance(items, dict):
+            items = [items]
+        if not isinstance(items, list):
+            self.error(name, type(items).__name__, "an array of tables, e.g. [[" + self.key(name) + "]]")
+            return []
+        return [Fields(t, f"{self.key(name)}[{i}]", self.errors, self.where, self.base_dir, self.defaults,
+                       self.shared) for i, t in enumerate(items)]
+
+    def check_unknown(self, extra_allowed=()):
+        unknown = sorted(set(self.table) - self.used - set(extra_allowed))
+        for k in unknown:
+            self.error(k, "(unknown key)", "one of " + ", ".join(sorted(self.used | set(extra_allowed))))
+
+    # -- getters ----------------------------------------------------------------
+    def quantity(self, name, dimension, required=False, default=None, uncertain=True, positive=False,
+                 minimum=None, maximum=None, shareable=True):
+        """A quantity, an ``Uncertain`` (when allowed), or a ``("@", name)`` reference to [shared]."""
+        raw, defaulted = self._get(name, required, default)
+        if raw is None:
+            return None
+        if isinstance(raw, str) and raw.startswith("@"):
+            ref = raw[1:].strip()
+            if not shareable:
+                self.error(name, raw, "a value of its own (this key cannot refer to [shared])")
+                return None
+            if ref not in self.shared:
+                self.error(name, raw, "a reference to a name defined in [shared]: " +
+                           (", ".join(sorted(self.shared)) or "(none defined)"))
+                return None
+            value = self.shared[ref]
+            return SharedRef(ref, value)
+        if isinstance(raw, (int, float)) and not isinstance(raw, bool):
+            raw = str(raw) if dimension == "dimensionless" else raw
+        if not isinstance(raw, (str, int, float)) or isinstance(raw, bool):
+            self.error(name, repr(raw), f"a {dimension} written as a string, e.g. \"1.4 ± 0.2 m/s\"")
+            return None
+        try:
+            if uncertain:
+                value = parse_uncertain(str(raw), dimension, self.key(name))
+            else:
+                value = parse_quantity(str(raw), dimension, self.key(name))
+        except InputError as e:
+            self.errors.add(InputError(self.key(name), raw, e.allowed, where=self.where))
+            return None
+        if defaulted:
+            return value
+        centre = value.nominal if isinstance(value, Uncertain) else value
+        mag = centre.to_base_units().magnitude if dimension != "temperature" else centre.to("K").magnitude
+        if positive and not mag > 0:
+            self.error(name, raw, f"a {dimension} > 0")
+            return None
+        if minimum is not None and centre < minimum:
+            self.error(name, raw, f"a {dimension} ≥ {minimum:~P}")
+            return None
+        if maximum is not None and centre > maximum:
+            self.error(name, raw, f"a {dimension} ≤ {maximum:~P}")
+            return None
+        return value
+
+    def number(self, name, required=False, default=None, minimum=None, maximum=None, integer=False):
+        raw, defaulted = self._get(name, required, default)
+        if raw is None or defaulted:
+            return raw
+        ok_type = isinstance(raw, int) if integer else isinstance(raw, (int, float))
+        if isinstance(raw, bool) or not ok_type:
+            self.error(name, repr(raw), "an integer" if integer else "a number")
+            return None
+        if (minimum is not None and raw < minimum) or (maximum is not None and raw > maximum):
+            rng = f"from {minimum} to {maximum}" if maximum is not None else f"≥ {minimum}"
+            self.error(name, raw, f"a number {rng}")
+            return None
+        return raw
+
+    def string(self, name, required=False, default=None, choices=None):
+        raw, defaulted = self._get(name, required, default)
+        if raw is None or defaulted:
+            return raw
+        if not isinstance(raw, str) or not raw.strip():
+            self.error(name, repr(raw), "a non-empty string")
+            return None
+        if choices is not None and raw not in choices:
+            self.error(name, raw, "one of " + ", ".join(choices))
+            return None
+        return raw
+
+    def path_value(self, name, required=False, kind="file"):
+        raw, _ = self._get(name, required, None)
+        if raw is None:
+            return None
+        if not isinstance(raw, str) or not raw.strip():
+            self.error(name, repr(raw), "a path written as a string, relative to the survey file")
+            return None
+        p = (self.base_dir / raw).resolve() if not Path(raw).is_absolute() else Path(raw)
+        exists = p.is_file() if kind == "file" else p.is_dir()
+        if not exists:
+            self.error(name, raw, f"an existing {kind} (looked for {p})")
+            return None
+        return p
+
+
+class SharedRef:
+    """A survey value that refers to a named entry of [shared]: drawn once per draw for all users."""
+
+    def __init__(self, name, value):
+        self.name = name
+        self.value = value
+
+    def __repr__(self):
+        return f"@{self.name}"
+
+
+def resolve(value, own_name: str, draws):
+    """Draws of a survey value: shared references by their shared name, others by their own key path."""
+    if isinstance(value, SharedRef):
+        return draws.draw("shared/" + value.name, value.value)
+    return draws.draw(own_name, value)
+
+
+def nominal_of(value):
+    from ..uncertainty import nominal
+
+    if isinstance(value, SharedRef):
+        value = value.value
+    return nominal(value)
+
+
+def as_float(q):
+    """A dimensionless quantity (or float) as float/array."""
+    return q.to("dimensionless").magnitude if hasattr(q, "to") else q
+
+
+__all__ = ["Fields", "SharedRef", "resolve", "nominal_of", "as_float", "Q_"]

@@ -1,0 +1,378 @@
+"""Write a survey's results folder: tables (CSV), figures (PNG), a JSON summary and an HTML report.
+
+The folder is built under a temporary name and renamed into place when
+complete (``ventflux.io.atomic_directory``), so a half-written folder is never
+mistaken for a finished one; ``summary.json`` holds the provenance: package
+and plugin versions, a SHA-256 of every input file, the seed, the draws,
+every parameter and every default used.
+"""
+
+from __future__ import annotations
+
+import base64
+import datetime as _dt
+import html
+import io
+import json
+import platform
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from ..errors import InputError
+from ..io import atomic_directory, sha256_of
+
+CAUTION = ("These estimates are for scientific analysis. They are not for the operational safety of people or "
+           "vehicles near hot fluids: follow the operator's procedures and local codes.")
+
+
+def _mw(s):
+    s = s.to("MW")
+    return {"median [MW]": s.median.magnitude, "p05 [MW]": s.p05.magnitude, "p95 [MW]": s.p95.magnitude,
+            "mean [MW]": s.mean.magnitude, "std [MW]": s.std.magnitude}
+
+
+def _summary_keys(s, name, unit):
+    return s.as_dict(name, unit)
+
+
+def check_output_location(out_dir: Path, spec):
+    """Refuse an output folder that holds, or is, any input: replacing it would destroy them."""
+    out = Path(out_dir).resolve()
+    for f in spec.input_files:
+        p = Path(f).resolve()
+        if out == p or out in p.parents:
+            raise InputError("--out", str(out_dir), f"a folder that contains no input file (it contains {p})")
+
+
+def tables_of(result) -> dict:
+    """Every results table as a list of row dictionaries (units in the column names)."""
+    t = {}
+    vents = []
+    for vr in result.vents:
+        s = _summary(vr.heat_power)
+        row = {"vent": vr.name, "methods": " + ".join(vr.methods), **{f"heat_power_{k}": v for k, v in _mw(s).items()}}
+        if vr.comparison is not None:
+            row["methods_consistent"] = vr.comparison.consistent
+        if vr.throughput is not None:
+            m = vr.throughput.mass_flux.to("kg/s").magnitude
+            row["exit_temperature [degC]"] = float(_nom(vr.exit_temperature).to("degC").magnitude)
+            row["mass_flux_median [kg/s]"] = float(np.median(m))
+            row["annual_volume_median [km^3/yr]"] = float(np.median(vr.throughput.annual_volume.to("km^3/yr").m))
+        vents.append(row)
+    t["vents"] = vents
+    methods, pairs, orifices = [], [], []
+    for vr in result.vents:
+        for key, e in vr.methods.items():
+            s = _summary(e.heat_power, finite=True)
+            methods.append({"vent": vr.name, "method": key, "nominal_heat_power [MW]":
+                            float(e.nominal_heat_power.to("MW").magnitude),
+                            **{f"heat_power_{k}": v for k, v in _mw(s).items()},
+                            "weight_in_combination": (vr.comparison.weights[key] if vr.comparison else 1.0)})
+            if key == "orifice":
+                orifices += e.rows
+        if vr.comparison is not None:
+            methods.append({"vent": vr.name, "method": "combined", **{f"heat_power_{k}": v for k, v in
+                                                                      _mw(vr.comparison.combined).items()},
+                            "weight_in_combination": float("nan")})
+            for p in vr.comparison.pair_rows():
+                pairs.append({"vent": vr.name, **p})
+    t["methods"] = methods
+    if pairs:
+        t["method_pairs"] = pairs
+    if orifices:
+        t["orifices"] = orifices
+    for vr in result.vents:
+        for key, e in vr.methods.items():
+            if key != "orifice" and e.rows:
+                t.setdefault(f"{key}", []).extend(e.rows)
+    for key, s in result.sections.items():
+        for name, rows in s.tables.items():
+            t[name] = rows
+    totals = []
+    for label, ft in (("focused", result.focused), ("diffuse", result.diffuse)):
+        if ft is not None:
+            totals.append({"quantity": f"{label} heat power", "unit": "MW", **_plain(ft.summary.to("MW"))})
+    if result.split is not None:
+        totals.append({"quantity": "total heat power", "unit": "MW", **_plain(result.split.total.to("MW"))})
+        totals.append({"quantity": "diffuse fraction", "unit": "1", **_plain(result.split.diffuse_fraction)})
+    for k, s in result.water.items():
+        unit = "kg/s" if "mass" in k else "m^3/s"
+        totals.append({"quantity": k.replace("_", " "), "unit": unit, **_plain(s.to(unit))})
+    t["field_totals"] = totals
+    res = []
+    for r in result.reservoirs:
+        res.append({"reservoir": r["name"], "supplied_by": r["supplies"],
+                    "heat [J]": float(np.atleast_1d(r["heat"].total.to("J").magnitude)[0]),
+                    "heat_mining_time_median [yr]": r["mining"].median.magnitude,
+                    "heat_mining_time_p05 [yr]": r["mining"].p05.magnitude,
+                    "heat_mining_time_p95 [yr]": r["mining"].p95.magnitude,
+                    "decline_time_median [yr]": r["decline"].median.magnitude,
+                    "conductive_time [yr]": r["conductive"], "controlling": r["controlling"]})
+    if res:
+        t["reservoirs"] = res
+    return t
+
+
+def _plain(s):
+    return {"mean": float(s.mean.magnitude), "median": float(s.median.magnitude), "p05": float(s.p05.magnitude),
+            "p95": float(s.p95.magnitude), "std": float(s.std.magnitude)}
+
+
+def _nom(q):
+    return q.nominal if hasattr(q, "nominal") and not hasattr(q, "magnitude") else q
+
+
+def _summary(q, finite=False):
+    from ..uncertainty import summarize
+
+    return summarize(q)
+
+
+# ---- figures -----------------------------------------------------------------
+def figures_of(result) -> list:
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    figs = []
+    if result.vents:
+        rows = []  # (y, label, lo, median, hi, method)
+        y = 0.0
+        for vr in result.vents:
+            items = [(k, e.heat_power.to("MW").magnitude) for k, e in vr.methods.items()]
+            if vr.comparison is not None:
+                items.append(("combined", vr.comparison.combined_draws.to("MW").magnitude))
+            for k, d in items:
+                lo, med, hi = np.percentile(d[np.isfinite(d)], [5, 50, 95])
+                rows.append((y, f"{vr.name}: {k}", lo, med, hi, k))
+                y += 1
+            y += 0.5
+        fig, ax = plt.subplots(figsize=(7.5, 1.0 + 0.4 * len(rows)))
+        colours = {}
+        for yy, _, lo, med, hi, k in rows:
+            c = colours.setdefault(k, f"C{len(colours)}")
+            ax.errorbar(med, yy, xerr=[[med - lo], [hi - med]], fmt="D" if k == "combined" else "o", color=c,
+                        capsize=3)
+        ax.set_yticks([r[0] for r in rows], [r[1] for r in rows])
+        ax.set_xscale("log")
+        ax.set_xlabel("heat power [MW] (median and 5–95 % interval)")
+        ax.invert_yaxis()
+        ax.grid(axis="x", alpha=0.3)
+        ax.set_title("Heat power by vent and method")
+        fig.tight_layout()
+        figs.append(("vents_by_method", fig, "Heat power of each vent by each method, and their combination."))
+    if result.split is not None:
+        fig, ax = plt.subplots(figsize=(6.5, 3.4))
+        for k, c in (("focused", "C3"), ("diffuse", "C0"), ("total", "k")):
+            d = result.split.draws[k].to("MW").magnitude
+            ax.hist(d, bins=60, histtype="step", color=c, label=k, density=True)
+        ax.set_xlabel("heat power [MW]")
+        ax.set_ylabel("probability density")
+        frac = result.split.diffuse_fraction
+        ax.set_title(f"Focused and diffuse discharge (diffuse fraction {frac.median.m:.2f}, "
+                     f"5–95 %: {frac.p05.m:.2f}–{frac.p95.m:.2f})", fontsize=9)
+        ax.legend()
+        fig.tight_layout()
+        figs.append(("focused_diffuse", fig, "Monte Carlo distributions of the focused, diffuse and total output."))
+    if result.reservoirs:
+        fig, ax = plt.subplots(figsize=(6.5, 0.8 + 0.6 * len(result.reservoirs)))
+        for i, r in enumerate(result.reservoirs):
+            m = r["mining"]
+            ax.errorbar(m.median.m, i, xerr=[[m.median.m - m.p05.m], [m.p95.m - m.median.m]], fmt="o", color="C1",
+                        capsize=3, label="heat-mining time" if i == 0 else None)
+            ax.plot(r["conductive"], i, "s", color="C2", label="conductive time L²/κ" if i == 0 else None)
+        ax.set_yticks(range(len(result.reservoirs)), [r["name"] for r in result.reservoirs])
+        ax.set_xscale("log")
+        ax.set_xlabel("time [yr]")
+        ax.legend(fontsize=8)
+        ax.invert_yaxis()
+        fig.tight_layout()
+        figs.append(("reservoirs", fig, "How long each heat-reservoir hypothesis can feed the output."))
+    for vr in result.vents:
+        for e in vr.methods.values():
+            figs += [(f"{_slug(vr.name)}_{stem}", f, cap) for stem, f, cap in e.figures]
+    for key, s in result.sections.items():
+        figs += [(f"{key}_{stem}", f, cap) for stem, f, cap in s.figures]
+    return figs
+
+
+def _slug(name):
+    return "".join(ch if ch.isalnum() else "-" for ch in name.lower()).strip("-") or "survey"
+
+
+# ---- summary and provenance ---------------------------------------------------
+def summary_of(result, tables) -> dict:
+    from ..registry import distribution_versions
+
+    spec = result.spec
+    out = {"scenario": spec.site.name, "cruise": spec.site.cruise, "complete": True,
+           "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")}
+    if result.focused is not None:
+        out.update(result.focused.summary.as_dict("focused_heat_power", "MW"))
+    if result.diffuse is not None:
+        out.update(result.diffuse.summary.as_dict("diffuse_heat_power", "MW"))
+    if result.split is not None:
+        out.update(result.split.total.as_dict("total_heat_power", "MW"))
+        out.update(result.split.diffuse_fraction.as_dict("diffuse_fraction", "dimensionless"))
+    for k, s in result.water.items():
+        unit = "kg/s" if "mass" in k else "m^3/s"
+        out.update(s.as_dict(k, unit))
+    out["vents"] = tables["vents"]
+    out["method_pairs"] = tables.get("method_pairs", [])
+    out["reservoirs"] = tables.get("reservoirs", [])
+    out["provenance"] = {
+        "versions": {**distribution_versions(), "python": platform.python_version(), **_library_versions()},
+        "inputs": {str(Path(p)): {"role": role, "sha256": sha256_of(p)} for p, role in spec.input_files.items()},
+        "seed": spec.seed, "draws_requested": spec.draws, "draws_used": result.n_draws,
+        "draws_dropped_as_unphysical": result.dropped_draws,
+        "shared_inputs": result.shared_inputs,
+        "defaults_used": spec.defaults_used,
+        "pressure_Pa": float(result.pressure.to("Pa").magnitude),
+        "vent_fluid_model": "iapws95-water (pure water, IAPWS-95 via CoolProp)",
+        "ambient_seawater_model": "TEOS-10 via gsw",
+        "method_combination": "best linear unbiased estimate on log power with the draws' covariance, "
+                              "widened by the Birge factor when methods disagree (ventflux.aggregate)",
+        "elapsed_s": result.elapsed,
+    }
+    return out
+
+
+def _library_versions():
+    from importlib import metadata
+
+    out = {}
+    for name in ("numpy", "scipy", "pandas", "pint", "gsw", "CoolProp", "matplotlib", "pluggy"):
+        try:
+            out[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            pass
+    return out
+
+
+# ---- writing --------------------------------------------------------------------
+def write_results(result, out_dir) -> Path:
+    """Write the results folder atomically; return the path of the HTML report."""
+    out_dir = Path(out_dir)
+    check_output_location(out_dir, result.spec)
+    tables = tables_of(result)
+    figs = figures_of(result)
+    summary = summary_of(result, tables)
+    import matplotlib.pyplot as plt
+
+    with atomic_directory(out_dir) as tmp:
+        (tmp / "tables").mkdir()
+        (tmp / "figures").mkdir()
+        for name, rows in tables.items():
+            pd.DataFrame(rows).to_csv(tmp / "tables" / f"{name}.csv", index=False)
+        images = []
+        for stem, fig, caption in figs:
+            buf = io.BytesIO()
+            fig.savefig(buf, format="png", dpi=110)
+            plt.close(fig)
+            data = buf.getvalue()
+            (tmp / "figures" / f"{stem}.png").write_bytes(data)
+            images.append((stem, caption, data))
+        (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2, ensure_ascii=False) + "\n",
+                                          encoding="utf-8")
+        (tmp / "report.html").write_text(_html(result, tables, images, summary), encoding="utf-8")
+    return out_dir / "report.html"
+
+
+def _clean(v):
+    from ..cli.output import _clean as clean
+
+    return clean(v)
+
+
+def _table_html(rows):
+    if not rows:
+        return "<p>(none)</p>"
+    df = pd.DataFrame(rows)
+    return df.to_html(index=False, float_format=lambda x: f"{x:.4g}", na_rep="–", border=0, classes="t")
+
+
+def _html(result, tables, images, summary) -> str:
+    spec = result.spec
+    esc = html.escape
+    parts = [f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">
+<title>ventflux survey report: {esc(spec.site.name)}</title>
+<style>
+body{{font-family:system-ui,sans-serif;max-width:62rem;margin:2rem auto;padding:0 1rem;color:#222;line-height:1.45}}
+h1{{font-size:1.6rem}} h2{{font-size:1.2rem;border-bottom:1px solid #ccc;padding-bottom:.2rem;margin-top:2rem}}
+table.t{{border-collapse:collapse;font-size:.85rem;margin:.5rem 0}} table.t td,table.t th{{padding:.2rem .5rem;
+border-bottom:1px solid #e3e3e3;text-align:right}} table.t th{{background:#f4f4f4}}
+.caution{{background:#fff4e0;border-left:4px solid #e0a030;padding:.6rem 1rem}}
+.key{{font-size:1.1rem}} figure{{margin:1rem 0}} figcaption{{font-size:.85rem;color:#555}}
+code{{background:#f4f4f4;padding:0 .2rem}}
+</style></head><body>
+<h1>Heat and water discharge: {esc(spec.site.name)}</h1>
+<p class="caution">{esc(CAUTION)}</p>"""]
+    key = []
+    if result.split is not None:
+        t = result.split.total.to("MW")
+        f = result.split.diffuse_fraction
+        key.append(f"Total heat output <b>{t.median.m:.3g} MW</b> (5–95 %: {t.p05.m:.3g}–{t.p95.m:.3g} MW), "
+                   f"of which diffuse discharge is <b>{f.median.m:.0%}</b> ({f.p05.m:.0%}–{f.p95.m:.0%}).")
+    elif result.focused is not None:
+        t = result.focused.summary.to("MW")
+        key.append(f"Focused heat output <b>{t.median.m:.3g} MW</b> (5–95 %: {t.p05.m:.3g}–{t.p95.m:.3g} MW).")
+    inconsistent = [vr.name for vr in result.vents if vr.comparison is not None and not vr.comparison.consistent]
+    compared = [vr.name for vr in result.vents if vr.comparison is not None]
+    if compared:
+        key.append(f"Independent methods agree within their errors for {len(compared) - len(inconsistent)} of "
+                   f"{len(compared)} vents measured by more than one method" +
+                   (f"; they disagree for {esc(', '.join(inconsistent))}." if inconsistent else "."))
+    parts.append("<p class='key'>" + " ".join(key) + "</p>")
+    parts.append(f"<p>Site depth/pressure: {result.pressure.to('MPa').m:.4g} MPa absolute; latitude "
+                 f"{spec.site.latitude}, longitude {spec.site.longitude}. Monte Carlo: {result.n_draws} usable draws "
+                 f"of {spec.draws} (seed {spec.seed}); {result.dropped_draws} draws dropped as unphysical.</p>")
+    order = ["field_totals", "vents", "methods", "method_pairs", "orifices", "plume_rise", "video",
+             "diffuse_classes", "diffuse_patches", "reservoirs"]
+    titles = {"field_totals": "Field totals", "vents": "Vents", "methods": "Methods for each vent",
+              "method_pairs": "Do the methods agree?", "orifices": "Orifices", "diffuse_classes":
+              "Diffuse discharge by mapped area class", "diffuse_patches": "Sampled diffuse patches",
+              "reservoirs": "Heat reservoirs"}
+    names = [n for n in order if n in tables] + [n for n in tables if n not in order]
+    img_by = {stem: (cap, data) for stem, cap, data in images}
+    fig_after = {"vents": ["vents_by_method"], "field_totals": ["focused_diffuse"], "reservoirs": ["reservoirs"]}
+    shown = set()
+    for n in names:
+        parts.append(f"<h2>{esc(titles.get(n, n.replace('_', ' ').capitalize()))}</h2>")
+        if n == "method_pairs":
+            parts.append("<p>A pair of methods is consistent when their log-ratio differs from zero by at most "
+                         "two standard deviations of its own Monte Carlo spread; the combined estimate weights the "
+                         "methods by the inverse covariance of their log draws.</p>")
+        parts.append(_table_html(tables[n]))
+        for stem in fig_after.get(n, []):
+            if stem in img_by:
+                parts.append(_figure(stem, *img_by[stem]))
+                shown.add(stem)
+    rest = [s for s in img_by if s not in shown]
+    if rest:
+        parts.append("<h2>Method figures</h2>")
+        parts += [_figure(s, *img_by[s]) for s in rest]
+    prov = summary["provenance"]
+    parts.append("<h2>Provenance</h2><p>Inputs (SHA-256):</p><ul>" + "".join(
+        f"<li><code>{esc(Path(p).name)}</code> ({esc(v['role'])}): <code>{v['sha256'][:16]}…</code></li>"
+        for p, v in prov["inputs"].items()) + "</ul>")
+    parts.append("<p>Versions: " + esc(", ".join(f"{k} {v}" for k, v in prov["versions"].items())) + "</p>")
+    if prov["defaults_used"]:
+        parts.append("<p>Defaults used: " + esc("; ".join(f"{k} = {v}" for k, v in prov["defaults_used"].items()))
+                     + "</p>")
+    notes = [n for vr in result.vents for e in vr.methods.values() for n in e.notes]
+    notes += [n for s in result.sections.values() for n in s.notes]
+    if notes:
+        parts.append("<h2>Notes</h2><ul>" + "".join(f"<li>{esc(n)}</li>" for n in dict.fromkeys(notes)) + "</ul>")
+    parts.append("<p style='font-size:.8rem;color:#777'>Heat is an enthalpy difference at in-situ pressure: vent "
+                 "fluid as pure water (IAPWS-95), ambient seawater from TEOS-10. The full summary with every "
+                 "number is in <code>summary.json</code>; tables are in <code>tables/</code>.</p></body></html>")
+    return "\n".join(parts)
+
+
+def _figure(stem, caption, data):
+    b64 = base64.b64encode(data).decode("ascii")
+    return (f"<figure><img alt='{html.escape(stem)}' style='max-width:100%' src='data:image/png;base64,{b64}'>"
+            f"<figcaption>{html.escape(caption)}</figcaption></figure>")

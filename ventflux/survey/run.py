@@ -1,0 +1,200 @@
+"""Run a whole survey: every vent and section, field totals, method comparison, reservoirs.
+
+One ``SharedDraws`` serves the whole run, so draw ``j`` of every vent, patch
+and section is one consistent realization of the field: inputs shared
+between vents (the site's ambient temperature, a camera's pixel scale, a
+probe calibration, the CTD cast) take the same value in draw ``j``
+everywhere, and their errors do not average away in the totals.
+
+Draws that some method could not evaluate (NaN) are dropped for the whole
+field, column by column; their number is reported.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..aggregate import SharedDraws, compare_methods, field_total, focused_diffuse_split
+from ..errors import InputError
+from ..orifice import in_situ_pressure
+from ..units import Q_
+from ..uncertainty import summarize
+from .api import RunContext
+from .spec import SurveySpec
+
+
+@dataclass
+class VentResult:
+    name: str
+    methods: dict  # key -> MethodEstimate
+    heat_power: object  # combined draws (after column filtering)
+    comparison: object = None  # MethodComparison when several methods
+    throughput: object = None
+    exit_temperature: object = None
+
+
+@dataclass
+class SurveyResult:
+    spec: SurveySpec
+    pressure: object
+    vents: list
+    sections: dict  # key -> SectionEstimate
+    focused: object  # FieldTotal
+    diffuse: object  # FieldTotal or None
+    split: object  # FocusedDiffuseSplit or None
+    water: dict  # name -> Summary of field water flux
+    reservoirs: list
+    dropped_draws: int
+    n_draws: int
+    elapsed: float
+    shared_inputs: dict
+    notes: list = field(default_factory=list)
+
+
+def _methods_and_sections():
+    from .spec import _registry
+
+    return _registry()
+
+
+def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
+    """Compute everything a survey file asks for (see ``ventflux.survey.spec``)."""
+    t0 = time.perf_counter()
+    methods, sections = _methods_and_sections()
+    draws = SharedDraws(spec.draws, spec.seed)
+    site = spec.site
+    pressure = in_situ_pressure(site.pressure, site.depth, site.latitude)
+    ambient = draws.draw("site/ambient temperature", site.ambient_temperature)
+    if np.ndim(ambient.magnitude) == 0:
+        ambient = Q_(np.full(spec.draws, ambient.to("K").magnitude), "K")
+    salinity = draws.draw("site/ambient salinity", site.ambient_salinity)
+    salinity = salinity.to("dimensionless").magnitude if hasattr(salinity, "to") else salinity
+    strat = None
+    if site.ctd is not None:
+        progress("reading the CTD cast")
+        strat = _read_stratification(site)
+    ctx = RunContext(draws=draws, site=site, pressure=pressure, ambient_temperature=ambient,
+                     ambient_salinity=salinity, stratification=strat, progress=progress)
+
+    vents = []
+    for i, v in enumerate(spec.vents, 1):
+        progress(f"vent {i}/{len(spec.vents)}: {v.name} ({', '.join(v.methods)})")
+        est = {}
+        for key, parsed in v.methods.items():
+            est[key] = methods[key].estimate(parsed, v.name, ctx)
+        vents.append(VentResult(name=v.name, methods=est, heat_power=None))
+    sec = {}
+    for key, parsed in spec.sections.items():
+        progress(f"section: {key}")
+        sec[key] = sections[key].estimate(parsed, ctx)
+
+    # One mask of usable draw columns for the whole field.
+    keep = np.ones(spec.draws, bool)
+    for vr in vents:
+        for e in vr.methods.values():
+            keep &= np.isfinite(e.heat_power.magnitude) & (e.heat_power.magnitude > 0)
+    for s in sec.values():
+        keep &= np.all(np.isfinite(np.atleast_2d(s.heat_power.magnitude)), axis=0)
+    dropped = int((~keep).sum())
+    if keep.sum() < max(100, 0.5 * spec.draws):
+        raise InputError("draws", f"{dropped} of {spec.draws} unusable",
+                         "input distributions whose draws are mostly physical (narrow the spreads)")
+
+    progress("field totals and method comparison")
+    for vr, v in zip(vents, spec.vents):
+        est = {k: Q_(e.heat_power.to("MW").magnitude[keep], "MW") for k, e in vr.methods.items()}
+        if len(est) > 1:
+            vr.comparison = compare_methods(est, "MW", seed=spec.seed)
+            vr.heat_power = vr.comparison.combined_draws
+        else:
+            vr.heat_power = next(iter(est.values()))
+        temps = [e.exit_temperature for e in vr.methods.values() if e.exit_temperature is not None]
+        vr.exit_temperature = v.exit_temperature if v.exit_temperature is not None else (temps[0] if temps else None)
+        if vr.exit_temperature is not None:
+            vr.throughput = _throughput(vr, ctx, keep)
+
+    focused_items = [vr.heat_power.to("W") for vr in vents]
+    diffuse_items = []
+    for s in sec.values():
+        h = Q_(np.atleast_2d(s.heat_power.to("W").magnitude)[:, keep], "W")
+        (focused_items if s.category == "focused" else diffuse_items).append(h)
+    focused = field_total([np.atleast_2d(q.magnitude) * q.units for q in focused_items], "MW", spec.seed) \
+        if focused_items else None
+    diffuse = field_total(diffuse_items, "MW", spec.seed) if diffuse_items else None
+    split = None
+    if focused is not None and diffuse is not None:
+        split = focused_diffuse_split(focused, diffuse, spec.seed)
+
+    water = _field_water(vents, sec, keep, spec.seed)
+    reservoirs = [_reservoir(r, vents, focused, diffuse, pressure, spec.seed) for r in spec.reservoirs]
+    shared = {k: v for k, v in draws.describe().items() if k.startswith(("shared/", "site/"))}
+    return SurveyResult(spec=spec, pressure=pressure, vents=vents, sections=sec, focused=focused, diffuse=diffuse,
+                        split=split, water=water, reservoirs=reservoirs, dropped_draws=dropped,
+                        n_draws=int(keep.sum()), elapsed=time.perf_counter() - t0, shared_inputs=shared)
+
+
+def _read_stratification(site):
+    from .. import profiles
+
+    kwargs = {"latitude": site.latitude, "longitude": site.longitude}
+    if site.ctd_window is not None:
+        kwargs["window"] = site.ctd_window
+    return profiles.read_ctd_cast(site.ctd, **kwargs)
+
+
+def _throughput(vr, ctx, keep):
+    from ..throughput import water_throughput
+
+    T = vr.exit_temperature
+    T = T.nominal if hasattr(T, "nominal") else T
+    Ta = Q_(ctx.ambient_temperature.to("K").magnitude[keep], "K")
+    S = ctx.ambient_salinity[keep] if np.ndim(ctx.ambient_salinity) == 1 else ctx.ambient_salinity
+    return water_throughput(vr.heat_power.to("W"), T, ctx.pressure, Ta, S)
+
+
+def _field_water(vents, sec, keep, seed):
+    out = {}
+    mass = [vr.throughput.mass_flux.to("kg/s").magnitude for vr in vents if vr.throughput is not None]
+    vol = [vr.throughput.volume_flux_ambient.to("m^3/s").magnitude for vr in vents if vr.throughput is not None]
+    if mass:
+        out["focused_mass_flux"] = summarize(Q_(np.sum(mass, axis=0), "kg/s"), seed)
+        out["focused_volume_flux"] = summarize(Q_(np.sum(vol, axis=0), "m^3/s"), seed)
+    dv = [np.atleast_2d(s.volume_flux.to("m^3/s").magnitude)[:, keep].sum(axis=0) for s in sec.values()
+          if s.volume_flux is not None and s.category == "diffuse"]
+    if dv:
+        out["diffuse_volume_flux"] = summarize(Q_(np.sum(dv, axis=0), "m^3/s"), seed)
+    return out
+
+
+def _reservoir(r, vents, focused, diffuse, pressure, seed):
+    from ..reservoir import reservoir_heat, reservoir_lifetime
+
+    if r.supplies == "focused":
+        P = focused.draws
+    elif r.supplies == "diffuse":
+        P = diffuse.draws
+    elif r.supplies == "field total":
+        P = focused.draws if diffuse is None else (focused.draws if focused is not None else 0 * diffuse.draws) + (
+            diffuse.draws if diffuse is not None else 0)
+    else:
+        P = next(vr.heat_power for vr in vents if vr.name == r.supplies)
+    opts = dict(r.options)
+    if opts.get("porosity", 0.05) > 0 and "temperature" in opts:
+        opts.setdefault("pressure", pressure)
+    if "temperature" not in opts:
+        opts.setdefault("porosity", 0.0)
+    heat = reservoir_heat(**opts)
+    life = reservoir_lifetime(P.to("W"), heat, size=r.size)
+    return {"name": r.name, "supplies": r.supplies, "heat": heat, "lifetime": life,
+            "mining": summarize(life.mining_time.to("year"), seed),
+            "decline": summarize(life.decline_time.to("year"), seed),
+            "conductive": float(np.atleast_1d(life.conductive_time.to("year").magnitude)[0]),
+            "controlling": _mode(life.controlling)}
+
+
+def _mode(labels):
+    vals, counts = np.unique(np.asarray(labels).ravel(), return_counts=True)
+    return str(vals[np.argmax(counts)])
