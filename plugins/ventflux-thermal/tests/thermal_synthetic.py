@@ -1,0 +1,90 @@
+"""Synthetic probe records from analytic solutions, independent of the code under test.
+
+The cylinder solution is evaluated by numerical Laplace inversion (Stehfest 1970) of its Laplace transform,
+Carslaw & Jaeger (1959) §13.7: for a perfectly conducting cylinder of heat capacity S per length, radius a,
+initial excess V0, in a medium of conductivity k and diffusivity κ, the transform in dimensionless time
+τ = κt/a² is  F̄(s) = K0(√s) / (s K0(√s) + α √s K1(√s)),  α = 2πa²ρc/S.
+The line source is Carslaw & Jaeger (1959) §10.3: ΔT(r, t) = Q/(4πkt) · exp(−r²/(4κt)).
+"""
+
+from math import factorial
+
+import numpy as np
+from scipy import special
+
+
+def _stehfest_weights(n=14):
+    # Stehfest, H. (1970). Algorithm 368: Numerical inversion of Laplace transforms. Commun. ACM 13, 47-49.
+    half = n // 2
+    v = []
+    for k in range(1, n + 1):
+        s = 0.0
+        for j in range((k + 1) // 2, min(k, half) + 1):
+            s += j**half * factorial(2 * j) / (factorial(half - j) * factorial(j) * factorial(j - 1)
+                                                * factorial(k - j) * factorial(2 * j - k))
+        v.append((-1) ** (k + half) * s)
+    return np.array(v)
+
+
+_V = _stehfest_weights()
+
+
+def cylinder_excess(alpha, tau):
+    """Normalised cylinder temperature F(α, τ) by Stehfest inversion; 1 for τ ≤ 0."""
+    tau = np.asarray(tau, float)
+    out = np.ones(tau.shape)
+    pos = tau > 0
+    k = np.arange(1, _V.size + 1)
+    s = np.multiply.outer(np.log(2) / tau[pos], k)
+    r = np.sqrt(s)
+    fbar = 1.0 / (s + alpha * r * special.k1e(r) / special.k0e(r))
+    out[pos] = np.log(2) / tau[pos] * (fbar * _V).sum(axis=-1)
+    return out
+
+
+def line_source_excess(strength, k, kappa, r, t):
+    t = np.asarray(t, float)
+    out = np.zeros(t.shape)
+    pos = t > 0
+    out[pos] = strength / (4 * np.pi * k * t[pos]) * np.exp(-(r**2) / (4 * kappa * t[pos]))
+    return out
+
+
+def make_record(path, model, *, k, depths, q=0.25, t0_c=2.0, t_pen=60.0, t_hp=600.0, t_end=1200.0,
+                energy=700.0, radius=0.004, rho_c=3.4e6, rho_c_probe=3.4e6, friction=None, noise=1e-3, seed=7,
+                tilt_deg=0.0, dt=1.0, header=True, r_offset=0.001):
+    """Write a probe record CSV and return the true equilibrium temperatures (degC).
+
+    Equilibrium temperatures follow T = T0 + q·R with R_i = Σ (z_j − z_{j−1})/k_j (z along the vertical).
+    """
+    rng = np.random.default_rng(seed)
+    k = np.asarray(k, float)
+    depths = np.asarray(depths, float)
+    z = depths * np.cos(np.deg2rad(tilt_deg))
+    R = np.cumsum(np.diff(np.concatenate([[0.0], z])) / k)
+    teq = t0_c + q * R
+    t = np.arange(0.0, t_end + dt / 2, dt)
+    alpha = 2 * rho_c / rho_c_probe
+    kappa = k / rho_c
+    friction = np.linspace(1.5, 3.0, k.size) if friction is None else np.asarray(friction)
+    rows = []
+    for i in range(k.size):
+        if model == "cylinder":
+            fr = friction[i] * cylinder_excess(alpha, kappa[i] * (t - t_pen) / radius**2)
+            v0 = energy / (np.pi * radius**2 * rho_c_probe)
+            hp = np.where(t > t_hp, v0 * cylinder_excess(alpha, kappa[i] * (t - t_hp) / radius**2), 0.0)
+        else:  # instantaneous line sources: frictional heat friction[i]*1000 J/m, pulse `energy` J/m
+            fr = line_source_excess(friction[i] * 1000.0, k[i], kappa[i], r_offset, t - t_pen)
+            hp = line_source_excess(energy, k[i], kappa[i], r_offset, t - t_hp)
+        temp = np.where(t >= t_pen, teq[i] + fr + hp, t0_c) + rng.normal(0, noise, t.size)
+        rows.append(temp)
+    lines = []
+    if header:
+        lines += [f"# penetration_time [s]: {t_pen}", f"# heat_pulse_time [s]: {t_hp}",
+                  f"# heat_pulse_energy [J/m]: {energy}", f"# tilt [deg]: {tilt_deg}",
+                  "# sensor_depths [m]: " + ", ".join(f"{d:g}" for d in depths)]
+    lines.append(",".join(["time [s]"] + [f"T{i + 1} [degC]" for i in range(k.size)]))
+    for j in range(t.size):
+        lines.append(",".join([f"{t[j]:.1f}"] + [f"{rows[i][j]:.5f}" for i in range(k.size)]))
+    path.write_text("\n".join(lines) + "\n")
+    return teq
