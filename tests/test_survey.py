@@ -1,0 +1,152 @@
+"""The field survey: validation of the whole file, correlated totals, atomic and provenance-carrying output."""
+
+import hashlib
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from ventflux.cli import main
+from ventflux.errors import InputError, InputErrors
+from ventflux.survey import report
+from ventflux.survey.run import run_survey
+from ventflux.survey.spec import load_survey
+
+SITE = """
+[site]
+name = "Test Site"
+depth = "2500 m"
+latitude = 10.0
+longitude = -100.0
+ambient_temperature = "2.0 degC"
+ambient_salinity = 34.6
+
+[run]
+draws = 4000
+seed = 5
+"""
+
+VENT = """
+[[vent]]
+name = "{name}"
+  [[vent.orifice]]
+  temperature = "350 degC"
+  velocity = "1.0 m/s"
+  diameter = "10 cm"
+  size_factor = "{factor}"
+"""
+
+
+def _write(tmp_path, text, name="survey.toml"):
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+def test_every_problem_is_reported_at_once(tmp_path):
+    text = SITE.replace('latitude = 10.0\n', '') + """
+[[vent]]
+name = "A"
+colour = "red"
+  [[vent.orifice]]
+  temperature = "350 degC"
+  velocity = "1.0 s"
+  diameter = "-3 cm"
+
+[diffuse]
+patches = "missing.csv"
+"""
+    with pytest.raises(InputErrors) as err:
+        load_survey(_write(tmp_path, text))
+    lines = err.value.lines()
+    joined = "\n".join(lines)
+    for needle in ("site.latitude", "vent[0].colour", "vent[0].orifice[0].velocity", "vent[0].orifice[0].diameter",
+                   "diffuse.patches"):
+        assert needle in joined, needle
+    assert all(str(tmp_path / "survey.toml") in line for line in lines)
+
+
+def test_cli_reports_all_problems_with_exit_2(tmp_path, capsys):
+    text = SITE + VENT.format(name="A", factor="1.0").replace('"1.0 m/s"', '"-1 m/s"').replace('"10 cm"', '"10 K"')
+    assert main(["survey", str(_write(tmp_path, text)), "--check"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 2 and "Traceback" not in "".join(err)
+
+
+def test_csv_problems_name_file_and_line(tmp_path):
+    (tmp_path / "p.csv").write_text("patch,class,area [m^2],active_fraction,temperature_anomaly [K],velocity [cm/s]\n"
+                                    "P1,mat,10,0.5,3,0.2\nP2,mat,ten,1.5,3,0.2\n", encoding="utf-8")
+    text = SITE + '\n[diffuse]\npatches = "p.csv"\n'
+    with pytest.raises((InputError, InputErrors)) as err:
+        load_survey(_write(tmp_path, text))
+    assert "p.csv:3" in str(err.value)
+
+
+def _run(tmp_path, text, out="out"):
+    spec = load_survey(_write(tmp_path, text))
+    result = run_survey(spec)
+    return result, report.write_results(result, tmp_path / out)
+
+
+def test_shared_scale_widens_total_as_computed_by_hand(tmp_path):
+    # Two identical vents whose only uncertainty is the orifice scale s (relative
+    # sd 3 %). Heat power goes as s^2 (area), so each vent's relative sd is about
+    # 6 %. Shared scale: sd(total) = 2 sd(one); independent scales: sqrt(2) sd(one).
+    # The ratio of the two is sqrt(2) (propagation of variance by hand).
+    shared = SITE + '[shared]\n"laser" = "1.00 ± 0.03"\n' + VENT.format(name="A", factor="@laser") + \
+        VENT.format(name="B", factor="@laser")
+    indep = SITE + VENT.format(name="A", factor="1.00 ± 0.03") + VENT.format(name="B", factor="1.00 ± 0.03")
+    r1, _ = _run(tmp_path, shared, "o1")
+    r2, _ = _run(tmp_path, indep, "o2")
+    ratio = r1.focused.summary.std.magnitude / r2.focused.summary.std.magnitude
+    assert ratio == pytest.approx(np.sqrt(2), rel=0.05)
+    one = r2.vents[0].heat_power.to("MW").magnitude
+    assert np.std(one) / np.mean(one) == pytest.approx(0.06, rel=0.05)
+
+
+def test_results_folder_is_complete_self_contained_and_inputs_untouched(tmp_path):
+    text = SITE + VENT.format(name="A", factor="1.0")
+    path = _write(tmp_path, text)
+    before = hashlib.sha256(path.read_bytes()).hexdigest()
+    _, html_path = _run(tmp_path, text)
+    out = html_path.parent
+    assert hashlib.sha256(path.read_bytes()).hexdigest() == before
+    summary = json.loads((out / "summary.json").read_text())
+    assert summary["complete"] is True
+    assert summary["provenance"]["inputs"][str(path)]["sha256"] == before
+    assert summary["provenance"]["seed"] == 5
+    assert "ventflux" in summary["provenance"]["versions"]
+    page = html_path.read_text()
+    assert "data:image/png;base64," in page and "http://" not in page and "https://" not in page
+    assert "operational safety" in page
+    assert (out / "tables" / "vents.csv").exists()
+    assert not [p for p in tmp_path.iterdir() if p.name.endswith(".part")]
+
+
+def test_failed_run_leaves_no_results_folder(tmp_path, monkeypatch):
+    text = SITE + VENT.format(name="A", factor="1.0")
+    spec = load_survey(_write(tmp_path, text))
+    result = run_survey(spec)
+
+    def boom(*a, **k):
+        raise RuntimeError("disk full")
+
+    monkeypatch.setattr(report, "_html", boom)
+    with pytest.raises(RuntimeError):
+        report.write_results(result, tmp_path / "out")
+    assert not (tmp_path / "out").exists()
+    assert not [p for p in tmp_path.iterdir() if ".part" in p.name]
+
+
+def test_output_folder_holding_inputs_is_refused(tmp_path, capsys):
+    path = _write(tmp_path, SITE + VENT.format(name="A", factor="1.0"))
+    assert main(["survey", str(path), "--out", str(tmp_path), "--quiet"]) == 2
+    assert "--out" in capsys.readouterr().err
+    assert path.exists()
+
+
+def test_demo_survey_validates():
+    demo = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge" / "survey.toml"
+    spec = load_survey(demo)
+    assert spec.vents and spec.sections
