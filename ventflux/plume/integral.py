@@ -197,8 +197,7 @@ class Sources:
 
 def pure_plume(column: Column, heat_power, alpha, z_start):
     """Point source of heat power H [W], started on the similarity solution [1]_ at ``z_start`` [m]."""
-    H, a, z = np.broadcast_arrays(np.asarray(heat_power, float), np.asarray(alpha, float),
-                                  np.asarray(z_start, float))
+    H, a, z = np.broadcast_arrays(*(np.atleast_1d(np.asarray(v, float)) for v in (heat_power, alpha, z_start)))
     F = column.heat_to_buoyancy() * H
     # Top-hat point-source similarity: Q = c_Q z^(5/3), M = c_M z^(4/3) (b = 6αz/5).
     cM = (0.9 * a * np.sqrt(np.pi) * F) ** (2.0 / 3.0)
@@ -209,8 +208,8 @@ def pure_plume(column: Column, heat_power, alpha, z_start):
 
 def forced_plume(column: Column, volume_flux, momentum_flux, heat_power, salt_flux=0.0):
     """Source with volume flux Q0 [m³/s], momentum flux M0 [m⁴/s²], heat power H [W], SA-anomaly flux."""
-    Q, M, H, S = np.broadcast_arrays(*(np.asarray(v, float) for v in (volume_flux, momentum_flux, heat_power,
-                                                                        salt_flux)))
+    Q, M, H, S = np.broadcast_arrays(*(np.atleast_1d(np.asarray(v, float)) for v in (volume_flux, momentum_flux,
+                                                                                       heat_power, salt_flux)))
     F = column.g * (column.alpha0 * H / (column.rho0 * CP0) - column.beta0 * S)
     s_ref = Q / np.sqrt(np.maximum(M, 1e-30))
     return Sources(Q=Q.copy(), M=M.copy(), T=H / (column.rho0 * CP0), S=S.copy(), z0=np.zeros_like(Q),
@@ -223,10 +222,11 @@ def forced_plume(column: Column, volume_flux, momentum_flux, heat_power, salt_fl
 class _Model:
     """Shared buoyancy: linear near the source, full TEOS-10 once the mixture is within validity."""
 
-    def __init__(self, column, alpha, scale):
+    def __init__(self, column, alpha, scale, linear=False):
         self.c = column
         self.alpha = alpha
         self.scale = scale
+        self.linear = linear  # True: the vent's linear equation of state everywhere (for checks)
 
     def _take(self, v, idx):
         return v if np.isscalar(v) or np.ndim(v) == 0 else v[idx]
@@ -239,7 +239,7 @@ class _Model:
         sap = c.SA0 + S / Qs
         lin = c.g * (c.alpha0 * (ctp - ct) - c.beta0 * (sap - sa))
         teos = c.g * (gsw.rho(sa, ct, p) - gsw.rho(sap, ctp, p)) / c.rho0
-        hot = np.abs(ctp - ct) > START_ANOMALY
+        hot = (np.abs(ctp - ct) > START_ANOMALY) | self.linear
         return np.where(hot, lin, teos), sa, ct
 
 
@@ -279,8 +279,8 @@ class CrossflowModel(_Model):
     stop = 2  # Q w
     n_state = 7
 
-    def __init__(self, column, alpha, scale, current, current_shape=None, beta=CROSSFLOW_ENTRAINMENT):
-        super().__init__(column, alpha, scale)
+    def __init__(self, column, alpha, scale, current, current_shape=None, beta=CROSSFLOW_ENTRAINMENT, linear=False):
+        super().__init__(column, alpha, scale, linear)
         self.current = current
         self.shape = current_shape  # (heights, factors) or None
         self.beta = beta
