@@ -27,8 +27,8 @@ def test_half_space_temperature_uses_erf_table_values():
 
 
 def test_half_space_heat_flow_against_turcotte_schubert():
-    # Turcotte & Schubert (2002), Geodynamics 2nd ed., section 4.16: q = k (T1 − T0) / √(π κ t).
-    # Stated parameters k = 3.3 W/(m K), T1 − T0 = 1300 K, κ = 1e-6 m²/s. By hand at t = 1 Myr:
+    # Turcotte & Schubert (2002), Geodynamics 2nd ed., ch. 4 (half-space cooling): q = k (T1 − T0) / √(π κ t).
+    # Stated parameters (the book's, from memory) k = 3.3 W/(m K), T1 − T0 = 1300 K, κ = 1e-6 m²/s. At 1 Myr:
     # 3.3 × 1300 / √(π × 1e-6 × 3.15576e13) = 4290 / 9956.9 = 0.43085 W/m².
     q = rf.half_space_heat_flow(Q_([1.0, 4.0, 100.0], "Myr"))
     assert q.to("W/m^2").magnitude == pytest.approx([0.43085, 0.43085 / 2, 0.043085], rel=1e-4)
@@ -36,7 +36,7 @@ def test_half_space_heat_flow_against_turcotte_schubert():
 
 def test_half_space_heat_flow_equals_gradient_of_erf_profile():
     # Independent path: Fourier's law k ∂T/∂y at y = 0 by a finite difference of the erf
-    # profile computed with math.erf (Turcotte & Schubert section 4.15), not the code's formula.
+    # profile computed with math.erf (Turcotte & Schubert ch. 4), not the code's formula.
     k, dT, kappa, t = 3.3, 1300.0, 1e-6, 7.0 * MYR
     h = 1.0
     grad = dT * (math.erf(h / (2 * math.sqrt(kappa * t))) - math.erf(-h / (2 * math.sqrt(kappa * t)))) / (2 * h)
@@ -45,7 +45,7 @@ def test_half_space_heat_flow_equals_gradient_of_erf_profile():
 
 
 def test_half_space_depth_against_turcotte_schubert_and_isostasy_integral():
-    # Turcotte & Schubert (2002) section 4.23, w = 2 ρm αv (T1 − T0)/(ρm − ρw) √(κ t / π), with
+    # Turcotte & Schubert (2002) ch. 4 (ocean-floor subsidence), w = 2 ρm αv (T1 − T0)/(ρm − ρw) √(κ t / π), with
     # ρm = 3300, ρw = 1000 kg/m³, αv = 3e-5 1/K, T1 − T0 = 1300 K, κ = 1e-6 m²/s. By hand: coefficient
     # 2·3300·3e-5·1300/2300 · √(1e-6/π) · √(3.15576e13 s/Myr) = 354.7 m per √Myr.
     w = rf.half_space_depth(Q_([0.0, 1.0, 64.0], "Myr"), ridge_depth=Q_(0.0, "m")).magnitude

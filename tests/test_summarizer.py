@@ -148,3 +148,15 @@ def test_cli_bad_input_is_one_line_and_exit_2(capsys, argv, field):
     rc, out, err = _run(capsys, *argv)
     assert rc == 2
     assert len(err.strip().splitlines()) == 1 and field in err and "Traceback" not in err
+
+
+def test_reservoir_answer_takes_a_field_totals_draws():
+    # Field-total draws from the aggregation carried straight in: E/P is monotone in P, so the median
+    # mining time is E / median(P) (odd number of draws); by hand E = 2900·1000·800·1e7 J.
+    power = Q_(np.linspace(50.0, 150.0, 1001), "MW")
+    ans = sm.reservoir_answer(power, Q_(800.0, "K"), volume=Q_(0.01, "km^3"), porosity=0.0)
+    assert ans.draws == 1001 and ans.samples["heat_mining_time"].shape == (1001,)
+    assert ans.value("heat_mining_time").to("s").magnitude == pytest.approx(2.32e16 / 1e8, rel=1e-9)
+    assert ans.inputs["power"] == "1001 given draws"
+    with pytest.raises(InputError, match="draws"):
+        sm.reservoir_answer(power, Q_(np.full(10, 800.0), "K"), volume=Q_(0.01, "km^3"), porosity=0.0)

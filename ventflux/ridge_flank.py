@@ -31,7 +31,7 @@ Parameter defaults follow [1] (from memory): k = 3.3 W/(m K), κ = 1e-6 m²/s,
 References
 ----------
 .. [1] Turcotte, D. L. and Schubert, G. (2002). Geodynamics, 2nd ed.,
-   Cambridge University Press, sections 4.15–4.17 and 4.23 (half-space
+   Cambridge University Press, chapter 4 (half-space
    cooling of the oceanic lithosphere and ocean-floor subsidence).
 .. [2] Stein, C. A. and Stein, S. (1992). A model for the global variation in
    oceanic depth and heat flow with lithospheric age. Nature 359, 123–129.
@@ -80,6 +80,13 @@ def _positive(q, unit, dimension, field):
     return v
 
 
+def _half_space(conductivity=CONDUCTIVITY, diffusivity=DIFFUSIVITY, temperature_difference=TEMPERATURE_DIFFERENCE):
+    """Half-space parameters in SI (W/(m K), m²/s, K), each checked > 0."""
+    return (_positive(conductivity, "W/(m*K)", "thermal conductivity", "thermal conductivity"),
+            _positive(diffusivity, "m^2/s", "diffusivity", "thermal diffusivity"),
+            _positive(temperature_difference, "K", "temperature", "temperature difference"))
+
+
 def half_space_temperature(depth, age, temperature_difference=TEMPERATURE_DIFFERENCE,
                            surface_temperature=SURFACE_TEMPERATURE, diffusivity=DIFFUSIVITY):
     """Temperature in a cooling half-space, ``T₀ + ΔT erf(y / 2√(κt))`` [1].
@@ -102,12 +109,11 @@ def half_space_temperature(depth, age, temperature_difference=TEMPERATURE_DIFFER
 
     References
     ----------
-    .. [1] Turcotte & Schubert (2002), Geodynamics, 2nd ed., section 4.15.
+    .. [1] Turcotte & Schubert (2002), Geodynamics, 2nd ed., ch. 4 (half-space cooling).
     """
     y = _si(depth, "m", "length", "depth", minimum=0.0)
     t = _positive(age, "s", "time", "age")
-    kappa = _positive(diffusivity, "m^2/s", "diffusivity", "thermal diffusivity")
-    dT = _positive(temperature_difference, "K", "temperature", "temperature difference")
+    _, kappa, dT = _half_space(diffusivity=diffusivity, temperature_difference=temperature_difference)
     T0 = _si(surface_temperature, "K", "temperature", "surface temperature")
     return Q_(T0 + dT * erf(y / (2.0 * np.sqrt(kappa * t))), "K")
 
@@ -131,12 +137,10 @@ def half_space_heat_flow(age, conductivity=CONDUCTIVITY, temperature_difference=
 
     References
     ----------
-    .. [1] Turcotte & Schubert (2002), Geodynamics, 2nd ed., section 4.16.
+    .. [1] Turcotte & Schubert (2002), Geodynamics, 2nd ed., ch. 4 (half-space cooling).
     """
     t = _positive(age, "s", "time", "age")
-    k = _positive(conductivity, "W/(m*K)", "thermal conductivity", "thermal conductivity")
-    kappa = _positive(diffusivity, "m^2/s", "diffusivity", "thermal diffusivity")
-    dT = _positive(temperature_difference, "K", "temperature", "temperature difference")
+    k, kappa, dT = _half_space(conductivity, diffusivity, temperature_difference)
     return Q_(k * dT / np.sqrt(np.pi * kappa * t), "W/m^2").to("mW/m^2")
 
 
@@ -153,7 +157,7 @@ def half_space_depth(age, ridge_depth=RIDGE_DEPTH, mantle_density=MANTLE_DENSITY
 
     References
     ----------
-    .. [1] Turcotte & Schubert (2002), Geodynamics, 2nd ed., section 4.23.
+    .. [1] Turcotte & Schubert (2002), Geodynamics, 2nd ed., ch. 4 (ocean-floor subsidence).
     """
     t = _si(age, "s", "time", "age", minimum=0.0)
     rho_m = _positive(mantle_density, "kg/m^3", "density", "mantle density")
@@ -163,8 +167,7 @@ def half_space_depth(age, ridge_depth=RIDGE_DEPTH, mantle_density=MANTLE_DENSITY
     a = np.asarray(magnitude(expansivity, "1/K", field="thermal expansivity"), float)
     if np.any(a <= 0):
         raise InputError("thermal expansivity", f"{np.min(a):g} 1/K", "an expansivity > 0")
-    kappa = _positive(diffusivity, "m^2/s", "diffusivity", "thermal diffusivity")
-    dT = _positive(temperature_difference, "K", "temperature", "temperature difference")
+    _, kappa, dT = _half_space(diffusivity=diffusivity, temperature_difference=temperature_difference)
     d0 = _si(ridge_depth, "m", "length", "ridge depth", minimum=0.0)
     return Q_(d0 + 2 * rho_m * a * dT / (rho_m - rho_w) * np.sqrt(kappa * t / np.pi), "m")
 
@@ -222,11 +225,7 @@ def cumulative_reference_heat(age_from, age_to, reference="gdh1", **half_space):
     if reference == "gdh1":
         e = Q_(_gdh1_cumulative(t1) - _gdh1_cumulative(t0), "mW/m^2 * Myr")
     else:
-        k = _positive(half_space.get("conductivity", CONDUCTIVITY), "W/(m*K)", "thermal conductivity",
-                      "thermal conductivity")
-        kappa = _positive(half_space.get("diffusivity", DIFFUSIVITY), "m^2/s", "diffusivity", "thermal diffusivity")
-        dT = _positive(half_space.get("temperature_difference", TEMPERATURE_DIFFERENCE), "K", "temperature",
-                       "temperature difference")
+        k, kappa, dT = _half_space(**half_space)
         s = Q_(1.0, "Myr").to("s").magnitude
         e = Q_(2 * k * dT / np.sqrt(np.pi * kappa) * (np.sqrt(t1 * s) - np.sqrt(t0 * s)), "J/m^2")
     return e.to("J/m^2")

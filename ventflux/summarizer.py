@@ -16,7 +16,10 @@ Monte Carlo follows the package's rule: every uncertain input is drawn once
 as an array, the domain function runs once on the arrays, and the outputs are
 summarized. Inputs that must be positive (a power, a volume) drop the draws
 that are not, and refuse the distribution if more than 5 % are dropped.
-Without an uncertain input the answer is exact (one evaluation).
+Without an uncertain input the answer is exact (one evaluation). An input
+may also be given as an array of draws made elsewhere (a field total's
+draws from ``ventflux.aggregate.field_total``), so the survey run can carry
+its correlated draws straight into the reservoir question.
 """
 
 from __future__ import annotations
@@ -24,6 +27,7 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+import pint
 
 from . import reservoir as rv
 from . import ridge_flank as rf
@@ -48,6 +52,7 @@ class Answer:
     draws: int = 1
     dropped: int = 0
     seed: int | None = None
+    samples: dict = field(default_factory=dict, repr=False)  # name → quantity array of the draws
 
     def value(self, name):
         """Median of an output as a quantity in its reporting unit."""
@@ -80,47 +85,63 @@ class Answer:
         return rows
 
 
-def _run(question, fn, inputs, outputs, positive=(), draws=DEFAULT_DRAWS, seed=DEFAULT_SEED):
-    """Draw the uncertain inputs once, call ``fn`` once, summarize ``outputs`` (name → (attr path, unit))."""
+def _given_draws(inputs, observations):
+    """Inputs passed as draw arrays already (1-D quantities with more than one value)."""
+    return {k: v for k, v in inputs.items() if k not in observations and isinstance(v, pint.Quantity)
+            and np.ndim(v.magnitude) == 1 and np.size(v.magnitude) > 1}
+
+
+def _run(question, fn, inputs, outputs, positive=(), draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, observations=()):
+    """Draw the uncertain inputs once, call ``fn`` once, summarize ``outputs`` (name → (getter, unit)).
+
+    An input given as a 1-D quantity array is taken as draws made elsewhere
+    (e.g. a field total's draws from ``ventflux.aggregate``); the uncertain
+    inputs are then drawn as many times. ``observations`` names inputs that
+    are arrays along something else (ages of heat-flow observations).
+    """
     uncertain = {k: v for k, v in inputs.items() if isinstance(v, Uncertain)}
-    n = int(draws) if uncertain else 1
+    given = _given_draws(inputs, observations)
+    sizes = {np.size(v.magnitude) for v in given.values()}
+    if len(sizes) > 1:
+        raise InputError("draws", ", ".join(f"{k}: {np.size(v.magnitude)}" for k, v in given.items()),
+                         "the same number of draws in every input given as draws")
+    n = sizes.pop() if sizes else (int(draws) if uncertain else 1)
     if uncertain and n < 2:
         raise InputError("draws", draws, "an integer ≥ 2")
-    args = dict(inputs)
-    dropped = 0
-    if uncertain:
-        sampled = draw_inputs(uncertain, n, seed)
-        keep = np.ones(n, bool)
-        for k in positive:
-            if k in sampled:
-                keep &= np.asarray(sampled[k].magnitude) > 0
-        dropped = int(n - keep.sum())
-        if dropped > MAX_DROPPED_SHARE * n:
-            worst = max((k for k in positive if k in sampled),
-                        key=lambda k: np.count_nonzero(np.asarray(sampled[k].magnitude) <= 0))
-            raise InputError(worst, str(uncertain[worst]),
-                             f"a distribution whose draws are positive; {dropped} of {n} were not "
-                             "(use a smaller spread or a lognormal)")
-        args.update({k: v[keep] for k, v in sampled.items()})
+    sampled = {**given, **(draw_inputs(uncertain, n, seed) if uncertain else {})}
+    keep = np.ones(n, bool)
+    for k in positive:
+        if k in sampled:
+            keep &= np.asarray(sampled[k].magnitude) > 0
+    dropped = int(n - keep.sum())
+    if dropped > MAX_DROPPED_SHARE * n:
+        worst = max((k for k in positive if k in sampled),
+                    key=lambda k: np.count_nonzero(np.asarray(sampled[k].magnitude) <= 0))
+        raise InputError(worst, str(inputs[worst]) if worst in uncertain else f"{n} draws",
+                         f"draws that are positive; {dropped} of {n} were not "
+                         "(use a smaller spread or a lognormal)")
+    args = {**inputs, **{k: v[keep] for k, v in sampled.items()}}
     result = fn(**args)
-    summaries = {}
+    m = n - dropped
+    summaries, samples = {}, {}
     for name, (get, unit) in outputs.items():
         q = get(result)
         if q is None:
             continue
-        q = q.to(unit)
-        mag = np.atleast_1d(np.asarray(q.magnitude, float))
-        if uncertain:
-            # an output that no uncertain input reaches is one value: repeat it over the draws
-            mag = mag if mag.size > 1 else np.full(n - dropped, mag[0])
-            summaries[name] = (summarize(Q_(mag, unit), seed), unit)
-        elif mag.size == 1:
-            summaries[name] = (_exact(Q_(float(mag[0]), unit)), unit)
-        else:
+        mag = np.atleast_1d(np.asarray(q.to(unit).magnitude, float))
+        if mag.size not in (1, m):
             raise InputError("inputs", f"arrays of {mag.size} values",
                              "single values or distributions (for arrays call the domain functions directly)")
-    shown = {k: (str(v) if v is not None else None) for k, v in inputs.items()}
-    return result, Answer(question, summaries, {}, shown, n - dropped, dropped, seed if uncertain else None)
+        if m > 1:
+            # an output that no uncertain input reaches is one value: repeat it over the draws
+            samples[name] = Q_(np.broadcast_to(mag, (m,)).copy(), unit)
+            summaries[name] = (summarize(samples[name], seed), unit)
+        else:
+            samples[name] = Q_(mag, unit)
+            summaries[name] = (_exact(Q_(float(mag[0]), unit)), unit)
+    shown = {k: (f"{np.size(v.magnitude)} given draws" if k in given else str(v) if v is not None else None)
+             for k, v in inputs.items()}
+    return result, Answer(question, summaries, {}, shown, m, dropped, seed if uncertain else None, samples)
 
 
 def _exact(q) -> Summary:
@@ -293,7 +314,8 @@ def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, tem
                   salinity=salinity, **half_space)
     out, ans = _run("ridge flank", _flank, inputs, FLANK_OUTPUTS,
                     positive=("half_spreading_rate", "temperature_rise", "conductivity", "diffusivity",
-                              "temperature_difference"), draws=draws, seed=seed)
+                              "temperature_difference"), draws=draws, seed=seed,
+                    observations=("age", "heat_flow"))
     ans.labels["reference"] = reference
     ans.labels["age_range_Myr"] = f"{out['deficit'].age_from.magnitude:g}-{out['deficit'].age_to.magnitude:g}"
     ans.inputs["age"] = f"{np.asarray(age.to('Myr').magnitude).tolist()} Myr"
