@@ -128,3 +128,9 @@ def test_lifetime_does_not_depend_on_units(power_mw, volume_km3):
                                                                         volume=Q_(volume_km3 * 1e9, "m^3"),
                                                                         porosity=0.0))
     assert a.to("s").magnitude == pytest.approx(b.to("s").magnitude, rel=1e-12)
+
+
+def test_temperature_drop_in_degc_is_a_difference():
+    # "300 degC" given as a drop means 300 K of cooling, not 573.15 K.
+    a = rv.reservoir_heat(Q_(300.0, "degC"), volume=Q_(1.0, "m^3"), porosity=0.0)
+    assert a.total.magnitude == pytest.approx(2900 * 1000 * 300.0)

@@ -45,8 +45,8 @@ def test_half_space_heat_flow_equals_gradient_of_erf_profile():
 
 
 def test_half_space_depth_against_turcotte_schubert_and_isostasy_integral():
-    # Turcotte & Schubert (2002) ch. 4 (ocean-floor subsidence), w = 2 ρm αv (T1 − T0)/(ρm − ρw) √(κ t / π), with
-    # ρm = 3300, ρw = 1000 kg/m³, αv = 3e-5 1/K, T1 − T0 = 1300 K, κ = 1e-6 m²/s. By hand: coefficient
+    # Turcotte & Schubert (2002) ch. 4 (ocean-floor subsidence): w = 2 ρm αv (T1 − T0)/(ρm − ρw) √(κ t / π),
+    # with ρm = 3300, ρw = 1000 kg/m³, αv = 3e-5 1/K, T1 − T0 = 1300 K, κ = 1e-6 m²/s. By hand: coefficient
     # 2·3300·3e-5·1300/2300 · √(1e-6/π) · √(3.15576e13 s/Myr) = 354.7 m per √Myr.
     w = rf.half_space_depth(Q_([0.0, 1.0, 64.0], "Myr"), ridge_depth=Q_(0.0, "m")).magnitude
     assert w == pytest.approx([0.0, 354.7, 8 * 354.7], rel=2e-4)

@@ -51,6 +51,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .diffuse import temperature_difference
 from .errors import InputError
 from .properties import specific_heat_content, vent_fluid_state
 from .units import Q_, magnitude
@@ -99,6 +100,12 @@ def _positive(q, unit, dimension, field, allow_zero=False):
     return v
 
 
+def _drop(temperature_drop):
+    """A temperature drop in K (> 0), ``degC`` read as a difference."""
+    return _positive(temperature_difference(temperature_drop, "temperature drop"), "K", "temperature",
+                     "temperature drop")
+
+
 def reservoir_volume(volume=None, area=None, thickness=None):
     """Volume of the hot rock: ``volume`` itself, or ``area × thickness`` (exactly one way)."""
     if volume is not None and (area is not None or thickness is not None):
@@ -111,9 +118,9 @@ def reservoir_volume(volume=None, area=None, thickness=None):
 
 
 def pore_fluid_heat_density(temperature, temperature_drop, pressure, model=None):
-    """Heat released per unit pore volume [J/m³]: ρ_f(T₀, p) · [h(T₀, p) − h(T₀ − ΔT, p)] (IAPWS-95 [2])."""
+    """Heat released per unit pore volume [J/m³]: ρ_f(T₀, p) [h(T₀, p) − h(T₀ − ΔT, p)], IAPWS-95 [2]."""
     T0 = magnitude(temperature, "K", "temperature", "reservoir temperature")
-    dT = _positive(temperature_drop, "K", "temperature", "temperature drop")
+    dT = _drop(temperature_drop)
     low = np.asarray(T0 - dT)
     if np.any(low < _FLUID_T_MIN):
         raise InputError("temperature drop", f"{np.max(dT):g} K",
@@ -133,7 +140,8 @@ def reservoir_heat(temperature_drop, volume=None, area=None, thickness=None, roc
     Parameters
     ----------
     temperature_drop : pint.Quantity
-        Cooling of the hot rock (a temperature difference, > 0).
+        Cooling of the hot rock, a temperature difference > 0 (``degC`` is
+        read as a difference: ``"300 degC"`` is 300 K).
     volume : pint.Quantity, optional
         Hot-rock volume; or give ``area`` and ``thickness``.
     rock_density, rock_heat_capacity : pint.Quantity
@@ -163,7 +171,7 @@ def reservoir_heat(temperature_drop, volume=None, area=None, thickness=None, roc
         raise InputError("porosity", f"{np.min(phi):g}", "a porosity from 0 to below 1")
     rho = _positive(rock_density, "kg/m^3", "density", "rock density")
     c = _positive(rock_heat_capacity, "J/(kg*K)", "specific heat capacity", "rock heat capacity")
-    dT = _positive(temperature_drop, "K", "temperature", "temperature drop")
+    dT = _drop(temperature_drop)
     rock = Q_((1 - phi) * rho * c * dT * V.magnitude, "J")
     if np.any(phi > 0):
         if temperature is None or pressure is None:

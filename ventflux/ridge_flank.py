@@ -46,8 +46,11 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import erf
 
+from .diffuse import temperature_difference as _difference
 from .errors import InputError
+from .orifice import DEFAULT_AMBIENT_SALINITY
 from .properties import seawater_state
+from .properties.seawater import check_funnel
 from .units import Q_, magnitude
 
 CONDUCTIVITY = Q_(3.3, "W/(m*K)")
@@ -84,7 +87,8 @@ def _half_space(conductivity=CONDUCTIVITY, diffusivity=DIFFUSIVITY, temperature_
     """Half-space parameters in SI (W/(m K), m²/s, K), each checked > 0."""
     return (_positive(conductivity, "W/(m*K)", "thermal conductivity", "thermal conductivity"),
             _positive(diffusivity, "m^2/s", "diffusivity", "thermal diffusivity"),
-            _positive(temperature_difference, "K", "temperature", "temperature difference"))
+            _positive(_difference(temperature_difference, "temperature difference"), "K", "temperature",
+                      "temperature difference"))
 
 
 def half_space_temperature(depth, age, temperature_difference=TEMPERATURE_DIFFERENCE,
@@ -309,24 +313,24 @@ def heat_deficit(age, heat_flow, reference="gdh1", half_spreading_rate=None, fla
                        fraction=(deficit / ref).to("dimensionless"), per_length=per_length)
 
 
-def seawater_heat_uptake(temperature_rise, ambient_temperature, pressure, salinity=34.6):
+def seawater_heat_uptake(temperature_rise, ambient_temperature, pressure, salinity=DEFAULT_AMBIENT_SALINITY):
     """Heat taken up per unit volume of seawater warmed by ``temperature_rise`` [J/m³].
 
     ``ρ(T_a) [h(T_a + ΔT) − h(T_a)]`` at in-situ pressure, TEOS-10 at both ends [3].
     """
-    rise = _positive(temperature_rise, "K", "temperature", "fluid temperature rise")
+    rise = _positive(_difference(temperature_rise, "fluid temperature rise"), "K", "temperature",
+                     "fluid temperature rise")
     Ta = _si(ambient_temperature, "K", "temperature", "ambient temperature")
     cold = seawater_state(Q_(Ta, "K"), salinity, pressure)
     warm = seawater_state(Q_(Ta + rise, "K"), salinity, pressure, check=False)
-    from .properties.seawater import check_funnel
-
     check_funnel(warm.absolute_salinity.magnitude, warm.conservative_temperature.magnitude,
                  warm.sea_pressure.magnitude, Q_(Ta + rise, "K").to("degC").magnitude,
                  field="fluid temperature (ambient + rise)")
     return (cold.density * (warm.enthalpy - cold.enthalpy)).to("J/m^3")
 
 
-def equivalent_water_column(energy_per_area, temperature_rise, ambient_temperature, pressure, salinity=34.6):
+def equivalent_water_column(energy_per_area, temperature_rise, ambient_temperature, pressure,
+                            salinity=DEFAULT_AMBIENT_SALINITY):
     """Height of the seawater column that carries ``energy_per_area`` when warmed by ``temperature_rise`` [m]."""
     E = _si(energy_per_area, "J/m^2", "energy per area", "heat deficit")
     return Q_(E / seawater_heat_uptake(temperature_rise, ambient_temperature, pressure, salinity).magnitude,

@@ -29,12 +29,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import InputError
+from .orifice import DEFAULT_AMBIENT_SALINITY
 from .properties import seawater_state, specific_heat_content, vent_fluid_state
 from .units import Q_, magnitude
-
-#: Practical salinity of ambient deep seawater used when none is given
-#: (from memory: deep ocean water is 34.6–34.9 on PSS-78).
-DEFAULT_SALINITY = 34.6
 
 
 @dataclass(frozen=True)
@@ -53,7 +50,7 @@ class WaterThroughput:
     shortcut_mass_flux: object  # P / (c_p ΔT), kg/s, for comparison only
 
 
-def water_throughput(power, temperature, pressure, ambient_temperature, salinity=DEFAULT_SALINITY, model=None):
+def water_throughput(power, temperature, pressure, ambient_temperature, salinity=DEFAULT_AMBIENT_SALINITY, model=None):
     """Mass and volume flux and annual throughput of fluid carrying ``power``.
 
     Parameters
@@ -66,9 +63,10 @@ def water_throughput(power, temperature, pressure, ambient_temperature, salinity
         Absolute in-situ pressure.
     ambient_temperature : pint.Quantity
         In-situ temperature of the ambient seawater.
-    salinity : float or pint.Quantity, default 34.6
+    salinity : float or pint.Quantity, default 35
         Practical salinity of the ambient seawater (for its TEOS-10 density
-        and heat capacity).
+        and heat capacity); the default is TEOS-10's Reference-Composition
+        salinity, as for the orifice estimate.
     model : str or FluidModel, optional
         Vent-fluid equation of state; default IAPWS-95 pure water [1].
 

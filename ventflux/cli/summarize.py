@@ -115,7 +115,8 @@ def configure(p):
             q.add_argument(option, dest=_dest(option), required=required, default=default, help=help_ + shown)
         if name == "reservoir":
             q.add_argument("--spent-fraction", type=float, default=rv.SPENT_FRACTION,
-                           help=f"output fraction at which a declining reservoir is spent (default {rv.SPENT_FRACTION})")
+                           help="output fraction at which a declining reservoir is spent "
+                                f"(default {rv.SPENT_FRACTION})")
         if name == "flank":
             q.add_argument("--observed", action="append", default=[], metavar="AGE=HEAT_FLOW",
                            help="one observation, e.g. '5 Myr=110 mW/m^2' (repeatable)")
