@@ -142,6 +142,8 @@ def test_methods_with_different_draw_counts_are_refused():
         compare_methods({"a": Q_(np.ones(10), "MW"), "b": Q_(np.ones(11), "MW")})
     with pytest.raises(InputError, match="positive"):
         compare_methods({"a": Q_(-np.ones(10), "MW")})
+    with pytest.raises(InputError, match="without spread"):
+        compare_methods({"a": Q_(np.ones(10), "MW"), "b": Q_(np.linspace(1, 2, 10), "MW")})
 
 
 @settings(max_examples=30, deadline=None)

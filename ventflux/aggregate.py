@@ -417,11 +417,15 @@ def compare_methods(estimates: dict, unit: str = "MW", limit: float = CONSISTENC
         chi2, scale = 0.0, 1.0
     else:
         C = np.atleast_2d(np.cov(L))
+        flat = [k for i, k in enumerate(names) if not C[i, i] > 0]
+        if flat:
+            raise InputError(f"{flat[0]} estimate", "draws without spread",
+                             "draws with an uncertainty (an exact estimate cannot be weighed against others)")
         try:
             Ci = np.linalg.inv(C)
         except np.linalg.LinAlgError:
             raise InputError("methods", ", ".join(names),
-                             "methods whose estimates are not exact copies of each other (covariance is singular)") \
+                             "estimates that are not exact copies of each other (their covariance is singular)") \
                 from None
         one = np.ones(n)
         w = Ci @ one / (one @ Ci @ one)
