@@ -171,9 +171,17 @@ def correlation_peaks(corr):
     return (py + h // 2) % h - h // 2 + oy, (px + w // 2) % w - w // 2 + ox, snr
 
 
-def _neighbours(field):
-    """The 8 neighbours of every grid point, ``(8, ny, nx)``, NaN beyond the edge."""
-    p = np.pad(field, 1, constant_values=np.nan)
+def _neighbours(field, edge="extrapolate"):
+    """The 8 neighbours of every grid point, ``(8, ny, nx)``.
+
+    Beyond the edge the field is continued linearly (odd reflection), so an
+    edge vector of a smooth gradient is judged like an interior one; with
+    ``edge="none"`` the missing neighbours are NaN.
+    """
+    if edge == "extrapolate" and min(field.shape) >= 2:
+        p = np.pad(field, 1, mode="reflect", reflect_type="odd")
+    else:
+        p = np.pad(field, 1, constant_values=np.nan)
     ny, nx = field.shape
     return np.stack([p[1 + i:1 + i + ny, 1 + j:1 + j + nx]
                      for i in (-1, 0, 1) for j in (-1, 0, 1) if (i, j) != (0, 0)])
@@ -216,7 +224,7 @@ def replace_outliers(dx, dy, bad, iterations=5):
             holes = np.isnan(dx)
             if not holes.any():
                 break
-            mx, my = np.nanmedian(_neighbours(dx), axis=0), np.nanmedian(_neighbours(dy), axis=0)
+            mx, my = np.nanmedian(_neighbours(dx, "none"), axis=0), np.nanmedian(_neighbours(dy, "none"), axis=0)
             dx = np.where(holes, mx, dx)
             dy = np.where(holes, my, dy)
         fill_x = np.nanmedian(dx) if np.isfinite(dx).any() else 0.0
