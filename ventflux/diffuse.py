@@ -33,14 +33,14 @@ References
    of seawater – 2010. IOC Manuals and Guides No. 56 (specific enthalpy,
    ``gsw.enthalpy_t_exact``; isobaric heat capacity, ``gsw.cp_t_exact``).
 .. [2] Efron, B. and Tibshirani, R. J. (1993). An Introduction to the
-   Bootstrap. Chapman & Hall, ch. 6 (bootstrap standard errors) and ch. 10
+   Bootstrap. Monographs on Statistics and Applied Probability 57, ch. 6 (bootstrap standard errors) and ch. 10
    (ratio estimators).
 """
 
 from __future__ import annotations
 
 import csv
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 
 import gsw
 import numpy as np
@@ -135,8 +135,20 @@ def _delta_uncertain(u: Uncertain) -> Uncertain:
 
 
 # --------------------------------------------------------------------------- estimator
+class _Totals:
+    """Sums over patches or classes (axis 0), keeping any draw axis."""
+
+    @property
+    def total_heat_power(self):
+        return self.heat_power.sum(axis=0)
+
+    @property
+    def total_volume_flux(self):
+        return self.volume_flux.sum(axis=0)
+
+
 @dataclass(frozen=True)
-class DiffuseDischarge:
+class DiffuseDischarge(_Totals):
     """Heat and water discharge of each patch (arrays, patches along axis 0)."""
 
     heat_power: pint.Quantity
@@ -147,14 +159,6 @@ class DiffuseDischarge:
     specific_heat_content: pint.Quantity
     density: pint.Quantity
     beyond_teos10: np.ndarray  # True where the warm fluid is outside TEOS-10's funnel: IAPWS-95 water used
-
-    @property
-    def total_heat_power(self):
-        return self.heat_power.sum(axis=0)
-
-    @property
-    def total_volume_flux(self):
-        return self.volume_flux.sum(axis=0)
 
     @property
     def total_heat_power_cp_shortcut(self):
@@ -424,12 +428,21 @@ def diffuse_discharge_uncertain(area, active_fraction, temperature_anomaly, velo
     d["active_fraction"] = d["active_fraction"].to("dimensionless").magnitude
     d = _clip_draws(d)
     drawn = diffuse_discharge(**d, check=False, names=names)
-    return nominal, drawn
+    # every output gets the full (n_patches, draws) shape, even one no uncertain input reached
+    shape = (max(n_patches, 1), draws)
+    full = {f.name: _broadcast(getattr(drawn, f.name), shape) for f in fields(drawn)}
+    return nominal, DiffuseDischarge(**full)
+
+
+def _broadcast(x, shape):
+    if isinstance(x, pint.Quantity):
+        return Q_(np.broadcast_to(x.magnitude, shape).copy(), x.units)
+    return np.broadcast_to(x, shape).copy()
 
 
 # --------------------------------------------------------------------------- scale-up
 @dataclass(frozen=True)
-class ScaleUp:
+class ScaleUp(_Totals):
     """Scaled-up discharge by mapped area class (classes along axis 0; draws along axis 1)."""
 
     classes: tuple
@@ -438,14 +451,6 @@ class ScaleUp:
     volume_flux_density: pint.Quantity  # m/s (m³/s per m²)
     heat_power: pint.Quantity
     volume_flux: pint.Quantity
-
-    @property
-    def total_heat_power(self):
-        return self.heat_power.sum(axis=0)
-
-    @property
-    def total_volume_flux(self):
-        return self.volume_flux.sum(axis=0)
 
 
 def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volume_flux, class_names,
@@ -485,7 +490,7 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
     References
     ----------
     .. [2] Efron, B. and Tibshirani, R. J. (1993). An Introduction to the
-       Bootstrap. Chapman & Hall.
+       Bootstrap. Monographs on Statistics and Applied Probability 57.
     """
     patch_class = [str(c) for c in patch_class]
     class_names = [str(c) for c in class_names]

@@ -23,7 +23,7 @@ def test_cylinder_function_matches_laplace_inversion(alpha):
 
 def test_cylinder_function_limits():
     # F(α, 0) = 1 (the initial excess) and F → 1/(2ατ) at late times: the line source of strength S·V0
-    # (Carslaw & Jaeger 1959, §10.3 and §13.7; Bullard 1954, eq. 9).
+    # (Carslaw & Jaeger 1959, §10.3 and §13.7).
     assert cylinder_decay(2.0, np.array([0.0]))[0] == 1.0
     # early times: the surface cools into a half-space (Carslaw & Jaeger 1959, §2.5), F ≈ 1 − 2α·sqrt(τ/π)
     tau0 = np.array([1e-4, 4e-4])

@@ -44,6 +44,8 @@ from ventflux.tables import read_quantity_table
 from ventflux.uncertainty import Uncertain, nominal, parse_uncertain
 from ventflux.units import Q_, parse_quantity
 
+from .fitting import first_parameter_se, require_increasing
+
 SECONDS_PER_YEAR = 365.25 * 86400.0  # Julian year (IAU)
 PE_BOUND = 60.0  # |Pe| searched; beyond it the profile is a boundary layer and the fit is not resolved
 
@@ -129,15 +131,7 @@ def fit_peclet(depth, temperature, layer_thickness=None):
         return p[1] + (p[2] - p[1]) * profile_shape(p[0], zeta) - T
 
     sol = optimize.least_squares(resid, [pe, T0, TL], x_scale=[1.0, 0.1, 0.1])
-    r = sol.fun
-    dof = max(z.size - 3, 1)
-    s2 = float(r @ r) / dof
-    try:
-        cov = s2 * np.linalg.pinv(sol.jac.T @ sol.jac)
-        pe_se = float(np.sqrt(cov[0, 0]))
-    except np.linalg.LinAlgError:
-        pe_se = float("nan")
-    return float(sol.x[0]), pe_se, float(sol.x[1]), float(sol.x[2]), L, r
+    return float(sol.x[0]), first_parameter_se(sol), float(sol.x[1]), float(sol.x[2]), L, sol.fun
 
 
 def _grid_sse(grid, zeta, T):
@@ -221,12 +215,7 @@ def fit_advection(depth, temperature, conductivity, *, pressure=None, layer_thic
 def read_profile(path):
     """A T(z) profile CSV: ``depth [m]`` (below the seafloor) and ``temperature [degC]``; depth must increase."""
     tbl = read_quantity_table(path, {"depth": "length", "temperature": "temperature"})
-    z = tbl["depth"].to("m").magnitude
-    bad = np.flatnonzero(np.diff(z) <= 0)
-    if bad.size:
-        i = bad[0] + 1
-        raise InputError("depth", f"{z[i]:g} m after {z[i - 1]:g} m", "depths that increase down the file",
-                         where=f"{path}:{tbl.lines[i]}")
+    require_increasing(tbl["depth"].to("m").magnitude, tbl.lines, path, "depth", "m")
     return tbl["depth"], tbl["temperature"]
 
 

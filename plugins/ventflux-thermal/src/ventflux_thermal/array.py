@@ -17,9 +17,9 @@ samples as recorded, weighted by the time each represents).
 
 References
 ----------
-.. [1] Welch, P. D. (1967) / scipy.signal.periodogram; Press, W. H. et al.
-   (2007). Numerical Recipes, 3rd ed., §13.4 (power spectrum estimation
-   with data windows).
+.. [1] Press, W. H., Teukolsky, S. A., Vetterling, W. T. and Flannery, B. P.
+   (2007). Numerical Recipes, 3rd ed., Cambridge University Press, §13.4
+   (power spectrum estimation using the FFT, with a data window).
 """
 
 from __future__ import annotations
@@ -31,6 +31,8 @@ from scipy import signal
 from ventflux.errors import InputError
 from ventflux.tables import read_quantity_table
 from ventflux.units import parse_column_name
+
+from .fitting import require_increasing
 
 
 @dataclass(frozen=True)
@@ -146,11 +148,7 @@ def read_array_record(path, reference="ambient", sensors=None):
         raise InputError("sensors", "(none)", f"sensor columns besides 'time' and '{reference}'", where=str(path))
     tbl = read_quantity_table(path, {"time": "time", reference: "temperature", **{s: "temperature" for s in sensors}})
     t = tbl["time"].to("s").magnitude
-    bad = np.flatnonzero(np.diff(t) <= 0)
-    if bad.size:
-        i = bad[0] + 1
-        raise InputError("time", f"{t[i]:g} s after {t[i - 1]:g} s", "times that increase down the file",
-                         where=f"{path}:{tbl.lines[i]}")
+    require_increasing(t, tbl.lines, path, "time", "s")
     if t.size < 8:
         raise InputError("record", f"{t.size} samples", "at least 8 samples", where=str(path))
     T = np.vstack([tbl[s].to("K").magnitude for s in sensors])

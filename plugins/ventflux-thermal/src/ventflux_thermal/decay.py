@@ -4,7 +4,7 @@ A probe of radius ``a`` heated instantaneously (by the friction of
 penetration, or by a short heat pulse) cools as a perfectly conducting
 cylinder of heat capacity ``S = π a² ρ_p c_p`` per unit length in an infinite
 medium of conductivity ``k`` and diffusivity ``κ``. Its temperature above
-equilibrium is ``V0 · F(α, τ)`` with [1], §13.7, eq. (8) (also [2]):
+equilibrium is ``V0 · F(α, τ)`` with [1], §13.7:
 
     F(α, τ) = (4α/π²) ∫₀^∞ exp(−τu²) / (u · Δ(u)) du,
     Δ(u)    = [u J0(u) − α J1(u)]² + [u Y0(u) − α Y1(u)]²,
@@ -25,8 +25,6 @@ References
 .. [1] Carslaw, H. S. and Jaeger, J. C. (1959). Conduction of Heat in
    Solids, 2nd ed. Oxford University Press (§10.3 instantaneous line source;
    §13.7 perfectly conducting cylinder in an infinite medium).
-.. [2] Bullard, E. C. (1954). The flow of heat through the floor of the
-   Atlantic Ocean. Proc. R. Soc. Lond. A 222, 408–429.
 """
 
 from __future__ import annotations

@@ -8,18 +8,18 @@ reduction, per penetration:
 1. *Equilibrium temperature* of each sensor from the frictional decay: a fit
    of ``T(t) = T_eq + A·F(α, κ(t − t_pen + δ)/a²)`` (the instantaneously
    heated cylinder, ``ventflux_thermal.decay``; the origin shift ``δ`` absorbs
-   the finite duration of the heating [3]) or, as the documented simpler
+   the finite duration of the heating; common practice, no source) or, as the documented simpler
    option, the late-time line-source asymptote ``T = T_eq + B/(t − t_pen)``.
 2. *Conductivity* of each sensor's interval from the heat-pulse decay, after
    subtracting the continuing frictional decay extrapolated from step 1:
    ``ΔT(t) = Q/(π a² ρ_p c_p) · F(α, κ(t − t_hp)/a²)`` fitted for ``k`` (with
    ``κ = k/ρc``), or ``ΔT = Q/(4πk (t − t_hp))`` late. Steps 1 and 2 are
    iterated twice, since the frictional fit needs ``κ`` (a sequential form of
-   the joint inversion of [4]).
+   the joint inversion of [2]).
 3. *Heat flow* from the regression ``T_eq = T0 + q·R`` on the cumulative
    thermal resistance ``R_i = Σ_{j≤i} (z_j − z_{j−1}) / k_j`` (``z_0`` = the
-   seafloor, ``k_j`` the conductivity of the interval ending at sensor ``j``)
-   [5], with the regression's standard error, a standard uncertainty that
+   seafloor, ``k_j`` the conductivity of the interval ending at sensor ``j``;
+   the thermal-resistance method, common practice), with the regression's standard error, a standard uncertainty that
    also carries the conductivities' uncertainties (Monte Carlo over ``k``),
    and each sensor's residual.
 
@@ -36,14 +36,9 @@ References
 ----------
 .. [1] Carslaw, H. S. and Jaeger, J. C. (1959). Conduction of Heat in Solids,
    2nd ed., §10.3 and §13.7.
-.. [2] Bullard, E. C. (1954). Proc. R. Soc. Lond. A 222, 408–429.
-.. [3] Villinger, H. and Davis, E. E. (1987). A new reduction algorithm for
-   marine heat flow measurements. J. Geophys. Res. 92, 12846–12856.
-.. [4] Hartmann, A. and Villinger, H. (2002). Inversion of marine heat flow
+.. [2] Hartmann, A. and Villinger, H. (2002). Inversion of marine heat flow
    measurements by expansion of the temperature decay function. Geophys. J.
    Int. 148, 628–636.
-.. [5] Bullard, E. C. (1939). Heat flow in South Africa. Proc. R. Soc. Lond.
-   A 173, 474–502 (the thermal-resistance, "Bullard plot", method).
 """
 
 from __future__ import annotations
@@ -58,7 +53,8 @@ from ventflux.errors import Collector, InputError
 from ventflux.tables import read_quantity_table
 from ventflux.units import Q_, parse_quantity
 
-from .decay import cylinder_decay, line_source_decay
+from .decay import cylinder_decay
+from .fitting import first_parameter_se, require_increasing
 
 METHODS = ("cylinder", "line-source")
 
@@ -216,11 +212,7 @@ def read_probe_record(path, n_sensors: int | None = None, sensor_columns=None) -
     cols = {"time": "time", **{c: "temperature" for c in sensor_columns}}
     tbl = read_quantity_table(path, cols)
     t = tbl["time"].to("s").magnitude
-    bad = np.flatnonzero(np.diff(t) <= 0)
-    if bad.size:
-        i = bad[0] + 1
-        raise InputError("time", f"{t[i]:g} s after {t[i - 1]:g} s", "times that increase down the file",
-                         where=f"{path}:{tbl.lines[i]}")
+    require_increasing(t, tbl.lines, path, "time", "s")
     T = np.vstack([tbl[c].to("K").magnitude for c in sensor_columns])
     return ProbeRecord(path=path, time=t, temperature=T, sensors=tuple(sensor_columns), lines=tbl.lines, meta=meta)
 
@@ -360,14 +352,7 @@ def fit_heat_pulse(time, excess, pulse_time, energy, probe: ProbeConstants, meth
     k0 = start_conductivity or probe.start_conductivity
     sol = optimize.least_squares(resid, [k0, 0.0], bounds=([0.05, -5.0], [10.0, 5.0]), x_scale=[0.1, 0.01])
     r = sol.fun
-    dof = max(t.size - 2, 1)
-    s2 = float(r @ r) / dof
-    try:
-        cov = s2 * np.linalg.inv(sol.jac.T @ sol.jac)
-        se = float(np.sqrt(cov[0, 0]))
-    except np.linalg.LinAlgError:
-        se = float("nan")
-    return PulseFit(float(sol.x[0]), se, window, float(np.sqrt(np.mean(r * r))), int(t.size))
+    return PulseFit(float(sol.x[0]), first_parameter_se(sol), window, float(np.sqrt(np.mean(r * r))), int(t.size))
 
 
 # --------------------------------------------------------------------------- heat flow
