@@ -263,7 +263,7 @@ FLANK_OUTPUTS = {
     "mean_advective_flux": (_attr("deficit", "mean_advective_flux"), "mW/m^2"),
     "advective_loss_per_length": (_attr("deficit", "per_length"), "MW/km"),
     "water_column": (_attr("water_column"), "km"),
-    "circulated_water_per_length": (_attr("water_per_length"), "m^3/(s*km)"),
+    "circulated_water_per_length": (_attr("water_per_length"), "m^3/s/km"),
 }
 
 
@@ -278,7 +278,7 @@ def _flank(age, heat_flow, reference, half_spreading_rate, temperature_rise, amb
         out["water_column"] = Q_(heat / uptake.to("J/m^3").magnitude, "m")
         if d.per_length is not None:
             out["water_per_length"] = (Q_(np.maximum(d.per_length.to("W/m").magnitude, 0.0), "W/m")
-                                       / uptake).to("m^3/(s*km)")
+                                       / uptake).to("m^3/s/km")
     return out
 
 
