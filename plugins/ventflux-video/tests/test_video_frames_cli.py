@@ -1,0 +1,178 @@
+"""Frame reading, scale, the three commands and every bad-input case of issue 5 (exit 2, one line)."""
+
+import json
+
+import imageio.v3 as iio
+import numpy as np
+import pytest
+
+from ventflux.cli import main
+from ventflux.errors import InputError
+from ventflux.units import Q_
+from ventflux_video import scale, synthetic
+from ventflux_video.frames import FrameStream, Region, frame_pairs
+from ventflux_video.synthetic import render_plume_clip
+
+
+@pytest.fixture(scope="module")
+def clip(tmp_path_factory):
+    return render_plume_clip(tmp_path_factory.mktemp("clip") / "jet.mp4", seconds=0.6)
+
+
+@pytest.fixture()
+def sequence(tmp_path):
+    """Eight PNG frames of a uniform 2 px shift, the fifth one damaged."""
+    rng = np.random.default_rng(1)
+    x, y = rng.uniform(-10, 106, 300), rng.uniform(-10, 106, 300)
+    for k in range(8):
+        img = synthetic.render_particles((96, 96), x + 2 * k, y - 1 * k, 2.5)
+        iio.imwrite(tmp_path / f"f{k:03d}.png", np.clip(img * 200, 0, 255).astype(np.uint8))
+    data = (tmp_path / "f004.png").read_bytes()
+    (tmp_path / "f004.png").write_bytes(data[: len(data) // 3])  # truncated: cannot be decoded
+    return tmp_path
+
+
+def _one_line_error(capsys, argv, *words):
+    assert main(argv) == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1, err
+    for w in words:
+        assert w in err
+    return err
+
+
+def test_video_rate_and_frames_are_read(clip):
+    s = FrameStream(clip.path)
+    assert s.frame_rate.to("1/s").magnitude == pytest.approx(clip.frame_rate)
+    frames = list(s)
+    assert len(frames) == clip.frames and s.skipped == 0
+    assert frames[0][1].shape == (256, 160) and frames[0][1].dtype == np.float32
+
+
+def test_rate_override_and_region(clip):
+    s = FrameStream(clip.path, frame_rate=Q_(25, "1/s"), region="10,20,64,96", stop=3)
+    frames = [f for _, f in s]
+    assert s.frame_rate.magnitude == 25 and len(frames) == 3 and frames[0].shape == (96, 64)
+    full = next(iter(FrameStream(clip.path)))[1]
+    assert np.array_equal(frames[0], full[20:116, 10:74])
+    assert s.origin == (10, 20)
+
+
+def test_corrupt_frame_is_skipped_and_counted(sequence):
+    s = FrameStream(sequence, frame_rate=Q_(10, "1/s"))
+    got = [i for i, _ in s]
+    assert got == [0, 1, 2, 3, 5, 6, 7] and s.skipped == 1
+    # Pairs across the gap are left out, so every pair's interval is one frame.
+    pairs = [i for i, _, _ in frame_pairs(FrameStream(sequence, frame_rate=Q_(10, "1/s")))]
+    assert pairs == [0, 1, 2, 5, 6]
+
+
+def test_video_field_on_image_sequence_counts_the_skipped_frame(sequence, capsys, tmp_path):
+    out = tmp_path / "out"
+    assert main(["video-field", str(sequence), "--frame-rate", "10/s", "--pixel-size", "1 mm", "--windows", "32,32",
+                 "--out", str(out), "--json"]) == 0
+    res = json.loads(capsys.readouterr().out)
+    assert res["frames_skipped"] == 1 and res["frame_pairs"] == 5
+    # 2 px right and 1 px up per 0.1 s at 1 mm/px (up is up: rows decrease).
+    assert res["mean_u_m_s"] == pytest.approx(0.02, abs=0.001)
+    assert res["mean_w_m_s"] == pytest.approx(0.01, abs=0.001)
+    header = (out / "velocity_field.csv").read_text().splitlines()[0]
+    assert "w [m/s]" in header and (out / "velocity_field.png").stat().st_size > 1000
+
+
+def test_video_jet_json(clip, capsys, tmp_path):
+    argv = ["video-jet", clip.path, "--pixel-size", f"{clip.metres_per_pixel} m", "--orifice",
+            f"{clip.orifice_xy[0]},{clip.orifice_xy[1]}", "--windows", "32,16", "--ambient-temperature", "2 degC",
+            "--pressure", "25 MPa", "--json", "--out", str(tmp_path / "jet")]
+    assert main(argv) == 0
+    res = json.loads(capsys.readouterr().out)
+    for key in ("exit_velocity_m_s", "buoyancy_flux_m4_s3", "heat_power_W", "virtual_origin_m", "plume_constant"):
+        assert key in res
+    assert res["buoyancy_flux_m4_s3"] == pytest.approx(clip.buoyancy_flux, rel=0.15)
+    assert (tmp_path / "jet" / "centreline.csv").read_text().startswith("height [m],w_centreline [m/s]")
+
+
+def test_tracking_mode_runs_on_the_clip(clip, capsys):
+    assert main(["video-field", clip.path, "--pixel-size", "2.5 mm", "--mode", "tracking", "--windows", "32",
+                 "--pairs", "10", "--json"]) == 0
+    res = json.loads(capsys.readouterr().out)
+    assert res["mode"] == "tracking" and res["frame_pairs"] == 10 and res["max_w_m_s"] > 0.3
+
+
+def test_scale_from_points_and_laser_spots(tmp_path, capsys):
+    mpp = scale.metres_per_pixel_from_points((10, 10), (40, 50), Q_(10, "cm"))
+    assert mpp.to("mm").magnitude == pytest.approx(100 / 50)  # 3-4-5 triangle
+    spots = np.array([[30.3, 40.7], [90.6, 44.2]])
+    img = synthetic.render_particles((80, 128), spots[:, 0], spots[:, 1], diameter=5.0) * 250
+    img += np.random.default_rng(0).uniform(0, 20, img.shape)
+    for k in range(3):
+        iio.imwrite(tmp_path / f"s{k}.png", np.clip(img, 0, 255).astype(np.uint8))
+    assert main(["video-scale", str(tmp_path), "--frame-rate", "1/s", "--laser-separation", "10 cm", "--json"]) == 0
+    res = json.loads(capsys.readouterr().out)
+    sep = np.hypot(*(spots[1] - spots[0]))
+    assert res["metres_per_pixel_m"] == pytest.approx(0.1 / sep, rel=0.005)
+
+
+def test_registered_velocity_source_feeds_orifice(clip):
+    from ventflux.registry import velocity_source
+
+    src = velocity_source("video-exit-velocity")
+    assert "orifice" in src.feeds
+    v, sd = src.estimate(clip.path, metres_per_pixel=f"{clip.metres_per_pixel} m",
+                         orifice_xy=f"{clip.orifice_xy[0]},{clip.orifice_xy[1]}", passes="32,16")
+    assert v.to("m/s").magnitude == pytest.approx(clip.exit_velocity, rel=0.2) and sd.magnitude >= 0
+
+
+# ----------------------------------------------------------------- bad input (issue 5, item 7)
+def test_unreadable_file(tmp_path, capsys):
+    bad = tmp_path / "junk.mp4"
+    bad.write_bytes(b"this is not a video")
+    _one_line_error(capsys, ["video-field", str(bad), "--pixel-size", "1 mm"], "clip", "readable video")
+
+
+def test_truncated_file(clip, tmp_path, capsys):
+    data = open(clip.path, "rb").read()
+    cut = tmp_path / "cut.mp4"
+    cut.write_bytes(data[: len(data) // 2])
+    _one_line_error(capsys, ["video-jet", str(cut), "--pixel-size", "1 mm", "--orifice", "80,248"], "truncated")
+
+
+def test_missing_file(capsys):
+    _one_line_error(capsys, ["video-field", "/nonexistent/clip.mov", "--pixel-size", "1 mm"], "clip")
+
+
+def test_region_outside_frame(clip, capsys):
+    _one_line_error(capsys, ["video-field", clip.path, "--pixel-size", "1 mm", "--region", "100,0,100,100"],
+                    "--region", "inside the 160 x 256 frame")
+
+
+def test_zero_size_region(clip, capsys):
+    _one_line_error(capsys, ["video-field", clip.path, "--pixel-size", "1 mm", "--region", "0,0,0,50"],
+                    "--region", "holds no pixels")
+
+
+def test_zero_frames_in_range(clip, capsys):
+    _one_line_error(capsys, ["video-field", clip.path, "--pixel-size", "1 mm", "--first-frame", "5000"],
+                    "first frame")
+
+
+def test_zero_scale(clip, capsys):
+    _one_line_error(capsys, ["video-field", clip.path, "--pixel-size", "0 m"], "--pixel-size", "> 0")
+    _one_line_error(capsys, ["video-field", clip.path, "--points", "5,5,5,5", "--distance", "1 m"], "--points")
+    _one_line_error(capsys, ["video-field", clip.path, "--points", "5,5,9,9", "--distance", "0 m"], "--distance")
+
+
+def test_too_few_frames_for_averaging(clip, capsys):
+    _one_line_error(capsys, ["video-field", clip.path, "--pixel-size", "1 mm", "--pairs", "500"],
+                    "--pairs", "at most 29 frame pairs")
+
+
+def test_image_sequence_needs_a_rate(sequence, capsys):
+    _one_line_error(capsys, ["video-field", str(sequence), "--pixel-size", "1 mm"], "--frame-rate")
+
+
+def test_region_parse_errors():
+    with pytest.raises(InputError):
+        Region.parse("1,2,3")
+    with pytest.raises(InputError):
+        Region.parse("-1,0,4,4")
