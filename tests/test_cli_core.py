@@ -87,3 +87,36 @@ def test_console_script_help_everywhere():
     for args in ([], ["orifice"], ["methods"]):
         r = subprocess.run([sys.executable, "-m", "ventflux.cli", *args, "--help"], capture_output=True, text=True)
         assert r.returncode == 0 and "usage:" in r.stdout
+
+
+class _FixedVelocityPlugin:
+    """A stand-in plugin whose velocity source returns 1.4 ± 0.1 m/s."""
+
+    @staticmethod
+    def ventflux_velocity_sources():
+        from ventflux.registry import VelocitySource
+        from ventflux.units import Q_
+
+        return [VelocitySource(name="fixed-test", summary="test", feeds=("orifice",),
+                               estimate=lambda scale="1": (Q_(1.4 * float(scale), "m/s"), Q_(0.1, "m/s")))]
+
+
+def test_velocity_source_plugin_feeds_the_orifice_estimator(capsys):
+    from ventflux.hookspecs import hookimpl
+    from ventflux.registry import plugin_manager
+
+    plugin = _FixedVelocityPlugin()
+    hookimpl(_FixedVelocityPlugin.ventflux_velocity_sources)
+    pm = plugin_manager()
+    pm.register(plugin, name="fixed-test-plugin")
+    try:
+        args = [a for a in GOOD if a not in ("--velocity", "1.4 m/s")]
+        assert main(args + ["--velocity-source", "fixed-test", "--source-option", "scale=1", "--json",
+                            "--draws", "500"]) == 0
+        via_source = json.loads(capsys.readouterr().out)
+        assert main(GOOD + ["--json"]) == 0
+        direct = json.loads(capsys.readouterr().out)
+        assert via_source["heat_power_W"] == pytest.approx(direct["heat_power_W"], rel=1e-9)
+        assert via_source["heat_power_W_p95"] > via_source["heat_power_W"]
+    finally:
+        pm.unregister(plugin)

@@ -31,8 +31,13 @@ _UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) 
 def configure(p):
     g = p.add_argument_group("orifice measurements")
     g.add_argument("--temperature", required=True, metavar="Q", help="exit temperature, e.g. '352 degC'" + _UNC)
-    g.add_argument("--velocity", required=True, metavar="Q",
-                   help="exit velocity, e.g. '1.4 m/s' (area-mean unless --velocity-kind centerline)" + _UNC)
+    vel = g.add_mutually_exclusive_group(required=True)
+    vel.add_argument("--velocity", metavar="Q",
+                     help="exit velocity, e.g. '1.4 m/s' (area-mean unless --velocity-kind centerline)" + _UNC)
+    vel.add_argument("--velocity-source", metavar="NAME",
+                     help="take the exit velocity from an installed velocity source (see 'ventflux methods')")
+    g.add_argument("--source-option", action="append", default=[], metavar="KEY=VALUE",
+                   help="an option for --velocity-source (repeatable), e.g. clip=jet.mp4")
     size = g.add_mutually_exclusive_group(required=True)
     size.add_argument("--diameter", metavar="Q", help="orifice diameter (major axis if elliptical), e.g. '12 cm'")
     size.add_argument("--area", metavar="Q", help="orifice area, e.g. '0.011 m^2'")
@@ -71,6 +76,9 @@ def _inputs(args):
             continue
         with errs.check():
             vals[key] = parse_uncertain(text, dim, flag)
+    if args.velocity_source is not None:
+        with errs.check():
+            vals["velocity"] = _velocity_from_source(args.velocity_source, args.source_option)
     if args.minor_diameter is not None and args.diameter is None:
         errs.add(InputError("--minor-diameter", args.minor_diameter, "a minor diameter only together with --diameter"))
     if args.draws is not None and args.draws < 2:
@@ -85,6 +93,29 @@ def _inputs(args):
         vals["profile_factor"] = args.profile_factor
     vals["fluid"] = args.fluid
     return vals
+
+
+def _velocity_from_source(name, options):
+    """Exit velocity from a registered velocity source that feeds the orifice estimator."""
+    from ..registry import velocity_source
+    from ..uncertainty import Uncertain, normal
+
+    src = velocity_source(name)
+    if "orifice" not in src.feeds:
+        raise InputError("--velocity-source", name, "a velocity source that feeds the orifice estimator")
+    kwargs = {}
+    for opt in options:
+        key, sep, value = opt.partition("=")
+        if not sep or not key.strip():
+            raise InputError("--source-option", opt, "KEY=VALUE")
+        kwargs[key.strip().replace("-", "_")] = value.strip()
+    out = src.estimate(**kwargs)
+    if isinstance(out, Uncertain):
+        return out
+    if isinstance(out, tuple):
+        v, sd = out
+        return v if sd is None else normal(v.to("m/s"), sd.to("m/s"))
+    return out
 
 
 def run(args) -> int:
