@@ -220,3 +220,20 @@ def test_cli_bad_input_one_line_exit_2(capsys, args, field):
     assert rc == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and f"error: {field}:" in err[0] and "Traceback" not in err[0]
+
+
+def test_cli_patch_velocities_with_sd_and_bad_rows(tmp_path, capsys):
+    p = _write(tmp_path / "pv.csv", "patch,class,area [m^2],active_fraction,temperature_anomaly [K],"
+                                    "velocity [cm/s],velocity_sd [cm/s]\nA,mat,4,0.5,2,0.4,0.1\nB,mat,6,0.2,3,0.9,0.2\n")
+    rc = main(["diffuse", "--patches", p, "--ambient-temperature", "2 degC", "--pressure", "20 MPa", "--draws", "400",
+               "--json"])
+    assert rc == 0
+    out = json.loads(capsys.readouterr().out)
+    # volume flux = Σ w·f·A (definition): 0.004·0.5·4 + 0.009·0.2·6 m³/s
+    assert out["volume_flux_m3_s"] == pytest.approx(0.004 * 2 + 0.009 * 1.2)
+    assert out["velocity"] == "per patch" and out["volume_flux_m3_s_std"] > 0
+    bad = _write(tmp_path / "pb.csv", "patch,area [m^2],active_fraction,temperature_anomaly [K],velocity [cm/s]\n"
+                                      "A,4,0.5,2,0.4\nB,6,0.2,3,-0.1\n")
+    rc = main(["diffuse", "--patches", bad, "--ambient-temperature", "2 degC", "--pressure", "20 MPa"])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert rc == 2 and len(err) == 1 and "pb.csv:3: velocity" in err[0]

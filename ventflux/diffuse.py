@@ -55,7 +55,7 @@ from .properties.seawater import (
     sea_pressure_dbar,
 )
 from .tables import read_quantity_table
-from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, draw_inputs, summarize
+from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, draw_inputs
 from .units import Q_, magnitude, require_dimension, ureg
 
 __all__ = [
@@ -155,6 +155,7 @@ class DiffuseDischarge(_Totals):
     heat_power_cp_shortcut: pint.Quantity
     volume_flux: pint.Quantity
     mass_flux: pint.Quantity
+    area: pint.Quantity
     effective_area: pint.Quantity
     specific_heat_content: pint.Quantity
     density: pint.Quantity
@@ -247,7 +248,7 @@ def diffuse_discharge(area, active_fraction, temperature_anomaly, velocity, ambi
     -------
     DiffuseDischarge
         ``heat_power`` [W], ``heat_power_cp_shortcut`` [W] (ρ·w·A_eff·c_p·ΔT),
-        ``volume_flux`` [m³/s], ``mass_flux`` [kg/s], ``effective_area`` [m²],
+        ``volume_flux`` [m³/s], ``mass_flux`` [kg/s], ``area`` and ``effective_area`` [m²],
         ``specific_heat_content`` [J/kg], ``density`` [kg/m³], each shaped
         like the broadcast inputs.
 
@@ -307,6 +308,7 @@ def diffuse_discharge(area, active_fraction, temperature_anomaly, velocity, ambi
         heat_power_cp_shortcut=Q_(m * cp * dT, "W"),
         volume_flux=Q_(q, "m^3/s"),
         mass_flux=Q_(m, "kg/s"),
+        area=Q_(np.broadcast_to(A, np.shape(a_eff)), "m^2"),
         effective_area=Q_(a_eff, "m^2"),
         specific_heat_content=Q_(dh, "J/kg"),
         density=Q_(rho, "kg/m^3"),
@@ -346,16 +348,6 @@ def _clip_draws(d: dict) -> dict:
         q = d[k]
         out[k] = Q_(np.clip(q.magnitude, 0.0, None), q.units)
     return out
-
-
-def _nominal_magnitude(x, unit, delta=False):
-    if isinstance(x, Uncertain):
-        x = _delta_uncertain(x).nominal if delta else x.nominal
-    if delta:
-        return temperature_difference(x).magnitude
-    if isinstance(x, pint.Quantity):
-        return x.to(unit).magnitude
-    return np.asarray(x, float)
 
 
 def _draw_patch_inputs(inputs: dict, n: int, seed):
@@ -471,7 +463,8 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
     patch_class : sequence of str
         Class of each sampled patch, length ``n_patches``.
     patch_area : pint.Quantity
-        Whole area of each sampled patch, shape ``(n_patches,)``.
+        Whole area of each sampled patch, shape ``(n_patches,)`` or, with
+        drawn areas, ``(n_patches, n_draws)`` like ``patch_heat_power``.
     patch_heat_power, patch_volume_flux : pint.Quantity
         Per-patch results, shape ``(n_patches,)`` (no bootstrap) or
         ``(n_patches, n_draws)``.
@@ -525,7 +518,7 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
             continue
         pick = idx[rng.integers(0, idx.size, size=(idx.size, n_draws))]  # bootstrap resample per draw
         cols = np.arange(n_draws)[None, :]
-        area_sum = A[pick].sum(axis=0)
+        area_sum = (A[pick, cols] if A.ndim == 2 else A[pick]).sum(axis=0)
         qh.append(H[pick, cols].sum(axis=0) / area_sum)
         qv.append(V[pick, cols].sum(axis=0) / area_sum)
     qh = np.array(qh)
@@ -723,7 +716,3 @@ def read_area_classes(path):
     c.raise_if_any()
     return names, tbl["area"].to("m^2"), (tbl["area_sd"].to("m^2") if "area_sd" in tbl else None)
 
-
-def summarize_total(draws: pint.Quantity, unit: str, seed=None):
-    """Monte Carlo summary of a total over patches (draws along the last axis)."""
-    return summarize(draws.to(unit), seed=seed)

@@ -33,7 +33,7 @@ from ..diffuse import (
 from ..errors import InputError
 from ..properties.seawater import pressure_from_depth
 from ..registry import Command, Method
-from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, nominal, parse_uncertain, summarize
+from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain, summarize
 from ..units import Q_, parse_quantity
 from .output import add_output_options, print_json, print_table
 
@@ -234,10 +234,7 @@ def _scale_up(args, inputs, dr):
         area_draws = Q_(np.clip(draws, 0.0, None), area.units)
     else:
         area_draws = Q_(np.repeat(area.magnitude[:, None], args.draws, axis=1), area.units)
-    a = inputs["area"]
-    patch_area = nominal(a[0] if isinstance(a, tuple) else a)
-    patch_area = Q_(np.broadcast_to(patch_area.magnitude, (len(inputs["names"]),)), patch_area.units)
-    su = scale_up_by_area_class(inputs["classes"], patch_area, dr.heat_power, dr.volume_flux, names, area_draws,
+    su = scale_up_by_area_class(inputs["classes"], dr.area, dr.heat_power, dr.volume_flux, names, area_draws,
                                 seed=args.seed)
     classes = []
     for k, name in enumerate(su.classes):

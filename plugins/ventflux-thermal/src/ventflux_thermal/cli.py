@@ -146,7 +146,7 @@ def run_probe(args) -> int:
         for r in results:
             d = r.as_dict()
             table = [(f"{s['depth_m']:.3f} m", f"{s['equilibrium_temperature_degC']:.4f} °C  "
-                      f"k={s['conductivity_W_m_K']:.3f}±{s['conductivity_se_W_m_K']:.3f}  "
+                      f"k={s['conductivity_W_m_K']:.4g}±{s['conductivity_se_W_m_K']:.2g} W/(m K)  "
                       f"res {s['residual_mK']:+.2f} mK", "") for s in d["sensors"]]
             table.append(("heat flow", f"{d['heat_flow_mW_m2']:.2f} ± {d['heat_flow_se_mW_m2']:.2f} (SE)", "mW/m^2"))
             print_table(table, title=f"{Path(r.record).name} ({r.method})")

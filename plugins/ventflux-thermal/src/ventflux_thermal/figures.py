@@ -11,7 +11,7 @@ import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
 from ventflux.io import atomic_write_bytes  # noqa: E402
 
-from .probe import PenetrationResult, ProbeConstants, frictional_model  # noqa: E402
+from .probe import PenetrationResult, ProbeConstants, frictional_model, pulse_model  # noqa: E402
 
 
 def _save(fig, path):
@@ -29,7 +29,7 @@ def resistance_figure(res: PenetrationResult, path):
     ax.plot(T, R, "o", color="tab:red", label="sensors")
     rr = np.linspace(0.0, R.max() * 1.05, 50)
     ax.plot(res.intercept_temperature - 273.15 + res.heat_flow * rr, rr, "-", color="0.3",
-            label=f"q = {1e3 * res.heat_flow:.1f} ± {1e3 * res.heat_flow_se:.1f} mW/m²")
+            label=f"q = {1e3 * res.heat_flow:.4g} ± {1e3 * res.heat_flow_se:.2g} mW/m² (SE)")
     ax.invert_yaxis()
     ax.set_xlabel("equilibrium temperature [°C]")
     ax.set_ylabel("cumulative thermal resistance [m² K/W]")
@@ -43,7 +43,7 @@ def resistance_figure(res: PenetrationResult, path):
 
 
 def decay_figure(res: PenetrationResult, path, probe: ProbeConstants | None = None):
-    """Each sensor's record with its frictional-decay fit (and the heat-pulse window marked)."""
+    """Each sensor's record with its frictional-decay fit (red) and heat-pulse fit (blue, window shaded)."""
     rec = res.record_data
     if rec is None:
         raise ValueError("decay_figure needs reduce_penetration(..., keep_record=True)")
@@ -56,8 +56,13 @@ def decay_figure(res: PenetrationResult, path, probe: ProbeConstants | None = No
         tt = np.linspace(f.window[0], f.window[1], 200)
         model = frictional_model(f, tt, res.penetration_time, res.conductivity[i], probe, res.method)
         ax.plot(tt, model - 273.15, "-", color="tab:red", lw=1.2)
-        if res.pulse[i] is not None:
-            ax.axvspan(*res.pulse[i].window, color="tab:blue", alpha=0.08)
+        p = res.pulse[i]
+        if p is not None:
+            ax.axvspan(*p.window, color="tab:blue", alpha=0.08)
+            tp = np.linspace(p.window[0], p.window[1], 200)
+            bg = frictional_model(f, tp, res.penetration_time, res.conductivity[i], probe, res.method)
+            ax.plot(tp, bg + pulse_model(p, tp, res.heat_pulse_time, res.heat_pulse_energy, probe, res.method)
+                    - 273.15, "-", color="tab:blue", lw=1.2)
         ax.set_ylabel(f"T{i + 1} [°C]", fontsize=8)
         ax.text(0.99, 0.85, f"misfit {1e3 * f.misfit_rms:.2f} mK", transform=ax.transAxes, ha="right", fontsize=7)
     axes[-1, 0].set_xlabel("time [s]")

@@ -111,6 +111,7 @@ class PulseFit:
     window: tuple
     misfit_rms: float  # K
     n_points: int
+    offset: float = 0.0  # K, constant left over after the frictional background
 
 
 @dataclass
@@ -126,13 +127,14 @@ class PenetrationResult:
     resistance: np.ndarray  # m^2 K / W
     heat_flow: float  # W/m^2
     heat_flow_se: float  # regression standard error
-    heat_flow_uncertainty: float  # standard uncertainty including the conductivities'
+    heat_flow_uncertainty: float  # regression SE combined with the conductivities' uncertainty
     intercept_temperature: float  # K
     residual: np.ndarray  # K
     friction: list
     pulse: list
     penetration_time: float = float("nan")  # s
     heat_pulse_time: float | None = None  # s
+    heat_pulse_energy: float | None = None  # J/m
     record_data: ProbeRecord | None = None
 
     @property
@@ -342,7 +344,8 @@ def fit_heat_pulse(time, excess, pulse_time, energy, probe: ProbeConstants, meth
         if not coef[1] > 0:
             raise InputError("heat pulse", "no decay", "a heat pulse whose excess decays as 1/t")
         k = energy / (4 * np.pi * coef[1])
-        return PulseFit(float(k), float(k * se_slope / coef[1]), window, float(np.sqrt(np.mean(r * r))), int(t.size))
+        return PulseFit(float(k), float(k * se_slope / coef[1]), window, float(np.sqrt(np.mean(r * r))), int(t.size),
+                        float(coef[0]))
     V0 = energy / (np.pi * probe.radius**2 * probe.probe_heat_capacity)
     a2rc = probe.radius**2 * probe.sediment_heat_capacity
 
@@ -352,7 +355,18 @@ def fit_heat_pulse(time, excess, pulse_time, energy, probe: ProbeConstants, meth
     k0 = start_conductivity or probe.start_conductivity
     sol = optimize.least_squares(resid, [k0, 0.0], bounds=([0.05, -5.0], [10.0, 5.0]), x_scale=[0.1, 0.01])
     r = sol.fun
-    return PulseFit(float(sol.x[0]), first_parameter_se(sol), window, float(np.sqrt(np.mean(r * r))), int(t.size))
+    return PulseFit(float(sol.x[0]), first_parameter_se(sol), window, float(np.sqrt(np.mean(r * r))), int(t.size),
+                    float(sol.x[1]))
+
+
+def pulse_model(fit: PulseFit, time, pulse_time, energy, probe: ProbeConstants, method):
+    """The fitted heat-pulse excess at ``time`` (K), over the frictional background."""
+    t = np.asarray(time, float) - pulse_time
+    if method == "line-source":
+        return fit.offset + energy / (4 * np.pi * fit.conductivity * t)
+    V0 = energy / (np.pi * probe.radius**2 * probe.probe_heat_capacity)
+    return fit.offset + V0 * cylinder_decay(probe.alpha, t * fit.conductivity / (probe.radius**2
+                                                                               * probe.sediment_heat_capacity))
 
 
 # --------------------------------------------------------------------------- heat flow
@@ -493,17 +507,20 @@ def reduce_penetration(record_path, sensor_depths=None, *, penetration_time=None
     Teq = np.array([f.equilibrium_temperature for f in fr])
     R = thermal_resistance(z, k)
     q, T0, se, resid = heat_flow_regression(R, Teq)
-    # Standard uncertainty with the conductivities' uncertainties: draw k, redo the regression (vectorized).
-    rng = np.random.default_rng(seed)
-    kd = np.clip(k[:, None] + np.nan_to_num(k_se)[:, None] * rng.standard_normal((n, draws)), 0.05, None)
-    Ted = Teq[:, None] + np.array([f.equilibrium_se for f in fr])[:, None] * rng.standard_normal((n, draws))
-    qd, *_ = heat_flow_regression(thermal_resistance(z, kd), Ted) if n > 1 else (np.array([np.nan]),)
-    q_unc = float(np.sqrt(np.nanvar(qd, ddof=1) + (se if np.isfinite(se) else 0.0) ** 2)) if n > 2 else float("nan")
+    # Standard uncertainty: the regression's standard error (the scatter of T_eq about the line) combined with
+    # the spread of the slope when the conductivities are drawn from their fits (vectorized over draws).
+    q_unc = float("nan")
+    if n > 2:
+        rng = np.random.default_rng(seed)
+        kd = np.clip(k[:, None] + np.nan_to_num(k_se)[:, None] * rng.standard_normal((n, draws)), 0.05, None)
+        qd, *_ = heat_flow_regression(thermal_resistance(z, kd), Teq)
+        q_unc = float(np.sqrt(np.var(qd, ddof=1) + se**2))
     return PenetrationResult(record=str(path), method=method, depth=z, conductivity=k, conductivity_se=k_se,
                              equilibrium_temperature=Teq, resistance=R, heat_flow=float(q), heat_flow_se=float(se),
                              heat_flow_uncertainty=q_unc, intercept_temperature=float(T0),
                              residual=np.asarray(resid, float).ravel(), friction=fr, pulse=pu,
                              penetration_time=float(t_pen), heat_pulse_time=t_hp if use_pulse else None,
+                             heat_pulse_energy=energy if use_pulse else None,
                              record_data=rec if keep_record else None)
 
 
@@ -520,4 +537,4 @@ def result_row(res: PenetrationResult) -> dict:
 
 __all__ = ["ProbeConstants", "ProbeRecord", "PenetrationResult", "reduce_penetration", "read_probe_record",
            "read_metadata", "fit_frictional_decay", "fit_heat_pulse", "thermal_resistance", "heat_flow_regression",
-           "frictional_model", "check_timing", "result_row"]
+           "frictional_model", "pulse_model", "check_timing", "result_row"]
