@@ -97,3 +97,28 @@ def test_ctd_with_missing_column_or_bad_cell_names_the_line(capsys, tmp_path):
 def test_rise_height_above_the_cast_is_refused(capsys, cast):
     code, _, err = _run(capsys, "--rise-height", "2000 m", "--ctd", str(cast))
     assert code == 2 and "--rise-height" in err and "ambient profile" in err
+
+
+def test_forced_plume_from_orifice_exit_conditions(capsys, tmp_path):
+    code, out, err = _run(capsys, "--exit-temperature", "350 degC", "--exit-velocity", "1.2 m/s", "--diameter",
+                          "8 cm", "--buoyancy-frequency", "1e-3/s", "--ambient-temperature", "2 degC",
+                          "--ambient-salinity", "34.6", "--depth", "2500 m", "--json")
+    assert code == 0, err
+    d = json.loads(out)
+    assert d["direction"] == "orifice to rise height" and d["spreading_dilution"] > 1e3
+    # weak-momentum source: close to the closed form, 5.0 (F/π)^(1/4) N^(-3/4) (Briggs 1969; from memory)
+    z_cf = 5.0 * (d["buoyancy_flux_m4_s3"] / np.pi) ** 0.25 * 1e-3 ** -0.75
+    assert d["rise_height_m"] == pytest.approx(z_cf, rel=0.05)
+
+
+def test_current_profile_file_bends_the_plume(capsys, cast, tmp_path):
+    cur = tmp_path / "current.csv"
+    cur.write_text("depth [m],speed [m/s]\n1000,0.05\n2600,0.05\n")
+    code, out, err = _run(capsys, "--heat-power", "50 MW", "--ctd", str(cast), "--current-profile", str(cur),
+                          "--json")
+    assert code == 0, err
+    bent = json.loads(out)
+    code, out, err = _run(capsys, "--heat-power", "50 MW", "--ctd", str(cast), "--current", "0.05 m/s", "--json")
+    const = json.loads(out)
+    assert bent["rise_height_m"] == pytest.approx(const["rise_height_m"], rel=1e-9)
+    assert bent["downstream_distance_m"] > 50

@@ -149,3 +149,17 @@ def test_orifice_adapter_reads_only_the_documented_attributes():
     assert s.volume_flux.to("m^3/s").magnitude == pytest.approx(2.0 / 1040.0)
     assert s.momentum_flux.to("m^4/s^2").magnitude == pytest.approx(2.0 * 1.5 / 1040.0)
     assert s.heat_power.to("W").magnitude == pytest.approx(3.2e6)
+
+
+def test_orifice_adapter_on_the_orifice_estimator_matches_exit_conditions():
+    # Two routes through the same IAPWS-95 and TEOS-10 property layer must agree.
+    from ventflux.orifice import orifice_discharge
+
+    p = Q_(25, "MPa")
+    d = orifice_discharge(Q_(350, "degC"), Q_(1.2, "m/s"), Q_(0.08, "m"), pressure=p,
+                          ambient_temperature=Q_(2.0, "degC"), ambient_salinity=34.6)
+    a = plume_source_from_orifice(d)
+    b = plume_source_from_exit(Q_(350, "degC"), Q_(1.2, "m/s"), Q_(0.08, "m"), p, Q_(2.0, "degC"), 34.6)
+    for k in ("volume_flux", "momentum_flux", "heat_power"):
+        assert getattr(a, k).to_base_units().magnitude == pytest.approx(getattr(b, k).to_base_units().magnitude,
+                                                                        rel=1e-3)

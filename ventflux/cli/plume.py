@@ -4,9 +4,11 @@ from __future__ import annotations
 
 import sys
 
+import gsw
 import numpy as np
 
 from ..errors import Collector, InputError
+from ..properties.seawater import STANDARD_ATMOSPHERE
 from ..registry import Command, Method
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
 from ..units import Q_, column_name, parse_quantity
@@ -18,7 +20,8 @@ _UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) 
 _FLAGS = {"rise height": "--rise-height", "heat power": "--heat-power", "buoyancy frequency": "--buoyancy-frequency",
           "ambient temperature": "--ambient-temperature", "ambient salinity": "--ambient-salinity",
           "pressure": "--pressure", "depth": "--depth", "vent depth": "--depth", "entrainment": "--entrainment",
-          "current": "--current", "method": "--method", "level": "--level", "window": "--window",
+          "current": "--current", "current speed": "--current-profile", "current depth": "--current-profile",
+          "method": "--method", "level": "--level", "window": "--window",
           "latitude": "--latitude", "longitude": "--longitude", "draws": "--draws"}
 
 
@@ -27,6 +30,11 @@ def configure(p):
     which = d.add_mutually_exclusive_group(required=True)
     which.add_argument("--rise-height", metavar="Q", help="observed rise above the vent, e.g. '250 m'" + _UNC)
     which.add_argument("--heat-power", metavar="Q", help="heat power of the source, e.g. '100 MW' (forward)" + _UNC)
+    which.add_argument("--exit-temperature", metavar="Q",
+                       help="forward, forced plume from one orifice: exit temperature, e.g. '350 degC' (with "
+                            "--exit-velocity and --diameter; the vent fluid's density and heat from IAPWS-95)")
+    d.add_argument("--exit-velocity", metavar="Q", help="area-mean exit velocity of the orifice, e.g. '1.2 m/s'")
+    d.add_argument("--diameter", metavar="Q", help="orifice diameter, e.g. '8 cm'")
     d.add_argument("--level", default="maximum", metavar="LEVEL",
                    help="which height --rise-height is: 'maximum' (top of the plume, default) or 'spreading' "
                         "(neutral-buoyancy level)")
@@ -54,7 +62,10 @@ def configure(p):
                    help="'integral' (TEOS-10 integral plume model, default) or 'closed-form' (point-source formula)")
     m.add_argument("--entrainment", default="0.132", metavar="X",
                    help="top-hat entrainment coefficient (Gaussian × √2; default 0.132)" + _UNC)
-    m.add_argument("--current", default=None, metavar="Q", help="horizontal current speed, e.g. '0.05 m/s'" + _UNC)
+    cur = m.add_mutually_exclusive_group()
+    cur.add_argument("--current", default=None, metavar="Q", help="horizontal current speed, e.g. '0.05 m/s'" + _UNC)
+    cur.add_argument("--current-profile", default=None, metavar="CSV",
+                     help="current varying with depth: CSV with 'depth [m]' and 'speed [m/s]' columns")
     m.add_argument("--draws", type=int, default=None, metavar="N",
                    help=f"Monte Carlo draws (default {DEFAULT_DRAWS} when any input carries an uncertainty)")
     m.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
@@ -77,7 +88,8 @@ def run(args) -> int:
 def _inputs(args):
     errs = Collector()
     vals = {}
-    spec = [("rise_height", "length"), ("heat_power", "power"), ("buoyancy_frequency", "frequency"),
+    spec = [("rise_height", "length"), ("heat_power", "power"), ("exit_temperature", "temperature"),
+            ("exit_velocity", "velocity"), ("diameter", "length"), ("buoyancy_frequency", "frequency"),
             ("ambient_temperature", "temperature"), ("ambient_salinity", "dimensionless"),
             ("pressure", "pressure"), ("depth", "length"), ("entrainment", "dimensionless"),
             ("current", "velocity"), ("stratification_scale", "dimensionless")]
@@ -86,7 +98,8 @@ def _inputs(args):
         if text is None:
             continue
         with errs.check():
-            exact_only = key in ("ambient_temperature", "ambient_salinity", "pressure", "depth")
+            exact_only = key in ("ambient_temperature", "ambient_salinity", "pressure", "depth", "exit_temperature",
+                                 "exit_velocity", "diameter")
             vals[key] = (parse_quantity if exact_only else parse_uncertain)(text, dim, "--" + key.replace("_", "-"))
     with errs.check():
         if args.method not in ("integral", "closed-form"):
@@ -94,6 +107,15 @@ def _inputs(args):
     with errs.check():
         if args.level not in ("maximum", "spreading"):
             raise InputError("--level", args.level, "one of maximum, spreading")
+    if args.exit_temperature is not None:
+        for key in ("exit_velocity", "diameter"):
+            if getattr(args, key) is None:
+                errs.add(InputError("--" + key.replace("_", "-"), "(none)", "a value with --exit-temperature"))
+        if args.method != "integral":
+            errs.add(InputError("--method", args.method, "'integral' for a forced plume from an orifice"))
+    elif args.exit_velocity is not None or args.diameter is not None:
+        errs.add(InputError("--exit-velocity" if args.exit_velocity else "--diameter", "given",
+                            "an orifice's --exit-velocity and --diameter only with --exit-temperature"))
     if args.draws is not None and args.draws < 2:
         errs.add(InputError("--draws", args.draws, "an integer ≥ 2"))
     if args.buoyancy_frequency is not None:
@@ -137,9 +159,15 @@ def _run(args) -> int:
                   ambient_salinity=vals.get("ambient_salinity"), latitude=args.latitude, longitude=args.longitude,
                   stratification_scale=vals.get("stratification_scale"),
                   track=bool(args.figure or args.profile_table))
+    if args.current_profile is not None:
+        common["current"] = _current_profile(args.current_profile)
     if args.rise_height is not None:
         res = inversion.heat_power_from_rise_height(vals["rise_height"], strat, **common)
         direction = "rise height to heat power"
+    elif args.exit_temperature is not None:
+        res = inversion.rise_height_from_heat_power(None, strat, source=_orifice_source(vals, strat, common),
+                                                    **common)
+        direction = "orifice to rise height"
     else:
         res = inversion.rise_height_from_heat_power(vals["heat_power"], strat, **common)
         direction = "heat power to rise height"
@@ -158,6 +186,27 @@ def _run(args) -> int:
     return 0
 
 
+def _current_profile(path):
+    from ..plume.inversion import CurrentProfile
+    from ..tables import read_quantity_table
+
+    tbl = read_quantity_table(path, columns={"depth": "length", "speed": "velocity"})
+    return CurrentProfile(depth=tbl["depth"], speed=tbl["speed"])
+
+
+def _orifice_source(vals, strat, common):
+    """Forced-plume source from the orifice's exit conditions at the vent's in-situ pressure."""
+    from ..plume import inversion, plume_source_from_exit
+
+    column, _, _ = inversion.ambient_column(strat, common["vent_depth"], common["pressure"], common["ambient_temperature"],
+                                     common["ambient_salinity"], common["latitude"], common["longitude"])
+    pressure = Q_(column.p0 * 1e4 + STANDARD_ATMOSPHERE, "Pa")
+    t_amb = Q_(float(gsw.t_from_CT(column.SA0, column.CT0, column.p0)), "degC")
+    sp = float(gsw.SP_from_SR(column.SA0))
+    return plume_source_from_exit(vals["exit_temperature"], vals["exit_velocity"], vals["diameter"], pressure,
+                                  t_amb, sp)
+
+
 def _val(q, unit):
     return float(np.asarray(q.to(unit).magnitude))
 
@@ -174,6 +223,7 @@ def _payload(res, nom, direction, args, strat):
         "downstream_distance_m": _val(nom.downstream_distance, "m"),
         "spreading_volume_flux_m3_s": _val(nom.spreading_volume_flux, "m^3/s"),
         "spreading_ct_excess_K": _val(nom.spreading_anomaly, "K"),
+        "spreading_dilution": _val(nom.spreading_dilution, "dimensionless"),
         "vent_depth_m": col.vent_depth, "vent_sea_pressure_dbar": col.p0,
         "ambient_absolute_salinity_g_kg": col.SA0, "ambient_conservative_temperature_degC": col.CT0,
         "ambient_density_kg_m3": col.rho0, "thermal_expansion_1_K": col.alpha0, "cp0_J_kg_K": CP0,
@@ -206,6 +256,7 @@ def _print_readable(p, res):
             ("downstream distance of the top", p["downstream_distance_m"], "m", "downstream_distance", 1.0),
             ("volume flux at spreading level", p["spreading_volume_flux_m3_s"], "m³/s", None, 1.0),
             ("CT excess at spreading level", p["spreading_ct_excess_K"], "K", None, 1.0),
+            ("dilution at spreading level", p["spreading_dilution"], "", None, 1.0),
             ("mean N over the rise", p["mean_buoyancy_frequency_1_s"], "1/s", None, 1.0)]
     if "closed_form_heat_power_W" in p:
         rows.insert(1, ("heat power, closed form", p["closed_form_heat_power_W"] / 1e6, "MW", None, 1e-6))

@@ -85,8 +85,8 @@ class PlumeRiseResult:
 # --------------------------------------------------------------------------- set-up
 
 
-def _column(stratification, vent_depth, pressure, ambient_temperature, ambient_salinity, latitude, longitude):
-    """(Column, uncertain N or None, nominal N) for a profile or a constant N."""
+def ambient_column(stratification, vent_depth, pressure, ambient_temperature, ambient_salinity, latitude, longitude):
+    """(Column, uncertain N or None, nominal N [1/s]) above the vent, from a profile or a constant N."""
     if isinstance(stratification, AmbientProfile):
         zv = None
         if vent_depth is not None or pressure is not None:
@@ -368,7 +368,7 @@ def _estimate(direction, value, stratification, level, method, entrainment, curr
     _check_choice(level, LEVELS, "level")
     if source is not None and method != "integral":
         raise InputError("method", method, "'integral' for a forced plume from an orifice")
-    column, N_unc, Nnom = _column(stratification, vent_depth, pressure, ambient_temperature, ambient_salinity,
+    column, N_unc, Nnom = ambient_column(stratification, vent_depth, pressure, ambient_temperature, ambient_salinity,
                                   latitude, longitude)
     inputs = {"entrainment": _entrainment(entrainment), "current": current if not isinstance(
         current, CurrentProfile) else None, "buoyancy_frequency": N_unc, "stratification_scale": stratification_scale}
