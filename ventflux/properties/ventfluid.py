@@ -61,15 +61,6 @@ class FluidModel(Protocol):
 
     name: str
 
-    def valid(self, T, p):
-        """Boolean mask of points inside the model's validity and in one liquid-like phase."""
-        T, p = np.broadcast_arrays(np.asarray(T, float), np.asarray(p, float))
-        ok = (p >= P_MIN) & (p <= P_MAX) & (T >= T_MIN) & (T <= T_MAX)
-        if not self.allow_vapour:
-            tsat = self.saturation_temperature(p)
-            ok &= ~(np.isfinite(tsat) & (T >= tsat))
-        return ok
-
     def check(self, T, p, field: str = "temperature") -> None: ...
 
     def valid(self, T, p) -> np.ndarray: ...
