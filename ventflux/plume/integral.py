@@ -247,6 +247,7 @@ class VerticalModel(_Model):
     """No current: state (Q, P = M², T, S) against height z."""
 
     stop = 1  # P
+    heat = 2  # index of the CT anomaly flux
     n_state = 4
 
     def initial(self, src):
@@ -277,6 +278,7 @@ class CrossflowModel(_Model):
     """Current U(z): state (Q, Q u, Q w, T, S, x, z) against path length s [5]_."""
 
     stop = 2  # Q w
+    heat = 3
     n_state = 7
 
     def __init__(self, column, alpha, scale, current, current_shape=None, beta=CROSSFLOW_ENTRAINMENT, linear=False):
@@ -364,7 +366,6 @@ def integrate(model, src: Sources, span, track=False, max_steps=None) -> Ensembl
     y, s = model.initial(src)
     span = np.broadcast_to(np.asarray(span, float), (n,))
     hmax = span / STEPS
-    s_origin = src.z0 * 0.0
     out = {k: np.full(n, np.nan) for k in ("zt", "zs", "xt", "xs", "Qs", "dTs")}
     escaped = np.zeros(n, bool)
     active = np.arange(n)
@@ -378,8 +379,7 @@ def integrate(model, src: Sources, span, track=False, max_steps=None) -> Ensembl
         if rec is not None:
             rec.append((s.copy(), y.copy(), gp.copy()))
         ya, sa, da, ga = y[:, active], s[active], d[:, active], gp[active]
-        h = np.minimum(hmax[active], STEP_GROWTH * np.maximum(sa - s_origin[active] + src.s_ref[active],
-                                                              1e-6 * span[active]))
+        h = np.minimum(hmax[active], STEP_GROWTH * np.maximum(sa + src.s_ref[active], 1e-6 * span[active]))
         k1 = da
         k2, _ = model.rhs(sa + 0.5 * h, ya + 0.5 * h * k1, active)
         k3, _ = model.rhs(sa + 0.5 * h, ya + 0.5 * h * k2, active)
@@ -397,8 +397,8 @@ def integrate(model, src: Sources, span, track=False, max_steps=None) -> Ensembl
             x0_, x1_ = model.distance(sa, ya)[cross], model.distance(sn, yn)[cross]
             out["xs"][idx] = x0_ + t * (x1_ - x0_)
             out["Qs"][idx] = ya[0, cross] + t * (yn[0, cross] - ya[0, cross])
-            T_ = ya[3 if model.n_state == 7 else 2, cross] * (1 - t) + t * yn[3 if model.n_state == 7 else 2, cross]
-            _, ct_, _ = c.at(out["zs"][idx])
+            T_ = ya[model.heat, cross] * (1 - t) + t * yn[model.heat, cross]
+            _, ct_, _ = c.at(out["zs"][idx], model._take(model.scale, idx))
             out["dTs"][idx] = c.CT0 + T_ / out["Qs"][idx] - ct_
         k = model.stop
         done = yn[k] <= 0.0

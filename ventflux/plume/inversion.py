@@ -18,7 +18,7 @@ anomaly (about 0.5 % in heat power for an N 20 % off nominal).
 
 The closed form with a profile uses the depth-mean N over the rise; with a
 current it takes the lower of the vertical and the bent-over rise (the
-regime that limits the plume).
+regime that limits the plume; with a current profile, its largest speed).
 
 References
 ----------
