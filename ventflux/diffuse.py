@@ -67,6 +67,8 @@ __all__ = [
     "diffuse_discharge",
     "diffuse_discharge_uncertain",
     "scale_up_by_area_class",
+    "clip_to_physical_range",
+    "check_patch_inputs",
     "read_patch_table",
     "read_area_classes",
     "velocity_from_source",
@@ -335,8 +337,11 @@ def _warm_beyond_teos10(t0_c, t1_c, p_sea_dbar):
 
 
 # --------------------------------------------------------------------------- Monte Carlo
-def _clip_draws(d: dict) -> dict:
-    """Clip draws to the physical range: a normal tail past a bound is held at the bound.
+def clip_to_physical_range(d: dict) -> dict:
+    """Clip drawn patch inputs to the physical range: a normal tail past a bound is held at the bound.
+
+    ``d`` holds ``area``, ``temperature_anomaly``, ``velocity`` (quantities)
+    and ``active_fraction`` (plain array); a new dict is returned.
 
     A normal distribution for a fraction or a positive quantity has tails
     outside the physical range; rather than refuse a draw we hold it at the
@@ -348,6 +353,9 @@ def _clip_draws(d: dict) -> dict:
         q = d[k]
         out[k] = Q_(np.clip(q.magnitude, 0.0, None), q.units)
     return out
+
+
+_clip_draws = clip_to_physical_range  # earlier private name, still imported by callers
 
 
 def _draw_patch_inputs(inputs: dict, n: int, seed):
@@ -376,7 +384,7 @@ def diffuse_discharge_uncertain(area, active_fraction, temperature_anomaly, velo
     velocity for the field), or a tuple ``(mean, sd)`` of per-patch quantity
     arrays (normal, independent between patches). Nominal values are checked
     as in ``diffuse_discharge``; draws are clipped to the physical range
-    (``_clip_draws``).
+    (``clip_to_physical_range``).
 
     Returns
     -------
@@ -418,7 +426,7 @@ def diffuse_discharge_uncertain(area, active_fraction, temperature_anomaly, velo
         elif isinstance(v, pint.Quantity) and v.ndim == 1 and v.shape[0] == n_patches and n_patches > 0:
             d[k] = v.reshape(n_patches, 1)
     d["active_fraction"] = d["active_fraction"].to("dimensionless").magnitude
-    d = _clip_draws(d)
+    d = clip_to_physical_range(d)
     drawn = diffuse_discharge(**d, check=False, names=names)
     # every output gets the full (n_patches, draws) shape, even one no uncertain input reached
     shape = (max(n_patches, 1), draws)
