@@ -129,3 +129,15 @@ def test_unknown_method_and_level_are_refused():
         heat_power_from_rise_height(Q_(250, "m"), N, method="guess", **SITE)
     with pytest.raises(InputError, match="maximum, spreading"):
         heat_power_from_rise_height(Q_(250, "m"), N, level="top", **SITE)
+
+
+def test_arrays_of_rise_heights_are_solved_at_once():
+    z = Q_(np.array([120.0, 250.0, 400.0]), "m")
+    many = heat_power_from_rise_height(z, N, **SITE).heat_power.to("W").magnitude
+    one = heat_power_from_rise_height(z[1], N, **SITE).heat_power.to("W").magnitude
+    assert many.shape == (3,) and np.all(np.diff(many) > 0)
+    assert many[1] == pytest.approx(one, rel=2e-4)
+    with pytest.raises(InputError, match="> 0 m"):
+        heat_power_from_rise_height(Q_(np.array([100.0, -1.0]), "m"), N, **SITE)
+    back = rise_height_from_heat_power(Q_(many, "W"), N, **SITE).rise_height.to("m").magnitude
+    assert np.allclose(back, z.magnitude, rtol=2e-4)

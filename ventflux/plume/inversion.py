@@ -393,21 +393,21 @@ def _estimate(direction, value, stratification, level, method, entrainment, curr
 
 
 def _check_rise(z, column):
-    zm = float(magnitude(require_dimension(z, "length", "rise height"), "m"))
-    if not zm > 0:
-        raise InputError("rise height", f"{z:~P}", "a height above the vent > 0 m")
-    if zm >= column.vent_depth:
-        raise InputError("rise height", f"{z:~P}", f"a height below the sea surface (the vent is at "
-                         f"{column.vent_depth:.0f} m depth)")
-    if zm > column.top:
-        raise InputError("rise height", f"{z:~P}", f"a height within the ambient profile (it reaches "
-                         f"{column.top:.0f} m above the vent)")
+    """Every rise height (a scalar or an array) must lie above the vent and within the column."""
+    zm = np.atleast_1d(np.asarray(magnitude(require_dimension(z, "length", "rise height"), "m"), float))
+    for bad, allowed in ((~(zm > 0), "a height above the vent > 0 m"),
+                         (zm >= column.vent_depth, f"a height below the sea surface (the vent is at "
+                                                   f"{column.vent_depth:.0f} m depth)"),
+                         (zm > column.top, f"a height within the ambient profile (it reaches {column.top:.0f} m "
+                                           "above the vent)")):
+        if bad.any():
+            raise InputError("rise height", f"{zm[bad][0]:g} m", allowed)
 
 
 def _check_power(H):
-    h = float(magnitude(require_dimension(H, "power", "heat power"), "W"))
-    if not h > 0:
-        raise InputError("heat power", f"{H:~P}", "a heat power > 0 W")
+    h = np.atleast_1d(np.asarray(magnitude(require_dimension(H, "power", "heat power"), "W"), float))
+    if not (h > 0).all():
+        raise InputError("heat power", f"{h[~(h > 0)][0]:g} W", "a heat power > 0 W")
 
 
 def _solve(direction, sampled, n, column, Nnom, current, level, method, source, track=False):
