@@ -117,8 +117,9 @@ def correlate_windows(a, b, shift=None):
     """
     m = a.shape[1] * a.shape[2]
     # Mean removal is the zeroed DC term; the norms follow without a mean-free copy.
-    energy_a = np.einsum("nij,nij->n", a, a, dtype=np.float64) - a.sum(axis=(1, 2), dtype=np.float64) ** 2 / m
-    energy_b = np.einsum("nij,nij->n", b, b, dtype=np.float64) - b.sum(axis=(1, 2), dtype=np.float64) ** 2 / m
+    a2, b2 = a.reshape(len(a), -1), b.reshape(len(b), -1)
+    energy_a = np.einsum("nk,nk->n", a2, a2).astype(np.float64) - a2.sum(axis=1).astype(np.float64) ** 2 / m
+    energy_b = np.einsum("nk,nk->n", b2, b2).astype(np.float64) - b2.sum(axis=1).astype(np.float64) ** 2 / m
     norm = np.sqrt(np.clip(energy_a, 0, None) * np.clip(energy_b, 0, None))
     fa = scipy.fft.rfft2(a, workers=_WORKERS)
     fb = scipy.fft.rfft2(b, workers=_WORKERS)
