@@ -563,9 +563,22 @@ def velocity_from_source(name: str, *args, **options):
     """
     from .registry import velocity_source
 
+    import inspect
+
     src = velocity_source(name)
     if "diffuse" not in src.feeds:
         raise InputError("velocity source", name, "a source that feeds the diffuse estimator")
+    try:
+        sig = inspect.signature(src.estimate)
+    except (TypeError, ValueError):  # a builtin without a signature: call it as it is
+        sig = None
+    if sig is not None:
+        try:
+            sig.bind(*args, **options)
+        except TypeError as exc:
+            accepted = ", ".join(p for p in sig.parameters if p not in ("args", "kwargs"))
+            raise InputError(f"velocity source {name}", ", ".join([*map(str, args), *options]) or "(nothing)",
+                             f"its input and options ({accepted}): {exc}") from None
     out = src.estimate(*args, **options)
     if isinstance(out, Uncertain):
         return out

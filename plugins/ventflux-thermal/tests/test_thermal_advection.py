@@ -117,3 +117,12 @@ def test_bad_profiles(tmp_path, capsys):
     with pytest.raises(InputError, match="at least 4 distinct depths"):
         fit_advection(Q_([0.1, 0.2, 0.3], "m"), Q_([2, 3, 4], "degC"), Q_(1, "W/(m*K)"),
                       fluid_heat_capacity=Q_(RHO_C, "J/(m^3*K)"))
+
+
+def test_unknown_source_option_is_one_line(tmp_path, capsys):
+    p = _write_profile(tmp_path / "core.csv", 1.0)
+    rc = main(["diffuse", "--area", "20 m^2", "--active-fraction", "1", "--anomaly", "1.5 K",
+               "--velocity-source", "profile-advection", "--source-input", p, "--source-option", "colour=red",
+               "--ambient-temperature", "2.5 degC", "--depth", "2200 m"])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert rc == 2 and len(err) == 1 and "conductivity" in err[0] and "colour" in err[0]

@@ -178,3 +178,14 @@ def test_library_errors_are_input_errors(cylinder_record):
     src, _ = cylinder_record
     with pytest.raises((InputError, InputErrors)):
         reduce_penetration(src, method="polynomial")
+
+
+def test_unit_invariance_of_the_metadata(cylinder_record):
+    # Invariant: the same depths, times and energy in other units give the same heat flow.
+    src, _ = cylinder_record
+    a = reduce_penetration(src)
+    b = reduce_penetration(src, Q_(DEPTHS * 100, "cm"), penetration_time=Q_(1.0, "min"),
+                           heat_pulse_time=Q_(10.0, "min"), heat_pulse_energy=Q_(0.7, "kJ/m"),
+                           tilt=Q_(np.deg2rad(8.0), "rad"))
+    assert b.heat_flow == pytest.approx(a.heat_flow, rel=1e-9)
+    np.testing.assert_allclose(b.conductivity, a.conductivity, rtol=1e-9)

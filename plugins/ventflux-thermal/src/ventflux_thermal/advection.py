@@ -247,6 +247,7 @@ def profile_velocity(profile, conductivity="1.0 W/(m*K)", pressure=None, depth=N
         else layer_thickness
     rc = parse_quantity(fluid_heat_capacity, "volumetric heat capacity", "fluid heat capacity") \
         if isinstance(fluid_heat_capacity, str) else fluid_heat_capacity
-    fit = fit_advection(z, T, k, pressure=p, layer_thickness=L, fluid_heat_capacity=rc,
-                        salinity=float(salinity))
+    sp = float(parse_quantity(salinity, "dimensionless", "salinity").magnitude) if isinstance(salinity, str) \
+        else float(salinity)
+    fit = fit_advection(z, T, k, pressure=p, layer_thickness=L, fluid_heat_capacity=rc, salinity=sp)
     return Q_(fit.darcy_velocity, "m/s"), Q_(fit.darcy_velocity_se, "m/s")
