@@ -42,6 +42,9 @@ def test_cylinder_records_recover_conductivity_and_heat_flow(cylinder_record):
     assert 0 < r.heat_flow_se < 0.01 * Q_TRUE
     assert r.heat_flow_uncertainty >= r.heat_flow_se
     assert r.depth == pytest.approx(DEPTHS * np.cos(np.deg2rad(8.0)))  # tilt correction z = s·cos θ
+    # windows: frictional fit from ≥ 30 s after penetration (t = 60 s) to before the pulse (600 s); pulse fit after it
+    assert all(f.window[0] >= 90.0 and f.window[1] < 600.0 for f in r.friction)
+    assert all(p.window[0] > 600.0 for p in r.pulse)
 
 
 def test_line_source_records_recover_conductivity_and_heat_flow(tmp_path):
