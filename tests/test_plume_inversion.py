@@ -162,3 +162,23 @@ def test_rise_does_not_depend_on_where_teos10_takes_over(monkeypatch, handover):
     monkeypatch.setattr(integral, "START_ANOMALY", handover)
     moved = rise_height_from_heat_power(Q_(100, "MW"), N, **SITE).rise_height.magnitude
     assert moved == pytest.approx(base, rel=3e-3)
+
+
+def test_predrawn_arrays_give_the_same_answers_as_drawing_inside():
+    # A caller sharing draws across methods passes the arrays themselves.
+    from ventflux.uncertainty import draw_inputs
+
+    inputs = {"rise_height": normal(Q_(250, "m"), Q_(25, "m")), "buoyancy_frequency": normal(N, Q_(5e-5, "1/s")),
+              "entrainment": uniform(Q_(0.12), Q_(0.14)), "current": uniform(Q_(0.01, "m/s"), Q_(0.03, "m/s"))}
+    inside = heat_power_from_rise_height(inputs["rise_height"], inputs["buoyancy_frequency"],
+                                         entrainment=inputs["entrainment"], current=inputs["current"], draws=200,
+                                         seed=11, **SITE)
+    d = draw_inputs(inputs, 200, 11)
+    d["rise_height"][3] = Q_(-1.0, "m")  # an impossible draw fails alone
+    outside = heat_power_from_rise_height(d["rise_height"], d["buoyancy_frequency"], entrainment=d["entrainment"],
+                                          current=d["current"], predrawn=True, **SITE)
+    a, b = inside.heat_power.magnitude, outside.heat_power.magnitude
+    keep = np.arange(200) != 3
+    # the drawn N's median (not its mean) builds the column, so agreement is to first order in N's spread
+    assert np.allclose(a[keep], b[keep], rtol=2e-3)
+    assert np.isnan(b[3]) and outside.failed == 1 and outside.summary["heat_power"].draws == 199

@@ -86,7 +86,11 @@ class PlumeRiseResult:
 
 
 def ambient_column(stratification, vent_depth, pressure, ambient_temperature, ambient_salinity, latitude, longitude):
-    """(Column, uncertain N or None, nominal N [1/s]) above the vent, from a profile or a constant N."""
+    """(Column, N to draw or None, nominal N [1/s]) above the vent, from a profile or a constant N.
+
+    A constant N may be exact, ``Uncertain``, or an array of draws (its median
+    builds the column, each draw scales it).
+    """
     if isinstance(stratification, AmbientProfile):
         zv = None
         if vent_depth is not None or pressure is not None:
@@ -95,18 +99,22 @@ def ambient_column(stratification, vent_depth, pressure, ambient_temperature, am
             zv = vent_depth_of(vent_depth, pressure, stratification.latitude)
         return integral.column_above_vent(stratification, zv), None, None
     N = stratification
+    varying = isinstance(N, Uncertain) or np.ndim(getattr(N, "magnitude", 0)) > 0
     if isinstance(N, Uncertain):
         Nnom = N.nominal
     else:
-        Nnom = require_dimension(N, "frequency", "buoyancy frequency")
+        N = require_dimension(N, "frequency", "buoyancy frequency")
+        Nnom = Q_(float(np.median(N.magnitude)), N.units) if varying else N
+        if varying and not np.all(N.magnitude > 0):
+            raise InputError("buoyancy frequency", f"{np.min(N.magnitude):g} {N.units:~P}",
+                             "a buoyancy frequency N > 0 s^-1 in every draw")
     if ambient_temperature is None:
         raise InputError("ambient temperature", "(none)", "an ambient temperature with a constant buoyancy frequency")
     if ambient_salinity is None:
         raise InputError("ambient salinity", "(none)", "an ambient salinity with a constant buoyancy frequency")
     prof = constant_stratification(Nnom, ambient_temperature, ambient_salinity, depth=vent_depth, pressure=pressure,
                                    latitude=latitude, longitude=longitude)
-    return integral.column_above_vent(prof), (N if isinstance(N, Uncertain) else None), \
-        float(Nnom.to("1/s").magnitude)
+    return integral.column_above_vent(prof), (N if varying else None), float(Nnom.to("1/s").magnitude)
 
 
 def _check_choice(value, allowed, field):
@@ -166,12 +174,14 @@ def _size(sampled):
 
 
 def _entrainment(x):
+    """An exact coefficient (float), an array of them, or an ``Uncertain`` one."""
     if isinstance(x, Uncertain):
         return x
-    v = float(x.to("dimensionless").magnitude) if hasattr(x, "to") else float(x)
-    if not 0 < v < 1:
-        raise InputError("entrainment", f"{v:g}", "a top-hat entrainment coefficient between 0 and 1, e.g. 0.132")
-    return v
+    v = np.asarray(x.to("dimensionless").magnitude if hasattr(x, "to") else x, float)
+    if not np.all((v > 0) & (v < 1)):
+        raise InputError("entrainment", f"{np.ravel(v)[~((np.ravel(v) > 0) & (np.ravel(v) < 1))][0]:g}",
+                         "a top-hat entrainment coefficient between 0 and 1, e.g. 0.132")
+    return float(v) if v.ndim == 0 else v
 
 
 # --------------------------------------------------------------------------- forward model
@@ -299,7 +309,7 @@ def heat_power_from_rise_height(rise_height, stratification, level="maximum", me
                                 entrainment=integral.DEFAULT_ENTRAINMENT, current=None, draws=None,
                                 seed=DEFAULT_SEED, vent_depth=None, pressure=None, ambient_temperature=None,
                                 ambient_salinity=None, latitude=None, longitude=None,
-                                stratification_scale=None, track=False) -> PlumeRiseResult:
+                                stratification_scale=None, track=False, predrawn=False) -> PlumeRiseResult:
     """Heat power and buoyancy flux of a plume from its observed rise height.
 
     Parameters
@@ -332,6 +342,10 @@ def heat_power_from_rise_height(rise_height, stratification, level="maximum", me
         Factor on the profile's N² (anomalies of SA and CT from the vent scaled).
     track : bool
         Keep the nominal plume's profiles along its path (for figures and tables).
+    predrawn : bool
+        The array inputs are already Monte Carlo draws (shared with other
+        estimates): solve them as they are and summarize (seed None); a draw
+        outside the allowed range gives NaN and counts in ``failed``.
 
     Returns
     -------
@@ -339,15 +353,15 @@ def heat_power_from_rise_height(rise_height, stratification, level="maximum", me
     """
     return _estimate("inverse", rise_height, stratification, level, method, entrainment, current, draws, seed,
                      vent_depth, pressure, ambient_temperature, ambient_salinity, latitude, longitude,
-                     stratification_scale, track, None)
+                     stratification_scale, track, None, predrawn)
 
 
 def rise_height_from_heat_power(heat_power, stratification, level="maximum", method="integral",
                                 entrainment=integral.DEFAULT_ENTRAINMENT, current=None, draws=None,
                                 seed=DEFAULT_SEED, vent_depth=None, pressure=None, ambient_temperature=None,
                                 ambient_salinity=None, latitude=None, longitude=None,
-                                stratification_scale=None, track=False, source: PlumeSource | None = None
-                                ) -> PlumeRiseResult:
+                                stratification_scale=None, track=False, source: PlumeSource | None = None,
+                                predrawn=False) -> PlumeRiseResult:
     """Rise height (maximum and spreading) of a pure plume of ``heat_power``, or of a forced ``source``.
 
     Parameters as ``heat_power_from_rise_height``; ``heat_power`` (pint
@@ -358,38 +372,46 @@ def rise_height_from_heat_power(heat_power, stratification, level="maximum", met
     """
     return _estimate("forward", heat_power, stratification, level, method, entrainment, current, draws, seed,
                      vent_depth, pressure, ambient_temperature, ambient_salinity, latitude, longitude,
-                     stratification_scale, track, source)
+                     stratification_scale, track, source, predrawn)
 
 
 def _estimate(direction, value, stratification, level, method, entrainment, current, draws, seed, vent_depth,
               pressure, ambient_temperature, ambient_salinity, latitude, longitude, stratification_scale, track,
-              source):
+              source, predrawn=False):
     _check_choice(method, METHODS, "method")
     _check_choice(level, LEVELS, "level")
     if source is not None and method != "integral":
         raise InputError("method", method, "'integral' for a forced plume from an orifice")
+    if predrawn and draws is not None:
+        raise InputError("draws", draws, "no draws with predrawn inputs (the arrays are the draws)")
     column, N_unc, Nnom = ambient_column(stratification, vent_depth, pressure, ambient_temperature, ambient_salinity,
-                                  latitude, longitude)
+                                         latitude, longitude)
     inputs = {"entrainment": _entrainment(entrainment), "current": current if not isinstance(
         current, CurrentProfile) else None, "buoyancy_frequency": N_unc, "stratification_scale": stratification_scale}
+    # drawn inputs are checked at their centre; a draw outside the allowed range fails alone (NaN)
+    centre = _median if predrawn else nominal
     if direction == "inverse":
         inputs["rise_height"] = value
-        _check_rise(nominal(value), column)
+        _check_rise(centre(value), column)
     elif source is None:
         inputs["heat_power"] = value
-        _check_power(nominal(value))
+        _check_power(centre(value))
     sampled = _sample({k: v for k, v in inputs.items() if v is not None}, draws, seed)
     n = _size(sampled)
     res = _solve(direction, sampled, n, column, Nnom, current, level, method, source, track=track and draws is None)
     if draws is not None:
-        nom = _solve(direction, {k: nominal(v) for k, v in inputs.items() if v is not None}, 1, column, Nnom,
-                     current, level, method, source, track=track)
-        res.nominal = nom
-        res.draws, res.seed = int(draws), seed
+        res.nominal = _solve(direction, {k: nominal(v) for k, v in inputs.items() if v is not None}, 1, column, Nnom,
+                             current, level, method, source, track=track)
+    if draws is not None or (predrawn and n > 1):
+        res.draws, res.seed = (int(draws), seed) if draws is not None else (n, None)
         res.summary = {k: summarize(getattr(res, k), seed) for k in
                        ("heat_power", "buoyancy_flux", "rise_height", "spreading_height", "downstream_distance")
                        if np.isfinite(np.asarray(getattr(res, k).magnitude)).any()}
     return res
+
+
+def _median(q):
+    return Q_(float(np.nanmedian(q.magnitude)), q.units) if hasattr(q, "magnitude") else q
 
 
 def _check_rise(z, column):
