@@ -72,7 +72,54 @@ def patches():
               "mapped area of each seafloor class from the photo mosaic (invented)")
 
 
+def probe_records():
+    """Four sediment heat-flow penetrations on the sediment apron west of the field.
+
+    Each record is rendered from the decay of an instantaneously heated cylinder
+    (the same model the reduction fits; fine for demo data, which is no check):
+    frictional heating at penetration, a calibrated heat pulse 7 minutes later,
+    1 mK sensor noise, equilibrium temperatures from T0 + q R(z).
+    """
+    from ventflux_thermal.decay import cylinder_decay
+
+    radius, rc_probe, rc_sed = 0.004, 3.4e6, 3.4e6
+    alpha = 2 * rc_sed / rc_probe
+    t = np.arange(0.0, 900.0 + 0.5, 1.0)
+    t_pen, t_hp, energy, tilt = 60.0, 480.0, 700.0, 5.0
+    along = np.array([0.6, 1.2, 1.8, 2.4, 3.0])
+    depth = along * np.cos(np.radians(tilt))
+    for k_station, (name, q) in enumerate([("OSK26-HF01", 1.9), ("OSK26-HF02", 1.2), ("OSK26-HF03", 2.6),
+                                           ("OSK26-HF04", 0.9)]):
+        k = RNG.uniform(0.85, 1.15, along.size)
+        R = np.cumsum(np.diff(np.concatenate([[0.0], depth])) / k)
+        T_eq = 2.06 + q * R
+        cols = []
+        for i in range(along.size):
+            kappa = k[i] / rc_sed
+            Ti = np.full(t.size, 2.06)
+            on = t >= t_pen
+            A = RNG.uniform(0.6, 1.4)
+            Ti[on] = T_eq[i] + A * cylinder_decay(alpha, kappa * (t[on] - t_pen + 2.0) / radius**2)
+            hp = t > t_hp
+            Ti[hp] += energy / (np.pi * radius**2 * rc_probe) * cylinder_decay(alpha, kappa * (t[hp] - t_hp) /
+                                                                                radius**2)
+            cols.append(Ti + RNG.normal(0, 0.001, t.size))
+        path = DATA / "probes" / f"{name}.csv"
+        path.parent.mkdir(parents=True, exist_ok=True)
+        with open(path, "w", newline="", encoding="utf-8") as fh:
+            fh.write(f"# station {name}, Oskeran Ridge sediment apron (invented)\n")
+            fh.write(f"# penetration_time [s]: {t_pen:g}\n# heat_pulse_time [s]: {t_hp:g}\n")
+            fh.write(f"# heat_pulse_energy [J/m]: {energy:g}\n# tilt [deg]: {tilt:g}\n")
+            fh.write("# sensor_depths [m]: " + ", ".join(f"{a:g}" for a in along) + "\n")
+            w = csv.writer(fh)
+            w.writerow(["time [s]"] + [f"T{i + 1} [degC]" for i in range(along.size)])
+            for j in range(t.size):
+                w.writerow([f"{t[j]:.1f}"] + [f"{c[j]:.4f}" for c in cols])
+        del k_station
+
+
 if __name__ == "__main__":
     ctd_cast()
     patches()
+    probe_records()
     print(f"wrote demo data to {DATA}")

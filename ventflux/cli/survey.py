@@ -97,7 +97,7 @@ def run(args) -> int:
                     **{k: v for k, v in json.loads((out / "summary.json").read_text()).items()
                        if k.endswith(("_MW_median", "_MW_p05", "_MW_p95", "_median", "_p05", "_p95"))}})
         return 0
-    s = result.split.total if result.split is not None else (result.focused.summary if result.focused else None)
+    s = result.total
     if s is not None:
         s = s.to("MW")
         print(f"{spec.site.name}: total heat output {s.median.m:.3g} MW (5-95 %: {s.p05.m:.3g}-{s.p95.m:.3g} MW)")

@@ -54,7 +54,7 @@ class MethodEstimate:
 class SectionEstimate:
     """A field-wide section's items: per-item draws, shape ``(n_items, n_draws)``."""
 
-    category: str  # "focused" or "diffuse"
+    category: str  # "focused", "diffuse" or "conductive" (heat conducted, not discharged)
     names: list
     heat_power: object
     volume_flux: object = None

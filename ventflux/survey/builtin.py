@@ -181,7 +181,7 @@ def _per_patch(draws, names, mean, sd, key):
 
 
 def _estimate_diffuse(spec, ctx):
-    from ..diffuse import _clip_draws, diffuse_discharge, scale_up_by_area_class
+    from ..diffuse import clip_to_physical_range, diffuse_discharge, scale_up_by_area_class
 
     t = spec["table"]
     d = ctx.draws
@@ -196,7 +196,7 @@ def _estimate_diffuse(spec, ctx):
     else:
         w = resolve(spec["velocity"], "diffuse/velocity", d)
         w = w.reshape(1, -1) if np.ndim(w.magnitude) == 1 else w
-    clipped = _clip_draws({"area": area, "active_fraction": frac.magnitude, "temperature_anomaly": dT,
+    clipped = clip_to_physical_range({"area": area, "active_fraction": frac.magnitude, "temperature_anomaly": dT,
                            "velocity": w})
     Ta = ctx.ambient_temperature
     Ta = Ta.reshape(1, -1) if np.ndim(Ta.magnitude) == 1 else Ta
@@ -243,5 +243,11 @@ def _estimate_diffuse(spec, ctx):
 DIFFUSE = SurveySection(key="diffuse", summary="diffuse-flow patches (TEOS-10 enthalpy), scaled up to mapped areas",
                         parse=_parse_diffuse, estimate=_estimate_diffuse)
 
-METHODS = [ORIFICE]
+def _plume_rise():
+    from .plume_method import PLUME_RISE
+
+    return PLUME_RISE
+
+
+METHODS = [ORIFICE, _plume_rise()]
 SECTIONS = [DIFFUSE]

@@ -91,11 +91,12 @@ def tables_of(result) -> dict:
         for name, rows in s.tables.items():
             t[name] = rows
     totals = []
-    for label, ft in (("focused", result.focused), ("diffuse", result.diffuse)):
+    for label, ft in (("focused", result.focused), ("diffuse", result.diffuse), ("conductive", result.conductive)):
         if ft is not None:
             totals.append({"quantity": f"{label} heat power", "unit": "MW", **_plain(ft.summary.to("MW"))})
+    if result.total is not None:
+        totals.append({"quantity": "total heat power", "unit": "MW", **_plain(result.total.to("MW"))})
     if result.split is not None:
-        totals.append({"quantity": "total heat power", "unit": "MW", **_plain(result.split.total.to("MW"))})
         totals.append({"quantity": "diffuse fraction", "unit": "1", **_plain(result.split.diffuse_fraction)})
     for k, s in result.water.items():
         unit = "kg/s" if "mass" in k else "m^3/s"
@@ -214,8 +215,11 @@ def summary_of(result, tables) -> dict:
         out.update(result.focused.summary.as_dict("focused_heat_power", "MW"))
     if result.diffuse is not None:
         out.update(result.diffuse.summary.as_dict("diffuse_heat_power", "MW"))
+    if result.conductive is not None:
+        out.update(result.conductive.summary.as_dict("conductive_heat_power", "MW"))
+    if result.total is not None:
+        out.update(result.total.as_dict("total_heat_power", "MW"))
     if result.split is not None:
-        out.update(result.split.total.as_dict("total_heat_power", "MW"))
         out.update(result.split.diffuse_fraction.as_dict("diffuse_fraction", "dimensionless"))
     for k, s in result.water.items():
         unit = "kg/s" if "mass" in k else "m^3/s"
@@ -311,14 +315,13 @@ code{{background:#f4f4f4;padding:0 .2rem}}
 <h1>Heat and water discharge: {esc(spec.site.name)}</h1>
 <p class="caution">{esc(CAUTION)}</p>"""]
     key = []
+    if result.total is not None:
+        t = result.total.to("MW")
+        key.append(f"Total heat output <b>{t.median.m:.3g} MW</b> (5–95 %: {t.p05.m:.3g}–{t.p95.m:.3g} MW).")
     if result.split is not None:
-        t = result.split.total.to("MW")
         f = result.split.diffuse_fraction
-        key.append(f"Total heat output <b>{t.median.m:.3g} MW</b> (5–95 %: {t.p05.m:.3g}–{t.p95.m:.3g} MW), "
-                   f"of which diffuse discharge is <b>{f.median.m:.0%}</b> ({f.p05.m:.0%}–{f.p95.m:.0%}).")
-    elif result.focused is not None:
-        t = result.focused.summary.to("MW")
-        key.append(f"Focused heat output <b>{t.median.m:.3g} MW</b> (5–95 %: {t.p05.m:.3g}–{t.p95.m:.3g} MW).")
+        key.append(f"Of the discharge by fluid, diffuse flow carries <b>{f.median.m:.0%}</b> "
+                   f"({f.p05.m:.0%}–{f.p95.m:.0%}); focused vents the rest.")
     inconsistent = [vr.name for vr in result.vents if vr.comparison is not None and not vr.comparison.consistent]
     compared = [vr.name for vr in result.vents if vr.comparison is not None]
     if compared:

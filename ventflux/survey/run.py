@@ -44,6 +44,8 @@ class SurveyResult:
     sections: dict  # key -> SectionEstimate
     focused: object  # FieldTotal
     diffuse: object  # FieldTotal or None
+    conductive: object  # FieldTotal or None (heat conducted through sediment)
+    total: object  # Summary of focused + diffuse + conductive
     split: object  # FocusedDiffuseSplit or None
     water: dict  # name -> Summary of field water flux
     reservoirs: list
@@ -117,22 +119,27 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
             vr.throughput = _throughput(vr, ctx, keep)
 
     focused_items = [vr.heat_power.to("W") for vr in vents]
-    diffuse_items = []
+    diffuse_items, conductive_items = [], []
     for s in sec.values():
         h = Q_(np.atleast_2d(s.heat_power.to("W").magnitude)[:, keep], "W")
-        (focused_items if s.category == "focused" else diffuse_items).append(h)
+        {"focused": focused_items, "diffuse": diffuse_items, "conductive": conductive_items}[s.category].append(h)
     focused = field_total([np.atleast_2d(q.magnitude) * q.units for q in focused_items], "MW", spec.seed) \
         if focused_items else None
     diffuse = field_total(diffuse_items, "MW", spec.seed) if diffuse_items else None
+    conductive = field_total(conductive_items, "MW", spec.seed) if conductive_items else None
     split = None
     if focused is not None and diffuse is not None:
         split = focused_diffuse_split(focused, diffuse, spec.seed)
+    total = None
+    parts = [t.draws.to("MW").magnitude for t in (focused, diffuse, conductive) if t is not None]
+    if parts:
+        total = summarize(Q_(np.sum(np.broadcast_arrays(*parts), axis=0), "MW"), spec.seed)
 
     water = _field_water(vents, sec, keep, spec.seed)
     reservoirs = [_reservoir(r, vents, focused, diffuse, pressure, spec.seed) for r in spec.reservoirs]
     shared = {k: v for k, v in draws.describe().items() if k.startswith(("shared/", "site/"))}
     return SurveyResult(spec=spec, pressure=pressure, vents=vents, sections=sec, focused=focused, diffuse=diffuse,
-                        split=split, water=water, reservoirs=reservoirs, dropped_draws=dropped,
+                        conductive=conductive, total=total, split=split, water=water, reservoirs=reservoirs, dropped_draws=dropped,
                         n_draws=int(keep.sum()), elapsed=time.perf_counter() - t0, shared_inputs=shared)
 
 
@@ -177,8 +184,7 @@ def _reservoir(r, vents, focused, diffuse, pressure, seed):
     elif r.supplies == "diffuse":
         P = diffuse.draws
     elif r.supplies == "field total":
-        P = focused.draws if diffuse is None else (focused.draws if focused is not None else 0 * diffuse.draws) + (
-            diffuse.draws if diffuse is not None else 0)
+        P = sum(t.draws.to("W") for t in (focused, diffuse) if t is not None)
     else:
         P = next(vr.heat_power for vr in vents if vr.name == r.supplies)
     opts = dict(r.options)

@@ -51,3 +51,10 @@ def ventflux_velocity_sources():
                 "input: profile CSV; options: conductivity, pressure or depth, layer_thickness",
         feeds=("diffuse",),
         estimate=profile_velocity)]
+
+
+@hookimpl
+def ventflux_survey_sections():
+    from .survey import SEDIMENT_PROBES
+
+    return [SEDIMENT_PROBES]

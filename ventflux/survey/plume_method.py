@@ -1,0 +1,110 @@
+"""Survey method ``[vent.plume_rise]``: a vent's heat power from the observed rise of its plume.
+
+The stratification is the site's CTD cast (one cast for every vent: its
+uncertainty, if given as a shared ``stratification_scale``, is drawn once per
+draw for all of them) or a constant buoyancy frequency. The entrainment
+coefficient is a model constant, the same for every plume of the field;
+give it as a shared value (``"@entrainment"``) to carry its uncertainty
+coherently.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..units import Q_
+from .api import MethodEstimate, SurveyMethod
+from .fields import as_float, nominal_of, resolve
+
+
+def _parse(f, ctx):
+    from ..plume import DEFAULT_ENTRAINMENT, LEVELS, METHODS
+
+    spec = {
+        "height": f.quantity("height", "length", required=True, positive=True),
+        "level": f.string("level", default="maximum", choices=LEVELS),
+        "method": f.string("method", default="integral", choices=METHODS),
+        "entrainment": f.quantity("entrainment", "dimensionless", default=None),
+        "current": f.quantity("current", "velocity"),
+        "buoyancy_frequency": f.quantity("buoyancy_frequency", "frequency", positive=True),
+        "stratification_scale": f.quantity("stratification_scale", "dimensionless", positive=True),
+    }
+    if spec["entrainment"] is None and "entrainment" not in f.table:
+        f.defaults[f.key("entrainment")] = f"{DEFAULT_ENTRAINMENT} (top-hat; Morton, Taylor & Turner 1956)"
+    site = ctx.site
+    if site is not None and site.ctd is None and spec["buoyancy_frequency"] is None and "buoyancy_frequency" \
+            not in f.table:
+        f.error("buoyancy_frequency", "(missing)", "a buoyancy frequency, or a CTD cast in [site] ctd")
+    f.check_unknown()
+    return spec
+
+
+def _estimate(spec, vent, ctx):
+    from ..plume import DEFAULT_ENTRAINMENT, heat_power_from_rise_height
+
+    n = ctx.draws.n_draws
+    key = f"{vent}/plume_rise"
+
+    def drawn(name, default=None):
+        v = spec.get(name)
+        if v is None:
+            return default
+        q = resolve(v, f"{key}/{name}", ctx.draws)
+        return q
+
+    z = drawn("height")
+    alpha = drawn("entrainment", Q_(DEFAULT_ENTRAINMENT, "dimensionless"))
+    kwargs = dict(level=spec["level"], method=spec["method"], pressure=ctx.pressure,
+                  latitude=ctx.site.latitude, longitude=ctx.site.longitude)
+    if spec["buoyancy_frequency"] is not None:
+        strat = drawn("buoyancy_frequency")
+        kwargs.update(ambient_temperature=Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
+                      ambient_salinity=float(np.mean(ctx.ambient_salinity)))
+    else:
+        strat = ctx.stratification
+    cur = drawn("current")
+    scale = drawn("stratification_scale")
+    arrays = {"rise_height": _full(z, n, "m"), "entrainment": _full(alpha, n, "dimensionless")}
+    if cur is not None:
+        arrays["current"] = _full(cur, n, "m/s")
+    if scale is not None:
+        arrays["stratification_scale"] = as_float(_full(scale, n, "dimensionless"))
+    if spec["buoyancy_frequency"] is not None:
+        strat = _full(strat, n, "1/s")
+    res = heat_power_from_rise_height(arrays.pop("rise_height"), strat, **arrays, **kwargs, predrawn=True)
+    nominal = heat_power_from_rise_height(
+        nominal_of(spec["height"]), strat if not hasattr(strat, "shape") or np.ndim(getattr(strat, "magnitude", 0))
+        == 0 else Q_(float(np.median(strat.magnitude)), strat.units),
+        entrainment=float(as_float(nominal_of(spec["entrainment"]))) if spec["entrainment"] is not None
+        else DEFAULT_ENTRAINMENT, track=True, **kwargs)
+    H = res.heat_power.to("W").magnitude
+    row = {"vent": vent, "observed_height [m]": float(nominal_of(spec["height"]).to("m").magnitude),
+           "level": spec["level"], "model": spec["method"],
+           "heat_power [MW]": float(nominal.heat_power.to("MW").magnitude),
+           "buoyancy_flux [m^4/s^3]": float(nominal.buoyancy_flux.to("m^4/s^3").magnitude),
+           "maximum_height [m]": float(nominal.rise_height.to("m").magnitude),
+           "spreading_height [m]": float(nominal.spreading_height.to("m").magnitude),
+           "spreading_volume_flux [m^3/s]": float(nominal.spreading_volume_flux.to("m^3/s").magnitude),
+           "heat_power_p05 [MW]": float(np.nanpercentile(H, 5) / 1e6),
+           "heat_power_p95 [MW]": float(np.nanpercentile(H, 95) / 1e6),
+           "failed_draws": int(res.failed)}
+    figs = []
+    if spec["method"] == "integral" and nominal.track is not None:
+        from ..plume.figures import plume_figure
+
+        figs.append(("plume_rise", plume_figure(nominal),
+                     f"{vent}: the nominal plume's radius and speed beside the stratification it rises through."))
+    return MethodEstimate(heat_power=Q_(H, "W"), nominal_heat_power=nominal.heat_power.to("W"), rows=[row],
+                          figures=figs,
+                          notes=["Plume rise: a pure plume of the vent's heat power rising through the site's "
+                                 "stratification (top-hat integral model, TEOS-10 densities)."])
+
+
+def _full(q, n, unit):
+    m = np.asarray(q.to(unit).magnitude if hasattr(q, "to") else q, float)
+    return Q_(np.broadcast_to(m, (n,)).copy(), unit)
+
+
+PLUME_RISE = SurveyMethod(key="plume_rise", summary="observed rise height of the vent's plume in the site's "
+                                                   "stratification (integral plume model, inverted)",
+                          parse=_parse, estimate=_estimate)
