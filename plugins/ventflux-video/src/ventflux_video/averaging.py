@@ -142,3 +142,17 @@ def _finish(acc, last, stream, gap, pairs, background, mode="correlation"):
                      np.full(mx.shape, np.nan), interval=(gap * stream.step / stream.frame_rate).to("s"),
                      background=background, origin=stream.origin, skipped_frames=stream.skipped,
                      missing_frames=stream.missing, mode=mode)
+
+
+def mean_field_of_clip(stream, mode="correlation", passes=(64, 32, 32), overlap=0.5, gap=1, pairs=None,
+                       max_distance=3.0) -> MeanField:
+    """Time-averaged field of a stream by window correlation or particle tracking (``mode``)."""
+    from .tracking import mean_tracked_field
+
+    if mode == "correlation":
+        return mean_displacement_field(stream, passes, overlap, gap, pairs)
+    if mode == "tracking":
+        check_passes(passes, overlap)
+        return mean_tracked_field(stream, cell=passes[-1], overlap=overlap, gap=gap, pairs=pairs,
+                                  max_distance=max_distance)
+    raise InputError("mode", mode, "correlation or tracking")

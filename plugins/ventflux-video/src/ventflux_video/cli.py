@@ -108,14 +108,10 @@ def _stream(args, progress=None):
 
 
 def _mean_field(args, stream):
-    from .averaging import mean_displacement_field
-    from .tracking import mean_tracked_field
+    from .averaging import mean_field_of_clip
 
-    sizes = parse_windows(args.windows)
-    if args.mode == "tracking":
-        return mean_tracked_field(stream, cell=sizes[-1], overlap=args.overlap, gap=args.gap, pairs=args.pairs,
-                                  max_distance=args.search_radius)
-    return mean_displacement_field(stream, sizes, args.overlap, args.gap, args.pairs)
+    return mean_field_of_clip(stream, args.mode, parse_windows(args.windows), args.overlap, args.gap, args.pairs,
+                              args.search_radius)
 
 
 # ------------------------------------------------------------------ video-scale
@@ -254,7 +250,7 @@ def run_jet(args) -> int:
                            plume_heights=heights, exit_points=args.exit_points,
                            search_half_width=None if args.search_half_width is None else
                            parse_quantity(args.search_half_width, "length", "--search-half-width"),
-                           mode=args.mode, progress=show)
+                           mode=args.mode, search_radius=args.search_radius, progress=show)
     out = res.as_dict()
     if args.out:
         names = ("centreline.csv", "centreline.png", "velocity_field.csv", "velocity_field.png")

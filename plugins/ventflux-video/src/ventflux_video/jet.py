@@ -180,7 +180,8 @@ class JetAnalysis:
 def analyze_jet_clip(path, metres_per_pixel, orifice_xy, roi=None, ambient_temperature=None, ambient_salinity=None,
                      pressure=None, latitude=None, frame_rate=None, passes=(64, 32, 32), overlap=0.5, gap=1,
                      pairs=None, start=0, stop=None, plume_constant=DEFAULT_PLUME_CONSTANT, plume_heights=None,
-                     exit_points=4, search_half_width=None, mode="correlation", progress=False) -> JetAnalysis:
+                     exit_points=4, search_half_width=None, mode="correlation", search_radius=3.0,
+                     progress=False) -> JetAnalysis:
     """Exit velocity, buoyancy flux and heat power of a vent jet from one clip.
 
     Parameters
@@ -212,6 +213,8 @@ def analyze_jet_clip(path, metres_per_pixel, orifice_xy, roi=None, ambient_tempe
         Centreline search distance either side of the orifice.
     mode : {"correlation", "tracking"}
         Velocimetry mode.
+    search_radius : float
+        Tracking mode: search radius around each predicted position, pixels.
     progress : bool
         Progress bar.
 
@@ -219,19 +222,13 @@ def analyze_jet_clip(path, metres_per_pixel, orifice_xy, roi=None, ambient_tempe
     -------
     JetAnalysis
     """
-    from .averaging import mean_displacement_field
+    from .averaging import mean_field_of_clip
     from .frames import FrameStream
-    from .tracking import mean_tracked_field
 
     mpp = parse_quantity(metres_per_pixel, "length", "metres per pixel")
     check_scale(mpp)
     stream = FrameStream(path, frame_rate=frame_rate, region=roi, start=start, stop=stop, progress=progress)
-    if mode == "correlation":
-        field = mean_displacement_field(stream, passes, overlap, gap, pairs)
-    elif mode == "tracking":
-        field = mean_tracked_field(stream, cell=passes[-1], overlap=overlap, gap=gap, pairs=pairs)
-    else:
-        raise InputError("--mode", mode, "correlation or tracking")
+    field = mean_field_of_clip(stream, mode, passes, overlap, gap, pairs, search_radius)
     profile = centreline_profile(field, mpp, orifice_xy, search_half_width)
     w0, w0_sd = exit_velocity(profile, exit_points)
     fit = plume_buoyancy_flux(profile, plume_heights, plume_constant)

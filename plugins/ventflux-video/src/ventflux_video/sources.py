@@ -45,51 +45,57 @@ def _options(options):
     return out
 
 
-def exit_velocity_source(path, metres_per_pixel=None, orifice_xy=None, **options):
-    """Exit velocity of a jet and its sd from a clip (feeds the orifice estimator)."""
+def _clip(clip, options):
+    clip = clip if clip is not None else options.pop("path", None)
+    if clip is None:
+        raise InputError("clip", "(missing)", "the clip to measure, e.g. --source-option clip=jet.mp4")
+    if "region" in options and "roi" not in options:
+        options["roi"] = options.pop("region")
+    return clip
+
+
+def _field(path, opts, default_mode):
+    from .averaging import mean_field_of_clip
+    from .frames import FrameStream
+
+    stream = FrameStream(path, frame_rate=opts.get("frame_rate"), region=opts.get("roi"),
+                         start=opts.get("start", 0), stop=opts.get("stop"))
+    return mean_field_of_clip(stream, opts.get("mode", default_mode), opts.get("passes", (64, 32, 32)),
+                              opts.get("overlap", 0.5), opts.get("gap", 1), opts.get("pairs"))
+
+
+def exit_velocity_source(clip=None, metres_per_pixel=None, orifice_xy=None, **options):
+    """Exit velocity of a jet and its sd from a clip (feeds the orifice estimator).
+
+    It is the *centreline* speed at the orifice: with ``ventflux orifice`` give
+    ``--velocity-kind centerline`` so the profile factor turns it into an area mean.
+    """
     from .jet import centreline_profile, check_scale, exit_velocity
 
+    path = _clip(clip, options)
     opts = _options(dict(options, metres_per_pixel=metres_per_pixel, orifice_xy=orifice_xy))
     if opts["metres_per_pixel"] is None or opts["orifice_xy"] is None:
         raise InputError("metres_per_pixel/orifice_xy", "(missing)", "both options for a video exit velocity")
-    from .averaging import mean_displacement_field
-    from .frames import FrameStream
-    from .tracking import mean_tracked_field
-
-    mpp = check_scale(opts.pop("metres_per_pixel"))
-    stream = FrameStream(path, frame_rate=opts.get("frame_rate"), region=opts.get("roi"),
-                         start=opts.get("start", 0), stop=opts.get("stop"))
-    passes = opts.get("passes", (64, 32, 32))
-    if opts.get("mode", "correlation") == "tracking":
-        field = mean_tracked_field(stream, cell=passes[-1], overlap=opts.get("overlap", 0.5), pairs=opts.get("pairs"))
-    else:
-        field = mean_displacement_field(stream, passes, opts.get("overlap", 0.5), opts.get("gap", 1), opts.get("pairs"))
+    mpp = check_scale(opts["metres_per_pixel"])
+    field = _field(path, opts, "correlation")
     profile = centreline_profile(field, mpp, opts["orifice_xy"], opts.get("search_half_width"))
     return exit_velocity(profile, opts.get("exit_points", 4))
 
 
-def mean_upflow_source(path, metres_per_pixel=None, **options):
+def mean_upflow_source(clip=None, metres_per_pixel=None, **options):
     """Mean upward velocity over a region and its standard error (feeds the diffuse estimator).
 
     The mean is over the grid points of the time-averaged field; the standard
     error is the points' spread over the square root of their number.
     """
-    from .averaging import mean_displacement_field
-    from .frames import FrameStream
     from .jet import check_scale
-    from .tracking import mean_tracked_field
 
+    path = _clip(clip, options)
     opts = _options(dict(options, metres_per_pixel=metres_per_pixel))
     if opts["metres_per_pixel"] is None:
         raise InputError("metres_per_pixel", "(missing)", "a pixel size, e.g. '0.5 mm'")
     mpp = check_scale(opts["metres_per_pixel"])
-    stream = FrameStream(path, frame_rate=opts.get("frame_rate"), region=opts.get("roi"),
-                         start=opts.get("start", 0), stop=opts.get("stop"))
-    passes = opts.get("passes", (64, 32, 32))
-    if opts.get("mode", "tracking") == "tracking":
-        field = mean_tracked_field(stream, cell=passes[-1], overlap=opts.get("overlap", 0.5), pairs=opts.get("pairs"))
-    else:
-        field = mean_displacement_field(stream, passes, opts.get("overlap", 0.5), opts.get("gap", 1), opts.get("pairs"))
+    field = _field(path, opts, "tracking")
     w = field.velocity(mpp)[1].to("m/s").magnitude
     w = w[np.isfinite(w)]
     if w.size == 0:
