@@ -270,7 +270,7 @@ def write_results(result, out_dir) -> Path:
         (tmp / "tables").mkdir()
         (tmp / "figures").mkdir()
         for name, rows in tables.items():
-            pd.DataFrame(rows).to_csv(tmp / "tables" / f"{name}.csv", index=False)
+            _frame(rows).to_csv(tmp / "tables" / f"{name}.csv", index=False)
         images = []
         for stem, fig, caption in figs:
             buf = io.BytesIO()
@@ -291,11 +291,21 @@ def _clean(v):
     return clean(v)
 
 
+def _plain_cell(v):
+    if isinstance(v, (np.ndarray, np.generic)) and np.ndim(v) == 0:
+        return v.item()
+    return v
+
+
+def _frame(rows):
+    return pd.DataFrame([{k: _plain_cell(v) for k, v in r.items()} for r in rows])
+
+
 def _table_html(rows):
     if not rows:
         return "<p>(none)</p>"
-    df = pd.DataFrame(rows)
-    return df.to_html(index=False, float_format=lambda x: f"{x:.4g}", na_rep="–", border=0, classes="t")
+    table = _frame(rows).to_html(index=False, float_format=lambda x: f"{x:.4g}", na_rep="–", border=0, classes="t")
+    return f"<div class='wrap'>{table}</div>"
 
 
 def _html(result, tables, images, summary) -> str:
@@ -310,7 +320,7 @@ table.t{{border-collapse:collapse;font-size:.85rem;margin:.5rem 0}} table.t td,t
 border-bottom:1px solid #e3e3e3;text-align:right}} table.t th{{background:#f4f4f4}}
 .caution{{background:#fff4e0;border-left:4px solid #e0a030;padding:.6rem 1rem}}
 .key{{font-size:1.1rem}} figure{{margin:1rem 0}} figcaption{{font-size:.85rem;color:#555}}
-code{{background:#f4f4f4;padding:0 .2rem}}
+code{{background:#f4f4f4;padding:0 .2rem}} .wrap{{overflow-x:auto}}
 </style></head><body>
 <h1>Heat and water discharge: {esc(spec.site.name)}</h1>
 <p class="caution">{esc(CAUTION)}</p>"""]
