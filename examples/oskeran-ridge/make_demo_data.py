@@ -30,7 +30,7 @@ def write_csv(path, header, rows, comment=None):
 
 
 def ctd_cast():
-    """A downcast from 1500 m to 10 m above the seafloor at 2480 m, 2 dbar bins.
+    """A downcast from 1500 m to about 1 m above the seafloor at 2480 m, 2 dbar bins.
 
     Deep-water stratification of the invented site: potential temperature
     falling by about 0.9 K over the lowest kilometre, salinity rising slightly,
@@ -38,7 +38,7 @@ def ctd_cast():
     """
     import gsw
 
-    p = np.arange(1520.0, 2500.0 + 0.1, 2.0)  # sea pressure, dbar
+    p = np.arange(1520.0, 2512.0 + 0.1, 2.0)  # sea pressure, dbar (to about 1 m above the seafloor)
     z = -gsw.z_from_p(p, -17.3)
     theta = 2.02 + 0.95 * np.exp(-(z - 1500.0) / 520.0) - 0.95 * np.exp(-(2480 - 1500.0) / 520.0)
     sp = 34.686 - 0.045 * np.exp(-(z - 1500.0) / 600.0)
