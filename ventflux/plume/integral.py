@@ -90,6 +90,10 @@ START_ANOMALY = 2.0
 STEPS = 120
 #: Geometric growth of steps near the source: h = STEP_GROWTH × distance from the source.
 STEP_GROWTH = 0.1
+#: Near the top of a bent-over plume a step is at most this fraction of the distance left to w = 0 ...
+TOP_FRACTION = 0.3
+#: ... and at least 1/TOP_REFINEMENT of the regular step.
+TOP_REFINEMENT = 100.0
 #: Currents below this [m/s] are raised to it (the bent-over equations need U > 0 at the top).
 MIN_CURRENT = 1e-3
 
@@ -247,6 +251,7 @@ class VerticalModel(_Model):
     """No current: state (Q, P = M², T, S) against height z."""
 
     stop = 1  # P
+    refine_top = False  # P crosses zero with a finite slope
     heat = 2  # index of the CT anomaly flux
     n_state = 4
 
@@ -278,6 +283,7 @@ class CrossflowModel(_Model):
     """Current U(z): state (Q, Q u, Q w, T, S, x, z) against path length s [5]_."""
 
     stop = 2  # Q w
+    refine_top = True  # with a weak current the plume widens fast as it stops
     heat = 3
     n_state = 7
 
@@ -380,6 +386,11 @@ def integrate(model, src: Sources, span, track=False, max_steps=None) -> Ensembl
             rec.append((s.copy(), y.copy(), gp.copy()))
         ya, sa, da, ga = y[:, active], s[active], d[:, active], gp[active]
         h = np.minimum(hmax[active], STEP_GROWTH * np.maximum(sa + src.s_ref[active], 1e-6 * span[active]))
+        if model.refine_top:
+            # approach the top in steps of a fraction of the distance the stop variable needs to reach zero
+            with np.errstate(divide="ignore", invalid="ignore"):
+                reach = np.where(da[model.stop] < 0, -ya[model.stop] / da[model.stop], np.inf)
+            h = np.minimum(h, np.maximum(TOP_FRACTION * reach, hmax[active] / TOP_REFINEMENT))
         k1 = da
         k2, _ = model.rhs(sa + 0.5 * h, ya + 0.5 * h * k1, active)
         k3, _ = model.rhs(sa + 0.5 * h, ya + 0.5 * h * k2, active)
