@@ -182,3 +182,16 @@ def test_predrawn_arrays_give_the_same_answers_as_drawing_inside():
     # the drawn N's median (not its mean) builds the column, so agreement is to first order in N's spread
     assert np.allclose(a[keep], b[keep], rtol=2e-3)
     assert np.isnan(b[3]) and outside.failed == 1 and outside.summary["heat_power"].draws == 199
+
+
+def test_weak_and_strong_currents_all_converge():
+    rng = np.random.default_rng(5)
+    z = Q_(rng.normal(150, 15, 300), "m")
+    U = Q_(rng.uniform(0.0, 0.1, 300), "m/s")
+    res = heat_power_from_rise_height(z, N, current=U, predrawn=True, **SITE)
+    assert res.failed == 0
+    # for the same rise, a stronger current needs more heat (bent-over plumes rise less; Briggs 1975)
+    H = res.heat_power.magnitude
+    order = np.argsort(U.magnitude)
+    ratio = H / z.magnitude ** 3
+    assert np.corrcoef(U.magnitude[order], ratio[order])[0, 1] > 0.5

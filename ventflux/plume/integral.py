@@ -48,7 +48,9 @@ with φ the angle of the axis above the horizontal, β = ``CROSSFLOW_ENTRAINMENT
 **Integration.** A fixed-step fourth-order Runge–Kutta scheme over a whole
 ensemble at once (no per-member loop), steps growing geometrically from the
 source (h = 0.1 s) up to 1/``STEPS`` of the expected path, with the crossing
-of the stop variable placed by cubic Hermite interpolation.
+of the stop variable placed by cubic Hermite interpolation. A bent-over plume
+widens fast as it stops (most of all in a weak current), so there the steps
+also shrink to ``TOP_FRACTION`` of the distance left to w = 0.
 
 References
 ----------
