@@ -187,3 +187,25 @@ def test_orifice_command_takes_the_video_exit_velocity(clip, capsys):
     assert main(argv) == 0
     out = capsys.readouterr().out
     assert "heat_power" in out
+
+
+@pytest.mark.parametrize("suffix, codec", [(".avi", "mpeg4"), (".mov", "libx264")])
+def test_other_containers(tmp_path, suffix, codec):
+    import imageio_ffmpeg
+
+    path = tmp_path / f"c{suffix}"
+    w = imageio_ffmpeg.write_frames(str(path), (64, 48), pix_fmt_in="gray", fps=12, codec=codec, quality=8,
+                                    ffmpeg_log_level="error")
+    w.send(None)
+    for k in range(7):
+        w.send(np.full((48, 64), 20 * k, np.uint8))
+    w.close()
+    s = FrameStream(path)
+    means = [float(f.mean()) for _, f in s]
+    assert s.frame_rate.to("1/s").magnitude == pytest.approx(12) and len(means) == 7
+    assert np.allclose(means, 20 * np.arange(7), atol=3)  # lossy codecs: gray levels within a few counts
+
+
+def test_progress_bar_goes_to_stderr(clip, capsys):
+    list(FrameStream(clip.path, stop=5, progress=True))
+    assert "frame" in capsys.readouterr().err

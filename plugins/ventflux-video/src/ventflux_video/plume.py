@@ -13,6 +13,12 @@ thermal plume's heat power then follows from seawater's expansion:
 water [5]. The conversion treats the plume as purely thermal (salinity
 anomaly ignored) and the ambient as unstratified.
 
+Why ``c_p F / (g alpha)`` is an enthalpy flux here and not a shortcut: far
+above the source the plume is entrained seawater a few hundredths of a kelvin
+warmer than its surroundings, and TEOS-10 defines conservative temperature so
+that potential enthalpy is exactly ``cp0`` times it [5]; the buoyancy anomaly
+is ``g alpha_Theta dTheta`` to first order in that small anomaly.
+
 The constant ``k``: ``DEFAULT_PLUME_CONSTANT = 4.7`` is the value of [2] for
 Gaussian profiles (from memory); [3] gives 3.85 ± 0.15 (from memory). As
 ``F ∝ k^-3``, the choice moves ``F`` by a factor (4.7/3.85)^3 = 1.8; it is a
