@@ -32,6 +32,7 @@ References
 
 from __future__ import annotations
 
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -197,17 +198,14 @@ def median_test(dx, dy, threshold=MEDIAN_THRESHOLD, epsilon=MEDIAN_EPSILON):
     NaN vectors are outliers; NaN neighbours are ignored.
     """
     bad = ~(np.isfinite(dx) & np.isfinite(dy))
-    for comp in (dx, dy):
-        nb = _neighbours(np.where(bad, np.nan, comp))
-        with np.errstate(all="ignore"):
-            import warnings
-
-            with warnings.catch_warnings():
-                warnings.simplefilter("ignore", RuntimeWarning)
-                um = np.nanmedian(nb, axis=0)
-                rm = np.nanmedian(np.abs(nb - um), axis=0)
+    with warnings.catch_warnings(), np.errstate(invalid="ignore", divide="ignore"):
+        warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN neighbourhoods give NaN, handled below
+        for comp in (dx, dy):
+            nb = _neighbours(np.where(bad, np.nan, comp))
+            um = np.nanmedian(nb, axis=0)
+            rm = np.nanmedian(np.abs(nb - um), axis=0)
             r = np.abs(comp - um) / (rm + epsilon)
-        bad |= np.isfinite(r) & (r > threshold)
+            bad |= np.isfinite(r) & (r > threshold)
     return bad
 
 
@@ -217,8 +215,6 @@ def replace_outliers(dx, dy, bad, iterations=5):
     Whatever remains (a region with no valid neighbour) takes the field's median.
     """
     dx, dy = np.where(bad, np.nan, dx), np.where(bad, np.nan, dy)
-    import warnings
-
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", RuntimeWarning)
         for _ in range(iterations):

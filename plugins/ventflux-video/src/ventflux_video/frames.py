@@ -214,10 +214,8 @@ class FrameStream:
 
     def _raw_images(self):
         for i, f in enumerate(self._files):
-            if i < self.start or (i - self.start) % self.step:
-                yield i, np.empty(0)  # not decoded; filtered out by the caller
-                continue
-            yield i, _read_image(f)
+            wanted = i >= self.start and (i - self.start) % self.step == 0
+            yield i, (_read_image(f) if wanted else None)  # unwanted ones are filtered out by the caller
 
     def _raw_video(self):
         import imageio_ffmpeg

@@ -158,7 +158,8 @@ class ParticleTracker:
     def _predict(self, a, b, pts):
         if self.predictor == "none" or len(pts) == 0:
             return np.zeros((len(pts), 2))
-        f = displacement_field(a, b, passes=self.passes)
+        fits = tuple(p for p in self.passes if p <= min(a.shape))
+        f = displacement_field(a, b, passes=fits or (2 * (min(a.shape) // 2),))
         cy, cx = f.y, f.x  # origin (0, 0): region coordinates
         return np.column_stack([_resample(cy, cx, f.dx, pts[:, 1], pts[:, 0]),
                                 _resample(cy, cx, f.dy, pts[:, 1], pts[:, 0])])
