@@ -176,15 +176,15 @@ COMMAND = Command(name="summarize", help="water throughput, reservoir lifetime a
                   configure=configure, run=run)
 
 METHODS = [
-    Method(name="power_to_water_throughput", summary="mass and volume flux and annual throughput from heat power "
+    Method(name="water-throughput", summary="mass and volume flux and annual throughput from heat power "
            "(IAPWS-95 enthalpy difference, TEOS-10 ambient density)", estimates="water throughput",
            inputs=("power", "temperature", "pressure", "ambient temperature"), command="summarize water"),
-    Method(name="reservoir_heat_mining", summary="heat-mining time, exponential-decline lifetime and L^2/kappa of a "
+    Method(name="reservoir-heat-mining", summary="heat-mining time, exponential-decline lifetime and L^2/kappa of a "
            "hot-rock reservoir", estimates="reservoir lifetime",
            inputs=("power", "volume or area and thickness", "temperature drop"), command="summarize reservoir"),
-    Method(name="reservoir_sizing", summary="hot-rock volume that sustains a power for a time",
+    Method(name="reservoir-sizing", summary="hot-rock volume that sustains a power for a time",
            estimates="reservoir size", inputs=("power", "duration", "temperature drop"), command="summarize size"),
-    Method(name="flank_heat_deficit", summary="conductive heat-flow deficit against half-space cooling or GDH1, "
+    Method(name="flank-heat-deficit", summary="conductive heat-flow deficit against half-space cooling or GDH1, "
            "per area, per ridge length and as a circulated-water column", estimates="advective heat loss",
            inputs=("age", "heat flow", "half spreading rate", "fluid temperature rise"), command="summarize flank"),
 ]
