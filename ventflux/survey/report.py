@@ -273,10 +273,13 @@ def write_results(result, out_dir) -> Path:
             _frame(rows).to_csv(tmp / "tables" / f"{name}.csv", index=False)
         images = []
         for stem, fig, caption in figs:
-            buf = io.BytesIO()
-            fig.savefig(buf, format="png", dpi=110)
-            plt.close(fig)
-            data = buf.getvalue()
+            if isinstance(fig, bytes):  # a method may hand over a finished PNG
+                data = fig
+            else:
+                buf = io.BytesIO()
+                fig.savefig(buf, format="png", dpi=110)
+                plt.close(fig)
+                data = buf.getvalue()
             (tmp / "figures" / f"{stem}.png").write_bytes(data)
             images.append((stem, caption, data))
         (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2, ensure_ascii=False) + "\n",

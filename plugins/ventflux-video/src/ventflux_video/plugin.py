@@ -50,3 +50,10 @@ def ventflux_velocity_sources():
                                "(options: clip, metres_per_pixel, roi, frame_rate, mode, pairs)",
                        feeds=("diffuse",), estimate=mean_upflow_source),
     ]
+
+
+@hookimpl
+def ventflux_survey_methods():
+    from .survey import VIDEO
+
+    return [VIDEO]
