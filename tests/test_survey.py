@@ -150,3 +150,21 @@ def test_demo_survey_validates():
     demo = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge" / "survey.toml"
     spec = load_survey(demo)
     assert spec.vents and spec.sections
+
+
+def test_demo_survey_runs_end_to_end(tmp_path):
+    # A smoke test of the whole pipeline on the fictional demo (no value is checked:
+    # invented data are no check). Every method and section must contribute.
+    pytest.importorskip("ventflux_video")
+    pytest.importorskip("ventflux_thermal")
+    demo = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge" / "survey.toml"
+    spec = load_survey(demo)
+    spec.draws = 1000
+    result = run_survey(spec)
+    html = report.write_results(result, tmp_path / "demo")
+    gild = next(v for v in result.vents if v.name == "Gildhorn")
+    assert set(gild.methods) == {"orifice", "plume_rise", "video"}
+    assert gild.comparison is not None and len(gild.comparison.pairs) == 3
+    assert {"diffuse", "sediment_probes"} <= set(result.sections)
+    assert result.conductive is not None and result.split is not None and result.reservoirs
+    assert html.exists() and (tmp_path / "demo" / "tables" / "method_pairs.csv").exists()
