@@ -83,9 +83,27 @@ def _estimate(spec, ctx):
              1e3 * r.heat_flow_uncertainty, "mean_conductivity [W/(m K)]": float(np.mean(r.conductivity)),
              "sensors": int(r.depth.size)} for r in res]
     return SectionEstimate(category="conductive", names=["sedimented area"], heat_power=Q_(H.reshape(1, n), "W"),
-                           rows=rows, tables={"sediment_probes": rows},
+                           rows=rows, tables={"sediment_probes": rows}, figures=_figures(res),
                            notes=["Conductive heat loss: the stations' mean heat flow (bootstrapped) times the "
                                   "sedimented area; reported beside the focused and diffuse discharge."])
+
+
+def _figures(results):
+    """Temperature against thermal resistance for each station, as PNG bytes for the report."""
+    import tempfile
+
+    from .figures import resistance_figure
+
+    out = []
+    with tempfile.TemporaryDirectory() as tmp:
+        for r in results:
+            stem = Path(r.record).stem
+            path = Path(tmp) / f"{stem}.png"
+            resistance_figure(r, path)
+            out.append((f"{stem}_resistance", path.read_bytes(),
+                        f"{stem}: equilibrium temperature against cumulative thermal resistance; the slope is the "
+                        "heat flow."))
+    return out
 
 
 SEDIMENT_PROBES = SurveySection(key="sediment_probes",
