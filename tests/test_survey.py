@@ -54,6 +54,11 @@ colour = "red"
   velocity = "1.0 s"
   diameter = "-3 cm"
 
+  [[vent.orifice]]
+  temperature = "1.5 degC"
+  velocity = "1.0 m/s"
+  diameter = "3 cm"
+
 [diffuse]
 patches = "missing.csv"
 """
@@ -62,7 +67,7 @@ patches = "missing.csv"
     lines = err.value.lines()
     joined = "\n".join(lines)
     for needle in ("site.latitude", "vent[0].colour", "vent[0].orifice[0].velocity", "vent[0].orifice[0].diameter",
-                   "diffuse.patches"):
+                   "vent[0].orifice[1].temperature", "diffuse.patches"):
         assert needle in joined, needle
     assert all(str(tmp_path / "survey.toml") in line for line in lines)
 
@@ -72,6 +77,15 @@ def test_cli_reports_all_problems_with_exit_2(tmp_path, capsys):
     assert main(["survey", str(_write(tmp_path, text)), "--check"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 2 and "Traceback" not in "".join(err)
+
+
+def test_boiling_exit_temperature_is_refused_before_computing(tmp_path):
+    # At 12 MPa (about 1190 m) water boils at 324.68 degC (IAPWS-IF97 steam tables; from memory).
+    text = SITE.replace('depth = "2500 m"', 'pressure = "12 MPa"') + VENT.format(name="A", factor="1.0").replace(
+        '"350 degC"', '"330 degC"')
+    with pytest.raises((InputError, InputErrors)) as err:
+        load_survey(_write(tmp_path, text))
+    assert "vent[0].orifice[0].temperature" in str(err.value) and "324.6" in str(err.value)
 
 
 def test_csv_problems_name_file_and_line(tmp_path):

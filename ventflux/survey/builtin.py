@@ -35,12 +35,37 @@ def _parse_orifice(f, ctx):
     spec["size_factor"] = f.quantity("size_factor", "dimensionless", positive=True)
     spec["velocity_factor"] = f.quantity("velocity_factor", "dimensionless", positive=True)
     spec["velocity_kind"] = f.string("velocity_kind", default="area-mean", choices=VELOCITY_KINDS)
+    _check_exit_temperature(f, spec["temperature"], ctx.site)
     spec["profile_factor"] = f.quantity("profile_factor", "dimensionless",
                                         default=None if "profile_factor" in f.table else None)
     if spec["velocity_kind"] == "centerline" and spec["profile_factor"] is None:
         f.defaults[f.key("profile_factor")] = f"{CENTERLINE_PROFILE_FACTOR:.4f} (1/7-power-law turbulent profile)"
     f.check_unknown()
     return spec
+
+
+def _check_exit_temperature(f, temperature, site):
+    """Refuse, before any computation, an exit temperature not above ambient or boiling at the site."""
+    if temperature is None or site is None or site.ambient_temperature is None:
+        return
+    from ..errors import InputError
+    from ..orifice import in_situ_pressure
+    from ..properties import fluid_model
+
+    try:
+        p = in_situ_pressure(site.pressure, site.depth, site.latitude).to("Pa").magnitude
+    except InputError:
+        return  # the site's own error is reported already
+    T = nominal_of(temperature).to("K").magnitude
+    Ta = nominal_of(site.ambient_temperature).to("K").magnitude
+    raw = f.table.get("temperature")
+    if not T > Ta:
+        f.error("temperature", raw, "an exit temperature above the site's ambient temperature")
+        return
+    try:
+        fluid_model().check(T, p, "temperature")
+    except InputError as e:
+        f.error("temperature", raw, e.allowed)
 
 
 def _estimate_orifices(specs, vent, ctx):
