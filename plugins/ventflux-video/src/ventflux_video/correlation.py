@@ -32,11 +32,15 @@ References
 
 from __future__ import annotations
 
+import os
 import warnings
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 import scipy.fft
+from numpy.lib.stride_tricks import sliding_window_view
 from scipy.interpolate import RegularGridInterpolator
 
 from ventflux.errors import InputError
@@ -45,7 +49,9 @@ from ventflux.units import Q_, magnitude
 #: Normalized median test: threshold and noise level (px) recommended in [3].
 MEDIAN_THRESHOLD = 2.0
 MEDIAN_EPSILON = 0.1
-_WORKERS = -1  # all cores for the batched FFT
+_WORKERS = -1  # threads for the window correlation: -1 all usable cores, 1 none
+_CHUNK = 256 * 32 * 32  # window pixels per chunk (1 MB of float32), so each step works in cache
+_POOL = None  # (threads, executor), made on first use
 
 
 @dataclass
@@ -95,14 +101,51 @@ def window_grid(length, window, step):
 
 def _cut(image, top, left, window):
     """Windows ``(n, w, w)`` with corners ``(top, left)``; pixels off the frame repeat the edge."""
-    h, w = image.shape
+    view, top, left = _window_view(image, top, left, window)
+    return view[top, left]
+
+
+def _window_view(image, top, left, window):
+    """Strided view ``(rows, cols, w, w)`` of every window of ``image`` and the corners moved into it.
+
+    ``image`` is a frame or a ``(padded frame, margin)`` pair from ``_edge_padded``;
+    the frame is (further) edge-padded only if some window reaches off it.
+    Indexing the view with the corners gathers the windows in one contiguous
+    copy, without an index array per pixel.
+    """
+    image, margin = image if isinstance(image, tuple) else (image, 0)
+    h, w = (n - 2 * margin for n in image.shape)
     pad = int(max(0, -top.min(), -left.min(), top.max() + window - h, left.max() + window - w))
-    if pad:
-        image = np.pad(image, pad, mode="edge")
-    cols = image.shape[1]
-    template = (np.arange(window)[:, None] * cols + np.arange(window)).ravel()
-    start = (top + pad) * cols + (left + pad)
-    return np.take(image.ravel(), start[:, None] + template).reshape(-1, window, window)
+    if pad > margin:
+        image, margin = np.pad(image, pad - margin, mode="edge"), pad
+    return sliding_window_view(image, (window, window)), top + margin, left + margin
+
+
+def _edge_padded(frame, margin):
+    """``(frame edge-padded by margin, margin)``: padded once for all passes' offset windows."""
+    return np.pad(frame, margin, mode="edge"), margin
+
+
+def _window_energy(win):
+    """Sum of squared deviations from the mean of each window ``(n, w, w)`` (float64)."""
+    m = win.shape[1] * win.shape[2]
+    flat = win.reshape(len(win), -1)
+    return np.einsum("nk,nk->n", flat, flat).astype(np.float64) - flat.sum(axis=1).astype(np.float64) ** 2 / m
+
+
+def _cross_correlation(a, b, shift=None):
+    """Unnormalized circular cross-correlation of mean-free windows; see ``correlate_windows``."""
+    fa = scipy.fft.rfft2(a, workers=_WORKERS)
+    fb = scipy.fft.rfft2(b, workers=_WORKERS)
+    cross = np.conj(fa, out=fa)
+    cross *= fb
+    cross[:, 0, 0] = 0  # mean removal is the zeroed DC term
+    if shift is not None:
+        h, w = a.shape[1:]
+        # The ramp is separable: exp(2 pi i ky sy) exp(2 pi i kx sx), applied in place.
+        cross *= _unit_phase(shift[:, 0, None] * scipy.fft.fftfreq(h))[:, :, None]
+        cross *= _unit_phase(shift[:, 1, None] * scipy.fft.rfftfreq(w))[:, None, :]
+    return scipy.fft.irfft2(cross, s=a.shape[1:], workers=_WORKERS, overwrite_x=True)
 
 
 def correlate_windows(a, b, shift=None):
@@ -116,24 +159,10 @@ def correlate_windows(a, b, shift=None):
     at ``d - shift``: with ``shift`` the predicted fraction of a pixel, the
     residual the peak estimator sees is near zero, where it is least biased [1].
     """
-    m = a.shape[1] * a.shape[2]
-    # Mean removal is the zeroed DC term; the norms follow without a mean-free copy.
-    a2, b2 = a.reshape(len(a), -1), b.reshape(len(b), -1)
-    energy_a = np.einsum("nk,nk->n", a2, a2).astype(np.float64) - a2.sum(axis=1).astype(np.float64) ** 2 / m
-    energy_b = np.einsum("nk,nk->n", b2, b2).astype(np.float64) - b2.sum(axis=1).astype(np.float64) ** 2 / m
-    norm = np.sqrt(np.clip(energy_a, 0, None) * np.clip(energy_b, 0, None))
-    fa = scipy.fft.rfft2(a, workers=_WORKERS)
-    fb = scipy.fft.rfft2(b, workers=_WORKERS)
-    cross = np.conj(fa, out=fa)
-    cross *= fb
-    cross[:, 0, 0] = 0
-    if shift is not None:
-        h, w = a.shape[1:]
-        # The ramp is separable: exp(2 pi i ky sy) exp(2 pi i kx sx).
-        ramp_y = _unit_phase(shift[:, 0, None] * scipy.fft.fftfreq(h))
-        ramp_x = _unit_phase(shift[:, 1, None] * scipy.fft.rfftfreq(w))
-        cross *= ramp_y[:, :, None] * ramp_x[:, None, :]
-    corr = scipy.fft.irfft2(cross, s=a.shape[1:], workers=_WORKERS)
+    a = np.asarray(a, np.float32)
+    b = np.asarray(b, np.float32)
+    norm = np.sqrt(np.clip(_window_energy(a), 0, None) * np.clip(_window_energy(b), 0, None))
+    corr = _cross_correlation(a, b, shift)
     corr /= np.where(norm > 0, norm, np.inf).astype(corr.dtype)[:, None, None]
     return corr
 
@@ -155,6 +184,17 @@ def correlation_peaks(corr):
     dy, dx, snr : numpy.ndarray
         Displacements relative to zero shift (px) and primary/secondary peak ratio.
     """
+    return _peak_search(np.array(corr, copy=True))
+
+
+def _peak_search(corr, norm=None):
+    """``correlation_peaks`` that overwrites ``corr`` (the secondary-peak search masks it in place).
+
+    ``norm`` (n,), if given, marks planes of a flat window (``norm == 0``) as no
+    signal, as a normalized plane of zeros would be: zero displacement, ratio 0.
+    Only values near each peak are gathered, so the cost beyond the argmax is a
+    few values per plane.
+    """
     n, h, w = corr.shape
     flat = corr.reshape(n, -1)
     k = flat.argmax(axis=1)
@@ -162,15 +202,88 @@ def correlation_peaks(corr):
     i = np.arange(n)
     peak = flat[i, k]
     # Neighbours wrap around: the correlation is circular.
-    oy = gaussian_peak_offset(corr[i, (py - 1) % h, px], peak, corr[i, (py + 1) % h, px])
-    ox = gaussian_peak_offset(corr[i, py, (px - 1) % w], peak, corr[i, py, (px + 1) % w])
-    ry = np.abs((np.arange(h)[None, :] - py[:, None] + h // 2) % h - h // 2) <= 2  # circular distance
-    rx = np.abs((np.arange(w)[None, :] - px[:, None] + w // 2) % w - w // 2) <= 2
-    second = np.where(ry[:, :, None] & rx[:, None, :], -np.inf, corr).reshape(n, -1).max(axis=1)
+    up, down = flat[i, (py - 1) % h * w + px], flat[i, (py + 1) % h * w + px]
+    left, right = flat[i, py * w + (px - 1) % w], flat[i, py * w + (px + 1) % w]
+    oy = gaussian_peak_offset(up, peak, down)
+    ox = gaussian_peak_offset(left, peak, right)
+    # Secondary peak: the maximum outside the 5 x 5 (circular) neighbourhood of the primary.
+    r = np.arange(-2, 3)
+    near = ((py[:, None] + r) % h * w)[:, :, None] + ((px[:, None] + r) % w)[:, None, :]
+    flat[i[:, None], near.reshape(n, -1)] = -np.inf
+    second = flat.max(axis=1)
+    dy = (py + h // 2) % h - h // 2 + oy
+    dx = (px + w // 2) % w - w // 2 + ox
+    if norm is not None:
+        flat_window = ~(norm > 0)
+        peak = np.where(flat_window, 0.0, peak)
+        dy, dx = np.where(flat_window, 0.0, dy), np.where(flat_window, 0.0, dx)
     with np.errstate(divide="ignore", invalid="ignore"):
         snr = np.where(second > 0, peak / second, np.inf)
     snr = np.where(peak > 0, snr, 0.0)
-    return (py + h // 2) % h - h // 2 + oy, (px + w // 2) % w - w // 2 + ox, snr
+    return dy, dx, snr
+
+
+def _thread_count():
+    """Threads for the window correlation: all usable cores for ``_WORKERS == -1``."""
+    if _WORKERS == -1:
+        return len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
+    return max(1, int(_WORKERS))
+
+
+def _map_chunks(fn, n, size):
+    """``fn(slice)`` over consecutive chunks of ``size`` windows, results in order.
+
+    Chunks keep every step's arrays in cache; numpy and the FFT release the GIL,
+    so with several threads the chunks run in parallel.
+    """
+    global _POOL
+    chunks = [slice(s, min(s + size, n)) for s in range(0, n, size)]
+    threads = min(_thread_count(), len(chunks))
+    if threads <= 1:
+        return [fn(c) for c in chunks]
+    if _POOL is None or _POOL[0] != threads:
+        _POOL = (threads, ThreadPoolExecutor(max_workers=threads, thread_name_prefix="ventflux-video"))
+    return list(_POOL[1].map(fn, chunks))
+
+
+def _correlate_pass(frame_a, frame_b, top_a, left_a, top_b, left_b, window, shift=None):
+    """Peak displacement and ratio for windows of ``frame_a`` and ``frame_b`` at the given corners.
+
+    Equivalent to ``correlation_peaks(correlate_windows(_cut(a, ...), _cut(b, ...), shift))``,
+    computed chunk by chunk: windows are gathered from a strided view, both
+    transformed, multiplied, shifted, transformed back and searched while they
+    are in cache. Normalization is applied to the few peak values only (the peak
+    ratio and the Gaussian fit do not depend on it).
+
+    Returns
+    -------
+    dy, dx, snr : numpy.ndarray
+        As ``correlation_peaks``; ``shift`` is not added back.
+    """
+    view_a, top_a, left_a = _window_view(frame_a, top_a, left_a, window)
+    view_b, top_b, left_b = _window_view(frame_b, top_b, left_b, window)
+
+    def chunk(c):
+        wa, wb = view_a[top_a[c], left_a[c]], view_b[top_b[c], left_b[c]]
+        norm = np.sqrt(np.clip(_window_energy(wa), 0, None) * np.clip(_window_energy(wb), 0, None))
+        fa = scipy.fft.rfft2(wa, workers=1)
+        fb = scipy.fft.rfft2(wb, workers=1)
+        cross = np.conj(fa, out=fa)
+        cross *= fb
+        cross[:, 0, 0] = 0
+        if shift is not None:
+            cross *= _unit_phase(shift[c, 0, None] * _freqs(window, False))[:, :, None]
+            cross *= _unit_phase(shift[c, 1, None] * _freqs(window, True))[:, None, :]
+        corr = scipy.fft.irfft2(cross, s=(window, window), workers=1, overwrite_x=True)
+        return _peak_search(corr, norm)
+
+    parts = _map_chunks(chunk, len(top_a), max(1, _CHUNK // (window * window)))
+    return tuple(np.concatenate([p[j] for p in parts]) for j in range(3))
+
+
+@lru_cache(maxsize=16)
+def _freqs(n, half):
+    return scipy.fft.rfftfreq(n) if half else scipy.fft.fftfreq(n)
 
 
 def _neighbours(field, edge="extrapolate"):
@@ -202,11 +315,24 @@ def median_test(dx, dy, threshold=MEDIAN_THRESHOLD, epsilon=MEDIAN_EPSILON):
         warnings.simplefilter("ignore", RuntimeWarning)  # all-NaN neighbourhoods give NaN, handled below
         for comp in (dx, dy):
             nb = _neighbours(np.where(bad, np.nan, comp))
-            um = np.nanmedian(nb, axis=0)
-            rm = np.nanmedian(np.abs(nb - um), axis=0)
+            um = _median0(nb)
+            rm = _median0(np.abs(nb - um))
             r = np.abs(comp - um) / (rm + epsilon)
             bad |= np.isfinite(r) & (r > threshold)
     return bad
+
+
+def _median0(stack):
+    """Median over axis 0 ignoring NaN, as ``numpy.nanmedian`` (NaN where all are NaN).
+
+    A sort along the short axis (NaN sorts last) and the middle one or two of the
+    finite values: several times faster than ``nanmedian`` for 8 neighbours.
+    """
+    s = np.sort(stack, axis=0)
+    k = np.count_nonzero(~np.isnan(stack), axis=0)
+    lo = np.take_along_axis(s, np.maximum((k - 1) // 2, 0)[None], axis=0)[0]
+    hi = np.take_along_axis(s, (k // 2)[None].clip(max=len(s) - 1), axis=0)[0]
+    return np.where(k > 0, (lo + hi) / 2, np.nan)
 
 
 def replace_outliers(dx, dy, bad, iterations=5):
@@ -221,7 +347,7 @@ def replace_outliers(dx, dy, bad, iterations=5):
             holes = np.isnan(dx)
             if not holes.any():
                 break
-            mx, my = np.nanmedian(_neighbours(dx, "none"), axis=0), np.nanmedian(_neighbours(dy, "none"), axis=0)
+            mx, my = _median0(_neighbours(dx, "none")), _median0(_neighbours(dy, "none"))
             dx = np.where(holes, mx, dx)
             dy = np.where(holes, my, dy)
         fill_x = np.nanmedian(dx) if np.isfinite(dx).any() else 0.0
@@ -252,7 +378,7 @@ def check_passes(passes, overlap):
 
 def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origin=(0, 0),
                        threshold=MEDIAN_THRESHOLD, epsilon=MEDIAN_EPSILON, min_snr=1.0,
-                       subpixel_offset=True, coarse_overlap=0.0) -> VectorField:
+                       subpixel_offset=True, coarse_overlap=0.0, coarse_binning=1) -> VectorField:
     """Displacement field between two frames by multi-pass FFT cross-correlation.
 
     Parameters
@@ -268,6 +394,12 @@ def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origi
     coarse_overlap : float
         Window overlap of the passes before the last, which only predict the
         offset (the median test and interpolation fill in between).
+    coarse_binning : int
+        Correlate the passes before the last on frames averaged over
+        ``coarse_binning x coarse_binning`` pixel blocks: a 64 px window then
+        holds 32 x 32 binned pixels, a quarter of the work, and still spans
+        64 px of the frame. They only predict the last pass's offset, which
+        corrects the predictor's sub-pixel error (1: no binning).
     origin : (int, int)
         Column and row of the frames' top-left pixel in the full frame (the
         region of interest's corner), added to the window centres.
@@ -292,33 +424,64 @@ def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origi
     sizes = check_passes(passes, overlap)
     pred = None
     check_passes(sizes, coarse_overlap)
+    coarse_binning = _check_binning(coarse_binning, sizes[:-1])
+    frames = {}  # binning factor -> both frames, binned and padded once for all passes
     for n_pass, size in enumerate(sizes):
         last = n_pass == len(sizes) - 1
+        f = 1 if last else coarse_binning
         step = max(1, int(round(size * (1 - (overlap if last else coarse_overlap)))))
-        top1 = window_grid(a.shape[0], size, step)
-        left1 = window_grid(a.shape[1], size, step)
-        cy = top1 + (size - 1) / 2
-        cx = left1 + (size - 1) / 2
+        if f not in frames:
+            margin = max(sizes) // (2 * f)
+            frames[f] = tuple(_edge_padded(_binned(im, f), margin) for im in (a, b))
+        fa, fb = frames[f]
+        win, step_f = size // f, max(1, step // f)
+        top1 = window_grid(a.shape[0] // f, win, step_f)
+        left1 = window_grid(a.shape[1] // f, win, step_f)
+        cy = top1 * f + (size - 1) / 2  # full-frame centres of the windows
+        cx = left1 * f + (size - 1) / 2
         top, left = (g.ravel() for g in np.meshgrid(top1, left1, indexing="ij"))
         if pred is None:
             oy = ox = np.zeros(top.size, int)
             frac = None
         else:
             yy, xx = np.meshgrid(cy, cx, indexing="ij")
-            py = _resample(pred[0], pred[1], pred[2], yy, xx).ravel()
-            px = _resample(pred[0], pred[1], pred[3], yy, xx).ravel()
+            py = _resample(pred[0], pred[1], pred[2], yy, xx).ravel() / f
+            px = _resample(pred[0], pred[1], pred[3], yy, xx).ravel() / f
             oy, ox = np.rint(py).astype(int), np.rint(px).astype(int)
             frac = np.stack([py - oy, px - ox], axis=1) if subpixel_offset else None
         ay, ax = oy // 2, ox // 2  # symmetric offset: A moves back by half, B forward by the rest
-        corr = correlate_windows(_cut(a, top - ay, left - ax, size), _cut(b, top + oy - ay, left + ox - ax, size), frac)
-        ry, rx, snr = correlation_peaks(corr)
+        ry, rx, snr = _correlate_pass(fa, fb, top - ay, left - ax, top + oy - ay, left + ox - ax, win, frac)
         if frac is not None:
             ry, rx = ry + frac[:, 0], rx + frac[:, 1]
-        dy = (ry + oy).reshape(top1.size, left1.size)
-        dx = (rx + ox).reshape(top1.size, left1.size)
+        dy = (f * (ry + oy)).reshape(top1.size, left1.size)
+        dx = (f * (rx + ox)).reshape(top1.size, left1.size)
         snr = snr.reshape(dy.shape)
         bad = median_test(dx, dy, threshold, epsilon) | (snr < min_snr)
         dx, dy = replace_outliers(dx, dy, bad)
         pred = (cy, cx, dy, dx)
     return VectorField(x=cx + origin[0], y=cy + origin[1], dx=dx, dy=dy, snr=snr, replaced=bad,
                        window=sizes[-1], step=step)
+
+
+def _check_binning(factor, coarse_sizes):
+    """Validate ``coarse_binning`` against the window sizes of the passes before the last."""
+    if not (isinstance(factor, (int, np.integer)) and factor >= 1):
+        raise InputError("coarse binning", factor, "a whole number ≥ 1 (1: no binning)")
+    bad = [s for s in coarse_sizes if s % (2 * factor) or s // factor < 8]
+    if bad:
+        raise InputError("coarse binning", factor, f"a factor that divides the coarse windows "
+                         f"({','.join(map(str, coarse_sizes))} px) into even windows of at least 8 binned px")
+    return int(factor)
+
+
+def _binned(frame, factor):
+    """Mean over ``factor x factor`` pixel blocks (the last rows/columns that do not fill one are dropped)."""
+    if factor == 1:
+        return frame
+    h, w = (n // factor * factor for n in frame.shape)
+    out = np.zeros((h // factor, w // factor), np.float32)
+    for i in range(factor):  # factor**2 strided sums: much faster than a reshaped mean
+        for j in range(factor):
+            out += frame[i:h:factor, j:w:factor]
+    out /= factor * factor
+    return out
