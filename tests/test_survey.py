@@ -179,6 +179,9 @@ def test_demo_survey_runs_end_to_end(tmp_path):
     gild = next(v for v in result.vents if v.name == "Gildhorn")
     assert set(gild.methods) == {"orifice", "plume_rise", "video"}
     assert gild.comparison is not None and len(gild.comparison.pairs) == 3
-    assert {"diffuse", "sediment_probes"} <= set(result.sections)
+    assert {"diffuse", "sediment_probes", "field_plume", "ridge_flank"} <= set(result.sections)
+    assert result.checks and result.checks[0][0] == "field_plume"
     assert result.conductive is not None and result.split is not None and result.reservoirs
     assert html.exists() and (tmp_path / "demo" / "tables" / "method_pairs.csv").exists()
+    assert (tmp_path / "demo" / "tables" / "field_checks.csv").exists()
+    assert (tmp_path / "demo" / "tables" / "ridge_flank.csv").exists()

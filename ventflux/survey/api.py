@@ -54,7 +54,8 @@ class MethodEstimate:
 class SectionEstimate:
     """A field-wide section's items: per-item draws, shape ``(n_items, n_draws)``."""
 
-    category: str  # "focused", "diffuse" or "conductive" (heat conducted, not discharged)
+    category: str  # "focused", "diffuse", "conductive" (heat conducted, not discharged), or not added to the
+    # totals: "check" (an independent estimate compared with them) or "context"
     names: list
     heat_power: object
     volume_flux: object = None
@@ -62,6 +63,7 @@ class SectionEstimate:
     tables: dict = field(default_factory=dict)  # extra tables: name -> list of dict rows
     figures: list = field(default_factory=list)
     notes: list = field(default_factory=list)
+    compares_with: str = "field total"  # for a "check": "field total" or "focused"
 
 
 @dataclass

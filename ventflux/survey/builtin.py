@@ -274,5 +274,11 @@ def _plume_rise():
     return PLUME_RISE
 
 
+def _field_sections():
+    from .field_sections import FIELD_PLUME, RIDGE_FLANK
+
+    return [FIELD_PLUME, RIDGE_FLANK]
+
+
 METHODS = [ORIFICE, _plume_rise()]
-SECTIONS = [DIFFUSE]
+SECTIONS = [DIFFUSE, *_field_sections()]

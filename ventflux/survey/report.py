@@ -102,6 +102,16 @@ def tables_of(result) -> dict:
         unit = "kg/s" if "mass" in k else "m^3/s"
         totals.append({"quantity": k.replace("_", " "), "unit": unit, **_plain(s.to(unit))})
     t["field_totals"] = totals
+    checks = []
+    for key, cmp in result.checks:
+        for (name, summ), p in zip(cmp.methods.items(), [None] + cmp.pairs):
+            row = {"check": key, "estimate": name, **{f"heat_power_{k}": v for k, v in _mw(summ).items()}}
+            if p is not None:
+                row.update({"ratio_to_sum": 1 / p.ratio, "normalized_difference": -p.normalized_difference,
+                            "consistent": p.consistent})
+            checks.append(row)
+    if checks:
+        t["field_checks"] = checks
     res = []
     for r in result.reservoirs:
         res.append({"reservoir": r["name"], "supplied_by": r["supplies"],
@@ -341,13 +351,17 @@ code{{background:#f4f4f4;padding:0 .2rem}} .wrap{{overflow-x:auto}}
         key.append(f"Independent methods agree within their errors for {len(compared) - len(inconsistent)} of "
                    f"{len(compared)} vents measured by more than one method" +
                    (f"; they disagree for {esc(', '.join(inconsistent))}." if inconsistent else "."))
+    for k, cmp in result.checks:
+        p = cmp.pairs[0]
+        key.append(f"The {esc(k.replace('_', ' '))} check gives {1 / p.ratio:.2f} times the {esc(p.first)}"
+                   + (", within the errors." if p.consistent else ", beyond the errors."))
     parts.append("<p class='key'>" + " ".join(key) + "</p>")
     parts.append(f"<p>Site depth/pressure: {result.pressure.to('MPa').m:.4g} MPa absolute; latitude "
                  f"{spec.site.latitude}, longitude {spec.site.longitude}. Monte Carlo: {result.n_draws} usable draws "
                  f"of {spec.draws} (seed {spec.seed}); {result.dropped_draws} draws dropped as unphysical.</p>")
-    order = ["field_totals", "vents", "methods", "method_pairs", "orifices", "plume_rise", "video",
+    order = ["field_totals", "field_checks", "vents", "methods", "method_pairs", "orifices", "plume_rise", "video",
              "diffuse_classes", "diffuse_patches", "reservoirs"]
-    titles = {"field_totals": "Field totals", "vents": "Vents", "methods": "Methods for each vent",
+    titles = {"field_totals": "Field totals", "field_checks": "Field-wide checks", "vents": "Vents", "methods": "Methods for each vent",
               "method_pairs": "Do the methods agree?", "orifices": "Orifices", "diffuse_classes":
               "Diffuse discharge by mapped area class", "diffuse_patches": "Sampled diffuse patches",
               "reservoirs": "Heat reservoirs"}

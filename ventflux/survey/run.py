@@ -53,6 +53,7 @@ class SurveyResult:
     n_draws: int
     elapsed: float
     shared_inputs: dict
+    checks: list = field(default_factory=list)  # (section key, MethodComparison) of field-level checks
     notes: list = field(default_factory=list)
 
 
@@ -99,7 +100,8 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
         for e in vr.methods.values():
             keep &= np.isfinite(e.heat_power.magnitude) & (e.heat_power.magnitude > 0)
     for s in sec.values():
-        keep &= np.all(np.isfinite(np.atleast_2d(s.heat_power.magnitude)), axis=0)
+        if s.category in ("focused", "diffuse", "conductive"):
+            keep &= np.all(np.isfinite(np.atleast_2d(s.heat_power.magnitude)), axis=0)
     dropped = int((~keep).sum())
     if keep.sum() < max(100, 0.5 * spec.draws):
         raise InputError("draws", f"{dropped} of {spec.draws} unusable",
@@ -121,6 +123,8 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
     focused_items = [vr.heat_power.to("W") for vr in vents]
     diffuse_items, conductive_items = [], []
     for s in sec.values():
+        if s.category in ("check", "context"):
+            continue
         h = Q_(np.atleast_2d(s.heat_power.to("W").magnitude)[:, keep], "W")
         {"focused": focused_items, "diffuse": diffuse_items, "conductive": conductive_items}[s.category].append(h)
     focused = field_total([np.atleast_2d(q.magnitude) * q.units for q in focused_items], "MW", spec.seed) \
@@ -135,12 +139,33 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
     if parts:
         total = summarize(Q_(np.sum(np.broadcast_arrays(*parts), axis=0), "MW"), spec.seed)
 
+    checks = _field_checks(sec, focused, diffuse, keep, spec.seed)
     water = _field_water(vents, sec, keep, spec.seed)
     reservoirs = [_reservoir(r, vents, focused, diffuse, pressure, spec.seed) for r in spec.reservoirs]
     shared = {k: v for k, v in draws.describe().items() if k.startswith(("shared/", "site/"))}
     return SurveyResult(spec=spec, pressure=pressure, vents=vents, sections=sec, focused=focused, diffuse=diffuse,
                         conductive=conductive, total=total, split=split, water=water, reservoirs=reservoirs, dropped_draws=dropped,
-                        n_draws=int(keep.sum()), elapsed=time.perf_counter() - t0, shared_inputs=shared)
+                        n_draws=int(keep.sum()), elapsed=time.perf_counter() - t0, shared_inputs=shared,
+                        checks=checks)
+
+
+def _field_checks(sec, focused, diffuse, keep, seed):
+    """Compare each field-level check (a field plume's rise, say) with the survey's own total, draw by draw."""
+    out = []
+    for key, s in sec.items():
+        if s.category != "check":
+            continue
+        parts = [focused] if s.compares_with == "focused" else [focused, diffuse]
+        parts = [p.draws.to("MW") for p in parts if p is not None]
+        if not parts:
+            continue
+        own = sum(parts).to("MW").magnitude
+        other = np.atleast_2d(s.heat_power.to("MW").magnitude)[0, keep]
+        ok = np.isfinite(other) & (other > 0)  # draws the check's own model could not use
+        own, other = Q_(own[ok], "MW"), Q_(other[ok], "MW")
+        label = "sum of focused vents" if s.compares_with == "focused" else "sum of vents and patches"
+        out.append((key, compare_methods({label: own, s.names[0]: other}, "MW", seed=seed)))
+    return out
 
 
 def _read_stratification(site):
