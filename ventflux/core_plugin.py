@@ -23,12 +23,7 @@ _COMMAND_MODULES = (
 
 
 def _modules():
-    out = []
-    for name in _COMMAND_MODULES:
-        if importlib.util.find_spec(name) is None:  # not yet written
-            continue
-        out.append(importlib.import_module(name))
-    return out
+    return [importlib.import_module(name) for name in _COMMAND_MODULES]
 
 
 @hookimpl

@@ -150,6 +150,14 @@ def commands() -> list[Command]:
 
 
 @functools.lru_cache(maxsize=None)
+def survey_methods() -> list:
+    return _collect("ventflux_survey_methods")
+
+
+def survey_sections() -> list:
+    return _collect("ventflux_survey_sections")
+
+
 def fluid_model(name: str):
     """The fluid model called ``name``, built once (``InputError`` listing the known ones if absent)."""
     from .errors import InputError

@@ -33,10 +33,6 @@ def _mw(s):
             "mean [MW]": s.mean.magnitude, "std [MW]": s.std.magnitude}
 
 
-def _summary_keys(s, name, unit):
-    return s.as_dict(name, unit)
-
-
 def check_output_location(out_dir: Path, spec):
     """Refuse an output folder that holds, or is, any input: replacing it would destroy them."""
     out = Path(out_dir).resolve()
@@ -65,7 +61,7 @@ def tables_of(result) -> dict:
     methods, pairs, orifices = [], [], []
     for vr in result.vents:
         for key, e in vr.methods.items():
-            s = _summary(e.heat_power, finite=True)
+            s = _summary(e.heat_power)
             methods.append({"vent": vr.name, "method": key, "nominal_heat_power [MW]":
                             float(e.nominal_heat_power.to("MW").magnitude),
                             **{f"heat_power_{k}": v for k, v in _mw(s).items()},
@@ -132,10 +128,13 @@ def _plain(s):
 
 
 def _nom(q):
-    return q.nominal if hasattr(q, "nominal") and not hasattr(q, "magnitude") else q
+    """Central value of an exit temperature that may be an ``Uncertain``."""
+    from ..uncertainty import nominal
+
+    return nominal(q)
 
 
-def _summary(q, finite=False):
+def _summary(q):
     from ..uncertainty import summarize
 
     return summarize(q)

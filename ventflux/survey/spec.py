@@ -77,10 +77,10 @@ class SurveySpec:
 
 
 def _registry():
-    from ..registry import _collect
+    from ..registry import survey_methods, survey_sections
 
-    methods = {m.key: m for m in _collect("ventflux_survey_methods")}
-    sections = {s.key: s for s in _collect("ventflux_survey_sections")}
+    methods = {m.key: m for m in survey_methods()}
+    sections = {s.key: s for s in survey_sections()}
     return methods, sections
 
 
