@@ -149,7 +149,6 @@ def commands() -> list[Command]:
     return _collect("ventflux_commands")
 
 
-@functools.lru_cache(maxsize=None)
 def survey_methods() -> list:
     return _collect("ventflux_survey_methods")
 
@@ -158,6 +157,7 @@ def survey_sections() -> list:
     return _collect("ventflux_survey_sections")
 
 
+@functools.lru_cache(maxsize=None)
 def fluid_model(name: str):
     """The fluid model called ``name``, built once (``InputError`` listing the known ones if absent)."""
     from .errors import InputError
