@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ..registry import Command, fluid_models, methods, velocity_sources
+from ..registry import BROKEN_PLUGINS, Command, fluid_models, methods, velocity_sources
 from .output import add_output_options, print_json
 
 
@@ -21,11 +21,14 @@ def run(args) -> int:
             "fluid_models": [{"name": f.name, "provided_by": f.provider, "summary": f.summary} for f in fs],
             "velocity_sources": [{"name": v.name, "provided_by": v.provider, "feeds": list(v.feeds),
                                   "summary": v.summary} for v in vs],
+            "plugins_failed_to_load": dict(BROKEN_PLUGINS),
         })
         return 0
     _section("Estimation methods", [(m.name, m.provider, m.summary) for m in ms])
     _section("Vent-fluid models", [(f.name, f.provider, f.summary) for f in fs])
     _section("Velocity sources", [(v.name, v.provider, f"feeds {', '.join(v.feeds)}: {v.summary}") for v in vs])
+    if BROKEN_PLUGINS:
+        _section("Plugins that failed to load", [(k, "", v) for k, v in sorted(BROKEN_PLUGINS.items())])
     return 0
 
 
