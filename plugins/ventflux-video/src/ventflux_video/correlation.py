@@ -108,22 +108,15 @@ def _cut(image, top, left, window):
 def _window_view(image, top, left, window):
     """Strided view ``(rows, cols, w, w)`` of every window of ``image`` and the corners moved into it.
 
-    ``image`` is a frame or a ``(padded frame, margin)`` pair from ``_edge_padded``;
-    the frame is (further) edge-padded only if some window reaches off it.
+    The frame is edge-padded (a copy) only if some window reaches off it.
     Indexing the view with the corners gathers the windows in one contiguous
     copy, without an index array per pixel.
     """
-    image, margin = image if isinstance(image, tuple) else (image, 0)
-    h, w = (n - 2 * margin for n in image.shape)
+    h, w = image.shape
     pad = int(max(0, -top.min(), -left.min(), top.max() + window - h, left.max() + window - w))
-    if pad > margin:
-        image, margin = np.pad(image, pad - margin, mode="edge"), pad
-    return sliding_window_view(image, (window, window)), top + margin, left + margin
-
-
-def _edge_padded(frame, margin):
-    """``(frame edge-padded by margin, margin)``: padded once for all passes' offset windows."""
-    return np.pad(frame, margin, mode="edge"), margin
+    if pad:
+        image = np.pad(image, pad, mode="edge")
+    return sliding_window_view(image, (window, window)), top + pad, left + pad
 
 
 def _window_energy(win):
@@ -378,7 +371,7 @@ def check_passes(passes, overlap):
 
 def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origin=(0, 0),
                        threshold=MEDIAN_THRESHOLD, epsilon=MEDIAN_EPSILON, min_snr=1.0,
-                       subpixel_offset=True, coarse_overlap=0.0, coarse_binning=1) -> VectorField:
+                       subpixel_offset=True, coarse_overlap=0.0, coarse_binning=None) -> VectorField:
     """Displacement field between two frames by multi-pass FFT cross-correlation.
 
     Parameters
@@ -394,12 +387,16 @@ def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origi
     coarse_overlap : float
         Window overlap of the passes before the last, which only predict the
         offset (the median test and interpolation fill in between).
-    coarse_binning : int
+    coarse_binning : int, optional
         Correlate the passes before the last on frames averaged over
         ``coarse_binning x coarse_binning`` pixel blocks: a 64 px window then
         holds 32 x 32 binned pixels, a quarter of the work, and still spans
-        64 px of the frame. They only predict the last pass's offset, which
-        corrects the predictor's sub-pixel error (1: no binning).
+        64 px of the frame. Those passes only predict the offsets of the next;
+        the last pass, at full resolution, measures the residual (1: no
+        binning). By default (None) a pass is binned 2 x 2 where its window is
+        at least twice the last pass's (and a multiple of 4 px), so it still
+        holds as many pixels as a last-pass window: ``(64, 32, 32)`` bins the
+        64 px pass only.
     origin : (int, int)
         Column and row of the frames' top-left pixel in the full frame (the
         region of interest's corner), added to the window centres.
@@ -424,15 +421,13 @@ def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origi
     sizes = check_passes(passes, overlap)
     pred = None
     check_passes(sizes, coarse_overlap)
-    coarse_binning = _check_binning(coarse_binning, sizes[:-1])
-    frames = {}  # binning factor -> both frames, binned and padded once for all passes
-    for n_pass, size in enumerate(sizes):
+    factors = _binning_factors(coarse_binning, sizes)
+    frames = {}  # binning factor -> both frames, binned once for all passes
+    for n_pass, (size, f) in enumerate(zip(sizes, factors)):
         last = n_pass == len(sizes) - 1
-        f = 1 if last else coarse_binning
         step = max(1, int(round(size * (1 - (overlap if last else coarse_overlap)))))
         if f not in frames:
-            margin = max(sizes) // (2 * f)
-            frames[f] = tuple(_edge_padded(_binned(im, f), margin) for im in (a, b))
+            frames[f] = (_binned(a, f), _binned(b, f))
         fa, fb = frames[f]
         win, step_f = size // f, max(1, step // f)
         top1 = window_grid(a.shape[0] // f, win, step_f)
@@ -463,6 +458,13 @@ def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origi
                        window=sizes[-1], step=step)
 
 
+def _binning_factors(factor, sizes):
+    """Binning factor of each pass (the last is never binned); see ``displacement_field``."""
+    if factor is None:
+        return tuple(2 if s >= 2 * sizes[-1] and s % 4 == 0 else 1 for s in sizes[:-1]) + (1,)
+    return (_check_binning(factor, sizes[:-1]),) * (len(sizes) - 1) + (1,)
+
+
 def _check_binning(factor, coarse_sizes):
     """Validate ``coarse_binning`` against the window sizes of the passes before the last."""
     if not (isinstance(factor, (int, np.integer)) and factor >= 1):
@@ -479,9 +481,11 @@ def _binned(frame, factor):
     if factor == 1:
         return frame
     h, w = (n // factor * factor for n in frame.shape)
-    out = np.zeros((h // factor, w // factor), np.float32)
-    for i in range(factor):  # factor**2 strided sums: much faster than a reshaped mean
-        for j in range(factor):
-            out += frame[i:h:factor, j:w:factor]
+    rows = frame[0:h:factor, :w].copy()
+    for i in range(1, factor):  # strided sums, rows first: much faster than a reshaped mean
+        rows += frame[i:h:factor, :w]
+    out = rows[:, 0::factor].copy()
+    for j in range(1, factor):
+        out += rows[:, j::factor]
     out /= factor * factor
     return out
