@@ -126,3 +126,15 @@ def test_unknown_source_option_is_one_line(tmp_path, capsys):
                "--ambient-temperature", "2.5 degC", "--depth", "2200 m"])
     err = capsys.readouterr().err.strip().splitlines()
     assert rc == 2 and len(err) == 1 and "conductivity" in err[0] and "colour" in err[0]
+
+
+def test_flat_profile_and_non_positive_heat_capacity_refused(tmp_path, capsys):
+    p = tmp_path / "flat.csv"
+    p.write_text("depth [m],temperature [degC]\n0,2\n1,2\n2,2\n3,2\n")
+    rc = main(["profile-advection", str(p), "--depth", "2000 m"])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert rc == 2 and len(err) == 1 and "changes with depth" in err[0]
+    core = _write_profile(tmp_path / "core.csv", 1.0)
+    rc = main(["profile-advection", core, "--fluid-heat-capacity", "-4e6 J/(m^3 K)"])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert rc == 2 and len(err) == 1 and "fluid heat capacity" in err[0]

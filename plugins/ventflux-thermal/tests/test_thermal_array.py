@@ -57,6 +57,7 @@ def test_periods_shorter_than_half_the_record_only():
     x = np.sin(2 * np.pi * t / 86400) + 0.3 * np.sin(2 * np.pi * t / (6 * 3600))
     per = dominant_periods(t, x[None, :], 3)
     assert np.all(per[np.isfinite(per)] <= 0.75 * 86400 + 1)
+    assert per[0, 0] / 3600 == pytest.approx(6.0, abs=0.5)  # the 6 h component is still found
 
 
 def _write(path, t, T, ref, names):
@@ -96,3 +97,14 @@ def test_cli_bad_records(tmp_path, capsys):
     rc = main(["array-anomaly", p, "--patch", "mat=S0,S9"])
     err = capsys.readouterr().err.strip().splitlines()
     assert rc == 2 and len(err) == 1 and "--patch" in err[0]
+
+
+def test_cli_missing_file_reference_as_sensor_and_repeated_patch(tmp_path, capsys):
+    t, T, ref, _ = _synthetic(n_days=2)
+    p = _write(tmp_path / "g.csv", t, T[:2], ref, ["S0", "S1"])
+    for argv, word in ((["array-anomaly", str(tmp_path / "none.csv")], "none.csv"),
+                       (["array-anomaly", p, "--sensors", "S0,ambient"], "ambient"),
+                       (["array-anomaly", p, "--patch", "a=S0", "--patch", "a=S1"], "--patch")):
+        rc = main(argv)
+        err = capsys.readouterr().err.strip().splitlines()
+        assert rc == 2 and len(err) == 1 and word in err[0] and "Traceback" not in err[0]

@@ -65,7 +65,7 @@ def test_known_conductivity_without_pulse(tmp_path):
                            conductivity=Q_(K_TRUE, "W/(m*K)"))
     # header metadata says tilt 0 as well; the pulse after t = 600 s is outside the window (ends at the pulse)
     assert r.heat_flow == pytest.approx(0.08, rel=0.03)
-    assert r.pulse == [None] * 7 or all(p is None for p in r.pulse)
+    assert all(p is None for p in r.pulse)
 
 
 def test_regression_matches_reference_least_squares():
@@ -153,6 +153,17 @@ def test_times_the_record_does_not_contain(cylinder_record, capsys, option, valu
     src, _ = cylinder_record
     err = _one_line_error(capsys, ["probe-heat-flow", str(src), option, value])
     assert f"{field}:" in err
+
+
+@pytest.mark.parametrize("option, value, words", [
+    ("--sensor-depths", "0.5,1.0 m", ("sensor depths", "7:")),  # fewer depths than the record's sensors
+    ("--conductivity", "-1 W/(m K)", ("conductivity", "> 0")),
+    ("--conductivity", "1,1 W/(m K)", ("conductivity", "one per sensor")),
+])
+def test_depths_and_conductivities_that_do_not_fit_the_record(cylinder_record, capsys, option, value, words):
+    src, _ = cylinder_record
+    err = _one_line_error(capsys, ["probe-heat-flow", str(src), option, value])
+    assert all(w in err for w in words)
 
 
 # --------------------------------------------------------------------------- a cruise in one command

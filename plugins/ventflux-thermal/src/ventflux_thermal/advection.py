@@ -47,7 +47,10 @@ from ventflux.units import Q_, parse_quantity
 from .fitting import first_parameter_se, require_increasing
 
 SECONDS_PER_YEAR = 365.25 * 86400.0  # Julian year (IAU)
-PE_BOUND = 60.0  # |Pe| searched; beyond it the profile is a boundary layer and the fit is not resolved
+#: Largest |Pe| searched (a choice made here): beyond it the profile is a thin boundary layer the fit cannot resolve.
+PE_BOUND = 60.0
+#: Default pore-fluid practical salinity: typical deep ocean water, about 34.6–34.7 below 2000 m (from memory).
+DEFAULT_SALINITY = 34.7
 
 
 def profile_shape(peclet, zeta):
@@ -146,14 +149,14 @@ def _grid_sse(grid, zeta, T):
     return ((T[None, :] - T0[:, None] * g - TL[:, None] * f) ** 2).sum(1)
 
 
-def pore_fluid_heat_capacity(temperature, pressure, salinity=34.7):
+def pore_fluid_heat_capacity(temperature, pressure, salinity=DEFAULT_SALINITY):
     """ρ·c_p of seawater pore fluid [J/(m³ K)] from TEOS-10 at in-situ temperature and absolute pressure."""
     st = seawater_state(temperature, salinity, pressure)
     return float((st.density * st.heat_capacity).to("J/(m^3*K)").magnitude)
 
 
 def fit_advection(depth, temperature, conductivity, *, pressure=None, layer_thickness=None,
-                  fluid_heat_capacity=None, salinity=34.7) -> AdvectionFit:
+                  fluid_heat_capacity=None, salinity=DEFAULT_SALINITY) -> AdvectionFit:
     """Fit the advection–diffusion solution [1] to a T(z) profile: Péclet number, Darcy velocity, heat fluxes.
 
     Parameters
@@ -183,6 +186,9 @@ def fit_advection(depth, temperature, conductivity, *, pressure=None, layer_thic
         raise InputError("profile", f"{np.unique(z).size} distinct depths", "at least 4 distinct depths")
     if np.any(z < 0):
         raise InputError("depth", f"{z.min():g} m", "depths ≥ 0 m below the seafloor")
+    if not np.ptp(T) > 0:
+        raise InputError("profile", f"{T[0] - 273.15:g} degC at every depth",
+                         "a profile whose temperature changes with depth")
     k_nom = float(nominal(conductivity).to("W/(m*K)").magnitude)
     if not k_nom > 0:
         raise InputError("conductivity", f"{k_nom:g} W/(m K)", "a conductivity > 0")
@@ -197,6 +203,8 @@ def fit_advection(depth, temperature, conductivity, *, pressure=None, layer_thic
     pe, pe_se, T0, TL, L, r = fit_peclet(z, T, Lq)
     if fluid_heat_capacity is not None:
         rc = float(fluid_heat_capacity.to("J/(m^3*K)").magnitude)
+        if not rc > 0:
+            raise InputError("fluid heat capacity", f"{rc:g} J/(m^3 K)", "a volumetric heat capacity > 0")
     else:
         if pressure is None:
             raise InputError("pressure", "(missing)", "the in-situ pressure (or a fluid heat capacity)")
@@ -220,7 +228,7 @@ def read_profile(path):
 
 
 def profile_velocity(profile, conductivity="1.0 W/(m*K)", pressure=None, depth=None, layer_thickness=None,
-                     fluid_heat_capacity=None, salinity="34.7"):
+                     fluid_heat_capacity=None, salinity=DEFAULT_SALINITY):
     """Velocity source for the diffuse estimator: Darcy velocity (upward positive) and its standard uncertainty.
 
     Options arrive as quantity strings from the command line (``conductivity="1.1 ± 0.1 W/(m K)"``,

@@ -27,7 +27,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy import signal
+from scipy import interpolate, signal
 from ventflux.errors import InputError
 from ventflux.tables import read_quantity_table
 from ventflux.units import parse_column_name
@@ -71,7 +71,7 @@ def dominant_periods(time, series, n_peaks=3):
     dt = float(np.median(np.diff(t)))
     if np.ptp(np.diff(t)) > 0.01 * dt:  # uneven sampling: onto a uniform grid first
         grid = np.arange(t[0], t[-1] + 0.5 * dt, dt)
-        x = np.vstack([np.interp(grid, t, row) for row in x])
+        x = interpolate.interp1d(t, x, axis=-1, assume_sorted=True)(np.minimum(grid, t[-1]))
         t = grid
     f, pxx = signal.periodogram(x, fs=1.0 / dt, window="hann", detrend="linear", axis=-1)
     span = t[-1] - t[0]
@@ -82,8 +82,9 @@ def dominant_periods(time, series, n_peaks=3):
     peak[:, 1:-1] = (pxx[:, 1:-1] > pxx[:, :-2]) & (pxx[:, 1:-1] >= pxx[:, 2:])
     score = np.where(peak, pxx, -1.0)
     order = np.argsort(-score, axis=1)[:, :n_peaks]
-    periods = 1.0 / f[order]
     valid = np.take_along_axis(score, order, axis=1) > 0
+    with np.errstate(divide="ignore"):  # f = 0 is never a valid peak (masked above)
+        periods = 1.0 / f[order]
     return np.where(valid, periods, np.nan)
 
 
@@ -139,13 +140,20 @@ def read_array_record(path, reference="ambient", sensors=None):
     the reference is a sensor. Returns ``(time_s, temperature_K, reference_K,
     sensor_names)``.
     """
-    with open(path, encoding="utf-8-sig") as fh:
-        header = next((ln for ln in fh if ln.strip() and not ln.lstrip().startswith("#")), "")
+    try:
+        with open(path, encoding="utf-8-sig") as fh:
+            header = next((ln for ln in fh if ln.strip() and not ln.lstrip().startswith("#")), "")
+    except (OSError, UnicodeDecodeError):
+        raise InputError("file", str(path), "an existing, readable CSV file") from None
     names = [parse_column_name(c)[0] for c in header.strip().split(",")]
     if sensors is None:
         sensors = [n for n in names if n not in ("time", reference)]
     if not sensors:
         raise InputError("sensors", "(none)", f"sensor columns besides 'time' and '{reference}'", where=str(path))
+    for s in sensors:
+        if s in ("time", reference):
+            raise InputError("sensors", s, f"sensor columns other than 'time' and the reference '{reference}'",
+                             where=str(path))
     tbl = read_quantity_table(path, {"time": "time", reference: "temperature", **{s: "temperature" for s in sensors}})
     t = tbl["time"].to("s").magnitude
     require_increasing(t, tbl.lines, path, "time", "s")

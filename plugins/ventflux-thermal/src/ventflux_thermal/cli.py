@@ -31,6 +31,7 @@ from ventflux.io import atomic_write_text
 from ventflux.uncertainty import parse_uncertain
 from ventflux.units import Q_, parse_quantity
 
+from .advection import DEFAULT_SALINITY
 from .probe import METHODS, ProbeConstants, reduce_penetration, result_row
 
 # --------------------------------------------------------------------------- probe-heat-flow
@@ -166,7 +167,8 @@ def configure_advection(p):
     p.add_argument("--depth", help="seafloor depth below the sea surface, e.g. '2200 m' (instead of --pressure)")
     p.add_argument("--layer-thickness", help="thickness L of the layer (default: the deepest measurement)")
     p.add_argument("--fluid-heat-capacity", help="pore-fluid ρc, e.g. '4.0e6 J/(m^3 K)' (default: TEOS-10)")
-    p.add_argument("--salinity", default="34.7", help="pore-fluid practical salinity (default %(default)s)")
+    p.add_argument("--salinity", default=f"{DEFAULT_SALINITY:g}",
+                   help="pore-fluid practical salinity (default %(default)s, typical deep water; from memory)")
     p.add_argument("--figure", help="PNG of the profile with the fitted curve")
     add_output_options(p)
 
@@ -260,6 +262,8 @@ def run_array(args) -> int:
         unknown = [c for c in cols if c not in names]
         if unknown:
             raise InputError("--patch", item, "sensor columns of the record: " + ", ".join(names))
+        if name.strip() in patches:
+            raise InputError("--patch", item, "a patch name given once (each --patch names a different patch)")
         patches[name.strip()] = cols
     if not 1 <= args.peaks <= 20:
         raise InputError("--peaks", args.peaks, "1 to 20 periods")
@@ -269,9 +273,13 @@ def run_array(args) -> int:
         print_json({"method": "array-anomaly", **d})
         return 0
     rows = [(s["sensor"], f"{s['mean_anomaly_K']:.4g} ± {s['std_anomaly_K']:.2g}",
-             "K; periods " + ", ".join(f"{p:.3g}" for p in s["dominant_periods_h"]) + " h") for s in d["sensors"]]
+             "K; periods " + _periods(s["dominant_periods_h"])) for s in d["sensors"]]
     print_table(rows, title="anomaly per sensor (mean ± sd in time)")
-    rows = [(name, v["anomaly_for_diffuse"], "periods " + ", ".join(f"{p:.3g}" for p in v["dominant_periods_h"]) + " h")
+    rows = [(name, v["anomaly_for_diffuse"], "periods " + _periods(v["dominant_periods_h"]))
             for name, v in d["patches"].items()]
     print_table(rows, title="anomaly per patch (for 'ventflux diffuse --anomaly')")
     return 0
+
+
+def _periods(hours):
+    return ", ".join(f"{p:.3g}" for p in hours) + " h" if hours else "none found"

@@ -196,6 +196,19 @@ def read_metadata(path) -> dict:
     return out
 
 
+def _sensor_columns_in_header(path):
+    """Names of the ``T<n>`` sensor columns in a record's header line (empty if unreadable)."""
+    try:
+        with open(path, encoding="utf-8-sig") as fh:
+            for line in fh:
+                if line.strip() and not line.lstrip().startswith("#"):
+                    names = [c.split("[")[0].strip() for c in line.split(",")]
+                    return [c for c in names if re.fullmatch(r"T\d+", c)]
+    except OSError:
+        pass
+    return []
+
+
 def read_probe_record(path, n_sensors: int | None = None, sensor_columns=None) -> ProbeRecord:
     """Read a probe record: ``time [s]`` and sensor columns ``T1 [degC]`` … ``TN [degC]``.
 
@@ -211,6 +224,11 @@ def read_probe_record(path, n_sensors: int | None = None, sensor_columns=None) -
                                  "line in the record)", where=str(path))
             n_sensors = len(meta["sensor_depths"])
         sensor_columns = [f"T{i + 1}" for i in range(n_sensors)]
+        found = _sensor_columns_in_header(path)
+        if len(found) > n_sensors:  # fewer columns than depths: the table reader names the missing one
+            raise InputError("sensor depths", f"{n_sensors} depths",
+                             f"one depth per sensor column of the record ({len(found)}: {', '.join(found)})",
+                             where=str(path))
     cols = {"time": "time", **{c: "temperature" for c in sensor_columns}}
     tbl = read_quantity_table(path, cols)
     t = tbl["time"].to("s").magnitude
@@ -479,8 +497,16 @@ def reduce_penetration(record_path, sensor_depths=None, *, penetration_time=None
                "heat pulse time")
     energy = _si(heat_pulse_energy if heat_pulse_energy is not None else meta.get("heat_pulse_energy"), "J/m",
                  "energy per length", "heat pulse energy")
-    known_k = None if conductivity is None else np.broadcast_to(
-        np.atleast_1d(_si(conductivity, "W/(m*K)", "thermal conductivity", "conductivity")), s.shape).astype(float)
+    known_k = None
+    if conductivity is not None:
+        kv = np.atleast_1d(_si(conductivity, "W/(m*K)", "thermal conductivity", "conductivity")).astype(float)
+        if kv.size not in (1, s.size):
+            raise InputError("conductivity", f"{kv.size} values", f"one conductivity, or one per sensor ({s.size})",
+                             where=str(path))
+        if not np.all(kv > 0):
+            raise InputError("conductivity", f"{kv[~(kv > 0)][0]:g} W/(m K)", "a thermal conductivity > 0 W/(m K)",
+                             where=str(path))
+        known_k = np.broadcast_to(kv, s.shape).copy()
     if known_k is None and (t_hp is None or energy is None):
         raise InputError("heat pulse", "(missing)", "a heat pulse time and energy per length, or known conductivities",
                          where=str(path))
