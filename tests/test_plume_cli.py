@@ -37,8 +37,15 @@ def test_json_has_heat_power_and_buoyancy_flux(capsys):
     assert code == 0, err
     d = json.loads(out)
     # closed form (Morton, Taylor & Turner 1956; Briggs 1969): F = π (z/5.0)^4 N^3
-    assert d["buoyancy_flux_m4_s3"] == pytest.approx(np.pi * 50.0 ** 4 * 1e-9, rel=2e-3)
-    assert 3e7 < d["heat_power_W"] < 1.2e8
+    F = np.pi * 50.0 ** 4 * 1e-9
+    assert d["buoyancy_flux_m4_s3"] == pytest.approx(F, rel=2e-3)
+    # H = ρ c_p0 F / (g α_Θ) at the vent, through gsw directly; c_p0 = 3991.86795711963 J/(kg K)
+    # (IOC, SCOR and IAPSO 2010, TEOS-10 manual, eq. 3.3.3); no position given: reference salinity.
+    p = (25e6 - 101325.0) / 1e4
+    SA = gsw.SR_from_SP(34.6)
+    CT = gsw.CT_from_t(SA, 2.0, p)
+    H = gsw.rho(SA, CT, p) * 3991.86795711963 * F / (gsw.grav(0.0, p) * gsw.alpha(SA, CT, p))
+    assert d["heat_power_W"] == pytest.approx(H, rel=2e-3)
 
 
 def test_forward_direction_and_files_with_a_ctd_cast(capsys, cast, tmp_path):
@@ -75,6 +82,11 @@ def test_readable_table(capsys):
     (["--rise-height", "200 m", "--buoyancy-frequency", "0/s", *SITE], "--buoyancy-frequency"),
     (["--rise-height", "200 m", "--buoyancy-frequency", "1e-3/s", *SITE, "--method", "guess"], "--method"),
     (["--rise-height", "200 m", "--buoyancy-frequency", "1e-3 m", *SITE], "--buoyancy-frequency"),
+    (["--rise-height", "200 m", "--buoyancy-frequency", "1e-3/s", *SITE, "--current=-0.1 m/s"], "--current"),
+    (["--rise-height", "200 m", "--buoyancy-frequency", "1e-3/s", *SITE, "--stratification-scale=-1"],
+     "--stratification-scale"),
+    (["--rise-height", "200 m", "--buoyancy-frequency", "1e-3/s", *SITE, "--entrainment", "2"], "--entrainment"),
+    (["--rise-height", "200 m", "--buoyancy-frequency", "1e-3/s", *SITE, "--level", "top"], "--level"),
 ])
 def test_bad_input_is_one_line_and_exit_2(capsys, argv, field):
     code, out, err = _run(capsys, *argv)

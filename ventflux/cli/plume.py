@@ -22,7 +22,8 @@ _FLAGS = {"rise height": "--rise-height", "heat power": "--heat-power", "buoyanc
           "pressure": "--pressure", "depth": "--depth", "vent depth": "--depth", "entrainment": "--entrainment",
           "current": "--current", "current speed": "--current-profile", "current depth": "--current-profile",
           "method": "--method", "level": "--level", "window": "--window",
-          "latitude": "--latitude", "longitude": "--longitude", "draws": "--draws"}
+          "latitude": "--latitude", "longitude": "--longitude", "draws": "--draws",
+          "stratification scale": "--stratification-scale"}
 
 
 def configure(p):

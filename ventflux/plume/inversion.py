@@ -188,8 +188,9 @@ def _entrainment(x):
 
 
 def _mean_n(column, height, scale):
-    N = column.mean_n(np.maximum(height, 1.0)) * np.sqrt(scale)
-    return N
+    """Depth-mean N over ``height`` with N² scaled by ``scale`` (a drawn scale ≤ 0 gives NaN: that draw fails)."""
+    s = np.asarray(scale, float)
+    return column.mean_n(np.maximum(height, 1.0)) * np.sqrt(np.where(s > 0, s, np.nan))
 
 
 def _forward_integral(column, H, alpha, scale, U, shape, source=None, track=False, grid=None):
@@ -390,6 +391,9 @@ def _estimate(direction, value, stratification, level, method, entrainment, curr
         current, CurrentProfile) else None, "buoyancy_frequency": N_unc, "stratification_scale": stratification_scale}
     # drawn inputs are checked at their centre; a draw outside the allowed range fails alone (NaN)
     centre = _median if predrawn else nominal
+    _check_positive(centre(stratification_scale), "stratification scale", "a factor on N² > 0", strict=True)
+    if not isinstance(current, CurrentProfile):
+        _check_positive(centre(current), "current", "a current speed ≥ 0 m/s", strict=False)
     if direction == "inverse":
         inputs["rise_height"] = value
         _check_rise(centre(value), column)
@@ -412,6 +416,17 @@ def _estimate(direction, value, stratification, level, method, entrainment, curr
 
 def _median(q):
     return Q_(float(np.nanmedian(q.magnitude)), q.units) if hasattr(q, "magnitude") else q
+
+
+def _check_positive(x, field, allowed, strict):
+    """Refuse a non-positive (``strict``) or negative centre value of an optional input."""
+    if x is None:
+        return
+    v = np.atleast_1d(np.asarray(getattr(x, "magnitude", x), float))
+    bad = ~(v > 0) if strict else ~(v >= 0)
+    if bad.any():
+        unit = f"{x.units:~P}" if hasattr(x, "units") else ""
+        raise InputError(field, f"{v[bad][0]:g} {unit}".strip(), allowed)
 
 
 def _check_rise(z, column):
