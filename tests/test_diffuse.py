@@ -205,6 +205,8 @@ def test_cli_table_polygons_and_scale_up(tmp_path, capsys):
     su = out["scale_up"]
     assert [c["class"] for c in su["classes"]] == ["mat", "basalt"]
     assert su["heat_power_MW_p05"] < su["heat_power_MW_median"] < su["heat_power_MW_p95"]
+    # anomalies of a few kelvin: seawater cp changes by well under 1 % across them (IAPWS R13-08), so the
+    # shortcut is close to the enthalpy result
     assert out["heat_power_cp_shortcut_MW"] == pytest.approx(out["heat_power_MW"], rel=0.01)
 
 
@@ -220,6 +222,17 @@ def test_cli_bad_input_one_line_exit_2(capsys, args, field):
     assert rc == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and f"error: {field}:" in err[0] and "Traceback" not in err[0]
+
+
+@pytest.mark.parametrize("extra, field", [
+    (["--depth", "2000 m", "--latitude", "200"], "--latitude"),
+    (["--depth", "2000 m", "--source-option", "depth=2000 m"], "--source-input/--source-option"),
+])
+def test_cli_bad_site_or_orphan_source_options(capsys, extra, field):
+    rc = main(["diffuse", "--area", "3 m^2", "--active-fraction", "0.5", "--anomaly", "2 K", "--velocity", "1 cm/s",
+               "--ambient-temperature", "2 degC", "--draws", "100", *extra])
+    err = capsys.readouterr().err.strip().splitlines()
+    assert rc == 2 and len(err) == 1 and f"error: {field}:" in err[0]
 
 
 def test_cli_patch_velocities_with_sd_and_bad_rows(tmp_path, capsys):

@@ -355,8 +355,6 @@ def clip_to_physical_range(d: dict) -> dict:
     return out
 
 
-_clip_draws = clip_to_physical_range  # earlier private name, still imported by callers
-
 
 def _draw_patch_inputs(inputs: dict, n: int, seed):
     """Draw patch inputs; per-patch arrays with a standard deviation get (n_patches, n) draws."""

@@ -80,6 +80,8 @@ def _pressure(args):
                          "exactly one of --pressure (absolute) or --depth")
     if args.pressure is not None:
         return parse_quantity(args.pressure, "pressure", "--pressure")
+    if args.latitude is not None and not -90 <= args.latitude <= 90:
+        raise InputError("--latitude", f"{args.latitude:g}", "degrees between -90 and 90")
     return pressure_from_depth(parse_quantity(args.depth, "length", "--depth", "m"), args.latitude)
 
 
@@ -106,6 +108,9 @@ def _source_velocity(args):
 
 
 def _shared_velocity(args, needed):
+    if args.velocity_source is None and (args.source_input is not None or args.source_option):
+        raise InputError("--source-input/--source-option", args.source_input or args.source_option[0],
+                         "options only together with --velocity-source")
     if args.velocity is not None and args.velocity_source is not None:
         raise InputError("--velocity", args.velocity, "either --velocity or --velocity-source, not both")
     if args.velocity_source is not None:
