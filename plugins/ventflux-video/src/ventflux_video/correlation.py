@@ -181,11 +181,12 @@ def correlation_peaks(corr):
     return _peak_search(np.array(corr, copy=True))
 
 
-def _peak_search(corr, norm=None):
+def _peak_search(corr, norm=None, lag_of_index_zero=0):
     """``correlation_peaks`` that overwrites ``corr`` (the secondary-peak search masks it in place).
 
     ``norm`` (n,), if given, marks planes of a flat window (``norm == 0``) as no
     signal, as a normalized plane of zeros would be: zero displacement, ratio 0.
+    ``lag_of_index_zero`` is the lag (both axes) the plane holds at index 0.
     Only values near each peak are gathered, so the cost beyond the argmax is a
     few values per plane.
     """
@@ -204,8 +205,8 @@ def _peak_search(corr, norm=None):
     near = ((py[:, None] + r) % h * w)[:, :, None] + ((px[:, None] + r) % w)[:, None, :]
     flat[i[:, None], near.reshape(n, -1)] = -np.inf
     second = flat.max(axis=1)
-    dy = (py + h // 2) % h - h // 2 + oy
-    dx = (px + w // 2) % w - w // 2 + ox
+    dy = (py + lag_of_index_zero + h // 2) % h - h // 2 + oy
+    dx = (px + lag_of_index_zero + w // 2) % w - w // 2 + ox
     if norm is not None:
         flat_window = ~(norm > 0)
         peak = np.where(flat_window, 0.0, peak)
@@ -248,7 +249,11 @@ def _correlate_pass(frame_a, frame_b, top_a, left_a, top_b, left_b, window, shif
     computed chunk by chunk: windows are gathered from a strided view, both
     transformed, multiplied, shifted, transformed back and searched while they
     are in cache. Normalization is applied to the few peak values only (the peak
-    ratio and the Gaussian fit do not depend on it).
+    ratio and the Gaussian fit do not depend on it). The windows of ``frame_a``
+    are gathered reversed in both axes: the transform of a reversed real window
+    is the conjugate transform times a one-sample phase ramp, so the product
+    with ``frame_b``'s transform is the cross-spectrum without a conjugation
+    pass, and the plane comes out moved by one sample (index 0 holds lag 1).
 
     Returns
     -------
@@ -257,20 +262,19 @@ def _correlate_pass(frame_a, frame_b, top_a, left_a, top_b, left_b, window, shif
     """
     view_a, top_a, left_a = _window_view(frame_a, top_a, left_a, window)
     view_b, top_b, left_b = _window_view(frame_b, top_b, left_b, window)
+    reversed_a = view_a[:, :, ::-1, ::-1]
 
     def chunk(c):
-        wa, wb = view_a[top_a[c], left_a[c]], view_b[top_b[c], left_b[c]]
+        wa, wb = reversed_a[top_a[c], left_a[c]], view_b[top_b[c], left_b[c]]
         norm = np.sqrt(np.clip(_window_energy(wa), 0, None) * np.clip(_window_energy(wb), 0, None))
-        fa = scipy.fft.rfft2(wa, workers=1)
-        fb = scipy.fft.rfft2(wb, workers=1)
-        cross = np.conj(fa, out=fa)
-        cross *= fb
+        cross = scipy.fft.rfft2(wa, workers=1)
+        cross *= scipy.fft.rfft2(wb, workers=1)
         cross[:, 0, 0] = 0
         if shift is not None:
             cross *= _unit_phase(shift[c, 0, None] * _freqs(window, False))[:, :, None]
             cross *= _unit_phase(shift[c, 1, None] * _freqs(window, True))[:, None, :]
         corr = scipy.fft.irfft2(cross, s=(window, window), workers=1, overwrite_x=True)
-        return _peak_search(corr, norm)
+        return _peak_search(corr, norm, lag_of_index_zero=1)
 
     parts = _map_chunks(chunk, len(top_a), max(1, _CHUNK // (window * window)))
     return tuple(np.concatenate([p[j] for p in parts]) for j in range(3))
