@@ -93,7 +93,15 @@ def test_flank_answer_and_water_column():
                           pressure=Q_(35.0, "MPa"), half_spreading_rate=Q_(25.0, "mm/year"))
     # by hand: ∫₁⁴ 510 t^-1/2 dt = 1020 mW/m²·Myr = 3.219e13 J/m²
     assert ans.value("heat_deficit").magnitude == pytest.approx(1020e-3 * 3.15576e13, rel=1e-9)
-    assert ans.value("water_column").magnitude > 100.0
+    # water column = deficit / (ρ Δh) of seawater warmed 2 → 12 °C at 35 MPa, TEOS-10 through gsw directly
+    # (IOC et al. 2010; SP 35, reference salinity); of order 100 km or more (common practice, no source)
+    p_sea = (35e6 - 101325.0) / 1e4
+    SA = gsw.SR_from_SP(35.0)
+    uptake = gsw.rho_t_exact(SA, 2.0, p_sea) * (gsw.enthalpy_t_exact(SA, 12.0, p_sea)
+                                                - gsw.enthalpy_t_exact(SA, 2.0, p_sea))
+    column_km = 1020e-3 * 3.15576e13 / uptake / 1e3
+    assert ans.value("water_column").magnitude == pytest.approx(column_km, rel=1e-6)
+    assert column_km > 100.0
     with pytest.raises(InputError, match="pressure"):
         sm.flank_answer(Q_([1.0, 4.0], "Myr"), Q_([0.0, 0.0], "mW/m^2"), temperature_rise=Q_(10.0, "K"))
 
@@ -111,7 +119,10 @@ def test_cli_water_json(capsys):
                       "--ambient-temperature", "2 degC", "--json")
     assert rc == 0
     d = json.loads(out)
-    assert d["mass_flux_kg_s"] == pytest.approx(62.86, rel=2e-3)
+    # IAPWS-95 through the independent `iapws` package (IAPWS R6-95(2018)): ṁ = P / (h(350 °C) − h(2 °C)) at 25 MPa
+    iapws = pytest.importorskip("iapws")
+    dh = (iapws.IAPWS95(T=623.15, P=25.0).h - iapws.IAPWS95(T=275.15, P=25.0).h) * 1e3
+    assert d["mass_flux_kg_s"] == pytest.approx(1e8 / dh, rel=1e-4)
 
 
 def test_cli_questions_print_tables(capsys):
@@ -143,6 +154,8 @@ def test_cli_flank_profile_file(capsys, tmp_path):
     (["flank", "--observed", "1 Myr"], "--observed"),
     (["size", "--power", "100 MW", "--duration", "-1 yr", "--temperature-drop", "300 K", "--porosity", "0"],
      "duration"),
+    (["water", "--power", "100 MW", "--temperature", "350 degC", "--pressure", "25MPa",
+      "--ambient-temperature", "2 degC", "--draws", "1"], "--draws"),
 ])
 def test_cli_bad_input_is_one_line_and_exit_2(capsys, argv, field):
     rc, out, err = _run(capsys, *argv)

@@ -56,11 +56,18 @@ from .errors import InputError
 from .properties import specific_heat_content, vent_fluid_state
 from .units import Q_, magnitude
 
+# Defaults, sources in the module notes ("Defaults").
+#: Basaltic and gabbroic crust [1] (from memory).
 ROCK_DENSITY = Q_(2900.0, "kg/m^3")
+#: Specific heat capacity of crustal rock [1] (from memory).
 ROCK_HEAT_CAPACITY = Q_(1000.0, "J/(kg*K)")
+#: Thermal diffusivity of rock [1] (from memory).
 THERMAL_DIFFUSIVITY = Q_(1.0e-6, "m^2/s")
+#: Pore fraction of the upper oceanic crust, a few per cent (from memory).
 POROSITY = 0.05
+#: Latent heat of crystallization of basaltic melt; published values span about 3.2e5–4.2e5 J/kg (from memory).
 LATENT_HEAT = Q_(4.0e5, "J/kg")
+#: Density of basaltic melt (from memory).
 MELT_DENSITY = Q_(2700.0, "kg/m^3")
 #: Output fraction at which a declining reservoir counts as spent (a choice, not a law).
 SPENT_FRACTION = 0.1

@@ -26,7 +26,7 @@ gives the equivalent column of circulated seawater.
 
 Parameter defaults follow [1] (from memory): k = 3.3 W/(m K), κ = 1e-6 m²/s,
 ΔT = T_m − T₀ = 1300 K, ρ_m = 3300 kg/m³, ρ_w = 1000 kg/m³,
-α = 3e-5 1/K, ridge-crest depth 2500 m.
+α = 3e-5 1/K, ridge-crest depth 2500 m; the seafloor at T₀ = 0 °C (a choice).
 
 References
 ----------
@@ -53,13 +53,22 @@ from .properties import seawater_state
 from .properties.seawater import check_funnel
 from .units import Q_, magnitude
 
+# Half-space parameters, the values used in [1] (from memory).
+#: Thermal conductivity of the lithosphere.
 CONDUCTIVITY = Q_(3.3, "W/(m*K)")
+#: Thermal diffusivity of the lithosphere.
 DIFFUSIVITY = Q_(1.0e-6, "m^2/s")
+#: Mantle minus surface temperature, T_m − T₀.
 TEMPERATURE_DIFFERENCE = Q_(1300.0, "K")
+#: Seafloor temperature T₀ (a choice: deep bottom water is within a few kelvin of it).
 SURFACE_TEMPERATURE = Q_(0.0, "degC")
+#: Mantle density ρ_m.
 MANTLE_DENSITY = Q_(3300.0, "kg/m^3")
+#: Water density ρ_w in the isostatic balance.
 WATER_DENSITY = Q_(1000.0, "kg/m^3")
+#: Volumetric thermal expansion coefficient of the mantle α.
 EXPANSIVITY = Q_(3.0e-5, "1/K")
+#: Ridge-crest depth.
 RIDGE_DEPTH = Q_(2500.0, "m")
 REFERENCES = ("gdh1", "half-space")
 

@@ -54,7 +54,7 @@ _COMMON_WATER = [
     ("--pressure", "pressure", True, None, "absolute in-situ pressure, e.g. '25 MPa'"),
     ("--ambient-temperature", "temperature", True, None, "ambient seawater temperature, e.g. '2 degC'"),
     ("--salinity", "dimensionless", False, f"{DEFAULT_AMBIENT_SALINITY:g}",
-     "ambient practical salinity (default: TEOS-10's reference salinity)"),
+     "ambient practical salinity; the default is TEOS-10's reference salinity"),
 ]
 _HEAT = [
     ("--temperature-drop", "temperature", True, None, "cooling of the hot rock, e.g. '800 K'"),
@@ -105,8 +105,7 @@ _RENAME = {"half_rate": "half_spreading_rate"}
 
 
 def _dest(option):
-    name = option.lstrip("-").replace("-", "_")
-    return name
+    return option.lstrip("-").replace("-", "_")
 
 
 def configure(p):
@@ -151,6 +150,8 @@ def _observations(args):
 
 def run(args) -> int:
     fn, _, options = QUESTIONS[args.question]
+    if args.draws < 2:
+        raise InputError("--draws", args.draws, "a whole number of Monte Carlo draws ≥ 2")
     kwargs = {}
     for option, dim, _required, _default, _help in options:
         text = getattr(args, _dest(option))
