@@ -86,6 +86,8 @@ from . import closed_form
 DEFAULT_ENTRAINMENT = 0.093 * np.sqrt(2.0)
 #: Cross-flow (forced) entrainment coefficient β [5]_ [6]_.
 CROSSFLOW_ENTRAINMENT = 0.6
+# Numerical choices made here (no source); the tests show the rise does not depend on them
+# (an adaptive reference integrator; the hand-over moved from 0.5 to 8 K).
 #: CT excess [K] below which TEOS-10's full density replaces the linear near-source buoyancy.
 START_ANOMALY = 2.0
 #: Steps over the expected path once steps stop growing (accuracy ~1e-4 in rise height).
@@ -98,6 +100,8 @@ TOP_FRACTION = 0.3
 TOP_REFINEMENT = 100.0
 #: Currents below this [m/s] are raised to it (the bent-over equations need U > 0 at the top).
 MIN_CURRENT = 1e-3
+#: A vent may lie this far [m] (or one CTD bin, if wider) below a cast's deepest point (a choice).
+VENT_BELOW_CAST = 10.0
 
 
 @dataclass
@@ -156,12 +160,13 @@ class Column:
 def column_above_vent(profile: AmbientProfile, vent_depth=None) -> Column:
     """The part of ``profile`` above ``vent_depth`` [m] (default: the deepest point of the profile).
 
-    A vent up to one bin (or 10 m) below the deepest point is accepted, the
-    deepest values extended to it.
+    A vent up to one bin (or ``VENT_BELOW_CAST``) below the deepest point is
+    accepted, the deepest values extended to it.
     """
     d = profile.depth.to("m").magnitude
     zv = float(d[-1]) if vent_depth is None else float(vent_depth)
-    slack = 10.0 if profile.window is None else max(10.0, float(profile.window.to("m").magnitude))
+    slack = VENT_BELOW_CAST if profile.window is None else max(VENT_BELOW_CAST,
+                                                               float(profile.window.to("m").magnitude))
     if not d[0] < zv <= d[-1] + slack:
         raise InputError("vent depth", f"{zv:g} m",
                          f"a depth within the ambient profile, {d[0]:.0f} to {d[-1]:.0f} m")
@@ -445,7 +450,11 @@ def _track(model, rec):
 
 
 def expected_span(column: Column, F, current=None):
-    """A first estimate of each member's path length to its top [m], from the closed forms."""
+    """A first estimate of each member's path length to its top [m], from the closed forms.
+
+    Only the step size depends on it: the start (200 m, N = 1e-3 /s where the
+    mean N is undefined) and the margin 1.3 are choices, not physics.
+    """
     F = np.asarray(F, float)
     z = np.full_like(F, 200.0)
     for _ in range(3):  # the mean N over the rise depends on the rise

@@ -23,6 +23,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ..orifice import DEFAULT_AMBIENT_SALINITY
 from ..properties import seawater_state, specific_heat_content, vent_fluid_state
 from ..units import Q_, magnitude, require_dimension
 
@@ -56,12 +57,13 @@ def plume_source(volume_flux, momentum_flux, heat_power, salt_flux=None) -> Plum
 
 
 def plume_source_from_exit(temperature, velocity, diameter, pressure, ambient_temperature,
-                           ambient_salinity=35.0, model=None) -> PlumeSource:
+                           ambient_salinity=DEFAULT_AMBIENT_SALINITY, model=None) -> PlumeSource:
     """Forced-plume source from exit temperature, area-mean exit velocity and orifice diameter.
 
     Vent-fluid density and the heat carried come from the vent-fluid model
     (``ventflux.properties``, IAPWS-95 by default) at the absolute
-    ``pressure``; the ambient density from TEOS-10.
+    ``pressure``; the ambient density from TEOS-10 at practical salinity
+    ``ambient_salinity`` (default 35, TEOS-10's reference salinity).
     """
     d = magnitude(require_dimension(diameter, "length", "diameter"), "m")
     w = magnitude(require_dimension(velocity, "velocity", "velocity"), "m/s")
