@@ -1,14 +1,17 @@
 """Displacement fields by FFT cross-correlation of interrogation windows.
 
-All windows of a frame pair are cut into one stacked array ``(n, w, w)`` and
-correlated at once with a batched real FFT (``scipy.fft.rfft2``, single
-precision, the same transform as ``numpy.fft.rfft2`` with threads) [1]. The
+The windows of a frame pair are gathered from a strided view of each frame
+into stacks ``(n, w, w)`` and correlated with a batched real FFT
+(``scipy.fft.rfft2``, single precision) [1], a chunk of windows at a time so
+that each step works in cache, the chunks spread over the cores (numpy and
+the FFT release the GIL; no per-window Python loop). The
 correlation peak is located to sub-pixel precision by a three-point Gaussian
 fit in each direction [1]. Several passes refine the field: each pass offsets
 the two windows symmetrically by the rounded displacement of the previous one
 (window offset) [1], [2], so the final residual displacement is below half a
 pixel, where the Gaussian estimator's bias (peak locking) is smallest [1].
-Between passes and at the end, spurious vectors are found by the normalized
+Coarse passes, whose windows are at least twice the last pass's, run on
+2 x 2-binned frames by default: they only predict the offsets. Between passes and at the end, spurious vectors are found by the normalized
 median test and replaced by the median of their valid neighbours [3].
 
 Signal-to-noise is reported as the ratio of the highest correlation peak to
@@ -119,12 +122,17 @@ def _window_view(image, top, left, window):
     return sliding_window_view(image, (window, window)), top + pad, left + pad
 
 
+def _sum_of_squares(win):
+    """Sum of squares of each window ``(n, w, w)`` (float64)."""
+    flat = win.reshape(len(win), -1)
+    return np.einsum("nk,nk->n", flat, flat).astype(np.float64)
+
+
 def _window_energy(win):
     """Sum of squared deviations from the mean of each window ``(n, w, w)`` (float64)."""
     m = win.shape[1] * win.shape[2]
     flat = win.reshape(len(win), -1)
-    total = (flat @ np.ones(m, flat.dtype)).astype(np.float64)  # a matrix-vector product: the fastest sum
-    return np.einsum("nk,nk->n", flat, flat).astype(np.float64) - total**2 / m
+    return _sum_of_squares(win) - flat.sum(axis=1).astype(np.float64) ** 2 / m
 
 
 def _cross_correlation(a, b, shift=None):
@@ -266,9 +274,13 @@ def _correlate_pass(frame_a, frame_b, top_a, left_a, top_b, left_b, window, shif
 
     def chunk(c):
         wa, wb = reversed_a[top_a[c], left_a[c]], view_b[top_b[c], left_b[c]]
-        norm = np.sqrt(np.clip(_window_energy(wa), 0, None) * np.clip(_window_energy(wb), 0, None))
         cross = scipy.fft.rfft2(wa, workers=1)
-        cross *= scipy.fft.rfft2(wb, workers=1)
+        fb = scipy.fft.rfft2(wb, workers=1)
+        # Window energies: sums of squares, less the squared sums the DC terms already hold.
+        energy_a = _sum_of_squares(wa) - cross[:, 0, 0].real.astype(np.float64) ** 2 / window**2
+        energy_b = _sum_of_squares(wb) - fb[:, 0, 0].real.astype(np.float64) ** 2 / window**2
+        norm = np.sqrt(np.clip(energy_a, 0, None) * np.clip(energy_b, 0, None))
+        cross *= fb
         cross[:, 0, 0] = 0
         if shift is not None:
             cross *= _unit_phase(shift[c, 0, None] * _freqs(window, False))[:, :, None]
