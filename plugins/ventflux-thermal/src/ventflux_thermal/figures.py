@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+from pathlib import Path
 
 import matplotlib
 
@@ -14,15 +15,24 @@ from ventflux.io import atomic_write_bytes  # noqa: E402
 from .probe import PenetrationResult, ProbeConstants, frictional_model, pulse_model  # noqa: E402
 
 
-def _save(fig, path):
+def _png(fig) -> bytes:
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110)
     plt.close(fig)
-    atomic_write_bytes(path, buf.getvalue())
+    return buf.getvalue()
+
+
+def _save(fig, path):
+    atomic_write_bytes(path, _png(fig))
 
 
 def resistance_figure(res: PenetrationResult, path):
-    """Equilibrium temperature against cumulative thermal resistance, with the fitted line and residuals."""
+    """Write ``resistance_png(res)`` atomically to ``path``."""
+    atomic_write_bytes(path, resistance_png(res))
+
+
+def resistance_png(res: PenetrationResult) -> bytes:
+    """Equilibrium temperature against cumulative thermal resistance, with the fitted line and residuals (PNG)."""
     fig, (ax, axr) = plt.subplots(1, 2, figsize=(8, 4.5), gridspec_kw={"width_ratios": [3, 1]}, sharey=True)
     T = res.equilibrium_temperature - 273.15
     R = res.resistance
@@ -37,9 +47,9 @@ def resistance_figure(res: PenetrationResult, path):
     axr.plot(1e3 * res.residual, R, "s", color="tab:blue")
     axr.axvline(0.0, color="0.5", lw=0.8)
     axr.set_xlabel("residual [mK]")
-    fig.suptitle(f"{res.record.split('/')[-1]} ({res.method})")
+    fig.suptitle(f"{Path(res.record).name} ({res.method})")
     fig.tight_layout()
-    _save(fig, path)
+    return _png(fig)
 
 
 def decay_figure(res: PenetrationResult, path, probe: ProbeConstants | None = None):

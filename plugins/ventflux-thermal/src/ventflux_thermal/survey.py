@@ -90,20 +90,11 @@ def _estimate(spec, ctx):
 
 def _figures(results):
     """Temperature against thermal resistance for each station, as PNG bytes for the report."""
-    import tempfile
+    from .figures import resistance_png
 
-    from .figures import resistance_figure
-
-    out = []
-    with tempfile.TemporaryDirectory() as tmp:
-        for r in results:
-            stem = Path(r.record).stem
-            path = Path(tmp) / f"{stem}.png"
-            resistance_figure(r, path)
-            out.append((f"{stem}_resistance", path.read_bytes(),
-                        f"{stem}: equilibrium temperature against cumulative thermal resistance; the slope is the "
-                        "heat flow."))
-    return out
+    return [(f"{Path(r.record).stem}_resistance", resistance_png(r),
+             f"{Path(r.record).stem}: equilibrium temperature against cumulative thermal resistance; the slope is "
+             "the heat flow.") for r in results]
 
 
 SEDIMENT_PROBES = SurveySection(key="sediment_probes",
