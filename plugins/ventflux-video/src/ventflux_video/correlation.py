@@ -54,7 +54,7 @@ MEDIAN_THRESHOLD = 2.0
 MEDIAN_EPSILON = 0.1
 _WORKERS = -1  # threads for the window correlation: -1 all usable cores, 1 none
 _CHUNK = 256 * 32 * 32  # window pixels per chunk (1 MB of float32), so each step works in cache
-_POOL = None  # (threads, executor), made on first use
+_POOL = None  # (threads, process id, executor), made on first use
 
 
 @dataclass
@@ -245,9 +245,9 @@ def _map_chunks(fn, n, size):
     threads = min(threads, len(chunks))
     if threads <= 1:
         return [fn(c) for c in chunks]
-    if _POOL is None or _POOL[0] != threads:
-        _POOL = (threads, ThreadPoolExecutor(max_workers=threads, thread_name_prefix="ventflux-video"))
-    return list(_POOL[1].map(fn, chunks))
+    if _POOL is None or _POOL[:2] != (threads, os.getpid()):  # a forked child needs threads of its own
+        _POOL = (threads, os.getpid(), ThreadPoolExecutor(max_workers=threads, thread_name_prefix="ventflux-video"))
+    return list(_POOL[2].map(fn, chunks))
 
 
 def _correlate_pass(frame_a, frame_b, top_a, left_a, top_b, left_b, window, shift=None):
