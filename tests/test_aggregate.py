@@ -110,7 +110,7 @@ def test_independent_methods_combine_by_inverse_variance_on_log_power():
     assert [r["method"] for r in cmp_.rows()] == ["orifice", "plume rise", "combined"]
 
 
-def test_inconsistent_methods_are_flagged_and_widened_by_birge_factor():
+def test_inconsistent_methods_are_flagged_and_widened_by_the_scale_factor():
     # By hand: medians 100 and 300 MW, σ = 0.1 each: z = ln 3/√0.02 = 7.77 → inconsistent;
     # χ² = z² for two methods, S = 7.77, combined log sd = 0.1/√2 · 7.77 = 0.549.
     d = SharedDraws(40_000, seed=4)

@@ -26,7 +26,7 @@ def test_half_space_temperature_uses_erf_table_values():
     assert frac == pytest.approx([0.8427, 0.9953], abs=5e-5)
 
 
-def test_half_space_heat_flow_against_turcotte_schubert():
+def test_half_space_heat_flow_against_the_textbook_formula():
     # Turcotte & Schubert (2002), Geodynamics 2nd ed., ch. 4 (half-space cooling): q = k (T1 − T0) / √(π κ t).
     # Stated parameters (the book's, from memory) k = 3.3 W/(m K), T1 − T0 = 1300 K, κ = 1e-6 m²/s. At 1 Myr:
     # 3.3 × 1300 / √(π × 1e-6 × 3.15576e13) = 4290 / 9956.9 = 0.43085 W/m².
@@ -44,7 +44,7 @@ def test_half_space_heat_flow_equals_gradient_of_erf_profile():
     assert q == pytest.approx(k * grad, rel=1e-6)
 
 
-def test_half_space_depth_against_turcotte_schubert_and_isostasy_integral():
+def test_half_space_depth_against_the_textbook_formula_and_isostasy_integral():
     # Turcotte & Schubert (2002) ch. 4 (ocean-floor subsidence): w = 2 ρm αv (T1 − T0)/(ρm − ρw) √(κ t / π),
     # with ρm = 3300, ρw = 1000 kg/m³, αv = 3e-5 1/K, T1 − T0 = 1300 K, κ = 1e-6 m²/s. By hand: coefficient
     # 2·3300·3e-5·1300/2300 · √(1e-6/π) · √(3.15576e13 s/Myr) = 354.7 m per √Myr.
@@ -57,7 +57,7 @@ def test_half_space_depth_against_turcotte_schubert_and_isostasy_integral():
     assert rf.half_space_depth(Q_(30.0, "Myr"), ridge_depth=Q_(0.0, "m")).magnitude == pytest.approx(w_quad, rel=1e-6)
 
 
-def test_gdh1_heat_flow_and_depth_against_stein_and_stein():
+def test_gdh1_heat_flow_and_depth_against_the_published_fit():
     # Stein & Stein (1992), Nature 359, GDH1 (from memory): q = 510 t^-1/2 mW/m² (t ≤ 55 Myr),
     # 48 + 96 exp(−0.0278 t) beyond; depth 2600 + 365 t^1/2 m (t < 20 Myr), 5651 − 2473 exp(−0.0278 t).
     # Values by hand: q(1) = 510, q(25) = 102, q(100) = 48 + 96·0.062039 = 53.956;

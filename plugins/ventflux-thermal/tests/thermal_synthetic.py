@@ -13,7 +13,7 @@ import numpy as np
 from scipy import special
 
 
-def _stehfest_weights(n=14):
+def _laplace_inversion_weights(n=14):
     # Stehfest, H. (1970). Algorithm 368: Numerical inversion of Laplace transforms. Commun. ACM 13, 47-49.
     half = n // 2
     v = []
@@ -26,7 +26,7 @@ def _stehfest_weights(n=14):
     return np.array(v)
 
 
-_V = _stehfest_weights()
+_V = _laplace_inversion_weights()
 
 
 def cylinder_excess(alpha, tau):
