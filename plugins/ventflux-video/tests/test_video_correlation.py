@@ -131,3 +131,27 @@ def test_bad_window_settings_are_input_errors():
         cc.displacement_field(a, a, passes=(32,), overlap=1.0)
     with pytest.raises(cc.InputError, match="even"):
         cc.displacement_field(a, a, passes=(31,))
+
+
+@pytest.mark.parametrize("d", [(1.5, -0.75), (-4.6, 2.1)])
+def test_binned_coarse_pass_keeps_the_accuracy_of_the_unbinned_one(d):
+    # The coarse pass only predicts the final pass's window offset; binning it
+    # must leave the final error within the issue's limit and close to unbinned.
+    a, b = syn.render_pair(SHAPE, syn.uniform_displacement(*d), density=0.05, diameter=2.5, seed=17)
+    truth = None
+    errs = {}
+    for binning in (None, 1):
+        f = cc.displacement_field(a, b, passes=(64, 32), overlap=0.5, coarse_binning=binning)
+        truth = truth or (np.full(f.dx.shape, d[0]), np.full(f.dy.shape, d[1]))
+        errs[binning] = _rms(f, *truth)
+    assert errs[None] <= 0.05  # issue 5 limit (Raffel et al. ch. 6, from memory)
+    assert abs(errs[None] - errs[1]) <= 0.01
+
+
+@pytest.mark.parametrize("bad", [0, -2, 3.5, "two"])
+def test_bad_coarse_binning_is_an_input_error(bad):
+    from ventflux.errors import InputError
+
+    a, b = syn.render_pair((128, 128), syn.uniform_displacement(1.0, 0.5), density=0.05, seed=1)
+    with pytest.raises(InputError):
+        cc.displacement_field(a, b, passes=(64, 32), coarse_binning=bad)
