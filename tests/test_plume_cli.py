@@ -134,3 +134,13 @@ def test_current_profile_file_bends_the_plume(capsys, cast, tmp_path):
     const = json.loads(out)
     assert bent["rise_height_m"] == pytest.approx(const["rise_height_m"], rel=1e-9)
     assert bent["downstream_distance_m"] > 50
+
+
+@pytest.mark.parametrize("option, name", [("--figure", "plume.xyz"), ("--figure", "blocker/plume.png"),
+                                          ("--profile-table", "blocker/plume.csv")])
+def test_output_that_cannot_be_written_is_one_line(capsys, tmp_path, option, name):
+    (tmp_path / "blocker").write_text("a file where a folder is needed\n")
+    code, _, err = _run(capsys, "--rise-height", "200 m", "--buoyancy-frequency", "1e-3/s", *SITE,
+                        option, str(tmp_path / name))
+    lines = err.strip().splitlines()
+    assert code == 2 and len(lines) == 1 and option in lines[0] and "Traceback" not in err

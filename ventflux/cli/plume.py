@@ -145,6 +145,11 @@ def _run(args) -> int:
     from ..profiles import read_ctd_cast
 
     vals, window = _inputs(args)
+    if args.figure:
+        try:
+            figures.figure_format(args.figure)
+        except InputError as err:
+            raise InputError("--figure", err.value, err.allowed) from None
     uncertain = any(isinstance(v, Uncertain) for v in vals.values())
     draws = args.draws if args.draws is not None else (DEFAULT_DRAWS if uncertain else None)
     if args.ctd is not None:
@@ -177,14 +182,22 @@ def _run(args) -> int:
         raise InputError("--draws", draws, "inputs for which some draws give a plume within the ambient profile")
     payload = _payload(res, nom, direction, args, strat)
     if args.figure:
-        figures.save_plume_figure(res, args.figure)
+        _writing("--figure", args.figure, figures.save_plume_figure, res, args.figure)
     if args.profile_table:
-        _write_track(nom, args.profile_table)
+        _writing("--profile-table", args.profile_table, _write_track, nom, args.profile_table)
     if args.json:
         print_json(payload)
     else:
         _print_readable(payload, res)
     return 0
+
+
+def _writing(option, path, write, *args):
+    """Call ``write(*args)``; a path that cannot be written is the user's mistake (one line, exit 2)."""
+    try:
+        write(*args)
+    except OSError as err:
+        raise InputError(option, str(path), f"a file that can be written ({err.strerror})") from None
 
 
 def _current_profile(path):

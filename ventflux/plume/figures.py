@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import io
+from pathlib import Path
 
 import numpy as np
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
+from ..errors import InputError
 from ..io import atomic_write_bytes
 
 
@@ -60,11 +62,22 @@ def plume_figure(result) -> Figure:
     return fig
 
 
+def figure_format(path) -> str:
+    """The image format named by ``path``'s suffix (PNG without one); ``InputError`` if matplotlib cannot write it."""
+    suffix = Path(path).suffix.lower().lstrip(".")
+    fmt = suffix or "png"
+    allowed = FigureCanvasAgg.get_supported_filetypes()
+    if fmt not in allowed:
+        raise InputError("figure", str(path), "a file name ending in one of " + ", ".join(f".{k}" for k in
+                                                                                        sorted(allowed)))
+    return fmt
+
+
 def save_plume_figure(result, path):
     """Draw ``plume_figure(result)`` and write it atomically to ``path`` (format from the suffix)."""
+    fmt = figure_format(path)
     fig = plume_figure(result)
     buf = io.BytesIO()
-    fmt = str(path).rsplit(".", 1)[-1].lower() if "." in str(path) else "png"
     fig.savefig(buf, format=fmt, dpi=120)
     atomic_write_bytes(path, buf.getvalue())
     return path

@@ -166,6 +166,13 @@ def test_depths_and_conductivities_that_do_not_fit_the_record(cylinder_record, c
     assert all(w in err for w in words)
 
 
+def test_output_that_cannot_be_written_is_one_line(cylinder_record, tmp_path, capsys):
+    src, _ = cylinder_record
+    (tmp_path / "blocker").write_text("a file where a folder is needed\n")
+    err = _one_line_error(capsys, ["probe-heat-flow", str(src), "--out", str(tmp_path / "blocker" / "t.csv")])
+    assert "--out" in err
+
+
 # --------------------------------------------------------------------------- a cruise in one command
 def test_cruise_folder_one_table_and_figures(tmp_path, capsys):
     folder = tmp_path / "cruise"

@@ -60,6 +60,14 @@ def configure_probe(p):
     add_output_options(p)
 
 
+def _writing(option, path, write, *args):
+    """Call ``write(*args)``; a path that cannot be written is the user's mistake (one line, exit 2)."""
+    try:
+        write(*args)
+    except OSError as err:
+        raise InputError(option, str(path), f"a path that can be written ({err.strerror})") from None
+
+
 def _records(items):
     out = []
     for item in items:
@@ -130,15 +138,15 @@ def run_probe(args) -> int:
         folder = Path(args.figures)
         for res in results:
             stem = Path(res.record).stem
-            resistance_figure(res, folder / f"{stem}_temperature_resistance.png")
-            decay_figure(res, folder / f"{stem}_decay_fits.png", probe)
+            _writing("--figures", folder, resistance_figure, res, folder / f"{stem}_temperature_resistance.png")
+            _writing("--figures", folder, decay_figure, res, folder / f"{stem}_decay_fits.png", probe)
     rows = [result_row(r) for r in results]
     if args.out and rows:
         buf = io.StringIO()
         w = csv.DictWriter(buf, fieldnames=list(rows[0]))
         w.writeheader()
         w.writerows({k: (f"{v:.6g}" if isinstance(v, float) else v) for k, v in row.items()} for row in rows)
-        atomic_write_text(args.out, buf.getvalue())
+        _writing("--out", args.out, atomic_write_text, args.out, buf.getvalue())
     if args.json:
         print_json({"method": "probe-heat-flow", "decay_model": args.decay_model,
                     "penetrations": [r.as_dict() for r in results],
@@ -197,7 +205,7 @@ def run_advection(args) -> int:
                          "heat capacity), or --fluid-heat-capacity")
     fit = fit_advection(z, T, k, pressure=p, layer_thickness=L, fluid_heat_capacity=rc, salinity=salinity)
     if args.figure:
-        _profile_figure(z, T, fit, args.figure)
+        _writing("--figure", args.figure, _profile_figure, z, T, fit, args.figure)
     d = fit.as_dict()
     if args.json:
         print_json({"method": "profile-advection", **d})
