@@ -52,7 +52,7 @@ import gsw
 import numpy as np
 
 from .errors import InputError
-from .properties.seawater import STANDARD_ATMOSPHERE, absolute_salinity, check_funnel, sea_pressure_dbar
+from .properties.seawater import absolute_salinity, check_funnel, sea_pressure_dbar
 from .tables import read_quantity_table
 from .units import Q_, magnitude, require_dimension
 
@@ -96,24 +96,6 @@ class AmbientProfile:
     longitude: float | None
     source: str
     window: object = None
-
-    @property
-    def bottom(self):
-        """Depth of the deepest point."""
-        return self.depth[-1]
-
-    @property
-    def top(self):
-        """Depth of the shallowest point."""
-        return self.depth[0]
-
-    def at_depth(self, depth):
-        """SA [g/kg], CT [degC] and sea pressure [dbar] interpolated at ``depth`` (plain arrays)."""
-        z = np.asarray(magnitude(depth, "m", "length", "depth"), float)
-        d = self.depth.to("m").magnitude
-        return (np.interp(z, d, self.absolute_salinity.to("g/kg").magnitude),
-                np.interp(z, d, self.conservative_temperature.to("degC").magnitude),
-                np.interp(z, d, self.sea_pressure.to("dbar").magnitude))
 
     def mean_buoyancy_frequency(self, lower_depth, height):
         """Depth-weighted mean N over ``height`` above ``lower_depth``: sqrt(∫N² dz / height).
@@ -357,13 +339,3 @@ def _column(N, temperature, salinity, depth, pressure, latitude, longitude, heig
         else gsw.SP_from_SR(SA)
     prof = _profile(z, p, SA, CT, t, sp, lat, lon, source, None)
     return prof
-
-
-def sea_pressure_at(profile: AmbientProfile, depth) -> float:
-    """Sea pressure [dbar] at ``depth`` [m] on ``profile`` (plain floats)."""
-    return float(np.interp(depth, profile.depth.to("m").magnitude, profile.sea_pressure.to("dbar").magnitude))
-
-
-def absolute_pressure_at(profile: AmbientProfile, depth):
-    """Absolute pressure at ``depth`` [m] as a quantity."""
-    return Q_(sea_pressure_at(profile, depth) * 1e4 + STANDARD_ATMOSPHERE, "Pa")

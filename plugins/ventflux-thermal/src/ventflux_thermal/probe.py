@@ -137,10 +137,6 @@ class PenetrationResult:
     heat_pulse_energy: float | None = None  # J/m
     record_data: ProbeRecord | None = None
 
-    @property
-    def heat_flow_quantity(self):
-        return Q_(self.heat_flow, "W/m^2")
-
     def as_dict(self) -> dict:
         out = {"record": self.record, "method": self.method,
                "heat_flow_mW_m2": 1e3 * self.heat_flow, "heat_flow_se_mW_m2": 1e3 * self.heat_flow_se,
