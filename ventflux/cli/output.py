@@ -13,6 +13,16 @@ def add_output_options(parser):
     parser.add_argument("--json", action="store_true", help="print one JSON object to standard output")
 
 
+def write_output(option, path, write, *args):
+    """Call ``write(*args)``; a ``path`` that cannot be written is the user's mistake (``InputError``, exit 2)."""
+    from ..errors import InputError
+
+    try:
+        return write(*args)
+    except OSError as err:
+        raise InputError(option, str(path), f"a path that can be written ({err.strerror})") from None
+
+
 def _clean(value):
     if isinstance(value, dict):
         return {k: _clean(v) for k, v in value.items()}

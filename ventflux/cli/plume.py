@@ -12,7 +12,7 @@ from ..properties.seawater import STANDARD_ATMOSPHERE
 from ..registry import Command, Method
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
 from ..units import Q_, column_name, parse_quantity
-from .output import add_output_options, print_json
+from .output import add_output_options, print_json, write_output
 
 _UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) unit'"
 
@@ -182,22 +182,15 @@ def _run(args) -> int:
         raise InputError("--draws", draws, "inputs for which some draws give a plume within the ambient profile")
     payload = _payload(res, nom, direction, args, strat)
     if args.figure:
-        _writing("--figure", args.figure, figures.save_plume_figure, res, args.figure)
+        write_output("--figure", args.figure, figures.save_plume_figure, res, args.figure)
     if args.profile_table:
-        _writing("--profile-table", args.profile_table, _write_track, nom, args.profile_table)
+        write_output("--profile-table", args.profile_table, _write_track, nom, args.profile_table)
     if args.json:
         print_json(payload)
     else:
         _print_readable(payload, res)
     return 0
 
-
-def _writing(option, path, write, *args):
-    """Call ``write(*args)``; a path that cannot be written is the user's mistake (one line, exit 2)."""
-    try:
-        write(*args)
-    except OSError as err:
-        raise InputError(option, str(path), f"a file that can be written ({err.strerror})") from None
 
 
 def _current_profile(path):

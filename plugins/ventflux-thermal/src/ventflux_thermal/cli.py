@@ -25,7 +25,7 @@ import sys
 from pathlib import Path
 
 import numpy as np
-from ventflux.cli.output import add_output_options, print_json, print_table
+from ventflux.cli.output import add_output_options, print_json, print_table, write_output
 from ventflux.errors import InputError, InputErrors
 from ventflux.io import atomic_write_text
 from ventflux.uncertainty import parse_uncertain
@@ -59,13 +59,6 @@ def configure_probe(p):
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
     add_output_options(p)
 
-
-def _writing(option, path, write, *args):
-    """Call ``write(*args)``; a path that cannot be written is the user's mistake (one line, exit 2)."""
-    try:
-        write(*args)
-    except OSError as err:
-        raise InputError(option, str(path), f"a path that can be written ({err.strerror})") from None
 
 
 def _records(items):
@@ -138,15 +131,15 @@ def run_probe(args) -> int:
         folder = Path(args.figures)
         for res in results:
             stem = Path(res.record).stem
-            _writing("--figures", folder, resistance_figure, res, folder / f"{stem}_temperature_resistance.png")
-            _writing("--figures", folder, decay_figure, res, folder / f"{stem}_decay_fits.png", probe)
+            write_output("--figures", folder, resistance_figure, res, folder / f"{stem}_temperature_resistance.png")
+            write_output("--figures", folder, decay_figure, res, folder / f"{stem}_decay_fits.png", probe)
     rows = [result_row(r) for r in results]
     if args.out and rows:
         buf = io.StringIO()
         w = csv.DictWriter(buf, fieldnames=list(rows[0]))
         w.writeheader()
         w.writerows({k: (f"{v:.6g}" if isinstance(v, float) else v) for k, v in row.items()} for row in rows)
-        _writing("--out", args.out, atomic_write_text, args.out, buf.getvalue())
+        write_output("--out", args.out, atomic_write_text, args.out, buf.getvalue())
     if args.json:
         print_json({"method": "probe-heat-flow", "decay_model": args.decay_model,
                     "penetrations": [r.as_dict() for r in results],
@@ -205,7 +198,7 @@ def run_advection(args) -> int:
                          "heat capacity), or --fluid-heat-capacity")
     fit = fit_advection(z, T, k, pressure=p, layer_thickness=L, fluid_heat_capacity=rc, salinity=salinity)
     if args.figure:
-        _writing("--figure", args.figure, _profile_figure, z, T, fit, args.figure)
+        write_output("--figure", args.figure, _profile_figure, z, T, fit, args.figure)
     d = fit.as_dict()
     if args.json:
         print_json({"method": "profile-advection", **d})
