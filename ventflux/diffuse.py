@@ -369,7 +369,7 @@ def _draw_patch_inputs(inputs: dict, n: int, seed):
             drawn[k] = Q_(mean.magnitude[:, None] + sd.to(mean.units).magnitude[:, None] * z, mean.units)
         else:
             scalars[k] = v
-    drawn.update(draw_inputs(scalars, n, None if seed is None else seed + 1))
+    drawn.update(draw_inputs(scalars, n, None if seed is None else seed + 1))  # apart from the per-patch stream
     return drawn
 
 

@@ -233,7 +233,7 @@ def run(args) -> int:
 def _scale_up(args, inputs, dr):
     names, area, area_sd = read_area_classes(args.classes)
     if area_sd is not None:
-        rng = np.random.default_rng(args.seed + 7)
+        rng = np.random.default_rng(args.seed + 7)  # a stream of its own, apart from the patch draws
         draws = area.magnitude[:, None] + area_sd.to(area.units).magnitude[:, None] * rng.standard_normal(
             (len(names), args.draws))
         area_draws = Q_(np.clip(draws, 0.0, None), area.units)

@@ -235,7 +235,10 @@ def read_probe_record(path, n_sensors: int | None = None, sensor_columns=None) -
 
 # --------------------------------------------------------------------------- checks
 def check_timing(rec: ProbeRecord, penetration_time: float, heat_pulse_time: float | None, min_decay=60.0):
-    """Refuse a penetration or heat-pulse time the record does not contain (one line each)."""
+    """Refuse a penetration or heat-pulse time the record does not contain (one line each).
+
+    Each decay needs ``min_decay`` seconds of record (60 s, a choice made here).
+    """
     t0, t1 = rec.time[0], rec.time[-1]
     c = Collector()
     where = str(rec.path)
@@ -317,6 +320,7 @@ def fit_frictional_decay(time, temperature, penetration_time, end_time, conducti
         return _linear_fit(F, y)
 
     lo = -0.9 * t[0]
+    # origin shift searched from just after the heating to a few window starts later (a choice made here)
     res = optimize.minimize_scalar(lambda d: solve(d)[2], bounds=(lo, 3.0 * t[0] + 60.0), method="bounded",
                                    options={"xatol": 1e-3})
     c0, c1, rms, se = solve(res.x)
@@ -367,6 +371,7 @@ def fit_heat_pulse(time, excess, pulse_time, energy, probe: ProbeConstants, meth
         return p[1] + V0 * cylinder_decay(probe.alpha, t * p[0] / a2rc) - y
 
     k0 = start_conductivity or probe.start_conductivity
+    # k searched over 0.05–10 W/(m K), far wider than any sediment; offset within ±5 K (choices made here)
     sol = optimize.least_squares(resid, [k0, 0.0], bounds=([0.05, -5.0], [10.0, 5.0]), x_scale=[0.1, 0.01])
     r = sol.fun
     return PulseFit(float(sol.x[0]), first_parameter_se(sol), window, float(np.sqrt(np.mean(r * r))), int(t.size),
@@ -534,6 +539,7 @@ def reduce_penetration(record_path, sensor_depths=None, *, penetration_time=None
     q_unc = float("nan")
     if n > 2:
         rng = np.random.default_rng(seed)
+        # drawn conductivities held at the pulse fit's lower bound, 0.05 W/(m K)
         kd = np.clip(k[:, None] + np.nan_to_num(k_se)[:, None] * rng.standard_normal((n, draws)), 0.05, None)
         qd, *_ = heat_flow_regression(thermal_resistance(z, kd), Teq)
         q_unc = float(np.sqrt(np.var(qd, ddof=1) + se**2))
