@@ -99,11 +99,16 @@ class Lifetime:
     spent_fraction: float
 
 
+def _article(word):
+    return "an" if word[:1] in "aeiou" else "a"
+
+
 def _positive(q, unit, dimension, field, allow_zero=False):
     v = np.asarray(magnitude(q, unit, dimension, field), float)
     bad = v < 0 if allow_zero else v <= 0
     if np.any(bad):
-        raise InputError(field, f"{np.min(v):g} {unit}", f"a {dimension} {'≥' if allow_zero else '>'} 0")
+        sign = "≥" if allow_zero else ">"
+        raise InputError(field, f"{np.min(v):g} {unit}", f"{_article(dimension)} {dimension} {sign} 0")
     return v
 
 

@@ -48,6 +48,7 @@ from scipy.special import erf
 
 from .diffuse import temperature_difference as _difference
 from .errors import InputError
+from .reservoir import _article
 from .orifice import DEFAULT_AMBIENT_SALINITY
 from .properties import seawater_state
 from .properties.seawater import check_funnel
@@ -81,14 +82,14 @@ _GDH1_D0, _GDH1_D_SLOPE, _GDH1_D_OLD, _GDH1_D_AMP, _GDH1_D_SWITCH = 2600.0, 365.
 def _si(q, unit, dimension, field, minimum=None):
     v = np.asarray(magnitude(q, unit, dimension, field), float)
     if minimum is not None and np.any(v < minimum):
-        raise InputError(field, f"{np.min(v):g} {unit}", f"a {dimension} ≥ {minimum:g} {unit}")
+        raise InputError(field, f"{np.min(v):g} {unit}", f"{_article(dimension)} {dimension} ≥ {minimum:g} {unit}")
     return v
 
 
 def _positive(q, unit, dimension, field):
     v = _si(q, unit, dimension, field)
     if np.any(v <= 0):
-        raise InputError(field, f"{np.min(v):g} {unit}", f"a {dimension} > 0")
+        raise InputError(field, f"{np.min(v):g} {unit}", f"{_article(dimension)} {dimension} > 0")
     return v
 
 
