@@ -14,8 +14,9 @@ inputs and returning an ``Answer`` (Monte Carlo summaries with units):
 
 Monte Carlo follows the package's rule: every uncertain input is drawn once
 as an array, the domain function runs once on the arrays, and the outputs are
-summarized. Inputs that must be positive (a power, a volume) drop the draws
-that are not, and refuse the distribution if more than 5 % are dropped.
+summarized. Inputs that must be positive (a power, a volume, an uncertain
+porosity) drop the draws that are not, and refuse the distribution if more
+than 5 % are dropped.
 Without an uncertain input the answer is exact (one evaluation). An input
 may also be given as an array of draws made elsewhere (a field total's
 draws from ``ventflux.aggregate.field_total``), so the survey run can carry
@@ -224,7 +225,8 @@ def reservoir_answer(power, temperature_drop, volume=None, area=None, thickness=
                   melt_density=melt_density, size=size, diffusivity=diffusivity, spent_fraction=spent_fraction)
     life, ans = _run("reservoir", _lifetime, inputs, RESERVOIR_OUTPUTS,
                      positive=("power", "temperature_drop", "volume", "area", "thickness", "rock_density",
-                               "rock_heat_capacity", "size", "diffusivity", "melt_volume", "latent_heat"),
+                               "rock_heat_capacity", "size", "diffusivity", "melt_volume", "latent_heat",
+                               "porosity"),
                      draws=draws, seed=seed)
     share = float(np.mean(np.atleast_1d(life.controlling) == "advective decline"))
     label = "advective decline" if share >= 0.5 else "conductive cooling"
@@ -250,7 +252,8 @@ def reservoir_size_answer(power, duration, temperature_drop, area=None, rock_den
                   rock_density=rock_density, rock_heat_capacity=rock_heat_capacity, porosity=porosity,
                   temperature=temperature, pressure=pressure)
     _, ans = _run("reservoir size", rv.reservoir_size_for, inputs, SIZE_OUTPUTS,
-                  positive=("power", "duration", "temperature_drop", "area", "rock_density", "rock_heat_capacity"),
+                  positive=("power", "duration", "temperature_drop", "area", "rock_density", "rock_heat_capacity",
+                            "porosity"),
                   draws=draws, seed=seed)
     return ans
 
