@@ -60,7 +60,7 @@ from .units import Q_, magnitude, require_dimension
 DEFAULT_WINDOW = Q_(5.0, "m")
 #: Longest contiguous stretch with N² < 0 that a cast may have (a choice made here).
 DEFAULT_MAX_UNSTABLE = Q_(50.0, "m")
-#: Grid spacing of a constant-N profile (fine enough that linear interpolation is exact to < 1e-6 K).
+#: Grid spacing of a constant-N profile (a choice: linear interpolation on it is exact to < 1e-6 K).
 CONSTANT_N_SPACING = Q_(2.0, "m")
 
 

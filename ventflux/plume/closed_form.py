@@ -40,11 +40,11 @@ from __future__ import annotations
 
 import numpy as np
 
-#: Coefficient of the maximum rise height for a point-source plume, [1]_ [2]_.
+#: Coefficient of the maximum rise height for a point-source plume, [1]_ [2]_ (value from memory).
 MAXIMUM_RISE_COEFFICIENT = 5.0
-#: Spreading (neutral-buoyancy) height as a fraction of the maximum rise [1]_ (about 0.76).
+#: Spreading (neutral-buoyancy) height as a fraction of the maximum rise [1]_ (about 0.76; from memory).
 SPREADING_FRACTION = 0.76
-#: Bent-over rise coefficient in a strong current [4]_ (with F_b = F/π).
+#: Bent-over rise coefficient in a strong current [4]_ (with F_b = F/π; from memory).
 BENT_OVER_COEFFICIENT = 2.6
 #: Entrainment coefficient the closed form belongs to: 0.093 Gaussian [1]_ → √2·0.093 top-hat.
 CLOSED_FORM_ENTRAINMENT = 0.093 * np.sqrt(2.0)

@@ -84,7 +84,7 @@ from . import closed_form
 
 #: Top-hat entrainment coefficient, √2 × 0.093 (the Gaussian value of [1]_).
 DEFAULT_ENTRAINMENT = 0.093 * np.sqrt(2.0)
-#: Cross-flow (forced) entrainment coefficient β [5]_ [6]_.
+#: Cross-flow (forced) entrainment coefficient β [5]_ [6]_ (value from memory).
 CROSSFLOW_ENTRAINMENT = 0.6
 # Numerical choices made here (no source); the tests show the rise does not depend on them
 # (an adaptive reference integrator; the hand-over moved from 0.5 to 8 K).
