@@ -64,6 +64,16 @@ _EXAMPLES = {
     "dimensionless": "'34.6'",
 }
 
+def expected(dimension: str, with_unit: bool = True) -> str:
+    """What an input of ``dimension`` should look like, for error messages."""
+    if dimension in ("dimensionless", "angle"):
+        return "a number, e.g. '34.6'" if dimension == "dimensionless" else "an angle in degrees, e.g. '6 deg'"
+    article = "an" if dimension[0] in "aeiou" else "a"
+    example = _EXAMPLES.get(dimension)
+    text = f"{article} {dimension}{' with a unit' if with_unit else ''}"
+    return f"{text}, e.g. {example}" if example else text
+
+
 _NUMBER_UNIT = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(.*?)\s*$")
 
 
@@ -98,7 +108,7 @@ def parse_quantity(text, dimension: str, field: str, default_unit: str | None = 
     else:
         raw = str(text).strip()
         if not raw:
-            raise InputError(field, text, f"a {dimension}, e.g. {_EXAMPLES.get(dimension, 'a number with a unit')}")
+            raise InputError(field, text, expected(dimension, with_unit=False))
         m = _NUMBER_UNIT.match(raw)
         try:
             if m and m.group(2) == "":
@@ -114,9 +124,7 @@ def parse_quantity(text, dimension: str, field: str, default_unit: str | None = 
         except InputError:
             raise
         except Exception:
-            raise InputError(
-                field, text, f"a {dimension} with a unit, e.g. {_EXAMPLES.get(dimension, 'a number with a unit')}"
-            ) from None
+            raise InputError(field, text, expected(dimension)) from None
     return require_dimension(q, dimension, field)
 
 
@@ -125,7 +133,7 @@ def _bare(value, dimension, field, default_unit, shown):
         return Q_(value, default_unit)
     if dimension == "dimensionless":
         return Q_(value, "dimensionless")
-    raise InputError(field, shown, f"a {dimension} with a unit, e.g. {_EXAMPLES.get(dimension, 'a number with a unit')}")
+    raise InputError(field, shown, expected(dimension))
 
 
 def require_dimension(q, dimension: str, field: str):
@@ -136,7 +144,7 @@ def require_dimension(q, dimension: str, field: str):
             return Q_(q, "dimensionless")
         raise InputError(field, q, f"a {dimension} given as a pint quantity, e.g. Q_(1.4, 'm/s')")
     if not q.check(want):
-        raise InputError(field, f"{q:~P}", f"a {dimension}, e.g. {_EXAMPLES.get(dimension, 'a number with a unit')}")
+        raise InputError(field, f"{q:~P}", expected(dimension, with_unit=False))
     return q
 
 
