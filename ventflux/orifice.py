@@ -29,7 +29,7 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from .errors import InputError
-from .properties.seawater import CP0, pressure_from_depth, seawater_state
+from .properties.seawater import CP0, REFERENCE_SALINITY, pressure_from_depth, seawater_state
 from .units import Q_, magnitude, require_dimension
 from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, draw_inputs, nominal, summarize
 
@@ -40,9 +40,9 @@ SHORTCUT_HEAT_CAPACITY = Q_(CP0, "J/(kg*K)")
 #: 49/60 ≈ 0.817 [3] (from memory). Jets leaving chimney orifices are rarely
 #: fully developed; measure the profile when it matters.
 CENTERLINE_PROFILE_FACTOR = 49.0 / 60.0
-#: Practical salinity assumed for ambient seawater when none is given: 35, the
-#: Reference-Composition salinity of TEOS-10 [2].
-DEFAULT_AMBIENT_SALINITY = 35.0
+#: Practical salinity assumed for ambient seawater when none is given
+#: (``properties.seawater.REFERENCE_SALINITY``: 35, TEOS-10's standard seawater [2]).
+DEFAULT_AMBIENT_SALINITY = REFERENCE_SALINITY
 VELOCITY_KINDS = ("area-mean", "centerline")
 
 

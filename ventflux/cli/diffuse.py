@@ -35,12 +35,13 @@ from ..properties.seawater import pressure_from_depth
 from ..registry import Command, Method
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain, summarize
 from ..units import Q_, parse_quantity
+from ..properties.seawater import REFERENCE_SALINITY
 from .output import add_output_options, print_json, print_table
 
-#: Practical salinity used when none is given: typical of deep ocean water
-#: (about 34.6–34.7 below 2000 m; from memory). It changes the enthalpy
+#: Practical salinity used when none is given: the package-wide default
+#: (``properties.seawater.REFERENCE_SALINITY``, 35). It changes the enthalpy
 #: difference of a few-kelvin anomaly by well under 0.1 %.
-DEFAULT_SALINITY = "34.7"
+DEFAULT_SALINITY = f"{REFERENCE_SALINITY:g}"
 
 
 def configure(p):
@@ -64,7 +65,7 @@ def configure(p):
     a = p.add_argument_group("ambient seawater")
     a.add_argument("--ambient-temperature", required=True, help="in-situ ambient temperature, e.g. '2.1 degC'")
     a.add_argument("--salinity", default=DEFAULT_SALINITY,
-                   help=f"ambient practical salinity (default {DEFAULT_SALINITY}, typical deep water)")
+                   help=f"ambient practical salinity (default {DEFAULT_SALINITY}, TEOS-10 standard seawater)")
     a.add_argument("--pressure", help="absolute in-situ pressure, e.g. '22.3 MPa'")
     a.add_argument("--depth", help="depth below the sea surface, e.g. '2200 m' (instead of --pressure)")
     a.add_argument("--latitude", type=float, help="latitude in degrees north, for --depth")

@@ -5,6 +5,7 @@ from __future__ import annotations
 import sys
 
 from ..errors import Collector, InputError
+from ..orifice import DEFAULT_AMBIENT_SALINITY
 from ..registry import Command, Method
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
 from .output import add_output_options, print_json
@@ -53,7 +54,8 @@ def configure(p):
     where.add_argument("--depth", metavar="Q", help="depth below the sea surface, e.g. '2550 m' (TEOS-10 p_from_z)")
     a.add_argument("--latitude", type=float, default=None, metavar="DEG", help="latitude in degrees north (for --depth)")
     a.add_argument("--ambient-temperature", required=True, metavar="Q", help="in-situ ambient temperature, e.g. '2.1 degC'")
-    a.add_argument("--ambient-salinity", default="35", metavar="S", help="practical salinity (default 35)")
+    a.add_argument("--ambient-salinity", default=f"{DEFAULT_AMBIENT_SALINITY:g}", metavar="S",
+                   help=f"practical salinity (default {DEFAULT_AMBIENT_SALINITY:g}, TEOS-10 standard seawater)")
     m = p.add_argument_group("model and uncertainty")
     m.add_argument("--fluid", default="iapws95-water", help="vent-fluid model (see 'ventflux methods')")
     m.add_argument("--draws", type=int, default=None, metavar="N",

@@ -32,6 +32,10 @@ from ..units import Q_, magnitude
 
 #: One standard atmosphere in Pa (the zero of sea pressure) [1].
 STANDARD_ATMOSPHERE = 101_325.0
+#: Practical salinity assumed for ambient seawater wherever none is given: 35,
+#: the salinity of TEOS-10's Reference-Composition standard seawater [1]. Deep
+#: water is 34.6-34.9 (from memory); the difference moves heat power by < 0.1 %.
+REFERENCE_SALINITY = 35.0
 #: TEOS-10's "specific heat" cp0 for conservative temperature, J/(kg K) [1], eq. (3.3.3).
 CP0 = gsw.cp0 if hasattr(gsw, "cp0") else 3991.86795711963
 
