@@ -347,9 +347,14 @@ code{{background:#f4f4f4;padding:0 .2rem}} .wrap{{overflow-x:auto}}
     inconsistent = [vr.name for vr in result.vents if vr.comparison is not None and not vr.comparison.consistent]
     compared = [vr.name for vr in result.vents if vr.comparison is not None]
     if compared:
-        key.append(f"Independent methods agree within their errors for {len(compared) - len(inconsistent)} of "
-                   f"{len(compared)} vents measured by more than one method" +
-                   (f"; they disagree for {esc(', '.join(inconsistent))}." if inconsistent else "."))
+        n_ok, n = len(compared) - len(inconsistent), len(compared)
+        which = (f"the one vent measured by more than one method ({esc(compared[0])})" if n == 1 else
+                 f"{n_ok if n_ok else 'all'} of the {n} vents measured by more than one method")
+        if n_ok == 0:
+            key.append(f"Independent methods disagree beyond their errors for {which}.")
+        else:
+            key.append(f"Independent methods agree within their errors for {which}" +
+                       (f"; they disagree for {esc(', '.join(inconsistent))}." if inconsistent else "."))
     for k, cmp in result.checks:
         p = cmp.pairs[0]
         key.append(f"The {esc(k.replace('_', ' '))} check gives {1 / p.ratio:.2f} times the {esc(p.first)}"
