@@ -106,7 +106,7 @@ def read_quantity_table(path, columns: dict, optional: dict | None = None, alter
     errs.raise_if_any()
     out = {}
     lines = np.array([n for n, _ in data], int)
-    for name, (dim, _) in wanted.items():
+    for name in wanted:
         if name not in found:
             continue
         i, unit, label = found[name]

@@ -43,9 +43,9 @@ def configure(p):
 
 
 def _format_text():
-    from ..survey.spec import _registry
+    from ..survey.spec import survey_components
 
-    methods, sections = _registry()
+    methods, sections = survey_components()
     m = "\n".join(f"             [vent.{k}]{'(array: [[vent.' + k + ']])' if v.many else ''}: {v.summary} "
                   f"({v.provider})" for k, v in sorted(methods.items()))
     s = "\n".join(f"[{k}]  {v.summary} ({v.provider})" for k, v in sorted(sections.items()))

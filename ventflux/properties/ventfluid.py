@@ -150,7 +150,6 @@ def _build_table():
     liquid (value and temperature slope), which keeps the spline smooth on the
     liquid side. Points near saturation are never read from the table anyway.
     """
-    CP = _coolprop()
     TT, PP = np.meshgrid(_T_NODES, _P_NODES, indexing="ij")
     tsat = _saturation_temperature_direct(_P_NODES)
     vapour = np.isfinite(tsat)[None, :] & (TT >= tsat[None, :] - 0.5)

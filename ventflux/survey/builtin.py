@@ -36,8 +36,7 @@ def _parse_orifice(f, ctx):
     spec["velocity_factor"] = f.quantity("velocity_factor", "dimensionless", positive=True)
     spec["velocity_kind"] = f.string("velocity_kind", default="area-mean", choices=VELOCITY_KINDS)
     _check_exit_temperature(f, spec["temperature"], ctx.site)
-    spec["profile_factor"] = f.quantity("profile_factor", "dimensionless",
-                                        default=None if "profile_factor" in f.table else None)
+    spec["profile_factor"] = f.quantity("profile_factor", "dimensionless", positive=True)
     if spec["velocity_kind"] == "centerline" and spec["profile_factor"] is None:
         f.defaults[f.key("profile_factor")] = f"{CENTERLINE_PROFILE_FACTOR:.4f} (1/7-power-law turbulent profile)"
     f.check_unknown()

@@ -57,11 +57,12 @@ def _estimate(spec, vent, ctx):
     kwargs = dict(level=spec["level"], method=spec["method"], pressure=ctx.pressure,
                   latitude=ctx.site.latitude, longitude=ctx.site.longitude)
     if spec["buoyancy_frequency"] is not None:
-        strat = drawn("buoyancy_frequency")
+        strat = _full(drawn("buoyancy_frequency"), n, "1/s")
+        strat_nominal = nominal_of(spec["buoyancy_frequency"])
         kwargs.update(ambient_temperature=Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
                       ambient_salinity=float(np.mean(ctx.ambient_salinity)))
     else:
-        strat = ctx.stratification
+        strat = strat_nominal = ctx.stratification
     cur = drawn("current")
     scale = drawn("stratification_scale")
     arrays = {"rise_height": _full(z, n, "m"), "entrainment": _full(alpha, n, "dimensionless")}
@@ -69,14 +70,10 @@ def _estimate(spec, vent, ctx):
         arrays["current"] = _full(cur, n, "m/s")
     if scale is not None:
         arrays["stratification_scale"] = as_float(_full(scale, n, "dimensionless"))
-    if spec["buoyancy_frequency"] is not None:
-        strat = _full(strat, n, "1/s")
     res = heat_power_from_rise_height(arrays.pop("rise_height"), strat, **arrays, **kwargs, predrawn=True)
-    nominal = heat_power_from_rise_height(
-        nominal_of(spec["height"]), strat if not hasattr(strat, "shape") or np.ndim(getattr(strat, "magnitude", 0))
-        == 0 else Q_(float(np.median(strat.magnitude)), strat.units),
-        entrainment=float(as_float(nominal_of(spec["entrainment"]))) if spec["entrainment"] is not None
-        else DEFAULT_ENTRAINMENT, track=True, **kwargs)
+    alpha_nominal = DEFAULT_ENTRAINMENT if spec["entrainment"] is None else float(as_float(nominal_of(spec["entrainment"])))
+    nominal = heat_power_from_rise_height(nominal_of(spec["height"]), strat_nominal, entrainment=alpha_nominal,
+                                          track=True, **kwargs)
     H = res.heat_power.to("W").magnitude
     row = {"vent": vent, "observed_height [m]": float(nominal_of(spec["height"]).to("m").magnitude),
            "level": spec["level"], "model": spec["method"],

@@ -83,9 +83,8 @@ def tables_of(result) -> dict:
         for key, e in vr.methods.items():
             if key != "orifice" and e.rows:
                 t.setdefault(f"{key}", []).extend(e.rows)
-    for key, s in result.sections.items():
-        for name, rows in s.tables.items():
-            t[name] = rows
+    for s in result.sections.values():
+        t.update(s.tables)
     totals = []
     for label, ft in (("focused", result.focused), ("diffuse", result.diffuse), ("conductive", result.conductive)):
         if ft is not None:

@@ -23,7 +23,7 @@ from ..orifice import in_situ_pressure
 from ..units import Q_
 from ..uncertainty import summarize
 from .api import RunContext
-from .spec import SurveySpec
+from .spec import SurveySpec, survey_components
 
 
 @dataclass
@@ -57,16 +57,10 @@ class SurveyResult:
     notes: list = field(default_factory=list)
 
 
-def _methods_and_sections():
-    from .spec import _registry
-
-    return _registry()
-
-
 def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
     """Compute everything a survey file asks for (see ``ventflux.survey.spec``)."""
     t0 = time.perf_counter()
-    methods, sections = _methods_and_sections()
+    methods, sections = survey_components()
     draws = SharedDraws(spec.draws, spec.seed)
     site = spec.site
     pressure = in_situ_pressure(site.pressure, site.depth, site.latitude)

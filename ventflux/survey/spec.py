@@ -76,7 +76,8 @@ class SurveySpec:
     input_files: dict = field(default_factory=dict)
 
 
-def _registry():
+def survey_components():
+    """Survey methods and sections of the core and every plugin, by their key in the survey file."""
     from ..registry import survey_methods, survey_sections
 
     methods = {m.key: m for m in survey_methods()}
@@ -143,7 +144,7 @@ def load_survey(path) -> SurveySpec:
     if run is None:
         defaults["run.draws"] = str(DEFAULT_DRAWS)
 
-    methods, sections = _registry()
+    methods, sections = survey_components()
     ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files)
     vents = []
     names = set()
