@@ -1,7 +1,7 @@
 """Write a survey's results folder: tables (CSV), figures (PNG), a JSON summary and an HTML report.
 
 The folder is built under a temporary name and renamed into place when
-complete (``ventflux.io.atomic_directory``), so a half-written folder is never
+complete (``ventflux.io.results_directory``), so a half-written folder is never
 mistaken for a finished one; ``summary.json`` holds the provenance: package
 and plugin versions, a SHA-256 of every input file, the seed, the draws,
 every parameter and every default used.
@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 
 from ..errors import InputError
-from ..io import atomic_directory, sha256_of
+from ..io import check_results_destination, results_directory, sha256_of
 
 CAUTION = ("These estimates are for scientific analysis. They are not for the operational safety of people or "
            "vehicles near hot fluids: follow the operator's procedures and local codes.")
@@ -34,7 +34,8 @@ def _mw(s):
 
 
 def check_output_location(out_dir: Path, spec):
-    """Refuse an output folder that holds, or is, any input: replacing it would destroy them."""
+    """Refuse an output folder that holds, or is, any input, or anything ventflux did not write."""
+    check_results_destination(out_dir, "--out")
     out = Path(out_dir).resolve()
     for f in spec.input_files:
         p = Path(f).resolve()
@@ -274,7 +275,7 @@ def write_results(result, out_dir) -> Path:
     summary = summary_of(result, tables)
     import matplotlib.pyplot as plt
 
-    with atomic_directory(out_dir) as tmp:
+    with results_directory(out_dir, "--out") as tmp:
         (tmp / "tables").mkdir()
         (tmp / "figures").mkdir()
         for name, rows in tables.items():
