@@ -313,10 +313,27 @@ def _frame(rows):
     return pd.DataFrame([{k: _plain_cell(v) for k, v in r.items()} for r in rows])
 
 
+_LABEL_WORDS = {"p05": "5 %", "p95": "95 %", "std": "s.d.", "median": "median", "degC": "°C", "MW": "MW"}
+
+
+def human_label(column: str) -> str:
+    """A column name as a reader sees it: ``heat_power_p05 [MW]`` → ``Heat power 5 % [MW]``.
+
+    The CSV tables keep the machine names (stable for scripts); only the report shows these labels.
+    """
+    name, _, unit = column.partition(" [")
+    words = [_LABEL_WORDS.get(w, w) for w in name.replace("_", " ").split()]
+    text = " ".join(words)
+    text = text[:1].upper() + text[1:]
+    return f"{text} [{unit}" if unit else text
+
+
 def _table_html(rows):
     if not rows:
         return "<p>(none)</p>"
-    table = _frame(rows).to_html(index=False, float_format=lambda x: f"{x:.4g}", na_rep="–", border=0, classes="t")
+    frame = _frame(rows)
+    frame.columns = [human_label(str(c)) for c in frame.columns]
+    table = frame.to_html(index=False, float_format=lambda x: f"{x:.4g}", na_rep="–", border=0, classes="t")
     return f"<div class='wrap'>{table}</div>"
 
 
@@ -328,11 +345,16 @@ def _html(result, tables, images, summary) -> str:
 <style>
 body{{font-family:system-ui,sans-serif;max-width:62rem;margin:2rem auto;padding:0 1rem;color:#222;line-height:1.45}}
 h1{{font-size:1.6rem}} h2{{font-size:1.2rem;border-bottom:1px solid #ccc;padding-bottom:.2rem;margin-top:2rem}}
-table.t{{border-collapse:collapse;font-size:.85rem;margin:.5rem 0}} table.t td,table.t th{{padding:.2rem .5rem;
-border-bottom:1px solid #e3e3e3;text-align:right}} table.t th{{background:#f4f4f4}}
+table.t{{border-collapse:collapse;font-size:.8rem;margin:.5rem 0;width:100%}}
+table.t td,table.t th{{padding:.2rem .35rem;border-bottom:1px solid #e3e3e3;text-align:right;overflow-wrap:break-word}}
+table.t th{{overflow-wrap:anywhere}}
+table.t th{{background:#f4f4f4;font-weight:600;vertical-align:bottom}} table.t td:first-child{{text-align:left}}
 .caution{{background:#fff4e0;border-left:4px solid #e0a030;padding:.6rem 1rem}}
 .key{{font-size:1.1rem}} figure{{margin:1rem 0}} figcaption{{font-size:.85rem;color:#555}}
-code{{background:#f4f4f4;padding:0 .2rem}} .wrap{{overflow-x:auto}}
+code{{background:#f4f4f4;padding:0 .2rem;overflow-wrap:anywhere}} .wrap{{max-width:100%}}
+img{{max-width:100%;height:auto}} li{{overflow-wrap:anywhere}}
+@media print{{body{{max-width:none;margin:0;font-size:9pt}} table.t{{font-size:7.5pt}} h2{{break-after:avoid}}
+figure,tr{{break-inside:avoid}} .caution{{border:1px solid #e0a030}}}}
 </style></head><body>
 <h1>Heat and water discharge: {esc(spec.site.name)}</h1>
 <p class="caution">{esc(CAUTION)}</p>"""]
