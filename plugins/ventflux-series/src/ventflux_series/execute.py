@@ -1,0 +1,191 @@
+"""Running the items: serially, on Dask's threaded scheduler, or on a ``dask.distributed`` cluster; resumable.
+
+Every item is one task (``estimate.estimate_item``). Its result is cached on disk under a key made of the
+item file's SHA-256 and every setting that affects it (method, the vent's inputs and their draws, the site,
+the averaging window, the unphysical-draw limit, the versions of ventflux and this plugin), so a run killed
+part-way and started again recomputes only the items that had not finished; ``fresh=True`` ignores the cache.
+A cached result is written atomically (temporary name, then rename), so a killed task never leaves a
+half-written entry that a later run would trust.
+
+Schedulers:
+
+* ``"serial"``: a plain loop in this process (also the baseline of the scaling benchmark);
+* ``"threads"``: Dask's threaded scheduler, for small manifests (no process start-up);
+* ``"processes"`` (default for more than ``SMALL_MANIFEST`` items): a local ``dask.distributed`` cluster with
+  one single-threaded worker process per core;
+* an address (``tcp://host:8786``): an existing ``dask.distributed`` scheduler.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import os
+import sys
+import tempfile
+from collections.abc import Callable
+from pathlib import Path
+
+import numpy as np
+
+from .estimate import ItemResult, estimate_item
+
+#: Up to this many items the threaded scheduler is used by default (starting worker processes costs seconds).
+SMALL_MANIFEST = 8
+
+
+def _digest(obj) -> str:
+    return hashlib.sha256(json.dumps(obj, sort_keys=True, default=str).encode()).hexdigest()
+
+
+def item_key(item, vent, site, draws, settings: dict) -> str:
+    """Content key of an item's result: its file's bytes and every setting that affects it."""
+    from ventflux import __version__ as core_version
+    from ventflux.io import sha256_of
+
+    from . import __version__
+
+    draws_hash = hashlib.sha256()
+    for k in sorted(draws):
+        draws_hash.update(k.encode())
+        draws_hash.update(np.ascontiguousarray(np.asarray(draws[k], float)).tobytes())
+    return _digest({"file": sha256_of(item.path), "method": item.method, "start": item.start,
+                    "vent_inputs": {k: str(v) for k, v in sorted(vent.inputs.items())}, "orifice": vent.orifice_xy,
+                    "draws": draws_hash.hexdigest(), "site": site, "settings": settings,
+                    "versions": [core_version, __version__]})
+
+
+def _cache_path(cache: Path, key: str) -> Path:
+    return cache / key[:2] / f"{key}.npz"
+
+
+def load_cached(cache: Path, key: str, item) -> ItemResult | None:
+    path = _cache_path(cache, key)
+    try:
+        with np.load(path, allow_pickle=False) as z:
+            meta = json.loads(str(z["meta"]))
+            return ItemResult(item.index, item.vent, item.method, z["times"], z["power"], z["unphysical"],
+                              meta["flags"], meta["error"])
+    except (OSError, KeyError, ValueError):
+        return None  # absent or damaged: recomputed, never trusted
+
+
+def store_cached(cache: Path, key: str, res: ItemResult) -> None:
+    path = _cache_path(cache, key)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.stem}.", suffix=".part.npz", dir=path.parent)
+    try:
+        with os.fdopen(fd, "wb") as fh:
+            np.savez(fh, times=res.times, power=res.power_draws, unphysical=res.unphysical,
+                     meta=np.array(json.dumps({"flags": res.flags, "error": res.error})))
+        os.replace(tmp, path)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def _task(item, vent, site, draws, n_draws, interval_s, max_unphysical, cache, key):
+    """One Dask task: estimate and cache (the cache write happens on the worker, so a killed client loses
+    nothing a worker finished)."""
+    res = estimate_item(item, vent, site, draws, n_draws, interval_s, max_unphysical)
+    if cache is not None:
+        store_cached(Path(cache), key, res)
+    return res
+
+
+def _progress(done: int, total: int, quiet: bool) -> None:
+    if quiet:
+        return
+    width = 30
+    filled = int(width * done / max(total, 1))
+    sys.stderr.write(f"\rventflux series: [{'#' * filled}{'.' * (width - filled)}] {done}/{total} items")
+    if done == total:
+        sys.stderr.write("\n")
+    sys.stderr.flush()
+
+
+def run_items(manifest, draws_by_vent: dict, site: dict, *, scheduler: str | None = None,
+              workers: int | None = None, cache: Path | None = None, fresh: bool = False, quiet: bool = True,
+              on_done: Callable[[ItemResult], None] | None = None) -> tuple[list[ItemResult], dict]:
+    """Estimate every item; return the results in item order and run statistics (cached/computed counts).
+
+    Parameters
+    ----------
+    manifest : manifest.Manifest
+    draws_by_vent : dict
+        ``inputs.series_input_draws`` (made once, on the client).
+    site : dict
+        ``inputs.site_state``.
+    scheduler : {"serial", "threads", "processes"} or str, optional
+        Or a ``dask.distributed`` scheduler address. Default: threads for at most ``SMALL_MANIFEST`` items,
+        else a local cluster of one worker process per core.
+    workers : int, optional
+        Worker processes of a local cluster (default: the machine's cores).
+    cache : pathlib.Path, optional
+        Folder of cached item results (none: no caching).
+    fresh : bool
+        Ignore cached results (they are overwritten).
+    """
+    settings = {"draws": manifest.draws, "seed": manifest.seed, "interval_s": manifest.interval_s,
+                "max_unphysical": manifest.max_unphysical}
+    results: dict[int, ItemResult] = {}
+    todo = []
+    for item in manifest.items:
+        vent = manifest.vents[item.vent]
+        key = item_key(item, vent, site, draws_by_vent[item.vent], settings) if cache is not None else ""
+        hit = None if (cache is None or fresh) else load_cached(cache, key, item)
+        if hit is not None:
+            results[item.index] = hit
+        else:
+            todo.append((item, vent, key))
+    stats = {"items": len(manifest.items), "cached": len(results), "computed": len(todo)}
+    total = len(manifest.items)
+    _progress(len(results), total, quiet)
+    args = [(item, vent, site, draws_by_vent[item.vent], manifest.draws, manifest.interval_s,
+             manifest.max_unphysical, None if cache is None else str(cache), key) for item, vent, key in todo]
+    if scheduler is None:
+        scheduler = "threads" if len(todo) <= SMALL_MANIFEST else "processes"
+    stats["scheduler"] = scheduler
+
+    def done(res):
+        results[res.index] = res
+        if on_done is not None:
+            on_done(res)
+        _progress(len(results), total, quiet)
+
+    if not todo:
+        pass
+    elif scheduler == "serial":
+        for a in args:
+            done(_task(*a))
+    elif scheduler == "threads":
+        import dask
+
+        tasks = [dask.delayed(_task, pure=False)(*a) for a in args]
+        for res in dask.compute(*tasks, scheduler="threads", num_workers=workers):
+            done(res)
+    else:
+        _run_distributed(args, scheduler, workers, done)
+    return [results[i] for i in range(total)], stats
+
+
+def _run_distributed(args, scheduler, workers, done) -> None:
+    from distributed import Client, LocalCluster, as_completed
+
+    if scheduler == "processes":
+        n = workers or os.cpu_count() or 1
+        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, dashboard_address=None,
+                               silence_logs=40)
+        client = Client(cluster)
+    else:
+        cluster = None
+        client = Client(scheduler, timeout="20s")
+    try:
+        futures = [client.submit(_task, *a, pure=False) for a in args]
+        for fut in as_completed(futures):
+            done(fut.result())
+            fut.release()
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()
