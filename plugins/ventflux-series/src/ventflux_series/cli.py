@@ -16,6 +16,9 @@ def configure(p):
                         "address of a dask.distributed scheduler (default: threads for up to 8 items, else processes)")
     p.add_argument("--workers", type=int, default=None, metavar="N", help="worker processes of a local cluster")
     p.add_argument("--fresh", action="store_true", help="recompute every item, ignoring cached results")
+    p.add_argument("--cache", metavar="DIR", default=None,
+                   help="folder of finished items, shared by reruns (default: the ventflux cache folder's series/; "
+                        "on a cluster, a folder every worker can write)")
     p.add_argument("--check", action="store_true", help="validate the manifest and its items, compute nothing")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.add_argument("--json", action="store_true", help="print one JSON object to standard output")
@@ -41,7 +44,8 @@ def run(args) -> int:
     from ventflux.io import check_results_destination
 
     check_results_destination(out, "--out")
-    res = run_series(m, scheduler=args.scheduler, workers=args.workers, fresh=args.fresh, quiet=args.quiet)
+    res = run_series(m, scheduler=args.scheduler, workers=args.workers, fresh=args.fresh, quiet=args.quiet,
+                     cache=Path(args.cache) if args.cache else None)
     report = res.write(out)
     failed = [r for r in res.results if not r.ok]
     if args.json:
