@@ -170,7 +170,13 @@ def run_items(manifest, draws_by_vent: dict, site: dict, *, scheduler: str | Non
 
 
 def _run_distributed(args, scheduler, workers, done) -> None:
+    import logging
+
     from distributed import Client, LocalCluster, as_completed
+
+    # The cluster's own start/stop chatter is not the user's business; errors still show.
+    for name in ("distributed", "distributed.nanny", "distributed.scheduler", "distributed.worker"):
+        logging.getLogger(name).setLevel(logging.ERROR)
 
     if scheduler == "processes":
         n = workers or os.cpu_count() or 1
