@@ -222,3 +222,24 @@ def test_killed_run_resumes_with_only_unfinished_items(tmp_path):
     assert len(tab) == len(fresh.series[0].times)
     med = np.array([float(r.split(",")[1]) for r in tab]) * 1e6
     np.testing.assert_allclose(med, fresh.series[0].median_W, rtol=1e-5)
+
+
+def test_demo_recovers_its_tides_and_step(tmp_path):
+    """The fictional demo (examples/oskeran-ridge/series): M2 and K1 found, the step (day 15.3) inside its interval."""
+    import shutil
+
+    demo = Path(__file__).resolve().parents[3] / "examples" / "oskeran-ridge" / "series"
+    for f in ("make_series_demo.py", "series.toml"):
+        shutil.copy(demo / f, tmp_path / f)
+    subprocess.run([sys.executable, str(tmp_path / "make_series_demo.py")], check=True)
+    m = read_manifest(tmp_path / "series.toml")
+    m.draws = 200  # the demo's 1000 draws cost time, not accuracy of the medians this checks
+    run = run_series(m, scheduler="threads", cache=False)
+    gildhorn = next(s for s in run.series if s.vent == "Gildhorn")
+    assert {"M2", "K1"} <= {c.name for c in gildhorn.constituents if c.found}
+    assert len(gildhorn.steps) == 1
+    truth = np.datetime64("2026-03-01T00:00:00") + np.timedelta64(int(15.3 * 86400), "s")
+    assert gildhorn.steps[0].time_low <= truth <= gildhorn.steps[0].time_high
+    lantern = next(s for s in run.series if s.vent == "Lantern patch")
+    assert "M2" in {c.name for c in lantern.constituents if c.found} and lantern.steps == []
+    assert [r.file for r in run.results if not r.ok] == ["gildhorn_logger_corrupt.csv"]
