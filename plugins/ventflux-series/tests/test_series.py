@@ -243,3 +243,56 @@ def test_demo_recovers_its_tides_and_step(tmp_path):
     lantern = next(s for s in run.series if s.vent == "Lantern patch")
     assert "M2" in {c.name for c in lantern.constituents if c.found} and lantern.steps == []
     assert [r.file for r in run.results if not r.ok] == ["gildhorn_logger_corrupt.csv"]
+
+
+def test_clips_give_the_video_methods_numbers(tmp_path):
+    """Two clip items of the demo's (fictional) jet: the exit-velocity item equals ρ u A Δh with the clip's exit
+    velocity (CoolProp direct); the velocity-decay item equals the video plugin's own heat power for the clip;
+    an exact pixel size gives every draw the same value."""
+    pytest.importorskip("ventflux_video")
+    import shutil
+
+    from ventflux.units import Q_
+    from ventflux_video.jet import analyze_jet_clip
+
+    clip = Path(__file__).resolve().parents[3] / "examples" / "oskeran-ridge" / "data" / "gildhorn_jet.mp4"
+    shutil.copy(clip, tmp_path / "jet.mp4")
+    (tmp_path / "items.csv").write_text("vent,file,start\nJet,jet.mp4,2026-05-01T10:00:00Z\n"
+                                        "Plume,jet.mp4,2026-05-01T10:00:00Z\n")
+    (tmp_path / "m.toml").write_text(textwrap.dedent(f"""
+        [series]
+        items = "items.csv"
+        draws = 100
+        [site]
+        depth = "{DEPTH_M} m"
+        latitude = {LAT}
+        ambient_temperature = "2.0 degC"
+        ambient_salinity = 34.7
+        [[vent]]
+        name = "Jet"
+        method = "video-exit-velocity"
+        diameter = "10 cm"
+        exit_temperature = "320 degC"
+        metres_per_pixel = "4 mm"
+        orifice_x = 79.5
+        orifice_y = 248
+        [[vent]]
+        name = "Plume"
+        method = "video-velocity-decay"
+        metres_per_pixel = "4 mm"
+        orifice_x = 79.5
+        orifice_y = 248
+        """))
+    run = run_series(tmp_path / "m.toml", scheduler="serial", cache=False)
+    assert all(r.ok for r in run.results), [r.error for r in run.results]
+    import gsw
+
+    p = gsw.p_from_z(-DEPTH_M, LAT) * 1e4 + 101325.0
+    ref = analyze_jet_clip(str(tmp_path / "jet.mp4"), Q_(4, "mm"), (79.5, 248), ambient_temperature=Q_(2.0, "degC"),
+                           ambient_salinity=34.7, pressure=Q_(p, "Pa"), latitude=LAT)
+    jet, plume = run.series
+    u = ref.exit_velocity.to("m/s").magnitude
+    np.testing.assert_allclose(jet.median_W, _reference_power(np.array([320.0]), u, 0.10), rtol=2e-4)
+    np.testing.assert_allclose(plume.median_W, [ref.heat_power.to("W").magnitude], rtol=1e-6)
+    assert jet.p05_W[0] == jet.p95_W[0]
+    assert jet.times[0] > np.datetime64("2026-05-01T10:00:00")  # the clip's middle, not its start
