@@ -232,7 +232,7 @@ def analyze(series: VentSeries, min_steps: int = 12) -> VentSeries:
         mid = times_ok[i - 1] + (times_ok[i] - times_ok[i - 1]) // 2
         series.steps.append(Step(mid, times_ok[lo - 1], times_ok[hi], float(coef[c]), float(np.sqrt(cov[c, c]))))
     series.steps.sort(key=lambda s: s.time)
-    for k, name in enumerate(TIDAL_PERIODS_H):
+    for name in TIDAL_PERIODS_H:
         if name not in cons:
             series.constituents.append(Constituent(name, TIDAL_PERIODS_H[name], False))
             continue

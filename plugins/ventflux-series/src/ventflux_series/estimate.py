@@ -258,8 +258,8 @@ def _video(item, vent, draws, site, n):
     except InputError as err:
         raise ItemFailure(err.line()) from None
     except (OSError, ValueError, RuntimeError) as err:
-        raise ItemFailure(f"clip could not be analysed ({str(err).splitlines()[0] if str(err) else type(err).__name__})") \
-            from None
+        why = str(err).splitlines()[0] if str(err) else type(err).__name__
+        raise ItemFailure(f"clip could not be analysed ({why})") from None
     ratio = np.broadcast_to(s / s_nom, (n,))
     duration_s = float(res.field.pairs) / float(res.frame_rate.to("1/s").magnitude)
     time = (item.start + np.timedelta64(int(duration_s / 2 * 1e9), "ns")).astype("datetime64[ns]")

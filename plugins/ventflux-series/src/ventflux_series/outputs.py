@@ -180,7 +180,8 @@ text-align:left;overflow-wrap:anywhere}} th{{background:#f4f4f4}} img{{max-width
         parts.append(f"<h2>{esc(s.vent)}</h2>")
         if v["mean_heat_power_median_W"] is not None:
             parts.append(f"<p>Mean output over the series <b>{v['mean_heat_power_median_W'] / 1e6:.3g} MW</b> "
-                         f"(5–95 %: {v['mean_heat_power_p05_W'] / 1e6:.3g}–{v['mean_heat_power_p95_W'] / 1e6:.3g} MW);"
+                         f"(5–95 %: {v['mean_heat_power_p05_W'] / 1e6:.3g}–"
+                         f"{v['mean_heat_power_p95_W'] / 1e6:.3g} MW);"
                          f" trend {s.trend_W_per_day / 1e6:+.3g} ± {s.trend_sd_W_per_day / 1e6:.2g} MW/day.</p>")
         for st in v["steps"]:
             parts.append(f"<p>Step of {st['size_W'] / 1e6:+.3g} ± {st['size_sd_W'] / 1e6:.2g} MW at "
@@ -191,7 +192,8 @@ text-align:left;overflow-wrap:anywhere}} th{{background:#f4f4f4}} img{{max-width
         if v["tidal_constituents"]:
             parts.append("<p>Tidal constituents found (amplitude above three standard errors): "
                          + (esc(", ".join(found)) or "none")
-                         + (f"; not resolved by this record's length: {esc(', '.join(unresolved))}" if unresolved else "")
+                         + (f"; not resolved by this record's length: {esc(', '.join(unresolved))}"
+                            if unresolved else "")
                          + ". Strongest periodogram peaks: "
                          + esc(", ".join(f"{p:.2f} h" for p in v["periods_h"])) + ".</p>")
         for png, alt in figures.get(s.vent, []):
