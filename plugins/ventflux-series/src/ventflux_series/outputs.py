@@ -165,7 +165,8 @@ def report_html(manifest, series, summary, figures) -> str:
 <title>ventflux series report: {esc(manifest.name)}</title><style>
 body{{font-family:system-ui,sans-serif;max-width:62rem;margin:2rem auto;padding:0 1rem;color:#222;line-height:1.45}}
 table{{border-collapse:collapse;font-size:.85rem;width:100%}}
-td,th{{padding:.2rem .4rem;border-bottom:1px solid #e3e3e3;text-align:left;overflow-wrap:anywhere}} th{{background:#f4f4f4}} img{{max-width:100%;height:auto}}
+td,th{{padding:.2rem .4rem;border-bottom:1px solid #e3e3e3;text-align:left;overflow-wrap:anywhere}}
+th{{background:#f4f4f4}} img{{max-width:100%;height:auto}}
 .caution{{background:#fff4e0;border-left:4px solid #e0a030;padding:.6rem 1rem}}
 @media print{{body{{max-width:none;margin:0}} figure{{break-inside:avoid}}}}
 </style></head><body><h1>Heat output through time: {esc(manifest.name)}</h1>
