@@ -5,6 +5,23 @@ between the fluid at its exit temperature and the *same* fluid at ambient
 temperature, both at the in-situ pressure, from *one* equation of state:
 enthalpies from two equations of state have different reference states and
 must never be subtracted.
+
+The constant-c_p shortcut
+-------------------------
+People compare with the shortcut ``c_p (T − T_a)``; ventflux shows it beside
+the enthalpy difference, never instead of it, with *one* definition
+everywhere (orifice, diffuse, summarize water): ``c_p`` is TEOS-10's
+``c_p0`` = 3991.868 J/(kg K) [1], the constant heat capacity that makes
+conservative temperature proportional to potential enthalpy. It is a
+constant, the same at every state, so the shortcut depends on nothing but
+the temperature difference; the mass flux it is applied to is the one of
+the enthalpy result. At 350 °C and 25 MPa the shortcut falls about 14 %
+short (the mean heat capacity of water between 2 and 350 °C is higher).
+
+References
+----------
+.. [1] IOC, SCOR and IAPSO (2010). The international thermodynamic equation
+   of seawater – 2010 (TEOS-10), Manuals and Guides No. 56, eq. (3.3.3).
 """
 
 from __future__ import annotations
@@ -15,6 +32,32 @@ import numpy as np
 
 from ..errors import InputError
 from ..units import Q_, magnitude
+from .seawater import CP0
+
+#: Heat capacity of the constant-c_p shortcut: TEOS-10's c_p0 [1], J/(kg K).
+SHORTCUT_HEAT_CAPACITY = Q_(CP0, "J/(kg*K)")
+
+
+def shortcut_heat_content(temperature, ambient_temperature, heat_capacity=SHORTCUT_HEAT_CAPACITY):
+    """The constant-c_p shortcut ``c_p (T − T_a)`` [J/kg], for comparison only (see module notes).
+
+    Parameters
+    ----------
+    temperature, ambient_temperature : pint.Quantity
+        Warm and ambient temperatures (absolute temperatures).
+    heat_capacity : pint.Quantity, default TEOS-10's c_p0 = 3991.868 J/(kg K) [1]
+
+    Returns
+    -------
+    pint.Quantity
+        Specific heat content by the shortcut [J/kg].
+    """
+    cp = heat_capacity
+    if not (hasattr(cp, "check") and cp.check("[length] ** 2 / [time] ** 2 / [temperature]")):
+        raise InputError("shortcut heat capacity", str(cp), "a specific heat capacity, e.g. '3992 J/(kg K)'")
+    dT = (np.asarray(magnitude(temperature, "K", "temperature", "temperature"), float)
+          - np.asarray(magnitude(ambient_temperature, "K", "temperature", "ambient temperature"), float))
+    return (cp * Q_(dT, "K")).to("J/kg")
 
 
 @dataclass(frozen=True)
