@@ -51,7 +51,8 @@ from .errors import InputError
 from .reservoir import _article
 from .orifice import DEFAULT_AMBIENT_SALINITY
 from .properties import seawater_state
-from .properties.seawater import check_funnel
+from .properties.seawater import absolute_salinity, sea_pressure_dbar
+from .properties.seawater_heat import seawater_heat_content
 from .units import Q_, magnitude
 
 # Half-space parameters, the values used in [1] (from memory).
@@ -326,17 +327,19 @@ def heat_deficit(age, heat_flow, reference="gdh1", half_spreading_rate=None, fla
 def seawater_heat_uptake(temperature_rise, ambient_temperature, pressure, salinity=DEFAULT_AMBIENT_SALINITY):
     """Heat taken up per unit volume of seawater warmed by ``temperature_rise`` [J/m³].
 
-    ``ρ(T_a) [h(T_a + ΔT) − h(T_a)]`` at in-situ pressure, TEOS-10 at both ends [3].
+    ``ρ(T_a) [h(T_a + ΔT) − h(T_a)]`` at in-situ pressure, one seawater enthalpy at both ends: TEOS-10 [3]
+    to 40 °C, continued beyond by ``ventflux.properties.seawater_heat``.
     """
     rise = _positive(_difference(temperature_rise, "fluid temperature rise"), "K", "temperature",
                      "fluid temperature rise")
     Ta = _si(ambient_temperature, "K", "temperature", "ambient temperature")
     cold = seawater_state(Q_(Ta, "K"), salinity, pressure)
-    warm = seawater_state(Q_(Ta + rise, "K"), salinity, pressure, check=False)
-    check_funnel(warm.absolute_salinity.magnitude, warm.conservative_temperature.magnitude,
-                 warm.sea_pressure.magnitude, Q_(Ta + rise, "K").to("degC").magnitude,
-                 field="fluid temperature (ambient + rise)")
-    return (cold.density * (warm.enthalpy - cold.enthalpy)).to("J/m^3")
+    p = sea_pressure_dbar(pressure)
+    SA = absolute_salinity(np.asarray(salinity.to("dimensionless").magnitude if hasattr(salinity, "to")
+                                      else salinity, float), p)
+    # warm end from the joined seawater model (TEOS-10 to 40 degC, beyond it IAPWS-95 with the saline part)
+    warm = seawater_heat_content(Ta + rise - 273.15, Ta - 273.15, SA, p, field="fluid temperature (ambient + rise)")
+    return (cold.density * Q_(warm.specific_heat_content, "J/kg")).to("J/m^3")
 
 
 def equivalent_water_column(energy_per_area, temperature_rise, ambient_temperature, pressure,
