@@ -13,8 +13,8 @@ import pytest
 
 from ventflux.diffuse import diffuse_discharge
 from ventflux.errors import InputError
-from ventflux.properties import seawater_state
 from ventflux.properties import seawater_heat as sh
+from ventflux.properties import seawater_state
 from ventflux.units import Q_
 
 SA = 35.16504  # g/kg, TEOS-10 reference salinity of SP = 35 (IOC et al. 2010, eq. 2.4.1)

@@ -48,11 +48,11 @@ from scipy.special import erf
 
 from .diffuse import temperature_difference as _difference
 from .errors import InputError
-from .reservoir import _article
 from .orifice import DEFAULT_AMBIENT_SALINITY
 from .properties import seawater_state
 from .properties.seawater import absolute_salinity, sea_pressure_dbar
 from .properties.seawater_heat import seawater_heat_content
+from .reservoir import _article
 from .units import Q_, magnitude
 
 # Half-space parameters, the values used in [1] (from memory).
