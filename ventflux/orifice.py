@@ -31,15 +31,8 @@ import numpy as np
 from .errors import InputError
 from .properties.heat import SHORTCUT_HEAT_CAPACITY, shortcut_heat_content
 from .properties.seawater import REFERENCE_SALINITY, pressure_from_depth, seawater_state
-from .uncertainty import (
-    DEFAULT_DRAWS,
-    DEFAULT_SEED,
-    Uncertain,
-    draw_inputs,
-    nominal,
-    summarize,
-)
 from .units import Q_, magnitude, require_dimension
+from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, draw_inputs, nominal, summarize
 
 # SHORTCUT_HEAT_CAPACITY (TEOS-10's c_p0 [2]) and the shortcut itself are defined once, in
 # ventflux.properties.heat, for every estimator.
