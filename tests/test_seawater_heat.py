@@ -146,3 +146,38 @@ def test_no_gsw_call_outside_its_validity(monkeypatch):
                           Q_(5.0, "MPa"))
     assert r.beyond_teos10.tolist() == [False, False, True, True, True, True]
     assert "enthalpy_t_exact" in seen and "gibbs" in seen
+
+
+@pytest.mark.parametrize("t_amb", [-0.5, -1.8, -3.5])
+def test_orifice_and_throughput_accept_cold_bottom_water(t_amb):
+    # Ambient water below 0.01 degC but above the in-situ freezing point of seawater (gsw.t_freezing: -3.88 degC
+    # at 25 MPa) is liquid. The ambient end is IAPWS-95 liquid water, checked against CoolProp HEOS called
+    # directly where its PropsSI accepts the state (above pure water's melting line, -1.94 degC at 25 MPa),
+    # and for colder points against the heat capacity of IAPWS-95 liquid at the melting line (smooth continuation).
+    import CoolProp.CoolProp as CP
+
+    from ventflux.orifice import orifice_discharge
+    from ventflux.throughput import water_throughput
+
+    r = orifice_discharge(Q_(350, "degC"), Q_(1, "m/s"), Q_(0.1, "m"), pressure=Q_(25, "MPa"),
+                          ambient_temperature=Q_(t_amb, "degC"))
+    h1 = CP.PropsSI("Hmass", "T", 623.15, "P", 25e6, "HEOS::Water")
+    if t_amb > -1.9:
+        want = h1 - CP.PropsSI("Hmass", "T", 273.15 + t_amb, "P", 25e6, "HEOS::Water")
+        assert r.specific_heat_content.to("J/kg").magnitude == pytest.approx(want, rel=1e-9)
+    else:
+        Tm = 271.21
+        cp = CP.PropsSI("Cpmass", "T", Tm, "P", 25e6, "HEOS::Water")
+        want = h1 - CP.PropsSI("Hmass", "T", Tm, "P", 25e6, "HEOS::Water") + cp * (Tm - 273.15 - t_amb)
+        assert r.specific_heat_content.to("J/kg").magnitude == pytest.approx(want, rel=1e-5)
+    w = water_throughput(Q_(100, "MW"), Q_(350, "degC"), Q_(25, "MPa"), Q_(t_amb, "degC"))
+    assert w.specific_heat_content.to("J/kg").magnitude == pytest.approx(r.specific_heat_content.magnitude, rel=1e-4)
+
+
+def test_orifice_refuses_ambient_below_the_freezing_point():
+    tf = gsw.t_freezing(SA, _p_sea(25.0), 1.0)  # TEOS-10, -3.88 degC
+    from ventflux.orifice import orifice_discharge
+
+    with pytest.raises(InputError, match="freezing point"):
+        orifice_discharge(Q_(350, "degC"), Q_(1, "m/s"), Q_(0.1, "m"), pressure=Q_(25, "MPa"),
+                          ambient_temperature=Q_(tf - 0.05, "degC"))

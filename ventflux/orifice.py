@@ -29,7 +29,7 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from .errors import InputError
-from .properties.heat import SHORTCUT_HEAT_CAPACITY, shortcut_heat_content
+from .properties.heat import SHORTCUT_HEAT_CAPACITY, ambient_enthalpy, shortcut_heat_content
 from .properties.seawater import REFERENCE_SALINITY, pressure_from_depth, seawater_state
 from .units import Q_, magnitude, require_dimension
 from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, draw_inputs, nominal, summarize
@@ -250,11 +250,10 @@ def orifice_discharge(temperature, velocity, diameter=None, *, area=None, minor_
         bad = np.broadcast_to(T, np.broadcast(T, Ta).shape)[~np.broadcast_to(hot, np.broadcast(T, Ta).shape)]
         raise InputError("temperature", f"{bad.flat[0] - 273.15:.4g} degC",
                          "an exit temperature above the ambient temperature")
-    model.check(Ta, pa, "ambient temperature")
     model.check(T, pa, "temperature")
     ambient = seawater_state(Q_(Ta, "K"), ambient_salinity, p, longitude=longitude, latitude=latitude)
     h_exit, rho_exit = model.enthalpy_density(T, pa)
-    h_amb, _ = model.enthalpy_density(Ta, pa)
+    h_amb = ambient_enthalpy(model, Ta, pa)  # down to seawater's freezing point (properties.heat)
     rho = Q_(rho_exit, "kg/m^3")
     mass = (rho * v * A).to("kg/s")
     dh = Q_(h_exit - h_amb, "J/kg")

@@ -96,6 +96,77 @@ def vent_fluid_state(temperature, pressure, model=None, field="temperature") -> 
     return VentFluidState(Q_(h, "J/kg"), Q_(d, "kg/m^3"))
 
 
+def _coldest_seawater(p):
+    """Lowest in-situ freezing point of any seawater TEOS-10 covers (42 g/kg, air-saturated) [K] at ``p`` [Pa]."""
+    from .seawater_heat import SA_MAX, freezing_temperature
+
+    return freezing_temperature(SA_MAX, np.clip((np.asarray(p, float) - 101_325.0) / 1e4, 0, None)) + 273.15
+
+
+def ambient_enthalpy(model, temperature, pressure, field="ambient temperature"):
+    """Enthalpy [J/kg] of the vent-fluid model at the ambient end, down to seawater's freezing point.
+
+    Ambient bottom water can be colder than 0.01 °C, the lower bound of
+    IAPWS-95's stated range (the triple point), yet liquid: seawater freezes
+    at −1.9 °C at the surface and lower at depth, and pure water under more
+    than about 10 MPa melts below the triple-point temperature too. For the
+    IAPWS-95 pure-water model the ambient end is then evaluated directly by
+    CoolProp in the liquid, down to the freezing point of the saltiest
+    seawater TEOS-10 covers at that pressure; IAPWS-95 extrapolates smoothly
+    into the subcooled liquid (IAPWS R6-95(2018), section 6, from memory).
+    The seawater model at the ambient end refuses water below its own
+    freezing point. Other fluid models keep their own range.
+
+    Parameters
+    ----------
+    model : FluidModel
+    temperature, pressure : array_like
+        Ambient temperature [K] and absolute pressure [Pa].
+
+    Returns
+    -------
+    numpy.ndarray
+        Specific enthalpy [J/kg] in the model's reference state.
+    """
+    T, p = np.broadcast_arrays(np.asarray(temperature, float), np.asarray(pressure, float))
+    from .ventfluid import T_MIN
+
+    cold = (T < T_MIN) if getattr(model, "name", None) == "iapws95-water" else np.zeros(T.shape, bool)
+    if cold.any():
+        floor = _coldest_seawater(p[cold])
+        below = T[cold] < floor
+        if below.any():
+            i = np.flatnonzero(below)[0]
+            raise InputError(field, f"{T[cold][i] - 273.15:.4g} degC",
+                             f"liquid seawater, at or above {floor[i] - 273.15:.3f} degC (the freezing point of "
+                             f"42 g/kg seawater at {p[cold][i] / 1e6:.4g} MPa, TEOS-10)")
+    model.check(np.where(cold, T_MIN, T), p, field)  # pressure range, and everything but the cold end
+    h = np.empty(T.shape)
+    if (~cold).any():
+        h[~cold], _ = model.enthalpy_density(T[~cold], p[~cold])
+    if cold.any():
+        h[cold] = _iapws95_cold_liquid(T[cold], p[cold])
+    return h
+
+
+def _iapws95_cold_liquid(T, p):
+    """IAPWS-95 liquid enthalpy by CoolProp with the phase imposed (it refuses T below pure water's melting line).
+
+    Ambient values repeat (usually one value, or a few draws), so each
+    distinct (T, p) is solved once.
+    """
+    import CoolProp
+
+    pairs, inverse = np.unique(np.stack([T, p], axis=-1), axis=0, return_inverse=True)
+    state = CoolProp.AbstractState("HEOS", "Water")
+    state.specify_phase(CoolProp.iphase_liquid)
+    out = np.empty(len(pairs))
+    for k, (t, pk) in enumerate(pairs):  # distinct ambient states only; not a per-draw loop
+        state.update(CoolProp.PT_INPUTS, float(pk), float(t))
+        out[k] = state.hmass()
+    return out[np.ravel(inverse)]
+
+
 def specific_heat_content(temperature, ambient_temperature, pressure, model=None):
     """Heat carried per unit mass: h(T_exit, p) − h(T_ambient, p), one fluid model.
 
@@ -128,8 +199,7 @@ def specific_heat_content(temperature, ambient_temperature, pressure, model=None
         i = np.flatnonzero(np.broadcast_to(T <= Ta, np.broadcast(T, Ta).shape).ravel())[0]
         raise InputError("temperature", f"{np.broadcast_to(T, np.broadcast(T, Ta).shape).ravel()[i] - 273.15:.4g} degC",
                          "an exit temperature above the ambient temperature")
-    m.check(Ta, p, "ambient temperature")
     m.check(T, p, "temperature")
     h1, _ = m.enthalpy_density(T, p)
-    h0, _ = m.enthalpy_density(Ta, p)
+    h0 = ambient_enthalpy(m, Ta, p)
     return Q_(h1 - h0, "J/kg")
