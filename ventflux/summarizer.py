@@ -202,27 +202,33 @@ RESERVOIR_OUTPUTS = {
 }
 
 
-def _lifetime(power, size=None, diffusivity=rv.THERMAL_DIFFUSIVITY, spent_fraction=rv.SPENT_FRACTION, **heat):
+def _lifetime(power, size=None, diffusivity=rv.THERMAL_DIFFUSIVITY, spent_fraction=rv.SPENT_FRACTION,
+              cooled_faces=1, **heat):
     return rv.reservoir_lifetime(power, rv.reservoir_heat(**heat), size=size, diffusivity=diffusivity,
-                                 fraction=spent_fraction)
+                                 fraction=spent_fraction, cooled_faces=cooled_faces)
 
 
 def reservoir_answer(power, temperature_drop, volume=None, area=None, thickness=None,
                      rock_density=rv.ROCK_DENSITY, rock_heat_capacity=rv.ROCK_HEAT_CAPACITY, porosity=rv.POROSITY,
                      temperature=None, pressure=None, melt_volume=None, latent_heat=rv.LATENT_HEAT,
                      melt_density=rv.MELT_DENSITY, size=None, diffusivity=rv.THERMAL_DIFFUSIVITY,
-                     spent_fraction=rv.SPENT_FRACTION, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
+                     spent_fraction=rv.SPENT_FRACTION, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED,
+                     depth_below_seafloor=None, seafloor_pressure=None, pressure_regime="hydrostatic",
+                     cooled_faces=1) -> Answer:
     """Heat-mining time, exponential-decline lifetime and ``L²/κ``, with the controlling one.
 
     Parameters are those of ``ventflux.reservoir.reservoir_heat`` and
     ``reservoir_lifetime`` (defaults documented there, with sources); any
     quantity may be ``Uncertain``. ``controlling`` is labelled with the share
-    of draws in which each process is the faster.
+    of draws in which each process is the faster; ``conductive_length`` names
+    the length of ``L²/κ`` and ``pore_fluid_phase`` the pore fluid's state.
     """
     inputs = dict(power=power, temperature_drop=temperature_drop, volume=volume, area=area, thickness=thickness,
                   rock_density=rock_density, rock_heat_capacity=rock_heat_capacity, porosity=porosity,
                   temperature=temperature, pressure=pressure, melt_volume=melt_volume, latent_heat=latent_heat,
-                  melt_density=melt_density, size=size, diffusivity=diffusivity, spent_fraction=spent_fraction)
+                  melt_density=melt_density, size=size, diffusivity=diffusivity, spent_fraction=spent_fraction,
+                  depth_below_seafloor=depth_below_seafloor, seafloor_pressure=seafloor_pressure,
+                  pressure_regime=pressure_regime, cooled_faces=cooled_faces)
     life, ans = _run("reservoir", _lifetime, inputs, RESERVOIR_OUTPUTS,
                      positive=("power", "temperature_drop", "volume", "area", "thickness", "rock_density",
                                "rock_heat_capacity", "size", "diffusivity", "melt_volume", "latent_heat",
@@ -233,6 +239,9 @@ def reservoir_answer(power, temperature_drop, volume=None, area=None, thickness=
     ans.labels["controlling"] = label
     ans.labels["controlling_share"] = share if label == "advective decline" else 1.0 - share
     ans.labels["spent_fraction"] = float(spent_fraction)
+    ans.labels["conductive_length"] = life.size_basis
+    if life.heat.pore_fluid_phase:
+        ans.labels["pore_fluid_phase"] = life.heat.pore_fluid_phase
     return ans
 
 
