@@ -125,3 +125,51 @@ def test_summarize_reservoir_depth_below_seafloor_and_named_length(capsys):
     assert rc == 2
     err = capsys.readouterr().err
     assert "reservoir pressure" in err and "Traceback" not in err
+
+
+_SURVEY = """
+[site]
+name = "Test Site"
+pressure = "8 MPa"
+latitude = 10.0
+longitude = -100.0
+ambient_temperature = "2.0 degC"
+
+[[vent]]
+name = "A"
+  [[vent.orifice]]
+  temperature = "250 degC"
+  velocity = "1.0 m/s"
+  diameter = "10 cm"
+
+[[reservoir]]
+name = "shallow sheet"
+area = "1 km^2"
+thickness = "50 m"
+temperature_drop = "300 K"
+temperature = "{t0}"
+porosity = 0.05
+{pressure_key}
+"""
+
+
+def test_survey_reservoir_pressure_keys_and_check_names_the_key(tmp_path):
+    from ventflux.errors import InputErrors
+    from ventflux.survey.spec import load_survey
+
+    path = tmp_path / "s.toml"
+    # 8 MPa + 1025 kg/m³ · g · 1 km = 18.05 MPa: 600 degC is vapour-like there, accepted
+    path.write_text(_SURVEY.format(t0="600 degC", pressure_key='depth_below_seafloor = "1 km"'), encoding="utf-8")
+    spec = load_survey(path)
+    p = spec.reservoirs[0].options["pressure"].to("Pa").magnitude
+    assert p == pytest.approx(8e6 + 1025 * 9.80665 * 1000)
+    # on the saturation curve at 10 MPa (311.0 degC, IAPWS-95): refused at --check, naming the key
+    path.write_text(_SURVEY.format(t0="311.0 degC", pressure_key='pressure = "10 MPa"'), encoding="utf-8")
+    with pytest.raises((InputError, InputErrors)) as err:
+        load_survey(path)
+    assert "reservoir[0].temperature" in str(err.value) and "saturation" in str(err.value)
+    # neither key: the site's seafloor pressure, recorded as a default used
+    path.write_text(_SURVEY.format(t0="600 degC", pressure_key=""), encoding="utf-8")
+    spec = load_survey(path)
+    assert spec.reservoirs[0].options["pressure"].to("MPa").magnitude == pytest.approx(8.0)
+    assert "reservoir[0].pressure" in spec.defaults_used
