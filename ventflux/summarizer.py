@@ -274,22 +274,26 @@ FLANK_OUTPUTS = {
     "deficit_fraction": (_attr("deficit", "fraction"), "dimensionless"),
     "mean_advective_flux": (_attr("deficit", "mean_advective_flux"), "mW/m^2"),
     "advective_loss_per_length": (_attr("deficit", "per_length"), "MW/km"),
+    "reference_heat_before_first_age": (_attr("deficit", "before_first"), "J/m^2"),
+    "heat_deficit_from_axis": (_attr("deficit", "deficit_from_axis"), "J/m^2"),
+    "advective_loss_per_length_from_axis": (_attr("deficit", "per_length_from_axis"), "MW/km"),
     "water_column": (_attr("water_column"), "km"),
     "circulated_water_per_length": (_attr("water_per_length"), "m^3/s/km"),
 }
 
 
 def _flank(age, heat_flow, reference, half_spreading_rate, temperature_rise, ambient_temperature, pressure,
-           salinity, **half_space):
+           salinity, deficit_span="observed", **half_space):
     d = rf.heat_deficit(age, heat_flow, reference, half_spreading_rate=half_spreading_rate, **half_space)
     out = {"deficit": d, "water_column": None, "water_per_length": None}
+    deficit, per_length = d.span(deficit_span)
     if temperature_rise is not None:
         uptake = rf.seawater_heat_uptake(temperature_rise, ambient_temperature, pressure, salinity)
         # A negative deficit (more conducted than the reference) means no advective loss: no water.
-        heat = np.maximum(d.deficit.to("J/m^2").magnitude, 0.0)
+        heat = np.maximum(deficit.to("J/m^2").magnitude, 0.0)
         out["water_column"] = Q_(heat / uptake.to("J/m^3").magnitude, "m")
-        if d.per_length is not None:
-            out["water_per_length"] = (Q_(np.maximum(d.per_length.to("W/m").magnitude, 0.0), "W/m")
+        if per_length is not None:
+            out["water_per_length"] = (Q_(np.maximum(per_length.to("W/m").magnitude, 0.0), "W/m")
                                        / uptake).to("m^3/s/km")
     return out
 
@@ -297,7 +301,7 @@ def _flank(age, heat_flow, reference, half_spreading_rate, temperature_rise, amb
 def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, temperature_rise=None,
                  ambient_temperature=Q_(2.0, "degC"), pressure=None, salinity=DEFAULT_AMBIENT_SALINITY,
                  conductivity=None, diffusivity=None, temperature_difference=None,
-                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
+                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, deficit_span="observed") -> Answer:
     """Ridge-flank heat deficit, advective loss per area and per ridge length, and the water column.
 
     Parameters
@@ -314,7 +318,14 @@ def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, tem
         Absolute pressure at the seafloor; required with ``temperature_rise``.
     conductivity, diffusivity, temperature_difference : optional
         Half-space parameters (defaults in ``ventflux.ridge_flank``).
+    deficit_span : {"observed", "from-axis"}
+        The deficit the water column uses: over the observed ages only
+        (default), or from age 0, adding the reference's heat loss before the
+        first observation (an upper bound: no conduction assumed there). Both
+        deficits are reported either way.
     """
+    if deficit_span not in rf.DEFICIT_SPANS:
+        raise InputError("deficit span", str(deficit_span), "one of " + ", ".join(rf.DEFICIT_SPANS))
     if temperature_rise is not None and pressure is None:
         raise InputError("pressure", "none", "the seafloor pressure, needed for the circulated seawater's enthalpy")
     half_space = {k: v for k, v in dict(conductivity=conductivity, diffusivity=diffusivity,
@@ -323,12 +334,14 @@ def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, tem
         raise InputError("reference", reference, "'half-space' when half-space parameters are given")
     inputs = dict(age=age, heat_flow=heat_flow, reference=reference, half_spreading_rate=half_spreading_rate,
                   temperature_rise=temperature_rise, ambient_temperature=ambient_temperature, pressure=pressure,
-                  salinity=salinity, **half_space)
+                  salinity=salinity, deficit_span=deficit_span, **half_space)
     out, ans = _run("ridge flank", _flank, inputs, FLANK_OUTPUTS,
                     positive=("half_spreading_rate", "temperature_rise", "conductivity", "diffusivity",
                               "temperature_difference"), draws=draws, seed=seed,
                     observations=("age", "heat_flow"))
     ans.labels["reference"] = reference
+    ans.labels["water_column_deficit"] = ("observed ages only" if deficit_span == "observed"
+                                          else "from age 0 (no conduction before the first observation)")
     ans.labels["age_range_Myr"] = f"{out['deficit'].age_from.magnitude:g}-{out['deficit'].age_to.magnitude:g}"
     ans.inputs["age"] = f"{np.asarray(age.to('Myr').magnitude).tolist()} Myr"
     ans.inputs["heat_flow"] = f"{np.asarray(heat_flow.to('mW/m^2').magnitude).tolist()} mW/m^2"

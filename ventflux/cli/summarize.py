@@ -40,7 +40,7 @@ from .. import summarizer as sm
 from ..errors import InputError
 from ..orifice import DEFAULT_AMBIENT_SALINITY
 from ..registry import Command, Method
-from ..ridge_flank import REFERENCES
+from ..ridge_flank import DEFICIT_SPANS, REFERENCES
 from ..tables import read_quantity_table
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, parse_uncertain
 from ..units import Q_, parse_quantity
@@ -140,6 +140,10 @@ def configure(p):
             q.add_argument("--profile", help="CSV with columns 'age [Myr]' and 'heat_flow [mW/m^2]'")
             q.add_argument("--reference", choices=REFERENCES, default="gdh1",
                            help="conductive cooling reference (default gdh1)")
+            q.add_argument("--deficit-span", choices=DEFICIT_SPANS, default="observed",
+                           help="deficit the water column uses: over the observed ages, or from age 0 adding the "
+                                "reference's heat loss before the first observation (default observed; both are "
+                                "reported)")
         q.add_argument("--draws", type=int, default=DEFAULT_DRAWS, help=f"Monte Carlo draws (default {DEFAULT_DRAWS})")
         q.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
         add_output_options(q)
@@ -179,6 +183,7 @@ def run(args) -> int:
     if args.question == "flank":
         kwargs["age"], kwargs["heat_flow"] = _observations(args)
         kwargs["reference"] = args.reference
+        kwargs["deficit_span"] = args.deficit_span
     answer = fn(**kwargs, draws=args.draws, seed=args.seed)
     if args.json:
         print_json(answer.as_dict())
