@@ -88,8 +88,9 @@ QUESTIONS = {
                        "latent heat of crystallization of basaltic melt, from memory"),
                       ("--melt-density", "density", False, f"{rv.MELT_DENSITY.magnitude:g} kg/m^3",
                        "melt density, from memory"),
-                      ("--size", "length", False, None, "length L for L^2/kappa (default: the sheet's thickness "
-                       "for --area and --thickness, else the cube root of the volume)"),
+                      ("--size", "length", False, None, ("length L for L^2/kappa (default: the sheet's thickness "
+                                                          "for --area and --thickness, else the cube root of the "
+                                                          "volume)")),
                       ("--diffusivity", "diffusivity", False, f"{rv.THERMAL_DIFFUSIVITY.magnitude:g} m^2/s",
                        "thermal diffusivity of the rock, from memory"),
                   ]),
