@@ -185,6 +185,8 @@ def water_answer(power, temperature, pressure, ambient_temperature, salinity=DEF
                   dict(power=power, temperature=temperature, pressure=pressure,
                        ambient_temperature=ambient_temperature, salinity=salinity),
                   WATER_OUTPUTS, positive=("power", "pressure"), draws=draws, seed=seed)
+    ans.labels["heat_content_model"] = "IAPWS-95 pure water at both ends; ambient density TEOS-10"
+    ans.labels["shortcut"] = "c_p0 (T - T_ambient), TEOS-10's c_p0 = 3991.87 J/(kg K)"
     return ans
 
 
