@@ -10,6 +10,8 @@ References used here (test-only libraries, independent of ventflux's code):
 import gsw
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from ventflux.diffuse import diffuse_discharge
 from ventflux.errors import InputError
@@ -193,3 +195,32 @@ def test_orifice_refuses_ambient_below_the_freezing_point():
     with pytest.raises(InputError, match="freezing point"):
         orifice_discharge(Q_(350, "degC"), Q_(1, "m/s"), Q_(0.1, "m"), pressure=Q_(25, "MPa"),
                           ambient_temperature=Q_(tf - 0.05, "degC"))
+
+
+def test_orifice_refuses_warm_ambient_at_any_pressure():
+    from ventflux.orifice import orifice_discharge
+
+    with pytest.raises(InputError, match="40 degC"):
+        orifice_discharge(Q_(200, "degC"), Q_(1, "m/s"), Q_(0.1, "m"), pressure=Q_(3, "MPa"),
+                          ambient_temperature=Q_(45, "degC"))
+
+
+@settings(max_examples=40, deadline=None)
+@given(p=st.floats(0.0, 10000.0), SA_=st.floats(0.0, 42.0), t0=st.floats(-1.0, 30.0),
+       rise=st.floats(0.01, 250.0), more=st.floats(0.01, 20.0))
+def test_heat_content_rises_with_temperature_everywhere(p, SA_, t0, rise, more):
+    # Invariants of any seawater model: heat content positive and increasing with the warm temperature, mean
+    # heat capacity between that of sea salt solution and of hot compressed water (3.5-5.0 kJ/(kg K) below
+    # 250 K of warming; IAPWS-95 and IAPWS-08 orders of magnitude, from memory).
+    from ventflux.properties.ventfluid import IAPWS95Water
+
+    t0 = max(t0, float(gsw.t_freezing(SA_, p, 1.0)) + 0.01)
+    tsat = IAPWS95Water().saturation_temperature(np.array(p * 1e4 + ATM)) - 273.15
+    t1 = t0 + rise
+    if np.isfinite(tsat) and t1 + more >= tsat - 0.5:
+        return
+    r = sh.seawater_heat_content(np.array([t1, t1 + more]), t0, SA_, p)
+    assert np.all(r.specific_heat_content > 0)
+    assert r.specific_heat_content[1] > r.specific_heat_content[0]
+    assert 3500 < r.specific_heat_content[0] / rise < 5000
+    assert np.all((r.density > 700) & (r.density < 1100))
