@@ -34,6 +34,7 @@ from . import reservoir as rv
 from . import ridge_flank as rf
 from .errors import InputError
 from .orifice import DEFAULT_AMBIENT_SALINITY
+from .properties import seawater_heat as sh
 from .throughput import water_throughput
 from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Summary, Uncertain, draw_inputs, summarize, unit_tag
 from .units import Q_
@@ -291,6 +292,9 @@ def _flank(age, heat_flow, reference, half_spreading_rate, temperature_rise, amb
     deficit, per_length = d.span(deficit_span)
     if temperature_rise is not None:
         uptake = rf.seawater_heat_uptake(temperature_rise, ambient_temperature, pressure, salinity)
+        warm_c = (ambient_temperature.to("degC").magnitude
+                  + rf._difference(temperature_rise, "fluid temperature rise").to("K").magnitude)
+        out["water_model"] = sorted({str(n) for n in np.ravel(sh.model_names(warm_c))})
         # A negative deficit (more conducted than the reference) means no advective loss: no water.
         heat = np.maximum(deficit.to("J/m^2").magnitude, 0.0)
         out["water_column"] = Q_(heat / uptake.to("J/m^3").magnitude, "m")
@@ -342,6 +346,8 @@ def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, tem
                               "temperature_difference"), draws=draws, seed=seed,
                     observations=("age", "heat_flow"))
     ans.labels["reference"] = reference
+    if out.get("water_model"):
+        ans.labels["circulated_water_model"] = "; ".join(out["water_model"])
     ans.labels["water_column_deficit"] = ("observed ages only" if deficit_span == "observed"
                                           else "from age 0 (no conduction before the first observation)")
     ans.labels["age_range_Myr"] = f"{out['deficit'].age_from.magnitude:g}-{out['deficit'].age_to.magnitude:g}"

@@ -197,15 +197,14 @@ def seawater_enthalpy_density(t, SA, p_sea, field="temperature"):
     check_teos10(SA, np.minimum(t, TEOS10_T_MAX), p, field)
     h = np.empty(t.shape)
     rho = np.empty(t.shape)
-    model = np.full(t.shape, TEOS10, dtype=np.int8)
+    model = model_of(t)
     cold = t <= TEOS10_T_MAX
     if cold.any():
         h[cold] = gsw.enthalpy_t_exact(SA[cold], t[cold], p[cold])
         rho[cold] = gsw.rho_t_exact(SA[cold], t[cold], p[cold])
     warm = ~cold
     if warm.any():
-        hw, rw, mw = _warm(t[warm], SA[warm], p[warm], field)
-        h[warm], rho[warm], model[warm] = hw, rw, mw
+        h[warm], rho[warm] = _warm(t[warm], SA[warm], p[warm], field)
     return h.reshape(shape), rho.reshape(shape), model.reshape(shape)
 
 
@@ -225,8 +224,13 @@ def _warm(t, SA, p, field):
     hs = hs + np.where(beyond, cs * (t - ts), 0.0)
     h = h_join + (hw[0] - hw[1]) + (hs - hs_j)
     rho = 1.0 / (1.0 / dw[0] + vs)
-    model = np.where(beyond, HELD_SALINE, IAPWS08).astype(np.int8)
-    return h, rho, model
+    return h, rho
+
+
+def model_of(t):
+    """Model code (index into ``MODEL_NAMES``) of seawater at in-situ temperature ``t`` [degC]."""
+    t = np.asarray(t, float)
+    return np.where(t <= TEOS10_T_MAX, TEOS10, np.where(t <= SALINE_T_MAX, IAPWS08, HELD_SALINE)).astype(np.int8)
 
 
 def seawater_heat_content(t_warm, t_ambient, SA, p_sea, field="temperature"):
@@ -255,3 +259,8 @@ def seawater_heat_content(t_warm, t_ambient, SA, p_sea, field="temperature"):
     h1, rho, model = seawater_enthalpy_density(t1, SA, p, field)
     h0 = gsw.enthalpy_t_exact(SA, t0, p)
     return SeawaterHeat(h1 - h0, rho, model)
+
+
+def model_names(t):
+    """Names (``MODEL_NAMES``) of the seawater model at in-situ temperature ``t`` [degC]."""
+    return np.asarray(MODEL_NAMES, dtype=object)[model_of(t)]
