@@ -105,6 +105,24 @@ def freezing_temperature(SA, p_sea):
     return gsw.t_freezing(np.asarray(SA, float), np.asarray(p_sea, float), 1.0)
 
 
+#: No seawater TEOS-10 covers freezes above this in-situ temperature (pure water at the surface freezes at
+#: +0.0024 degC air-free; 0 g/kg is TEOS-10's lowest salinity) [1]; only colder points need t_freezing.
+_NEVER_FROZEN = 0.01
+
+
+def _below_freezing(SA, t, p):
+    """Mask of points below their freezing point, and the freezing points (NaN where not needed).
+
+    ``t_freezing`` is gsw's most expensive call here; it is evaluated only for
+    points colder than ``_NEVER_FROZEN``.
+    """
+    tf = np.full(t.shape, np.nan)
+    near = t < _NEVER_FROZEN
+    if near.any():
+        tf[near] = freezing_temperature(SA[near], np.clip(p[near], 0, None))
+    return near & (t < tf), tf
+
+
 def teos10_valid(SA, t, p_sea):
     """Mask of points inside TEOS-10's oceanographic standard range [1].
 
@@ -113,9 +131,8 @@ def teos10_valid(SA, t, p_sea):
     """
     SA, t, p = np.broadcast_arrays(np.asarray(SA, float), np.asarray(t, float), np.asarray(p_sea, float))
     ok = (SA >= 0) & (SA <= SA_MAX) & (p >= -1e-9) & (p <= P_SEA_MAX) & (t <= TEOS10_T_MAX)
-    tf = np.full(t.shape, np.nan)
-    tf[ok] = freezing_temperature(SA[ok], np.clip(p[ok], 0, None))
-    return ok & (t >= tf)
+    frozen, _ = _below_freezing(np.where(ok, SA, 0.0), t, np.where(ok, p, 0.0))
+    return ok & ~frozen
 
 
 def check_teos10(SA, t, p_sea, field="ambient temperature"):
@@ -134,8 +151,7 @@ def check_teos10(SA, t, p_sea, field="ambient temperature"):
         raise InputError(field, f"{t[hot].flat[0]:.4g} degC",
                          f"seawater at most {TEOS10_T_MAX:g} degC (TEOS-10 validity); "
                          "hot vent fluid belongs to the vent-fluid model")
-    tf = freezing_temperature(SA, p)
-    cold = t < tf
+    cold, tf = _below_freezing(SA, t, p)
     if cold.any():
         i = np.flatnonzero(cold.ravel())[0]
         raise InputError(field, f"{t.ravel()[i]:.4g} degC",
@@ -164,7 +180,7 @@ def _saline(SA, t, p_sea):
     return g - T * g_t, -T * g_tt, g_p
 
 
-def seawater_enthalpy_density(t, SA, p_sea, field="temperature"):
+def seawater_enthalpy_density(t, SA, p_sea, field="temperature", check=True):
     """Specific enthalpy [J/kg] (TEOS-10's reference state), density [kg/m³] and model code.
 
     Parameters
@@ -178,6 +194,9 @@ def seawater_enthalpy_density(t, SA, p_sea, field="temperature"):
         Sea pressure [dbar], 0–10 000.
     field : str
         Name of the temperature in error messages.
+    check : bool
+        Check salinity, pressure and the freezing point (callers that have
+        checked them already pass False; boiling is always checked).
 
     Returns
     -------
@@ -193,8 +212,8 @@ def seawater_enthalpy_density(t, SA, p_sea, field="temperature"):
     t, SA, p = np.broadcast_arrays(np.asarray(t, float), np.asarray(SA, float), np.asarray(p_sea, float))
     shape = t.shape
     t, SA, p = t.ravel(), SA.ravel(), p.ravel()
-    # the cold side and the ranges of salinity and pressure are TEOS-10's at every point
-    check_teos10(SA, np.minimum(t, TEOS10_T_MAX), p, field)
+    if check:  # the cold side and the ranges of salinity and pressure are TEOS-10's at every point
+        check_teos10(SA, np.minimum(t, TEOS10_T_MAX), p, field)
     h = np.empty(t.shape)
     rho = np.empty(t.shape)
     model = model_of(t)
@@ -253,10 +272,13 @@ def seawater_heat_content(t_warm, t_ambient, SA, p_sea, field="temperature"):
     -------
     SeawaterHeat
     """
-    t1, t0, SA, p = np.broadcast_arrays(np.asarray(t_warm, float), np.asarray(t_ambient, float),
-                                        np.asarray(SA, float), np.asarray(p_sea, float))
-    check_teos10(SA, t0, p, "ambient temperature")
-    h1, rho, model = seawater_enthalpy_density(t1, SA, p, field)
+    t0, SA0, p0 = (np.asarray(x, float) for x in (t_ambient, SA, p_sea))
+    check_teos10(SA0, t0, p0, "ambient temperature")  # on the inputs as given (often scalars), before broadcasting
+    t1, t0, SA, p = np.broadcast_arrays(np.asarray(t_warm, float), t0, SA0, p0)
+    if np.any(t1 < t0):
+        i = np.flatnonzero((t1 < t0).ravel())[0]
+        raise InputError(field, f"{t1.ravel()[i]:.4g} degC", "a temperature at or above the ambient temperature")
+    h1, rho, model = seawater_enthalpy_density(t1, SA, p, field, check=False)
     h0 = gsw.enthalpy_t_exact(SA, t0, p)
     return SeawaterHeat(h1 - h0, rho, model)
 
