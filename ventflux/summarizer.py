@@ -258,11 +258,17 @@ SIZE_OUTPUTS = {
 
 def reservoir_size_answer(power, duration, temperature_drop, area=None, rock_density=rv.ROCK_DENSITY,
                           rock_heat_capacity=rv.ROCK_HEAT_CAPACITY, porosity=rv.POROSITY, temperature=None,
-                          pressure=None, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
-    """Hot-rock volume (and thickness under ``area``) that sustains ``power`` for ``duration``."""
+                          pressure=None, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, depth_below_seafloor=None,
+                          seafloor_pressure=None, pressure_regime="hydrostatic") -> Answer:
+    """Hot-rock volume (and thickness under ``area``) that sustains ``power`` for ``duration``.
+
+    The reservoir pressure for the pore fluid is ``pressure`` or comes from ``depth_below_seafloor`` and
+    ``seafloor_pressure`` under ``pressure_regime`` (``ventflux.reservoir.reservoir_pressure``).
+    """
     inputs = dict(power=power, duration=duration, temperature_drop=temperature_drop, area=area,
                   rock_density=rock_density, rock_heat_capacity=rock_heat_capacity, porosity=porosity,
-                  temperature=temperature, pressure=pressure)
+                  temperature=temperature, pressure=pressure, depth_below_seafloor=depth_below_seafloor,
+                  seafloor_pressure=seafloor_pressure, pressure_regime=pressure_regime)
     _, ans = _run("reservoir size", rv.reservoir_size_for, inputs, SIZE_OUTPUTS,
                   positive=("power", "duration", "temperature_drop", "area", "rock_density", "rock_heat_capacity",
                             "porosity"),

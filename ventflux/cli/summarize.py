@@ -96,7 +96,7 @@ QUESTIONS = {
                   ]),
     "size": (sm.reservoir_size_answer, "reservoir size needed to sustain a power for a time",
              [("--power", "power", True, None, "heat power to sustain"),
-              ("--duration", "time", True, None, "how long, e.g. '10 yr'")] + _HEAT + [
+              ("--duration", "time", True, None, "how long, e.g. '10 yr'")] + _HEAT + _RESERVOIR_PRESSURE + [
                  ("--area", "area", False, None, "area, to give the thickness")]),
     "flank": (sm.flank_answer, "ridge-flank heat deficit against a conductive cooling reference",
               [("--half-rate", "velocity", False, None, "half spreading rate, e.g. '25 mm/yr'"),
@@ -125,13 +125,14 @@ def configure(p):
         for option, _dim, required, default, help_ in options:
             shown = f" (default {default})" if default is not None else ""
             q.add_argument(option, dest=_dest(option), required=required, default=default, help=help_ + shown)
+        if name in ("reservoir", "size"):
+            q.add_argument("--pressure-regime", choices=rv.PRESSURE_REGIMES, default="hydrostatic",
+                           help="pressure below the seafloor: under cold seawater (1025 kg/m^3) or under the rock "
+                                "(default hydrostatic)")
         if name == "reservoir":
             q.add_argument("--spent-fraction", type=float, default=rv.SPENT_FRACTION,
                            help="output fraction at which a declining reservoir is spent "
                                 f"(default {rv.SPENT_FRACTION})")
-            q.add_argument("--pressure-regime", choices=rv.PRESSURE_REGIMES, default="hydrostatic",
-                           help="pressure below the seafloor: under cold seawater (1025 kg/m^3) or under the rock "
-                                "(default hydrostatic)")
             q.add_argument("--cooled-faces", type=int, choices=(1, 2), default=1,
                            help="faces through which a sheet (--area, --thickness) cools: 1, its top (L = thickness), "
                                 "or 2 (L = half the thickness); default 1")
@@ -177,9 +178,10 @@ def run(args) -> int:
         if text is None:
             continue
         kwargs[_RENAME.get(_dest(option), _dest(option))] = parse_uncertain(text, dim, option)
+    if args.question in ("reservoir", "size"):
+        kwargs["pressure_regime"] = args.pressure_regime
     if args.question == "reservoir":
         kwargs["spent_fraction"] = args.spent_fraction
-        kwargs["pressure_regime"] = args.pressure_regime
         kwargs["cooled_faces"] = args.cooled_faces
     if args.question == "flank":
         kwargs["age"], kwargs["heat_flow"] = _observations(args)
