@@ -6,14 +6,18 @@ fluid at a mean upward (Darcy) velocity ``w`` and a mean temperature anomaly
 
     H = ρ · w · f·A · (h(T_amb + ΔT, S, p) − h(T_amb, S, p)),
 
-an enthalpy difference at in-situ pressure from TEOS-10 [1] with the same
-salinity at both ends (diffuse fluid is mostly entrained seawater), ρ being
-the density of the discharging fluid at ``T_amb + ΔT``. Where the warm fluid
-lies outside TEOS-10's oceanographic funnel (which ends near 25 °C at 2000
-dbar), both ends come instead from the vent-fluid model, pure water from
-IAPWS-95 (``ventflux.properties.ventfluid``), never one end from each. Its volume flux is
-``w · f·A``. The common shortcut ``ρ · w · f·A · c_p(T_amb) · ΔT`` is returned
-beside it for comparison, never instead of it.
+an enthalpy difference at in-situ pressure with the same salinity at both
+ends (diffuse fluid is mostly entrained seawater), ρ being the density of the
+discharging fluid at ``T_amb + ΔT``. Both ends come from one seawater
+enthalpy function that reaches from the freezing point to boiling
+(``ventflux.properties.seawater_heat``): TEOS-10 [1] up to 40 °C, then
+IAPWS-95 water with IAPWS-08's saline part up to 80 °C, then IAPWS-95 water
+with the saline part held, joined so that heat content and density are
+continuous; the model of each element is named in the result
+(``heat_model``). Its volume flux is ``w · f·A``. The constant-c_p shortcut
+``ṁ · c_p0 · ΔT`` (one definition for the package,
+``ventflux.properties.heat.shortcut_heat_content``) is returned beside it
+for comparison, never instead of it.
 
 Every estimator here is a deterministic function over arrays: inputs of
 shape ``(n_patches,)`` or ``(n_patches, n_draws)``. Monte Carlo uncertainty
@@ -42,18 +46,13 @@ from __future__ import annotations
 import csv
 from dataclasses import dataclass, fields
 
-import gsw
 import numpy as np
 import pint
 
 from .errors import Collector, InputError
-from .properties.seawater import (
-    STANDARD_ATMOSPHERE,
-    _salinity_number,
-    absolute_salinity,
-    check_funnel,
-    sea_pressure_dbar,
-)
+from .properties.heat import SHORTCUT_HEAT_CAPACITY
+from .properties.seawater import _salinity_number, absolute_salinity, sea_pressure_dbar
+from .properties.seawater_heat import MODEL_NAMES, TEOS10, seawater_heat_content
 from .tables import read_quantity_table
 from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, draw_inputs
 from .units import Q_, magnitude, require_dimension, ureg
@@ -161,7 +160,8 @@ class DiffuseDischarge(_Totals):
     effective_area: pint.Quantity
     specific_heat_content: pint.Quantity
     density: pint.Quantity
-    beyond_teos10: np.ndarray  # True where the warm fluid is outside TEOS-10's funnel: IAPWS-95 water used
+    beyond_teos10: np.ndarray  # True where the warm fluid is above TEOS-10's range (see heat_model)
+    heat_model: np.ndarray  # name of the seawater model of each element's warm end (MODEL_NAMES)
 
     @property
     def total_heat_power_cp_shortcut(self):
@@ -249,7 +249,7 @@ def diffuse_discharge(area, active_fraction, temperature_anomaly, velocity, ambi
     Returns
     -------
     DiffuseDischarge
-        ``heat_power`` [W], ``heat_power_cp_shortcut`` [W] (ρ·w·A_eff·c_p·ΔT),
+        ``heat_power`` [W], ``heat_power_cp_shortcut`` [W] (ρ·w·A_eff·c_p0·ΔT),
         ``volume_flux`` [m³/s], ``mass_flux`` [kg/s], ``area`` and ``effective_area`` [m²],
         ``specific_heat_content`` [J/kg], ``density`` [kg/m³], each shaped
         like the broadcast inputs.
@@ -257,16 +257,18 @@ def diffuse_discharge(area, active_fraction, temperature_anomaly, velocity, ambi
     Raises
     ------
     InputError
-        Impossible patch inputs, ambient seawater outside TEOS-10's
-        oceanographic funnel, or warm fluid outside IAPWS-95's validity or
-        boiling.
+        Impossible patch inputs, ambient seawater outside TEOS-10's range
+        (below its freezing point, above 40 °C, salinity or pressure out of
+        range), or warm fluid at or above the boiling point.
 
     Notes
     -----
-    Where the warm fluid lies outside TEOS-10's funnel, Δh and ρ of that
-    element come from the pure-water IAPWS-95 model at both ends
-    (``beyond_teos10`` marks them); the c_p shortcut keeps TEOS-10's c_p at
-    ambient.
+    Above 40 °C the warm end comes from IAPWS-95 water with IAPWS-08's
+    saline part (to 80 °C) or a held saline correction (beyond), joined
+    continuously to TEOS-10 (``ventflux.properties.seawater_heat``, with
+    the expected error of each); ``heat_model`` names the model of each
+    element and ``beyond_teos10`` marks those above TEOS-10. The shortcut
+    uses TEOS-10's constant c_p0.
 
     References
     ----------
@@ -291,49 +293,26 @@ def diffuse_discharge(area, active_fraction, temperature_anomaly, velocity, ambi
         raise InputError("ambient salinity", f"{np.ravel(sp)[0]:g}", "a practical salinity from 0 to 42")
     SA = absolute_salinity(sp, p)
     t1 = t0 + dT
-    shape = np.broadcast_shapes(SA.shape, t1.shape, np.shape(p))
-    CT0 = gsw.CT_from_t(SA, t0, p)
-    check_funnel(SA, CT0, p, np.broadcast_to(t0, np.broadcast(SA, CT0, p).shape), "ambient temperature")
-    dh = np.broadcast_to(gsw.enthalpy_t_exact(SA, t1, p) - gsw.enthalpy_t_exact(SA, t0, p), shape).copy()
-    rho = np.broadcast_to(gsw.rho_t_exact(SA, t1, p), shape).copy()
-    cp = gsw.cp_t_exact(SA, t0, p)
-    outside = ~np.broadcast_to(np.asarray(gsw.infunnel(SA, gsw.CT_from_t(SA, t1, p), p), bool), shape)
-    if outside.any():
-        dh[outside], rho[outside] = _warm_beyond_teos10(np.broadcast_to(t0, shape)[outside],
-                                                         np.broadcast_to(t1, shape)[outside],
-                                                         np.broadcast_to(p, shape)[outside])
+    shape = np.broadcast_shapes(np.shape(SA), np.shape(t1), np.shape(p))
+    heat = seawater_heat_content(t1, t0, SA, p, field="ambient temperature + temperature anomaly")
+    dh = np.broadcast_to(heat.specific_heat_content, shape)
+    rho = np.broadcast_to(heat.density, shape)
+    model = np.broadcast_to(heat.model, shape)
     a_eff = A * f
     q = w * a_eff
     m = rho * q
     return DiffuseDischarge(
         heat_power=Q_(m * dh, "W"),
-        heat_power_cp_shortcut=Q_(m * cp * dT, "W"),
+        heat_power_cp_shortcut=Q_(m * SHORTCUT_HEAT_CAPACITY.to("J/(kg*K)").magnitude * dT, "W"),
         volume_flux=Q_(q, "m^3/s"),
         mass_flux=Q_(m, "kg/s"),
         area=Q_(np.broadcast_to(A, np.shape(a_eff)), "m^2"),
         effective_area=Q_(a_eff, "m^2"),
         specific_heat_content=Q_(dh, "J/kg"),
         density=Q_(rho, "kg/m^3"),
-        beyond_teos10=outside,
+        beyond_teos10=model != TEOS10,
+        heat_model=np.asarray(MODEL_NAMES, dtype=object)[model],
     )
-
-
-def _warm_beyond_teos10(t0_c, t1_c, p_sea_dbar):
-    """Δh and density from the vent-fluid model (pure water, IAPWS-95) at both ends.
-
-    Used where the warm fluid lies outside TEOS-10's funnel (at depth the
-    funnel ends well below 40 °C), so one equation of state serves both ends.
-    """
-    from .properties import fluid_model
-
-    model = fluid_model()
-    T0, T1 = t0_c + 273.15, t1_c + 273.15
-    P = p_sea_dbar * 1e4 + STANDARD_ATMOSPHERE
-    model.check(T0, P, "ambient temperature")
-    model.check(T1, P, "ambient temperature + temperature anomaly")
-    h1, d1 = model.enthalpy_density(T1, P)
-    h0, _ = model.enthalpy_density(T0, P)
-    return h1 - h0, d1
 
 
 # --------------------------------------------------------------------------- Monte Carlo

@@ -29,12 +29,13 @@ from dataclasses import dataclass, fields
 import numpy as np
 
 from .errors import InputError
-from .properties.seawater import CP0, REFERENCE_SALINITY, pressure_from_depth, seawater_state
+from .properties.heat import SHORTCUT_HEAT_CAPACITY, ambient_enthalpy, shortcut_heat_content
+from .properties.seawater import REFERENCE_SALINITY, pressure_from_depth, seawater_state
 from .units import Q_, magnitude, require_dimension
 from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, draw_inputs, nominal, summarize
 
-#: Heat capacity of the constant-c_p shortcut: TEOS-10's c_p0 [2], J/(kg K).
-SHORTCUT_HEAT_CAPACITY = Q_(CP0, "J/(kg*K)")
+# SHORTCUT_HEAT_CAPACITY (TEOS-10's c_p0 [2]) and the shortcut itself are defined once, in
+# ventflux.properties.heat, for every estimator.
 #: Area-mean over centreline velocity of fully developed turbulent pipe flow,
 #: from the 1/7-power-law profile: 2 n² / ((n + 1)(2n + 1)) with n = 7 gives
 #: 49/60 ≈ 0.817 [3] (from memory). Jets leaving chimney orifices are rarely
@@ -249,19 +250,15 @@ def orifice_discharge(temperature, velocity, diameter=None, *, area=None, minor_
         bad = np.broadcast_to(T, np.broadcast(T, Ta).shape)[~np.broadcast_to(hot, np.broadcast(T, Ta).shape)]
         raise InputError("temperature", f"{bad.flat[0] - 273.15:.4g} degC",
                          "an exit temperature above the ambient temperature")
-    model.check(Ta, pa, "ambient temperature")
     model.check(T, pa, "temperature")
     ambient = seawater_state(Q_(Ta, "K"), ambient_salinity, p, longitude=longitude, latitude=latitude)
     h_exit, rho_exit = model.enthalpy_density(T, pa)
-    h_amb, _ = model.enthalpy_density(Ta, pa)
+    h_amb = ambient_enthalpy(model, Ta, pa)  # down to seawater's freezing point (properties.heat)
     rho = Q_(rho_exit, "kg/m^3")
     mass = (rho * v * A).to("kg/s")
     dh = Q_(h_exit - h_amb, "J/kg")
     H = (mass * dh).to("W")
-    cp = shortcut_heat_capacity
-    if not (hasattr(cp, "check") and cp.check("[length] ** 2 / [time] ** 2 / [temperature]")):
-        raise InputError("shortcut heat capacity", cp, "a specific heat capacity, e.g. '3992 J/(kg K)'")
-    Hc = (mass * cp * Q_(T - Ta, "K")).to("W")
+    Hc = (mass * shortcut_heat_content(Q_(T, "K"), Q_(Ta, "K"), shortcut_heat_capacity)).to("W")
     return OrificeDischarge(
         area=A,
         mean_velocity=v,

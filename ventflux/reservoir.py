@@ -12,6 +12,26 @@ IAPWS-95 enthalpy difference at the reservoir pressure (density ``ρ_f`` at
 latent heat of crystallization ``L``. Rock has no equation of state in the
 property layer, so its heat is ``ρ c ΔT`` with a constant heat capacity.
 
+Pore fluid in any state
+-----------------------
+Pore fluid is pure water from IAPWS-95 [2] in whatever single phase it has at
+the reservoir's temperature and pressure: liquid-like, vapour-like (below the
+critical pressure and above the saturation temperature: at 18.8 MPa and
+600 °C it is a dense vapour, nothing boils) or supercritical. Cooled at
+constant pressure from a vapour-like to a liquid state it condenses, and the
+enthalpy difference includes that latent heat. The only states IAPWS-95 at
+given temperature and pressure cannot place are those *on* the saturation
+curve (two-phase, vapour fraction undetermined): within ``SATURATION_BAND``
+of the saturation temperature either end is refused, naming the saturation
+temperature; give a temperature off the curve. The boiling check of vent
+exit fluid does not apply here.
+
+The reservoir pressure is given, or computed from the seafloor pressure and
+a depth below the seafloor (``reservoir_pressure``): hydrostatic under a
+column of cold seawater of 1025 kg/m³ (a choice: a column of hot pore fluid
+is lighter, so this is an upper bound on hydrostatic pressure) or
+lithostatic under the rock density.
+
 Three timescales answer "how long can it last":
 
 * heat-mining time ``E / P`` at constant power ``P``;
@@ -22,7 +42,16 @@ Three timescales answer "how long can it last":
   though released evenly over the temperature drop (an effective heat
   capacity), which is exact only for the sensible part;
 * conductive cooling ``L² / κ`` of a body of size ``L`` and thermal
-  diffusivity ``κ`` [1].
+  diffusivity ``κ`` [1]. The length is the one the geometry gives: for a
+  sheet (an area and a thickness) the thickness, the sheet taken as cooled
+  through one face (its top, towards the circulating water; with both faces
+  cooled, ``cooled_faces=2``, half the thickness); for a volume alone the
+  cube root of the volume (an equant body assumed); or a length the user
+  gives. The result names the length and its basis. For a sheet cooled
+  through one face with the other insulated, the slowest conductive mode
+  decays as ``exp(−π² κ t / 4L²)`` and a half-space conducts the sheet's
+  heat ``ρ c ΔT L`` away in ``π L² / 4κ`` [1], both within a factor 2.5 of
+  ``L²/κ`` (see ``tests/test_reservoir_edges.py``).
 
 The reservoir loses its heat by whichever of advection (the vents) and
 conduction is faster, so the *shorter* of the decline time and ``L²/κ``
@@ -53,7 +82,6 @@ import numpy as np
 
 from .diffuse import temperature_difference
 from .errors import InputError
-from .properties import specific_heat_content, vent_fluid_state
 from .units import Q_, magnitude
 
 # Defaults, sources in the module notes ("Defaults").
@@ -72,6 +100,15 @@ MELT_DENSITY = Q_(2700.0, "kg/m^3")
 #: Output fraction at which a declining reservoir counts as spent (a choice, not a law).
 SPENT_FRACTION = 0.1
 _FLUID_T_MIN = 273.16  # K, the triple point: IAPWS-95's lower temperature bound [2]
+#: Half-width of the band around the saturation temperature in which a pore-fluid state at given
+#: temperature and pressure is two-phase and refused (K; a choice, wider than CoolProp's flash tolerance).
+SATURATION_BAND = 0.05
+#: Density of the cold seawater column for a hydrostatic reservoir pressure (a choice; deep seawater is
+#: 1027-1050 kg/m3 in situ, TEOS-10, and hot pore fluid lighter).
+HYDROSTATIC_DENSITY = Q_(1025.0, "kg/m^3")
+#: Standard acceleration of gravity (CGPM 1901, exact).
+GRAVITY = Q_(9.80665, "m/s^2")
+PRESSURE_REGIMES = ("hydrostatic", "lithostatic")
 
 
 @dataclass(frozen=True)
@@ -83,6 +120,9 @@ class ReservoirHeat:
     pore_fluid: object
     latent: object
     volume: object
+    area: object = None  # given with a thickness (a sheet), else None
+    thickness: object = None
+    pore_fluid_phase: str = ""  # "liquid-like", "vapour-like" or "supercritical" at the initial state
 
 
 @dataclass(frozen=True)
@@ -97,6 +137,7 @@ class Lifetime:
     size: object  # L used for L²/κ
     controlling: np.ndarray  # "advective decline" or "conductive cooling", per element
     spent_fraction: float
+    size_basis: str = ""  # which length L is: given, sheet thickness, half-thickness or cube root
 
 
 def _article(word):
@@ -129,24 +170,116 @@ def reservoir_volume(volume=None, area=None, thickness=None):
     return Q_(_positive(area, "m^2", "area", "area") * _positive(thickness, "m", "length", "thickness"), "m^3")
 
 
-def pore_fluid_heat_density(temperature, temperature_drop, pressure, model=None):
-    """Heat released per unit pore volume [J/m³]: ρ_f(T₀, p) [h(T₀, p) − h(T₀ − ΔT, p)], IAPWS-95 [2]."""
-    T0 = magnitude(temperature, "K", "temperature", "reservoir temperature")
+def reservoir_pressure(seafloor_pressure, depth_below_seafloor, regime="hydrostatic", rock_density=ROCK_DENSITY):
+    """Absolute reservoir pressure at ``depth_below_seafloor`` under the seafloor.
+
+    ``p = p_seafloor + ρ g z`` with ``ρ`` the cold-seawater density 1025 kg/m³
+    (``"hydrostatic"``, a choice; see module notes) or the rock density
+    (``"lithostatic"``), ``g`` = 9.80665 m/s².
+
+    Parameters
+    ----------
+    seafloor_pressure : pint.Quantity
+        Absolute pressure at the seafloor.
+    depth_below_seafloor : pint.Quantity
+        Depth of the reservoir below the seafloor (≥ 0).
+    regime : {"hydrostatic", "lithostatic"}
+    rock_density : pint.Quantity, default 2900 kg/m³
+
+    Returns
+    -------
+    pint.Quantity
+        Absolute pressure [Pa].
+    """
+    if regime not in PRESSURE_REGIMES:
+        raise InputError("pressure regime", str(regime), "one of " + ", ".join(PRESSURE_REGIMES))
+    p0 = _positive(seafloor_pressure, "Pa", "pressure", "seafloor pressure")
+    z = _positive(depth_below_seafloor, "m", "length", "depth below seafloor", allow_zero=True)
+    rho = (HYDROSTATIC_DENSITY.to("kg/m^3").magnitude if regime == "hydrostatic"
+           else _positive(rock_density, "kg/m^3", "density", "rock density"))
+    return Q_(p0 + rho * GRAVITY.to("m/s^2").magnitude * z, "Pa")
+
+
+def _pore_model(model):
+    if model is None:
+        from .properties.ventfluid import IAPWS95Water
+
+        return IAPWS95Water(allow_vapour=True)  # any single phase; two-phase states are refused below
+    if isinstance(model, str):
+        from .properties import fluid_model
+
+        return fluid_model(model)
+    return model
+
+
+def pore_fluid_phase(temperature, pressure):
+    """Single phase of IAPWS-95 water at (T [K], p [Pa]): "liquid-like", "vapour-like" or "supercritical"."""
+    from .properties.ventfluid import P_CRIT, T_CRIT, IAPWS95Water
+
+    T, p = np.broadcast_arrays(np.asarray(temperature, float), np.asarray(pressure, float))
+    tsat = IAPWS95Water().saturation_temperature(p)
+    return np.where((p >= P_CRIT) & (T >= T_CRIT), "supercritical",
+                    np.where(np.isfinite(tsat) & (T > tsat), "vapour-like", "liquid-like"))
+
+
+def check_pore_fluid(temperature, temperature_drop, pressure, model=None):
+    """Raise ``InputError`` unless the pore fluid has one phase at both ends of its cooling.
+
+    Both the initial temperature ``T₀`` and the final ``T₀ − ΔT`` must lie in
+    IAPWS-95's range at the reservoir pressure and off the saturation curve
+    (farther than ``SATURATION_BAND`` from it). Fields named:
+    ``reservoir temperature``, ``temperature drop``, ``reservoir pressure``.
+    """
+    T0 = np.asarray(magnitude(temperature, "K", "temperature", "reservoir temperature"), float)
     dT = _drop(temperature_drop)
-    low = np.asarray(T0 - dT)
+    p = np.asarray(magnitude(pressure, "Pa", "pressure", "reservoir pressure"), float)
+    low = T0 - dT
     if np.any(low < _FLUID_T_MIN):
         raise InputError("temperature drop", f"{np.max(dT):g} K",
                          f"a drop that leaves the pore fluid above {_FLUID_T_MIN - 273.15:.2f} degC "
                          f"(reservoir temperature {np.min(T0) - 273.15:.4g} degC), or porosity 0 for dry rock")
-    T1 = Q_(low, "K")
-    dh = specific_heat_content(Q_(T0, "K"), T1, pressure, model)
-    rho = vent_fluid_state(Q_(T0, "K"), pressure, model, field="reservoir temperature").density
-    return (rho * dh).to("J/m^3")
+    m = _pore_model(model)
+    try:
+        m.check(T0, p, "reservoir temperature")
+        m.check(low, p, "temperature drop")
+    except InputError as e:
+        raise InputError("reservoir pressure" if e.field == "pressure" else e.field, e.value, e.allowed) from None
+    if model is None:
+        tsat = m.saturation_temperature(np.broadcast_to(p, np.broadcast(T0, p).shape))
+        for field, T in (("reservoir temperature", T0), ("temperature drop", low)):
+            T = np.broadcast_to(T, tsat.shape)
+            on = np.isfinite(tsat) & (np.abs(T - tsat) < SATURATION_BAND)
+            if on.any():
+                i = np.flatnonzero(on.ravel())[0]
+                shown = (f"{T.ravel()[i] - 273.15:.6g} degC" if field == "reservoir temperature"
+                         else f"a drop to {T.ravel()[i] - 273.15:.6g} degC")
+                raise InputError(field, shown,
+                                 f"a pore-fluid temperature off the saturation curve ({tsat.ravel()[i] - 273.15:.2f} "
+                                 f"degC at {p.ravel()[i] if np.ndim(p) else p:.4g} Pa): on it the fluid is two-phase "
+                                 "with an undetermined vapour fraction")
+
+
+def pore_fluid_heat_density(temperature, temperature_drop, pressure, model=None):
+    """Heat released per unit pore volume [J/m³]: ρ_f(T₀, p) [h(T₀, p) − h(T₀ − ΔT, p)], IAPWS-95 [2].
+
+    The pore fluid takes its single phase (liquid-like, vapour-like or
+    supercritical) at each end; see the module notes. ``model`` defaults
+    to IAPWS-95 water in any single phase.
+    """
+    check_pore_fluid(temperature, temperature_drop, pressure, model)
+    m = _pore_model(model)
+    T0 = np.asarray(magnitude(temperature, "K", "temperature", "reservoir temperature"), float)
+    low = T0 - _drop(temperature_drop)
+    p = np.asarray(magnitude(pressure, "Pa", "pressure", "reservoir pressure"), float)
+    h0, rho = m.enthalpy_density(T0, p)
+    h1, _ = m.enthalpy_density(low, p)
+    return Q_(rho * (h0 - h1), "J/m^3")
 
 
 def reservoir_heat(temperature_drop, volume=None, area=None, thickness=None, rock_density=ROCK_DENSITY,
                    rock_heat_capacity=ROCK_HEAT_CAPACITY, porosity=POROSITY, temperature=None, pressure=None,
-                   melt_volume=None, latent_heat=LATENT_HEAT, melt_density=MELT_DENSITY, model=None):
+                   melt_volume=None, latent_heat=LATENT_HEAT, melt_density=MELT_DENSITY, model=None,
+                   depth_below_seafloor=None, seafloor_pressure=None, pressure_regime="hydrostatic"):
     """Heat a reservoir gives up when it cools by ``temperature_drop``.
 
     Parameters
@@ -162,7 +295,12 @@ def reservoir_heat(temperature_drop, volume=None, area=None, thickness=None, roc
         Pore fraction of the volume (from memory); 0 for none.
     temperature, pressure : pint.Quantity
         Initial reservoir temperature and absolute pressure, needed for the
-        pore fluid's IAPWS-95 enthalpy difference [2] when ``porosity > 0``.
+        pore fluid's IAPWS-95 enthalpy difference [2] when ``porosity > 0``
+        (the fluid in whatever single phase it has there).
+    depth_below_seafloor, seafloor_pressure : pint.Quantity, optional
+        Instead of ``pressure``: the reservoir pressure from
+        ``reservoir_pressure`` under ``pressure_regime``.
+    pressure_regime : {"hydrostatic", "lithostatic"}
     melt_volume : pint.Quantity, optional
         Volume of a melt lens that crystallizes.
     latent_heat, melt_density : pint.Quantity
@@ -185,12 +323,25 @@ def reservoir_heat(temperature_drop, volume=None, area=None, thickness=None, roc
     c = _positive(rock_heat_capacity, "J/(kg*K)", "specific heat capacity", "rock heat capacity")
     dT = _drop(temperature_drop)
     rock = Q_((1 - phi) * rho * c * dT * V.magnitude, "J")
+    if pressure is not None and depth_below_seafloor is not None:
+        raise InputError("reservoir pressure", f"{pressure} and a depth below the seafloor",
+                         "either a reservoir pressure or a depth below the seafloor, not both")
+    if pressure is None and depth_below_seafloor is not None:
+        if seafloor_pressure is None:
+            raise InputError("seafloor pressure", "none", "the seafloor pressure, with a depth below the seafloor")
+        pressure = reservoir_pressure(seafloor_pressure, depth_below_seafloor, pressure_regime, rock_density)
+    phase = ""
     if np.any(phi > 0):
-        if temperature is None or pressure is None:
-            raise InputError("reservoir temperature", "none",
-                             "a reservoir temperature and pressure for the pore fluid (or porosity 0)")
+        missing = [n for n, v in (("reservoir temperature", temperature), ("reservoir pressure", pressure))
+                   if v is None]
+        if missing:
+            raise InputError(missing[0], "none",
+                             "a reservoir temperature and a pressure (or a depth below the seafloor) for the "
+                             "pore fluid, or porosity 0 for dry rock")
         fluid = Q_(phi * pore_fluid_heat_density(temperature, Q_(dT, "K"), pressure, model).magnitude
                    * V.magnitude, "J")
+        phases = np.unique(pore_fluid_phase(magnitude(temperature, "K"), magnitude(pressure, "Pa")))
+        phase = "/".join(str(x) for x in phases)
     else:
         fluid = Q_(np.zeros(np.broadcast(phi, V.magnitude).shape), "J")
     if melt_volume is None:
@@ -200,7 +351,11 @@ def reservoir_heat(temperature_drop, volume=None, area=None, thickness=None, roc
         latent = Q_(Vm * _positive(melt_density, "kg/m^3", "density", "melt density")
                     * _positive(latent_heat, "J/kg", "specific energy", "latent heat"), "J")
     total = rock + fluid + latent
-    return ReservoirHeat(total=total, rock=rock, pore_fluid=fluid, latent=latent, volume=V)
+    sheet = volume is None
+    return ReservoirHeat(total=total, rock=rock, pore_fluid=fluid, latent=latent, volume=V,
+                         area=Q_(magnitude(area, "m^2"), "m^2") if sheet else None,
+                         thickness=Q_(magnitude(thickness, "m"), "m") if sheet else None,
+                         pore_fluid_phase=phase)
 
 
 def heat_mining_time(power, heat):
@@ -225,7 +380,29 @@ def conductive_time(size, diffusivity=THERMAL_DIFFUSIVITY):
     return Q_(L**2 / k, "s").to("year")
 
 
-def reservoir_lifetime(power, heat, size=None, diffusivity=THERMAL_DIFFUSIVITY, fraction=SPENT_FRACTION):
+def conductive_length(heat, size=None, cooled_faces=1):
+    """Length ``L`` for ``L²/κ`` and what it is (see module notes).
+
+    Returns
+    -------
+    (pint.Quantity, str)
+        The given ``size``; else the sheet's thickness (``cooled_faces=1``)
+        or half-thickness (``2``) when the reservoir is an area and a
+        thickness; else the cube root of the volume.
+    """
+    if cooled_faces not in (1, 2):
+        raise InputError("cooled faces", str(cooled_faces), "1 (the top face) or 2 (both faces of the sheet)")
+    if size is not None:
+        return Q_(_positive(size, "m", "length", "reservoir size"), "m"), "given length"
+    if getattr(heat, "thickness", None) is not None:
+        if cooled_faces == 2:
+            return heat.thickness.to("m") / 2, "half the sheet's thickness (cooled through both faces)"
+        return heat.thickness.to("m"), "sheet thickness (cooled through its top face)"
+    return Q_(np.cbrt(heat.volume.to("m^3").magnitude), "m"), "cube root of the volume (an equant body)"
+
+
+def reservoir_lifetime(power, heat, size=None, diffusivity=THERMAL_DIFFUSIVITY, fraction=SPENT_FRACTION,
+                       cooled_faces=1):
     """Heat-mining, decline and conductive timescales side by side, with the controlling one.
 
     Parameters
@@ -235,8 +412,11 @@ def reservoir_lifetime(power, heat, size=None, diffusivity=THERMAL_DIFFUSIVITY, 
     heat : ReservoirHeat
         From ``reservoir_heat``.
     size : pint.Quantity, optional
-        Length ``L`` for ``L²/κ``; default the cube root of the volume, or the
-        thickness for a sheet-like reservoir should be passed explicitly.
+        Length ``L`` for ``L²/κ``; by default the sheet's thickness (or half
+        of it with ``cooled_faces=2``) for a reservoir given as an area and a
+        thickness, else the cube root of the volume (``conductive_length``).
+    cooled_faces : {1, 2}
+        Faces of a sheet through which it cools (default 1, the top).
     diffusivity : pint.Quantity, default 1e-6 m²/s (from memory, [1])
     fraction : float, default 0.1
         Output fraction at which a declining reservoir counts as spent.
@@ -251,14 +431,15 @@ def reservoir_lifetime(power, heat, size=None, diffusivity=THERMAL_DIFFUSIVITY, 
     ----------
     .. [1] Turcotte & Schubert (2002), Geodynamics, 2nd ed., ch. 4.
     """
-    L = size if size is not None else Q_(np.cbrt(heat.volume.to("m^3").magnitude), "m")
+    L, basis = conductive_length(heat, size, cooled_faces)
     mining = heat_mining_time(power, heat)
     decline = decline_time(power, heat, fraction)
     cond = conductive_time(L, diffusivity)
     a, b = np.broadcast_arrays(decline.to("year").magnitude, cond.to("year").magnitude)
     controlling = np.where(a <= b, "advective decline", "conductive cooling")
     return Lifetime(heat=heat, mining_time=mining, decline_time=decline, efolding_time=mining,
-                    conductive_time=cond, size=L.to("m"), controlling=controlling, spent_fraction=float(fraction))
+                    conductive_time=cond, size=L.to("m"), controlling=controlling, spent_fraction=float(fraction),
+                    size_basis=basis)
 
 
 def reservoir_size_for(power, duration, temperature_drop, area=None, **heat_options):

@@ -17,7 +17,14 @@ References (each a function below):
   ``5651 − 2473 exp(−0.0278 t)`` beyond (coefficients from memory).
 
 Integrated over age from ``t₀`` to ``t₁`` the deficit ``∫ (q_ref − q_obs) dt``
-is an energy per unit area [J/m²]. Ocean floor of age ``t`` lies at
+is an energy per unit area [J/m²]. Crust younger than the first observation
+is not covered by the observations, yet there the reference heat flow is
+largest; the result reports separately the reference's own heat loss from
+age 0 to the first observation, ``∫₀^t₀ q_ref dt`` (exact: for the half-space
+``2 k ΔT √(t₀ / π κ)``), which is the deficit there if conduction carries
+none of it (an upper bound), and the deficit from the axis, the sum of
+both. Which one the water column uses is the caller's choice
+(``DEFICIT_SPANS``; default the observed ages only). Ocean floor of age ``t`` lies at
 ``x = u t`` from the ridge (half spreading rate ``u``), so in steady state the
 advective heat loss per unit ridge length is ``u ∫ (q_ref − q_obs) dt`` per
 flank [W/m]. Dividing the deficit by the heat taken up per unit volume of
@@ -48,10 +55,11 @@ from scipy.special import erf
 
 from .diffuse import temperature_difference as _difference
 from .errors import InputError
-from .reservoir import _article
 from .orifice import DEFAULT_AMBIENT_SALINITY
 from .properties import seawater_state
-from .properties.seawater import check_funnel
+from .properties.seawater import absolute_salinity, sea_pressure_dbar
+from .properties.seawater_heat import seawater_heat_content
+from .reservoir import _article
 from .units import Q_, magnitude
 
 # Half-space parameters, the values used in [1] (from memory).
@@ -72,6 +80,8 @@ EXPANSIVITY = Q_(3.0e-5, "1/K")
 #: Ridge-crest depth.
 RIDGE_DEPTH = Q_(2500.0, "m")
 REFERENCES = ("gdh1", "half-space")
+#: Age spans of the deficit: the observed ages only, or from the axis (age 0) to the last observation.
+DEFICIT_SPANS = ("observed", "from-axis")
 
 # GDH1 coefficients [2] (from memory), age in Myr, heat flow in mW/m², depth in m.
 _GDH1_Q_YOUNG, _GDH1_Q_OLD, _GDH1_Q_AMP, _GDH1_DECAY = 510.0, 48.0, 96.0, 0.0278
@@ -268,6 +278,17 @@ class HeatDeficit:
     mean_advective_flux: object  # deficit / age span, mW/m²
     fraction: object  # deficit / reference heat
     per_length: object  # W/m of ridge, both flanks, if a spreading rate is given (else None)
+    before_first: object = None  # ∫₀^t₀ q_ref dt, J/m²: the reference's heat loss younger than the first age
+    deficit_from_axis: object = None  # deficit + before_first, J/m² (no conduction before the first age)
+    per_length_from_axis: object = None  # W/m, like per_length, from the axis
+
+    def span(self, which="observed"):
+        """``(deficit, per_length)`` over the observed ages or from the axis (``DEFICIT_SPANS``)."""
+        if which not in DEFICIT_SPANS:
+            raise InputError("deficit span", str(which), "one of " + ", ".join(DEFICIT_SPANS))
+        if which == "observed":
+            return self.deficit, self.per_length
+        return self.deficit_from_axis, self.per_length_from_axis
 
 
 def heat_deficit(age, heat_flow, reference="gdh1", half_spreading_rate=None, flanks=2, **half_space):
@@ -295,7 +316,9 @@ def heat_deficit(age, heat_flow, reference="gdh1", half_spreading_rate=None, fla
     -------
     HeatDeficit
         The observed heat flow is integrated by the trapezoid rule between
-        the observations, the reference exactly over the same age span.
+        the observations, the reference exactly over the same age span;
+        ``before_first`` is the reference's heat loss from age 0 to the first
+        observation and ``deficit_from_axis`` the deficit with it added.
     """
     t = _myr(age)
     if t.ndim != 1 or t.size < 2:
@@ -313,30 +336,36 @@ def heat_deficit(age, heat_flow, reference="gdh1", half_spreading_rate=None, fla
     ref = cumulative_reference_heat(Q_(t[0], "Myr"), Q_(t[-1], "Myr"), reference, **half_space)
     deficit = ref - observed
     span = Q_(t[-1] - t[0], "Myr")
-    per_length = None
+    before = cumulative_reference_heat(Q_(0.0, "Myr"), Q_(t[0], "Myr"), reference, **half_space)
+    from_axis = deficit + before
+    per_length = per_length_axis = None
     if half_spreading_rate is not None:
         u = _positive(half_spreading_rate, "m/s", "velocity", "half spreading rate")
         per_length = (deficit * Q_(u, "m/s") * flanks).to("W/m")
+        per_length_axis = (from_axis * Q_(u, "m/s") * flanks).to("W/m")
     return HeatDeficit(reference=reference, age_from=Q_(t[0], "Myr"), age_to=Q_(t[-1], "Myr"),
                        reference_heat=ref, conductive_heat=observed, deficit=deficit,
                        mean_advective_flux=(deficit / span).to("mW/m^2"),
-                       fraction=(deficit / ref).to("dimensionless"), per_length=per_length)
+                       fraction=(deficit / ref).to("dimensionless"), per_length=per_length,
+                       before_first=before, deficit_from_axis=from_axis, per_length_from_axis=per_length_axis)
 
 
 def seawater_heat_uptake(temperature_rise, ambient_temperature, pressure, salinity=DEFAULT_AMBIENT_SALINITY):
     """Heat taken up per unit volume of seawater warmed by ``temperature_rise`` [J/m³].
 
-    ``ρ(T_a) [h(T_a + ΔT) − h(T_a)]`` at in-situ pressure, TEOS-10 at both ends [3].
+    ``ρ(T_a) [h(T_a + ΔT) − h(T_a)]`` at in-situ pressure, one seawater enthalpy at both ends: TEOS-10 [3]
+    to 40 °C, continued beyond by ``ventflux.properties.seawater_heat``.
     """
     rise = _positive(_difference(temperature_rise, "fluid temperature rise"), "K", "temperature",
                      "fluid temperature rise")
     Ta = _si(ambient_temperature, "K", "temperature", "ambient temperature")
     cold = seawater_state(Q_(Ta, "K"), salinity, pressure)
-    warm = seawater_state(Q_(Ta + rise, "K"), salinity, pressure, check=False)
-    check_funnel(warm.absolute_salinity.magnitude, warm.conservative_temperature.magnitude,
-                 warm.sea_pressure.magnitude, Q_(Ta + rise, "K").to("degC").magnitude,
-                 field="fluid temperature (ambient + rise)")
-    return (cold.density * (warm.enthalpy - cold.enthalpy)).to("J/m^3")
+    p = sea_pressure_dbar(pressure)
+    SA = absolute_salinity(np.asarray(salinity.to("dimensionless").magnitude if hasattr(salinity, "to")
+                                      else salinity, float), p)
+    # warm end from the joined seawater model (TEOS-10 to 40 degC, beyond it IAPWS-95 with the saline part)
+    warm = seawater_heat_content(Ta + rise - 273.15, Ta - 273.15, SA, p, field="fluid temperature (ambient + rise)")
+    return (cold.density * Q_(warm.specific_heat_content, "J/kg")).to("J/m^3")
 
 
 def equivalent_water_column(energy_per_area, temperature_rise, ambient_temperature, pressure,

@@ -34,6 +34,7 @@ from . import reservoir as rv
 from . import ridge_flank as rf
 from .errors import InputError
 from .orifice import DEFAULT_AMBIENT_SALINITY
+from .properties import seawater_heat as sh
 from .throughput import water_throughput
 from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Summary, Uncertain, draw_inputs, summarize, unit_tag
 from .units import Q_
@@ -185,6 +186,8 @@ def water_answer(power, temperature, pressure, ambient_temperature, salinity=DEF
                   dict(power=power, temperature=temperature, pressure=pressure,
                        ambient_temperature=ambient_temperature, salinity=salinity),
                   WATER_OUTPUTS, positive=("power", "pressure"), draws=draws, seed=seed)
+    ans.labels["heat_content_model"] = "IAPWS-95 pure water at both ends; ambient density TEOS-10"
+    ans.labels["shortcut"] = "c_p0 (T - T_ambient), TEOS-10's c_p0 = 3991.87 J/(kg K)"
     return ans
 
 
@@ -202,27 +205,33 @@ RESERVOIR_OUTPUTS = {
 }
 
 
-def _lifetime(power, size=None, diffusivity=rv.THERMAL_DIFFUSIVITY, spent_fraction=rv.SPENT_FRACTION, **heat):
+def _lifetime(power, size=None, diffusivity=rv.THERMAL_DIFFUSIVITY, spent_fraction=rv.SPENT_FRACTION,
+              cooled_faces=1, **heat):
     return rv.reservoir_lifetime(power, rv.reservoir_heat(**heat), size=size, diffusivity=diffusivity,
-                                 fraction=spent_fraction)
+                                 fraction=spent_fraction, cooled_faces=cooled_faces)
 
 
 def reservoir_answer(power, temperature_drop, volume=None, area=None, thickness=None,
                      rock_density=rv.ROCK_DENSITY, rock_heat_capacity=rv.ROCK_HEAT_CAPACITY, porosity=rv.POROSITY,
                      temperature=None, pressure=None, melt_volume=None, latent_heat=rv.LATENT_HEAT,
                      melt_density=rv.MELT_DENSITY, size=None, diffusivity=rv.THERMAL_DIFFUSIVITY,
-                     spent_fraction=rv.SPENT_FRACTION, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
+                     spent_fraction=rv.SPENT_FRACTION, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED,
+                     depth_below_seafloor=None, seafloor_pressure=None, pressure_regime="hydrostatic",
+                     cooled_faces=1) -> Answer:
     """Heat-mining time, exponential-decline lifetime and ``L²/κ``, with the controlling one.
 
     Parameters are those of ``ventflux.reservoir.reservoir_heat`` and
     ``reservoir_lifetime`` (defaults documented there, with sources); any
     quantity may be ``Uncertain``. ``controlling`` is labelled with the share
-    of draws in which each process is the faster.
+    of draws in which each process is the faster; ``conductive_length`` names
+    the length of ``L²/κ`` and ``pore_fluid_phase`` the pore fluid's state.
     """
     inputs = dict(power=power, temperature_drop=temperature_drop, volume=volume, area=area, thickness=thickness,
                   rock_density=rock_density, rock_heat_capacity=rock_heat_capacity, porosity=porosity,
                   temperature=temperature, pressure=pressure, melt_volume=melt_volume, latent_heat=latent_heat,
-                  melt_density=melt_density, size=size, diffusivity=diffusivity, spent_fraction=spent_fraction)
+                  melt_density=melt_density, size=size, diffusivity=diffusivity, spent_fraction=spent_fraction,
+                  depth_below_seafloor=depth_below_seafloor, seafloor_pressure=seafloor_pressure,
+                  pressure_regime=pressure_regime, cooled_faces=cooled_faces)
     life, ans = _run("reservoir", _lifetime, inputs, RESERVOIR_OUTPUTS,
                      positive=("power", "temperature_drop", "volume", "area", "thickness", "rock_density",
                                "rock_heat_capacity", "size", "diffusivity", "melt_volume", "latent_heat",
@@ -233,6 +242,9 @@ def reservoir_answer(power, temperature_drop, volume=None, area=None, thickness=
     ans.labels["controlling"] = label
     ans.labels["controlling_share"] = share if label == "advective decline" else 1.0 - share
     ans.labels["spent_fraction"] = float(spent_fraction)
+    ans.labels["conductive_length"] = life.size_basis
+    if life.heat.pore_fluid_phase:
+        ans.labels["pore_fluid_phase"] = life.heat.pore_fluid_phase
     return ans
 
 
@@ -246,11 +258,17 @@ SIZE_OUTPUTS = {
 
 def reservoir_size_answer(power, duration, temperature_drop, area=None, rock_density=rv.ROCK_DENSITY,
                           rock_heat_capacity=rv.ROCK_HEAT_CAPACITY, porosity=rv.POROSITY, temperature=None,
-                          pressure=None, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
-    """Hot-rock volume (and thickness under ``area``) that sustains ``power`` for ``duration``."""
+                          pressure=None, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, depth_below_seafloor=None,
+                          seafloor_pressure=None, pressure_regime="hydrostatic") -> Answer:
+    """Hot-rock volume (and thickness under ``area``) that sustains ``power`` for ``duration``.
+
+    The reservoir pressure for the pore fluid is ``pressure`` or comes from ``depth_below_seafloor`` and
+    ``seafloor_pressure`` under ``pressure_regime`` (``ventflux.reservoir.reservoir_pressure``).
+    """
     inputs = dict(power=power, duration=duration, temperature_drop=temperature_drop, area=area,
                   rock_density=rock_density, rock_heat_capacity=rock_heat_capacity, porosity=porosity,
-                  temperature=temperature, pressure=pressure)
+                  temperature=temperature, pressure=pressure, depth_below_seafloor=depth_below_seafloor,
+                  seafloor_pressure=seafloor_pressure, pressure_regime=pressure_regime)
     _, ans = _run("reservoir size", rv.reservoir_size_for, inputs, SIZE_OUTPUTS,
                   positive=("power", "duration", "temperature_drop", "area", "rock_density", "rock_heat_capacity",
                             "porosity"),
@@ -265,22 +283,29 @@ FLANK_OUTPUTS = {
     "deficit_fraction": (_attr("deficit", "fraction"), "dimensionless"),
     "mean_advective_flux": (_attr("deficit", "mean_advective_flux"), "mW/m^2"),
     "advective_loss_per_length": (_attr("deficit", "per_length"), "MW/km"),
+    "reference_heat_before_first_age": (_attr("deficit", "before_first"), "J/m^2"),
+    "heat_deficit_from_axis": (_attr("deficit", "deficit_from_axis"), "J/m^2"),
+    "advective_loss_per_length_from_axis": (_attr("deficit", "per_length_from_axis"), "MW/km"),
     "water_column": (_attr("water_column"), "km"),
     "circulated_water_per_length": (_attr("water_per_length"), "m^3/s/km"),
 }
 
 
 def _flank(age, heat_flow, reference, half_spreading_rate, temperature_rise, ambient_temperature, pressure,
-           salinity, **half_space):
+           salinity, deficit_span="observed", **half_space):
     d = rf.heat_deficit(age, heat_flow, reference, half_spreading_rate=half_spreading_rate, **half_space)
     out = {"deficit": d, "water_column": None, "water_per_length": None}
+    deficit, per_length = d.span(deficit_span)
     if temperature_rise is not None:
         uptake = rf.seawater_heat_uptake(temperature_rise, ambient_temperature, pressure, salinity)
+        warm_c = (ambient_temperature.to("degC").magnitude
+                  + rf._difference(temperature_rise, "fluid temperature rise").to("K").magnitude)
+        out["water_model"] = sorted({str(n) for n in np.ravel(sh.model_names(warm_c))})
         # A negative deficit (more conducted than the reference) means no advective loss: no water.
-        heat = np.maximum(d.deficit.to("J/m^2").magnitude, 0.0)
+        heat = np.maximum(deficit.to("J/m^2").magnitude, 0.0)
         out["water_column"] = Q_(heat / uptake.to("J/m^3").magnitude, "m")
-        if d.per_length is not None:
-            out["water_per_length"] = (Q_(np.maximum(d.per_length.to("W/m").magnitude, 0.0), "W/m")
+        if per_length is not None:
+            out["water_per_length"] = (Q_(np.maximum(per_length.to("W/m").magnitude, 0.0), "W/m")
                                        / uptake).to("m^3/s/km")
     return out
 
@@ -288,7 +313,7 @@ def _flank(age, heat_flow, reference, half_spreading_rate, temperature_rise, amb
 def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, temperature_rise=None,
                  ambient_temperature=Q_(2.0, "degC"), pressure=None, salinity=DEFAULT_AMBIENT_SALINITY,
                  conductivity=None, diffusivity=None, temperature_difference=None,
-                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
+                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, deficit_span="observed") -> Answer:
     """Ridge-flank heat deficit, advective loss per area and per ridge length, and the water column.
 
     Parameters
@@ -305,7 +330,14 @@ def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, tem
         Absolute pressure at the seafloor; required with ``temperature_rise``.
     conductivity, diffusivity, temperature_difference : optional
         Half-space parameters (defaults in ``ventflux.ridge_flank``).
+    deficit_span : {"observed", "from-axis"}
+        The deficit the water column uses: over the observed ages only
+        (default), or from age 0, adding the reference's heat loss before the
+        first observation (an upper bound: no conduction assumed there). Both
+        deficits are reported either way.
     """
+    if deficit_span not in rf.DEFICIT_SPANS:
+        raise InputError("deficit span", str(deficit_span), "one of " + ", ".join(rf.DEFICIT_SPANS))
     if temperature_rise is not None and pressure is None:
         raise InputError("pressure", "none", "the seafloor pressure, needed for the circulated seawater's enthalpy")
     half_space = {k: v for k, v in dict(conductivity=conductivity, diffusivity=diffusivity,
@@ -314,12 +346,16 @@ def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, tem
         raise InputError("reference", reference, "'half-space' when half-space parameters are given")
     inputs = dict(age=age, heat_flow=heat_flow, reference=reference, half_spreading_rate=half_spreading_rate,
                   temperature_rise=temperature_rise, ambient_temperature=ambient_temperature, pressure=pressure,
-                  salinity=salinity, **half_space)
+                  salinity=salinity, deficit_span=deficit_span, **half_space)
     out, ans = _run("ridge flank", _flank, inputs, FLANK_OUTPUTS,
                     positive=("half_spreading_rate", "temperature_rise", "conductivity", "diffusivity",
                               "temperature_difference"), draws=draws, seed=seed,
                     observations=("age", "heat_flow"))
     ans.labels["reference"] = reference
+    if out.get("water_model"):
+        ans.labels["circulated_water_model"] = "; ".join(out["water_model"])
+    ans.labels["water_column_deficit"] = ("observed ages only" if deficit_span == "observed"
+                                          else "from age 0 (no conduction before the first observation)")
     ans.labels["age_range_Myr"] = f"{out['deficit'].age_from.magnitude:g}-{out['deficit'].age_to.magnitude:g}"
     ans.inputs["age"] = f"{np.asarray(age.to('Myr').magnitude).tolist()} Myr"
     ans.inputs["heat_flow"] = f"{np.asarray(heat_flow.to('mW/m^2').magnitude).tolist()} mW/m^2"

@@ -7,7 +7,8 @@ pressure ``p``, both ends from the same equation of state (IAPWS-95 pure
 water, ``ventflux.properties.specific_heat_content``). The mass flux is
 ``P / Δh``; its volume at the vent is ``ṁ / ρ(T, p)`` (IAPWS-95) and the
 volume of seawater drawn in at ambient conditions is ``ṁ / ρ_sw(T_a, S, p)``
-(TEOS-10). The shortcut ``c_p ΔT`` with TEOS-10's ambient heat capacity is
+(TEOS-10). The constant-c_p shortcut ``c_p0 ΔT`` (one definition for the
+package, ``ventflux.properties.heat.shortcut_heat_content``: TEOS-10's c_p0) is
 returned beside it, to show what the shortcut would have said; it is never
 used for the answer.
 
@@ -31,6 +32,7 @@ import numpy as np
 from .errors import InputError
 from .orifice import DEFAULT_AMBIENT_SALINITY
 from .properties import seawater_state, specific_heat_content, vent_fluid_state
+from .properties.heat import shortcut_heat_content
 from .units import Q_, magnitude
 
 
@@ -46,7 +48,7 @@ class WaterThroughput:
     annual_volume: object  # km³/yr of ambient seawater
     vent_density: object
     ambient_density: object
-    shortcut_heat_content: object  # c_p,sw(T_a) · (T − T_a), J/kg, for comparison only
+    shortcut_heat_content: object  # c_p0 · (T − T_a), J/kg, for comparison only
     shortcut_mass_flux: object  # P / (c_p ΔT), kg/s, for comparison only
 
 
@@ -86,8 +88,7 @@ def water_throughput(power, temperature, pressure, ambient_temperature, salinity
     vent = vent_fluid_state(temperature, pressure, model)
     amb = seawater_state(ambient_temperature, salinity, pressure)
     mdot = Q_(P, "W") / dh
-    dT = Q_(magnitude(temperature, "K") - magnitude(ambient_temperature, "K"), "K")
-    shortcut = (amb.heat_capacity * dT).to("J/kg")
+    shortcut = shortcut_heat_content(temperature, ambient_temperature)
     per_year = Q_(1.0, "year")
     return WaterThroughput(
         specific_heat_content=dh,

@@ -195,7 +195,8 @@ def run(args) -> int:
                "effective_area_m2": float(nom.effective_area.to("m^2").magnitude[i]),
                "heat_power_W": float(nom.heat_power.to("W").magnitude[i]),
                "heat_power_cp_shortcut_W": float(nom.heat_power_cp_shortcut.to("W").magnitude[i]),
-               "volume_flux_m3_s": float(nom.volume_flux.to("m^3/s").magnitude[i])}
+               "volume_flux_m3_s": float(nom.volume_flux.to("m^3/s").magnitude[i]),
+               "seawater_model": str(nom.heat_model[i])}
         row.update(_summary(dr.heat_power[i], "W", "heat_power", args.seed))
         patches.append(row)
     out = {"method": "diffuse", "draws": args.draws, "seed": args.seed,
@@ -203,6 +204,7 @@ def run(args) -> int:
            "velocity": str(inputs["velocity"]) if not isinstance(inputs["velocity"], tuple) else "per patch",
            "heat_power_MW": float(nom.total_heat_power.to("MW").magnitude),
            "heat_power_cp_shortcut_MW": float(nom.total_heat_power_cp_shortcut.to("MW").magnitude),
+           "seawater_models": sorted({str(m) for m in np.ravel(nom.heat_model)}),
            "volume_flux_m3_s": float(nom.total_volume_flux.to("m^3/s").magnitude),
            **_summary(dr.total_heat_power, "MW", "heat_power", args.seed),
            **_summary(dr.total_volume_flux, "m^3/s", "volume_flux", args.seed),
@@ -213,9 +215,9 @@ def run(args) -> int:
         print_json(out)
         return 0
     rows = [("sampled patches", len(names), ""),
-            ("heat power (enthalpy, TEOS-10)", out["heat_power_MW"], "MW"),
+            (f"heat power (enthalpy, {'; '.join(out['seawater_models'])})", out["heat_power_MW"], "MW"),
             ("  5th-95th percentile", f"{out['heat_power_MW_p05']:.4g} – {out['heat_power_MW_p95']:.4g}", "MW"),
-            ("heat power (cp·ΔT shortcut)", out["heat_power_cp_shortcut_MW"], "MW"),
+            ("heat power (c_p0·ΔT shortcut, TEOS-10 c_p0)", out["heat_power_cp_shortcut_MW"], "MW"),
             ("volume flux", out["volume_flux_m3_s"], "m^3/s"),
             ("  5th-95th percentile", f"{out['volume_flux_m3_s_p05']:.4g} – {out['volume_flux_m3_s_p95']:.4g}",
              "m^3/s")]

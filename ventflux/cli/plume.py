@@ -61,8 +61,9 @@ def configure(p):
     m = p.add_argument_group("model and uncertainty")
     m.add_argument("--method", default="integral", metavar="METHOD",
                    help="'integral' (TEOS-10 integral plume model, default) or 'closed-form' (point-source formula)")
-    m.add_argument("--entrainment", default="0.132", metavar="X",
-                   help="top-hat entrainment coefficient (Gaussian × √2; default 0.132)" + _UNC)
+    m.add_argument("--entrainment", default=None, metavar="X",
+                   help="top-hat entrainment coefficient (default √2 × 0.093 ≈ 0.1315, the library's and the "
+                        "survey's: ventflux.plume.DEFAULT_ENTRAINMENT)" + _UNC)
     cur = m.add_mutually_exclusive_group()
     cur.add_argument("--current", default=None, metavar="Q", help="horizontal current speed, e.g. '0.05 m/s'" + _UNC)
     cur.add_argument("--current-profile", default=None, metavar="CSV",
@@ -89,6 +90,11 @@ def run(args) -> int:
 def _inputs(args):
     errs = Collector()
     vals = {}
+    if args.entrainment is None:
+        # the one default, with its source; imported here so that start-up stays light
+        from ..plume import DEFAULT_ENTRAINMENT
+
+        args.entrainment = repr(float(DEFAULT_ENTRAINMENT))
     spec = [("rise_height", "length"), ("heat_power", "power"), ("exit_temperature", "temperature"),
             ("exit_velocity", "velocity"), ("diameter", "length"), ("buoyancy_frequency", "frequency"),
             ("ambient_temperature", "temperature"), ("ambient_salinity", "dimensionless"),
@@ -242,6 +248,7 @@ def _payload(res, nom, direction, args, strat):
         # The common practice beside the full computation: the point-source formula with the mean N.
         F = closed_form.buoyancy_flux_point_source(_val(nom.rise_height, "m"), out["mean_buoyancy_frequency_1_s"])
         out["closed_form_heat_power_W"] = float(F / col.heat_to_buoyancy())
+        out["closed_form_ignores_current"] = args.current is not None or args.current_profile is not None
     if res.summary:
         out["draws"] = res.draws
         out["seed"] = res.seed
@@ -266,7 +273,9 @@ def _print_readable(p, res):
             ("dilution at spreading level", p["spreading_dilution"], "", None, 1.0),
             ("mean N over the rise", p["mean_buoyancy_frequency_1_s"], "1/s", None, 1.0)]
     if "closed_form_heat_power_W" in p:
-        rows.insert(1, ("heat power, closed form", p["closed_form_heat_power_W"] / 1e6, "MW", None, 1e-6))
+        label = ("heat power, closed form (formula ignores the current)" if p.get("closed_form_ignores_current")
+                 else "heat power, closed form")
+        rows.insert(1, (label, p["closed_form_heat_power_W"] / 1e6, "MW", None, 1e-6))
     for label, v, unit, key, f in rows:
         line = f"  {label:<32} {_fmt(v):>10}  {unit:<6}"
         if res.summary and key in res.summary:

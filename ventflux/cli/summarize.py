@@ -40,7 +40,7 @@ from .. import summarizer as sm
 from ..errors import InputError
 from ..orifice import DEFAULT_AMBIENT_SALINITY
 from ..registry import Command, Method
-from ..ridge_flank import REFERENCES
+from ..ridge_flank import DEFICIT_SPANS, REFERENCES
 from ..tables import read_quantity_table
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, parse_uncertain
 from ..units import Q_, parse_quantity
@@ -66,13 +66,20 @@ _HEAT = [
      "pore fraction filled with fluid, a few per cent in upper crust (from memory)"),
     ("--temperature", "temperature", False, None,
      "initial reservoir temperature (needed for the pore fluid when porosity > 0)"),
-    ("--pressure", "pressure", False, None, "absolute reservoir pressure (needed for the pore fluid)"),
+    ("--pressure", "pressure", False, None,
+     "absolute reservoir pressure (for the pore fluid; or give --depth-below-seafloor and --seafloor-pressure)"),
+]
+_RESERVOIR_PRESSURE = [
+    ("--depth-below-seafloor", "length", False, None,
+     "depth of the reservoir below the seafloor, for its pressure (with --seafloor-pressure)"),
+    ("--seafloor-pressure", "pressure", False, None, "absolute pressure at the seafloor, e.g. '25 MPa'"),
 ]
 QUESTIONS = {
     "water": (sm.water_answer, "mass flux, volume flux and annual throughput carried by a heat power",
               _COMMON_WATER),
     "reservoir": (sm.reservoir_answer, "heat-mining time, decline lifetime and conductive timescale of a reservoir",
-                  [("--power", "power", True, None, "heat power drawn from the reservoir")] + _HEAT + [
+                  [("--power", "power", True, None, "heat power drawn from the reservoir")] + _HEAT
+                  + _RESERVOIR_PRESSURE + [
                       ("--volume", "volume", False, None, "hot-rock volume, e.g. '0.01 km^3'"),
                       ("--area", "area", False, None, "reservoir area (with --thickness)"),
                       ("--thickness", "length", False, None, "reservoir thickness (with --area)"),
@@ -81,13 +88,15 @@ QUESTIONS = {
                        "latent heat of crystallization of basaltic melt, from memory"),
                       ("--melt-density", "density", False, f"{rv.MELT_DENSITY.magnitude:g} kg/m^3",
                        "melt density, from memory"),
-                      ("--size", "length", False, None, "size L for L^2/kappa (default: cube root of the volume)"),
+                      ("--size", "length", False, None, ("length L for L^2/kappa (default: the sheet's thickness "
+                                                          "for --area and --thickness, else the cube root of the "
+                                                          "volume)")),
                       ("--diffusivity", "diffusivity", False, f"{rv.THERMAL_DIFFUSIVITY.magnitude:g} m^2/s",
                        "thermal diffusivity of the rock, from memory"),
                   ]),
     "size": (sm.reservoir_size_answer, "reservoir size needed to sustain a power for a time",
              [("--power", "power", True, None, "heat power to sustain"),
-              ("--duration", "time", True, None, "how long, e.g. '10 yr'")] + _HEAT + [
+              ("--duration", "time", True, None, "how long, e.g. '10 yr'")] + _HEAT + _RESERVOIR_PRESSURE + [
                  ("--area", "area", False, None, "area, to give the thickness")]),
     "flank": (sm.flank_answer, "ridge-flank heat deficit against a conductive cooling reference",
               [("--half-rate", "velocity", False, None, "half spreading rate, e.g. '25 mm/yr'"),
@@ -116,16 +125,27 @@ def configure(p):
         for option, _dim, required, default, help_ in options:
             shown = f" (default {default})" if default is not None else ""
             q.add_argument(option, dest=_dest(option), required=required, default=default, help=help_ + shown)
+        if name in ("reservoir", "size"):
+            q.add_argument("--pressure-regime", choices=rv.PRESSURE_REGIMES, default="hydrostatic",
+                           help="pressure below the seafloor: under cold seawater (1025 kg/m^3) or under the rock "
+                                "(default hydrostatic)")
         if name == "reservoir":
             q.add_argument("--spent-fraction", type=float, default=rv.SPENT_FRACTION,
                            help="output fraction at which a declining reservoir is spent "
                                 f"(default {rv.SPENT_FRACTION})")
+            q.add_argument("--cooled-faces", type=int, choices=(1, 2), default=1,
+                           help="faces through which a sheet (--area, --thickness) cools: 1, its top (L = thickness), "
+                                "or 2 (L = half the thickness); default 1")
         if name == "flank":
             q.add_argument("--observed", action="append", default=[], metavar="AGE=HEAT_FLOW",
                            help="one observation, e.g. '5 Myr=110 mW/m^2' (repeatable)")
             q.add_argument("--profile", help="CSV with columns 'age [Myr]' and 'heat_flow [mW/m^2]'")
             q.add_argument("--reference", choices=REFERENCES, default="gdh1",
                            help="conductive cooling reference (default gdh1)")
+            q.add_argument("--deficit-span", choices=DEFICIT_SPANS, default="observed",
+                           help="deficit the water column uses: over the observed ages, or from age 0 adding the "
+                                "reference's heat loss before the first observation (default observed; both are "
+                                "reported)")
         q.add_argument("--draws", type=int, default=DEFAULT_DRAWS, help=f"Monte Carlo draws (default {DEFAULT_DRAWS})")
         q.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
         add_output_options(q)
@@ -158,11 +178,15 @@ def run(args) -> int:
         if text is None:
             continue
         kwargs[_RENAME.get(_dest(option), _dest(option))] = parse_uncertain(text, dim, option)
+    if args.question in ("reservoir", "size"):
+        kwargs["pressure_regime"] = args.pressure_regime
     if args.question == "reservoir":
         kwargs["spent_fraction"] = args.spent_fraction
+        kwargs["cooled_faces"] = args.cooled_faces
     if args.question == "flank":
         kwargs["age"], kwargs["heat_flow"] = _observations(args)
         kwargs["reference"] = args.reference
+        kwargs["deficit_span"] = args.deficit_span
     answer = fn(**kwargs, draws=args.draws, seed=args.seed)
     if args.json:
         print_json(answer.as_dict())

@@ -25,7 +25,9 @@ to the survey file; CSV files carry units in their column headers ("temperature 
 {sections}
 [[reservoir]] name, supplies ("field total" | "focused" | "diffuse" | a vent name), volume | area + thickness,
              temperature_drop, temperature (initial, for the pore fluid), porosity, melt_volume, rock_density,
-             size (the length L of the conductive time L²/κ)
+             pressure | depth_below_seafloor (default: the seafloor pressure), pressure_regime
+             ("hydrostatic" | "lithostatic", below the seafloor), size (the length L of the conductive
+             time L²/κ; default a sheet's thickness, else the cube root of the volume)
 """
 
 

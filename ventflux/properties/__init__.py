@@ -1,9 +1,14 @@
 """The shared property layer.
 
 * ``seawater``: ambient seawater from TEOS-10 (gsw).
+* ``seawater_heat``: heat content and density of seawater from its freezing
+  point to boiling: TEOS-10 to 40 °C, IAPWS-95 water with IAPWS-08's saline
+  part to 80 °C, IAPWS-95 water with the saline part held beyond, joined
+  continuously; every result names its model.
 * ``ventfluid``: hot vent fluid from IAPWS-95 (CoolProp), pure water.
 * ``heat``: the heat a vent fluid carries, an enthalpy difference at in-situ
-  pressure with one fluid model at both ends.
+  pressure with one fluid model at both ends, and the one constant-c_p
+  shortcut shown beside it (TEOS-10's c_p0).
 
 Fluid models are found through the ``ventflux_fluid_models`` hook, so a brine
 equation of state can be added by a plugin; ``fluid_model(name)`` builds one.

@@ -6,10 +6,20 @@ one standard atmosphere, in dbar); the conversion happens here and nowhere
 else. CTD casts report sea pressure, and ``pressure [dbar]`` columns are read
 as such (see ``ventflux.profiles``).
 
-Validity: TEOS-10's Gibbs function is fitted to data in the "oceanographic
-funnel" [2], and gsw's ``infunnel`` implements it (absolute salinity 0–42 g/kg,
-conservative temperature from the freezing point to 40 °C with a narrowing
-at depth, sea pressure 0–8000 dbar). Points outside it are refused.
+Validity: ambient seawater must lie in TEOS-10's oceanographic standard
+range (absolute salinity 0–42 g/kg, in-situ temperature from the freezing
+point to 40 °C, sea pressure 0–10 000 dbar; ``seawater_heat.check_teos10``).
+Heat capacity and enthalpy come from gsw's exact Gibbs-function routines
+(``*_t_exact``), valid in all of that range; density and expansion from its
+75-term expression in conservative temperature, fitted in the "oceanographic
+funnel" [2] (gsw's ``infunnel``). The funnel sets no upper temperature above
+500 dbar and, at depth, ends at about −2.3 °C, above the in-situ freezing
+point: ambient water colder than that (polar or deep bottom water at its
+freezing point) is accepted, with a 75-term density extrapolated by a few
+kelvin: at the freezing point it differs from the exact Gibbs function's
+(``gsw.rho_t_exact``) by 5e-8 at 1000 dbar, 1.5e-7 at 3000–5000 dbar and
+5e-6 at 9000 dbar (measured). ``check_funnel`` remains for profiles. Warm seawater beyond
+40 °C has its own joined model in ``seawater_heat``.
 
 References
 ----------
@@ -133,7 +143,8 @@ def seawater_state(temperature, salinity, pressure, longitude=None, latitude=Non
         Position for TEOS-10's absolute-salinity anomaly; without it the
         reference salinity (standard composition) is used.
     check : bool
-        Refuse points outside the oceanographic funnel.
+        Refuse points outside TEOS-10's range (freezing point to 40 °C,
+        0–42 g/kg, 0–10 000 dbar).
 
     Returns
     -------
@@ -147,12 +158,14 @@ def seawater_state(temperature, salinity, pressure, longitude=None, latitude=Non
     SA = absolute_salinity(sp, p, longitude, latitude)
     CT = gsw.CT_from_t(SA, t, p)
     if check:
-        check_funnel(SA, CT, p, t)
+        from .seawater_heat import check_teos10
+
+        check_teos10(SA, t, p)
     return SeawaterState(
         absolute_salinity=Q_(SA, "g/kg"),
         conservative_temperature=Q_(CT, "degC"),
         density=Q_(gsw.rho(SA, CT, p), "kg/m^3"),
-        thermal_expansion=Q_(gsw.alpha(SA, CT, p), "1/K"),
+        thermal_expansion=Q_(gsw.alpha(SA, CT, p), "1/K"),  # 75-term; no caller here needs it exact
         heat_capacity=Q_(gsw.cp_t_exact(SA, t, p), "J/(kg*K)"),
         enthalpy=Q_(gsw.enthalpy_t_exact(SA, t, p), "J/kg"),
         sea_pressure=Q_(p, "dbar"),

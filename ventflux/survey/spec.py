@@ -170,7 +170,7 @@ def load_survey(path) -> SurveySpec:
     for key, s in sections.items():
         if key in raw:
             parsed_sections[key] = s.parse(top.sub(key), ctx)
-    reservoirs = [_parse_reservoir(rf, names) for rf in top.subs("reservoir")]
+    reservoirs = [_parse_reservoir(rf, names, site) for rf in top.subs("reservoir")]
     top.check_unknown()
     if not vents and not parsed_sections:
         errs.add(InputError("survey", "no [[vent]] and no field-wide section", "at least one vent or section",
@@ -224,7 +224,7 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
                     ambient_temperature=t_amb, ambient_salinity=s_amb, ctd=ctd, ctd_window=window, cruise=cruise)
 
 
-def _parse_reservoir(f: Fields, vent_names) -> ReservoirSpec:
+def _parse_reservoir(f: Fields, vent_names, site=None) -> ReservoirSpec:
     name = f.string("name", required=True)
     supplies = f.string("supplies", default="field total")
     if supplies is not None and supplies not in ("field total", "focused", "diffuse") and supplies not in vent_names:
@@ -240,6 +240,7 @@ def _parse_reservoir(f: Fields, vent_names) -> ReservoirSpec:
     if por is not None:
         opts["porosity"] = por
     size = f.quantity("size", "length", uncertain=False, positive=True)
+    _reservoir_pressure(f, opts, site)
     if "temperature_drop" not in opts and "temperature_drop" not in f.table:
         f.error("temperature_drop", "(missing)", "the temperature drop of the hot rock, e.g. \"400 K\"")
     if "volume" not in opts and not ("area" in opts and "thickness" in opts) and not (
@@ -247,3 +248,47 @@ def _parse_reservoir(f: Fields, vent_names) -> ReservoirSpec:
         f.error("volume", "(missing)", "a volume, or an area and a thickness")
     f.check_unknown()
     return ReservoirSpec(name=name, supplies=supplies or "field total", options=opts, size=size)
+
+
+def _reservoir_pressure(f: Fields, opts: dict, site) -> None:
+    """The reservoir's pressure (given, or the site's seafloor pressure plus a depth below the seafloor),
+    and a check of its pore fluid's state, so that --check refuses what the run would."""
+    from .. import reservoir as rv
+
+    p = f.quantity("pressure", "pressure", uncertain=False, positive=True)
+    z = f.quantity("depth_below_seafloor", "length", uncertain=False)
+    regime = f.string("pressure_regime", default="hydrostatic")
+    if regime not in rv.PRESSURE_REGIMES:
+        f.error("pressure_regime", regime, "one of " + ", ".join(rv.PRESSURE_REGIMES))
+        return
+    if p is not None and z is not None:
+        f.error("depth_below_seafloor", str(z), "either a pressure or a depth below the seafloor, not both")
+        return
+    seafloor = None
+    if site is not None and (site.pressure is not None or site.depth is not None):
+        from ..orifice import in_situ_pressure
+
+        try:
+            seafloor = in_situ_pressure(site.pressure, site.depth, site.latitude)
+        except InputError:
+            seafloor = None  # the [site] error is reported there
+    wet = opts.get("porosity", rv.POROSITY) > 0 and "temperature" in opts
+    try:
+        if z is not None and seafloor is not None:
+            p = rv.reservoir_pressure(seafloor, z, regime, opts.get("rock_density", rv.ROCK_DENSITY))
+        elif p is None and wet and seafloor is not None:
+            p = seafloor
+            f.defaults[f.key("pressure")] = "the site's seafloor pressure (no pressure or depth_below_seafloor given)"
+    except InputError as e:
+        f.error("depth_below_seafloor", e.value, e.allowed)
+        return
+    if p is None:
+        return
+    opts["pressure"] = p
+    if wet and "temperature_drop" in opts:
+        keys = {"reservoir temperature": "temperature", "temperature drop": "temperature_drop",
+                "reservoir pressure": "depth_below_seafloor" if z is not None else "pressure"}
+        try:
+            rv.check_pore_fluid(opts["temperature"], opts["temperature_drop"], p)
+        except InputError as e:
+            f.error(keys.get(e.field, "temperature"), e.value, e.allowed)
