@@ -44,13 +44,12 @@ from ventflux.tables import read_quantity_table
 from ventflux.uncertainty import Uncertain, nominal, parse_uncertain
 from ventflux.units import Q_, parse_quantity
 
+from .constants import DEFAULT_SALINITY  # noqa: F401  (re-exported: defined with the CLI's defaults)
 from .fitting import first_parameter_se, require_increasing
 
 SECONDS_PER_YEAR = 365.25 * 86400.0  # Julian year (IAU)
 #: Largest |Pe| searched (a choice made here): beyond it the profile is a thin boundary layer the fit cannot resolve.
 PE_BOUND = 60.0
-#: Default pore-fluid practical salinity: typical deep ocean water, about 34.6–34.7 below 2000 m (from memory).
-DEFAULT_SALINITY = 34.7
 
 
 def profile_shape(peclet, zeta):

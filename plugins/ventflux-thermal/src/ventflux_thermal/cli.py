@@ -31,8 +31,8 @@ from ventflux.io import atomic_write_text
 from ventflux.uncertainty import parse_uncertain
 from ventflux.units import Q_, parse_quantity
 
-from .advection import DEFAULT_SALINITY
-from .probe import METHODS, ProbeConstants, reduce_penetration, result_row
+from .constants import DEFAULT_SALINITY
+from .constants import METHODS, ProbeConstants
 
 # --------------------------------------------------------------------------- probe-heat-flow
 
@@ -91,6 +91,8 @@ def _list_quantity(text, unit_dim, field):
 
 
 def run_probe(args) -> int:
+    from .probe import reduce_penetration, result_row
+
     records = _records(args.records)
     probe = ProbeConstants(
         radius=float(parse_quantity(args.probe_radius, "length", "--probe-radius").to("m").magnitude),

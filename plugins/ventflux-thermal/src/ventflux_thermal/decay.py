@@ -91,6 +91,48 @@ def cylinder_decay(alpha: float, tau) -> np.ndarray:
     return out
 
 
+_GL_X, _GL_W = np.polynomial.legendre.leggauss(16)
+_GL_X = 0.5 * (_GL_X + 1.0)  # nodes on [0, 1]
+_GL_W = 0.5 * _GL_W
+
+
+def cylinder_pulse_decay(alpha: float, tau, tau_pulse: float) -> np.ndarray:
+    """Response to a constant-power pulse of dimensionless length ``tau_pulse``, per unit of ``V0``.
+
+    A pulse of energy ``Q`` per length delivered evenly over ``t_p`` seconds
+    is a train of instantaneous heatings ``(Q/t_p) ds``; by superposition
+    ([1] §13.7 for each) the excess is ``V0 · G`` with
+
+        G(α, τ, τ_p) = (1/τ_p) ∫₀^{min(τ, τ_p)} F(α, τ − s) ds,
+
+    ``τ`` counted from the pulse's start. The integral is a 16-point
+    Gauss–Legendre sum of ``F`` over the pulse (``F`` is smooth once the pulse
+    has ended; inside the pulse the sum is accurate to about 1e-3, enough for
+    figures: fits start after the pulse). ``τ_p = 0`` gives ``F`` itself.
+
+    Parameters
+    ----------
+    alpha : float
+        ``2 ρc / (ρ_p c_p)``.
+    tau : array_like
+        ``κ t / a²`` since the pulse's start.
+    tau_pulse : float
+        ``κ t_p / a²``, ≥ 0.
+
+    Returns
+    -------
+    ndarray
+        G ≥ 0; 0 before the pulse.
+    """
+    tau = np.asarray(tau, float)
+    if tau_pulse <= 0:
+        return np.where(tau > 0, cylinder_decay(alpha, tau), 0.0)
+    span = np.clip(tau, 0.0, tau_pulse)  # the part of the pulse delivered so far
+    nodes = tau[..., None] - span[..., None] * _GL_X  # τ − s at s = span·x
+    G = (cylinder_decay(alpha, nodes) * _GL_W).sum(axis=-1) * span / tau_pulse
+    return np.where(tau > 0, G, 0.0)
+
+
 def line_source_decay(strength, conductivity, elapsed):
     """Late-time (line-source) temperature rise Q / (4π k t) of an instantaneous heating ([1] §10.3).
 
