@@ -5,6 +5,9 @@ Carslaw & Jaeger (1959) §13.7: for a perfectly conducting cylinder of heat capa
 initial excess V0, in a medium of conductivity k and diffusivity κ, the transform in dimensionless time
 τ = κt/a² is  F̄(s) = K0(√s) / (s K0(√s) + α √s K1(√s)),  α = 2πa²ρc/S.
 The line source is Carslaw & Jaeger (1959) §10.3: ΔT(r, t) = Q/(4πkt) · exp(−r²/(4κt)).
+A heat pulse of finite length t_p at constant power is the superposition of instantaneous pulses of
+energy Q·ds/t_p released at s in [0, t_p] (Duhamel's principle), summed here by the midpoint rule over
+50 sub-pulses (ample once the pulse has ended), each response zero before its release.
 """
 
 from math import factorial
@@ -50,9 +53,21 @@ def line_source_excess(strength, k, kappa, r, t):
     return out
 
 
+def finite_pulse_excess(alpha, kappa_over_a2, t, duration, n_sub=50):
+    """Cylinder excess per unit V0 for a constant-power pulse of ``duration`` s starting at t = 0 (superposition)."""
+    t = np.asarray(t, float)
+    if duration <= 0:
+        return np.where(t > 0, cylinder_excess(alpha, kappa_over_a2 * t), 0.0)
+    out = np.zeros(t.shape)
+    for s in (np.arange(n_sub) + 0.5) * duration / n_sub:
+        after = t > s
+        out[after] += cylinder_excess(alpha, kappa_over_a2 * (t[after] - s)) / n_sub
+    return out
+
+
 def make_record(path, model, *, k, depths, q=0.25, t0_c=2.0, t_pen=60.0, t_hp=600.0, t_end=1200.0,
                 energy=700.0, radius=0.004, rho_c=3.4e6, rho_c_probe=3.4e6, friction=None, noise=1e-3, seed=7,
-                tilt_deg=0.0, dt=1.0, header=True, r_offset=0.001):
+                tilt_deg=0.0, dt=1.0, header=True, r_offset=0.001, pulse_duration=0.0, header_extra=()):
     """Write a probe record CSV and return the true equilibrium temperatures (degC).
 
     Equilibrium temperatures follow T = T0 + q·R with R_i = Σ (z_j − z_{j−1})/k_j (z along the vertical).
@@ -72,7 +87,7 @@ def make_record(path, model, *, k, depths, q=0.25, t0_c=2.0, t_pen=60.0, t_hp=60
         if model == "cylinder":
             fr = friction[i] * cylinder_excess(alpha, kappa[i] * (t - t_pen) / radius**2)
             v0 = energy / (np.pi * radius**2 * rho_c_probe)
-            hp = np.where(t > t_hp, v0 * cylinder_excess(alpha, kappa[i] * (t - t_hp) / radius**2), 0.0)
+            hp = v0 * finite_pulse_excess(alpha, kappa[i] / radius**2, t - t_hp, pulse_duration)
         else:  # instantaneous line sources: frictional heat friction[i]*1000 J/m, pulse `energy` J/m
             fr = line_source_excess(friction[i] * 1000.0, k[i], kappa[i], r_offset, t - t_pen)
             hp = line_source_excess(energy, k[i], kappa[i], r_offset, t - t_hp)
@@ -83,6 +98,9 @@ def make_record(path, model, *, k, depths, q=0.25, t0_c=2.0, t_pen=60.0, t_hp=60
         lines += [f"# penetration_time [s]: {t_pen}", f"# heat_pulse_time [s]: {t_hp}",
                   f"# heat_pulse_energy [J/m]: {energy}", f"# tilt [deg]: {tilt_deg}",
                   "# sensor_depths [m]: " + ", ".join(f"{d:g}" for d in depths)]
+        if pulse_duration:
+            lines.append(f"# heat_pulse_duration [s]: {pulse_duration}")
+        lines += list(header_extra)
     lines.append(",".join(["time [s]"] + [f"T{i + 1} [degC]" for i in range(k.size)]))
     for j in range(t.size):
         lines.append(",".join([f"{t[j]:.1f}"] + [f"{rows[i][j]:.5f}" for i in range(k.size)]))

@@ -48,12 +48,18 @@ def configure_probe(p):
                                           "instead of the heat pulse")
     p.add_argument("--decay-model", choices=METHODS, default="cylinder",
                    help="cylinder: instantaneously heated cylinder; line-source: late-time 1/t asymptote")
+    p.add_argument("--pulse-duration", help="length of the heat pulse from its logged start, e.g. '10 s' "
+                                            "(default: the record's header, else 0 s)")
+    p.add_argument("--exclude-sensor", action="append", default=[], metavar="SENSOR",
+                   help="leave a sensor column out, e.g. T3 (repeatable, or comma-separated)")
     d = ProbeConstants()
-    p.add_argument("--probe-radius", default=f"{d.radius * 1e3:g} mm", help="sensor-tube radius (default %(default)s)")
-    p.add_argument("--probe-heat-capacity", default=f"{d.probe_heat_capacity:g} J/(m^3 K)",
-                   help="probe volumetric heat capacity (default %(default)s)")
-    p.add_argument("--sediment-heat-capacity", default=f"{d.sediment_heat_capacity:g} J/(m^3 K)",
-                   help="sediment volumetric heat capacity (default %(default)s)")
+    p.add_argument("--probe-radius", help=f"sensor-tube radius, may carry '± sd' (default: header, else "
+                                          f"{d.radius * 1e3:g} mm)")
+    p.add_argument("--probe-heat-capacity", help=f"probe volumetric heat capacity (default: header, else "
+                                                 f"{d.probe_heat_capacity:g} J/(m^3 K))")
+    p.add_argument("--sediment-heat-capacity", help=f"sediment volumetric heat capacity (default: header, else "
+                                                    f"{d.sediment_heat_capacity:g} ± "
+                                                    f"{d.uncertainty['sediment_heat_capacity']:g} J/(m^3 K))")
     p.add_argument("--out", help="write the table of penetrations to this CSV (units in the headers)")
     p.add_argument("--figures", help="folder for figures: T against thermal resistance and the decay fits")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
@@ -90,31 +96,38 @@ def _list_quantity(text, unit_dim, field):
     return Q_(np.array(values), last.units)
 
 
+def probe_options(args) -> dict:
+    """The probe-reduction arguments of ``probe-heat-flow`` (quantities; None where not given)."""
+    def q(text, dim, name, unit=None):
+        return None if text is None else parse_quantity(text, dim, name, unit)
+
+    def u(text, dim, name):
+        return None if text is None else parse_uncertain(text, dim, name)
+
+    overrides = {"radius": u(args.probe_radius, "length", "--probe-radius"),
+                 "probe_heat_capacity": u(args.probe_heat_capacity, "volumetric heat capacity",
+                                          "--probe-heat-capacity"),
+                 "sediment_heat_capacity": u(args.sediment_heat_capacity, "volumetric heat capacity",
+                                             "--sediment-heat-capacity")}
+    exclude = tuple(s.strip() for item in args.exclude_sensor for s in item.split(",") if s.strip())
+    return dict(
+        sensor_depths=_list_quantity(args.sensor_depths, "length", "--sensor-depths"),
+        penetration_time=q(args.penetration_time, "time", "--penetration-time", "s"),
+        heat_pulse_time=q(args.pulse_time, "time", "--pulse-time", "s"),
+        heat_pulse_energy=q(args.pulse_energy, "energy per length", "--pulse-energy"),
+        heat_pulse_duration=q(args.pulse_duration, "time", "--pulse-duration", "s"),
+        tilt=None if args.tilt is None else parse_uncertain(args.tilt, "angle", "--tilt", "degree"),
+        conductivity=_list_quantity(args.conductivity, "thermal conductivity", "--conductivity"),
+        method=args.decay_model, exclude_sensors=exclude, probe_overrides=overrides)
+
+
 def run_probe(args) -> int:
-    from .probe import reduce_penetration, result_row
+    from .probe import probe_from_inputs, reduce_penetration, result_row
 
     records = _records(args.records)
-    probe = ProbeConstants(
-        radius=float(parse_quantity(args.probe_radius, "length", "--probe-radius").to("m").magnitude),
-        probe_heat_capacity=float(parse_quantity(args.probe_heat_capacity, "volumetric heat capacity",
-                                                 "--probe-heat-capacity").to("J/(m^3*K)").magnitude),
-        sediment_heat_capacity=float(parse_quantity(args.sediment_heat_capacity, "volumetric heat capacity",
-                                                    "--sediment-heat-capacity").to("J/(m^3*K)").magnitude))
-    for name, v in (("--probe-radius", probe.radius), ("--probe-heat-capacity", probe.probe_heat_capacity),
-                    ("--sediment-heat-capacity", probe.sediment_heat_capacity)):
-        if not v > 0:
-            raise InputError(name, f"{v:g}", "a value > 0")
-    kwargs = dict(
-        sensor_depths=_list_quantity(args.sensor_depths, "length", "--sensor-depths"),
-        penetration_time=None if args.penetration_time is None else parse_quantity(args.penetration_time, "time",
-                                                                                   "--penetration-time", "s"),
-        heat_pulse_time=None if args.pulse_time is None else parse_quantity(args.pulse_time, "time", "--pulse-time",
-                                                                             "s"),
-        heat_pulse_energy=None if args.pulse_energy is None else parse_quantity(args.pulse_energy,
-                                                                                "energy per length", "--pulse-energy"),
-        tilt=None if args.tilt is None else parse_quantity(args.tilt, "angle", "--tilt", "degree"),
-        conductivity=_list_quantity(args.conductivity, "thermal conductivity", "--conductivity"),
-        method=args.decay_model, probe=probe, keep_record=args.figures is not None)
+    kwargs = probe_options(args)
+    probe = probe_from_inputs(None, {}, kwargs.pop("probe_overrides"))
+    kwargs.update(probe=probe, keep_record=args.figures is not None)
     from tqdm import tqdm
 
     results, errors = [], []
@@ -152,8 +165,13 @@ def run_probe(args) -> int:
             table = [(f"{s['depth_m']:.3f} m", f"{s['equilibrium_temperature_degC']:.4f} °C  "
                       f"k={s['conductivity_W_m_K']:.4g}±{s['conductivity_se_W_m_K']:.2g} W/(m K)  "
                       f"res {s['residual_mK']:+.2f} mK", "") for s in d["sensors"]]
-            table.append(("heat flow", f"{d['heat_flow_mW_m2']:.2f} ± {d['heat_flow_se_mW_m2']:.2f} (SE)", "mW/m^2"))
+            parts = ", ".join(f"{k} {v:.2g}" for k, v in d["uncertainty_parts_mW_m2"].items())
+            table.append(("heat flow", f"{d['heat_flow_mW_m2']:.2f} ± {d['heat_flow_uncertainty_mW_m2']:.2f} "
+                          f"(total; {parts})", "mW/m^2"))
             print_table(table, title=f"{Path(r.record).name} ({r.method})")
+    for r in results:  # exclusions and doubts, one line each, on stderr
+        for line in r.warnings + [f"{r.record}: {f}" for f in r.flags]:
+            print(f"warning: {line}", file=sys.stderr)
     if errors:
         raise InputErrors(errors) if len(errors) > 1 else errors[0]
     return 0

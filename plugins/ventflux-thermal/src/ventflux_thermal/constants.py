@@ -23,6 +23,10 @@ PROBE_FIELDS = {"radius": ("m", "length"),
                 "heat_pulse_energy": ("J/m", "energy per length"),
                 "heat_pulse_duration": ("s", "time")}
 
+#: Standard uncertainties of the defaults (SI). Marine sediment's volumetric heat capacity spans about
+#: 3.0–3.8 MJ/(m³·K) with porosity (from memory), taken here as 3.4 ± 0.2 MJ/(m³·K).
+DEFAULT_UNCERTAINTY = {"sediment_heat_capacity": 0.2e6}
+
 
 @dataclass(frozen=True)
 class ProbeConstants:
@@ -46,7 +50,7 @@ class ProbeConstants:
     start_conductivity: float = 1.0  # W/(m K)
     heat_pulse_energy: float | None = None  # J/m (None: from the record or the option)
     heat_pulse_duration: float = 0.0  # s
-    uncertainty: dict = field(default_factory=dict, compare=False)
+    uncertainty: dict = field(default_factory=lambda: dict(DEFAULT_UNCERTAINTY), compare=False)
     given: frozenset = frozenset()
 
     @property

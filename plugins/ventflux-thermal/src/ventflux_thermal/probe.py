@@ -74,6 +74,7 @@ References
 from __future__ import annotations
 
 import re
+import warnings
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 
@@ -299,7 +300,8 @@ def check_timing(rec: ProbeRecord, penetration_time: float, heat_pulse_time: flo
                 c.add(InputError("heat pulse time", f"{heat_pulse_time:g} s",
                                  "a time with samples in the 10 s before and 30 s after it", where=where))
             else:
-                with np.errstate(all="ignore"):
+                with warnings.catch_warnings():  # a dead channel's all-NaN rows: screened out later, by name
+                    warnings.simplefilter("ignore", RuntimeWarning)
                     rise = np.nanmax(after, axis=1) - np.nanmean(before, axis=1)
                 if not np.any(rise > 0.05):  # 50 mK: far above thermistor noise (common practice, no source)
                     c.add(InputError("heat pulse time", f"{heat_pulse_time:g} s",
@@ -530,7 +532,7 @@ def probe_from_inputs(probe: ProbeConstants | None, meta: dict, overrides: dict 
     values, sds = {}, dict(probe.uncertainty)
     for source in (meta, overrides or {}):
         for key, (unit, dim) in PROBE_FIELDS.items():
-            if source.get(key) is None:
+            if source.get(key) is None or (source is meta and key in probe.given):  # given values beat the header
                 continue
             values[key] = _si(source[key], unit, dim, key)
             sds[key] = standard_deviation(source[key], unit)
@@ -596,7 +598,7 @@ def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None
     check_timing(rec, t_pen, t_hp if use_pulse else None, pulse_duration=dur if use_pulse else 0.0)
     excluded = screen_sensors(rec, t_pen, exclude_sensors)
     idx = [i for i, name in enumerate(rec.sensors) if name not in excluded]
-    warnings = [f"{where}: sensor {name} left out: {why}" for name, why in excluded.items()]
+    notes = [f"{where}: sensor {name} left out: {why}" for name, why in excluded.items()]
     end = (t_hp - 2.0) if (t_hp is not None and t_hp < rec.time[-1]) else rec.time[-1]
     for _ in range(2):  # fit, then once more without sensors whose misfit is far above their noise
         if len(idx) < MIN_SENSORS:
@@ -613,17 +615,20 @@ def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None
         for j in bad:
             name = rec.sensors[idx[j]]
             excluded[name] = f"misfit {1e3 * worst[j]:.3g} mK against its noise of {1e3 * noise[j]:.3g} mK"
-            warnings.append(f"{where}: sensor {name} left out: {excluded[name]}")
+            notes.append(f"{where}: sensor {name} left out: {excluded[name]}")
         idx = [i for j, i in enumerate(idx) if j not in bad]
     gaps = {rec.sensors[i]: int(np.isnan(rec.temperature[i, rec.time >= t_pen]).sum()) for i in idx}
-    warnings += [f"{where}: sensor {name}: {g} samples without a reading left out of its fits"
-                 for name, g in gaps.items() if g]
+    notes += [f"{where}: sensor {name}: {g} samples without a reading left out of its fits"
+              for name, g in gaps.items() if g]
     flags = []
-    for j, i in enumerate(idx):
-        for what, fit in (("frictional", fr[j]), ("heat-pulse", pu[j])):
-            if fit is not None and fit.misfit_rms > MODEL_ERROR_RATIO * noise[j]:
-                flags.append(f"model error: the {what} decay of {rec.sensors[i]} misfits by {1e3 * fit.misfit_rms:.3g}"
-                             f" mK rms against its noise of {1e3 * noise[j]:.3g} mK")
+    for what, fits in (("frictional", fr), ("heat-pulse", pu)):
+        ratio = np.array([f.misfit_rms / noise[j] if f is not None else 0.0 for j, f in enumerate(fits)])
+        poor = np.flatnonzero(ratio > MODEL_ERROR_RATIO)
+        if poor.size:  # one line for all the sensors it concerns
+            w = poor[np.argmax(ratio[poor])]
+            flags.append(f"model error: the {what} fits of {', '.join(rec.sensors[idx[j]] for j in poor)} misfit "
+                         f"beyond their noise (worst {rec.sensors[idx[w]]}: {1e3 * fits[w].misfit_rms:.3g} mK rms "
+                         f"against {1e3 * noise[w]:.3g} mK)")
     k_se = np.array([p.conductivity_se for p in pu]) if use_pulse else np.zeros(len(idx))
     if use_pulse and method == "line-source":
         errs = np.array([line_source_model_error(p.conductivity, p.window, t_hp, dur, probe) for p in pu])
@@ -633,16 +638,36 @@ def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None
                          "its windows; use the cylinder model")
     z_all = np.asarray(s, float) * np.cos(tilt)
     z = z_all[idx]
+    # An excluded sensor's interval keeps its length; its conductivity is interpolated (by sensor order)
+    # from the kept neighbours, the nearest one at the ends (a choice made here, named in the warnings).
+    W = np.stack([np.interp(np.arange(z_all.size), idx, col) for col in np.eye(len(idx))], axis=1)
+    if len(idx) < z_all.size:
+        notes.append(f"{where}: the conductivity of the intervals ending at "
+                     f"{', '.join(n for n in rec.sensors if n in excluded)} is interpolated from the kept sensors")
+
+    def resistance(kk, extra=None):  # cumulative resistance at the kept sensors; kk (n_kept,) or (n_kept, draws)
+        k_all = np.tensordot(W, kk, axes=1)
+        if extra is not None:
+            k_all = np.clip(k_all + extra, 0.05, None)
+        return thermal_resistance(z_all, k_all)[idx]
+
     Teq = np.array([f.equilibrium_temperature for f in fr])
-    R = thermal_resistance(z, k)
+    R = resistance(k)
     q, T0, se, resid = heat_flow_regression(R, Teq)
     parts = {"regression": float(se)}
     rng = np.random.default_rng(seed)
     # conductivity fits: the slope's spread when each k is drawn from its fit (vectorized over draws); draws of
     # k below 0.05 W/(m K), the pulse fit's lower bound, are redrawn as that bound (a choice made here)
     kd = np.clip(k[:, None] + np.nan_to_num(k_se)[:, None] * rng.standard_normal((k.size, draws)), 0.05, None)
-    qd, *_ = heat_flow_regression(thermal_resistance(z, kd), Teq)
+    qd, *_ = heat_flow_regression(resistance(kd), Teq)
     parts["conductivity fits"] = float(np.std(qd, ddof=1))
+    gap = np.setdiff1d(np.arange(z_all.size), idx)
+    if gap.size and known_k is None:
+        # an interpolated interval's conductivity is uncertain by the spread of the measured ones
+        extra = np.zeros((z_all.size, draws))
+        extra[gap] = np.std(k, ddof=1) * rng.standard_normal((gap.size, draws))
+        qg, *_ = heat_flow_regression(resistance(np.broadcast_to(k[:, None], (k.size, draws)), extra), Teq)
+        parts["interpolated conductivity"] = float(np.std(qg, ddof=1))
     k_probe = np.zeros(k.size)
     if use_pulse and probe.uncertainty:
         dq2 = 0.0
@@ -655,7 +680,7 @@ def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None
             else:
                 e2, p2 = energy, probe.with_values(**{key: getattr(probe, key) + sd})
             fr2, pu2, k2 = _fit_sensors(rec, idx, t_pen, t_hp, end, e2, p2, method, None, True)
-            q2, *_ = heat_flow_regression(thermal_resistance(z, k2), [f.equilibrium_temperature for f in fr2])
+            q2, *_ = heat_flow_regression(resistance(k2), [f.equilibrium_temperature for f in fr2])
             dq2 += float(q2 - q) ** 2
             k_probe = np.hypot(k_probe, k2 - k)
         parts["probe constants"] = float(np.sqrt(dq2))
@@ -669,7 +694,7 @@ def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None
                              penetration_time=float(t_pen), heat_pulse_time=t_hp if use_pulse else None,
                              heat_pulse_energy=energy if use_pulse else None,
                              record_data=rec if keep_record else None, sensors=tuple(rec.sensors[i] for i in idx),
-                             excluded=excluded, warnings=warnings, flags=flags, uncertainty_parts=parts,
+                             excluded=excluded, warnings=notes, flags=flags, uncertainty_parts=parts,
                              conductivity_uncertainty=np.hypot(k_se, k_probe), noise=noise, probe=probe, label=label)
 
 
@@ -748,6 +773,8 @@ def reduce_with_metadata(rec, s, meta, *, penetration_time=None, heat_pulse_time
         raise InputError("sensor depths", ", ".join(f"{v:g}" for v in s), "depths ≥ 0 m increasing down the probe",
                          where=where)
     tilt_in = tilt if tilt is not None else meta.get("tilt", Q_(0.0, "degree"))
+    if isinstance(tilt_in, str):
+        tilt_in = parse_uncertain(tilt_in, "angle", "tilt", "degree")
     tilt_v = _si(tilt_in, "radian", "angle", "tilt")
     if not 0 <= tilt_v < np.deg2rad(60):
         raise InputError("tilt", f"{np.rad2deg(tilt_v):g} deg", "a tilt from vertical of 0 to 60 deg", where=where)
