@@ -11,6 +11,7 @@ energy Q·ds/t_p released at s in [0, t_p] (Duhamel's principle), summed here by
 """
 
 from math import factorial
+from pathlib import Path
 
 import numpy as np
 from scipy import special
@@ -106,3 +107,56 @@ def make_record(path, model, *, k, depths, q=0.25, t0_c=2.0, t_pen=60.0, t_hp=60
         lines.append(",".join([f"{t[j]:.1f}"] + [f"{rows[i][j]:.5f}" for i in range(k.size)]))
     path.write_text("\n".join(lines) + "\n")
     return teq
+
+
+def make_station_record(path, penetrations, *, depths, t_end, water_c=2.0, energy=700.0, pulse_duration=0.0,
+                        radius=0.004, rho_c=3.4e6, rho_c_probe=3.4e6, noise=1e-3, seed=5, dt=1.0,
+                        start="2026-03-14T08:00:00", relax=3.0, timestamps=True):
+    """A continuous logger record of several penetrations; returns the true equilibrium temperatures (degC).
+
+    ``penetrations``: dicts with ``t_pen``, ``t_out`` (pull-out), ``t_hp`` (pulse start or None), ``k``
+    (per sensor), ``q`` and optionally ``dead`` (a sensor index reading NaN during that penetration).
+    In the water the sensors read ``water_c``; after a pull-out they relax to it with time constant ``relax``
+    (a thermistor in flowing water). In the sediment: the cylinder solution (Carslaw & Jaeger 1959 §13.7),
+    frictional heating as an instantaneous heating at ``t_pen``, pulses by superposition.
+    """
+    from datetime import datetime, timedelta
+
+    rng = np.random.default_rng(seed)
+    depths = np.asarray(depths, float)
+    t = np.arange(0.0, t_end + dt / 2, dt)
+    T = np.full((depths.size, t.size), water_c)
+    alpha = 2 * rho_c / rho_c_probe
+    v0 = energy / (np.pi * radius**2 * rho_c_probe)
+    truths = []
+    for p in penetrations:
+        k = np.asarray(p["k"], float)
+        teq = water_c + p["q"] * np.cumsum(np.diff(np.concatenate([[0.0], depths])) / k)
+        truths.append(teq)
+        inside = (t >= p["t_pen"]) & (t < p["t_out"])
+        friction = np.linspace(1.5, 3.0, depths.size)
+        for i in range(depths.size):
+            ti = t[inside]
+            val = teq[i] + friction[i] * cylinder_excess(alpha, k[i] / rho_c * (ti - p["t_pen"]) / radius**2)
+            if p.get("t_hp") is not None:
+                val = val + v0 * finite_pulse_excess(alpha, k[i] / rho_c / radius**2, ti - p["t_hp"], pulse_duration)
+            T[i, inside] = val
+            last = val[-1]
+            after = (t >= p["t_out"])
+            nxt = min([q["t_pen"] for q in penetrations if q["t_pen"] > p["t_pen"]] + [np.inf])
+            after &= t < nxt
+            T[i, after] = water_c + (last - water_c) * np.exp(-(t[after] - p["t_out"]) / relax)
+        if p.get("dead") is not None:
+            T[p["dead"], inside] = np.nan
+    T = T + rng.normal(0, noise, T.shape)
+    lines = ["# station record (synthetic)", "# sensor_depths [m]: " + ", ".join(f"{d:g}" for d in depths),
+             f"# heat_pulse_energy [J/m]: {energy}"]
+    if pulse_duration:
+        lines.append(f"# heat_pulse_duration [s]: {pulse_duration}")
+    t0 = datetime.fromisoformat(start)
+    lines.append(",".join(["time" if timestamps else "time [s]"] + [f"T{i + 1} [degC]" for i in range(depths.size)]))
+    for j in range(t.size):
+        stamp = (t0 + timedelta(seconds=float(t[j]))).strftime("%Y-%m-%dT%H:%M:%SZ") if timestamps else f"{t[j]:.1f}"
+        lines.append(",".join([stamp] + [("" if np.isnan(T[i, j]) else f"{T[i, j]:.5f}") for i in range(depths.size)]))
+    Path(path).write_text("\n".join(lines) + "\n")
+    return truths

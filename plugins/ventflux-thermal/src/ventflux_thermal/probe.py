@@ -58,7 +58,7 @@ uncertainty of the heat flow, combined in quadrature into
 the scatter of ``T_eq`` about the line), ``conductivity fits`` (the pulse
 fits' standard errors, Monte Carlo over ``k``), ``probe constants`` (each
 probe constant given with an uncertainty, by re-fitting with it one standard
-deviation higher) and ``tilt``. A calibration factor shared by stations is
+deviation higher, the frictional fits kept) and ``tilt``. A calibration factor shared by stations is
 drawn in the survey, once per draw for all of them.
 
 References
@@ -400,13 +400,15 @@ def _pulse_shape(probe: ProbeConstants, conductivity, elapsed, duration):
 
 
 def fit_heat_pulse(time, excess, pulse_time, energy, probe: ProbeConstants, method="cylinder", start=None,
-                   start_conductivity=None, duration: float | None = None, fit_shift=True) -> PulseFit:
+                   start_conductivity=None, duration: float | None = None, fit_shift=True,
+                   previous: PulseFit | None = None) -> PulseFit:
     """Conductivity from one sensor's heat-pulse decay (excess over the frictional background, K).
 
     ``cylinder``: ``ΔT = c + Q/(π a² ρ_p c_p) · G(α, k (t − t_hp + δ)/(ρc a²), k t_p/(ρc a²))``
     fitted for ``k``, a small offset ``c`` and the origin shift ``δ``; ``line-source``:
     ``ΔT = c + Q/(4πk (t − t_hp − t_p/2))`` over the late half of the pulse record, ``k`` from the slope.
-    ``start`` counts from the pulse's end; ``duration`` defaults to ``probe.heat_pulse_duration``.
+    ``start`` counts from the pulse's end; ``duration`` defaults to ``probe.heat_pulse_duration``;
+    ``previous``, an earlier fit of the same sensor, is the starting point.
     """
     dur = probe.heat_pulse_duration if duration is None else float(duration)
     end_pulse = pulse_time + dur
@@ -441,7 +443,9 @@ def fit_heat_pulse(time, excess, pulse_time, energy, probe: ProbeConstants, meth
     k0 = start_conductivity or probe.start_conductivity
     # k searched over 0.05–10 W/(m K), far wider than any sediment; offset within ±5 K (choices made here)
     lo, hi = [0.05, -5.0, -shift_bound], [10.0, 5.0, shift_bound + 1e-12]
-    sol = optimize.least_squares(resid, [k0, 0.0, 0.0], bounds=(lo, hi), x_scale=[0.1, 0.01, 1.0])
+    x0 = [k0, 0.0, 0.0] if previous is None else [previous.conductivity, previous.offset,
+                                                  float(np.clip(previous.origin_shift, lo[2], hi[2]))]
+    sol = optimize.least_squares(resid, x0, bounds=(lo, hi), x_scale=[0.1, 0.01, 1.0])
     r = sol.fun
     return PulseFit(float(sol.x[0]), first_parameter_se(sol), window, float(np.sqrt(np.mean(r * r))), int(t.size),
                     float(sol.x[1]), float(sol.x[2]), dur)
@@ -576,10 +580,21 @@ def _fit_sensors(rec, idx, t_pen, t_hp, end, energy, probe, method, known_k, use
             if use_pulse:
                 bg = frictional_model(fr[j], rec.time[after], t_pen, k[j], probe, method)
                 pu[j] = fit_heat_pulse(rec.time[after], rec.temperature[i][after] - bg, t_hp, energy, probe, method,
-                                       start_conductivity=k[j])
+                                       start_conductivity=k[j], previous=pu[j])
         if use_pulse:
             k = np.array([p.conductivity for p in pu])
     return fr, pu, k
+
+
+def _refit_pulses(rec, idx, fr, pu, k, t_pen, t_hp, energy, probe, method):
+    """Conductivities re-fitted with other probe constants, the frictional fits kept (a sensitivity)."""
+    after = rec.time > t_hp
+    out = np.empty(len(idx))
+    for j, i in enumerate(idx):
+        bg = frictional_model(fr[j], rec.time[after], t_pen, k[j], probe, method)
+        out[j] = fit_heat_pulse(rec.time[after], rec.temperature[i][after] - bg, t_hp, energy, probe, method,
+                                previous=pu[j]).conductivity
+    return out
 
 
 def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None, heat_pulse_energy=None,
@@ -679,8 +694,10 @@ def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None
                 e2, p2 = energy + sd, probe
             else:
                 e2, p2 = energy, probe.with_values(**{key: getattr(probe, key) + sd})
-            fr2, pu2, k2 = _fit_sensors(rec, idx, t_pen, t_hp, end, e2, p2, method, None, True)
-            q2, *_ = heat_flow_regression(resistance(k2), [f.equilibrium_temperature for f in fr2])
+            # the pulse fits re-done with the constant one sd higher, from the fitted values; the frictional
+            # fits (equilibrium temperatures) depend on it only through κ, weakly, and are kept
+            k2 = _refit_pulses(rec, idx, fr, pu, k, t_pen, t_hp, e2, p2, method)
+            q2, *_ = heat_flow_regression(resistance(k2), Teq)
             dq2 += float(q2 - q) ** 2
             k_probe = np.hypot(k_probe, k2 - k)
         parts["probe constants"] = float(np.sqrt(dq2))
