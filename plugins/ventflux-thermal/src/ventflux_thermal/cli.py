@@ -60,6 +60,10 @@ def configure_probe(p):
     p.add_argument("--sediment-heat-capacity", help=f"sediment volumetric heat capacity (default: header, else "
                                                     f"{d.sediment_heat_capacity:g} ± "
                                                     f"{d.uncertainty['sediment_heat_capacity']:g} J/(m^3 K))")
+    p.add_argument("--station", action="store_true",
+                   help="each record is a station's continuous record: find and reduce every penetration in it")
+    p.add_argument("--navigation", help="navigation CSV (time, x/y [m] or latitude/longitude [deg]) for --station: "
+                                        "positions and distance along the transect")
     p.add_argument("--out", help="write the table of penetrations to this CSV (units in the headers)")
     p.add_argument("--figures", help="folder for figures: T against thermal resistance and the decay fits")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
@@ -128,36 +132,61 @@ def run_probe(args) -> int:
     kwargs = probe_options(args)
     probe = probe_from_inputs(None, {}, kwargs.pop("probe_overrides"))
     kwargs.update(probe=probe, keep_record=args.figures is not None)
+    if args.navigation and not args.station:
+        raise InputError("--navigation", args.navigation, "a navigation table together with --station")
     from tqdm import tqdm
 
-    results, errors = [], []
-    bar = tqdm(records, desc="penetrations", unit="record", file=sys.stderr,
+    results, errors, stations = [], [], []
+    bar = tqdm(records, desc="stations" if args.station else "penetrations", unit="record", file=sys.stderr,
                disable=True if (args.no_progress or len(records) < 2) else None)
-    for path in bar:  # one penetration per iteration; each reduction is vectorized inside
+    for path in bar:  # one record per iteration; each reduction is vectorized inside
         try:
-            results.append(reduce_penetration(path, **kwargs))
+            if args.station:
+                from .station import reduce_station
+
+                st = reduce_station(path, **{k: v for k, v in kwargs.items() if k not in (
+                    "penetration_time", "heat_pulse_time")}, navigation=args.navigation)
+                stations.append(st)
+                results.extend(st.results)
+            else:
+                results.append(reduce_penetration(path, **kwargs))
         except InputErrors as e:
             errors.extend(e.errors)
         except InputError as e:
             errors.append(e if e.where else InputError(e.field, e.value, e.allowed, where=str(path)))
     if args.figures and results:
-        from .figures import decay_figure, resistance_figure
+        from .figures import decay_figure, record_figure, resistance_figure, transect_figure
 
         folder = Path(args.figures)
         for res in results:
-            stem = Path(res.record).stem
+            stem = Path(res.record).stem + (f"_{res.label}" if res.label else "")
             write_output("--figures", folder, resistance_figure, res, folder / f"{stem}_temperature_resistance.png")
             write_output("--figures", folder, decay_figure, res, folder / f"{stem}_decay_fits.png", probe)
+        for st in stations:
+            stem = Path(st.record).stem
+            write_output("--figures", folder, record_figure, st, folder / f"{stem}_record.png")
+            if st.results:
+                write_output("--figures", folder, transect_figure, st, folder / f"{stem}_transect.png")
     rows = [result_row(r) for r in results]
+    if args.station:
+        where = {(st.record, r.label): st for st in stations for r in st.results}
+        for row, r in zip(rows, results):
+            st = where[(r.record, r.label)]
+            pos = st.positions.get(r.label)
+            row.update({"time": st.times.get(r.label, ""), "penetration_time [s]": r.penetration_time,
+                        "x [m]": pos[0] if pos else "", "y [m]": pos[1] if pos else "",
+                        "distance [m]": st.distance.get(r.label, "")})
     if args.out and rows:
         buf = io.StringIO()
-        w = csv.DictWriter(buf, fieldnames=list(rows[0]))
+        # the union of the rows' columns (an uncertainty part present for some penetrations only is blank for others)
+        w = csv.DictWriter(buf, fieldnames=list(dict.fromkeys(k for row in rows for k in row)), restval="")
         w.writeheader()
         w.writerows({k: (f"{v:.6g}" if isinstance(v, float) else v) for k, v in row.items()} for row in rows)
         write_output("--out", args.out, atomic_write_text, args.out, buf.getvalue())
     if args.json:
         print_json({"method": "probe-heat-flow", "decay_model": args.decay_model,
                     "penetrations": [r.as_dict() for r in results],
+                    "skipped": {Path(st.record).name: st.skipped for st in stations if st.skipped},
                     "failed": [e.line() for e in errors]})
     else:
         for r in results:
@@ -169,6 +198,9 @@ def run_probe(args) -> int:
             table.append(("heat flow", f"{d['heat_flow_mW_m2']:.2f} ± {d['heat_flow_uncertainty_mW_m2']:.2f} "
                           f"(total; {parts})", "mW/m^2"))
             print_table(table, title=f"{Path(r.record).name} ({r.method})")
+    for st in stations:
+        for label, why in st.skipped.items():
+            print(f"warning: {Path(st.record).name} ({label}): skipped: {why}", file=sys.stderr)
     for r in results:  # exclusions and doubts, one line each, on stderr
         for line in r.warnings + [f"{r.record}: {f}" for f in r.flags]:
             print(f"warning: {line}", file=sys.stderr)
