@@ -109,7 +109,12 @@ def record_figure(station, path):
 
 
 def transect_figure(station, path):
-    """Heat flow ± total uncertainty along the transect (distance from navigation, else time)."""
+    """Write ``transect_png(station)`` atomically to ``path``."""
+    atomic_write_bytes(path, transect_png(station))
+
+
+def transect_png(station) -> bytes:
+    """Heat flow ± total uncertainty along the transect (distance from navigation, else time), PNG."""
     res = station.results
     fig, ax = plt.subplots(figsize=(8, 4))
     if station.distance and all(r.label in station.distance for r in res):
@@ -129,4 +134,4 @@ def transect_figure(station, path):
     ax.legend(fontsize=8)
     ax.set_title(f"{Path(station.record).name}: heat flow along the transect")
     fig.tight_layout()
-    _save(fig, path)
+    return _png(fig)
