@@ -147,6 +147,39 @@ def cylinder_pulse_decay(alpha: float, tau, tau_pulse: float) -> np.ndarray:
     return np.where(tau > 0, G, 0.0)
 
 
+def cylinder_pulse_decay_and_slopes(alpha: float, tau, tau_pulse):
+    """``G`` after the pulse (τ ≥ τ_p) with the sums its derivatives need, for fitting.
+
+    Returns ``(G, S1, S2)`` with ``G = Σ w F(ν)``, ``S1 = Σ w ν F'(ν)`` and
+    ``S2 = Σ w F'(ν)`` over the Gauss nodes ``ν = τ − τ_p x`` (``τ_p = 0``: the
+    single node τ). For ``τ = k a``, ``τ_p = k b`` (``a``, ``b`` fixed):
+    ``∂G/∂k = S1 / k``; for a shift of the time origin, ``∂G/∂τ = S2``.
+    ``F'`` is the slope of the log-log table: ``F' = F · (d ln F / d ln τ) / τ``.
+    """
+    tau = np.asarray(tau, float)
+    tau_pulse = np.asarray(tau_pulse, float)  # a scalar, or broadcastable to tau (one per sensor)
+    if np.any(tau_pulse > 0):
+        nodes = tau[..., None] - tau_pulse[..., None] * _GL_X
+        w = _GL_W
+    else:
+        nodes = tau[..., None]
+        w = np.ones(1)
+    lt = np.log(nodes)
+    if lt.min() < _LOG_TAU[0] or lt.max() > _LOG_TAU[-1]:  # outside the table: the general path, numeric slope
+        F = cylinder_decay(alpha, nodes)
+        h = 1e-6
+        dlog = (np.log(cylinder_decay(alpha, nodes * (1 + h))) - np.log(F)) / np.log1p(h)
+    else:
+        table = _table(round(float(alpha), 6))
+        x = (lt - _DENSE[0]) * _INV_STEP
+        i = np.minimum(x.astype(np.intp), _DENSE.size - 2)
+        step = table[i + 1] - table[i]
+        F = np.exp(table[i] + (x - i) * step)
+        dlog = step * _INV_STEP
+    nF = F * dlog  # ν F'(ν)
+    return (F * w).sum(-1), (nF * w).sum(-1), (nF / nodes * w).sum(-1)
+
+
 def line_source_decay(strength, conductivity, elapsed):
     """Late-time (line-source) temperature rise Q / (4π k t) of an instantaneous heating ([1] §10.3).
 

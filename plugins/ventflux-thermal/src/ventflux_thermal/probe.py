@@ -68,6 +68,8 @@ References
 .. [2] Hartmann, A. and Villinger, H. (2002). Inversion of marine heat flow
    measurements by expansion of the temperature decay function. Geophys. J.
    Int. 148, 628–636.
+.. [3] Marquardt, D. W. (1963). An algorithm for least-squares estimation of
+   nonlinear parameters. J. Soc. Ind. Appl. Math. 11, 431–441.
 """
 
 
@@ -85,7 +87,7 @@ from ventflux.uncertainty import Uncertain, nominal, parse_uncertain
 from ventflux.units import Q_, parse_quantity, ureg
 
 from .constants import METHODS, PROBE_FIELDS, ProbeConstants
-from .decay import cylinder_decay, cylinder_pulse_decay
+from .decay import cylinder_decay, cylinder_pulse_decay, cylinder_pulse_decay_and_slopes
 from .fitting import first_parameter_se
 from .records import ProbeRecord, read_record
 
@@ -357,31 +359,86 @@ def fit_frictional_decay(time, temperature, penetration_time, end_time, conducti
     -------
     DecayFit
     """
+    return fit_frictional_decays(time, np.asarray(temperature, float)[None, :], penetration_time, end_time,
+                                 np.atleast_1d(float(conductivity)), probe, method, start)[0]
+
+
+def _weighted_line(F, Y, W):
+    """Least squares of Y = c0 + c1 F per row with 0/1 weights W: (c0, c1, rms, se_c0, sse), each (n,)."""
+    m = W.sum(axis=-1)
+    Fm = (W * F).sum(axis=-1) / m
+    Ym = (W * Y).sum(axis=-1) / m
+    Fc = W * (F - Fm[..., None])
+    Yc = W * (Y - Ym[..., None])
+    sxx = (Fc * Fc).sum(axis=-1)
+    c1 = (Fc * Yc).sum(axis=-1) / sxx
+    c0 = Ym - c1 * Fm
+    sse = np.maximum((Yc * Yc).sum(axis=-1) - c1**2 * sxx, 0.0)
+    s2 = sse / np.maximum(m - 2, 1)
+    return c0, c1, np.sqrt(sse / m), np.sqrt(s2 * (1.0 / m + Fm**2 / sxx)), sse
+
+
+def fit_frictional_decays(time, temperatures, penetration_time, end_time, conductivities, probe: ProbeConstants,
+                          method="cylinder", start=None) -> list:
+    """``fit_frictional_decay`` for several sensors of one record at once (vectorized over sensors).
+
+    ``temperatures`` is sensors × samples (K, NaN gaps left out of each
+    sensor's fit); ``conductivities`` one per sensor. Returns a DecayFit per sensor.
+    """
     span = end_time - penetration_time
     if start is None:
         start = 0.5 * span if method == "line-source" else max(30.0, 0.1 * span)
-    sel = (time >= penetration_time + start) & (time <= end_time) & np.isfinite(temperature)
+    sel = (time >= penetration_time + start) & (time <= end_time)
     t = time[sel] - penetration_time
-    y = temperature[sel]
-    if t.size < 8:
-        raise InputError("fitting window", f"{t.size} samples", "at least 8 samples in the frictional-decay window")
+    Y = np.asarray(temperatures, float)[:, sel]
+    W = np.isfinite(Y).astype(float)
+    Y = np.where(W > 0, Y, 0.0)
+    m = W.sum(axis=1).astype(int)
+    if t.size == 0 or m.min() < 8:
+        raise InputError("fitting window", f"{int(m.min()) if t.size else 0} samples",
+                         "at least 8 samples in the frictional-decay window")
     window = (float(penetration_time + start), float(end_time))
     if method == "line-source":
-        c0, c1, rms, se = _linear_fit(1.0 / t, y)
-        return DecayFit(c0, c1, 0.0, window, rms, int(t.size), se)
-    kappa = conductivity / probe.sediment_heat_capacity
-    scale = kappa / probe.radius**2
-
-    def solve(delta):
-        F = cylinder_decay(probe.alpha, (t + delta) * scale)
-        return _linear_fit(F, y)
-
-    lo = -0.9 * t[0]
+        c0, c1, rms, se, _ = _weighted_line(np.broadcast_to(1.0 / t, Y.shape), Y, W)
+        return [DecayFit(float(c0[i]), float(c1[i]), 0.0, window, float(rms[i]), int(m[i]), float(se[i]))
+                for i in range(Y.shape[0])]
+    scale = np.asarray(conductivities, float) / probe.sediment_heat_capacity / probe.radius**2
     # origin shift searched from just after the heating to a few window starts later (a choice made here)
-    res = optimize.minimize_scalar(lambda d: solve(d)[2], bounds=(lo, 3.0 * t[0] + 60.0), method="bounded",
-                                   options={"xatol": 1e-3})
-    c0, c1, rms, se = solve(res.x)
-    return DecayFit(float(c0), float(c1), float(res.x), window, rms, int(t.size), se)
+    delta = _best_shift(t, Y, W, scale, probe.alpha, -0.9 * t[0], 3.0 * t[0] + 60.0)
+    F = cylinder_decay(probe.alpha, (t[None, :] + delta[:, None]) * scale[:, None])
+    c0, c1, rms, se, _ = _weighted_line(F, Y, W)
+    return [DecayFit(float(c0[i]), float(c1[i]), float(delta[i]), window, float(rms[i]), int(m[i]), float(se[i]))
+            for i in range(Y.shape[0])]
+
+
+def _best_shift(t, Y, W, scale, alpha, lo, hi, n=25, levels=4):
+    """Per sensor, the origin shift minimizing the misfit of ``y = c0 + c1 F(α, (t + δ) scale)`` in ``[lo, hi]``.
+
+    Nested grids, vectorized over sensors and trial shifts with ``c0, c1`` by
+    closed-form least squares: 25 trials, then 25 across the best trial's
+    neighbours, four times (a resolution of ``(hi − lo)·(2/24)^3/24``, about
+    4e-3 s for the default bounds), finished by a parabola through the best
+    three.
+    """
+    ns = Y.shape[0]
+    lo = np.full(ns, float(lo))
+    hi = np.full(ns, float(hi))
+    rows = np.arange(ns)
+    for _ in range(levels):
+        d = lo[:, None] + (hi - lo)[:, None] * np.linspace(0.0, 1.0, n)[None, :]  # (sensors, trials)
+        F = cylinder_decay(alpha, (t[None, None, :] + d[:, :, None]) * scale[:, None, None])
+        sse = _weighted_line(F, Y[:, None, :], W[:, None, :])[4]
+        j = np.argmin(sse, axis=1)
+        lo, hi = d[rows, np.maximum(j - 1, 0)], d[rows, np.minimum(j + 1, n - 1)]
+    best = d[rows, j]
+    inner = (j > 0) & (j < n - 1)
+    a = sse[rows, np.maximum(j - 1, 0)]
+    b = sse[rows, j]
+    c = sse[rows, np.minimum(j + 1, n - 1)]
+    den = a - 2 * b + c
+    h = d[:, 1] - d[:, 0]
+    step = np.where(inner & (den > 0), 0.5 * h * (a - c) / np.where(den > 0, den, 1.0), 0.0)
+    return best + step
 
 
 def frictional_model(fit: DecayFit, time, penetration_time, conductivity, probe: ProbeConstants, method):
@@ -410,45 +467,98 @@ def fit_heat_pulse(time, excess, pulse_time, energy, probe: ProbeConstants, meth
     ``start`` counts from the pulse's end; ``duration`` defaults to ``probe.heat_pulse_duration``;
     ``previous``, an earlier fit of the same sensor, is the starting point.
     """
+    k0 = None if start_conductivity is None else np.atleast_1d(float(start_conductivity))
+    return fit_heat_pulses(time, np.asarray(excess, float)[None, :], pulse_time, energy, probe, method, start,
+                           k0, duration, fit_shift, None if previous is None else [previous])[0]
+
+
+def fit_heat_pulses(time, excess, pulse_time, energy, probe: ProbeConstants, method="cylinder", start=None,
+                    start_conductivity=None, duration: float | None = None, fit_shift=True, previous=None) -> list:
+    """``fit_heat_pulse`` for several sensors at once: ``excess`` sensors × samples (K, NaN gaps left out).
+
+    The cylinder fit is a Levenberg–Marquardt iteration with Marquardt's
+    scaling [3], run for all sensors together (3 × 3 normal equations per
+    sensor, batched), with the analytic Jacobian of the superposed response
+    (``decay.cylinder_pulse_decay_and_slopes``) and steps projected onto the
+    bounds. Standard errors: ``s² (JᵀJ)⁻¹`` with ``s²`` on ``n − 3`` degrees
+    of freedom (the usual linearized estimate).
+    """
     dur = probe.heat_pulse_duration if duration is None else float(duration)
     end_pulse = pulse_time + dur
-    ok = np.isfinite(excess)
-    time, excess = time[ok], excess[ok]
-    span = time[-1] - end_pulse
+    Y = np.asarray(excess, float)
+    ns = Y.shape[0]
+    last = time[np.isfinite(Y).any(axis=0)][-1] if np.isfinite(Y).any() else time[-1]
+    span = last - end_pulse
     if start is None:
         start = 0.5 * span if method == "line-source" else 10.0
     sel = time >= end_pulse + start
     t = time[sel] - pulse_time
-    y = excess[sel]
-    if t.size < 8:
-        raise InputError("fitting window", f"{t.size} samples", "at least 8 samples in the heat-pulse window")
-    window = (float(end_pulse + start), float(time[-1]))
+    Y = Y[:, sel]
+    W = np.isfinite(Y).astype(float)
+    Y = np.where(W > 0, Y, 0.0)
+    m = W.sum(axis=1)
+    if t.size == 0 or m.min() < 8:
+        raise InputError("fitting window", f"{int(m.min()) if t.size else 0} samples",
+                         "at least 8 samples in the heat-pulse window")
+    window = (float(end_pulse + start), float(last))
     if method == "line-source":
-        X = np.column_stack([np.ones_like(t), 1.0 / (t - 0.5 * dur)])
-        coef, *_ = np.linalg.lstsq(X, y, rcond=None)
-        r = y - X @ coef
-        s2 = float(r @ r) / max(t.size - 2, 1)
-        se_slope = float(np.sqrt(s2 * np.linalg.inv(X.T @ X)[1, 1]))
-        if not coef[1] > 0:
+        c0, c1, rms, _, sse = _weighted_line(np.broadcast_to(1.0 / (t - 0.5 * dur), Y.shape), Y, W)
+        if not np.all(c1 > 0):
             raise InputError("heat pulse", "no decay", "a heat pulse whose excess decays as 1/t")
-        k = energy / (4 * np.pi * coef[1])
-        return PulseFit(float(k), float(k * se_slope / coef[1]), window, float(np.sqrt(np.mean(r * r))), int(t.size),
-                        float(coef[0]), 0.0, dur)
+        x = 1.0 / (t - 0.5 * dur)
+        xm = (W * x).sum(1) / m
+        sxx = (W * (x - xm[:, None]) ** 2).sum(1)
+        se_slope = np.sqrt(sse / np.maximum(m - 2, 1) / sxx)
+        k = energy / (4 * np.pi * c1)
+        return [PulseFit(float(k[i]), float(k[i] * se_slope[i] / c1[i]), window, float(rms[i]), int(m[i]),
+                         float(c0[i]), 0.0, dur) for i in range(ns)]
     V0 = energy / (np.pi * probe.radius**2 * probe.probe_heat_capacity)
-    shift_bound = min(PULSE_SHIFT_BOUND, 0.9 * (t[0] - dur)) if fit_shift else 0.0
-
-    def resid(p):
-        return p[1] + V0 * _pulse_shape(probe, p[0], t + p[2], dur) - y
-
-    k0 = start_conductivity or probe.start_conductivity
+    a2rc = probe.radius**2 * probe.sediment_heat_capacity
+    shift = min(PULSE_SHIFT_BOUND, 0.9 * (t[0] - dur)) if fit_shift else 0.0
     # k searched over 0.05–10 W/(m K), far wider than any sediment; offset within ±5 K (choices made here)
-    lo, hi = [0.05, -5.0, -shift_bound], [10.0, 5.0, shift_bound + 1e-12]
-    x0 = [k0, 0.0, 0.0] if previous is None else [previous.conductivity, previous.offset,
-                                                  float(np.clip(previous.origin_shift, lo[2], hi[2]))]
-    sol = optimize.least_squares(resid, x0, bounds=(lo, hi), x_scale=[0.1, 0.01, 1.0])
-    r = sol.fun
-    return PulseFit(float(sol.x[0]), first_parameter_se(sol), window, float(np.sqrt(np.mean(r * r))), int(t.size),
-                    float(sol.x[1]), float(sol.x[2]), dur)
+    lo, hi = np.array([0.05, -5.0, -shift]), np.array([10.0, 5.0, shift])
+    p = np.zeros((ns, 3))
+    p[:, 0] = probe.start_conductivity if start_conductivity is None else start_conductivity
+    if previous is not None:
+        p = np.array([[f.conductivity, f.offset, f.origin_shift] for f in previous])
+    p = np.clip(p, lo, hi)
+
+    def evaluate(p):
+        G, S1, S2 = cylinder_pulse_decay_and_slopes(probe.alpha, (t[None, :] + p[:, 2:3]) * p[:, 0:1] / a2rc,
+                                                    dur * p[:, 0:1] / a2rc)
+        r = W * (p[:, 1:2] + V0 * G - Y)
+        J = W[..., None] * np.stack([V0 * S1 / p[:, 0:1], np.ones_like(G), V0 * S2 * p[:, 0:1] / a2rc], axis=-1)
+        return r, J
+
+    r, J = evaluate(p)
+    cost = (r * r).sum(1)
+    lam = np.full(ns, 1e-3)
+    done = np.zeros(ns, bool)
+    eye = np.eye(3)
+    for _ in range(100):
+        A = np.einsum("sni,snj->sij", J, J)
+        g = np.einsum("sni,sn->si", J, r)
+        D = np.einsum("sii->si", A)[:, :, None] * eye
+        step = -np.linalg.solve(A + lam[:, None, None] * D + 1e-30 * eye, g[..., None])[..., 0]
+        trial = np.clip(p + step, lo, hi)
+        r2, J2 = evaluate(trial)
+        cost2 = (r2 * r2).sum(1)
+        better = (cost2 <= cost) & ~done
+        moved = np.abs(trial - p).max(axis=1)
+        p = np.where(better[:, None], trial, p)
+        r = np.where(better[:, None], r2, r)
+        J = np.where(better[:, None, None], J2, J)
+        # converged: a step that no longer changes the parameters or the misfit (relative 1e-10)
+        done |= (moved < 1e-10) | (better & (cost - cost2 <= 1e-10 * cost)) | (lam > 1e10)
+        cost = np.where(better, cost2, cost)
+        lam = np.where(better, lam / 3.0, lam * 4.0)
+        if np.all(done):
+            break
+    A = np.einsum("sni,snj->sij", J, J)
+    s2 = cost / np.maximum(m - 3, 1)
+    cov = s2[:, None, None] * np.linalg.pinv(A)
+    return [PulseFit(float(p[i, 0]), float(np.sqrt(cov[i, 0, 0])), window, float(np.sqrt(cost[i] / m[i])),
+                     int(m[i]), float(p[i, 1]), float(p[i, 2]), dur) for i in range(ns)]
 
 
 def pulse_model(fit: PulseFit, time, pulse_time, energy, probe: ProbeConstants, method):
@@ -569,19 +679,18 @@ def screen_sensors(rec: ProbeRecord, t_start: float, exclude=()) -> dict:
 
 
 def _fit_sensors(rec, idx, t_pen, t_hp, end, energy, probe, method, known_k, use_pulse):
-    """Frictional and pulse fits of the sensors ``idx`` (two sequential passes); per-sensor lists."""
+    """Frictional and pulse fits of the sensors ``idx`` (two sequential passes, each vectorized over sensors)."""
     n = len(idx)
     k = known_k.copy() if known_k is not None else np.full(n, probe.start_conductivity)
-    fr, pu = [None] * n, [None] * n
+    pu = [None] * n
     after = rec.time > t_hp if use_pulse else None
+    temps = rec.temperature[idx]
     for _ in range(2 if use_pulse else 1):  # sequential joint inversion: friction needs κ, pulse needs background
-        for j, i in enumerate(idx):  # a handful of sensors; each fit is vectorized over its samples
-            fr[j] = fit_frictional_decay(rec.time, rec.temperature[i], t_pen, end, k[j], probe, method)
-            if use_pulse:
-                bg = frictional_model(fr[j], rec.time[after], t_pen, k[j], probe, method)
-                pu[j] = fit_heat_pulse(rec.time[after], rec.temperature[i][after] - bg, t_hp, energy, probe, method,
-                                       start_conductivity=k[j], previous=pu[j])
+        fr = fit_frictional_decays(rec.time, temps, t_pen, end, k, probe, method)
         if use_pulse:
+            bg = np.stack([frictional_model(fr[j], rec.time[after], t_pen, k[j], probe, method) for j in range(n)])
+            pu = fit_heat_pulses(rec.time[after], temps[:, after] - bg, t_hp, energy, probe, method,
+                                 start_conductivity=k, previous=pu if pu[0] is not None else None)
             k = np.array([p.conductivity for p in pu])
     return fr, pu, k
 
@@ -589,12 +698,10 @@ def _fit_sensors(rec, idx, t_pen, t_hp, end, energy, probe, method, known_k, use
 def _refit_pulses(rec, idx, fr, pu, k, t_pen, t_hp, energy, probe, method):
     """Conductivities re-fitted with other probe constants, the frictional fits kept (a sensitivity)."""
     after = rec.time > t_hp
-    out = np.empty(len(idx))
-    for j, i in enumerate(idx):
-        bg = frictional_model(fr[j], rec.time[after], t_pen, k[j], probe, method)
-        out[j] = fit_heat_pulse(rec.time[after], rec.temperature[i][after] - bg, t_hp, energy, probe, method,
-                                previous=pu[j]).conductivity
-    return out
+    bg = np.stack([frictional_model(fr[j], rec.time[after], t_pen, k[j], probe, method) for j in range(len(idx))])
+    fits = fit_heat_pulses(rec.time[after], rec.temperature[idx][:, after] - bg, t_hp, energy, probe, method,
+                           previous=pu)
+    return np.array([f.conductivity for f in fits])
 
 
 def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None, heat_pulse_energy=None,
