@@ -1,6 +1,6 @@
 """Side-by-side timings for ventflux-thermal (run: python benchmarks/bench_thermal.py). Not a test.
 
-1. The cylinder decay function F(α, τ): tabulated spline (what the fits call) against direct quadrature.
+1. The cylinder decay function F(α, τ): the dense log-log table (what the fits call) against direct quadrature.
 2. The heat-flow uncertainty: one vectorized regression over all conductivity draws against a loop of draws.
 3. One whole penetration (7 sensors, 1201 samples, cylinder model), for scale.
 """
