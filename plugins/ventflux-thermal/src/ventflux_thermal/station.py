@@ -45,7 +45,7 @@ from .records import ProbeRecord, parse_timestamps, read_record
 
 #: Minimum decay after penetration, and after the pulse's end, for a reduction, s (as in ``probe.check_timing``).
 MIN_DECAY = 60.0
-EARTH_RADIUS = 6_371_008.8  # m, mean radius of the IUGG ellipsoid (Moritz 2000)
+EARTH_RADIUS = 6_371_008.8  # m, mean radius of the GRS 80 ellipsoid (Moritz 2000, Bull. Géod. 74, 128-133)
 
 
 @dataclass(frozen=True)
