@@ -31,7 +31,7 @@ DEPTHS = np.linspace(0.4, 4.4, N_SENSORS)
 
 def scenario(folder: Path):
     rng = np.random.default_rng(11)
-    pens, t = [], 300.0
+    pens = []
     cycle = HOURS * 3600.0 / N_PEN  # 30 min per penetration: 7 min of friction, 9 min of pulse decay, moving
     for i in range(N_PEN):
         t_pen = 300.0 + i * cycle

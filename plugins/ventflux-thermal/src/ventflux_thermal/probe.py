@@ -81,14 +81,13 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 
 import numpy as np
-from scipy import optimize
+
 from ventflux.errors import Collector, InputError
 from ventflux.uncertainty import Uncertain, nominal, parse_uncertain
 from ventflux.units import Q_, parse_quantity, ureg
 
 from .constants import METHODS, PROBE_FIELDS, ProbeConstants
 from .decay import cylinder_decay, cylinder_pulse_decay, cylinder_pulse_decay_and_slopes
-from .fitting import first_parameter_se
 from .records import ProbeRecord, read_record
 
 #: Fewest sensors for a heat flow with a standard error (slope, intercept and one degree of freedom).

@@ -21,8 +21,11 @@ from datetime import datetime, timezone
 from pathlib import Path
 
 import numpy as np
+
 from ventflux.errors import Collector, InputError
 from ventflux.units import DIMENSIONS, Q_, parse_column_name, ureg
+
+from .fitting import require_increasing
 
 _MISSING = {"", "nan", "NaN", "NAN", "-nan"}
 
@@ -188,11 +191,7 @@ def read_record(path, sensor_columns=None, meta=None) -> ProbeRecord:
         v = _column(cols[i], label, line_no, where, errs, allow_gaps=True)
         temps.append(Q_(v, unit).to("K").magnitude)
     errs.raise_if_any()
-    bad = np.flatnonzero(np.diff(t) <= 0)
-    if bad.size:
-        i = bad[0] + 1
-        raise InputError("time", f"{t[i]:g} s after {t[i - 1]:g} s", "time values that increase down the file",
-                         where=f"{where}:{line_no[i]}")
+    require_increasing(t, line_no, path, "time", "s")
     return ProbeRecord(path=path, time=t, temperature=np.vstack(temps), sensors=tuple(sensor_columns),
                        lines=line_no, meta=dict(meta or {}), start=start)
 

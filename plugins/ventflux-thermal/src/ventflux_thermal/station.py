@@ -36,11 +36,18 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
+
 from ventflux.errors import InputError
 from ventflux.units import Q_
 
 from .constants import METHODS, ProbeConstants
-from .probe import (PenetrationResult, _si, probe_from_inputs, read_metadata, reduce_record, standard_deviation)
+from .probe import (
+    _si,
+    probe_from_inputs,
+    read_metadata,
+    reduce_record,
+    standard_deviation,
+)
 from .records import ProbeRecord, parse_timestamps, read_record
 
 #: Minimum decay after penetration, and after the pulse's end, for a reduction, s (as in ``probe.check_timing``).

@@ -37,6 +37,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+
 from ventflux.errors import InputError, InputErrors
 from ventflux.survey import SectionEstimate, SurveySection
 from ventflux.survey.fields import resolve
