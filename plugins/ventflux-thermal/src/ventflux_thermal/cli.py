@@ -192,7 +192,8 @@ def run_probe(args) -> int:
         for r in results:
             d = r.as_dict()
             table = [(f"{s['depth_m']:.3f} m", f"{s['equilibrium_temperature_degC']:.4f} °C  "
-                      f"k={s['conductivity_W_m_K']:.4g}±{s['conductivity_se_W_m_K']:.2g} W/(m K)  "
+                      f"k={s['conductivity_W_m_K']:.4g}±{s['conductivity_uncertainty_W_m_K']:.2g} W/(m K) "
+                      f"(fit SE {s['conductivity_se_W_m_K']:.2g})  "
                       f"res {s['residual_mK']:+.2f} mK", "") for s in d["sensors"]]
             parts = ", ".join(f"{k} {v:.2g}" for k, v in d["uncertainty_parts_mW_m2"].items())
             table.append(("heat flow", f"{d['heat_flow_mW_m2']:.2f} ± {d['heat_flow_uncertainty_mW_m2']:.2f} "

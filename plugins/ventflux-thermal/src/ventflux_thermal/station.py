@@ -303,7 +303,7 @@ def reduce_station(record_path, sensor_depths=None, *, heat_pulse_energy=None, h
         part = rec.slice(p.start - 1.0, p.end - 2.0)
         try:
             res = reduce_record(part, s, penetration_time=p.start,
-                                heat_pulse_time=p.pulse if known_k is None else None,
+                                heat_pulse_time=p.pulse,  # with known k, only the end of the frictional window
                                 heat_pulse_energy=probe.heat_pulse_energy, tilt=tilt_v,
                                 tilt_sd=standard_deviation(tilt_in, "radian"), known_k=known_k, method=method,
                                 probe=probe, exclude_sensors=exclude, draws=draws, seed=seed + p.number,
