@@ -75,7 +75,7 @@ def _probe(f):
     return values
 
 
-def _reduce(kind, path, options, f, results, stations):
+def _reduce(kind, path, options, f, results, stations, notes):
     from .probe import reduce_penetration
     from .station import reduce_station
 
@@ -85,7 +85,7 @@ def _reduce(kind, path, options, f, results, stations):
             stations.append(st)
             results.extend(st.results)
             for label, why in st.skipped.items():
-                f.notes.append(f"{Path(path).name} ({label}) skipped: {why}")
+                notes.append(f"{Path(path).name} ({label}) skipped: {why}")
         else:
             results.append(reduce_penetration(path, **options))
     except InputErrors as e:
@@ -147,8 +147,7 @@ def _parse(f, ctx):
     for name in unknown_names:
         f.error(f"exclude_sensors.{name}", name, "the file name of one of the section's records")
     f.check_unknown()
-    f.notes = []
-    results, stations = [], []
+    results, stations, notes = [], [], []
     try:
         probe = probe_from_inputs(None, {}, probe_values)
     except (InputError, InputErrors):
@@ -157,14 +156,14 @@ def _parse(f, ctx):
         for p in paths:
             ctx.input_files[str(p)] = "sediment probe record"
             _reduce("penetration", p, dict(method=method, probe=probe, exclude_sensors=exclude.get(p.name, ())), f,
-                    results, stations)
+                    results, stations, notes)
         for path, nav, ex in station_specs:
             ctx.input_files[str(path)] = "sediment probe station record"
             if nav is not None:
                 ctx.input_files[str(nav)] = "navigation"
             _reduce("station", path, dict(method=method, probe=probe, exclude_sensors=ex, navigation=nav), f,
-                    results, stations)
-    spec["results"], spec["stations"], spec["notes"] = results, stations, f.notes
+                    results, stations, notes)
+    spec["results"], spec["stations"], spec["notes"] = results, stations, notes
     return spec
 
 
