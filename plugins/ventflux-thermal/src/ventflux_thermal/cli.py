@@ -200,6 +200,8 @@ def run_probe(args) -> int:
                           f"(total; {parts})", "mW/m^2"))
             print_table(table, title=f"{Path(r.record).name} ({r.method})")
     for st in stations:
+        for line in st.notes:
+            print(f"warning: {line}", file=sys.stderr)
         for label, why in st.skipped.items():
             print(f"warning: {Path(st.record).name} ({label}): skipped: {why}", file=sys.stderr)
     for r in results:  # exclusions and doubts, one line each, on stderr

@@ -81,6 +81,7 @@ class StationResult:
     positions: dict = field(default_factory=dict)  # label → (x, y) m or None
     distance: dict = field(default_factory=dict)  # label → along-transect distance, m
     times: dict = field(default_factory=dict)  # label → ISO 8601 time of penetration (when known)
+    notes: list = field(default_factory=list)  # detection events not used, one line each
     record_data: ProbeRecord | None = None
 
 
@@ -279,12 +280,12 @@ def reduce_station(record_path, sensor_depths=None, *, heat_pulse_energy=None, h
         raise InputError("heat pulse energy", "(missing)", "the heat pulse's energy per length (option or "
                          "'# heat_pulse_energy [J/m]: ...' line), or known conductivities", where=str(path))
     live = np.array([name not in exclude for name in rec.sensors])
-    pens, _notes = find_penetrations(rec.time, rec.temperature[live], window, threshold)
+    pens, notes = find_penetrations(rec.time, rec.temperature[live], window, threshold)
     if not pens:
         raise InputError("penetrations", "none found", "a record in which the sensors jump by more than "
                          f"{1e3 * threshold:g} mK within {window:g} s at penetration", where=str(path))
     out = StationResult(record=str(path), penetrations=pens, results=[],
-                        record_data=rec if keep_record else None)
+                        record_data=rec if keep_record else None, notes=[f"{path}: {n}" for n in notes])
     dur = probe.heat_pulse_duration
     for p in pens:  # one penetration per iteration; each reduction is vectorized over its samples
         reason = None

@@ -84,6 +84,7 @@ def _reduce(kind, path, options, f, results, stations, notes):
             st = reduce_station(path, **options)
             stations.append(st)
             results.extend(st.results)
+            notes.extend(st.notes)
             for label, why in st.skipped.items():
                 notes.append(f"{Path(path).name} ({label}) skipped: {why}")
         else:
