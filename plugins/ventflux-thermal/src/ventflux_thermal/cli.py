@@ -198,7 +198,7 @@ def run_probe(args) -> int:
             parts = ", ".join(f"{k} {v:.2g}" for k, v in d["uncertainty_parts_mW_m2"].items())
             table.append(("heat flow", f"{d['heat_flow_mW_m2']:.2f} ± {d['heat_flow_uncertainty_mW_m2']:.2f} "
                           f"(total; {parts})", "mW/m^2"))
-            print_table(table, title=f"{Path(r.record).name} ({r.method})")
+            print_table(table, title=f"{Path(r.record).name}{' ' + r.label if r.label else ''} ({r.method})")
     for st in stations:
         for line in st.notes:
             print(f"warning: {line}", file=sys.stderr)
