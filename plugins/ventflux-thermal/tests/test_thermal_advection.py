@@ -144,3 +144,30 @@ def test_flat_profile_and_non_positive_heat_capacity_refused(tmp_path, capsys):
     core = _write_profile(tmp_path / "core.csv", 1.0)
     err = _one_line_error(capsys, ["profile-advection", core, "--fluid-heat-capacity", "-4e6 J/(m^3 K)"])
     assert "fluid heat capacity" in err
+
+
+def _false_detection_rate(n_profiles, n_points, seed):
+    # No-flow profiles: the conductive straight line T = T0 + Γz (Bredehoeft & Papadopulos 1965 at Pe = 0)
+    # plus 10 mK white noise; the fraction labelled up- or downflow.
+    rng = np.random.default_rng(seed)
+    z = Q_(np.linspace(0.3, 3.0, n_points), "m")
+    called = 0
+    for _ in range(n_profiles):
+        T = Q_(2.0 + 0.25 * z.magnitude + rng.normal(0.0, 0.01, n_points), "degC")
+        fit = fit_advection(z, T, Q_(1.0, "W/(m*K)"), fluid_heat_capacity=Q_(4.0e6, "J/(m^3*K)"))
+        called += fit.direction in ("upflow", "downflow")
+    return called / n_profiles
+
+
+def test_no_flow_false_detection_rate_is_the_stated_level():
+    # Nominal level 5 % (DETECTION_LEVEL). With 800 simulated 8-point profiles the binomial standard error is
+    # 0.77 %; the band 2.5–7.5 % (3.2 standard errors) excludes the ~10 % of a 2-standard-error rule.
+    rate = _false_detection_rate(800, 8, seed=2026)
+    assert 0.025 <= rate <= 0.075, rate
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("n_points", [5, 8, 20])
+def test_no_flow_false_detection_rate_many_profiles(n_points):
+    rate = _false_detection_rate(4000, n_points, seed=n_points)
+    assert 0.05 - 0.011 <= rate <= 0.05 + 0.011, rate  # ±3.2 binomial standard errors (0.34 %)

@@ -21,6 +21,10 @@ heat flux at the seafloor ``k·dT/dz|₀ = k (TL − T0)/L · Pe/(1 − e^{−Pe
 and the advective heat flux ``ρ_f c_f w (TL − T0)``: the heat the moving
 fluid carries across the layer, relative to the seafloor temperature.
 
+Flow is *detected* (``direction`` up or down) only when the no-flow model,
+the straight line, is rejected by the F test of nested models at the 5 %
+level [3]; otherwise the direction is "not resolved" with its p-value.
+
 ``ρ_f c_f`` is the pore fluid's volumetric heat capacity: TEOS-10 seawater
 [2] at the profile's mean temperature and the in-situ pressure, unless given.
 
@@ -30,6 +34,8 @@ References
    groundwater movement estimated from the Earth's thermal profile. Water
    Resour. Res. 1, 325–328.
 .. [2] IOC, SCOR and IAPSO (2010). TEOS-10, IOC Manuals and Guides No. 56.
+.. [3] Seber, G. A. F. and Wild, C. J. (1989). Nonlinear Regression. Wiley, §5.3 (the F test of nested
+   models).
 """
 
 from __future__ import annotations
@@ -44,13 +50,15 @@ from ventflux.tables import read_quantity_table
 from ventflux.uncertainty import Uncertain, nominal, parse_uncertain
 from ventflux.units import Q_, parse_quantity
 
+from .constants import DEFAULT_SALINITY  # noqa: F401  (re-exported: defined with the CLI's defaults)
 from .fitting import first_parameter_se, require_increasing
 
 SECONDS_PER_YEAR = 365.25 * 86400.0  # Julian year (IAU)
+#: Significance level of flow detection: the chance of calling a no-flow profile up- or downflow
+#: (the usual 5 %; common practice, no source).
+DETECTION_LEVEL = 0.05
 #: Largest |Pe| searched (a choice made here): beyond it the profile is a thin boundary layer the fit cannot resolve.
 PE_BOUND = 60.0
-#: Default pore-fluid practical salinity: typical deep ocean water, about 34.6–34.7 below 2000 m (from memory).
-DEFAULT_SALINITY = 34.7
 
 
 def profile_shape(peclet, zeta):
@@ -80,11 +88,15 @@ class AdvectionFit:
     advective_heat_flux: float  # W/m^2
     misfit_rms: float  # K
     residual: np.ndarray
+    flow_p_value: float = float("nan")  # of the no-flow model against the fit (F test, 1 and n − 3 dof)
+    detection_level: float = 0.05
 
     @property
     def direction(self) -> str:
-        if abs(self.peclet) < 2 * self.peclet_se or self.peclet == 0:
-            return "not resolved (|Pe| < 2 standard errors)"
+        """``upflow``/``downflow`` when the no-flow model is rejected at ``detection_level``."""
+        if not self.flow_p_value < self.detection_level or self.peclet == 0:
+            return (f"not resolved (p = {self.flow_p_value:.2g} against no flow; detection needs p < "
+                    f"{self.detection_level:g})")
         return "upflow" if self.peclet > 0 else "downflow"
 
     @property
@@ -93,6 +105,7 @@ class AdvectionFit:
 
     def as_dict(self) -> dict:
         return {"peclet": self.peclet, "peclet_se": self.peclet_se, "direction": self.direction,
+                "flow_p_value": self.flow_p_value, "detection_level": self.detection_level,
                 "darcy_velocity_m_s": self.darcy_velocity, "darcy_velocity_se_m_s": self.darcy_velocity_se,
                 "discharge_m_yr": self.discharge_m_per_yr,
                 "discharge_se_m_yr": self.darcy_velocity_se * SECONDS_PER_YEAR,
@@ -103,6 +116,30 @@ class AdvectionFit:
                 "conductive_heat_flux_W_m2": self.conductive_heat_flux,
                 "advective_heat_flux_W_m2": self.advective_heat_flux, "misfit_rms_mK": 1e3 * self.misfit_rms,
                 "residual_mK": (1e3 * self.residual).tolist()}
+
+
+def no_flow_p_value(depth, temperature, residual) -> float:
+    """p-value of the no-flow (linear) profile against the advection fit: the F test of nested models.
+
+    ``F = (SSE₀ − SSE₁) / (SSE₁ / (n − 3))`` on 1 and ``n − 3`` degrees of
+    freedom, SSE₀ the misfit of the straight line and SSE₁ that of the
+    three-parameter fit [3]. For a model nonlinear in ``Pe`` the F
+    distribution is an approximation; its false-detection rate is checked by
+    simulation in the tests.
+    """
+    from scipy import stats
+
+    z = np.asarray(depth, float)
+    T = np.asarray(temperature, float)
+    n = z.size
+    X = np.column_stack([np.ones(n), z])
+    coef, *_ = np.linalg.lstsq(X, T, rcond=None)
+    sse0 = float(((T - X @ coef) ** 2).sum())
+    sse1 = float(np.asarray(residual) @ np.asarray(residual))
+    if n <= 3 or sse1 <= 0:
+        return 0.0 if sse0 > sse1 else 1.0
+    F = max(sse0 - sse1, 0.0) / (sse1 / (n - 3))
+    return float(stats.f.sf(F, 1, n - 3))
 
 
 def fit_peclet(depth, temperature, layer_thickness=None):
@@ -217,7 +254,8 @@ def fit_advection(depth, temperature, conductivity, *, pressure=None, layer_thic
     return AdvectionFit(peclet=pe, peclet_se=pe_se, top_temperature=T0, base_temperature=TL, layer_thickness=L,
                         conductivity=k_nom, fluid_heat_capacity=rc, darcy_velocity=w, darcy_velocity_se=float(w_se),
                         conductive_heat_flux=float(q_cond), advective_heat_flux=float(rc * w * dT),
-                        misfit_rms=float(np.sqrt(np.mean(r * r))), residual=r)
+                        misfit_rms=float(np.sqrt(np.mean(r * r))), residual=r,
+                        flow_p_value=no_flow_p_value(z, T, r), detection_level=DETECTION_LEVEL)
 
 
 def read_profile(path):

@@ -31,8 +31,8 @@ from ventflux.io import atomic_write_text
 from ventflux.uncertainty import parse_uncertain
 from ventflux.units import Q_, parse_quantity
 
-from .advection import DEFAULT_SALINITY
-from .probe import METHODS, ProbeConstants, reduce_penetration, result_row
+from .constants import DEFAULT_SALINITY
+from .constants import METHODS, ProbeConstants
 
 # --------------------------------------------------------------------------- probe-heat-flow
 
@@ -48,12 +48,22 @@ def configure_probe(p):
                                           "instead of the heat pulse")
     p.add_argument("--decay-model", choices=METHODS, default="cylinder",
                    help="cylinder: instantaneously heated cylinder; line-source: late-time 1/t asymptote")
+    p.add_argument("--pulse-duration", help="length of the heat pulse from its logged start, e.g. '10 s' "
+                                            "(default: the record's header, else 0 s)")
+    p.add_argument("--exclude-sensor", action="append", default=[], metavar="SENSOR",
+                   help="leave a sensor column out, e.g. T3 (repeatable, or comma-separated)")
     d = ProbeConstants()
-    p.add_argument("--probe-radius", default=f"{d.radius * 1e3:g} mm", help="sensor-tube radius (default %(default)s)")
-    p.add_argument("--probe-heat-capacity", default=f"{d.probe_heat_capacity:g} J/(m^3 K)",
-                   help="probe volumetric heat capacity (default %(default)s)")
-    p.add_argument("--sediment-heat-capacity", default=f"{d.sediment_heat_capacity:g} J/(m^3 K)",
-                   help="sediment volumetric heat capacity (default %(default)s)")
+    p.add_argument("--probe-radius", help=f"sensor-tube radius, may carry '± sd' (default: header, else "
+                                          f"{d.radius * 1e3:g} mm)")
+    p.add_argument("--probe-heat-capacity", help=f"probe volumetric heat capacity (default: header, else "
+                                                 f"{d.probe_heat_capacity:g} J/(m^3 K))")
+    p.add_argument("--sediment-heat-capacity", help=f"sediment volumetric heat capacity (default: header, else "
+                                                    f"{d.sediment_heat_capacity:g} ± "
+                                                    f"{d.uncertainty['sediment_heat_capacity']:g} J/(m^3 K))")
+    p.add_argument("--station", action="store_true",
+                   help="each record is a station's continuous record: find and reduce every penetration in it")
+    p.add_argument("--navigation", help="navigation CSV (time, x/y [m] or latitude/longitude [deg]) for --station: "
+                                        "positions and distance along the transect")
     p.add_argument("--out", help="write the table of penetrations to this CSV (units in the headers)")
     p.add_argument("--figures", help="folder for figures: T against thermal resistance and the decay fits")
     p.add_argument("--no-progress", action="store_true", help="no progress bar")
@@ -90,68 +100,113 @@ def _list_quantity(text, unit_dim, field):
     return Q_(np.array(values), last.units)
 
 
-def run_probe(args) -> int:
-    records = _records(args.records)
-    probe = ProbeConstants(
-        radius=float(parse_quantity(args.probe_radius, "length", "--probe-radius").to("m").magnitude),
-        probe_heat_capacity=float(parse_quantity(args.probe_heat_capacity, "volumetric heat capacity",
-                                                 "--probe-heat-capacity").to("J/(m^3*K)").magnitude),
-        sediment_heat_capacity=float(parse_quantity(args.sediment_heat_capacity, "volumetric heat capacity",
-                                                    "--sediment-heat-capacity").to("J/(m^3*K)").magnitude))
-    for name, v in (("--probe-radius", probe.radius), ("--probe-heat-capacity", probe.probe_heat_capacity),
-                    ("--sediment-heat-capacity", probe.sediment_heat_capacity)):
-        if not v > 0:
-            raise InputError(name, f"{v:g}", "a value > 0")
-    kwargs = dict(
+def probe_options(args) -> dict:
+    """The probe-reduction arguments of ``probe-heat-flow`` (quantities; None where not given)."""
+    def q(text, dim, name, unit=None):
+        return None if text is None else parse_quantity(text, dim, name, unit)
+
+    def u(text, dim, name):
+        return None if text is None else parse_uncertain(text, dim, name)
+
+    overrides = {"radius": u(args.probe_radius, "length", "--probe-radius"),
+                 "probe_heat_capacity": u(args.probe_heat_capacity, "volumetric heat capacity",
+                                          "--probe-heat-capacity"),
+                 "sediment_heat_capacity": u(args.sediment_heat_capacity, "volumetric heat capacity",
+                                             "--sediment-heat-capacity")}
+    exclude = tuple(s.strip() for item in args.exclude_sensor for s in item.split(",") if s.strip())
+    return dict(
         sensor_depths=_list_quantity(args.sensor_depths, "length", "--sensor-depths"),
-        penetration_time=None if args.penetration_time is None else parse_quantity(args.penetration_time, "time",
-                                                                                   "--penetration-time", "s"),
-        heat_pulse_time=None if args.pulse_time is None else parse_quantity(args.pulse_time, "time", "--pulse-time",
-                                                                             "s"),
-        heat_pulse_energy=None if args.pulse_energy is None else parse_quantity(args.pulse_energy,
-                                                                                "energy per length", "--pulse-energy"),
-        tilt=None if args.tilt is None else parse_quantity(args.tilt, "angle", "--tilt", "degree"),
+        penetration_time=q(args.penetration_time, "time", "--penetration-time", "s"),
+        heat_pulse_time=q(args.pulse_time, "time", "--pulse-time", "s"),
+        heat_pulse_energy=q(args.pulse_energy, "energy per length", "--pulse-energy"),
+        heat_pulse_duration=q(args.pulse_duration, "time", "--pulse-duration", "s"),
+        tilt=None if args.tilt is None else parse_uncertain(args.tilt, "angle", "--tilt", "degree"),
         conductivity=_list_quantity(args.conductivity, "thermal conductivity", "--conductivity"),
-        method=args.decay_model, probe=probe, keep_record=args.figures is not None)
+        method=args.decay_model, exclude_sensors=exclude, probe_overrides=overrides)
+
+
+def run_probe(args) -> int:
+    from .probe import probe_from_inputs, reduce_penetration, result_row
+
+    records = _records(args.records)
+    kwargs = probe_options(args)
+    probe = probe_from_inputs(None, {}, kwargs.pop("probe_overrides"))
+    kwargs.update(probe=probe, keep_record=args.figures is not None)
+    if args.navigation and not args.station:
+        raise InputError("--navigation", args.navigation, "a navigation table together with --station")
     from tqdm import tqdm
 
-    results, errors = [], []
-    bar = tqdm(records, desc="penetrations", unit="record", file=sys.stderr,
+    results, errors, stations = [], [], []
+    bar = tqdm(records, desc="stations" if args.station else "penetrations", unit="record", file=sys.stderr,
                disable=True if (args.no_progress or len(records) < 2) else None)
-    for path in bar:  # one penetration per iteration; each reduction is vectorized inside
+    for path in bar:  # one record per iteration; each reduction is vectorized inside
         try:
-            results.append(reduce_penetration(path, **kwargs))
+            if args.station:
+                from .station import reduce_station
+
+                st = reduce_station(path, **{k: v for k, v in kwargs.items() if k not in (
+                    "penetration_time", "heat_pulse_time")}, navigation=args.navigation)
+                stations.append(st)
+                results.extend(st.results)
+            else:
+                results.append(reduce_penetration(path, **kwargs))
         except InputErrors as e:
             errors.extend(e.errors)
         except InputError as e:
             errors.append(e if e.where else InputError(e.field, e.value, e.allowed, where=str(path)))
     if args.figures and results:
-        from .figures import decay_figure, resistance_figure
+        from .figures import decay_figure, record_figure, resistance_figure, transect_figure
 
         folder = Path(args.figures)
         for res in results:
-            stem = Path(res.record).stem
+            stem = Path(res.record).stem + (f"_{res.label}" if res.label else "")
             write_output("--figures", folder, resistance_figure, res, folder / f"{stem}_temperature_resistance.png")
             write_output("--figures", folder, decay_figure, res, folder / f"{stem}_decay_fits.png", probe)
+        for st in stations:
+            stem = Path(st.record).stem
+            write_output("--figures", folder, record_figure, st, folder / f"{stem}_record.png")
+            if st.results:
+                write_output("--figures", folder, transect_figure, st, folder / f"{stem}_transect.png")
     rows = [result_row(r) for r in results]
+    if args.station:
+        where = {(st.record, r.label): st for st in stations for r in st.results}
+        for row, r in zip(rows, results):
+            st = where[(r.record, r.label)]
+            pos = st.positions.get(r.label)
+            row.update({"time": st.times.get(r.label, ""), "penetration_time [s]": r.penetration_time,
+                        "x [m]": pos[0] if pos else "", "y [m]": pos[1] if pos else "",
+                        "distance [m]": st.distance.get(r.label, "")})
     if args.out and rows:
         buf = io.StringIO()
-        w = csv.DictWriter(buf, fieldnames=list(rows[0]))
+        # the union of the rows' columns (an uncertainty part present for some penetrations only is blank for others)
+        w = csv.DictWriter(buf, fieldnames=list(dict.fromkeys(k for row in rows for k in row)), restval="")
         w.writeheader()
         w.writerows({k: (f"{v:.6g}" if isinstance(v, float) else v) for k, v in row.items()} for row in rows)
         write_output("--out", args.out, atomic_write_text, args.out, buf.getvalue())
     if args.json:
         print_json({"method": "probe-heat-flow", "decay_model": args.decay_model,
                     "penetrations": [r.as_dict() for r in results],
+                    "skipped": {Path(st.record).name: st.skipped for st in stations if st.skipped},
                     "failed": [e.line() for e in errors]})
     else:
         for r in results:
             d = r.as_dict()
             table = [(f"{s['depth_m']:.3f} m", f"{s['equilibrium_temperature_degC']:.4f} °C  "
-                      f"k={s['conductivity_W_m_K']:.4g}±{s['conductivity_se_W_m_K']:.2g} W/(m K)  "
+                      f"k={s['conductivity_W_m_K']:.4g}±{s['conductivity_uncertainty_W_m_K']:.2g} W/(m K) "
+                      f"(fit SE {s['conductivity_se_W_m_K']:.2g})  "
                       f"res {s['residual_mK']:+.2f} mK", "") for s in d["sensors"]]
-            table.append(("heat flow", f"{d['heat_flow_mW_m2']:.2f} ± {d['heat_flow_se_mW_m2']:.2f} (SE)", "mW/m^2"))
-            print_table(table, title=f"{Path(r.record).name} ({r.method})")
+            parts = ", ".join(f"{k} {v:.2g}" for k, v in d["uncertainty_parts_mW_m2"].items())
+            table.append(("heat flow", f"{d['heat_flow_mW_m2']:.2f} ± {d['heat_flow_uncertainty_mW_m2']:.2f} "
+                          f"(total; {parts})", "mW/m^2"))
+            print_table(table, title=f"{Path(r.record).name}{' ' + r.label if r.label else ''} ({r.method})")
+    for st in stations:
+        for line in st.notes:
+            print(f"warning: {line}", file=sys.stderr)
+        for label, why in st.skipped.items():
+            print(f"warning: {Path(st.record).name} ({label}): skipped: {why}", file=sys.stderr)
+    for r in results:  # exclusions and doubts, one line each, on stderr
+        for line in r.warnings + [f"{r.record}: {f}" for f in r.flags]:
+            print(f"warning: {line}", file=sys.stderr)
     if errors:
         raise InputErrors(errors) if len(errors) > 1 else errors[0]
     return 0
