@@ -15,8 +15,15 @@ import numpy as np
 import pytest
 
 from ventflux.errors import InputError
-from ventflux.sensitivity import (GIVEN_DATA, PICK_FREEZE, conditional_width, design_cost, given_data_indices,
-                                  pick_freeze, pick_freeze_design)
+from ventflux.sensitivity import (
+    GIVEN_DATA,
+    PICK_FREEZE,
+    conditional_width,
+    design_cost,
+    given_data_indices,
+    pick_freeze,
+    pick_freeze_design,
+)
 
 A_ISH, B_ISH = 7.0, 0.1
 
@@ -190,7 +197,7 @@ def test_salib_agrees_on_an_orifice_case():
     ref = _salib_sobol(lambda X: power(X[:, 0], X[:, 1], X[:, 2]), problem, 1024, 9)
     rng = np.random.default_rng(23)
     n = 8000
-    draw = lambda: {"T": rng.uniform(300, 360, n), "v": rng.uniform(0.8, 2.0, n), "d": rng.uniform(6, 12, n)}  # noqa: E731
+    draw = lambda: {"T": rng.uniform(300, 360, n), "v": rng.uniform(0.8, 2.0, n), "d": rng.uniform(6, 12, n)}
     X = draw()
     g = given_data_indices(X, power(X["T"], X["v"], X["d"]), seed=5)["output"]
     assert np.all(np.abs(g.first - ref["S1"]) < 2 * np.hypot(g.first_error, ref["S1_conf"] / 1.96) + 0.01)

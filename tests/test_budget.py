@@ -1,0 +1,113 @@
+"""The survey's uncertainty budget: a dominant shared input ranks first; tables, figures, report and CLI."""
+
+import json
+
+import numpy as np
+import pytest
+
+from ventflux.cli import main
+from ventflux.survey import report
+from ventflux.survey.budget import input_draws, label
+from ventflux.survey.run import run_survey
+from ventflux.survey.spec import load_survey
+
+SITE = """
+[site]
+name = "Budget Test"
+depth = "2500 m"
+latitude = 10.0
+longitude = -100.0
+ambient_temperature = "2.0 degC"
+ambient_salinity = 34.6
+
+[run]
+draws = {draws}
+seed = 5
+
+[shared]
+"laser scale" = "1.00 ± 0.12"
+"""
+
+VENT = """
+[[vent]]
+name = "{name}"
+  [[vent.orifice]]
+  temperature = "{T} ± 1 degC"
+  velocity = "{v} ± 0.02 m/s"
+  diameter = "10 ± 0.1 cm"
+  size_factor = "@laser scale"
+"""
+
+
+def _survey(tmp_path, n_vents=4, draws=3000):
+    text = SITE.format(draws=draws) + "".join(VENT.format(name=f"V{i}", T=300 + 10 * i, v=1.0 + 0.1 * i)
+                                              for i in range(n_vents))
+    p = tmp_path / "survey.toml"
+    p.write_text(text, encoding="utf-8")
+    return load_survey(p)
+
+
+def test_a_total_dominated_by_one_shared_input_ranks_it_first(tmp_path):
+    # By construction: every vent's size carries the shared 12 % scale error (power ∝ scale², about 24 %),
+    # while each vent's own velocity and temperature errors are 1–2 %: the shared input owns the total's variance.
+    result = run_survey(_survey(tmp_path))
+    b = result.budget()
+    field = b.indices["field total"]
+    assert field.top(1) == ["shared/laser scale"]
+    i = field.names.index("shared/laser scale")
+    assert field.first[i] > 0.9 and field.first_error[i] < 0.02
+    for v in ("V0", "V1", "V2", "V3"):
+        assert b.indices[f"{v}: orifice"].top(1) == ["shared/laser scale"]
+    # Another vent's velocity has no effect on V0: negligible.
+    v0 = b.indices["V0: orifice"]
+    assert v0.negligible[v0.names.index("V3/orifice[0]/velocity")]
+    # Knowing the scale exactly narrows the total's 5–95 % width by most of it.
+    assert field.width_if_known["shared/laser scale"] < 0.35 * field.width
+    assert len(b.sentences()) == 4 and "'laser scale' (shared)" in b.sentences()[0]
+
+
+def test_input_draws_are_the_run_s_own_draws(tmp_path):
+    from ventflux.survey.budget import _named
+
+    result = run_survey(_survey(tmp_path, n_vents=1, draws=500))
+    X, nominal = input_draws(result.draws, result.keep)
+    named = _named(result.draws)
+    assert set(X) == set(named) and len(X) == 4  # laser scale, T, v, d
+    for name, x in X.items():
+        q = result.draws.draw(name, named[name])  # the run's array for this name
+        assert np.array_equal(x, q.to(named[name].unit).magnitude[result.keep])
+    assert nominal["shared/laser scale"] == pytest.approx(1.0)
+    assert label("shared/laser scale") == "'laser scale' (shared)"
+
+
+def test_results_folder_carries_the_budget(tmp_path):
+    result = run_survey(_survey(tmp_path, n_vents=2, draws=1000))
+    html = report.write_results(result, tmp_path / "out").read_text(encoding="utf-8")
+    out = tmp_path / "out"
+    assert (out / "tables" / "budget.csv").is_file()
+    data = json.loads((out / "budget.json").read_text(encoding="utf-8"))
+    assert data["mode"] == "draws" and len(data["sentences"]) == 2
+    assert {r["result"] for r in data["rows"]} >= {"V0: orifice", "field total"}
+    assert (out / "figures" / "budget_field-total.png").is_file()
+    assert "Uncertainty budget" in html and "V1: measure" in html
+
+
+@pytest.mark.slow
+def test_full_design_agrees_with_the_draws_on_the_dominant_input(tmp_path):
+    result = run_survey(_survey(tmp_path, n_vents=2, draws=1000))
+    given = result.budget()
+    full = result.budget("full", base_draws=400)
+    assert full.evaluations_multiple > 1
+    g, f = given.indices["field total"], full.indices["field total"]
+    assert f.top(1) == g.top(1) == ["shared/laser scale"]
+    i = f.names.index("shared/laser scale")
+    assert abs(f.first[i] - g.first[i]) < 3 * np.hypot(f.first_error[i], g.first_error[i]) + 0.02
+    assert "shared/laser scale" in f.width_if_known
+
+
+def test_cli_budget_off_writes_no_budget(tmp_path, capsys):
+    spec = _survey(tmp_path, n_vents=1, draws=500)
+    assert main(["survey", str(spec.path), "--out", str(tmp_path / "o"), "--budget", "off", "--quiet"]) == 0
+    assert not (tmp_path / "o" / "budget.json").exists()
+    assert main(["survey", str(spec.path), "--out", str(tmp_path / "p"), "--quiet"]) == 0
+    assert (tmp_path / "p" / "budget.json").exists()
