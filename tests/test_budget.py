@@ -111,3 +111,47 @@ def test_cli_budget_off_writes_no_budget(tmp_path, capsys):
     assert not (tmp_path / "o" / "budget.json").exists()
     assert main(["survey", str(spec.path), "--out", str(tmp_path / "p"), "--quiet"]) == 0
     assert (tmp_path / "p" / "budget.json").exists()
+
+
+# ---- single estimates ------------------------------------------------------------------
+def _product_indices(mv, sv, md, sd):
+    """Analytic first-order and total indices of Y = v·d² for independent normal v and d (moments of the normal)."""
+    Ed2, Ed4 = md ** 2 + sd ** 2, md ** 4 + 6 * md ** 2 * sd ** 2 + 3 * sd ** 4
+    Ev2 = mv ** 2 + sv ** 2
+    V = Ev2 * Ed4 - mv ** 2 * Ed2 ** 2
+    Vv, Vd = sv ** 2 * Ed2 ** 2, mv ** 2 * (Ed4 - Ed2 ** 2)
+    return np.array([Vd, Vv]) / V, np.array([V - Vv, V - Vd]) / V  # order: diameter, velocity
+
+
+@pytest.mark.parametrize("mode", ["draws", "full"])
+def test_orifice_budget_matches_the_analytic_product(mode):
+    # With exact temperatures the heat power is ρΔh·(π/4)·v·d², a product of the two uncertain inputs.
+    from ventflux.budget import estimate_budget
+    from ventflux.orifice import orifice_discharge, physical_draws
+    from ventflux.uncertainty import parse_uncertain
+    from ventflux.units import Q_
+
+    inputs = {"temperature": Q_(340.0, "degC"), "velocity": parse_uncertain("1.2 ± 0.2 m/s", "velocity", "v"),
+              "diameter": parse_uncertain("8 ± 0.8 cm", "length", "d"), "pressure": Q_(25.0, "MPa"),
+              "ambient_temperature": Q_(2.0, "degC")}
+    ind = estimate_budget(orifice_discharge, inputs, mode=mode, draws=8000 if mode == "draws" else 4000, seed=3,
+                          valid=physical_draws)
+    S, ST = _product_indices(1.2, 0.2, 8.0, 0.8)
+    assert ind.names == ("diameter", "velocity")
+    assert np.all(np.abs(ind.first - S) < 3 * ind.first_error + 0.01), (ind.first, S, ind.first_error)
+    if mode == "full":
+        assert np.all(np.abs(ind.total - ST) < 3 * ind.total_error + 0.01), (ind.total, ST)
+    else:
+        assert np.all(ind.total + 3 * ind.total_error >= ST)  # the given-data total is an upper bound
+    assert set(ind.width_if_known) == {"diameter", "velocity"}
+
+
+def test_orifice_command_prints_and_returns_the_budget(capsys):
+    args = ["orifice", "--temperature", "340 ± 3 degC", "--velocity", "1.2 ± 0.2 m/s", "--diameter", "8 ± 0.5 cm",
+            "--pressure", "25 MPa", "--ambient-temperature", "2 degC", "--draws", "3000", "--budget"]
+    assert main(args) == 0
+    out = capsys.readouterr().out
+    assert "Uncertainty budget of heat power" in out and "--velocity" in out
+    assert main(args + ["--json"]) == 0
+    rows = json.loads(capsys.readouterr().out)["budget"]
+    assert rows[0]["input"] == "velocity" and rows[0]["rank"] == 1

@@ -435,6 +435,9 @@ def pick_freeze_indices(names, outputs, n: int, *, fixed=(), bootstrap: int = DE
         m = blk.shape[1]
         if m < 20:
             raise InputError(f"output {o}", f"{m} complete design rows", "at least 20")
+        # Centred on the mean of the A and B blocks: the first-order estimator's product f_B·(f_ABi − f_A)
+        # otherwise carries the output's mean and its error grows with mean/spread (SALib centres likewise).
+        blk = blk - blk[:2].mean()
         fA, fB, fAB, fX = blk[0], blk[1], blk[2:2 + k], blk[2 + k:]
         W = _weights(m, bootstrap, seed)
         Wn = W / W.sum(axis=1, keepdims=True)
