@@ -105,8 +105,8 @@ def budget_lines(ind: sensitivity.Indices, labels: dict | None = None) -> list[s
     widths = [max(len(r[j]) for r in rows + [head]) for j in range(4)]
     fmt = "  ".join(f"{{:<{w}}}" if j == 0 else f"{{:>{w}}}" for j, w in enumerate(widths))
     est = "from the estimate's draws" if ind.estimator == sensitivity.GIVEN_DATA else "dedicated design"
-    out = [f"Uncertainty budget of {ind.output.replace('_', ' ')} ({est}, {ind.n} draws; 5-95 % width "
-           f"{ind.width:.4g} {u}; share not explained by single inputs {ind.interaction:.3f})", fmt.format(*head)]
+    out = [(f"Uncertainty budget of {ind.output.replace('_', ' ')} ({est}, {ind.n} draws; 5-95 % width "
+           f"{ind.width:.4g} {u}; share not explained by single inputs {ind.interaction:.3f})"), fmt.format(*head)]
     return out + [fmt.format(*r) for r in rows]
 
 

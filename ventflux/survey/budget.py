@@ -37,6 +37,8 @@ from .. import sensitivity
 from ..errors import InputError
 
 MODES = ("draws", "full", "off")
+#: The budget row of the variance share no single named input explains.
+UNATTRIBUTED = "(interactions and unnamed randomness)"
 #: Inputs per headline figure (a readability choice).
 FIGURE_INPUTS = 10
 #: What-if inputs per result.
@@ -58,8 +60,17 @@ class SurveyBudget:
     notes: list = field(default_factory=list)
 
     def rows(self) -> list[dict]:
-        """Every (result, input) pair, most important input first within each result."""
-        return [r for ind in self.indices.values() for r in ind.rows()]
+        """Every (result, input) pair, most important input first within each result, then the share of the
+        variance no single input explains (interactions, and randomness not drawn under a name)."""
+        out = []
+        for ind in self.indices.values():
+            rows = ind.rows()
+            rest = {k: (np.nan if isinstance(v, float) else None) for k, v in rows[0].items()}
+            rest.update(result=ind.output, input=UNATTRIBUTED, rank=None, first_order=ind.interaction,
+                        first_order_error=ind.interaction_error, draws=ind.n, estimator=ind.estimator,
+                        negligible=bool(ind.interaction <= sensitivity.NEGLIGIBLE * ind.interaction_error))
+            out += rows + [rest]
+        return out
 
     def as_dict(self) -> dict:
         return {"mode": self.mode, "estimator": next(iter(self.indices.values())).estimator if self.indices else "",
@@ -203,8 +214,10 @@ def survey_budget(result, mode: str = "draws", *, bootstrap: int = sensitivity.D
     big = [k for k, v in ind.items() if v.estimator == sensitivity.GIVEN_DATA and v.interaction > 0.1
            and v.interaction > 2 * v.interaction_error]
     if big:
-        notes.append("Interactions between inputs carry more than 10 % of the variance of " + ", ".join(big) +
-                     ": the total effects shown are upper bounds; '--budget full' estimates them exactly.")
+        notes.append("More than 10 % of the variance of " + ", ".join(big) + " is not explained by any single "
+                     "input: interactions between inputs, or randomness not drawn as a named input (such as the "
+                     "resampling of the sampled diffuse patches when they are scaled up to the mapped areas). The "
+                     "total effects shown are upper bounds; '--budget full' separates interactions exactly.")
     out = SurveyBudget(mode=mode, indices=ind, headline=head, vents=vents,
                        inputs={k: str(v) for k, v in named.items()}, elapsed=time.perf_counter() - t0,
                        run_elapsed=float(result.elapsed), evaluations_multiple=multiple, notes=notes)
@@ -323,6 +336,10 @@ def summary_rows(budget: SurveyBudget) -> list[dict]:
     rows = []
     for key, ind in budget.indices.items():
         tag = f" [{ind.unit}]" if ind.unit else ""
+        if ind.interaction > sensitivity.NEGLIGIBLE * ind.interaction_error:
+            rows.append({"result": key, "input": UNATTRIBUTED, "first_order": ind.interaction,
+                         "±": ind.interaction_error, "total_effect": np.nan, "± ": np.nan,
+                         f"width_p05_p95{tag}": ind.width, f"width_if_known{tag}": np.nan})
         for nm in ind.top(WHATIF_INPUTS):
             i = ind.names.index(nm)
             rows.append({"result": key, "input": label(nm).strip("'"), "first_order": ind.first[i],
@@ -347,6 +364,9 @@ def write_budget(result, out_dir, images_html) -> str:
     mode = getattr(result, "budget_mode", "draws")
     if mode == "off" or result.draws is None:
         return ""
+    if not _named(result.draws):
+        return ("<h2>Uncertainty budget</h2><p>Every input of this survey is exact: there is no variance to "
+                "attribute to an input.</p>")
     b = survey_budget(result, mode)
     pd.DataFrame(b.rows()).to_csv(out_dir / "tables" / "budget.csv", index=False)
     from ..cli.output import _clean
