@@ -60,7 +60,7 @@ def ours(n, resamples, seed):
     from ventflux.sensitivity import pick_freeze
 
     rng = np.random.default_rng(seed)
-    draw = lambda: {k: rng.uniform(a, b, n) for k, (a, b) in BOUNDS.items()}  # noqa: E731
+    draw = lambda: {k: rng.uniform(a, b, n) for k, (a, b) in BOUNDS.items()}
     res = pick_freeze(lambda d: power(d["T"], d["v"], d["d"]), draw(), draw(), bootstrap=resamples, seed=seed)
     return res["output"]
 
