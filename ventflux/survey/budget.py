@@ -65,7 +65,7 @@ class SurveyBudget:
         out = []
         for ind in self.indices.values():
             rows = ind.rows()
-            rest = {k: (np.nan if isinstance(v, float) else None) for k, v in rows[0].items()}
+            rest: dict = {k: (np.nan if isinstance(v, float) else None) for k, v in rows[0].items()}
             rest.update(result=ind.output, input=UNATTRIBUTED, rank=None, first_order=ind.interaction,
                         first_order_error=ind.interaction_error, draws=ind.n, estimator=ind.estimator,
                         negligible=bool(ind.interaction <= sensitivity.NEGLIGIBLE * ind.interaction_error))
