@@ -88,6 +88,9 @@ def test_results_folder_carries_the_budget(tmp_path):
     data = json.loads((out / "budget.json").read_text(encoding="utf-8"))
     assert data["mode"] == "draws" and len(data["sentences"]) == 2
     assert {r["result"] for r in data["rows"]} >= {"V0: orifice", "field total"}
+    assert "width_if_known_MW" in data["rows"][0] and "(interactions and unnamed randomness)" in \
+        {r["input"] for r in data["rows"]}
+    assert "width_if_known [MW]" in (out / "tables" / "budget.csv").read_text(encoding="utf-8").splitlines()[0]
     assert (out / "figures" / "budget_field-total.png").is_file()
     assert "Uncertainty budget" in html and "V1: measure" in html
 

@@ -77,7 +77,8 @@ class SurveyBudget:
                 "cost": {"budget_s": self.elapsed, "run_s": self.run_elapsed,
                          "fraction_of_run": self.elapsed / self.run_elapsed if self.run_elapsed else None,
                          "evaluations_multiple": self.evaluations_multiple},
-                "inputs": self.inputs, "sentences": self.sentences(), "notes": self.notes, "rows": self.rows()}
+                "inputs": self.inputs, "sentences": self.sentences(), "notes": self.notes,
+                "rows": [{_json_key(k): v for k, v in r.items()} for r in self.rows()]}
 
     def sentences(self) -> list[str]:
         """One sentence per vent: which input to measure better, and what knowing it would buy."""
@@ -98,6 +99,14 @@ class SurveyBudget:
                        f"{ind.first_error[i]:.0%} of the variance of the heat power on its own "
                        f"(total effect {ind.total[i]:.0%}){what}.")
         return out
+
+
+def _json_key(column: str) -> str:
+    """``'width_if_known [MW]'`` → ``'width_if_known_MW'``: units in JSON keys as in ``summary.json``."""
+    from ..uncertainty import unit_tag
+
+    name, _, unit = column.partition(" [")
+    return f"{name}_{unit_tag(unit.rstrip(']'))}" if unit else name
 
 
 def label(name: str) -> str:
