@@ -254,8 +254,13 @@ def _full(result, given, named, nominal, bootstrap, base_draws, units, progress)
     Y, _, _, _ = result_draws(again, full_length=True)
     ind = sensitivity.pick_freeze_indices(names, Y, n_base, fixed=list(fixed), bootstrap=bootstrap,
                                           seed=result.spec.seed, units=units)
-    notes = [(f"Dedicated design: {design.n_draws} evaluations ({multiple:.3g} times the run's draws); "
-             f"{n_base - min(v.n for v in ind.values())} design rows dropped where a draw was unphysical.")]
+    for o, v in ind.items():  # what-if inputs outside the design's blocks keep their estimate from the draws
+        for nm, w in given[o].width_if_known.items():
+            v.width_if_known.setdefault(nm, w)
+    dropped = n_base - min(v.n for v in ind.values())
+    notes = [(f"Dedicated design: {design.n_draws} evaluations ({multiple:.3g} times the run's draws); {dropped} "
+             "design rows dropped where a draw was unphysical. What-if widths from the design for "
+             f"{', '.join(label(t) for t in fixed)}; from the run's draws for other inputs.")]
     return ind, multiple, notes
 
 
