@@ -250,7 +250,11 @@ def _full(result, given, named, nominal, bootstrap, base_draws, units, progress)
     progress(f"uncertainty budget, dedicated design: {design.n_draws} draws "
              f"({sensitivity.design_cost(len(names), len(fixed))} blocks of {n_base}; "
              f"{multiple:.3g} times the run's draws)")
-    again = run_survey(spec, progress=progress, draws=design)
+    try:
+        again = run_survey(spec, progress=progress, draws=design)
+    except InputError as e:  # a section that refuses a rare draw instead of dropping it meets more draws here
+        raise InputError(e.field, e.value, e.allowed + f" (met in the dedicated design's {design.n_draws} draws; "
+                         "'--budget draws' needs no new draws)", e.where) from None
     Y, _, _, _ = result_draws(again, full_length=True)
     ind = sensitivity.pick_freeze_indices(names, Y, n_base, fixed=list(fixed), bootstrap=bootstrap,
                                           seed=result.spec.seed, units=units)
