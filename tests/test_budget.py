@@ -63,7 +63,8 @@ def test_a_total_dominated_by_one_shared_input_ranks_it_first(tmp_path):
     assert v0.negligible[v0.names.index("V3/orifice[0]/velocity")]
     # Knowing the scale exactly narrows the total's 5–95 % width by most of it.
     assert field.width_if_known["shared/laser scale"] < 0.35 * field.width
-    assert len(b.sentences()) == 4 and "'laser scale' (shared)" in b.sentences()[0]
+    assert len(b.sentences()) == 5 and "'laser scale' (shared)" in b.sentences()[0]  # 4 vents and the field
+    assert b.sentences()[-1].startswith("Field total: measure 'laser scale' (shared) better")
 
 
 def test_input_draws_are_the_run_s_own_draws(tmp_path):
@@ -86,7 +87,7 @@ def test_results_folder_carries_the_budget(tmp_path):
     out = tmp_path / "out"
     assert (out / "tables" / "budget.csv").is_file()
     data = json.loads((out / "budget.json").read_text(encoding="utf-8"))
-    assert data["mode"] == "draws" and len(data["sentences"]) == 2
+    assert data["mode"] == "draws" and len(data["sentences"]) == 3
     assert {r["result"] for r in data["rows"]} >= {"V0: orifice", "field total"}
     assert "width_if_known_MW" in data["rows"][0] and "(interactions and unnamed randomness)" in \
         {r["input"] for r in data["rows"]}

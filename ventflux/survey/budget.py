@@ -81,24 +81,35 @@ class SurveyBudget:
                 "rows": [{_json_key(k): v for k, v in r.items()} for r in self.rows()]}
 
     def sentences(self) -> list[str]:
-        """One sentence per vent: which input to measure better, and what knowing it would buy."""
-        out = []
-        for vent, key in self.vents.items():
-            ind = self.indices[key]
-            top = ind.top(1)
-            if not top:
-                out.append(f"{vent}: no single input stands out above its estimation error; every input "
-                           "contributes a small share.")
-                continue
-            i = ind.names.index(top[0])
-            u = f" {ind.unit}" if ind.unit else ""
-            what = (f"; known exactly, the 5–95 % width of {ind.width:.3g}{u} would shrink to "
-                    f"{ind.width_if_known[top[0]]:.3g}{u}") if np.isfinite(ind.width_if_known.get(top[0], np.nan)) \
-                else ""
-            out.append(f"{vent}: measure {label(top[0])} better: it carries {ind.first[i]:.0%} ± "
-                       f"{ind.first_error[i]:.0%} of the variance of the heat power on its own "
-                       f"(total effect {ind.total[i]:.0%}){what}.")
+        """One sentence per vent (which input to measure better, and what knowing it would buy), then the field."""
+        out = [self._sentence(vent, self.indices[key], "the heat power") for vent, key in self.vents.items()]
+        if "field total" in self.indices:
+            out.append(self._sentence("Field total", self.indices["field total"], "the field's total heat output"))
         return out
+
+    @staticmethod
+    def _sentence(who: str, ind, what: str) -> str:
+        top = ind.top(1)
+        rest = ""
+        if ind.interaction > 0.1 and ind.interaction > sensitivity.NEGLIGIBLE * ind.interaction_error:
+            rest = (f" {ind.interaction:.0%} of the variance is explained by no single input (interactions, or "
+                    "randomness drawn without a name such as the resampling of sampled diffuse patches).")
+        if not top:
+            return f"{who}: no single input stands out above its estimation error." + rest
+        i = ind.names.index(top[0])
+        u = f" {ind.unit}" if ind.unit else ""
+        w = ind.width_if_known.get(top[0], np.nan)
+        gain = (f"; known exactly, the 5–95 % width of {ind.width:.3g}{u} would shrink to {w:.3g}{u}"
+                if np.isfinite(w) else "")
+        verb = "narrow the range of" if top[0].startswith("constants/") else "measure"
+        better = "" if top[0].startswith("constants/") else " better"
+        return (f"{who}: {verb} {label(top[0])}{better}: it carries {ind.first[i]:.0%} ± {_pct(ind.first_error[i])} "
+                f"of the variance of {what} on its own (total effect "
+                f"{'at most ' if ind.estimator == sensitivity.GIVEN_DATA else ''}{ind.total[i]:.0%}){gain}." + rest)
+
+
+def _pct(x: float) -> str:
+    return f"{x:.1%}" if abs(x) < 0.01 else f"{x:.0%}"
 
 
 def _json_key(column: str) -> str:
@@ -109,13 +120,15 @@ def _json_key(column: str) -> str:
     return f"{name}_{unit_tag(unit.rstrip(']'))}" if unit else name
 
 
-def label(name: str) -> str:
+def label(name: str, quote: str = "'") -> str:
     """An input's name as the user wrote it: shared inputs by their ``[shared]`` name."""
     if name.startswith("shared/"):
-        return f"'{name[7:]}' (shared)"
+        return f"{quote}{name[7:]}{quote} (shared)"
     if name.startswith("site/"):
         return "the site's " + name[5:]
-    return f"'{name}'"
+    if name.startswith("constants/"):
+        return f"the {name[10:]} (a model constant)"
+    return f"{quote}{name}{quote}"
 
 
 def _named(draws):
@@ -327,14 +340,20 @@ def figures(budget: SurveyBudget) -> list:
         ind = budget.indices[key]
         order = ind.order()[:FIGURE_INPUTS]
         neg = ind.negligible[order]
-        labels = [label(ind.names[i]).strip("'") + (" (negligible)" if g else "") for i, g in zip(order, neg)]
-        y = np.arange(order.size)
-        fig, ax = plt.subplots(figsize=(7.5, 1.2 + 0.38 * order.size))
-        ax.barh(y - 0.2, ind.first[order], 0.4, xerr=ind.first_error[order], color="C0", label="first order",
-                capsize=2)
-        ax.barh(y + 0.2, ind.total[order], 0.4, xerr=ind.total_error[order], color="C1",
-                label="total effect" + (" (upper bound)" if ind.estimator == sensitivity.GIVEN_DATA else ""),
-                capsize=2)
+        labels = [label(ind.names[i], "") + (" (negligible)" if g else "") for i, g in zip(order, neg)]
+        design = ind.estimator == sensitivity.PICK_FREEZE
+        if not design:  # totals from the draws are only bounds (first order + the unattributed share): one bar
+            labels.append("not explained by any single input")
+        y = np.arange(len(labels))
+        fig, ax = plt.subplots(figsize=(7.5, 1.2 + 0.38 * len(labels)))
+        ax.barh(y[:order.size] - (0.2 if design else 0), ind.first[order], 0.4, xerr=ind.first_error[order],
+                color="C0", label="first order", capsize=2)
+        if design:
+            ax.barh(y + 0.2, ind.total[order], 0.4, xerr=ind.total_error[order], color="C1", label="total effect",
+                    capsize=2)
+        else:
+            ax.barh(y[-1:], [max(ind.interaction, 0.0)], 0.4, xerr=[ind.interaction_error], color="0.6", capsize=2,
+                    label="interactions and unnamed randomness")
         ax.set_yticks(y, labels, fontsize=8)
         ax.invert_yaxis()
         ax.set_xlim(0, 1.05)
@@ -360,7 +379,7 @@ def summary_rows(budget: SurveyBudget) -> list[dict]:
                          f"width_p05_p95{tag}": ind.width, f"width_if_known{tag}": np.nan})
         for nm in ind.top(WHATIF_INPUTS):
             i = ind.names.index(nm)
-            rows.append({"result": key, "input": label(nm).strip("'"), "first_order": ind.first[i],
+            rows.append({"result": key, "input": label(nm, ""), "first_order": ind.first[i],
                          "±": ind.first_error[i], "total_effect": ind.total[i], "± ": ind.total_error[i],
                          f"width_p05_p95{tag}": ind.width,
                          f"width_if_known{tag}": ind.width_if_known.get(nm, np.nan)})
@@ -413,7 +432,7 @@ def write_budget(result, out_dir, images_html) -> str:
         (out_dir / "figures" / f"{stem}.png").write_bytes(buf.getvalue())
         parts.append(images_html(stem, caption, buf.getvalue()))
     parts.append("<p>Uncertain inputs and their distributions: " +
-                 esc("; ".join(f"{label(k).strip(chr(39))} = {v}" for k, v in b.inputs.items())) + ".</p>")
+                 esc("; ".join(f"{label(k, '')} = {v}" for k, v in b.inputs.items())) + ".</p>")
     return "\n".join(parts)
 
 
