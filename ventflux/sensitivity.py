@@ -138,10 +138,19 @@ class Indices:
         """Input positions from most to least important (first order, then total)."""
         return np.lexsort((-self.total, -self.first))
 
+    @property
+    def significant(self) -> np.ndarray:
+        """Inputs with a first-order index above ``NEGLIGIBLE`` standard errors, or (from a dedicated design)
+        a total effect above them; a total from existing draws is only a bound and does not count."""
+        out = self.first > NEGLIGIBLE * self.first_error
+        if self.estimator == PICK_FREEZE:
+            out |= self.total > NEGLIGIBLE * self.total_error
+        return out
+
     def top(self, k: int = 3) -> list[str]:
-        """The ``k`` most important inputs that are not negligible."""
-        neg = self.negligible
-        return [self.names[i] for i in self.order() if not neg[i]][:k]
+        """The ``k`` most important inputs that are significant (see ``significant``)."""
+        sig = self.significant
+        return [self.names[i] for i in self.order() if sig[i]][:k]
 
     def rows(self) -> list[dict]:
         """One row per input, most important first (CSV/JSON table rows, units in the keys)."""
@@ -306,8 +315,9 @@ def _bin_sums(Xs, Z, cols, WT, tail, M, c, nb, r, sums, first):
         for m in range(M):  # per-bin 2-D products: BLAS (numpy's stacked matmul is far slower here)
             np.matmul(Wb[m], Cb[m], out=sums[m])
         cnt = Wb.sum(axis=2, dtype=np.float64).T  # (nb, M)
+        cnt2 = np.einsum("mbc,mbc->bm", Wb, Wb, dtype=np.float64)  # Σw² per bin: duplicated draws add no information
         s64 = sums.astype(np.float64).transpose(1, 2, 0)  # (nb, 2 + 3r, M)
-        first[i] = _bin_index(cnt, s64[:, 0], s64[:, 1], s64[:, 2:2 + r], s64[:, 2 + r:2 + 2 * r],
+        first[i] = _bin_index(cnt, cnt2, s64[:, 0], s64[:, 1], s64[:, 2:2 + r], s64[:, 2 + r:2 + 2 * r],
                               s64[:, 2 + 2 * r:])
 
 
@@ -316,18 +326,21 @@ def _standardized(A):
     return np.where(sd > 0, (A - mu) / np.where(sd > 0, sd, 1.0), 0.0)
 
 
-def _bin_index(cnt, sx, sxx, sy, syy, sxy):
+def _bin_index(cnt, cnt2, sx, sxx, sy, syy, sxy):
     """First-order index per replicate from weighted bin sums: local-linear bin means, noise-corrected.
 
-    ``cnt``, ``sx``, ``sxx``: (nb, M); ``sy``, ``syy``, ``sxy``: (nb, r, M). Within each bin the
-    conditional mean is a straight line in ``x`` (two parameters), which removes the first-order
-    discretization bias of flat bin means (wide tail bins of a normal input). The explained sum of
-    squares of the lines about the overall mean, less the two parameters' share of the bin's residual
-    noise, over the total sum of squares, is the index.
+    ``cnt``, ``cnt2`` (sums of weights and of squared weights), ``sx``, ``sxx``: (nb, M); ``sy``,
+    ``syy``, ``sxy``: (nb, r, M). Within each bin the conditional mean is a straight line in ``x`` (two
+    parameters), which removes the first-order discretization bias of flat bin means (wide tail bins
+    of a normal input). The explained sum of squares of the lines about the overall mean, less the
+    share of it that the bin's residual noise explains (two parameters), over the total sum of squares,
+    is the index. A bootstrap replicate repeats draws (weights 2, 3, …): noise then explains
+    ``Σw²/Σw`` times more, and the correction scales accordingly, so replicates stay unbiased.
     """
     N = cnt.sum(axis=1)[:, None]  # (nb, 1)
     with np.errstate(invalid="ignore", divide="ignore"):
         nb_ = cnt[:, None, :]
+        rep = np.where(cnt > 0, cnt2 / np.where(cnt > 0, cnt, 1.0), 1.0)[:, None, :]  # 1 for unit weights
         safe = np.where(nb_ > 0, nb_, 1.0)
         my = sy / safe
         ybar = sy.sum(axis=2) / N  # (nb, r)
@@ -337,7 +350,8 @@ def _bin_index(cnt, sx, sxx, sy, syy, sxy):
         beta = np.where(cxx > 1e-12 * np.maximum(sxx[:, None, :], 1e-30), cxy / np.where(cxx > 0, cxx, 1.0), 0.0)
         explained = nb_ * (my - ybar[:, :, None]) ** 2 + beta * cxy
         resid = syy - nb_ * my ** 2 - beta * cxy
-        noise = np.where(nb_ > 2, 2 * resid / np.maximum(nb_ - 2, 1), 0.0)
+        dof = nb_ - 2 * rep
+        noise = np.where(dof > 0, 2 * rep * resid / np.where(dof > 0, dof, 1.0), 0.0)
         S = np.where(sst > 0, (explained.sum(axis=2) - noise.sum(axis=2)) / sst, 0.0)
     return S.T  # (r, nb)
 

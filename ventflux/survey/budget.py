@@ -369,20 +369,17 @@ def figures(budget: SurveyBudget) -> list:
 
 
 def summary_rows(budget: SurveyBudget) -> list[dict]:
-    """The headline results' top inputs (for the report's table)."""
+    """Each result's most important inputs and its unattributed share, if significant (the report's table)."""
     rows = []
     for key, ind in budget.indices.items():
-        tag = f" [{ind.unit}]" if ind.unit else ""
+        entries = [(label(nm, ""), ind.first[i], ind.first_error[i], ind.total[i], ind.total_error[i],
+                    ind.width_if_known.get(nm, np.nan))
+                   for nm in ind.top(WHATIF_INPUTS) for i in [ind.names.index(nm)]]
         if ind.interaction > sensitivity.NEGLIGIBLE * ind.interaction_error:
-            rows.append({"result": key, "input": UNATTRIBUTED, "first_order": ind.interaction,
-                         "±": ind.interaction_error, "total_effect": np.nan, "± ": np.nan,
-                         f"width_p05_p95{tag}": ind.width, f"width_if_known{tag}": np.nan})
-        for nm in ind.top(WHATIF_INPUTS):
-            i = ind.names.index(nm)
-            rows.append({"result": key, "input": label(nm, ""), "first_order": ind.first[i],
-                         "±": ind.first_error[i], "total_effect": ind.total[i], "± ": ind.total_error[i],
-                         f"width_p05_p95{tag}": ind.width,
-                         f"width_if_known{tag}": ind.width_if_known.get(nm, np.nan)})
+            entries.append((UNATTRIBUTED, ind.interaction, ind.interaction_error, np.nan, np.nan, np.nan))
+        rows += [{"result": key, "input": who, "first order": s1, "±": e1, "total effect": st, "± ": et,
+                  "5–95 % width": ind.width, "width if known": w, "unit": ind.unit}
+                 for who, s1, e1, st, et, w in entries]
     return rows
 
 
