@@ -359,7 +359,7 @@ def figures(budget: SurveyBudget) -> list:
         ax.set_xlim(0, 1.05)
         ax.set_xlabel("share of the variance")
         ax.set_title(f"Uncertainty budget: {key}", fontsize=10)
-        ax.legend(fontsize=8, loc="lower right")
+        ax.legend(fontsize=8, loc="best")
         ax.grid(axis="x", alpha=0.3)
         fig.tight_layout()
         stem = "budget_" + "".join(ch if ch.isalnum() else "-" for ch in key.lower()).strip("-")
