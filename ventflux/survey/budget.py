@@ -5,6 +5,10 @@ power, the focused, diffuse and conductive totals, the field total and the
 diffuse fraction. Inputs: every uncertain input of the run by the name it was
 drawn under (a key path such as ``Gildhorn/orifice[0]/velocity``, a shared
 name from ``[shared]``, the site's ambient temperature, a model constant).
+A vent's results are budgeted over its own inputs (``<vent>/…``) and the
+field-wide ones (``shared/``, ``site/``, ``constants/``): another vent's or
+a section's inputs never enter its estimate (their indices are zero by
+construction) and are left out; the field-wide results take every input.
 
 Two modes (``ventflux survey --budget``):
 
@@ -200,6 +204,27 @@ def result_draws(result, full_length: bool = False) -> tuple[dict, dict, list, d
     return Y, units, head, vents
 
 
+FIELD_WIDE = ("shared/", "site/", "constants/")
+
+
+def _groups(Y: dict, vents: list) -> dict:
+    """Results by the vent they belong to (``None``: field-wide results)."""
+    out: dict = {}
+    for o in Y:
+        owner = next((v for v in vents if o.startswith(f"{v}: ")), None)
+        out.setdefault(owner, []).append(o)
+    return out
+
+
+def _affects(name: str, vent) -> bool:
+    """Whether an input can affect a vent's results: its own inputs (``<vent>/…``) and the field-wide ones.
+
+    Inputs of other vents and of field sections are drawn under their own key paths and never enter
+    another vent's estimate: their indices are zero by construction, so they are left out.
+    """
+    return vent is None or name.startswith(f"{vent}/") or name.startswith(FIELD_WIDE)
+
+
 def survey_budget(result, mode: str = "draws", *, bootstrap: int = sensitivity.DEFAULT_BOOTSTRAP,
                   base_draws: int | None = None, progress=lambda msg: None) -> SurveyBudget:
     """The uncertainty budget of a finished survey run (see the module notes for the modes).
@@ -227,8 +252,13 @@ def survey_budget(result, mode: str = "draws", *, bootstrap: int = sensitivity.D
     if not X:
         raise InputError("survey", str(result.spec.path), "at least one uncertain input for an uncertainty budget")
     progress(f"uncertainty budget from the run's draws ({len(X)} inputs, {len(Y)} results)")
-    ind = sensitivity.given_data_indices(X, Y, bootstrap=bootstrap, seed=result.spec.seed, units=units,
-                                         nominal=nominal, whatif=WHATIF_INPUTS)
+    ind = {}
+    for group, outputs in _groups(Y, [vr.name for vr in result.vents]).items():
+        keys = [k for k in X if _affects(k, group)] or list(X)
+        ind.update(sensitivity.given_data_indices({k: X[k] for k in keys}, {o: Y[o] for o in outputs},
+                                                  bootstrap=bootstrap, seed=result.spec.seed, units=units,
+                                                  nominal=nominal, whatif=WHATIF_INPUTS))
+    ind = {o: ind[o] for o in Y}
     multiple = 0.0
     if mode == "full":
         ind, multiple, more = _full(result, ind, named, nominal, bootstrap, base_draws, units, progress)
