@@ -91,8 +91,8 @@ def design_versus_salib(n, resamples, repeats):
     print(f"  ventflux pick-freeze {to:.2f} s, SALib Saltelli sampling + Sobol' analysis {ts:.2f} s: "
           f"ratio {ts / to:.2f} (SALib / ventflux)")
     for i, nm in enumerate(BOUNDS):
-        print(f"  {nm}: S1 {a.first[i]:.3f} ± {a.first_error[i]:.3f} vs {b['S1'][i]:.3f} ± {b['S1_conf'][i] / 1.96:.3f};"
-              f"  ST {a.total[i]:.3f} ± {a.total_error[i]:.3f} vs {b['ST'][i]:.3f} ± {b['ST_conf'][i] / 1.96:.3f}")
+        print(f"  {nm}: S1 {a.first[i]:.4f} ± {a.first_error[i]:.4f} vs {b['S1'][i]:.4f} ± {b['S1_conf'][i] / 1.96:.4f};"
+              f"  ST {a.total[i]:.4f} ± {a.total_error[i]:.4f} vs {b['ST'][i]:.4f} ± {b['ST_conf'][i] / 1.96:.4f}")
 
 
 if __name__ == "__main__":
