@@ -151,10 +151,11 @@ def input_draws(draws, keep=None) -> tuple[dict, dict]:
     """
     named = _named(draws)
     shared = getattr(draws, "_shared", {})
+    samples = getattr(draws, "samples", None)  # a driver that hands out any input's draws by name
     X, nominal = {}, {}
     for k, u in named.items():
-        q = shared.get(k)
-        if q is None:
+        q = samples(k) if callable(samples) else shared.get(k)
+        if q is None:  # per-item inputs are not kept; each name's own stream gives them again, exactly
             q = u.sample(draws.n_draws, draws._rng(k))
         x = np.asarray(q.to(u.unit).magnitude, float)
         X[k] = x[keep] if keep is not None else x
