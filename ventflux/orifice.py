@@ -177,7 +177,7 @@ def mean_exit_velocity(velocity, kind: str = "area-mean", profile_factor: float 
         raise InputError("velocity kind", kind, "one of " + ", ".join(VELOCITY_KINDS))
     if kind == "area-mean":
         return v
-    if not 0 < profile_factor <= 1:
+    if not np.all((np.asarray(profile_factor) > 0) & (np.asarray(profile_factor) <= 1)):  # a value or its draws
         raise InputError("profile factor", profile_factor, "a ratio of mean to centreline velocity in (0, 1]")
     return v * profile_factor
 

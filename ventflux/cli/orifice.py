@@ -8,6 +8,7 @@ from ..errors import Collector, InputError
 from ..orifice import DEFAULT_AMBIENT_SALINITY
 from ..registry import Command, Method
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
+from .budget import add_budget, add_budget_option, print_budget
 from .output import add_output_options, print_json
 
 # (attribute, unit shown, label) of the readable table.
@@ -61,6 +62,7 @@ def configure(p):
     m.add_argument("--draws", type=int, default=None, metavar="N",
                    help=f"Monte Carlo draws (default {DEFAULT_DRAWS} when any input carries an uncertainty)")
     m.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+    add_budget_option(m)
     add_output_options(p)
 
 
@@ -135,7 +137,7 @@ _FLAGS = {"--temperature", "--velocity", "--diameter", "--area", "--minor-diamet
 
 
 def _run(args) -> int:
-    from ..orifice import orifice_discharge, orifice_discharge_uncertain
+    from ..orifice import orifice_discharge, orifice_discharge_uncertain, physical_draws
 
     vals = _inputs(args)
     uncertain = any(isinstance(v, Uncertain) for v in vals.values())
@@ -148,10 +150,12 @@ def _run(args) -> int:
         result, summaries = orifice_discharge(**vals), {}
         payload = result.as_dict()
     payload["fluid_model"] = args.fluid
+    budget = add_budget(args, payload, orifice_discharge, vals, physical_draws)  # --budget (ventflux.cli.budget)
     if args.json:
         print_json(payload)
         return 0
     _print_readable(result, summaries, draws, args.seed)
+    print_budget(budget)
     return 0
 
 

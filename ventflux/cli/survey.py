@@ -41,6 +41,10 @@ def configure(p):
     p.add_argument("--draws", type=int, default=None, metavar="N", help="override the file's Monte Carlo draws")
     p.add_argument("--seed", type=int, default=None, help="override the file's random seed")
     p.add_argument("--quiet", action="store_true", help="no progress messages")
+    p.add_argument("--budget", choices=("draws", "full", "off"), default="draws",
+                   help="uncertainty budget: which input owns the variance of each result, from the run's own draws "
+                        "(default), from a dedicated design (full: costs about (inputs + 2 + 6) / 10 times the run) "
+                        "or none")
     add_output_options(p)
 
 
@@ -90,6 +94,7 @@ def run(args) -> int:
             print(f"ventflux survey: {msg}", file=sys.stderr, flush=True)
 
     result = run_survey(spec, progress=progress)
+    result.budget_mode = args.budget  # the uncertainty budget written with the results (ventflux.survey.budget)
     progress("writing tables, figures and the report")
     path = report.write_results(result, out)
     if args.json:

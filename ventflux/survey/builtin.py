@@ -14,9 +14,17 @@ from __future__ import annotations
 import numpy as np
 
 from ..orifice import (CENTERLINE_PROFILE_FACTOR, VELOCITY_KINDS, orifice_discharge, physical_draws)
+from ..uncertainty import Uncertain
 from ..units import Q_
 from .api import MethodEstimate, SectionEstimate, SurveyMethod, SurveySection
 from .fields import as_float, nominal_of, resolve
+
+#: The mean/centreline velocity ratio of a fully turbulent jet exit, a range rather than a constant: power-law
+#: profiles u ∝ (1 − r/R)^(1/m) with m from 6 to 10 (Schlichting, Boundary-Layer Theory; from memory) give
+#: 2m²/((m + 1)(2m + 1)) = 0.79–0.87. Centred on the 1/7-law value 49/60 with a standard deviation of 0.025
+#: (±2 sd spans the range; a choice). Drawn once per draw for every orifice that gives no profile factor.
+PROFILE_FACTOR_UNCERTAIN = Uncertain("normal", CENTERLINE_PROFILE_FACTOR, 0.025, "dimensionless")
+PROFILE_FACTOR_NAME = "constants/velocity profile factor"
 
 _ORIFICE_KEYS = (("temperature", "temperature"), ("velocity", "velocity"), ("diameter", "length"),
                  ("minor_diameter", "length"), ("area", "area"))
@@ -38,7 +46,8 @@ def _parse_orifice(f, ctx):
     _check_exit_temperature(f, spec["temperature"], ctx.site)
     spec["profile_factor"] = f.quantity("profile_factor", "dimensionless", positive=True)
     if spec["velocity_kind"] == "centerline" and spec["profile_factor"] is None:
-        f.defaults[f.key("profile_factor")] = f"{CENTERLINE_PROFILE_FACTOR:.4f} (1/7-power-law turbulent profile)"
+        f.defaults[f.key("profile_factor")] = (f"{PROFILE_FACTOR_UNCERTAIN} (1/7-power-law turbulent profile "
+                                               f"{CENTERLINE_PROFILE_FACTOR:.4f}; 1/6 to 1/10 laws span 0.79–0.87)")
     f.check_unknown()
     return spec
 
@@ -85,6 +94,9 @@ def _estimate_orifices(specs, vent, ctx):
             if np.ndim(q.magnitude) == 1:
                 drawn[key] = q
             exact[key] = nominal_of(v)
+        if spec["velocity_kind"] == "centerline" and spec.get("profile_factor") is None:  # a constant known as a range
+            drawn["profile_factor"] = ctx.draws.draw(PROFILE_FACTOR_NAME, PROFILE_FACTOR_UNCERTAIN)
+            exact["profile_factor"] = PROFILE_FACTOR_UNCERTAIN.nominal
         _apply_calibration(spec, drawn, exact, vent, i, ctx.draws)
         if np.ndim(ctx.ambient_temperature.magnitude) == 1:
             drawn["ambient_temperature"] = ctx.ambient_temperature

@@ -5,16 +5,25 @@ uncertainty, if given as a shared ``stratification_scale``, is drawn once per
 draw for all of them) or a constant buoyancy frequency. The entrainment
 coefficient is a model constant, the same for every plume of the field;
 give it as a shared value (``"@entrainment"``) to carry its uncertainty
-coherently.
+coherently. Left out, it is the uncertain constant ``ENTRAINMENT_UNCERTAIN``,
+drawn once per draw for every plume under ``constants/entrainment coefficient``.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
+from ..uncertainty import Uncertain
 from ..units import Q_
 from .api import MethodEstimate, SurveyMethod
 from .fields import as_float, nominal_of, resolve
+
+#: The top-hat entrainment coefficient as the literature gives it, a range: published Gaussian values of pure
+#: plumes span about 0.08–0.12 (e.g. Morton, Taylor & Turner 1956: 0.093; Papanicolaou & List 1988: 0.105;
+#: values from memory), ×√2 for top hat ≈ 0.11–0.17. Centred on the default (0.093√2 ≈ 0.1315) with a standard
+#: deviation of 0.015 so that ±2 sd spans that range (a choice). Used when a plume gives no entrainment.
+ENTRAINMENT_UNCERTAIN = Uncertain("normal", 0.093 * np.sqrt(2.0), 0.015, "dimensionless")
+ENTRAINMENT_NAME = "constants/entrainment coefficient"
 
 
 def _parse(f, ctx):
@@ -30,7 +39,8 @@ def _parse(f, ctx):
         "stratification_scale": f.quantity("stratification_scale", "dimensionless", positive=True),
     }
     if spec["entrainment"] is None and "entrainment" not in f.table:
-        f.defaults[f.key("entrainment")] = f"{DEFAULT_ENTRAINMENT} (top-hat; Morton, Taylor & Turner 1956)"
+        f.defaults[f.key("entrainment")] = (f"{ENTRAINMENT_UNCERTAIN} (top-hat, about {DEFAULT_ENTRAINMENT:.4f}; "
+                                            "Morton, Taylor & Turner 1956; the spread of published values)")
     site = ctx.site
     if site is not None and site.ctd is None and spec["buoyancy_frequency"] is None and "buoyancy_frequency" \
             not in f.table:
@@ -53,7 +63,9 @@ def _estimate(spec, vent, ctx):
         return q
 
     z = drawn("height")
-    alpha = drawn("entrainment", Q_(DEFAULT_ENTRAINMENT, "dimensionless"))
+    alpha = drawn("entrainment", None)
+    if alpha is None:  # a constant known only as a range: one draw per draw for every plume of the field
+        alpha = ctx.draws.draw(ENTRAINMENT_NAME, ENTRAINMENT_UNCERTAIN)
     kwargs = dict(level=spec["level"], method=spec["method"], pressure=ctx.pressure,
                   latitude=ctx.site.latitude, longitude=ctx.site.longitude)
     if spec["buoyancy_frequency"] is not None:

@@ -293,7 +293,11 @@ def write_results(result, out_dir) -> Path:
             images.append((stem, caption, data))
         (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2, ensure_ascii=False) + "\n",
                                           encoding="utf-8")
-        (tmp / "report.html").write_text(_html(result, tables, images, summary), encoding="utf-8")
+        # Uncertainty budget: tables/budget.csv, budget.json, its figures and its report section.
+        from .budget import write_budget
+
+        budget_html = write_budget(result, tmp, _figure)
+        (tmp / "report.html").write_text(_html(result, tables, images, summary, budget_html), encoding="utf-8")
     return out_dir / "report.html"
 
 
@@ -337,7 +341,7 @@ def _table_html(rows):
     return f"<div class='wrap'>{table}</div>"
 
 
-def _html(result, tables, images, summary) -> str:
+def _html(result, tables, images, summary, budget_html="") -> str:
     spec = result.spec
     esc = html.escape
     parts = [f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">
@@ -410,6 +414,7 @@ figure,tr{{break-inside:avoid}} .caution{{border:1px solid #e0a030}}}}
     if rest:
         parts.append("<h2>Method figures</h2>")
         parts += [_figure(s, *img_by[s]) for s in rest]
+    parts.append(budget_html)  # the uncertainty budget's section (ventflux.survey.budget)
     prov = summary["provenance"]
     parts.append("<h2>Provenance</h2><p>Inputs (SHA-256):</p><ul>" + "".join(
         f"<li><code>{esc(Path(p).name)}</code> ({esc(v['role'])}): <code>{v['sha256'][:16]}…</code></li>"

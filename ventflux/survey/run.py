@@ -55,13 +55,26 @@ class SurveyResult:
     shared_inputs: dict
     checks: list = field(default_factory=list)  # (section key, MethodComparison) of field-level checks
     notes: list = field(default_factory=list)
+    # Uncertainty budget (ventflux.survey.budget): the run's draws, its kept draw columns, the budget's mode.
+    draws: object = None
+    keep: object = None
+    budget_mode: str = "draws"
+
+    def budget(self, mode: str | None = None, **options):
+        """Which input owns the variance of each result (``ventflux.survey.budget.survey_budget``)."""
+        from .budget import survey_budget
+
+        return survey_budget(self, mode or self.budget_mode, **options)
 
 
-def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
-    """Compute everything a survey file asks for (see ``ventflux.survey.spec``)."""
+def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None) -> SurveyResult:
+    """Compute everything a survey file asks for (see ``ventflux.survey.spec``).
+
+    ``draws``: the run's named draws (default a new ``SharedDraws``; the uncertainty budget's design passes its own).
+    """
     t0 = time.perf_counter()
     methods, sections = survey_components()
-    draws = SharedDraws(spec.draws, spec.seed)
+    draws = SharedDraws(spec.draws, spec.seed) if draws is None else draws
     site = spec.site
     pressure = in_situ_pressure(site.pressure, site.depth, site.latitude)
     ambient = draws.draw("site/ambient temperature", site.ambient_temperature)
@@ -140,7 +153,7 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
     return SurveyResult(spec=spec, pressure=pressure, vents=vents, sections=sec, focused=focused, diffuse=diffuse,
                         conductive=conductive, total=total, split=split, water=water, reservoirs=reservoirs, dropped_draws=dropped,
                         n_draws=int(keep.sum()), elapsed=time.perf_counter() - t0, shared_inputs=shared,
-                        checks=checks)
+                        checks=checks, draws=draws, keep=keep)
 
 
 def _field_checks(sec, focused, diffuse, keep, seed):

@@ -1,0 +1,162 @@
+"""The survey's uncertainty budget: a dominant shared input ranks first; tables, figures, report and CLI."""
+
+import json
+
+import numpy as np
+import pytest
+
+from ventflux.cli import main
+from ventflux.survey import report
+from ventflux.survey.budget import input_draws, label
+from ventflux.survey.run import run_survey
+from ventflux.survey.spec import load_survey
+
+SITE = """
+[site]
+name = "Budget Test"
+depth = "2500 m"
+latitude = 10.0
+longitude = -100.0
+ambient_temperature = "2.0 degC"
+ambient_salinity = 34.6
+
+[run]
+draws = {draws}
+seed = 5
+
+[shared]
+"laser scale" = "1.00 ± 0.12"
+"""
+
+VENT = """
+[[vent]]
+name = "{name}"
+  [[vent.orifice]]
+  temperature = "{T} ± 1 degC"
+  velocity = "{v} ± 0.02 m/s"
+  diameter = "10 ± 0.1 cm"
+  size_factor = "@laser scale"
+"""
+
+
+def _survey(tmp_path, n_vents=4, draws=3000):
+    text = SITE.format(draws=draws) + "".join(VENT.format(name=f"V{i}", T=300 + 10 * i, v=1.0 + 0.1 * i)
+                                              for i in range(n_vents))
+    p = tmp_path / "survey.toml"
+    p.write_text(text, encoding="utf-8")
+    return load_survey(p)
+
+
+def test_a_total_dominated_by_one_shared_input_ranks_it_first(tmp_path):
+    # By construction: every vent's size carries the shared 12 % scale error (power ∝ scale², about 24 %),
+    # while each vent's own velocity and temperature errors are 1–2 %: the shared input owns the total's variance.
+    result = run_survey(_survey(tmp_path))
+    b = result.budget()
+    field = b.indices["field total"]
+    assert field.top(1) == ["shared/laser scale"]
+    i = field.names.index("shared/laser scale")
+    assert field.first[i] > 0.9 and field.first_error[i] < 0.02
+    for v in ("V0", "V1", "V2", "V3"):
+        assert b.indices[f"{v}: orifice"].top(1) == ["shared/laser scale"]
+    # Another vent's inputs cannot affect V0 and are left out of its budget; the field total has them all.
+    v0 = b.indices["V0: orifice"]
+    assert "V3/orifice[0]/velocity" not in v0.names and "V0/orifice[0]/velocity" in v0.names
+    assert "V3/orifice[0]/velocity" in field.names
+    # Knowing the scale exactly narrows the total's 5–95 % width by most of it.
+    assert field.width_if_known["shared/laser scale"] < 0.35 * field.width
+    assert len(b.sentences()) == 5 and "'laser scale' (shared)" in b.sentences()[0]  # 4 vents and the field
+    assert b.sentences()[-1].startswith("Field total: measure 'laser scale' (shared) better")
+
+
+def test_input_draws_are_the_run_s_own_draws(tmp_path):
+    from ventflux.survey.budget import _named
+
+    result = run_survey(_survey(tmp_path, n_vents=1, draws=500))
+    X, nominal = input_draws(result.draws, result.keep)
+    named = _named(result.draws)
+    assert set(X) == set(named) and len(X) == 4  # laser scale, T, v, d
+    for name, x in X.items():
+        q = result.draws.draw(name, named[name])  # the run's array for this name
+        assert np.array_equal(x, q.to(named[name].unit).magnitude[result.keep])
+    assert nominal["shared/laser scale"] == pytest.approx(1.0)
+    assert label("shared/laser scale") == "'laser scale' (shared)"
+
+
+def test_results_folder_carries_the_budget(tmp_path):
+    result = run_survey(_survey(tmp_path, n_vents=2, draws=1000))
+    html = report.write_results(result, tmp_path / "out").read_text(encoding="utf-8")
+    out = tmp_path / "out"
+    assert (out / "tables" / "budget.csv").is_file()
+    data = json.loads((out / "budget.json").read_text(encoding="utf-8"))
+    assert data["mode"] == "draws" and len(data["sentences"]) == 3
+    assert {r["result"] for r in data["rows"]} >= {"V0: orifice", "field total"}
+    assert "width_if_known_MW" in data["rows"][0] and "(interactions and unnamed randomness)" in \
+        {r["input"] for r in data["rows"]}
+    assert "width_if_known [MW]" in (out / "tables" / "budget.csv").read_text(encoding="utf-8").splitlines()[0]
+    assert (out / "figures" / "budget_field-total.png").is_file()
+    assert "Uncertainty budget" in html and "V1: measure" in html
+
+
+@pytest.mark.slow
+def test_full_design_agrees_with_the_draws_on_the_dominant_input(tmp_path):
+    result = run_survey(_survey(tmp_path, n_vents=2, draws=1000))
+    given = result.budget()
+    full = result.budget("full", base_draws=400)
+    assert full.evaluations_multiple > 1
+    g, f = given.indices["field total"], full.indices["field total"]
+    assert f.top(1) == g.top(1) == ["shared/laser scale"]
+    i = f.names.index("shared/laser scale")
+    assert abs(f.first[i] - g.first[i]) < 3 * np.hypot(f.first_error[i], g.first_error[i]) + 0.02
+    assert "shared/laser scale" in f.width_if_known
+
+
+def test_cli_budget_off_writes_no_budget(tmp_path, capsys):
+    spec = _survey(tmp_path, n_vents=1, draws=500)
+    assert main(["survey", str(spec.path), "--out", str(tmp_path / "o"), "--budget", "off", "--quiet"]) == 0
+    assert not (tmp_path / "o" / "budget.json").exists()
+    assert main(["survey", str(spec.path), "--out", str(tmp_path / "p"), "--quiet"]) == 0
+    assert (tmp_path / "p" / "budget.json").exists()
+
+
+# ---- single estimates ------------------------------------------------------------------
+def _product_indices(mv, sv, md, sd):
+    """Analytic first-order and total indices of Y = v·d² for independent normal v and d (moments of the normal)."""
+    Ed2, Ed4 = md ** 2 + sd ** 2, md ** 4 + 6 * md ** 2 * sd ** 2 + 3 * sd ** 4
+    Ev2 = mv ** 2 + sv ** 2
+    V = Ev2 * Ed4 - mv ** 2 * Ed2 ** 2
+    Vv, Vd = sv ** 2 * Ed2 ** 2, mv ** 2 * (Ed4 - Ed2 ** 2)
+    return np.array([Vd, Vv]) / V, np.array([V - Vv, V - Vd]) / V  # order: diameter, velocity
+
+
+@pytest.mark.parametrize("mode", ["draws", "full"])
+def test_orifice_budget_matches_the_analytic_product(mode):
+    # With exact temperatures the heat power is ρΔh·(π/4)·v·d², a product of the two uncertain inputs.
+    from ventflux.budget import estimate_budget
+    from ventflux.orifice import orifice_discharge, physical_draws
+    from ventflux.uncertainty import parse_uncertain
+    from ventflux.units import Q_
+
+    inputs = {"temperature": Q_(340.0, "degC"), "velocity": parse_uncertain("1.2 ± 0.2 m/s", "velocity", "v"),
+              "diameter": parse_uncertain("8 ± 0.8 cm", "length", "d"), "pressure": Q_(25.0, "MPa"),
+              "ambient_temperature": Q_(2.0, "degC")}
+    ind = estimate_budget(orifice_discharge, inputs, mode=mode, draws=8000 if mode == "draws" else 4000, seed=3,
+                          valid=physical_draws)
+    S, ST = _product_indices(1.2, 0.2, 8.0, 0.8)
+    assert ind.names == ("diameter", "velocity")
+    assert np.all(np.abs(ind.first - S) < 3 * ind.first_error + 0.01), (ind.first, S, ind.first_error)
+    if mode == "full":
+        assert np.all(np.abs(ind.total - ST) < 3 * ind.total_error + 0.01), (ind.total, ST)
+    else:
+        assert np.all(ind.total + 3 * ind.total_error >= ST)  # the given-data total is an upper bound
+    assert set(ind.width_if_known) == {"diameter", "velocity"}
+
+
+def test_orifice_command_prints_and_returns_the_budget(capsys):
+    args = ["orifice", "--temperature", "340 ± 3 degC", "--velocity", "1.2 ± 0.2 m/s", "--diameter", "8 ± 0.5 cm",
+            "--pressure", "25 MPa", "--ambient-temperature", "2 degC", "--draws", "3000", "--budget"]
+    assert main(args) == 0
+    out = capsys.readouterr().out
+    assert "Uncertainty budget of heat power" in out and "--velocity" in out
+    assert main(args + ["--json"]) == 0
+    rows = json.loads(capsys.readouterr().out)["budget"]
+    assert rows[0]["input"] == "velocity" and rows[0]["rank"] == 1

@@ -1,0 +1,31 @@
+"""``--budget`` for single-estimate commands: which uncertain input owns the variance of the result."""
+
+from __future__ import annotations
+
+import sys
+
+HELP = ("print the uncertainty budget: each uncertain input's share of the result's variance (first order and "
+        "total effect) and the 5-95 %% width if it were known exactly; from the estimate's own draws (default) "
+        "or a dedicated design (full: 2k + 2 times the draws for k uncertain inputs)")
+
+
+def add_budget_option(group):
+    group.add_argument("--budget", nargs="?", const="draws", choices=("draws", "full"), default=None, help=HELP)
+
+
+def add_budget(args, payload, estimator, inputs, valid=None, output="heat_power", unit="MW"):
+    """With ``--budget``: compute the budget, add its rows to the JSON ``payload`` and return its readable lines."""
+    if not getattr(args, "budget", None):
+        return []
+    from ..budget import budget_lines, estimate_budget
+    from ..uncertainty import DEFAULT_DRAWS
+
+    ind = estimate_budget(estimator, inputs, output=output, unit=unit, mode=args.budget,
+                          draws=args.draws or DEFAULT_DRAWS, seed=args.seed, valid=valid)
+    payload["budget"] = ind.rows()
+    return budget_lines(ind, {k: "--" + k.replace("_", "-") for k in ind.names})
+
+
+def print_budget(lines, out=None):
+    if lines:
+        (out or sys.stdout).write("\n" + "\n".join(lines) + "\n")
