@@ -8,18 +8,18 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+
 from ventflux.aggregate import SharedDraws
 from ventflux.errors import InputError, InputErrors
 from ventflux.uncertainty import normal
 from ventflux.units import Q_
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from watercolumn_synthetic import towyo, write_csv  # noqa: E402
-
-from ventflux_watercolumn.anomaly import teos10_state  # noqa: E402
-from ventflux_watercolumn.flux import bootstrap_weights  # noqa: E402
-from ventflux_watercolumn.reading import read_section  # noqa: E402
-from ventflux_watercolumn.section import analyse_section, draw_section, section_draws  # noqa: E402
+from ventflux_watercolumn.anomaly import teos10_state
+from ventflux_watercolumn.flux import bootstrap_weights
+from ventflux_watercolumn.reading import read_section
+from ventflux_watercolumn.section import analyse_section, draw_section, section_draws
+from watercolumn_synthetic import towyo, write_csv
 
 LAT, LON = -17.3, -113.6
 

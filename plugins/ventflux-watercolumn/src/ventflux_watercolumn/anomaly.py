@@ -46,6 +46,7 @@ from dataclasses import dataclass
 
 import gsw
 import numpy as np
+
 from ventflux.errors import InputError
 
 #: Robust standard deviation from the median absolute deviation (normal data) [3].

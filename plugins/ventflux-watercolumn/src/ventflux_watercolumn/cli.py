@@ -16,7 +16,12 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ventflux.cli.output import add_output_options, print_json, print_table, write_output
+from ventflux.cli.output import (
+    add_output_options,
+    print_json,
+    print_table,
+    write_output,
+)
 
 DEFAULT_BIN = "5 m"
 

@@ -98,11 +98,13 @@ def flux_png(out) -> bytes:
 def section_figures(res, out) -> list:
     """``(stem, PNG bytes, caption)`` for the survey report."""
     name = Path(res.source).stem
-    figs = [(f"{name}_dtheta", section_png(res), f"{name}: Δθ along the section, the detected layer outlined "
-             "(top and bottom) and its core marked; shaded: the band integrated for the heat flux."),
-            (f"{name}_profiles", profiles_png(res), f"{name}: θ against σ₀ with the background fit, and Δθ "
-             "profiles (profiles with a layer in red) against the detection threshold.")]
+    figs = [(f"{name}_dtheta", section_png(res), (f"{name}: Δθ along the section, the detected layer outlined "
+                                                  "(top and bottom) and its core marked; shaded: the band "
+                                                  "integrated for the heat flux.")),
+            (f"{name}_profiles", profiles_png(res), (f"{name}: θ against σ₀ with the background fit, and Δθ "
+                                                     "profiles (profiles with a layer in red) against the "
+                                                     "detection threshold."))]
     if np.isfinite(out.heat_flux).any():
-        figs.append((f"{name}_heat_flux", flux_png(out), f"{name}: draws of the heat flux across the section with "
-                     "its median and 90 % interval."))
+        figs.append((f"{name}_heat_flux", flux_png(out), (f"{name}: draws of the heat flux across the section "
+                                                          "with its median and 90 % interval.")))
     return figs

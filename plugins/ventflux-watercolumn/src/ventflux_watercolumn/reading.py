@@ -45,6 +45,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
+
 from ventflux.errors import Collector, InputError
 from ventflux.units import ureg
 
@@ -187,9 +188,8 @@ def _read_netcdf(path):
             try:
                 if key in UNITS:
                     values = ureg.Quantity(values, _udunits(units)).to(UNITS[key]).magnitude
-                elif _udunits(units) not in ("", "1"):
-                    if key == "salinity":
-                        raise ValueError
+                elif key == "salinity" and _udunits(units) not in ("", "1"):
+                    raise ValueError
             except Exception:  # noqa: BLE001 - pint raises several kinds for an unknown or wrong unit
                 errs.add(InputError(f"{label} units", units, f"a unit convertible to {UNITS.get(key, '1')}",
                                     where=str(path)))

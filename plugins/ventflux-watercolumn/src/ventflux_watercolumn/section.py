@@ -20,10 +20,17 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import numpy as np
+
 from ventflux.errors import InputError
 
 from . import anomaly as an
-from .flux import bootstrap_weights, fill_along_section, heat_flux, section_geometry, trapezoid_weights
+from .flux import (
+    bootstrap_weights,
+    fill_along_section,
+    heat_flux,
+    section_geometry,
+    trapezoid_weights,
+)
 from .layer import bin_edges, bin_profiles, detect_layer
 
 TRACERS = ("temperature", "optical", "either")
@@ -78,6 +85,7 @@ class SectionAnalysis:
     sample_theta: np.ndarray | None = None
     sample_background: np.ndarray | None = None
     sample_profile: np.ndarray | None = None
+    sample_is_background: np.ndarray | None = None
 
     @property
     def found(self):
@@ -158,11 +166,11 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
         mask = (prof >= 0) & ((zi < top_bin) | ~layer.found[np.maximum(prof, 0)])
         sums = an.background_sums(st, prof, mask, degree, P)
         beta = an.solve_background(sums)
-        dth, dCT = an.anomalies(st, sums, beta)
+        dth, _ = an.anomalies(st, sums, beta)
         noise = an.robust_sd(dth[mask])
         layer, band, opt_bg, opt_noise, score_of = _detect(st, data, prof, P, edges, dth, mask, noise, factor,
                                                            tracer)
-    dth, dCT = an.anomalies(st, sums, beta)
+    dth, _ = an.anomalies(st, sums, beta)
     if not noise > 0:
         raise InputError("background", "no scatter about the θ–σ0 fit", "a section with sensor noise (a "
                          "noiseless record cannot set a detection threshold)", where=data.source)
@@ -224,7 +232,7 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
         background_samples=int(mask.sum()), extrapolated=extrap, vent_depth=vent_depth, bin_size=bin_size,
         factor=factor, tracer=tracer, notes=notes, sample_depth=st.depth, sample_dtheta=dth,
         sample_sigma0=st.sigma0, sample_theta=st.theta,
-        sample_background=st.theta - dth, sample_profile=prof)
+        sample_background=st.theta - dth, sample_profile=prof, sample_is_background=mask)
 
 
 def _margin(band, bin_size, margin):
@@ -319,7 +327,7 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
         off = drawn["current_uncertainty"]
         off = np.zeros(n) if off is None else off
         off0 = 0.0
-        args = dict(A1=res.A1, C1=res.C1)
+        args = {"A1": res.A1, "C1": res.C1}
     else:
         if drawn["current"] is None:
             raise InputError("current", "(missing)", "a current speed (and direction), or current columns in the "

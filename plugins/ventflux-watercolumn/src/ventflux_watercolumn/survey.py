@@ -28,6 +28,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
+
 from ventflux.errors import InputError, InputErrors
 from ventflux.survey import SectionEstimate, SurveySection
 from ventflux.units import Q_
@@ -103,8 +104,8 @@ def _estimate(spec, ctx):
                           bin_size=res.bin_size)
     out = draw_section(res, drawn)
     rows = summary_rows(res, out)
-    notes = [f"Water column: heat carried across the tow-yo section {Path(res.source).name} by the plume layer "
-             f"(ρ c_p0 ΔΘ u·n over the layer's band), compared with the {spec['compares_with']} of the survey."]
+    notes = [(f"Water column: heat carried across the tow-yo section {Path(res.source).name} by the plume layer "
+              f"(ρ c_p0 ΔΘ u·n over the layer's band), compared with the {spec['compares_with']} of the survey.")]
     notes += [f"Water column: {n}" for n in res.notes]
     if out.failed:
         notes.append(f"Water column: {out.failed} draws whose resampled background could not be fitted are NaN "
