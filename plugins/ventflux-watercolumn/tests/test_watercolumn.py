@@ -217,3 +217,24 @@ def test_survey_section_parses_and_refuses_like_the_run(tmp_path, synthetic):
     est = result.sections["water_column"]
     assert est.category == "check" and est.heat_power.shape == (1, 500)
     assert [k for k, _ in result.checks] == ["water_column"]
+
+
+def test_plume_rise_height_can_be_a_towyo_file(tmp_path, synthetic):
+    # [field_plume] height = a section file: the layer's mean top above the site's depth, with its uncertainty.
+    from ventflux.survey.spec import load_survey
+    from ventflux.uncertainty import Uncertain
+
+    d, data = synthetic
+    (tmp_path / "towyo.csv").write_bytes(Path(data.source).read_bytes())
+    f = tmp_path / "s.toml"
+    f.write_text('[site]\nname = "Test"\ndepth = "2480 m"\nlatitude = -17.3\nlongitude = -113.6\n'
+                 'ambient_temperature = "2.0 degC"\nambient_salinity = 34.69\n[run]\ndraws = 500\n'
+                 '[[vent]]\nname = "A"\n  [[vent.orifice]]\n  temperature = "350 ± 2 degC"\n'
+                 '  velocity = "1.0 ± 0.1 m/s"\n  diameter = "10 cm"\n'
+                 '[field_plume]\nheight = "towyo.csv"\nlevel = "spreading"\nbuoyancy_frequency = "1e-3 1/s"\n')
+    h = load_survey(f).sections["field_plume"]["height"]
+    assert isinstance(h, Uncertain) and h.kind == "normal"
+    assert abs(h.a - (2480.0 - d["zc"])) <= 5.0 and 0 < h.b < 5.0
+    f.write_text(f.read_text().replace('"towyo.csv"', '"missing.csv"'))
+    with pytest.raises(InputError, match="field_plume.height: 'missing.csv'"):
+        load_survey(f)

@@ -33,7 +33,9 @@ def ventflux_input_readers():
     from .reading import SUFFIXES, read_section
 
     return [Reader(name="water-column section", kind="water-column section", suffixes=SUFFIXES,
-                   read=read_section, provider="ventflux-watercolumn")]
+                   read=read_section, provider="ventflux-watercolumn"),
+            Reader(name="plume-layer rise height", kind="rise height", suffixes=SUFFIXES, read=_rise_height,
+                   provider="ventflux-watercolumn")]
 
 
 @hookimpl
@@ -41,3 +43,9 @@ def ventflux_survey_sections():
     from .survey import WATER_COLUMN
 
     return [WATER_COLUMN]
+
+
+def _rise_height(path, **options):
+    from .survey import rise_height  # imported on use: registration stays light
+
+    return rise_height(path, **options)

@@ -96,6 +96,13 @@ class SectionAnalysis:
         d = {"top": self.top_depth, "core": self.core_depth, "bottom": self.bottom_depth}[LEVELS[level]]
         return float(self.vent_depth - np.nanmean(d[self.found]))
 
+    def height_sd(self, level: str) -> float:
+        """Standard uncertainty, m, of ``height(level)``: the standard error of the mean over the profiles with a
+        layer and the bin's resolution (uniform over one bin, sd = bin/√12), in quadrature."""
+        d = {"top": self.top_depth, "core": self.core_depth, "bottom": self.bottom_depth}[LEVELS[level]]
+        d = d[self.found]
+        return float(np.sqrt(np.var(d, ddof=1) / d.size + self.bin_size ** 2 / 12.0))
+
     def rows(self):
         """One row per profile: position, layer depths and heights, peak anomaly."""
         out = []

@@ -94,6 +94,27 @@ def analyse(spec, site):
         margin=None if spec["margin"] is None else float(spec["margin"].to("m").magnitude))
 
 
+def rise_height(path, level="maximum", site=None):
+    """The observed rise height above the vents from a section file, for ``[vent.plume_rise]``/``[field_plume]``.
+
+    ``level`` ``maximum`` is the layer's mean top, ``spreading`` its mean core, each above the site's depth;
+    the uncertainty is ``SectionAnalysis.height_sd``. Returns a normal ``Uncertain`` (m).
+    """
+    from ventflux.uncertainty import normal
+
+    depth = getattr(site, "depth", None)
+    if depth is None:
+        raise InputError("height", str(path), "a plain height, or a water-column file with the site's depth in "
+                         "[site] depth (heights are measured from it)")
+    spec = {"data": Path(path), "current": None, "current_direction": None, "vent_depth": depth, "factor": 3.0,
+            "bin_size": None, "degree": 2, "tracer": "temperature", "margin": None}
+    res = analyse(spec, site)
+    if res.found.sum() < 2:
+        raise InputError("height", str(path), "a section with a plume layer on at least 2 profiles (found on "
+                         f"{int(res.found.sum())})", where=str(path))
+    return normal(Q_(res.height(level), "m"), Q_(res.height_sd(level), "m"))
+
+
 def _estimate(spec, ctx):
     from .section import draw_section, section_draws
 
