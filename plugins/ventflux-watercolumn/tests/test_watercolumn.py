@@ -238,3 +238,20 @@ def test_plume_rise_height_can_be_a_towyo_file(tmp_path, synthetic):
     f.write_text(f.read_text().replace('"towyo.csv"', '"missing.csv"'))
     with pytest.raises(InputError, match="field_plume.height: 'missing.csv'"):
         load_survey(f)
+
+
+def test_measured_current_columns_give_the_constant_current_result(tmp_path, synthetic):
+    # A current meter reading a steady 5 cm/s toward north at every sample is the constant current of 5 cm/s.
+    import dataclasses
+
+    _, data = synthetic
+    n = data.size
+    measured = dataclasses.replace(data, current_east=np.zeros(n), current_north=np.full(n, 0.05))
+    rm = analyse_section(measured, vent_depth=2480.0)
+    rc = analyse_section(data, vent_depth=2480.0, current_direction=0.0)
+    a = draw_section(rm, section_draws(SharedDraws(300, 3), "x", rm.n_profiles,
+                                       current_uncertainty=Q_(0.0, "m/s")))
+    b = draw_section(rc, section_draws(SharedDraws(300, 3), "x", rc.n_profiles, current=Q_(0.05, "m/s"),
+                                       current_direction=Q_(0.0, "deg")))
+    np.testing.assert_allclose(a.heat_flux, b.heat_flux, rtol=1e-9)
+    assert a.nominal_heat_flux == pytest.approx(b.nominal_heat_flux, rel=1e-9)

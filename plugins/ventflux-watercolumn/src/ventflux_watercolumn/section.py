@@ -299,7 +299,13 @@ def section_draws(draws, key, n_profiles, current=None, current_direction=None, 
 
     out["current"] = mag(current, "current", "m/s")
     out["current_direction"] = mag(current_direction, "current_direction", "degree")
-    out["current_uncertainty"] = mag(current_uncertainty, "current_uncertainty", "m/s")
+    out["current_uncertainty"] = None
+    if current_uncertainty is not None:  # a measured current's error along the normal: one offset per draw
+        from ventflux.uncertainty import normal
+
+        sd = current_uncertainty.to("m/s")
+        out["current_uncertainty"] = draws.draw(f"{key}/current offset", normal(Q_(0.0, "m/s"), sd)).to(
+            "m/s").magnitude
     out["vent_depth"] = mag(vent_depth, "vent_depth", "m")
     half = Q_(0.5 * bin_size, "m")
     out["resolution"] = {lvl: draws.draw(f"{key}/{lvl} bin resolution", uniform(-half, half)).to("m").magnitude
@@ -332,7 +338,12 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
     if res.measured_current:
         speed, speed0 = 1.0, 1.0
         off = drawn["current_uncertainty"]
-        off = np.zeros(n) if off is None else off
+        if off is None:
+            off = np.zeros(n)
+            msg = ("The measured current's uncertainty was not given (current_uncertainty): the heat flux's "
+                   "interval leaves it out.")
+            if msg not in res.notes:
+                res.notes.append(msg)
         off0 = 0.0
         args = {"A1": res.A1, "C1": res.C1}
     else:
