@@ -39,7 +39,7 @@ References
    variable for evaluating heat content and heat fluxes. J. Phys. Oceanogr.
    33, 945–963.
 .. [2] Efron, B. and Tibshirani, R. J. (1993). An Introduction to the
-   Bootstrap. Chapman & Hall (resampling whole profiles: the block
+   Bootstrap, Monographs on Statistics and Applied Probability 57 (resampling whole profiles: the block
    bootstrap of dependent samples, ch. 8).
 """
 

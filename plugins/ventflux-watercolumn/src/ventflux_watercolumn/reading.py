@@ -51,8 +51,6 @@ from ventflux.units import ureg
 
 #: Mean Earth radius, m [2].
 EARTH_RADIUS = 6_371_008.8
-#: One standard atmosphere in dbar (sea pressure = absolute − this).
-ATMOSPHERE_DBAR = 10.1325
 
 SUFFIXES = (".csv", ".nc", ".nc4", ".cdf")
 
@@ -195,7 +193,11 @@ def _read_netcdf(path):
                                     where=str(path)))
                 continue
             if key == "pressure" and da.attrs["standard_name"] == "sea_water_pressure":
-                values = values - ATMOSPHERE_DBAR
+                from ventflux.properties.seawater import (
+                    STANDARD_ATMOSPHERE,  # sea pressure = absolute − 1 atm
+                )
+
+                values = values - STANDARD_ATMOSPHERE / 1e4
             cols[key] = values
         for key in ("time", "pressure", "temperature", "salinity"):
             if key not in cols:

@@ -22,6 +22,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ventflux.errors import InputError
+from ventflux.properties.seawater import (
+    CP0,  # TEOS-10's c_p0, J/(kg K), defined once in the core
+)
 
 from . import anomaly as an
 from .flux import (
@@ -35,8 +38,6 @@ from .layer import bin_edges, bin_profiles, detect_layer
 
 TRACERS = ("temperature", "optical", "either")
 LEVELS = {"maximum": "top", "spreading": "core", "bottom": "bottom"}
-#: TEOS-10's c_p0, J/(kg K) (IOC et al. 2010, eq. 3.3.3).
-CP0 = 3991.86795711963
 
 
 @dataclass
