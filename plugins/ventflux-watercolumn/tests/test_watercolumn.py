@@ -101,6 +101,9 @@ def test_synthetic_section_flux_and_layer(synthetic):
     flat = read_section(write_csv(Path(data.source).with_name("flat.csv"), d0), latitude=LAT, longitude=LON)
     r0 = analyse_section(flat, vent_depth=2480.0)
     assert r0.found.sum() <= 1  # a 3-sd threshold on ~100 bins × 20 profiles of means: rare false alarms
+    if not r0.found.any():  # no layer: the flux is not computed (NaN), never a zero that reads as measured
+        o0 = draw_section(r0, section_draws(SharedDraws(50, 1), "flat", r0.n_profiles, current=Q_(0.05, "m/s")))
+        assert np.isnan(o0.heat_flux).all() and np.isnan(o0.nominal_heat_flux)
 
 
 def test_flux_scales_with_current_and_flips_with_direction(synthetic):

@@ -367,7 +367,10 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
     parts = {"profile sampling (bootstrap)": H(beta0, W, speed0, off0),
              "background fit": H(beta_b, w0, speed0, off0),
              "current": H(beta0, w0, speed, off)}
-    failed = int((~np.isfinite(total)).sum())
+    if not res.found.any():  # no layer: nothing was integrated, and a zero would read as a measurement
+        nan = np.full(n, np.nan)
+        total, nominal, parts = nan, float("nan"), {k: nan for k in parts}
+    failed = int((~np.isfinite(total)).sum()) if res.found.any() else 0
     heights = {}
     if res.vent_depth is not None or drawn["vent_depth"] is not None:
         vd = drawn["vent_depth"] if drawn["vent_depth"] is not None else np.full(n, res.vent_depth)
@@ -378,7 +381,6 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
                 mean = np.nanmean(np.where(np.isfinite(dp), dp, np.nan), axis=1) if np.isfinite(d).any() \
                     else np.full(n, np.nan)
             heights[lvl] = vd - mean + drawn["resolution"][name]
+    shortcut = float(np.sum(w0 * res.shortcut) * speed0) if res.found.any() else float("nan")
     return SectionDraws(heat_flux=total, heights=heights, parts=parts, nominal_heat_flux=nominal,
-                        shortcut_heat_flux=float(np.sum(w0 * res.shortcut) * (speed0 if not res.measured_current
-                                                                                else 1.0)),
-                        failed=failed)
+                        shortcut_heat_flux=shortcut, failed=failed)

@@ -68,6 +68,9 @@ def _parse(f, ctx):
         f.errors.errors.extend(e.errors)
     except InputError as e:
         f.errors.add(e)
+    if spec["analysis"] is not None and not spec["analysis"].found.any():
+        f.error("data", f.table["data"], f"a section in which the plume layer exceeds {spec['factor']:g} noise sds "
+                "on at least one profile (none does: no flux to compare; lower factor or check the section)")
     if spec["analysis"] is not None and not spec["analysis"].measured_current and spec["current"] is None:
         f.error("current", "(missing)", "a current speed such as \"0.04 ± 0.01 m/s\" (the section file has no "
                 "current columns)")
