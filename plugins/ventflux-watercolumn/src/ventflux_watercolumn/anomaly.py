@@ -8,13 +8,13 @@ temperature ``θ`` referenced to the sea surface, potential density anomaly
 Background. Away from a plume, deep water lies on a tight θ–σ₀ curve set by
 the mixing of the water masses; plume water, entrained near the seafloor
 and carried up, lies warm of it. The background is a polynomial of degree
-``degree`` (default 2: deep θ–σ₀ relations curve, and a straight line over a few hundred metres leaves a residual of tenths of a mK that integrates to several per cent of a plume's heat flux) fitted by
-least squares to ``θ`` (and ``CT``) against ``σ₀`` over the *background
-samples*: those not in or near the plume layer. The anomaly is the
-difference ``Δθ = θ − θ_b(σ₀)`` (``ΔΘ`` likewise for conservative
-temperature, which carries the heat: ``c_p0 ΔΘ`` is a potential-enthalpy
-anomaly [2]). The optical anomaly is the optical signal minus its
-background median.
+``degree`` (1 or 2, default 2) fitted by least squares to ``θ`` (and
+``CT``) against ``σ₀`` over the *background samples*: the water just above
+and just below the plume layer (``ventflux_watercolumn.section``). The
+anomaly is the difference ``Δθ = θ − θ_b(σ₀)`` (``ΔΘ`` likewise for
+conservative temperature, which carries the heat: ``c_p0 ΔΘ`` is a
+potential-enthalpy anomaly [2]). The optical anomaly is the optical signal
+minus its background median.
 
 The fit is kept as per-profile sums (``XᵀX`` and ``Xᵀy``), so a bootstrap
 over profiles refits it for every draw by adding the sums of the drawn
@@ -119,9 +119,12 @@ def profile_numbers(data, min_span=20.0, smooth=15):
     return prof, excluded
 
 
-def basis(sigma0, sigma_ref, degree):
-    """Polynomial basis of the background fit, columns ``(σ₀ − σ_ref)**k`` for k = 0..degree."""
-    x = np.asarray(sigma0) - sigma_ref
+def basis(sigma0, sigma_ref, degree, scale=1.0):
+    """Polynomial basis of the background fit, columns ``((σ₀ − σ_ref)/scale)**k`` for k = 0..degree.
+
+    Centring and scaling by the background's own spread keeps ``XᵀX`` well conditioned at any degree.
+    """
+    x = (np.asarray(sigma0) - sigma_ref) / scale
     return np.stack([x ** k for k in range(degree + 1)], axis=-1)
 
 
@@ -133,13 +136,20 @@ class BackgroundSums:
     Xty: np.ndarray  # (P, K, 2): columns θ, CT
     sigma_ref: float
     degree: int
+    sigma_scale: float = 1.0
+
+    def basis(self, sigma0):
+        """The fit's basis at ``sigma0`` (kg/m³)."""
+        return basis(sigma0, self.sigma_ref, self.degree, self.sigma_scale)
 
 
 def background_sums(state, prof, mask, degree, n_profiles) -> BackgroundSums:
     """Sums of ``XᵀX`` and ``Xᵀy`` over the background samples (``mask``) of each profile."""
     use = mask & (prof >= 0)
     sigma_ref = float(np.median(state.sigma0[use])) if use.any() else 0.0
-    X = basis(state.sigma0[use], sigma_ref, degree)
+    scale = float(np.std(state.sigma0[use])) if use.sum() > 1 else 1.0
+    scale = scale if scale > 0 else 1.0
+    X = basis(state.sigma0[use], sigma_ref, degree, scale)
     y = np.stack([state.theta[use], state.CT[use]], axis=-1)
     K = degree + 1
     p = prof[use]
@@ -151,7 +161,8 @@ def background_sums(state, prof, mask, degree, n_profiles) -> BackgroundSums:
         XtX[:, j] = np.bincount(p, outer[:, j], minlength=n_profiles)
     for j in range(K * 2):
         Xty[:, j] = np.bincount(p, cross[:, j], minlength=n_profiles)
-    return BackgroundSums(XtX=XtX.reshape(-1, K, K), Xty=Xty.reshape(-1, K, 2), sigma_ref=sigma_ref, degree=degree)
+    return BackgroundSums(XtX=XtX.reshape(-1, K, K), Xty=Xty.reshape(-1, K, 2), sigma_ref=sigma_ref, degree=degree,
+                          sigma_scale=scale)
 
 
 def solve_background(sums: BackgroundSums, weights=None):
@@ -177,7 +188,7 @@ def solve_background(sums: BackgroundSums, weights=None):
 
 def anomalies(state, sums, beta):
     """``(Δθ, ΔΘ)`` per sample for coefficients ``beta`` (K, 2)."""
-    bg = basis(state.sigma0, sums.sigma_ref, sums.degree) @ beta
+    bg = sums.basis(state.sigma0) @ beta
     return state.theta - bg[:, 0], state.CT - bg[:, 1]
 
 

@@ -39,7 +39,7 @@ def configure(p):
     p.add_argument("--factor", type=float, default=3.0, help="detection threshold in background-noise standard "
                                                              "deviations (default %(default)s)")
     p.add_argument("--bin-size", default=DEFAULT_BIN, help="depth-bin thickness (default %(default)s)")
-    p.add_argument("--degree", type=int, default=2, choices=(1, 2, 3),
+    p.add_argument("--degree", type=int, default=2, choices=(1, 2),
                    help="degree of the background θ–σ0 polynomial (default %(default)s)")
     p.add_argument("--tracer", default="temperature", choices=("temperature", "optical", "either"),
                    help="anomaly that defines the layer (default %(default)s)")

@@ -47,7 +47,7 @@ def _parse(f, ctx):
             "vent_depth": f.quantity("vent_depth", "length", positive=True),
             "factor": f.number("factor", default=3.0, minimum=1.0),
             "bin_size": f.quantity("bin_size", "length", uncertain=False, positive=True, shareable=False),
-            "degree": f.number("degree", default=2, minimum=1, maximum=3, integer=True),
+            "degree": f.number("degree", default=2, minimum=1, maximum=2, integer=True),
             "tracer": f.string("tracer", default="temperature", choices=TRACERS),
             "margin": f.quantity("margin", "length", uncertain=False, minimum=Q_(0.0, "m"), shareable=False),
             "compares_with": f.string("compares_with", default="field total", choices=("field total", "focused"))}
