@@ -10,7 +10,7 @@ A 20-hour tow-yo at 1 Hz (72,000 samples, 60 casts) across an analytic plume lay
    profiles' background samples, refit θ–σ0 by least squares (numpy.linalg.lstsq), and for each drawn
    profile bin its anomaly flux with numpy.bincount and integrate; then the trapezoid rule along the
    section. Timed on a few hundred draws and scaled to 10⁴; its flux draws are checked against the plugin's
-   for the same profile picks and current (with the background-form shift set to zero, which the loop
+   for the same profile picks and current (with the background-window shift set to zero, which the loop
    does not do).
 
 These machines have 2 cores shared by several engineers: timings are noisy; the best of 3 is reported.
@@ -104,8 +104,8 @@ def main():
     t_loop, ref = best(lambda: loop(data, res, drawn["picks"][:N_LOOP], speed[:N_LOOP]), 1)
     t_plugin2, _ = best(lambda: plugin(data), 1)  # interleaved: once more after the loop
     t_plugin = min(t_plugin, t_plugin2)
-    no_form = dict(drawn, form=np.zeros_like(drawn["form"]))  # the loop refits one form; compare like with like
-    same = draw_section(res, no_form).heat_flux
+    fixed = dict(drawn, window=np.zeros_like(drawn["window"]))  # the loop fits one window: compare like with like
+    same = draw_section(res, fixed).heat_flux
     diff = np.max(np.abs(ref / same[:N_LOOP] - 1))
     t_loop_full = t_loop * N_DRAWS / N_LOOP
     print(f"anomaly + detection + flux with {N_DRAWS} draws: plugin {t_plugin:.2f} s (target < 10 s); "

@@ -317,7 +317,7 @@ def section_draws(draws, key, n_profiles, current=None, current_direction=None, 
     current, current_direction, current_uncertainty, vent_depth
         Survey values (quantities, ``Uncertain`` or ``SharedRef``), or None.
     """
-    from ventflux.survey.fields import resolve
+    from ventflux.survey.fields import nominal_of, resolve
     from ventflux.uncertainty import uniform
     from ventflux.units import Q_
 
@@ -334,6 +334,9 @@ def section_draws(draws, key, n_profiles, current=None, current_direction=None, 
 
     out["current"] = mag(current, "current", "m/s")
     out["current_direction"] = mag(current_direction, "current_direction", "degree")
+    out["nominal"] = {name: None if v is None else float(nominal_of(v).to(unit).magnitude)
+                      for name, v, unit in (("current", current, "m/s"), ("current_direction", current_direction,
+                                                                              "degree"))}
     out["current_uncertainty"] = None
     if current_uncertainty is not None:  # a measured current's error along the normal: one offset per draw
         from ventflux.uncertainty import normal
@@ -342,7 +345,7 @@ def section_draws(draws, key, n_profiles, current=None, current_direction=None, 
         out["current_uncertainty"] = draws.draw(f"{key}/current offset", normal(Q_(0.0, "m/s"), sd)).to(
             "m/s").magnitude
     out["vent_depth"] = mag(vent_depth, "vent_depth", "m")
-    out["form"] = draws.draw(f"{key}/background form", uniform(Q_(-1.0, ""), Q_(1.0, ""))).to("").magnitude
+    out["window"] = draws.draw(f"{key}/background window", uniform(Q_(-1.0, ""), Q_(1.0, ""))).to("").magnitude
     half = Q_(0.5 * bin_size, "m")
     out["resolution"] = {lvl: draws.draw(f"{key}/{lvl} bin resolution", uniform(-half, half)).to("m").magnitude
                          for lvl in ("top", "core", "bottom")}
@@ -382,30 +385,31 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
                 res.notes.append(msg)
         off0 = 0.0
         args = {"A1": res.A1, "C1": res.C1}
-        form_args = {"A1": res.A1 + drawn["form"][:, None] * res.D1, "C1": res.C1}
+        window_args = {"A1": res.A1 + drawn["window"][:, None] * res.D1, "C1": res.C1}
     else:
         if drawn["current"] is None:
             raise InputError("current", "(missing)", "a current speed (and direction), or current columns in the "
                              "section file")
-        d = drawn["current_direction"]
-        cosang = np.ones(n) if d is None else np.cos(np.radians(d - res.normal_bearing))
+        bearing, nom = drawn["current_direction"], drawn["nominal"]
+        cosang = np.ones(n) if bearing is None else np.cos(np.radians(bearing - res.normal_bearing))
         speed = drawn["current"] * cosang
-        speed0 = float(np.mean(drawn["current"])) * (1.0 if d is None else float(
-            np.cos(np.radians(np.mean(d) - res.normal_bearing))))
+        speed0 = nom["current"] * (1.0 if bearing is None else float(
+            np.cos(np.radians(nom["current_direction"] - res.normal_bearing))))
         off = off0 = None
-        args = form_args = {}
+        args = window_args = {}
 
-    def H(beta, Wt, sp, of, form=False):
-        if form:  # the background's reach: shifted by u ∈ [−1, 1] of the change with a window twice as wide
-            return heat_flux(res.A + drawn["form"][:, None] * res.D, res.C, beta, Wt, sp, offset=of, **form_args)
+    def H(beta, Wt, sp, of, window=False):
+        if window:  # the background's reach: shifted by u ∈ [−1, 1] of the change with a window twice as wide
+            return heat_flux(res.A + drawn["window"][:, None] * res.D, res.C, beta, Wt, sp, offset=of,
+                             **window_args)
         return heat_flux(res.A, res.C, beta, Wt, sp, offset=of, **args)
 
-    total = H(beta_b, W, speed, off, form=True)
+    total = H(beta_b, W, speed, off, window=True)
     nominal = float(H(beta0, w0, speed0, off0))
     parts = {"profile sampling (bootstrap)": H(beta0, W, speed0, off0),
              "background fit": H(beta_b, w0, speed0, off0),
              "current": H(beta0, w0, speed, off),
-             "background window (against one twice as wide)": H(beta0, w0, speed0, off0, form=True)}
+             "background window (against one twice as wide)": H(beta0, w0, speed0, off0, window=True)}
     if not res.found.any():  # no layer: nothing was integrated, and a zero would read as a measurement
         nan = np.full(n, np.nan)
         total, nominal, parts = nan, float("nan"), {k: nan for k in parts}
@@ -414,8 +418,7 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
     if res.vent_depth is not None or drawn["vent_depth"] is not None:
         vd = drawn["vent_depth"] if drawn["vent_depth"] is not None else np.full(n, res.vent_depth)
         for lvl, name in (("maximum", "top"), ("spreading", "core"), ("bottom", "bottom")):
-            d = {"top": res.top_depth, "core": res.core_depth, "bottom": res.bottom_depth}[name]
-            dp = d[picks]
+            dp = {"top": res.top_depth, "core": res.core_depth, "bottom": res.bottom_depth}[name][picks]
             cnt = np.isfinite(dp).sum(axis=1)  # a draw that picked no profile with a layer has no height
             with np.errstate(invalid="ignore", divide="ignore"):
                 mean = np.where(cnt > 0, np.nansum(dp, axis=1) / cnt, np.nan)
