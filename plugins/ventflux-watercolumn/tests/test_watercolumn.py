@@ -258,3 +258,21 @@ def test_measured_current_columns_give_the_constant_current_result(tmp_path, syn
                                        current_direction=Q_(0.0, "deg")))
     np.testing.assert_allclose(a.heat_flux, b.heat_flux, rtol=1e-9)
     assert a.nominal_heat_flux == pytest.approx(b.nominal_heat_flux, rel=1e-9)
+
+
+def test_cli_prints_json_and_refuses_in_one_line(synthetic, tmp_path, capsys):
+    import json
+
+    from ventflux.cli import main
+
+    _, data = synthetic
+    args = ["plume-layer", data.source, "--latitude", "-17.3", "--longitude", "-113.6", "--draws", "200"]
+    assert main([*args, "--vent-depth", "2480 m", "--current", "0.05 ± 0.005 m/s", "--current-direction", "0 deg",
+                 "--json", "--out", str(tmp_path / "p.csv"), "--figures", str(tmp_path / "f")]) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["summary"][0]["quantity"] == "heat flux" and out["summary"][0]["nominal"] > 0
+    assert (tmp_path / "p.csv").read_text().startswith("profile,")
+    assert len(list((tmp_path / "f").glob("*.png"))) == 3
+    assert main(args) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--current" in err[0]

@@ -100,6 +100,9 @@ def run(args) -> int:
     res = analyse(spec, site)
     if not res.measured_current and spec["current"] is None:
         raise InputError("--current", "(missing)", "a current speed (the section file has no current columns)")
+    if res.measured_current and (spec["current"] is not None or spec["current_direction"] is not None):
+        raise InputError("--current", args.current or args.current_direction, "no constant current: the section "
+                         "file has current columns (give their error with --current-uncertainty)")
     draws = SharedDraws(args.draws, args.seed)
     out = draw_section(res, section_draws(draws, "plume-layer", res.n_profiles, current=spec["current"],
                                           current_direction=spec["current_direction"],

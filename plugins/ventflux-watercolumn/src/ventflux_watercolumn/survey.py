@@ -71,6 +71,11 @@ def _parse(f, ctx):
     if spec["analysis"] is not None and not spec["analysis"].found.any():
         f.error("data", f.table["data"], f"a section in which the plume layer exceeds {spec['factor']:g} noise sds "
                 "on at least one profile (none does: no flux to compare; lower factor or check the section)")
+    if spec["analysis"] is not None and spec["analysis"].measured_current:
+        for k in ("current", "current_direction"):
+            if spec[k] is not None:
+                f.error(k, f.table[k], "no constant current: the section file has current columns "
+                        "(give their error as current_uncertainty)")
     if spec["analysis"] is not None and not spec["analysis"].measured_current and spec["current"] is None:
         f.error("current", "(missing)", "a current speed such as \"0.04 ± 0.01 m/s\" (the section file has no "
                 "current columns)")
