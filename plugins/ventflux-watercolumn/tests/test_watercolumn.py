@@ -49,8 +49,6 @@ def _expected_layer(d, res, factor_noise):
     """Per profile, from the analytic field: shallowest bin whose mean true Δθ exceeds the threshold."""
     period = 2 * (2400.0 - 1900.0) / 1.0
     prof = np.floor(d["time"] / (period / 2)).astype(int)
-    SA = gsw.SA_from_SP(d["salinity"], d["pressure"], LON, LAT)  # only to place the samples; anomaly analytic
-    del SA
     true = d["a"] * np.exp(-0.5 * ((d["depth"] - d["zc"]) / d["sz"]) ** 2) * \
         np.exp(-0.5 * ((d["east"] - d["xc"]) / d["sx"]) ** 2)
     edges = res.edges

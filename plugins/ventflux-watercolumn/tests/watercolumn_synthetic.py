@@ -47,10 +47,9 @@ def towyo(n_profiles=20, spacing=None, ship=0.5, winch=1.0, z_top=1900.0, z_bott
     rho_c = float(gsw.rho(gsw.SA_from_SP(np.interp(zc, z[np.argsort(z)], sp_b[np.argsort(z)]), pc, lon, lat),
                           np.interp(zc, np.sort(z), ct[np.argsort(z)]), pc))
     H = rho_c * CP0 * u * a * 2 * np.pi * sz * sx
-    lat_deg = lat + np.zeros_like(t)
     return {"time": t, "east": x, "north": np.zeros_like(t), "pressure": p, "temperature": temp, "salinity": sp,
             "latitude": lat, "longitude": lon, "heat_flux": H, "xc": xc, "sx": sx, "zc": zc, "sz": sz, "a": a,
-            "depth": z, "noise_theta": t_noise, "lat_deg": lat_deg}
+            "depth": z, "noise_theta": t_noise}
 
 
 def write_csv(path, d):

@@ -95,10 +95,8 @@ class SectionData:
         return int(self.time.size)
 
     def where(self, i) -> str:
-        if self.lines is None:
-            return f"{self.source}: sample {int(i)}"
-        kind = "" if self.source.endswith(".csv") else "sample "
-        return f"{self.source}:{kind}{int(self.lines[i])}"
+        """``file:line`` (CSV) or ``file:sample i`` (netCDF) of sample ``i``, for messages."""
+        return _where(self.source, np.arange(self.size) if self.lines is None else self.lines, i)
 
 
 def read_section(path, latitude=None, longitude=None) -> SectionData:
