@@ -268,7 +268,9 @@ def test_cli_prints_json_and_refuses_in_one_line(synthetic, tmp_path, capsys):
     assert main([*args, "--vent-depth", "2480 m", "--current", "0.05 ± 0.005 m/s", "--current-direction", "0 deg",
                  "--json", "--out", str(tmp_path / "p.csv"), "--figures", str(tmp_path / "f")]) == 0
     out = json.loads(capsys.readouterr().out)
-    assert out["summary"][0]["quantity"] == "heat flux" and out["summary"][0]["nominal"] > 0
+    assert out["heat_flux_W"] > 0 and out["heat_flux_W_p05"] < out["heat_flux_W"] < out["heat_flux_W_p95"]
+    assert {"heat_flux_current_only_W_std", "rise_height_spreading_m_median", "noise_dtheta_K"} <= set(out)
+    assert "top_depth_m" in out["profiles"][0]
     assert (tmp_path / "p.csv").read_text().startswith("profile,")
     assert len(list((tmp_path / "f").glob("*.png"))) == 3
     assert main(args) == 2

@@ -119,8 +119,7 @@ def run(args) -> int:
         for stem, png, _ in section_figures(res, out):
             write_output("--figures", folder, atomic_write_bytes, folder / f"{stem}.png", png)
     if args.json:
-        print_json({"section": res.source, "seed": draws.seed, "draws": draws.n_draws, "summary": rows,
-                    "profiles": res.rows(), "notes": res.notes})
+        print_json(_payload(res, out, draws))
         return 0
     print_table([(r["quantity"], r["nominal"], r["unit"]) for r in rows], title=f"{res.source}")
     for r in rows:
@@ -129,6 +128,39 @@ def run(args) -> int:
     for n in res.notes:
         print(f"note: {n}")
     return 0
+
+
+def _payload(res, out, draws):
+    """One JSON object, SI units in the keys (``heat_flux_W_p05``, ``rise_height_maximum_m_median``)."""
+    import re
+
+    from ventflux.uncertainty import unit_tag
+    from ventflux.units import parse_column_name
+
+    from .survey import summaries
+
+    p = {"section": res.source, "seed": draws.seed, "draws": draws.n_draws, "heat_flux_W": out.nominal_heat_flux,
+         "heat_flux_constant_cp_W": out.shortcut_heat_flux, "failed_draws": out.failed,
+         "normal_bearing_deg": res.normal_bearing, "noise_dtheta_K": res.noise,
+         "threshold_dtheta_K": res.noise * res.factor, "profiles_with_layer": int(res.found.sum()),
+         "profiles_total": res.n_profiles, "bin_size_m": res.bin_size}
+    for name, s in summaries(res, out).items():
+        if s is None:
+            continue
+        unit = "m" if name.startswith("rise_height_") else "W"
+        if unit == "m":
+            p[f"{name}_m"] = res.height(name[len("rise_height_"):])
+        p.update(s.as_dict(re.sub(r"[^0-9a-z]+", "_", name.lower()).strip("_"), unit))
+    rows = []
+    for r in res.rows():
+        row = {}
+        for k, v in r.items():
+            base, unit = parse_column_name(k)
+            row[f"{base}_{unit_tag(unit)}" if unit else base] = v
+        rows.append(row)
+    p["profiles"] = rows
+    p["notes"] = res.notes
+    return p
 
 
 def _csv(rows):

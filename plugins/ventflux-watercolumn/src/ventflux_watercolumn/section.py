@@ -406,10 +406,10 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
 
     total = H(beta_b, W, speed, off, window=True)
     nominal = float(H(beta0, w0, speed0, off0))
-    parts = {"profile sampling (bootstrap)": H(beta0, W, speed0, off0),
+    parts = {"profile sampling": H(beta0, W, speed0, off0),  # the bootstrap over profiles
              "background fit": H(beta_b, w0, speed0, off0),
              "current": H(beta0, w0, speed, off),
-             "background window (against one twice as wide)": H(beta0, w0, speed0, off0, window=True)}
+             "background window": H(beta0, w0, speed0, off0, window=True)}  # against one twice as wide
     if not res.found.any():  # no layer: nothing was integrated, and a zero would read as a measurement
         nan = np.full(n, np.nan)
         total, nominal, parts = nan, float("nan"), {k: nan for k in parts}

@@ -33,6 +33,7 @@ from ventflux.errors import InputError, InputErrors
 from ventflux.survey import SectionEstimate, SurveySection
 from ventflux.units import Q_
 
+from .section import LEVELS as LEVEL_NAMES
 from .section import TRACERS
 
 KEY = "water_column"
@@ -147,24 +148,40 @@ def _estimate(spec, ctx):
                            figures=section_figures(res, out), notes=notes, compares_with=spec["compares_with"])
 
 
-def summary_rows(res, out):
-    """Rows ``quantity, unit, nominal, p05, median, p95, …``: heat flux with its parts, rise heights."""
-    def row(name, unit, nominal, draws, scale=1.0):
-        d = np.asarray(draws, float)[np.isfinite(draws)] * scale
-        r = {"quantity": name, "unit": unit, "nominal": nominal * scale}
-        if d.size:
-            r.update(p05=float(np.percentile(d, 5)), median=float(np.median(d)), p95=float(np.percentile(d, 95)),
-                     sd=float(np.std(d)))
-        return r
+def summaries(res, out) -> dict:
+    """Monte Carlo summaries (``ventflux.uncertainty.Summary``) by name: heat flux (W), its parts, rise heights (m)."""
+    from ventflux.uncertainty import summarize
 
-    rows = [row("heat flux", "MW", out.nominal_heat_flux, out.heat_flux, 1e-6)]
-    rows += [row(f"heat flux: {k} only", "MW", out.nominal_heat_flux, v, 1e-6) for k, v in out.parts.items()]
+    def summ(draws, unit):
+        d = np.asarray(draws, float)
+        return summarize(Q_(d, unit)) if np.isfinite(d).any() else None
+
+    out_ = {"heat_flux": summ(out.heat_flux, "W")}
+    out_.update({f"heat_flux: {k} only": summ(v, "W") for k, v in out.parts.items()})
+    if res.found.any():
+        out_.update({f"rise_height_{lvl}": summ(d, "m") for lvl, d in out.heights.items()})
+    return out_
+
+
+def summary_rows(res, out):
+    """Rows ``quantity, unit, nominal, mean, median, p05, p95, std``: heat flux with its parts, rise heights."""
+    rows = []
+    for name, s in summaries(res, out).items():
+        is_height = name.startswith("rise_height_")
+        unit, scale = ("m", 1.0) if is_height else ("MW", 1e-6)
+        if is_height:
+            lvl = name[len("rise_height_"):]
+            label = f"rise height ({lvl}: layer {LEVEL_NAMES[lvl]})"
+            nominal = res.height(lvl)
+        else:
+            label, nominal = name.replace("_", " "), out.nominal_heat_flux * scale
+        r = {"quantity": label, "unit": unit, "nominal": nominal}
+        if s is not None:
+            s = s.to(unit)
+            r.update({k: float(getattr(s, k).magnitude) for k in ("mean", "median", "p05", "p95", "std")})
+        rows.append(r)
     rows.append({"quantity": "heat flux, constant-c_p shortcut ρ c_p Δθ", "unit": "MW",
                  "nominal": 1e-6 * out.shortcut_heat_flux})
-    for lvl, d in out.heights.items():
-        if res.found.any():
-            rows.append(row(f"rise height ({lvl}: layer {'top' if lvl == 'maximum' else 'core' if lvl == 'spreading' else 'bottom'})",
-                            "m", res.height(lvl), d))
     rows.append({"quantity": "profiles with a layer", "unit": "", "nominal": int(res.found.sum())})
     rows.append({"quantity": "profiles", "unit": "", "nominal": res.n_profiles})
     rows.append({"quantity": "background noise of Δθ", "unit": "mK", "nominal": 1e3 * res.noise})
