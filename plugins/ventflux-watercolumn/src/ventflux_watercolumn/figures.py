@@ -56,13 +56,16 @@ def section_png(res) -> bytes:
 def profiles_png(res) -> bytes:
     """θ against σ₀ with the background fit, and Δθ against depth for every profile (layer profiles dark)."""
     plt = _plt()
-    fig, (a1, a2) = plt.subplots(1, 2, figsize=(9, 4.5))
+    optical = res.optical_grid is not None
+    fig, axes = plt.subplots(1, 3 if optical else 2, figsize=(13 if optical else 9, 4.5))
+    a1, a2 = axes[0], axes[1]
     use = res.sample_profile >= 0
     step = max(1, int(use.sum() // 20000))  # a readable scatter, not every sample
     idx = np.flatnonzero(use)[::step]
     a1.plot(res.sample_sigma0[idx], res.sample_theta[idx], ".", ms=1, color="tab:red", label="samples")
     o = np.argsort(res.sample_sigma0[idx])
     a1.plot(res.sample_sigma0[idx][o], res.sample_background[idx][o], "k-", lw=1, label="background fit")
+    a1.xaxis.set_major_locator(plt.MaxNLocator(4))
     a1.set_xlabel("σ₀ [kg/m³]")
     a1.set_ylabel("θ [°C]")
     a1.legend(fontsize=8)
@@ -74,6 +77,15 @@ def profiles_png(res) -> bytes:
     a2.set_xlabel("Δθ [mK]")
     a2.set_ylabel("depth [m]")
     a2.legend(fontsize=8)
+    if optical:  # the optical anomaly against its own background median
+        a3 = axes[2]
+        for p in range(res.n_profiles):
+            a3.plot(res.optical_grid[p], res.depth, "-", lw=0.8, color="tab:blue" if res.found[p] else "0.7")
+        a3.axvline(res.factor * res.optical_noise, color="k", ls="--", lw=0.8,
+                   label=f"{res.factor:g} × noise ({res.optical_noise:.2g})")
+        a3.invert_yaxis()
+        a3.set_xlabel(f"optical anomaly (background {res.optical_background:.3g})")
+        a3.legend(fontsize=8)
     fig.tight_layout()
     return _png(fig)
 
@@ -88,7 +100,7 @@ def flux_png(out) -> bytes:
     for v, ls in ((p05, "--"), (p50, "-"), (p95, "--")):
         ax.axvline(v, color="k", ls=ls, lw=1)
     parts = ", ".join(f"{k} ±{np.nanstd(v) / 1e6:.2g}" for k, v in out.parts.items())
-    ax.set_title(f"heat flux {p50:.3g} MW (90 %: {p05:.3g}–{p95:.3g}); sd parts: {parts}", fontsize=8)
+    ax.set_title(f"heat flux {p50:.3g} MW (90 %: {p05:.3g}–{p95:.3g})\nsd of each part alone: {parts} MW", fontsize=8)
     ax.set_xlabel("heat flux across the section [MW]")
     ax.set_yticks([])
     fig.tight_layout()
@@ -103,7 +115,8 @@ def section_figures(res, out) -> list:
                                                   "integrated for the heat flux.")),
             (f"{name}_profiles", profiles_png(res), (f"{name}: θ against σ₀ with the background fit, and Δθ "
                                                      "profiles (profiles with a layer in red) against the "
-                                                     "detection threshold."))]
+                                                     "detection threshold; the optical anomaly beside, if "
+                                                     "recorded."))]
     if np.isfinite(out.heat_flux).any():
         figs.append((f"{name}_heat_flux", flux_png(out), (f"{name}: draws of the heat flux across the section "
                                                           "with its median and 90 % interval.")))
