@@ -276,3 +276,24 @@ def test_cli_prints_json_and_refuses_in_one_line(synthetic, tmp_path, capsys):
     assert main(args) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--current" in err[0]
+
+
+@settings(max_examples=40, deadline=None)
+@given(row=st.integers(0, 59), col=st.integers(0, 5),
+       cell=st.sampled_from(["", "nan", "inf", "abc", "-5", "1e9", "2,3", "  "]))
+def test_a_corrupted_cell_is_refused_in_one_line_or_read(tmp_path_factory, row, col, cell):
+    # Fuzzing one cell of a valid file: the reader either accepts it or names the file, line and column.
+    d = towyo(n_profiles=4)
+    path = write_csv(tmp_path_factory.mktemp("fz") / "f.csv", {k: (v[:60] if hasattr(v, "__len__") else v)
+                                                               for k, v in d.items()})
+    lines = path.read_text().splitlines()
+    cells = lines[row + 1].split(",")
+    cells[col] = cell
+    lines[row + 1] = ",".join(cells)
+    path.write_text("\n".join(lines) + "\n")
+    try:
+        read_section(path, latitude=LAT, longitude=LON)
+    except InputErrors as e:
+        assert all("f.csv" in line for line in e.lines())
+    except InputError as e:
+        assert "f.csv" in e.line() and "\n" not in e.line()
