@@ -29,9 +29,10 @@ ENTRAINMENT_NAME = "constants/entrainment coefficient"
 def _parse(f, ctx):
     from ..plume import DEFAULT_ENTRAINMENT, LEVELS, METHODS
 
+    level = f.string("level", default="maximum", choices=LEVELS)
     spec = {
-        "height": f.quantity("height", "length", required=True, positive=True),
-        "level": f.string("level", default="maximum", choices=LEVELS),
+        "height": _height(f, ctx, level or "maximum"),
+        "level": level,
         "method": f.string("method", default="integral", choices=METHODS),
         "entrainment": f.quantity("entrainment", "dimensionless", default=None),
         "current": f.quantity("current", "velocity"),
@@ -47,6 +48,28 @@ def _parse(f, ctx):
         f.error("buoyancy_frequency", "(missing)", "a buoyancy frequency, or a CTD cast in [site] ctd")
     f.check_unknown()
     return spec
+
+
+def _height(f, ctx, level):
+    """The observed height: a length, or a water-column file read by a plugin's ``rise height`` reader."""
+    from ..errors import InputError, InputErrors
+    from ..registry import readers
+
+    raw = f.table.get("height")
+    found = {sfx: r for r in readers() if r.kind == "rise height" for sfx in r.suffixes}
+    if not (isinstance(raw, str) and raw.strip().lower().endswith(tuple(found))):
+        return f.quantity("height", "length", required=True, positive=True)
+    path = f.path_value("height", required=True)
+    if path is None:
+        return None
+    ctx.input_files[str(path)] = "water-column section (rise height)"
+    try:
+        return found[path.suffix.lower()].read(path, level=level, site=ctx.site)
+    except InputErrors as e:
+        f.errors.errors.extend(e.errors)
+    except InputError as e:
+        f.errors.add(e)
+    return None
 
 
 def _estimate(spec, vent, ctx):
