@@ -26,7 +26,7 @@ import numpy as np
 from ventflux.errors import InputError
 from ventflux.units import Q_, magnitude
 
-from .correlation import VectorField, check_passes, displacement_field
+from .correlation import VectorField, check_passes, displacement_field, pattern_width
 from .frames import frame_pairs
 
 #: Frames taken, evenly spread over the clip's range, for the median background (a choice: a median of
@@ -59,6 +59,7 @@ class MeanField:
     duplicate_frames: tuple = ()  # image files left out: their number repeats an earlier file's
     variable_rate: bool = False
     background_removed: str = "none"
+    pattern_width: float = float("nan")  # px, sd of the tracer pattern's autocorrelation peak (first pair)
 
     def velocity(self, metres_per_pixel):
         """Mean and sd of ``u`` (right) and ``w`` (up) in m/s: ``(u, w, u_sd, w_sd)``."""
@@ -164,12 +165,15 @@ def mean_displacement_field(stream, passes=(64, 32, 32), overlap=0.5, gap=1, pai
     acc = FieldAccumulator()
     last = None
     picture = None
+    width = float("nan")
     nominal = gap * stream.step / float(stream.frame_rate.to("1/s").magnitude)
     for i, a, b in frame_pairs(stream, gap):
         if picture is None:
             picture = a.copy()
         if still is not None:
             a, b = a - still, b - still
+        if not np.isfinite(width):
+            width = pattern_width(a, passes[-1])
         last = displacement_field(a, b, passes, overlap, origin=stream.origin, **options)
         dx, dy = last.dx, last.dy
         if stream.variable_rate:
@@ -180,6 +184,7 @@ def mean_displacement_field(stream, passes=(64, 32, 32), overlap=0.5, gap=1, pai
             break
     out = _finish(acc, last, stream, gap, pairs, picture)
     out.background_removed = "temporal median" if still is not None else "none"
+    out.pattern_width = width
     return out
 
 
