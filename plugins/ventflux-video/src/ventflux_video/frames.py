@@ -98,6 +98,9 @@ class FrameStream:
         Frame range (``stop`` exclusive, ``None`` to the end), as for ``range``.
     progress : bool
         Show a progress bar on standard error.
+    colour : bool
+        Deliver ``(rows, columns, 3)`` RGB frames instead of gray ones (for
+        coloured laser spots); a gray image is repeated in the three channels.
 
     Attributes
     ----------
@@ -121,9 +124,11 @@ class FrameStream:
         used pair by pair).
     """
 
-    def __init__(self, source, frame_rate=None, region=None, start=0, stop=None, step=1, progress=False):
+    def __init__(self, source, frame_rate=None, region=None, start=0, stop=None, step=1, progress=False,
+                 colour=False):
         self.source = str(source)
         self.progress = progress
+        self.colour = bool(colour)
         if not (isinstance(step, int) and step >= 1):
             raise InputError("frame step", step, "a whole number ≥ 1")
         if not (isinstance(start, int) and start >= 0):
@@ -234,7 +239,7 @@ class FrameStream:
                 if self.stop is not None and index >= self.stop:
                     break
                 bar.update(1)
-                if frame is None or frame.shape != self.frame_shape:
+                if frame is None or frame.shape[:2] != self.frame_shape:
                     self.skipped += 1
                     continue
                 if self.region is not None:
@@ -247,7 +252,7 @@ class FrameStream:
     def _raw_images(self):
         for i, f in self._files:
             wanted = i >= self.start and (i - self.start) % self.step == 0
-            yield i, (_read_image(f) if wanted else None)  # unwanted ones are filtered out by the caller
+            yield i, (_read_image(f, self.colour) if wanted else None)  # unwanted ones are filtered out by the caller
 
     def interval(self, index_a, index_b):
         """Time between two frames (s): the container's timestamps, else frames over the frame rate."""
@@ -259,7 +264,8 @@ class FrameStream:
         import imageio_ffmpeg
 
         h, w = self.frame_shape
-        gen = imageio_ffmpeg.read_frames(self.source, pix_fmt="gray", bpp=1, output_params=_PASSTHROUGH)
+        fmt, depth = ("rgb24", 3) if self.colour else ("gray", 1)
+        gen = imageio_ffmpeg.read_frames(self.source, pix_fmt=fmt, bpp=depth, output_params=_PASSTHROUGH)
         next(gen)
         i = 0
         try:
@@ -271,7 +277,7 @@ class FrameStream:
                 except RuntimeError:  # the stream ended inside a frame: count it and stop
                     yield i, None
                     return
-                yield i, np.frombuffer(buf, np.uint8).reshape(h, w)
+                yield i, np.frombuffer(buf, np.uint8).reshape((h, w, 3) if self.colour else (h, w))
                 i += 1
         finally:
             gen.close()
@@ -340,14 +346,18 @@ def _image_files(source):
     return files
 
 
-def _read_image(path):
-    """Gray float image, or None if the file cannot be decoded."""
+def _read_image(path, colour=False):
+    """Gray float image (RGB with ``colour``), or None if the file cannot be decoded."""
     import imageio.v3 as iio
 
     try:
         img = np.asarray(iio.imread(path))
     except Exception:  # any decoding failure of one frame is counted, not fatal
         return None
+    if colour:
+        if img.ndim == 2:
+            return np.repeat(img[..., None], 3, axis=2)
+        return img[..., :3] if img.ndim == 3 and img.shape[-1] >= 3 else None
     if img.ndim == 3:
         img = img[..., :3] @ _LUMA[: img.shape[-1]] if img.shape[-1] >= 3 else img[..., 0]
     if img.ndim != 2:

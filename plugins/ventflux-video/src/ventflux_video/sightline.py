@@ -22,7 +22,10 @@ weighted mean along the line of sight, ``D_app / D_c = 1 / sqrt(1 + λ^2)``
 (the Gaussian integrals in closed form); when they spread over much more than
 ``σ`` the peak moves to the most common displacement, the centreline's. The
 factor ``D_app / D_c`` is therefore a function of ``λ`` and ``D_c / σ`` only,
-tabulated here and inverted for ``D_c`` (it grows with ``D_c``).
+tabulated here and inverted for ``D_c`` (it grows with ``D_c``). The peak is
+located as the deformation passes locate it: where the correlation 1 px either
+side of it is equal (the three-point fit's fixed point), which on the skewed
+sum lies slightly towards its slow side.
 
 ``λ`` is uncertain: for round buoyant plumes measured widths of the scalar
 (tracer or temperature) and velocity profiles give ratios from about 1.0 to
@@ -56,8 +59,8 @@ VIEWS = ("volume", "sheet")
 DEFAULT_VIEW = "volume"
 #: Tracer-to-velocity width ratio λ, lower and upper bound of the default uniform range [2], [3] (from memory).
 DEFAULT_WIDTH_RATIO_RANGE = (1.0, 1.2)
-_Q = np.concatenate([[0.0], np.geomspace(0.05, 200.0, 160)])  # D_c / σ grid of the table (a numerical choice)
-_Y = np.linspace(-5.0, 5.0, 801)  # line-of-sight samples in units of the tracer width λb
+_Y = np.linspace(0.0, 4.0, 101)  # half line of sight (symmetric), in units of the tracer width λb
+_LAMBDA = np.linspace(0.5, 2.0, 31)  # λ grid of the tables (a numerical choice; draws outside are clipped)
 
 
 def check_view(view, field="view"):
@@ -79,26 +82,43 @@ def mean_limit_factor(width_ratio):
     return 1.0 / np.sqrt(1.0 + lam**2)
 
 
-@lru_cache(maxsize=64)
-def _table(width_ratio):
-    """Apparent over centreline displacement on the ``_Q`` grid for one ``λ`` (rounded to 1e-3)."""
-    lam = float(width_ratio)
-    y = _Y * lam  # in units of b
-    weight = np.exp(-(_Y**2))  # tracer, exp(-y^2/(λb)^2)
-    shape = np.exp(-(y**2))  # D(y) / D_c
-    mean = float(np.sum(weight * shape) / np.sum(weight))
-    out = np.empty(_Q.size)
-    out[0] = mean
-    s = np.linspace(0.0, 1.0, 2001)  # candidate peak positions over D_c
-    for k, q in enumerate(_Q[1:], start=1):  # 160 small evaluations, once per λ
-        r = (weight[None, :] * np.exp(-0.5 * (q * (s[:, None] - shape[None, :])) ** 2)).sum(axis=1)
-        i = int(np.argmax(r))
-        if 0 < i < s.size - 1:  # parabolic refinement of the grid maximum
-            den = r[i - 1] - 2 * r[i] + r[i + 1]
-            out[k] = s[i] + 0.5 * (r[i - 1] - r[i + 1]) / den * (s[1] - s[0]) if den < 0 else s[i]
-        else:
-            out[k] = s[i]
-    return out
+def _settle(lam, centre, sigma):
+    """Where the three-point peak estimator settles on the summed correlation peak (px).
+
+    The correlation plane is ``R(s) = Σ c(y) exp(-(s - D(y))^2 / (2 σ^2))``; the
+    window-deformation passes converge where the residual peak fit is zero,
+    i.e. where ``R(s - 1) = R(s + 1)`` (1 px either side), found by bisection
+    on ``[0, D_c]`` for every ``(λ, D_c)`` at once.
+    """
+    lam, centre = np.broadcast_arrays(np.asarray(lam, float), np.asarray(centre, float))
+    y = _Y[None, :] * lam.reshape(-1, 1)  # in units of b
+    weight = np.exp(-(_Y**2))[None, :]
+    disp = centre.reshape(-1, 1) * np.exp(-(y**2))
+
+    def balance(s):
+        up = (weight * np.exp(-((s[:, None] + 1 - disp) ** 2) / (2 * sigma**2))).sum(axis=1)
+        down = (weight * np.exp(-((s[:, None] - 1 - disp) ** 2) / (2 * sigma**2))).sum(axis=1)
+        return up - down  # > 0: the peak lies beyond s
+
+    lo, hi = np.zeros(centre.size), centre.ravel().copy()
+    for _ in range(30):  # 2^-30 of D_c
+        mid = 0.5 * (lo + hi)
+        beyond = balance(mid) > 0
+        lo, hi = np.where(beyond, mid, lo), np.where(beyond, hi, mid)
+    return (0.5 * (lo + hi)).reshape(centre.shape)
+
+
+@lru_cache(maxsize=8)
+def _table(sigma, top):
+    """Apparent displacement on the grid ``_LAMBDA x D_c`` (D_c from 0 to ``top`` px) for one pattern width."""
+    d = np.linspace(0.0, top, 48)
+    lam, dd = np.meshgrid(_LAMBDA, d, indexing="ij")
+    return d, _settle(lam, dd, sigma)
+
+
+def _grid_top(values):
+    top = float(np.nanmax(np.abs(values))) if np.size(values) else 1.0
+    return float(2.0 ** np.ceil(np.log2(max(top, 0.5)) + 1))  # room above the largest, few distinct tables
 
 
 def line_of_sight_factor(width_ratio, centreline_displacement=None, pattern_width=None):
@@ -123,29 +143,37 @@ def line_of_sight_factor(width_ratio, centreline_displacement=None, pattern_widt
     lam = check_width_ratio(width_ratio)
     if centreline_displacement is None or pattern_width is None or not pattern_width > 0:
         return mean_limit_factor(lam)
-    q = np.abs(np.asarray(centreline_displacement, float)) / float(pattern_width)
-    lam_b, q_b = np.broadcast_arrays(np.round(lam, 3), q)
-    out = np.empty(lam_b.shape)
-    for value in np.unique(lam_b):
-        m = lam_b == value
-        out[m] = np.interp(q_b[m], _Q, _table(float(value)))
-    return out
+    dc = np.abs(np.asarray(centreline_displacement, float))
+    d, table = _table(round(float(pattern_width), 2), _grid_top(dc))
+    apparent = _interp2(np.clip(lam, _LAMBDA[0], _LAMBDA[-1]), dc, _LAMBDA, d, table)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(dc > 0, apparent / np.where(dc > 0, dc, 1.0), mean_limit_factor(lam))
+
+
+def _interp2(x, y, gx, gy, table):
+    """Bilinear interpolation of ``table[gx, gy]`` at points ``(x, y)`` (broadcast)."""
+    x, y = np.broadcast_arrays(np.asarray(x, float), np.asarray(y, float))
+    i = np.clip(np.searchsorted(gx, x, side="right") - 1, 0, gx.size - 2)
+    j = np.clip(np.searchsorted(gy, y, side="right") - 1, 0, gy.size - 2)
+    tx = np.clip((x - gx[i]) / (gx[i + 1] - gx[i]), 0, 1)
+    ty = (y - gy[j]) / (gy[j + 1] - gy[j])
+    return ((1 - tx) * (1 - ty) * table[i, j] + tx * (1 - ty) * table[i + 1, j]
+            + (1 - tx) * ty * table[i, j + 1] + tx * ty * table[i + 1, j + 1])
 
 
 def centreline_displacement(apparent, width_ratio, pattern_width=None):
-    """Invert ``line_of_sight_factor``: centreline displacement (px) whose apparent one is ``apparent``.
+    """Invert ``line_of_sight_factor``: the centreline displacement (px) whose apparent one is ``apparent``.
 
-    ``apparent = D_c f(λ, D_c/σ)`` grows with ``D_c``; it is solved on the
-    table's grid by interpolation. Signs are kept (the factor acts on magnitudes).
+    The apparent displacement grows with the centreline one; for each ``λ`` of
+    the grid the table is inverted by interpolation, then interpolated in ``λ``.
+    Signs are kept (the factor acts on magnitudes).
     """
     lam = check_width_ratio(width_ratio)
     a = np.asarray(apparent, float)
     if pattern_width is None or not pattern_width > 0:
         return a / mean_limit_factor(lam)
-    lam_b, a_b = np.broadcast_arrays(np.round(lam, 3), a)
-    out = np.empty(a_b.shape)
-    for value in np.unique(lam_b):
-        m = lam_b == value
-        seen = _Q * _table(float(value))  # apparent / σ on the grid, increasing
-        out[m] = np.sign(a_b[m]) * pattern_width * np.interp(np.abs(a_b[m]) / pattern_width, seen, _Q)
-    return out
+    mag = np.abs(a)
+    top = _grid_top(mag / float(np.min(mean_limit_factor(lam))))
+    d, table = _table(round(float(pattern_width), 2), top)
+    inverse = np.stack([np.interp(d, row, d) for row in table])  # centreline displacement at apparent = d
+    return np.sign(a) * _interp2(np.clip(lam, _LAMBDA[0], _LAMBDA[-1]), mag, _LAMBDA, d, inverse)

@@ -25,7 +25,8 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy.special import erf
 
-from .plume import DEFAULT_PLUME_CONSTANT
+#: The demo plume's centreline constant (the top of the published range; plume.PLUME_CONSTANT_RANGE).
+DEFAULT_PLUME_CONSTANT = 4.7
 
 _SQRT2 = np.sqrt(2.0)
 
