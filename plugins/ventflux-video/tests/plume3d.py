@@ -13,7 +13,9 @@ and the released similarity coordinates are drawn so that the concentration
 across the plume is the Gaussian of width λ b. The camera looks along y and
 projects orthographically: every particle, wherever it lies along the line of
 sight, adds a Gaussian spot at its (x, z). A motionless textured wall fills
-the lower corners (what a chimney looks like), and the frames are 8-bit PNGs.
+the lower corners (what a chimney looks like), optionally a motionless
+textured backdrop lies behind the lower half of the plume, and the frames are
+8-bit PNGs named ``frame_1.png`` ... (numbers not zero-padded).
 
 Nothing here uses the plugin: the check it serves compares the plugin's
 estimate with the F, k and z0 written here.
@@ -44,7 +46,8 @@ class VolumePlume:
 
 def render_volume_plume(folder, frames=24, shape=(400, 300), metres_per_pixel=1e-3, frame_rate=100.0,
                         buoyancy_flux=1e-3, virtual_origin=-0.4, plume_constant=4.7, width_ratio=1.1,
-                        spreading=0.11, release_rate=6e4, spot_sd=0.9, wall=True, seed=0) -> VolumePlume:
+                        spreading=0.11, release_rate=1500, spot_sd=0.9, wall=True, backdrop=False,
+                        seed=0) -> VolumePlume:
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     rng = np.random.default_rng(seed)
@@ -74,6 +77,11 @@ def render_volume_plume(folder, frames=24, shape=(400, 300), metres_per_pixel=1e
         texture[np.broadcast_to(mask, shape)] = 0.0
         blobs = wall_rng.uniform(0, 1, shape) * mask
         texture = 0.6 * mask + 0.4 * blobs
+    still = np.zeros(shape)
+    if backdrop:  # a motionless textured rock face behind the lower half of the plume, seen through it
+        back_rng = np.random.default_rng(seed + 2)
+        bx, by = back_rng.uniform(0, w, 1500), back_rng.uniform(0.5 * h, h, 1500)
+        still = 0.5 * _spots(shape, bx, by, back_rng.uniform(0.5, 1.0, bx.size), 1.2)
     for k in range(frames):
         t = k / frame_rate
         age = t - t_release
@@ -83,7 +91,7 @@ def render_volume_plume(folder, frames=24, shape=(400, 300), metres_per_pixel=1e
         px = ox + ex[live] * b / metres_per_pixel
         py = oy - z / metres_per_pixel
         keep = (py > -5) & (py < h + 5) & (px > -5) & (px < w + 5)
-        img = _spots(shape, px[keep], py[keep], bright[live][keep], spot_sd)
+        img = _spots(shape, px[keep], py[keep], bright[live][keep], spot_sd) + still
         if texture is not None:
             img = np.maximum(img, texture)
         img = np.clip(img * 200 + 10, 0, 255).astype(np.uint8)
