@@ -15,15 +15,15 @@ import time
 import imageio.v3 as iio
 import numpy as np
 import pytest
-
 from plume3d import _spots, render_volume_plume
-from ventflux.cli import main
-from ventflux.errors import InputError
-from ventflux.units import Q_
 from ventflux_video import correlation as cc
 from ventflux_video import scale
 from ventflux_video.frames import FrameStream, container_times
 from ventflux_video.jet import analyze_jet_clip
+
+from ventflux.cli import main
+from ventflux.errors import InputError
+from ventflux.units import Q_
 
 INNER = (slice(1, -1), slice(1, -1))
 
@@ -65,8 +65,10 @@ def _openpiv_windef(a, b):
 def _rotation(theta, c):
     # Solid-body rotation by theta about c: exact particle motion. The displacement measured between the frames
     # belongs to the pair's mid-point m: d = 2 tan(theta/2) J (m - c) (the chord of the rotation).
+    cos, sin = np.cos(theta), np.sin(theta)
+
     def move(x, y):
-        return (c + np.cos(theta) * (x - c) - np.sin(theta) * (y - c), c + np.sin(theta) * (x - c) + np.cos(theta) * (y - c))
+        return c + cos * (x - c) - sin * (y - c), c + sin * (x - c) + cos * (y - c)
 
     def truth(x, y):
         t = 2 * np.tan(theta / 2)
@@ -81,7 +83,8 @@ def test_deformation_against_openpiv_multipass(flow):
     # windows (64, 32, 32 px, 50 % overlap): ours at most as far from the truth, and no slower.
     shape = (256, 256)
     if flow == "uniform":
-        move, truth = (lambda x, y: (x + 1.37, y - 2.62)), (lambda x, y: (np.full_like(x, 1.37), np.full_like(y, -2.62)))
+        move = lambda x, y: (x + 1.37, y - 2.62)
+        truth = lambda x, y: (np.full_like(x, 1.37), np.full_like(y, -2.62))
     elif flow == "shear":
         move, truth = (lambda x, y: (x + 0.04 * (y - 128), y)), (lambda x, y: (0.04 * (y - 128), 0 * y))
     else:
@@ -176,8 +179,9 @@ def test_narrow_jet_is_flagged_with_a_window_that_resolves_it(volume_clip, volum
 
 # ------------------------------------------------------------------ uncertainty
 def test_uncertainty_by_default_names_its_parts_and_shares_the_constants(volume_result):
-    from ventflux.aggregate import SharedDraws
     from ventflux_video.propagation import PARTS, jet_draws
+
+    from ventflux.aggregate import SharedDraws
 
     draws = SharedDraws(4000, seed=3)
     one = jet_draws(volume_result, draws, {p: f"A/video/{p}" for p in PARTS})

@@ -24,7 +24,6 @@ from ventflux.errors import InputError
 from ventflux.units import Q_, magnitude
 
 
-
 def _check_length(length, field):
     d = magnitude(length, "m", "length", field)
     if not (np.isfinite(d) and d > 0):

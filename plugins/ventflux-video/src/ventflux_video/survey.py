@@ -21,6 +21,7 @@ frame count and rate, and whether the orifice and the region lie in the frame.
 from __future__ import annotations
 
 import numpy as np
+
 from ventflux.errors import InputError
 from ventflux.survey import MethodEstimate, SurveyMethod
 from ventflux.survey.fields import as_float, nominal_of
