@@ -113,8 +113,8 @@ def pixel_scale(args, field_clip=None):
         mpp = metres_per_pixel_from_points((x1, y1), (x2, y2), nominal(dist))
         return mpp, _relative(dist) if isinstance(dist, Uncertain) else None
     sep = parse_uncertain(args.laser_separation, "length", "--laser-separation")
-    spots = metres_per_pixel_from_laser_spots(field_clip or _stream(args, progress=False), nominal(sep),
-                                              colour=getattr(args, "laser_colour", "white"))
+    frames = field_clip or _stream(args, progress=False, colour=True)
+    spots = metres_per_pixel_from_laser_spots(frames, nominal(sep), colour=getattr(args, "laser_colour", "white"))
     rel = spots.relative_error
     if isinstance(sep, Uncertain):
         rel = float(np.hypot(rel, _relative(sep).b))
