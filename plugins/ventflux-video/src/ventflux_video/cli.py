@@ -207,16 +207,23 @@ def _field_summary(field, mpp):
         "mean_w_m_s": float(np.nanmean(w)), "max_w_m_s": float(np.nanmax(w)), "mean_u_m_s": float(np.nanmean(u)),
         "replaced_vector_fraction": field.replaced_fraction, "frames_skipped": field.skipped_frames,
         "frames_missing": field.missing_frames, "orientation": "x right, w up (against image rows)",
+        "frame_gaps": list(field.frame_gaps), "duplicate_frames": list(field.duplicate_frames),
+        "variable_frame_rate": field.variable_rate, "background_removed": field.background_removed,
     }
 
 
 def run_field(args) -> int:
     from .outputs import field_figure, field_table
 
+    from .jet import frame_flag
+
     mpp = metres_per_pixel(args)
     stream = _stream(args)
     field = _mean_field(args, stream)
     out = _field_summary(field, mpp)
+    flag = frame_flag(field)
+    if flag:
+        print(f"warning: {flag}", file=sys.stderr)
     if args.out:
         with atomic_directory(args.out) as tmp:
             (Path(tmp) / "velocity_field.csv").write_text(field_table(field, mpp))
