@@ -259,7 +259,7 @@ def configure_jet(p):
     j.add_argument("--view", default="volume", choices=("volume", "sheet"),
                    help="volume (default, dive video): the camera sees the whole plume and speeds are corrected "
                         "for the line of sight; sheet: a light sheet through the axis")
-    j.add_argument("--width-ratio", default=None, metavar="R",
+    j.add_argument("--tracer-to-velocity-width-ratio", dest="width_ratio", default=None, metavar="R",
                    help="tracer-to-velocity width ratio for the volume view, a number or a distribution "
                         "(default: uniform(1.0, 1.2))")
     j.add_argument("--draws", type=int, default=None, metavar="N",
@@ -302,7 +302,7 @@ def run_jet(args) -> int:
     if n_draws < 2:
         raise InputError("--draws", args.draws, "at least 2 draws")
     k = _uncertain_number(args.plume_constant, "--plume-constant", default_plume_constant())
-    lam = _uncertain_number(args.width_ratio, "--width-ratio", default_width_ratio())
+    lam = _uncertain_number(args.width_ratio, "--tracer-to-velocity-width-ratio", default_width_ratio())
     mpp, scale = pixel_scale(args)
     orifice = _pair(args.orifice, "--orifice")
     temp = None if args.ambient_temperature is None else parse_quantity(args.ambient_temperature, "temperature",

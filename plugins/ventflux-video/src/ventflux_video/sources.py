@@ -4,7 +4,7 @@
 each option is converted here: ``metres_per_pixel="0.5 mm"``,
 ``orifice_xy="80,248"``, ``roi="0,0,160,256"``, ``frame_rate="50/s"``,
 ``passes="64,32,32"``, ``pairs="40"``, ``mode="tracking"``, ``view="sheet"``,
-``width_ratio="1.1"``, ``background="none"``.
+``tracer_to_velocity_width_ratio="1.1"``, ``background="none"`` (the survey's key names).
 """
 
 from __future__ import annotations
@@ -33,7 +33,7 @@ def _options(options):
         from .cli import parse_windows
 
         out["passes"] = parse_windows(out["passes"], "passes")
-    for key in ("overlap", "plume_constant", "width_ratio"):
+    for key in ("overlap", "plume_constant", "tracer_to_velocity_width_ratio"):
         if isinstance(out.get(key), str):
             try:
                 out[key] = float(out[key])
@@ -87,7 +87,7 @@ def exit_velocity_source(clip=None, metres_per_pixel=None, orifice_xy=None, **op
         raise InputError("metres_per_pixel/orifice_xy", "(missing)", "both options for a video exit velocity")
     mpp = check_scale(opts["metres_per_pixel"])
     view = check_view(opts.get("view", "volume"))
-    lam = opts.get("width_ratio", DEFAULT_WIDTH_RATIO)
+    lam = opts.get("tracer_to_velocity_width_ratio", DEFAULT_WIDTH_RATIO)
     field = _field(path, opts, "correlation")
     passes = opts.get("passes", (64, 32, 32))
     profile = corrected_profile(centreline_profile(field, mpp, opts["orifice_xy"], opts.get("search_half_width")),
