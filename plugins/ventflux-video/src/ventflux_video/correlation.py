@@ -721,15 +721,19 @@ def deform_frame(frame, dy, dx, coefficients=None, order=SPLINE_ORDER):
         iy, ix = np.floor(y), np.floor(x)
         wy, wx = _bspline_weights(y - iy, order), _bspline_weights(x - ix, order)
         base = ((iy + 1) * wp + ix + 1).astype(np.int32)  # first tap (1 - m, 1 - m) in the padded coefficients
-        acc = None
+        acc = out[s:e]
+        row, tap = np.empty_like(acc), np.empty_like(acc)
         for j in range(order + 1):
             at = base + j * wp if j else base
-            row = wx[0] * flat.take(at)
+            np.multiply(flat.take(at, out=row), wx[0], out=row)
             for i in range(1, order + 1):  # the next tap along the row: the same indices into a view moved by i
-                row += wx[i] * shifted[i].take(at)
-            row *= wy[j]
-            acc = row if acc is None else acc + row
-        out[s:e] = acc
+                np.multiply(shifted[i].take(at, out=tap), wx[i], out=tap)
+                row += tap
+            if j:
+                row *= wy[j]
+                acc += row
+            else:
+                np.multiply(row, wy[0], out=acc)
 
     _map_chunks(band, h, _WARP_ROWS)
     return out
