@@ -136,7 +136,9 @@ def video_clip():
 
     A particle texture advected by the pure-plume centreline law w = k (F/z)^(1/3)
     with the buoyancy flux of a 10.5 MW plume at the site (TEOS-10), rendered at
-    4 mm a pixel and 50 frames a second by the video plugin's generator.
+    4 mm a pixel and 50 frames a second by the video plugin's generator, seen as a
+    dive camera sees it: through the whole plume (tracer 1.1 times as wide as the
+    velocity profile), not on a light sheet.
     """
     import gsw
     from ventflux.properties.seawater import CP0
@@ -149,7 +151,8 @@ def video_clip():
     g = gsw.grav(-17.3, p_sea)
     F = g * alpha * 10.5e6 / (rho * CP0)
     truth = render_plume_clip(DATA / "gildhorn_jet.mp4", seconds=2.0, shape=(256, 160), buoyancy_flux=F,
-                              virtual_origin=-0.3, metres_per_pixel=0.004, frame_rate=50.0, lateral_sd=0.2, seed=26)
+                              virtual_origin=-0.3, metres_per_pixel=0.004, frame_rate=50.0, lateral_sd=0.2, seed=26,
+                              width_ratio=1.1)
     print(f"clip: F = {F:.3g} m^4/s^3, orifice at pixel {truth.orifice_xy}")
 
 

@@ -3,6 +3,18 @@
 Running sums (count, sum, sum of squares) per grid point are all that is
 kept, so a ten-minute clip costs what a ten-second one does. Vectors the
 outlier test replaced are left out of the averages (their count is reported).
+
+Static background. Dive video shows motionless chimney walls, sediment and
+lit haze behind the tracer; correlated with the moving tracer, they pull the
+correlation peak towards zero displacement. By default the temporal median
+of up to ``BACKGROUND_FRAMES`` frames spread over the clip's range is
+subtracted from every frame before correlation (a moving tracer seldom sits
+on one pixel in most frames, a fixed object always does; common practice, no
+source). It costs one extra read of those frames.
+
+Variable frame rate. When the container's frame intervals differ, each pair's
+displacement is rescaled to the clip's median interval by its own timestamp
+difference before averaging.
 """
 
 from __future__ import annotations
@@ -14,8 +26,13 @@ import numpy as np
 from ventflux.errors import InputError
 from ventflux.units import Q_, magnitude
 
-from .correlation import VectorField, check_passes, displacement_field
+from .correlation import VectorField, check_passes, displacement_field, pattern_width
 from .frames import frame_pairs
+
+#: Frames taken, evenly spread over the clip's range, for the median background (a choice: a median of
+#: 21 values is robust to a tracer on a pixel in up to 10 of them).
+BACKGROUND_FRAMES = 21
+BACKGROUND_METHODS = ("median", "none")
 
 
 @dataclass
@@ -38,6 +55,11 @@ class MeanField:
     skipped_frames: int = 0
     missing_frames: int = 0
     mode: str = "correlation"
+    frame_gaps: tuple = ()  # frame numbers missing from an image sequence
+    duplicate_frames: tuple = ()  # image files left out: their number repeats an earlier file's
+    variable_rate: bool = False
+    background_removed: str = "none"
+    pattern_width: float = float("nan")  # px, sd of the tracer pattern's autocorrelation peak (first pair)
 
     def velocity(self, metres_per_pixel):
         """Mean and sd of ``u`` (right) and ``w`` (up) in m/s: ``(u, w, u_sd, w_sd)``."""
@@ -93,7 +115,26 @@ def check_pairs(pairs, available, field="--pairs"):
         raise InputError(field, pairs, f"at most {max(available, 0)} frame pairs, all this clip's range holds")
 
 
-def mean_displacement_field(stream, passes=(64, 32, 32), overlap=0.5, gap=1, pairs=None, **options) -> MeanField:
+def static_background(stream, frames=BACKGROUND_FRAMES):
+    """Temporal median of up to ``frames`` frames spread evenly over the stream's range (float32), or None."""
+    from .frames import FrameStream
+
+    total = stream.expected_frames
+    stride = max(1, (total or frames) // frames)
+    sub = FrameStream(stream.source, frame_rate=stream.frame_rate, region=stream.region, start=stream.start,
+                      stop=stream.stop, step=stream.step * stride)
+    held = []
+    for _, frame in sub:
+        held.append(frame.astype(np.float16))  # half the memory; 11 bits of mantissa hold 8-bit video exactly
+        if len(held) >= frames:
+            break
+    if len(held) < 3:
+        return None
+    return np.median(np.stack(held), axis=0).astype(np.float32)
+
+
+def mean_displacement_field(stream, passes=(64, 32, 32), overlap=0.5, gap=1, pairs=None, background="median",
+                            **options) -> MeanField:
     """Average the correlation displacement field over the frame pairs of a stream.
 
     Parameters
@@ -106,27 +147,45 @@ def mean_displacement_field(stream, passes=(64, 32, 32), overlap=0.5, gap=1, pai
     pairs : int, optional
         Average over this many pairs (all if not given); more than the clip
         holds is an error.
+    background : {"median", "none"}
+        Subtract the clip's temporal median before correlation (module notes).
 
     Returns
     -------
     MeanField
     """
     check_passes(passes, overlap)
+    if background not in BACKGROUND_METHODS:
+        raise InputError("background", background, "one of " + ", ".join(BACKGROUND_METHODS))
     if not (isinstance(gap, int) and gap >= 1):
         raise InputError("--gap", gap, "a whole number of frames ≥ 1")
     available = None if stream.expected_frames is None else stream.expected_frames - gap
     check_pairs(pairs, available)
+    still = static_background(stream) if background == "median" else None
     acc = FieldAccumulator()
     last = None
-    background = None
-    for _, a, b in frame_pairs(stream, gap):
+    picture = None
+    width = float("nan")
+    nominal = gap * stream.step / float(stream.frame_rate.to("1/s").magnitude)
+    for i, a, b in frame_pairs(stream, gap):
+        if picture is None:
+            picture = a.copy()
+        if still is not None:
+            a, b = a - still, b - still
+        if not np.isfinite(width):
+            width = pattern_width(a, passes[-1])
         last = displacement_field(a, b, passes, overlap, origin=stream.origin, **options)
-        acc.add(last.dx, last.dy, ~last.replaced, last.snr)
-        if background is None:
-            background = a.copy()
+        dx, dy = last.dx, last.dy
+        if stream.variable_rate:
+            r = nominal / stream.interval(i, i + gap * stream.step)
+            dx, dy = dx * r, dy * r
+        acc.add(dx, dy, ~last.replaced, last.snr)
         if pairs is not None and acc.pairs >= pairs:
             break
-    return _finish(acc, last, stream, gap, pairs, background)
+    out = _finish(acc, last, stream, gap, pairs, picture)
+    out.background_removed = "temporal median" if still is not None else "none"
+    out.pattern_width = width
+    return out
 
 
 def _finish(acc, last, stream, gap, pairs, background, mode="correlation"):
@@ -141,16 +200,17 @@ def _finish(acc, last, stream, gap, pairs, background, mode="correlation"):
                      replaced_fraction=acc.invalid / max(acc.n.size * got, 1), snr=snr if mode == "correlation" else
                      np.full(mx.shape, np.nan), interval=(gap * stream.step / stream.frame_rate).to("s"),
                      background=background, origin=stream.origin, skipped_frames=stream.skipped,
-                     missing_frames=stream.missing, mode=mode)
+                     missing_frames=stream.missing, mode=mode, frame_gaps=tuple(stream.gaps),
+                     duplicate_frames=tuple(stream.duplicates), variable_rate=stream.variable_rate)
 
 
 def mean_field_of_clip(stream, mode="correlation", passes=(64, 32, 32), overlap=0.5, gap=1, pairs=None,
-                       max_distance=3.0) -> MeanField:
+                       max_distance=3.0, background="median") -> MeanField:
     """Time-averaged field of a stream by window correlation or particle tracking (``mode``)."""
     from .tracking import mean_tracked_field
 
     if mode == "correlation":
-        return mean_displacement_field(stream, passes, overlap, gap, pairs)
+        return mean_displacement_field(stream, passes, overlap, gap, pairs, background)
     if mode == "tracking":
         check_passes(passes, overlap)
         return mean_tracked_field(stream, cell=passes[-1], overlap=overlap, gap=gap, pairs=pairs,

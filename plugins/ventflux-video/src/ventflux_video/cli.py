@@ -11,6 +11,8 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
+import numpy as np
+
 from ventflux.cli.output import add_output_options, print_json, print_table
 from ventflux.errors import InputError
 from ventflux.io import atomic_directory
@@ -57,10 +59,12 @@ def _add_clip_options(p):
 
 def _add_scale_options(p, required=True):
     s = p.add_argument_group("scale (give one; perspective is not corrected)")
-    s.add_argument("--pixel-size", metavar="Q", help="length of one pixel, e.g. '0.5 mm'")
+    s.add_argument("--pixel-size", metavar="Q", help="length of one pixel, e.g. '0.5 mm' or '0.5 ± 0.01 mm'")
     s.add_argument("--points", metavar="X1,Y1,X2,Y2", help="two image points (pixels) a known --distance apart")
     s.add_argument("--distance", metavar="Q", help="distance between --points, e.g. '10 cm'")
     s.add_argument("--laser-separation", metavar="Q", help="separation of two laser spots visible in the clip")
+    s.add_argument("--laser-colour", default="white", choices=("red", "green", "white"),
+                   help="colour of the laser spots (default white: the brightest spots)")
 
 
 def _add_velocimetry_options(p):
@@ -75,11 +79,21 @@ def _add_velocimetry_options(p):
     v.add_argument("--pairs", type=int, default=None, metavar="N", help="average over N frame pairs (default all)")
     v.add_argument("--search-radius", type=float, default=3.0, metavar="PX",
                    help="tracking: search radius around the predicted position, pixels (default 3)")
+    v.add_argument("--background", default="median", choices=("median", "none"),
+                   help="remove the static background (temporal median of the clip) before correlation "
+                        "(default median)")
     p.add_argument("--out", metavar="DIR", help="write tables (CSV) and figures (PNG) to this folder")
 
 
 def metres_per_pixel(args, field_clip=None):
     """The pixel size from whichever scale option was given (exactly one)."""
+    return pixel_scale(args, field_clip)[0]
+
+
+def pixel_scale(args, field_clip=None):
+    """The pixel size and its relative error as a factor of nominal 1 (an ``Uncertain``, or None if exact)."""
+    from ventflux.uncertainty import Uncertain, nominal, parse_uncertain
+
     from .jet import check_scale
     from .scale import metres_per_pixel_from_laser_spots, metres_per_pixel_from_points
 
@@ -88,30 +102,51 @@ def metres_per_pixel(args, field_clip=None):
         raise InputError("--pixel-size/--points/--laser-separation", ", ".join(given) or "(none)",
                          "exactly one way to set the scale")
     if args.pixel_size is not None:
-        return check_scale(parse_quantity(args.pixel_size, "length", "--pixel-size"))
+        size = parse_uncertain(args.pixel_size, "length", "--pixel-size")
+        mpp = check_scale(nominal(size))
+        return mpp, _relative(size) if isinstance(size, Uncertain) else None
     if args.points is not None:
         if args.distance is None:
             raise InputError("--distance", "(missing)", "the distance between --points, e.g. '10 cm'")
         x1, y1, x2, y2 = _pair(args.points, "--points", 4)
-        return metres_per_pixel_from_points((x1, y1), (x2, y2), parse_quantity(args.distance, "length", "--distance"))
-    sep = parse_quantity(args.laser_separation, "length", "--laser-separation")
-    return metres_per_pixel_from_laser_spots(field_clip or _stream(args, progress=False), sep)[0]
+        dist = parse_uncertain(args.distance, "length", "--distance")
+        mpp = metres_per_pixel_from_points((x1, y1), (x2, y2), nominal(dist))
+        return mpp, _relative(dist) if isinstance(dist, Uncertain) else None
+    sep = parse_uncertain(args.laser_separation, "length", "--laser-separation")
+    frames = field_clip or _stream(args, progress=False, colour=True)
+    spots = metres_per_pixel_from_laser_spots(frames, nominal(sep), colour=getattr(args, "laser_colour", "white"))
+    rel = spots.relative_error
+    if isinstance(sep, Uncertain):
+        rel = float(np.hypot(rel, _relative(sep).b))
+    return spots.metres_per_pixel, Uncertain("normal", 1.0, rel, "dimensionless") if rel > 0 else None
 
 
-def _stream(args, progress=None):
+def _relative(u):
+    """An uncertain length as a factor of nominal 1 with the same relative standard deviation."""
+    from ventflux.uncertainty import Uncertain
+
+    centre = u.nominal.magnitude
+    if u.kind == "normal":
+        return Uncertain("normal", 1.0, u.b / centre, "dimensionless")
+    if u.kind == "uniform":
+        return Uncertain("uniform", u.a / centre, u.b / centre, "dimensionless")
+    return Uncertain("lognormal", 1.0, u.b, "dimensionless")
+
+
+def _stream(args, progress=None, colour=False):
     from .frames import FrameStream
 
     rate = None if args.frame_rate is None else parse_quantity(args.frame_rate, "frequency", "--frame-rate")
     show = (not args.no_progress and sys.stderr.isatty()) if progress is None else progress
     return FrameStream(args.clip, frame_rate=rate, region=args.region, start=args.first_frame,
-                       stop=args.last_frame, step=args.frame_step, progress=show)
+                       stop=args.last_frame, step=args.frame_step, progress=show, colour=colour)
 
 
 def _mean_field(args, stream):
     from .averaging import mean_field_of_clip
 
     return mean_field_of_clip(stream, args.mode, parse_windows(args.windows), args.overlap, args.gap, args.pairs,
-                              args.search_radius)
+                              args.search_radius, args.background)
 
 
 # ------------------------------------------------------------------ video-scale
@@ -130,21 +165,26 @@ def configure_scale(p):
 def run_scale(args) -> int:
     from .scale import metres_per_pixel_from_laser_spots
 
+    spots = None
     if args.laser_separation is not None and args.pixel_size is None and args.points is None:
         if args.clip is None:
             raise InputError("clip", "(missing)", "a clip showing the laser spots")
         sep = parse_quantity(args.laser_separation, "length", "--laser-separation")
-        mpp, sd, n = metres_per_pixel_from_laser_spots(_stream(args, progress=False), sep)
+        spots = metres_per_pixel_from_laser_spots(_stream(args, progress=False, colour=True), sep,
+                                                  colour=args.laser_colour)
+        mpp = spots.metres_per_pixel
     else:
-        mpp, sd, n = metres_per_pixel(args), None, 0
+        mpp = metres_per_pixel(args)
     if args.json:
-        print_json({"metres_per_pixel_m": mpp.to("m").magnitude,
-                    "metres_per_pixel_sd_m": None if sd is None else sd.to("m").magnitude, "frames_used": n,
-                    "perspective_corrected": False})
+        out = {"metres_per_pixel_m": mpp.to("m").magnitude, "perspective_corrected": False}
+        if spots is not None:
+            out.update(spots.as_dict())
+        print_json(out)
         return 0
     rows = [("pixel size", mpp.to("mm").magnitude, "mm")]
-    if sd is not None:
-        rows += [("sd over frames", sd.to("mm").magnitude, "mm"), ("frames with two spots", n, "")]
+    if spots is not None:
+        rows += [("spread over frames (sd)", 100 * spots.spread, "%"),
+                 ("frames with two spots", spots.frames_used, ""), ("laser colour", spots.colour, "")]
     print_table(rows, title="Pixel size (uniform over the frame; perspective not corrected)")
     return 0
 
@@ -167,16 +207,23 @@ def _field_summary(field, mpp):
         "mean_w_m_s": float(np.nanmean(w)), "max_w_m_s": float(np.nanmax(w)), "mean_u_m_s": float(np.nanmean(u)),
         "replaced_vector_fraction": field.replaced_fraction, "frames_skipped": field.skipped_frames,
         "frames_missing": field.missing_frames, "orientation": "x right, w up (against image rows)",
+        "frame_gaps": list(field.frame_gaps), "duplicate_frames": list(field.duplicate_frames),
+        "variable_frame_rate": field.variable_rate, "background_removed": field.background_removed,
     }
 
 
 def run_field(args) -> int:
     from .outputs import field_figure, field_table
 
+    from .jet import frame_flag
+
     mpp = metres_per_pixel(args)
     stream = _stream(args)
     field = _mean_field(args, stream)
     out = _field_summary(field, mpp)
+    flag = frame_flag(field)
+    if flag:
+        print(f"warning: {flag}", file=sys.stderr)
     if args.out:
         with atomic_directory(args.out) as tmp:
             (Path(tmp) / "velocity_field.csv").write_text(field_table(field, mpp))
@@ -206,8 +253,18 @@ def configure_jet(p):
     j.add_argument("--fit-from", metavar="Q", help="lowest height for the plume fit, e.g. '5 cm' (default: all)")
     j.add_argument("--fit-to", metavar="Q", help="highest height for the plume fit")
     j.add_argument("--search-half-width", metavar="Q", help="look for the centreline only this far from the orifice")
-    j.add_argument("--plume-constant", type=float, default=None, metavar="K",
-                   help="k in w_c = k (F/(z - z0))^(1/3) (default 4.7)")
+    j.add_argument("--plume-constant", default=None, metavar="K",
+                   help="k in w_c = k (F/(z - z0))^(1/3), a number or a distribution such as 'uniform(3.85, 4.7)' "
+                        "(default: uniform over the published 3.85-4.7, nominal 4.275)")
+    j.add_argument("--view", default="volume", choices=("volume", "sheet"),
+                   help="volume (default, dive video): the camera sees the whole plume and speeds are corrected "
+                        "for the line of sight; sheet: a light sheet through the axis")
+    j.add_argument("--tracer-to-velocity-width-ratio", dest="width_ratio", default=None, metavar="R",
+                   help="tracer-to-velocity width ratio for the volume view, a number or a distribution "
+                        "(default: uniform(1.0, 1.2))")
+    j.add_argument("--draws", type=int, default=None, metavar="N",
+                   help="Monte Carlo draws for the uncertainty (default 10000)")
+    j.add_argument("--seed", type=int, default=None, metavar="N", help="random seed of the draws")
     a = p.add_argument_group("ambient seawater (for the heat power)")
     where = a.add_mutually_exclusive_group()
     where.add_argument("--pressure", metavar="Q", help="absolute pressure at the vent, e.g. '25MPa'")
@@ -218,14 +275,35 @@ def configure_jet(p):
     add_output_options(p)
 
 
+def _uncertain_number(text, field, default):
+    """A dimensionless option: ``None`` → ``default``; ``"4.7"`` or ``"uniform(3.85, 4.7)"`` parsed."""
+    from ventflux.uncertainty import parse_uncertain
+
+    if text is None:
+        return default
+    value = parse_uncertain(str(text), "dimensionless", field)
+    from ventflux.uncertainty import nominal
+
+    if not float(nominal(value).to("dimensionless").magnitude) > 0:
+        raise InputError(field, text, "a value > 0")
+    return value
+
+
 def run_jet(args) -> int:
+    from ventflux.aggregate import SharedDraws
     from ventflux.properties import pressure_from_depth
+    from ventflux.uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, nominal, summarize
 
     from .jet import analyze_jet_clip
     from .outputs import field_figure, field_table, profile_figure, profile_table
-    from .plume import DEFAULT_PLUME_CONSTANT
+    from .propagation import default_plume_constant, default_width_ratio, jet_draws
 
-    mpp = metres_per_pixel(args)
+    n_draws = DEFAULT_DRAWS if args.draws is None else args.draws
+    if n_draws < 2:
+        raise InputError("--draws", args.draws, "at least 2 draws")
+    k = _uncertain_number(args.plume_constant, "--plume-constant", default_plume_constant())
+    lam = _uncertain_number(args.width_ratio, "--tracer-to-velocity-width-ratio", default_width_ratio())
+    mpp, scale = pixel_scale(args)
     orifice = _pair(args.orifice, "--orifice")
     temp = None if args.ambient_temperature is None else parse_quantity(args.ambient_temperature, "temperature",
                                                                          "--ambient-temperature")
@@ -240,39 +318,60 @@ def run_jet(args) -> int:
                          "both --ambient-temperature and --pressure (or --depth) for the heat power")
     heights = tuple(None if v is None else parse_quantity(v, "length", f) for v, f in
                     ((args.fit_from, "--fit-from"), (args.fit_to, "--fit-to")))
-    k = DEFAULT_PLUME_CONSTANT if args.plume_constant is None else args.plume_constant
     rate = None if args.frame_rate is None else parse_quantity(args.frame_rate, "frequency", "--frame-rate")
     show = not args.no_progress and sys.stderr.isatty()
     res = analyze_jet_clip(args.clip, mpp, orifice, roi=args.region, ambient_temperature=temp, ambient_salinity=sal,
                            pressure=pressure, latitude=args.latitude, frame_rate=rate,
                            passes=parse_windows(args.windows), overlap=args.overlap, gap=args.gap, pairs=args.pairs,
-                           start=args.first_frame, stop=args.last_frame, plume_constant=k,
+                           start=args.first_frame, stop=args.last_frame,
+                           plume_constant=float(nominal(k).to("dimensionless").magnitude),
                            plume_heights=heights, exit_points=args.exit_points,
                            search_half_width=None if args.search_half_width is None else
                            parse_quantity(args.search_half_width, "length", "--search-half-width"),
-                           mode=args.mode, search_radius=args.search_radius, progress=show)
+                           mode=args.mode, search_radius=args.search_radius, progress=show, view=args.view,
+                           width_ratio=float(nominal(lam).to("dimensionless").magnitude), background=args.background)
+    draws = SharedDraws(n_draws, DEFAULT_SEED if args.seed is None else args.seed)
+    names = {part: f"clip/{part}" for part in ("fit", "correlation", "scale", "plume_constant",
+                                                 "tracer_to_velocity_width_ratio")}
+    mc = jet_draws(res, draws, names, None if args.plume_constant is None else k,
+                   None if args.width_ratio is None else lam, scale)
     out = res.as_dict()
+    out["exit_velocity_sd_m_s"] = summarize(mc.exit_velocity).std.to("m/s").magnitude
+    out["exit_velocity_fit_sd_m_s"] = res.exit_velocity_sd.to("m/s").magnitude
+    out.update(summarize(mc.buoyancy_flux).as_dict("buoyancy_flux", "m^4/s^3"))
+    out["buoyancy_flux_sd_m4_s3"] = out["buoyancy_flux_m4_s3_std"]
+    if mc.heat_power is not None:
+        out.update(summarize(mc.heat_power).as_dict("heat_power", "W"))
+        out["heat_power_sd_W"] = out["heat_power_W_std"]
+    out["uncertainty_parts_relative_sd"] = mc.parts
+    out["uncertainty_inputs"] = {name: draws.describe().get(name) for name in mc.inputs.values()}
+    out["draws"], out["seed"] = draws.n_draws, draws.seed
     if args.out:
-        names = ("centreline.csv", "centreline.png", "velocity_field.csv", "velocity_field.png")
+        names_out = ("centreline.csv", "centreline.png", "velocity_field.csv", "velocity_field.png")
         with atomic_directory(args.out) as tmp:
-            (Path(tmp) / names[0]).write_text(profile_table(res.profile, res.plume))
-            (Path(tmp) / names[1]).write_bytes(profile_figure(res.profile, res.plume, res.exit_velocity,
-                                                              res.exit_velocity_sd))
-            (Path(tmp) / names[2]).write_text(field_table(res.field, mpp))
-            (Path(tmp) / names[3]).write_bytes(field_figure(res.field, mpp, orifice))
-        out["files"] = [str(Path(args.out) / n) for n in names]
+            (Path(tmp) / names_out[0]).write_text(profile_table(res.profile, res.plume))
+            (Path(tmp) / names_out[1]).write_bytes(profile_figure(res.profile, res.plume, res.exit_velocity,
+                                                                  res.exit_velocity_sd))
+            (Path(tmp) / names_out[2]).write_text(field_table(res.field, mpp))
+            (Path(tmp) / names_out[3]).write_bytes(field_figure(res.field, mpp, orifice))
+        out["files"] = [str(Path(args.out) / n) for n in names_out]
+    for flag in res.flags:
+        print(f"warning: {flag}", file=sys.stderr)
     if args.json:
         print_json(out)
         return 0
-    rows = [("exit velocity (extrapolated)", out["exit_velocity_m_s"], "m/s"),
-            ("  sd", out["exit_velocity_sd_m_s"], "m/s"),
+    rows = [("view", f"{res.view} (line-of-sight factor {out['sightline_factor_median']:.3f})", ""),
+            ("exit velocity (centreline)", out["exit_velocity_m_s"], "m/s"),
+            ("  sd (total)", out["exit_velocity_sd_m_s"], "m/s"),
             ("buoyancy flux (pure plume)", out["buoyancy_flux_m4_s3"], "m^4/s^3"),
-            ("  sd", out["buoyancy_flux_sd_m4_s3"], "m^4/s^3"),
+            ("  sd (total)", out["buoyancy_flux_sd_m4_s3"], "m^4/s^3"),
             ("virtual origin", out["virtual_origin_m"], "m"),
-            ("plume constant k", out["plume_constant"], "")]
+            ("plume constant k (nominal)", out["plume_constant"], "")]
     if res.heat_power is not None:
         rows += [("heat power", res.heat_power.to("MW").magnitude, "MW"),
-                 ("  sd", res.heat_power_sd.to("MW").magnitude, "MW")]
+                 ("  sd (total)", out["heat_power_sd_W"] / 1e6, "MW"),
+                 ("  5-95 %", f"{out['heat_power_W_p05'] / 1e6:.3g} - {out['heat_power_W_p95'] / 1e6:.3g}", "MW")]
+    rows += [(f"  part: {name}", 100 * part["buoyancy_flux"], "% of F") for name, part in mc.parts.items()]
     rows += [("frame pairs", out["frame_pairs"], ""), ("frames skipped", out["frames_skipped"], "")]
     rows += [("wrote", f, "") for f in out.get("files", [])]
     print_table(rows, title=f"Vent jet from video ({res.field.mode}; w up)")

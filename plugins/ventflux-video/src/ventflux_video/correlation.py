@@ -31,11 +31,16 @@ References
    digital PIV recordings. Exp. Fluids 23, 20-28.
 .. [3] Westerweel, J. and Scarano, F. (2005). Universal outlier detection for
    PIV data. Exp. Fluids 39, 1096-1100.
+.. [4] Scarano, F. (2002). Iterative image deformation methods in PIV.
+   Meas. Sci. Technol. 13, R1-R19 (from memory).
+.. [5] Unser, M. (1999). Splines: a perfect fit for signal and image
+   processing. IEEE Signal Process. Mag. 16(6), 22-38 (from memory).
 """
 
 from __future__ import annotations
 
 import os
+import time
 import warnings
 from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
@@ -52,7 +57,9 @@ from ventflux.units import Q_, magnitude
 #: Normalized median test: threshold and noise level (px) recommended in [3].
 MEDIAN_THRESHOLD = 2.0
 MEDIAN_EPSILON = 0.1
-_WORKERS = -1  # threads for the window correlation: -1 all usable cores, 1 none
+SPLINE_ORDER = 5  # B-spline order of the frame deformation (see deform_frame)
+_WORKERS = -1  # threads for correlation and deformation: -1 chosen by measurement (_thread_count), 1 none
+_MEASURED = None  # (threads, process id) chosen by _measure_threads
 _CHUNK = 256 * 32 * 32  # window pixels per chunk (1 MB of float32), so each step works in cache
 _POOL = None  # (threads, process id, executor), made on first use
 
@@ -225,15 +232,55 @@ def _peak_search(corr, norm=None, lag_of_index_zero=0):
     return dy, dx, snr
 
 
+def _usable_cores():
+    return len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
+
+
 def _thread_count():
-    """Threads for the window correlation: all usable cores for ``_WORKERS == -1``."""
-    if _WORKERS == -1:
-        return len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
-    return max(1, int(_WORKERS))
+    """Threads for the correlation and the deformation.
+
+    ``_WORKERS == -1`` (the default) means chosen by measurement: the first
+    call times a small deformation and correlation with one thread and with
+    every usable core, interleaved, best of three each, and keeps the faster
+    (per process). On a machine whose cores are busy with other work, one
+    thread is often faster than several; the count follows what this machine
+    does, not how many cores it has.
+    """
+    global _MEASURED
+    if _WORKERS != -1:
+        return max(1, int(_WORKERS))
+    cores = _usable_cores()
+    if cores <= 1:
+        return 1
+    if _MEASURED is None or _MEASURED[1] != os.getpid():
+        _MEASURED = (_measure_threads(cores), os.getpid())
+    return _MEASURED[0]
+
+
+def _measure_threads(cores):
+    """The faster of 1 and ``cores`` threads on a 128 x 128 deformation and 32 px correlation (about 0.1 s)."""
+    global _WORKERS
+    rng = np.random.default_rng(0)
+    a = rng.random((128, 128), np.float32)
+    shift = np.full(a.shape, 0.3, np.float32)
+    top, left = (g.ravel() for g in np.meshgrid(np.arange(0, 97, 16), np.arange(0, 97, 16), indexing="ij"))
+    best = {}
+    saved = _WORKERS
+    try:
+        for _ in range(3):
+            for n in (1, cores):
+                _WORKERS = n
+                t = time.perf_counter()
+                deform_frame(a, shift, shift)
+                _correlate_pass(a, a, top, left, top, left, 32)
+                best[n] = min(best.get(n, np.inf), time.perf_counter() - t)
+    finally:
+        _WORKERS = saved
+    return min(best, key=best.get)
 
 
 def _map_chunks(fn, n, size):
-    """``fn(slice)`` over consecutive chunks of ``size`` windows, results in order.
+    """``fn(slice)`` over consecutive chunks of ``size`` items, results in order.
 
     Chunks keep every step's arrays in cache; numpy and the FFT release the GIL,
     so with several threads the chunks run in parallel.
@@ -389,7 +436,7 @@ def check_passes(passes, overlap):
 
 def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origin=(0, 0),
                        threshold=MEDIAN_THRESHOLD, epsilon=MEDIAN_EPSILON, min_snr=1.0,
-                       subpixel_offset=True, coarse_overlap=0.0, coarse_binning=None) -> VectorField:
+                       subpixel_offset=True, coarse_overlap=0.0, coarse_binning=None, deform=True) -> VectorField:
     """Displacement field between two frames by multi-pass FFT cross-correlation.
 
     Parameters
@@ -398,23 +445,23 @@ def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origi
         Gray frames of equal shape (any real dtype).
     passes : sequence of int
         Window size (px) of each pass, e.g. ``(64, 32, 32)``; the last sets the
-        resolution. Each pass after the first offsets the windows by the
-        previous pass's rounded displacement (symmetric offset) [2].
+        resolution. The first pass correlates the windows in place; each later
+        one offsets the windows by the previous pass's rounded displacement
+        (symmetric offset) [2], and the last deforms both frames by the
+        previous pass's field instead (``deform``).
     overlap : float
         Window overlap of the last pass (0.5: windows every half window).
     coarse_overlap : float
         Window overlap of the passes before the last, which only predict the
-        offset (the median test and interpolation fill in between).
+        next pass (the median test and interpolation fill in between).
     coarse_binning : int, optional
-        Correlate the passes before the last on frames averaged over
-        ``coarse_binning x coarse_binning`` pixel blocks: a 64 px window then
-        holds 32 x 32 binned pixels, a quarter of the work, and still spans
-        64 px of the frame. Those passes only predict the offsets of the next;
-        the last pass, at full resolution, measures the residual (1: no
-        binning). By default (None) a pass is binned 2 x 2 where its window is
-        at least twice the last pass's (and a multiple of 4 px), so it still
-        holds as many pixels as a last-pass window: ``(64, 32, 32)`` bins the
-        64 px pass only.
+        Correlate the window-offset passes before the last on frames averaged
+        over ``coarse_binning x coarse_binning`` pixel blocks: a 64 px window
+        then holds 32 x 32 binned pixels, a quarter of the work, and still
+        spans 64 px of the frame. By default (None) such a pass is binned 2 x 2
+        where its window is at least twice the last pass's (and a multiple of
+        4 px), so it still holds as many pixels as a last-pass window:
+        ``(64, 32, 32)`` bins the 64 px pass only.
     origin : (int, int)
         Column and row of the frames' top-left pixel in the full frame (the
         region of interest's corner), added to the window centres.
@@ -423,9 +470,18 @@ def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origi
     min_snr : float
         Vectors with a smaller peak ratio are also replaced (1 disables).
     subpixel_offset : bool
-        In passes after the first, also shift each correlation plane by the
-        predicted fraction of a pixel (see ``correlate_windows``); this removes
-        most of the peak-locking bias.
+        Window-offset passes: also shift each correlation plane by the
+        predicted fraction of a pixel (see ``correlate_windows``).
+    deform : bool
+        The last pass (if not the only one) deforms both frames, half the
+        predicted displacement each way, by B-spline interpolation
+        (``deform_frame``) [4], [5]: its windows then see only the residual
+        of the prediction, which removes the bias towards whole pixels and
+        the loss of pairs and gradient bias in sheared flow (default True).
+        The passes before it only predict, and the window offset with the
+        sub-pixel shift predicts to about 0.02 px: a second deformation was
+        measured to change the result by less than 0.001 px on uniform shifts
+        at twice the cost.
 
     Returns
     -------
@@ -444,36 +500,243 @@ def displacement_field(frame_a, frame_b, passes=(64, 32, 32), overlap=0.5, origi
     for n_pass, (size, f) in enumerate(zip(sizes, factors)):
         last = n_pass == len(sizes) - 1
         step = max(1, int(round(size * (1 - (overlap if last else coarse_overlap)))))
-        if f not in frames:
-            frames[f] = (_binned(a, f), _binned(b, f))
-        fa, fb = frames[f]
-        win, step_f = size // f, max(1, step // f)
-        top1 = window_grid(a.shape[0] // f, win, step_f)
-        left1 = window_grid(a.shape[1] // f, win, step_f)
-        cy = top1 * f + (size - 1) / 2  # full-frame centres of the windows
-        cx = left1 * f + (size - 1) / 2
-        top, left = (g.ravel() for g in np.meshgrid(top1, left1, indexing="ij"))
-        if pred is None:
-            oy = ox = np.zeros(top.size, int)
-            frac = None
+        if deform and last and pred is not None:
+            if "coef" not in frames:
+                frames["coef"] = (spline_coefficients(a), spline_coefficients(b))  # once for all passes
+            dy, dx, snr, cy, cx = _deformed_pass(a, b, *frames["coef"], pred, size, step)
         else:
-            yy, xx = np.meshgrid(cy, cx, indexing="ij")
-            py = _resample(pred[0], pred[1], pred[2], yy, xx).ravel() / f
-            px = _resample(pred[0], pred[1], pred[3], yy, xx).ravel() / f
-            oy, ox = np.rint(py).astype(int), np.rint(px).astype(int)
-            frac = np.stack([py - oy, px - ox], axis=1) if subpixel_offset else None
-        ay, ax = oy // 2, ox // 2  # symmetric offset: A moves back by half, B forward by the rest
-        ry, rx, snr = _correlate_pass(fa, fb, top - ay, left - ax, top + oy - ay, left + ox - ax, win, frac)
-        if frac is not None:
-            ry, rx = ry + frac[:, 0], rx + frac[:, 1]
-        dy = (f * (ry + oy)).reshape(top1.size, left1.size)
-        dx = (f * (rx + ox)).reshape(top1.size, left1.size)
-        snr = snr.reshape(dy.shape)
+            if f not in frames:
+                frames[f] = (_binned(a, f), _binned(b, f))
+            dy, dx, snr, cy, cx = _offset_pass(*frames[f], pred, size, step, f, subpixel_offset)
         bad = median_test(dx, dy, threshold, epsilon) | (snr < min_snr)
         dx, dy = replace_outliers(dx, dy, bad)
         pred = (cy, cx, dy, dx)
     return VectorField(x=cx + origin[0], y=cy + origin[1], dx=dx, dy=dy, snr=snr, replaced=bad,
                        window=sizes[-1], step=step)
+
+
+def _grid(shape, size, step, f=1):
+    """Window corners (binned pixels) and full-frame centres of a pass's grid."""
+    top1 = window_grid(shape[0] // f, size // f, max(1, step // f))
+    left1 = window_grid(shape[1] // f, size // f, max(1, step // f))
+    return top1, left1, top1 * f + (size - 1) / 2, left1 * f + (size - 1) / 2
+
+
+def _offset_pass(fa, fb, pred, size, step, f, subpixel_offset):
+    """One pass with windows offset by the prediction's rounded displacement (no deformation)."""
+    top1, left1, cy, cx = _grid((fa.shape[0] * f, fa.shape[1] * f), size, step, f)
+    win = size // f
+    top, left = (g.ravel() for g in np.meshgrid(top1, left1, indexing="ij"))
+    if pred is None:
+        oy = ox = np.zeros(top.size, int)
+        frac = None
+    else:
+        yy, xx = np.meshgrid(cy, cx, indexing="ij")
+        py = _resample(pred[0], pred[1], pred[2], yy, xx).ravel() / f
+        px = _resample(pred[0], pred[1], pred[3], yy, xx).ravel() / f
+        oy, ox = np.rint(py).astype(int), np.rint(px).astype(int)
+        frac = np.stack([py - oy, px - ox], axis=1) if subpixel_offset else None
+    ay, ax = oy // 2, ox // 2  # symmetric offset: A moves back by half, B forward by the rest
+    ry, rx, snr = _correlate_pass(fa, fb, top - ay, left - ax, top + oy - ay, left + ox - ax, win, frac)
+    if frac is not None:
+        ry, rx = ry + frac[:, 0], rx + frac[:, 1]
+    shape = (top1.size, left1.size)
+    return (f * (ry + oy)).reshape(shape), (f * (rx + ox)).reshape(shape), snr.reshape(shape), cy, cx
+
+
+def _deformed_pass(a, b, coef_a, coef_b, pred, size, step):
+    """One pass on frames deformed by the prediction: A back by half of it, B forward by half [4]."""
+    top1, left1, cy, cx = _grid(a.shape, size, step)
+    rows, cols = _linear_taps(pred[0], np.arange(a.shape[0])), _linear_taps(pred[1], np.arange(a.shape[1]))
+    half_y = _bilinear(0.5 * pred[2], rows, cols)
+    half_x = _bilinear(0.5 * pred[3], rows, cols)
+    da = deform_frame(a, -half_y, -half_x, coef_a)
+    db = deform_frame(b, half_y, half_x, coef_b)
+    top, left = (g.ravel() for g in np.meshgrid(top1, left1, indexing="ij"))
+    ry, rx, snr = _correlate_pass(da, db, top, left, top, left, size)
+    rows, cols = _linear_taps(pred[0], cy), _linear_taps(pred[1], cx)
+    shape = (top1.size, left1.size)
+    dy = _bilinear(pred[2], rows, cols, np.float64) + ry.reshape(shape)
+    dx = _bilinear(pred[3], rows, cols, np.float64) + rx.reshape(shape)
+    return dy, dx, snr.reshape(shape), cy, cx
+
+
+def _linear_taps(grid, points):
+    """Left neighbour index and weight of ``points`` on ``grid``, constant beyond its ends."""
+    grid = np.asarray(grid, float)
+    if grid.size == 1:
+        return np.zeros(np.size(points), int), np.zeros(np.size(points))
+    pts = np.clip(np.asarray(points, float), grid[0], grid[-1])
+    j = np.clip(np.searchsorted(grid, pts, side="right") - 1, 0, grid.size - 2)
+    return j, (pts - grid[j]) / (grid[j + 1] - grid[j])
+
+
+def _bilinear(values, rows, cols, dtype=np.float32):
+    """Values of a gridded field at the points of ``_linear_taps`` along each axis (outer product)."""
+    v = np.asarray(values, dtype)
+    if v.shape[0] == 1:
+        v = np.concatenate([v, v])
+    if v.shape[1] == 1:
+        v = np.concatenate([v, v], axis=1)
+    (jy, ty), (jx, tx) = rows, cols
+    ty, tx = ty.astype(dtype)[:, None], tx.astype(dtype)
+    across = v[:, jx] * (1 - tx) + v[:, jx + 1] * tx  # (ny, W)
+    return across[jy] * (1 - ty) + across[jy + 1] * ty
+
+
+def _b5(x):
+    """Quintic B-spline at ``x >= 0`` (scalar use: tabulating the tap polynomials)."""
+    x = abs(x)
+    if x < 1:
+        return (66 - 60 * x**2 + 30 * x**4 - 10 * x**5) / 120
+    if x < 2:
+        return (51 + 75 * x - 210 * x**2 + 150 * x**3 - 45 * x**4 + 5 * x**5) / 120
+    return (3 - x) ** 5 / 120 if x < 3 else 0.0
+
+
+def _b3(x):
+    x = abs(x)
+    if x < 1:
+        return (4 - 6 * x**2 + 3 * x**3) / 6
+    return (2 - x) ** 3 / 6 if x < 2 else 0.0
+
+
+@lru_cache(maxsize=2)
+def _tap_polynomials(order):
+    """Coefficients (highest power first) of each tap's weight as a polynomial in the fraction ``t``.
+
+    The tap ``k`` (from ``1 - m`` to ``m``) weighs ``beta(t - k)``, one polynomial
+    piece of the B-spline for ``0 <= t < 1``: fitted exactly through ``order + 1`` points.
+    """
+    beta, m = (_b3, 2) if order == 3 else (_b5, 3)
+    t = np.linspace(0.0, 0.9, order + 1)
+    return tuple(tuple(float(c) for c in np.polyfit(t, [beta(v - k) for v in t], order))
+                 for k in range(1 - m, m + 1))  # Python floats: the arithmetic stays in the frame's float32
+
+
+def _bspline_weights(t, order=SPLINE_ORDER):
+    """Weights of the ``order + 1`` taps of the B-spline of ``order`` at fraction ``t`` [5] (Horner form)."""
+    out = []
+    for coef in _tap_polynomials(order):
+        w = t * coef[0]
+        w += coef[1]
+        for c in coef[2:]:
+            w *= t
+            w += c
+        out.append(w)
+    return out
+
+
+#: Poles of the B-spline prefilters [5].
+_POLES = {3: (np.sqrt(3.0) - 2.0,),
+          5: (np.sqrt(135.0 / 2.0 - np.sqrt(17745.0 / 4.0)) + np.sqrt(105.0 / 4.0) - 6.5,
+              np.sqrt(135.0 / 2.0 + np.sqrt(17745.0 / 4.0)) - np.sqrt(105.0 / 4.0) - 6.5)}
+
+
+def _prefilter_rows(c, poles):
+    """In-place B-spline prefilter along axis 0 (mirror boundary), vectorized across the columns [5].
+
+    The causal and anti-causal recursions of each pole step through the rows
+    with whole rows at a time: a few thousand row operations instead of a
+    strided filter per column.
+    """
+    n = c.shape[0]
+    c *= np.prod([(1 - z) * (1 - 1 / z) for z in poles])
+    for z in poles:
+        k = min(n, int(np.ceil(np.log(1e-7) / np.log(abs(z)))) + 1)  # terms until z^k is below float32 precision
+        c[0] = np.tensordot(z ** np.arange(k), c[:k], axes=1)
+        for i in range(1, n):
+            c[i] += z * c[i - 1]
+        c[n - 1] = (z / (z * z - 1)) * (c[n - 1] + z * c[n - 2])
+        for i in range(n - 2, -1, -1):
+            c[i] = z * (c[i + 1] - c[i])
+    return c
+
+
+def spline_coefficients(frame, order=SPLINE_ORDER):
+    """B-spline coefficients of a frame (mirror boundary), float32 [5].
+
+    Equal to ``scipy.ndimage.spline_filter(frame, order, mode="mirror")`` to
+    float32 precision, several times faster: the recursions run along the
+    rows and then along the columns of a transposed copy, a whole row per step.
+    """
+    c = np.array(frame, np.float32, copy=True)
+    if min(c.shape) < 2:
+        return c
+    _prefilter_rows(c, _POLES[order])
+    return np.ascontiguousarray(_prefilter_rows(np.ascontiguousarray(c.T), _POLES[order]).T)
+
+
+_WARP_ROWS = 32  # rows per band of deform_frame (a choice: each band's gathers stay in cache)
+
+
+def deform_frame(frame, dy, dx, coefficients=None, order=SPLINE_ORDER):
+    """``frame`` sampled at ``(row + dy, column + dx)`` of every pixel by B-spline interpolation [5].
+
+    Parameters
+    ----------
+    frame : numpy.ndarray
+        Gray frame ``(H, W)``.
+    dy, dx : numpy.ndarray
+        Displacement of every pixel's sampling point, ``(H, W)``, pixels.
+    coefficients : numpy.ndarray, optional
+        ``spline_coefficients(frame, order)``, when already computed.
+    order : {3, 5}
+        B-spline order (``SPLINE_ORDER`` by default).
+
+    Returns
+    -------
+    numpy.ndarray
+        float32 ``(H, W)``; the frame is mirrored beyond its edges.
+
+    Notes
+    -----
+    B-spline interpolation (prefiltered, so it passes through the pixel
+    values) keeps the phase of sharp, few-pixel particle images far better
+    than cubic convolution. A frame deformed by a fraction ``f`` of a pixel
+    is shifted by slightly more or less than ``f``; in the symmetric scheme the
+    two frames take fractions ``f`` and ``1 - f``, whose errors add: on
+    2.5 px particles measured at 0.016 px for cubic and 0.005 px for quintic
+    splines (common practice favours order >= 3; the order is a measured
+    choice). It is evaluated with ``(order + 1)^2`` gathers from the
+    mirror-padded coefficients, a band of rows at a time so the gathers stay
+    in cache.
+    """
+    if order not in (3, 5):
+        raise InputError("spline order", order, "3 or 5")
+    h, w = np.shape(frame)
+    coef = spline_coefficients(frame, order) if coefficients is None else coefficients
+    m = (order + 1) // 2  # taps either side
+    pad = np.pad(coef, m, mode="reflect")
+    wp = w + 2 * m
+    flat = pad.ravel()
+    shifted = [flat[i:] for i in range(order + 1)]
+    out = np.empty((h, w), np.float32)
+    cols = np.arange(w, dtype=np.float32)[None, :]
+
+    def band(rows):
+        s, e = rows.start, rows.stop
+        y = np.clip(np.arange(s, e, dtype=np.float32)[:, None] + dy[s:e], -1, h - 1)
+        x = np.clip(cols + dx[s:e], -1, w - 1)
+        iy, ix = np.floor(y), np.floor(x)
+        wy, wx = _bspline_weights(y - iy, order), _bspline_weights(x - ix, order)
+        base = ((iy + 1) * wp + ix + 1).astype(np.int32)  # first tap (1 - m, 1 - m) in the padded coefficients
+        acc = out[s:e]
+        row, tap = np.empty_like(acc), np.empty_like(acc)
+        for j in range(order + 1):
+            at = base + j * wp if j else base
+            np.multiply(flat.take(at, out=row), wx[0], out=row)
+            for i in range(1, order + 1):  # the next tap along the row: the same indices into a view moved by i
+                np.multiply(shifted[i].take(at, out=tap), wx[i], out=tap)
+                row += tap
+            if j:
+                row *= wy[j]
+                acc += row
+            else:
+                np.multiply(row, wy[0], out=acc)
+
+    _map_chunks(band, h, _WARP_ROWS)
+    return out
 
 
 def _binning_factors(factor, sizes):
@@ -507,3 +770,32 @@ def _binned(frame, factor):
         out += rows[:, j::factor]
     out /= factor * factor
     return out
+
+
+def pattern_width(frame, window=32):
+    """Standard deviation (px) of the autocorrelation peak of a frame's textured windows.
+
+    The width the correlation peak of a moving pattern has (``sightline``).
+    Each window's mean-free autocorrelation at lags 0 and ±1 gives a Gaussian
+    width ``1 / sqrt(2 ln(R(0)/R(1)))`` along each axis; the median over the
+    quarter of windows with the most energy (the tracer, not the empty
+    background) is returned. NaN if no window has texture.
+    """
+    img = np.asarray(frame, np.float32)
+    top = window_grid(img.shape[0], window, window)
+    left = window_grid(img.shape[1], window, window)
+    tt, ll = (g.ravel() for g in np.meshgrid(top, left, indexing="ij"))
+    win = _cut(img, tt, ll, window)
+    win = win - win.mean(axis=(1, 2), keepdims=True)
+    spec = scipy.fft.rfft2(win)
+    auto = scipy.fft.irfft2(spec * np.conj(spec), s=(window, window))
+    r0 = auto[:, 0, 0]
+    keep = r0 >= np.quantile(r0, 0.75)
+    keep &= r0 > 0
+    if not keep.any():
+        return float("nan")
+    r1 = 0.25 * (auto[:, 0, 1] + auto[:, 0, -1] + auto[:, 1, 0] + auto[:, -1, 0])
+    with np.errstate(divide="ignore", invalid="ignore"):
+        sd = 1.0 / np.sqrt(2.0 * np.log(r0 / r1))
+    sd = sd[keep & np.isfinite(sd)]
+    return float(np.median(sd)) if sd.size else float("nan")

@@ -2,10 +2,21 @@
 
 Video containers (mp4, mov, avi, mkv, ...) are decoded by the ffmpeg binary
 that ships with ``imageio-ffmpeg``, which pipes one gray frame at a time, so
-memory stays flat whatever the clip's length. Image sequences are a folder of
-images or a glob pattern (``"dive/frame_*.png"``), read one file at a time with
-``imageio``; colour images are converted to luma with the ITU-R BT.601
-weights [1] (what ffmpeg's ``gray`` output uses).
+memory stays flat whatever the clip's length. Every decoded frame is passed
+through as it is stored (no frames duplicated or dropped to make a constant
+rate), and each frame's time is its presentation timestamp in the container,
+read from the packets without decoding: a clip recorded at a variable frame
+rate is timed frame by frame (``FrameStream.times``).
+
+Image sequences are a folder of images or a glob pattern
+(``"dive/frame_*.png"``), read one file at a time with ``imageio``, in the
+natural order of the number in their names (``frame_2`` before ``frame_10``);
+that number is the frame's index, so a missing number (a gap) breaks the
+pairs across it instead of pairing frames two intervals apart, and two files
+with the same number (``frame_7.png`` and ``frame_007.png``) are a duplicate:
+the first in text order is used and the others are listed (``duplicates``). Colour
+images are converted to luma with the ITU-R BT.601 weights [1] (what ffmpeg's
+``gray`` output uses).
 
 A frame that cannot be decoded (a damaged image file, a frame of the wrong
 size) is skipped and counted; it does not stop the run. ffmpeg conceals
@@ -21,6 +32,8 @@ References
 from __future__ import annotations
 
 import glob
+import re
+import subprocess
 import sys
 from dataclasses import dataclass
 from pathlib import Path
@@ -85,6 +98,9 @@ class FrameStream:
         Frame range (``stop`` exclusive, ``None`` to the end), as for ``range``.
     progress : bool
         Show a progress bar on standard error.
+    colour : bool
+        Deliver ``(rows, columns, 3)`` RGB frames instead of gray ones (for
+        coloured laser spots); a gray image is repeated in the three channels.
 
     Attributes
     ----------
@@ -96,11 +112,23 @@ class FrameStream:
     skipped : int
         Frames that could not be decoded (counted during iteration).
     delivered : int
+    gaps : list of int
+        Image sequences: frame numbers missing between the first and the last.
+    duplicates : list of str
+        Image sequences: files left out because an earlier file has their number.
+    times : numpy.ndarray or None
+        Videos: presentation time of each stored frame (s, from the first),
+        from the container; None if the container holds none.
+    variable_rate : bool
+        The container's frame intervals differ by more than 1 % (times are then
+        used pair by pair).
     """
 
-    def __init__(self, source, frame_rate=None, region=None, start=0, stop=None, step=1, progress=False):
+    def __init__(self, source, frame_rate=None, region=None, start=0, stop=None, step=1, progress=False,
+                 colour=False):
         self.source = str(source)
         self.progress = progress
+        self.colour = bool(colour)
         if not (isinstance(step, int) and step >= 1):
             raise InputError("frame step", step, "a whole number ≥ 1")
         if not (isinstance(start, int) and start >= 0):
@@ -110,15 +138,24 @@ class FrameStream:
         self.start, self.stop, self.step = start, stop, step
         self.skipped = 0
         self.delivered = 0
+        self.gaps, self.duplicates, self.times, self.variable_rate = [], [], None, False
         path = Path(self.source)
         if path.is_dir() or any(ch in self.source for ch in "*?["):
             self.kind = "images"
-            self._files = _image_files(self.source)
+            self._files, self.gaps, self.duplicates = _numbered_files(_image_files(self.source))
             self.frame_shape = self._first_image_shape()
-            native_rate, total = None, len(self._files)
+            native_rate, total = None, self._files[-1][0] + 1  # gaps are announced frames never delivered
         elif path.is_file():
             self.kind = "video"
             native_rate, total, self.frame_shape = self._probe_video()
+            self.times = container_times(self.source)
+            if self.times is not None and self.times.size >= 2:
+                steps = np.diff(self.times)
+                if np.all(steps > 0):
+                    median = float(np.median(steps))
+                    self.variable_rate = bool(np.max(np.abs(steps - median)) > 0.01 * median)
+                    native_rate = 1.0 / median if self.variable_rate or not native_rate else native_rate
+                total = int(self.times.size)
         else:
             raise InputError("clip", self.source, "an existing video file, image folder or glob pattern of images")
         if frame_rate is not None:
@@ -165,7 +202,7 @@ class FrameStream:
 
     # -- opening --------------------------------------------------------------------
     def _first_image_shape(self):
-        for f in self._files:
+        for _, f in self._files:
             img = _read_image(f)
             if img is not None:
                 return img.shape
@@ -202,7 +239,7 @@ class FrameStream:
                 if self.stop is not None and index >= self.stop:
                     break
                 bar.update(1)
-                if frame is None or frame.shape != self.frame_shape:
+                if frame is None or frame.shape[:2] != self.frame_shape:
                     self.skipped += 1
                     continue
                 if self.region is not None:
@@ -213,15 +250,22 @@ class FrameStream:
             bar.close()
 
     def _raw_images(self):
-        for i, f in enumerate(self._files):
+        for i, f in self._files:
             wanted = i >= self.start and (i - self.start) % self.step == 0
-            yield i, (_read_image(f) if wanted else None)  # unwanted ones are filtered out by the caller
+            yield i, (_read_image(f, self.colour) if wanted else None)  # unwanted ones are filtered out by the caller
+
+    def interval(self, index_a, index_b):
+        """Time between two frames (s): the container's timestamps, else frames over the frame rate."""
+        if self.times is not None and max(index_a, index_b) < self.times.size:
+            return float(self.times[index_b] - self.times[index_a])
+        return (index_b - index_a) / float(self.frame_rate.to("1/s").magnitude)
 
     def _raw_video(self):
         import imageio_ffmpeg
 
         h, w = self.frame_shape
-        gen = imageio_ffmpeg.read_frames(self.source, pix_fmt="gray", bpp=1)
+        fmt, depth = ("rgb24", 3) if self.colour else ("gray", 1)
+        gen = imageio_ffmpeg.read_frames(self.source, pix_fmt=fmt, bpp=depth, output_params=_PASSTHROUGH)
         next(gen)
         i = 0
         try:
@@ -233,10 +277,64 @@ class FrameStream:
                 except RuntimeError:  # the stream ended inside a frame: count it and stop
                     yield i, None
                     return
-                yield i, np.frombuffer(buf, np.uint8).reshape(h, w)
+                yield i, np.frombuffer(buf, np.uint8).reshape((h, w, 3) if self.colour else (h, w))
                 i += 1
         finally:
             gen.close()
+
+
+#: ffmpeg output options: pass every decoded frame through as stored (no constant-rate resampling).
+_PASSTHROUGH = ["-fps_mode", "passthrough"]
+
+
+def container_times(path):
+    """Presentation time (s, from the first frame) of every video frame stored in ``path``, or None.
+
+    Read from the packets of the first video stream with ffmpeg's per-packet
+    checksum listing (``-c copy -f framemd5``: no decoding), sorted into
+    presentation order (packets come in decoding order when frames are
+    reordered).
+    """
+    import imageio_ffmpeg
+
+    cmd = [imageio_ffmpeg.get_ffmpeg_exe(), "-nostdin", "-v", "error", "-i", str(path), "-map", "0:v:0",
+           "-c", "copy", "-f", "framemd5", "-"]
+    try:
+        out = subprocess.run(cmd, capture_output=True, text=True, timeout=600).stdout
+    except (OSError, subprocess.SubprocessError):
+        return None
+    tb = re.search(r"^#tb 0: (\d+)/(\d+)", out, re.M)
+    pts = [int(line.split(",")[2]) for line in out.splitlines()
+           if line and not line.startswith("#") and len(line.split(",")) >= 6]
+    if tb is None or not pts:
+        return None
+    t = np.sort(np.asarray(pts, float)) * int(tb.group(1)) / int(tb.group(2))
+    return t - t[0]
+
+
+_NUMBER = re.compile(r"(\d+)(?!.*\d)")
+
+
+def _numbered_files(files):
+    """``[(index, file)]`` in natural order, missing numbers, and files whose number repeats an earlier one.
+
+    The index is the last number in the file's name less the first file's. If
+    some name holds no number, the files are indexed in text order instead.
+    """
+    numbers = [_NUMBER.search(Path(f).stem) for f in files]
+    if not all(numbers):
+        return list(enumerate(sorted(files))), [], []
+    keyed = sorted(zip((int(m.group(1)) for m in numbers), files), key=lambda t: (t[0], t[1]))
+    out, dup, seen = [], [], set()
+    for n, f in keyed:
+        if n in seen:
+            dup.append(Path(f).name)
+            continue
+        seen.add(n)
+        out.append((n, f))
+    first = out[0][0]
+    gaps = sorted(set(range(first, out[-1][0] + 1)) - seen)
+    return [(n - first, f) for n, f in out], gaps, dup
 
 
 def _image_files(source):
@@ -248,14 +346,18 @@ def _image_files(source):
     return files
 
 
-def _read_image(path):
-    """Gray float image, or None if the file cannot be decoded."""
+def _read_image(path, colour=False):
+    """Gray float image (RGB with ``colour``), or None if the file cannot be decoded."""
     import imageio.v3 as iio
 
     try:
         img = np.asarray(iio.imread(path))
     except Exception:  # any decoding failure of one frame is counted, not fatal
         return None
+    if colour:
+        if img.ndim == 2:
+            return np.repeat(img[..., None], 3, axis=2)
+        return img[..., :3] if img.ndim == 3 and img.shape[-1] >= 3 else None
     if img.ndim == 3:
         img = img[..., :3] @ _LUMA[: img.shape[-1]] if img.shape[-1] >= 3 else img[..., 0]
     if img.ndim != 2:

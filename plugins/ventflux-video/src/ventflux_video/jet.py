@@ -10,6 +10,26 @@ straight-line fit over the lowest heights (common practice, no source); it is
 an estimate of the centreline speed at the orifice, which the orifice method
 takes as the exit velocity.
 
+Two corrections turn the measured centreline speed into the plume's
+centreline speed, each reported per height with its factor:
+
+* Window averaging. A window of ``L`` px averages the velocity across the
+  jet; for a Gaussian lateral profile of half-width ``b`` the centre value is
+  lowered by ``sqrt(pi) (b/L) erf(L/(2b))`` (the box average of a Gaussian).
+  ``b`` comes from the measured profile, whose lateral variance is the jet's
+  plus the window's ``L^2/12``: its three values around the centreline give
+  the measured width (a Gaussian through three points).
+* Line of sight (``view="volume"``, the default for dive video): the camera
+  sees the tracer through the whole plume; ``sightline`` gives the factor
+  between the apparent and the centreline speed, with the tracer-to-velocity
+  width ratio ``λ`` and the tracer pattern's width measured on the clip.
+  ``view="sheet"`` (a light sheet through the axis) has no such factor.
+
+A jet narrower than about two windows (full width at half maximum of the
+measured profile below ``2 L`` at the heights of the exit estimate) is
+flagged, with the window size that would resolve it: the averaging
+correction is then large and the exit speed uncertain.
+
 Perspective is not corrected: the scale is assumed uniform over the region,
 true when the camera looks square-on at the jet's plane.
 """
@@ -24,6 +44,12 @@ from ventflux.errors import InputError
 from ventflux.units import Q_, magnitude, parse_quantity
 
 from .plume import DEFAULT_PLUME_CONSTANT, PlumeFit, buoyancy_flux_from_centreline, heat_power_from_buoyancy_flux
+from .sightline import DEFAULT_VIEW, DEFAULT_WIDTH_RATIO_RANGE, check_view
+
+#: Nominal tracer-to-velocity width ratio: the middle of the default range (sightline).
+DEFAULT_WIDTH_RATIO = 0.5 * sum(DEFAULT_WIDTH_RATIO_RANGE)
+#: A jet narrower than this many windows (full width at half maximum) is flagged (the issue's "about two").
+NARROW_JET_WINDOWS = 2.0
 
 
 @dataclass
@@ -37,6 +63,10 @@ class CentrelineProfile:
     samples: np.ndarray  # valid pairs at each point
     centre_x: np.ndarray  # column of the centreline, full-frame pixels
     half_width: object  # m, lateral sd of the upward-velocity profile
+    lateral_sd_px: np.ndarray | None = None  # px, Gaussian sd through the 3 values around the centreline
+    apparent_velocity: object = None  # m/s, as measured, before the corrections
+    window_factor: np.ndarray | None = None  # measured over point centreline speed (window averaging)
+    sightline_factor: np.ndarray | None = None  # apparent over centreline speed (line of sight; 1 for a sheet)
 
 
 def centreline_profile(mean_field, metres_per_pixel, orifice_xy, search_half_width=None) -> CentrelineProfile:
@@ -82,6 +112,13 @@ def centreline_profile(mean_field, metres_per_pixel, orifice_xy, search_half_wid
         pos = np.where(cols[None, :] & np.isfinite(w[rows]), np.clip(w[rows], 0, None), 0.0)
         xc = (pos * mean_field.x).sum(axis=1) / pos.sum(axis=1)
         spread = np.sqrt((pos * (mean_field.x[None, :] - xc[:, None]) ** 2).sum(axis=1) / pos.sum(axis=1))
+        # Gaussian through the centre value and its two neighbours: ln(w0/w-) + ln(w0/w+) = step^2 / sd^2.
+        left = w[rows, np.clip(j - 1, 0, None)]
+        right = w[rows, np.clip(j + 1, None, w.shape[1] - 1)]
+        drop = np.log(wc / left) + np.log(wc / right)
+        step = float(np.median(np.diff(mean_field.x))) if mean_field.x.size > 1 else np.nan
+        lateral = np.where((j > 0) & (j < w.shape[1] - 1) & (left > 0) & (right > 0) & (drop > 0),
+                           step / np.sqrt(drop), np.nan)
     return CentrelineProfile(
         height=Q_((oy - mean_field.y[rows]) * mpp, "m"),
         velocity=Q_(wc, "m/s"),
@@ -90,7 +127,106 @@ def centreline_profile(mean_field, metres_per_pixel, orifice_xy, search_half_wid
         samples=n,
         centre_x=mean_field.x[j],
         half_width=Q_(spread * mpp, "m"),
+        lateral_sd_px=_running_median(lateral, 5),
     )
+
+
+def _running_median(values, n):
+    """Median over ``n`` neighbouring heights (NaN ignored): the three-point width is noisy height by height."""
+    v = np.asarray(values, float)
+    if v.size == 0:
+        return v
+    pad = np.pad(v, n // 2, mode="edge")
+    win = np.lib.stride_tricks.sliding_window_view(pad, n)
+    with np.errstate(invalid="ignore"):
+        import warnings
+
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", RuntimeWarning)
+            return np.nanmedian(win, axis=1)
+
+
+def window_factor(lateral_sd_px, window):
+    """Measured over point centreline speed for a Gaussian jet seen through ``window`` px windows (module notes).
+
+    ``lateral_sd_px`` is the measured lateral standard deviation (window blur
+    included); NaN where the jet is not resolved (measured variance ≤ L²/12).
+    """
+    var = np.asarray(lateral_sd_px, float) ** 2 - window**2 / 12.0
+    with np.errstate(invalid="ignore", divide="ignore"):
+        b = np.sqrt(2.0 * np.where(var > 0, var, np.nan))  # 1/e half-width
+        from scipy.special import erf
+
+        return np.sqrt(np.pi) * b / window * erf(window / (2.0 * b))
+
+
+def corrected_profile(profile: CentrelineProfile, interval, metres_per_pixel, window, view=DEFAULT_VIEW,
+                      width_ratio=DEFAULT_WIDTH_RATIO, pattern_width=None) -> CentrelineProfile:
+    """The centreline profile corrected for window averaging and, for a volume view, the line of sight.
+
+    Parameters
+    ----------
+    profile : CentrelineProfile
+        As measured (``centreline_profile``).
+    interval : pint.Quantity
+        Time between the frames of a pair.
+    metres_per_pixel : pint.Quantity
+    window : int
+        Final window size, px.
+    view : {"volume", "sheet"}
+    width_ratio : float
+        Tracer-to-velocity width ratio ``λ`` (volume view).
+    pattern_width : float, optional
+        Tracer pattern's autocorrelation width, px (``MeanField.pattern_width``).
+
+    Returns
+    -------
+    CentrelineProfile
+        With ``apparent_velocity``, ``window_factor`` and ``sightline_factor`` set;
+        a height whose window factor cannot be found (jet unresolved) keeps
+        factor 1 there and is flagged by ``narrow_jet``.
+    """
+    from dataclasses import replace
+
+    from .sightline import centreline_displacement
+
+    check_view(view)
+    w = profile.velocity.to("m/s").magnitude
+    px_per_pair = magnitude(interval, "s", "time", "frame interval") / magnitude(metres_per_pixel, "m", "length")
+    fw = window_factor(profile.lateral_sd_px, window) if profile.lateral_sd_px is not None else np.ones_like(w)
+    fw = np.where(np.isfinite(fw) & (fw > 0), fw, 1.0)
+    point = w * px_per_pair / fw  # apparent displacement at the window centre, px
+    if view == "volume":
+        with np.errstate(invalid="ignore", divide="ignore"):
+            fs = point / centreline_displacement(point, width_ratio, pattern_width)
+        fs = np.where(np.isfinite(fs) & (fs > 0), fs, 1.0)
+    else:
+        fs = np.ones_like(w)
+    total = fw * fs
+    return replace(profile, velocity=Q_(w / total, "m/s"), velocity_sd=profile.velocity_sd / total,
+                   velocity_se=profile.velocity_se / total, apparent_velocity=profile.velocity, window_factor=fw,
+                   sightline_factor=fs)
+
+
+def narrow_jet(profile: CentrelineProfile, window, points=4):
+    """A one-line reason if the jet is narrower than ``NARROW_JET_WINDOWS`` windows at the exit heights, else None."""
+    lat = profile.lateral_sd_px
+    if lat is None:
+        return None
+    z = profile.height.to("m").magnitude
+    ok = np.isfinite(profile.velocity.to("m/s").magnitude) & np.isfinite(z)
+    sd = lat[ok][:points]
+    sd = sd[np.isfinite(sd)]
+    fwhm = 2.0 * np.sqrt(2.0 * np.log(2.0)) * float(np.median(sd)) if sd.size else 0.0
+    if fwhm >= NARROW_JET_WINDOWS * window:
+        return None
+    true_var = (fwhm / 2.3548) ** 2 - window**2 / 12.0
+    true_fwhm = 2.3548 * np.sqrt(true_var) if true_var > 0 else 0.0
+    suggest = int(2 * np.floor(true_fwhm / NARROW_JET_WINDOWS / 2)) if true_fwhm else 0
+    hint = (f"use --windows {2 * suggest},{suggest},{suggest} (windows of {suggest} px)" if suggest >= 8 else
+            "film it closer or at a higher resolution (windows under 8 px cannot resolve it)")
+    return (f"jet narrower than {NARROW_JET_WINDOWS:g} windows at the exit heights (measured width at half "
+            f"maximum {fwhm:.0f} px against {window} px windows): the exit velocity is uncertain; {hint}")
 
 
 def exit_velocity(profile: CentrelineProfile, points=4):
@@ -157,6 +293,9 @@ class JetAnalysis:
     metres_per_pixel: object
     orifice_xy: tuple
     frame_rate: object
+    view: str = DEFAULT_VIEW
+    width_ratio: float = DEFAULT_WIDTH_RATIO
+    flags: tuple = ()
 
     def as_dict(self):
         out = {
@@ -172,6 +311,18 @@ class JetAnalysis:
             "frames_missing": self.field.missing_frames,
             "replaced_vector_fraction": self.field.replaced_fraction,
             "mode": self.field.mode,
+            "frame_gaps": list(self.field.frame_gaps),
+            "duplicate_frames": list(self.field.duplicate_frames),
+            "variable_frame_rate": self.field.variable_rate,
+            "background_removed": self.field.background_removed,
+            "view": self.view,
+            "tracer_to_velocity_width_ratio": self.width_ratio if self.view == "volume" else None,
+            "pattern_width_px": self.field.pattern_width,
+            "sightline_factor_median": float(np.median(self.profile.sightline_factor))
+            if self.profile.sightline_factor is not None else 1.0,
+            "window_factor_median": float(np.median(self.profile.window_factor))
+            if self.profile.window_factor is not None else 1.0,
+            "flags": list(self.flags),
         }
         out.update(self.plume.as_dict())
         return out
@@ -181,7 +332,8 @@ def analyze_jet_clip(path, metres_per_pixel, orifice_xy, roi=None, ambient_tempe
                      pressure=None, latitude=None, frame_rate=None, passes=(64, 32, 32), overlap=0.5, gap=1,
                      pairs=None, start=0, stop=None, plume_constant=DEFAULT_PLUME_CONSTANT, plume_heights=None,
                      exit_points=4, search_half_width=None, mode="correlation", search_radius=3.0,
-                     progress=False) -> JetAnalysis:
+                     progress=False, view=DEFAULT_VIEW, width_ratio=DEFAULT_WIDTH_RATIO,
+                     background="median") -> JetAnalysis:
     """Exit velocity, buoyancy flux and heat power of a vent jet from one clip.
 
     Parameters
@@ -217,19 +369,31 @@ def analyze_jet_clip(path, metres_per_pixel, orifice_xy, roi=None, ambient_tempe
         Tracking mode: search radius around each predicted position, pixels.
     progress : bool
         Progress bar.
+    view : {"volume", "sheet"}
+        ``volume`` (default): the camera sees the whole plume; centreline
+        speeds are corrected for the line of sight (module notes).
+    width_ratio : float
+        Tracer-to-velocity width ratio ``λ`` for the volume view
+        (``DEFAULT_WIDTH_RATIO``, the middle of ``sightline.DEFAULT_WIDTH_RATIO_RANGE``).
+    background : {"median", "none"}
+        Static-background removal before correlation (``averaging``).
 
     Returns
     -------
     JetAnalysis
+        ``flags`` names what puts a result in doubt (a narrow jet, frame gaps).
     """
     from .averaging import mean_field_of_clip
     from .frames import FrameStream
 
     mpp = parse_quantity(metres_per_pixel, "length", "metres per pixel")
     check_scale(mpp)
+    check_view(view)
     stream = FrameStream(path, frame_rate=frame_rate, region=roi, start=start, stop=stop, progress=progress)
-    field = mean_field_of_clip(stream, mode, passes, overlap, gap, pairs, search_radius)
-    profile = centreline_profile(field, mpp, orifice_xy, search_half_width)
+    field = mean_field_of_clip(stream, mode, passes, overlap, gap, pairs, search_radius, background)
+    profile = corrected_profile(centreline_profile(field, mpp, orifice_xy, search_half_width), field.interval, mpp,
+                                passes[-1], view, width_ratio, field.pattern_width)
+    flags = [f for f in (narrow_jet(profile, passes[-1], exit_points), frame_flag(field)) if f]
     w0, w0_sd = exit_velocity(profile, exit_points)
     fit = plume_buoyancy_flux(profile, plume_heights, plume_constant)
     heat = heat_sd = None
@@ -238,7 +402,20 @@ def analyze_jet_clip(path, metres_per_pixel, orifice_xy, roi=None, ambient_tempe
         heat = heat_power_from_buoyancy_flux(fit.buoyancy_flux, ambient_temperature, salinity, pressure, latitude)
         heat_sd = heat * (fit.buoyancy_flux_sd / fit.buoyancy_flux).to("dimensionless").magnitude
     return JetAnalysis(w0, w0_sd, fit.buoyancy_flux, fit.buoyancy_flux_sd, fit.virtual_origin, heat, heat_sd, fit,
-                       profile, field, mpp.to("m"), tuple(float(v) for v in orifice_xy), stream.frame_rate)
+                       profile, field, mpp.to("m"), tuple(float(v) for v in orifice_xy), stream.frame_rate,
+                       view, float(width_ratio), tuple(flags))
+
+
+def frame_flag(field):
+    """A one-line note of missing or duplicate frame numbers in an image sequence, else None."""
+    parts = []
+    if field.frame_gaps:
+        shown = ", ".join(map(str, field.frame_gaps[:5])) + (" ..." if len(field.frame_gaps) > 5 else "")
+        parts.append(f"{len(field.frame_gaps)} frame number(s) missing ({shown}; pairs across them left out)")
+    if field.duplicate_frames:
+        parts.append(f"{len(field.duplicate_frames)} duplicate frame number(s) left out "
+                     f"({', '.join(field.duplicate_frames[:3])})")
+    return "; ".join(parts) or None
 
 
 def check_scale(metres_per_pixel, field="--pixel-size"):

@@ -44,6 +44,10 @@ def profile_table(profile, fit=None):
         column_name("centre_x", "px"): profile.centre_x,
         "valid_pairs": profile.samples,
     }
+    if profile.apparent_velocity is not None:  # what the windows measured, and the two factors between
+        cols[column_name("w_measured", "m/s")] = profile.apparent_velocity.to("m/s").magnitude
+        cols["window_factor"] = profile.window_factor
+        cols["sightline_factor"] = profile.sightline_factor
     if fit is not None:
         cols[column_name("w_plume_fit", "m/s")] = plume_centreline_speed(
             profile.height, fit.buoyancy_flux, fit.virtual_origin, fit.plume_constant).to("m/s").magnitude

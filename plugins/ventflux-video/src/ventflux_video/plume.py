@@ -19,9 +19,11 @@ warmer than its surroundings, and TEOS-10 defines conservative temperature so
 that potential enthalpy is exactly ``cp0`` times it [5]; the buoyancy anomaly
 is ``g alpha_Theta dTheta`` to first order in that small anomaly.
 
-The constant ``k``: ``DEFAULT_PLUME_CONSTANT = 4.7`` is the value of [2] for
-Gaussian profiles (from memory); [3] gives 3.85 ± 0.15 (from memory). As
-``F ∝ k^-3``, the choice moves ``F`` by a factor (4.7/3.85)^3 = 1.8; it is a
+The constant ``k``: [2] gives 4.7 for Gaussian profiles (from memory), [3]
+3.85 ± 0.15 (from memory). As ``F ∝ k^-3``, the choice moves ``F`` by a factor
+(4.7/3.85)^3 = 1.8. ``PLUME_CONSTANT_RANGE`` is that published range: the
+Monte Carlo draws ``k`` uniformly over it by default, and
+``DEFAULT_PLUME_CONSTANT``, its middle, is the nominal value; it is a
 parameter everywhere and reported with every result.
 
 References
@@ -50,8 +52,10 @@ from scipy.optimize import curve_fit
 from ventflux.errors import InputError
 from ventflux.units import Q_, magnitude
 
-#: Centreline velocity constant of pure-plume theory [2] (from memory).
-DEFAULT_PLUME_CONSTANT = 4.7
+#: Published range of the centreline velocity constant of pure-plume theory, [3] to [2] (from memory).
+PLUME_CONSTANT_RANGE = (3.85, 4.7)
+#: Nominal k: the middle of the published range.
+DEFAULT_PLUME_CONSTANT = 0.5 * (PLUME_CONSTANT_RANGE[0] + PLUME_CONSTANT_RANGE[1])
 #: Standard gravity [6], used when no latitude is given (local g differs by < 0.3 %).
 STANDARD_GRAVITY = 9.80665
 

@@ -3,7 +3,8 @@
 ``ventflux orifice``/``diffuse`` pass ``--source-option KEY=VALUE`` strings, so
 each option is converted here: ``metres_per_pixel="0.5 mm"``,
 ``orifice_xy="80,248"``, ``roi="0,0,160,256"``, ``frame_rate="50/s"``,
-``passes="64,32,32"``, ``pairs="40"``, ``mode="tracking"``.
+``passes="64,32,32"``, ``pairs="40"``, ``mode="tracking"``, ``view="sheet"``,
+``tracer_to_velocity_width_ratio="1.1"``, ``background="none"`` (the survey's key names).
 """
 
 from __future__ import annotations
@@ -32,7 +33,7 @@ def _options(options):
         from .cli import parse_windows
 
         out["passes"] = parse_windows(out["passes"], "passes")
-    for key in ("overlap", "plume_constant"):
+    for key in ("overlap", "plume_constant", "tracer_to_velocity_width_ratio"):
         if isinstance(out.get(key), str):
             try:
                 out[key] = float(out[key])
@@ -61,7 +62,8 @@ def _field(path, opts, default_mode):
     stream = FrameStream(path, frame_rate=opts.get("frame_rate"), region=opts.get("roi"),
                          start=opts.get("start", 0), stop=opts.get("stop"))
     return mean_field_of_clip(stream, opts.get("mode", default_mode), opts.get("passes", (64, 32, 32)),
-                              opts.get("overlap", 0.5), opts.get("gap", 1), opts.get("pairs"))
+                              opts.get("overlap", 0.5), opts.get("gap", 1), opts.get("pairs"),
+                              background=opts.get("background", "median"))
 
 
 def exit_velocity_source(clip=None, metres_per_pixel=None, orifice_xy=None, **options):
@@ -69,17 +71,40 @@ def exit_velocity_source(clip=None, metres_per_pixel=None, orifice_xy=None, **op
 
     It is the *centreline* speed at the orifice: with ``ventflux orifice`` give
     ``--velocity-kind centerline`` so the profile factor turns it into an area mean.
+    The speed is corrected as ``video-jet`` corrects it (window averaging, and
+    the line of sight for the default ``view="volume"``), and its standard
+    deviation adds, to the extrapolation's, the spread of the line-of-sight
+    factor over the default width-ratio range and the correlation's own
+    error (``propagation``).
     """
-    from .jet import centreline_profile, check_scale, exit_velocity
+    from .jet import (DEFAULT_WIDTH_RATIO, centreline_profile, check_scale, corrected_profile, exit_velocity,
+                      narrow_jet)
+    from .sightline import DEFAULT_WIDTH_RATIO_RANGE, check_view, line_of_sight_factor
 
     path = _clip(clip, options)
     opts = _options(dict(options, metres_per_pixel=metres_per_pixel, orifice_xy=orifice_xy))
     if opts["metres_per_pixel"] is None or opts["orifice_xy"] is None:
         raise InputError("metres_per_pixel/orifice_xy", "(missing)", "both options for a video exit velocity")
     mpp = check_scale(opts["metres_per_pixel"])
+    view = check_view(opts.get("view", "volume"))
+    lam = opts.get("tracer_to_velocity_width_ratio", DEFAULT_WIDTH_RATIO)
     field = _field(path, opts, "correlation")
-    profile = centreline_profile(field, mpp, opts["orifice_xy"], opts.get("search_half_width"))
-    return exit_velocity(profile, opts.get("exit_points", 4))
+    passes = opts.get("passes", (64, 32, 32))
+    profile = corrected_profile(centreline_profile(field, mpp, opts["orifice_xy"], opts.get("search_half_width")),
+                                field.interval, mpp, passes[-1], view, lam, field.pattern_width)
+    points = opts.get("exit_points", 4)
+    reason = narrow_jet(profile, passes[-1], points)
+    if reason:
+        import sys
+
+        print(f"warning: video-exit-velocity: {reason}", file=sys.stderr)
+    w0, sd = exit_velocity(profile, points)
+    rel = [float(sd / w0)] if w0.magnitude else [0.0]
+    if view == "volume":  # half the factor's change over the default range, as a standard deviation
+        d = (w0 / (mpp / field.interval)).to("dimensionless").magnitude
+        lo, hi = (line_of_sight_factor(r, d, field.pattern_width) for r in DEFAULT_WIDTH_RATIO_RANGE)
+        rel.append(float(abs(lo - hi) / (lo + hi)) / np.sqrt(3))  # uniform: half-width over sqrt(3)
+    return w0, abs(w0) * float(np.sqrt(np.sum(np.square(rel))))
 
 
 def mean_upflow_source(clip=None, metres_per_pixel=None, **options):

@@ -1,36 +1,55 @@
 """Survey method ``[vent.video]``: a vent's heat power from the decay of its plume's velocity on video.
 
-The clip is reduced once (``jet.analyze_jet_clip``) to a buoyancy flux with its
-fit uncertainty, and the heat power follows from TEOS-10 at the vent. The
-Monte Carlo draws carry two errors: the fit's (independent for each clip)
-and the pixel scale's. Velocities and heights both scale with the pixel
-size s, so the buoyancy flux F ∝ w³ z goes as s⁴; a camera or laser scaler
-used for several clips is declared once under ``[shared]`` and referred to
-by ``scale_factor = "@name"``, so its error is common to all of them.
+The clip is reduced once (``jet.analyze_jet_clip``, with the nominal inputs)
+and ``propagation.jet_draws`` draws the heat power through the run's named
+inputs: the plume constant (uniform over 3.85-4.7 by default, one input for
+every vent), the tracer-to-velocity width ratio of the volume view (one input
+for every vent by default), the pixel scale (``scale_factor``; a camera or
+laser scaler used for several clips is declared once under ``[shared]`` and
+referred to by ``scale_factor = "@name"``, so its error is common to them),
+the correlation's own error and the fit's (each clip's own). The report
+lists each part's share.
+
+Keys: ``clip``, ``pixel_size``, ``orifice = [column, row]`` (required);
+``scale_factor``, ``plume_constant``, ``tracer_to_velocity_width_ratio``
+(uncertain, shareable), ``view`` (``volume``, the default for dive video, or
+``sheet``), ``frame_rate``, ``region``, ``mode``, ``background``.
+Checking the file (``--check``) opens each clip's header: its frame size,
+frame count and rate, and whether the orifice and the region lie in the frame.
 """
 
 from __future__ import annotations
 
 import numpy as np
+
 from ventflux.errors import InputError
 from ventflux.survey import MethodEstimate, SurveyMethod
-from ventflux.survey.fields import as_float, resolve
+from ventflux.survey.fields import as_float, nominal_of
 from ventflux.units import Q_
 
 
 def _parse(f, ctx):
-    from .plume import DEFAULT_PLUME_CONSTANT
+    from .sightline import VIEWS
 
-    spec = {"clip": f.path_value("clip", required=True),
+    raw = f.table.get("clip")
+    folder = isinstance(raw, str) and raw.strip() and (f.base_dir / raw).is_dir()  # an image sequence's folder
+    spec = {"clip": f.path_value("clip", required=True, kind="dir" if folder else "file"),
             "pixel_size": f.quantity("pixel_size", "length", required=True, uncertain=False, positive=True),
             "scale_factor": f.quantity("scale_factor", "dimensionless", positive=True),
             "frame_rate": f.quantity("frame_rate", "frequency", uncertain=False, positive=True),
             "region": f.string("region"),
             "mode": f.string("mode", default="correlation", choices=("correlation", "tracking")),
-            "plume_constant": f.quantity("plume_constant", "dimensionless", positive=True)}
-    if spec["plume_constant"] is None and "plume_constant" not in f.table:
-        spec["plume_constant"] = Q_(DEFAULT_PLUME_CONSTANT, "dimensionless")
-        f.defaults[f.key("plume_constant")] = f"{DEFAULT_PLUME_CONSTANT} (pure-plume centreline constant k)"
+            "background": f.string("background", default="median", choices=("median", "none")),
+            "view": f.string("view", default="volume", choices=VIEWS),
+            "plume_constant": f.quantity("plume_constant", "dimensionless", positive=True),
+            "tracer_to_velocity_width_ratio": f.quantity("tracer_to_velocity_width_ratio", "dimensionless",
+                                                         positive=True)}
+    if not f.has("plume_constant"):
+        f.defaults[f.key("plume_constant")] = "uniform(3.85, 4.7), one draw for every vent (pure-plume constant k)"
+    if spec["view"] == "volume" and not f.has("tracer_to_velocity_width_ratio"):
+        f.defaults[f.key("tracer_to_velocity_width_ratio")] = "uniform(1.0, 1.2), one draw for every vent"
+    if not f.has("view"):
+        f.defaults[f.key("view")] = "volume (the camera sees the whole plume; line-of-sight correction)"
     f.used.add("orifice")
     orifice = f.table.get("orifice")
     if not (isinstance(orifice, list) and len(orifice) == 2 and all(isinstance(v, (int, float)) for v in orifice)):
@@ -40,49 +59,71 @@ def _parse(f, ctx):
     f.check_unknown()
     if spec["clip"] is not None:
         ctx.input_files[str(spec["clip"])] = "video clip"
-        try:  # open the clip now so an unreadable file or a bad region is reported with the rest
-            from .frames import FrameStream
-
-            FrameStream(spec["clip"], frame_rate=spec["frame_rate"], region=spec["region"])
-        except InputError as e:
-            f.error("clip", str(spec["clip"].name), e.allowed)
+        _check_clip(f, spec)
     return spec
 
 
+def _check_clip(f, spec):
+    """Open the clip's header now, so an unreadable file, a bad region or an orifice off the frame is reported
+    with the file's other problems (the run and ``--check`` accept the same files)."""
+    from .frames import FrameStream
+
+    try:
+        stream = FrameStream(spec["clip"], frame_rate=spec["frame_rate"], region=spec["region"])
+    except InputError as e:
+        key = {"--region": "region", "--frame-rate": "frame_rate"}.get(e.field, "clip")
+        f.error(key, spec.get(key) if key != "clip" else str(spec["clip"].name), e.allowed)
+        return
+    h, w = stream.frame_shape
+    spec["frame_shape"], spec["frame_count"] = (h, w), stream.expected_frames
+    if stream.expected_frames is not None and stream.expected_frames < 2:
+        f.error("clip", str(spec["clip"].name), f"a clip of at least 2 frames (it holds {stream.expected_frames})")
+    if spec["orifice"] is None:
+        return
+    x, y = spec["orifice"]
+    if not (0 <= x <= w - 1 and 0 <= y <= h - 1):
+        f.error("orifice", repr(spec["orifice"]), f"a [column, row] inside the clip's {w} x {h} frame "
+                f"(column 0 to {w - 1}, row 0 to {h - 1})")
+    elif stream.region is not None:
+        r = stream.region
+        if not (r.left <= x <= r.left + r.width - 1 and r.top < y):
+            f.error("orifice", repr(spec["orifice"]), f"a column inside the region ({r.left} to "
+                    f"{r.left + r.width - 1}) and a row below its top ({r.top}), so the plume above it is in view")
+
+
 def _estimate(spec, vent, ctx):
-    from .jet import analyze_jet_clip
+    from .jet import DEFAULT_WIDTH_RATIO, analyze_jet_clip
+    from .plume import DEFAULT_PLUME_CONSTANT
+    from .propagation import jet_draws
 
-    from ventflux.survey.fields import nominal_of
-
-    n = ctx.draws.n_draws
-    k0 = float(as_float(nominal_of(spec["plume_constant"])))
+    k0 = DEFAULT_PLUME_CONSTANT if spec["plume_constant"] is None else \
+        float(as_float(nominal_of(spec["plume_constant"])))
+    lam = spec["tracer_to_velocity_width_ratio"]
+    lam0 = DEFAULT_WIDTH_RATIO if lam is None else float(as_float(nominal_of(lam)))
     ctx.progress(f"{vent}: reading {spec['clip'].name}")
     res = analyze_jet_clip(spec["clip"], spec["pixel_size"], tuple(spec["orifice"]), roi=spec["region"],
                            ambient_temperature=Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
                            ambient_salinity=float(np.mean(ctx.ambient_salinity)), pressure=ctx.pressure,
                            latitude=ctx.site.latitude, frame_rate=spec["frame_rate"], mode=spec["mode"],
-                           plume_constant=k0)
+                           plume_constant=k0, view=spec["view"], width_ratio=lam0, background=spec["background"])
+    names = {part: f"{vent}/video/{part}" for part in ("fit", "correlation", "scale_factor", "plume_constant",
+                                                         "tracer_to_velocity_width_ratio")}
+    names["scale"] = names.pop("scale_factor")
+    mc = jet_draws(res, ctx.draws, names, spec["plume_constant"], lam, spec["scale_factor"])
     H0 = res.heat_power.to("W").magnitude
-    rel = float(res.heat_power_sd.to("W").magnitude / H0) if res.heat_power_sd is not None else 0.0
-    from ventflux.uncertainty import Uncertain
-
-    fit = resolve(Uncertain("lognormal", 1.0, float(np.exp(rel)), "dimensionless") if rel > 0
-                  else Q_(1.0, "dimensionless"), f"{vent}/video/fit", ctx.draws)
-    H = H0 * np.broadcast_to(as_float(fit), (n,))
-    # w = k (F/z)^(1/3), so F = (w/k)^3 z: an uncertain (typically shared) k scales F as k^-3.
-    k = as_float(resolve(spec["plume_constant"], f"{vent}/video/plume_constant", ctx.draws))
-    H = H * (k0 / np.broadcast_to(k, (n,))) ** 3
-    if spec["scale_factor"] is not None:
-        s = as_float(resolve(spec["scale_factor"], f"{vent}/video/scale_factor", ctx.draws))
-        H = H * np.broadcast_to(s, (n,)) ** 4
+    H = mc.heat_power.to("W").magnitude
     row = {"vent": vent, "clip": spec["clip"].name, "pixel_size [mm]": float(spec["pixel_size"].to("mm").magnitude),
-           "frame_pairs": int(res.field.pairs), "frames_skipped": int(res.field.skipped_frames),
+           "view": res.view, "frame_pairs": int(res.field.pairs), "frames_skipped": int(res.field.skipped_frames),
+           "frames_missing": len(res.field.frame_gaps) + int(res.field.missing_frames),
            "exit_velocity [m/s]": float(res.exit_velocity.to("m/s").magnitude),
-           "exit_velocity_sd [m/s]": float(res.exit_velocity_sd.to("m/s").magnitude),
+           "exit_velocity_sd [m/s]": float(np.std(mc.exit_velocity.to("m/s").magnitude, ddof=1)),
            "buoyancy_flux [m^4/s^3]": float(res.buoyancy_flux.to("m^4/s^3").magnitude),
-           "buoyancy_flux_sd [m^4/s^3]": float(res.buoyancy_flux_sd.to("m^4/s^3").magnitude),
+           "buoyancy_flux_sd [m^4/s^3]": float(np.std(mc.buoyancy_flux.to("m^4/s^3").magnitude, ddof=1)),
            "virtual_origin [m]": float(res.virtual_origin.to("m").magnitude),
-           "heat_power [MW]": H0 / 1e6, "plume_constant": k0}
+           "heat_power [MW]": H0 / 1e6, "plume_constant": k0,
+           "sightline_factor": float(np.median(res.profile.sightline_factor)),
+           "window_factor": float(np.median(res.profile.window_factor))}
+    row.update({f"heat_power_sd_{part} [%]": 100 * share["buoyancy_flux"] for part, share in mc.parts.items()})
     figs = []
     try:
         from .outputs import profile_figure
@@ -92,10 +133,16 @@ def _estimate(spec, vent, ctx):
                                            "pure-plume fit w = k (F/(z − z0))^(1/3)."))
     except Exception:  # noqa: BLE001 - a figure must not sink the run
         pass
+    shares = ", ".join(f"{part.replace('_', ' ')} {100 * s['buoyancy_flux']:.0f} %" for part, s in mc.parts.items())
+    view = ("volume view: centreline speeds corrected for the line of sight (factor "
+            f"{row['sightline_factor']:.2f}, tracer-to-velocity width ratio {lam0:g})" if res.view == "volume"
+            else "sheet view: no line-of-sight correction")
+    notes = [f"Video: buoyancy flux from the decay of centreline velocity with height (k = {k0:g} nominal), "
+             f"heat power H = ρ c_p0 F / (g α) with TEOS-10 at the vent; {view}; window-averaging factor "
+             f"{row['window_factor']:.2f}. Spread of the heat power by part (relative sd): {shares}."]
+    notes += [f"Video ({vent}): {flag}" for flag in res.flags]
     return MethodEstimate(heat_power=Q_(H, "W"), nominal_heat_power=Q_(H0, "W"), rows=[row], figures=figs,
-                          notes=["Video: buoyancy flux from the decay of centreline velocity with height "
-                                 f"(k = {k0:g}), heat power H = ρ c_p0 F / (g α) with TEOS-10 at "
-                                 "the vent."])
+                          notes=notes)
 
 
 VIDEO = SurveyMethod(key="video", summary="plume velocity decay on a video clip → buoyancy flux and heat power",

@@ -25,7 +25,8 @@ from dataclasses import dataclass, replace
 import numpy as np
 from scipy.special import erf
 
-from .plume import DEFAULT_PLUME_CONSTANT
+#: The demo plume's centreline constant (the top of the published range; plume.PLUME_CONSTANT_RANGE).
+DEFAULT_PLUME_CONSTANT = 4.7
 
 _SQRT2 = np.sqrt(2.0)
 
@@ -157,6 +158,7 @@ class PlumeClipTruth:
     exit_velocity: float  # m/s, centreline speed at the orifice
     lateral_sd: float  # m, standard deviation of the lateral velocity profile
     frames: int
+    width_ratio: float | None = None  # tracer over velocity width of a volume view; None: a sheet
 
 
 def plume_centreline_velocity(height, buoyancy_flux, virtual_origin, plume_constant=DEFAULT_PLUME_CONSTANT):
@@ -166,7 +168,7 @@ def plume_centreline_velocity(height, buoyancy_flux, virtual_origin, plume_const
 
 def plume_frames(shape=(256, 160), n_frames=100, buoyancy_flux=2.0e-4, virtual_origin=-0.05,
                  plume_constant=DEFAULT_PLUME_CONSTANT, metres_per_pixel=2.5e-3, frame_rate=50.0,
-                 lateral_sd=0.15, density=0.03, diameter=3.0, seed=0):
+                 lateral_sd=0.15, density=0.03, diameter=3.0, seed=0, width_ratio=None):
     """Yield 8-bit frames of a particle texture advected by a pure-plume velocity field.
 
     The vertical speed is ``w(x, z) = k (F/(z - z0))^(1/3) exp(-(x - xc)^2 / (2 s^2))``
@@ -175,6 +177,12 @@ def plume_frames(shape=(256, 160), n_frames=100, buoyancy_flux=2.0e-4, virtual_o
     obeys ``d/dt (z - z0)^(4/3) = (4/3) A(x)`` with ``A = k F^(1/3) g(x)``, so its
     height at any time is exact. Particles enter at the bottom at the rate that
     keeps their number density steady.
+
+    With ``width_ratio`` the clip is a volume view, as a dive camera sees a
+    plume: particles also have a depth ``y`` along the line of sight, the speed
+    is ``g(r)`` with ``r^2 = (x - xc)^2 + y^2``, the tracer concentration is a
+    Gaussian ``width_ratio`` times as wide as the velocity's, and every particle
+    is projected onto the image whatever its depth.
 
     Returns
     -------
@@ -192,28 +200,40 @@ def plume_frames(shape=(256, 160), n_frames=100, buoyancy_flux=2.0e-4, virtual_o
     s_px = lateral_sd / metres_per_pixel
     duration = n_frames / frame_rate
 
-    def strength(x):
-        return plume_constant * buoyancy_flux ** (1 / 3) * np.exp(-((x - xc) ** 2) / (2 * s_px**2))
+    def strength(x, depth=0.0):
+        return plume_constant * buoyancy_flux ** (1 / 3) * np.exp(-((x - xc) ** 2 + depth**2) / (2 * s_px**2))
 
     # Steady initial state: density proportional to (z - z0)^(1/3), i.e. uniform in zeta.
     mean_ratio = (3 / 4) * (zeta_t - zeta_b) / ((z_bot - virtual_origin) ** (1 / 3) * (z_top - z_bot))
-    n0 = rng.poisson(density * w * (z_top - z_bot) / metres_per_pixel * mean_ratio)
-    x_init = rng.uniform(-4, w + 4, n0)
+    if width_ratio is None:
+        n0 = rng.poisson(density * w * (z_top - z_bot) / metres_per_pixel * mean_ratio)
+        x_init, y_init = rng.uniform(-4, w + 4, n0), np.zeros(n0)
+        # Inflow through the bottom: count per column proportional to the speed there.
+        w_bot_px = strength(np.arange(-4, w + 4) + 0.5) * (z_bot - virtual_origin) ** (-1 / 3) / metres_per_pixel
+        n_in = rng.poisson(density * w_bot_px.sum() * duration)
+        x_in, y_in = _sample_columns(rng, w_bot_px, n_in), np.zeros(n_in)
+    else:
+        # Along each path the count is the path's flux times its transit time: the initial positions follow the
+        # concentration (sd width_ratio * s), the inflow concentration times speed (1/sd^2 = 1/(λs)^2 + 1/s^2).
+        sd_c = width_ratio * s_px
+        sd_q = 1.0 / np.sqrt(1.0 / sd_c**2 + 1.0 / s_px**2)
+        per_row = density * np.sqrt(2 * np.pi) * sd_c  # projected, `density` per pixel on the axis
+        n0 = rng.poisson(per_row * (z_top - z_bot) / metres_per_pixel * mean_ratio)
+        x_init, y_init = xc + rng.normal(0, sd_c, n0), rng.normal(0, sd_c, n0)
+        speed_axis = strength(xc) * (z_bot - virtual_origin) ** (-1 / 3) / metres_per_pixel
+        n_in = rng.poisson(per_row * speed_axis * (sd_q / sd_c) ** 2 * duration)
+        x_in, y_in = xc + rng.normal(0, sd_q, n_in), rng.normal(0, sd_q, n_in)
     zeta_init = rng.uniform(zeta_b, zeta_t, n0)
-    # Inflow through the bottom: count per column proportional to the speed there.
-    w_bot_px = strength(np.arange(-4, w + 4) + 0.5) * (z_bot - virtual_origin) ** (-1 / 3) / metres_per_pixel
-    n_in = rng.poisson(density * w_bot_px.sum() * duration)
-    x_in = _sample_columns(rng, w_bot_px, n_in)
     tau = rng.uniform(0, duration, n_in)
-    zeta_in = zeta_b - (4 / 3) * strength(x_in) * tau
+    zeta_in = zeta_b - (4 / 3) * strength(x_in, y_in) * tau
     x = np.concatenate([x_init, x_in])
     zeta0 = np.concatenate([zeta_init, zeta_in])
-    rate = (4 / 3) * strength(x)
+    rate = (4 / 3) * strength(x, np.concatenate([y_init, y_in]))
     amp = rng.uniform(0.5, 1.0, x.size)
     truth = PlumeClipTruth("", buoyancy_flux, virtual_origin, plume_constant, metres_per_pixel, frame_rate,
                            (xc, orifice_row), float(plume_centreline_velocity(0.0, buoyancy_flux, virtual_origin,
                                                                               plume_constant)),
-                           lateral_sd, n_frames)
+                           lateral_sd, n_frames, width_ratio)
 
     def _gen():
         for i in range(n_frames):
@@ -238,7 +258,8 @@ def render_plume_clip(path, seconds=2.0, shape=(256, 160), **options) -> PlumeCl
     Deterministic for given options (fixed seed); 2 s of 256 x 160 frames at
     50 frames/s take about a second. ``options`` go to ``plume_frames``
     (``buoyancy_flux`` in m^4/s^3, ``virtual_origin`` in m, ``metres_per_pixel``,
-    ``frame_rate`` in 1/s, ``plume_constant``, ``lateral_sd`` in m, ``seed``).
+    ``frame_rate`` in 1/s, ``plume_constant``, ``lateral_sd`` in m, ``seed``, ``width_ratio`` for a
+    volume view).
     """
     import imageio_ffmpeg
 
