@@ -49,7 +49,7 @@ def main():
     m = read_manifest(_records(folder, args.items))
     draws, _ = series_input_draws(m)
     site = site_state(m)
-    task_args = [(it, m.vents[it.vent], site, draws[it.vent], m.draws, m.interval_s, m.max_unphysical, None, "")
+    task_args = [(it, m.vents[it.vent], site, draws[it.vent], m.draws, m.interval_s, m.max_unphysical, m.seed, None, "")
                  for it in m.items]
     _task(*task_args[0])  # warm the property table in this process
     clusters, startup = {}, {}

@@ -166,7 +166,7 @@ def _reduce_record(t, per_sample_power, interval_s, n_draws):
 
 
 def estimate_item(item, vent, site: dict, draws: dict, n_draws: int, interval_s: float,
-                  max_unphysical: float) -> ItemResult:
+                  max_unphysical: float, seed: int = 20261202) -> ItemResult:
     """Heat-power draws of one item at each of its time steps (see the module docstring).
 
     Parameters
@@ -182,6 +182,8 @@ def estimate_item(item, vent, site: dict, draws: dict, n_draws: int, interval_s:
         Averaging window of continuous records [s].
     max_unphysical : float
         A time step whose unphysical draws exceed this fraction is set to NaN and flagged.
+    seed : int
+        The run's seed: inputs a method draws for itself by name (the video method's) use it.
     """
     try:
         if item.method == "vent-temperature":
@@ -189,7 +191,7 @@ def estimate_item(item, vent, site: dict, draws: dict, n_draws: int, interval_s:
         elif item.method == "array-anomaly":
             times, power, dropped, flags = _array_anomaly(item, draws, site, n_draws, interval_s)
         else:
-            times, power, dropped, flags = _video(item, vent, draws, site, n_draws)
+            times, power, dropped, flags = _video(item, vent, draws, site, n_draws, seed)
     except ItemFailure as err:
         return ItemResult(item.index, item.vent, item.method, np.array([], "datetime64[ns]"),
                           np.empty((0, n_draws), np.float32), np.array([], int), [], str(err))
@@ -236,16 +238,22 @@ def _array_anomaly(item, draws, site, n, interval_s):
     return times, power, dropped, flags
 
 
-def _video(item, vent, draws, site, n):
-    """A clip: exit velocity or buoyancy flux at the nominal scale, rescaled for each draw of the scale.
+def _video(item, vent, draws, site, n, seed):
+    """A clip: the video method's own draws (plume constant, line of sight, correlation, fit), times the scale.
 
-    Velocities scale with the pixel size s; heights too, so the buoyancy flux F = w³(z − z₀)/k³ scales as s⁴
-    (exact for a uniform scale error). The heat power from F is linear in F.
+    The video plugin's ``jet_draws`` draws its parts by name from a ``SharedDraws`` with the run's seed: each
+    name seeds its own stream, so the plume constant and the tracer-to-velocity width ratio (one name for every
+    vent) are the same draws in every task and process, while the fit and correlation errors are named per
+    item. The pixel size is drawn on the client with the vent's other inputs; velocities and heights scale with
+    it, so the buoyancy flux F = w³(z − z₀)/k³ scales as s⁴ and the exit velocity as s (exact for a uniform
+    scale error).
     """
     try:
         from ventflux_video.jet import analyze_jet_clip
+        from ventflux_video.propagation import jet_draws
     except ImportError:
         raise ItemFailure("the video methods need the ventflux-video plugin") from None
+    from ventflux.aggregate import SharedDraws
     from ventflux.errors import InputError
 
     s = np.asarray(draws["metres_per_pixel"], float)
@@ -255,6 +263,9 @@ def _video(item, vent, draws, site, n):
                                ambient_temperature=Q_(site["ambient_temperature_K"], "K"),
                                ambient_salinity=site["ambient_salinity"], pressure=Q_(site["pressure_Pa"], "Pa"),
                                latitude=site.get("latitude"))
+        own = f"{vent.name}/{item.path.name}/video"
+        jd = jet_draws(res, SharedDraws(n, seed), {"fit": f"{own}/fit", "correlation": f"{own}/correlation",
+                                                   "scale": f"{own}/scale"})
     except InputError as err:
         raise ItemFailure(err.line()) from None
     except (OSError, ValueError, RuntimeError) as err:
@@ -263,14 +274,14 @@ def _video(item, vent, draws, site, n):
     ratio = np.broadcast_to(s / s_nom, (n,))
     duration_s = float(res.field.pairs) / float(res.frame_rate.to("1/s").magnitude)
     time = (item.start + np.timedelta64(int(duration_s / 2 * 1e9), "ns")).astype("datetime64[ns]")
-    flags: list[str] = []
+    flags: list[str] = list(getattr(res, "flags", []) or [])
     if item.method == "video-exit-velocity":
-        u = res.exit_velocity.to("m/s").magnitude * ratio
+        u = jd.exit_velocity.to("m/s").magnitude * ratio
         T = np.broadcast_to(draws["exit_temperature"], (n,)).astype(float)
         power = _orifice_power(T[:, None], u[:, None], _column(draws["diameter"], n), site)[:, 0]
     else:
-        if res.heat_power is None:
+        if jd.heat_power is None:
             raise ItemFailure("no heat power from the plume fit")
-        power = res.heat_power.to("W").magnitude * ratio**4
+        power = jd.heat_power.to("W").magnitude * ratio**4
     dropped = np.array([int((~np.isfinite(power)).sum())])
     return np.array([time]), power.astype(np.float32)[None, :], dropped, flags

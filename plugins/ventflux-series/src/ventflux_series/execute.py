@@ -84,10 +84,10 @@ def store_cached(cache: Path, key: str, res: ItemResult) -> None:
         raise
 
 
-def _task(item, vent, site, draws, n_draws, interval_s, max_unphysical, cache, key):
+def _task(item, vent, site, draws, n_draws, interval_s, max_unphysical, seed, cache, key):
     """One Dask task: estimate and cache (the cache write happens on the worker, so a killed client loses
     nothing a worker finished)."""
-    res = estimate_item(item, vent, site, draws, n_draws, interval_s, max_unphysical)
+    res = estimate_item(item, vent, site, draws, n_draws, interval_s, max_unphysical, seed)
     if cache is not None:
         store_cached(Path(cache), key, res)
     return res
@@ -142,7 +142,8 @@ def run_items(manifest, draws_by_vent: dict, site: dict, *, scheduler: str | Non
     total = len(manifest.items)
     _progress(len(results), total, quiet)
     args = [(item, vent, site, draws_by_vent[item.vent], manifest.draws, manifest.interval_s,
-             manifest.max_unphysical, None if cache is None else str(cache), key) for item, vent, key in todo]
+             manifest.max_unphysical, manifest.seed, None if cache is None else str(cache), key)
+            for item, vent, key in todo]
     if scheduler is None:
         scheduler = "threads" if len(todo) <= SMALL_MANIFEST else "processes"
     stats["scheduler"] = scheduler
