@@ -5,9 +5,14 @@
 * ``heat``: the heat a vent fluid carries, an enthalpy difference at in-situ
   pressure with one fluid model at both ends.
 
-Fluid models are found through the ``ventflux_fluid_models`` hook, so a brine
-equation of state can be added by a plugin; ``fluid_model(name)`` builds one.
+Estimators take a fluid-model *object* (``FluidModel``); ``fluid_model(name)``
+here builds the core's own models. Models added by plugins (through the
+``ventflux_fluid_models`` hook) are looked up by ``ventflux.registry.fluid_model``,
+one layer up: this package imports nothing above ``units`` and ``errors``.
 """
+
+import functools
+
 
 from .heat import specific_heat_content, vent_fluid_state  # noqa: F401
 from .seawater import (  # noqa: F401
@@ -19,8 +24,22 @@ from .seawater import (  # noqa: F401
 from .ventfluid import DEFAULT_MODEL, FluidModel, IAPWS95Water  # noqa: F401
 
 
-def fluid_model(name: str = DEFAULT_MODEL) -> FluidModel:
-    """Build a fluid model by name (the core's or a plugin's)."""
-    from ..registry import fluid_model as _build
+#: The core's fluid models by name: what each is built from.
+CORE_MODELS = {
+    DEFAULT_MODEL: dict(tabulated=True),
+    "iapws95-water-direct": dict(tabulated=False),
+}
 
-    return _build(name)
+
+@functools.lru_cache(maxsize=None)
+def fluid_model(name: str = DEFAULT_MODEL) -> FluidModel:
+    """One of the core's fluid models by name, built once (default pure water, IAPWS-95).
+
+    Plugins' models are found through ``ventflux.registry.fluid_model``.
+    """
+    from ..errors import InputError
+
+    if name not in CORE_MODELS:
+        raise InputError("fluid model", name, "one of " + ", ".join(CORE_MODELS)
+                         + " (models from plugins: ventflux.registry.fluid_model)")
+    return IAPWS95Water(**CORE_MODELS[name])

@@ -17,6 +17,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Callable
 
+from ..uncertainty import UnphysicalPolicy
+
 
 @dataclass(frozen=True)
 class SurveyMethod:
@@ -79,10 +81,12 @@ class ParseContext:
 class RunContext:
     """What an estimator is given: the shared draws and the site."""
 
-    draws: object  # ventflux.aggregate.SharedDraws
+    draws: object  # ventflux.uncertainty.SharedDraws
     site: object  # parsed SiteSpec
     pressure: object  # absolute pressure quantity
     ambient_temperature: object  # draws (n,) shared by every consumer
     ambient_salinity: object  # draws or float
     stratification: object = None  # ventflux.profiles object, if a CTD cast is given
     progress: Callable = lambda msg: None
+    #: The run's one rule for impossible draws (``[run] max_unphysical``); pass it to ``propagate``.
+    policy: UnphysicalPolicy = field(default_factory=lambda: UnphysicalPolicy(option="run.max_unphysical"))

@@ -6,8 +6,11 @@ between vents (the site's ambient temperature, a camera's pixel scale, a
 probe calibration, the CTD cast) take the same value in draw ``j``
 everywhere, and their errors do not average away in the totals.
 
-Draws that some method could not evaluate (NaN) are dropped for the whole
-field, column by column; their number is reported.
+Every method and section propagates through ``ventflux.uncertainty.propagate``
+with the run's one ``UnphysicalPolicy`` (``[run] max_unphysical``, 5 % by
+default). Draws that some method could not evaluate (NaN) are dropped for the
+whole field, column by column; their number is reported, and the run is
+refused when more than the same share of columns is lost.
 """
 
 from __future__ import annotations
@@ -17,11 +20,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..aggregate import SharedDraws, compare_methods, field_total, focused_diffuse_split
-from ..errors import InputError
+from ..aggregate import compare_methods, field_total, focused_diffuse_split
 from ..orifice import in_situ_pressure
+from ..uncertainty import SITE_INPUT_NAMES, SharedDraws, UnphysicalPolicy, summarize
 from ..units import Q_
-from ..uncertainty import summarize
 from .api import RunContext
 from .spec import SurveySpec, survey_components
 
@@ -62,19 +64,20 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
     t0 = time.perf_counter()
     methods, sections = survey_components()
     draws = SharedDraws(spec.draws, spec.seed)
+    policy = UnphysicalPolicy(getattr(spec, "max_unphysical", UnphysicalPolicy.max_share), "run.max_unphysical")
     site = spec.site
     pressure = in_situ_pressure(site.pressure, site.depth, site.latitude)
-    ambient = draws.draw("site/ambient temperature", site.ambient_temperature)
+    ambient = draws.draw(SITE_INPUT_NAMES["ambient_temperature"], site.ambient_temperature)
     if np.ndim(ambient.magnitude) == 0:
         ambient = Q_(np.full(spec.draws, ambient.to("K").magnitude), "K")
-    salinity = draws.draw("site/ambient salinity", site.ambient_salinity)
+    salinity = draws.draw(SITE_INPUT_NAMES["ambient_salinity"], site.ambient_salinity)
     salinity = salinity.to("dimensionless").magnitude if hasattr(salinity, "to") else salinity
     strat = None
     if site.ctd is not None:
         progress("reading the CTD cast")
         strat = _read_stratification(site)
     ctx = RunContext(draws=draws, site=site, pressure=pressure, ambient_temperature=ambient,
-                     ambient_salinity=salinity, stratification=strat, progress=progress)
+                     ambient_salinity=salinity, stratification=strat, progress=progress, policy=policy)
 
     vents = []
     for i, v in enumerate(spec.vents, 1):
@@ -88,18 +91,22 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
         progress(f"section: {key}")
         sec[key] = sections[key].estimate(parsed, ctx)
 
-    # One mask of usable draw columns for the whole field.
-    keep = np.ones(spec.draws, bool)
+    # One mask of usable draw columns for the whole field, under the run's one limit.
+    masks = {}
     for vr in vents:
-        for e in vr.methods.values():
-            keep &= np.isfinite(e.heat_power.magnitude) & (e.heat_power.magnitude > 0)
-    for s in sec.values():
+        for k, e in vr.methods.items():
+            masks[f"{vr.name}/{k}"] = np.isfinite(e.heat_power.magnitude) & (e.heat_power.magnitude > 0)
+    for k, s in sec.items():
         if s.category in ("focused", "diffuse", "conductive"):
-            keep &= np.all(np.isfinite(np.atleast_2d(s.heat_power.magnitude)), axis=0)
+            masks[k] = np.all(np.isfinite(np.atleast_2d(s.heat_power.magnitude)), axis=0)
+    keep = np.ones(spec.draws, bool)
+    for m in masks.values():
+        keep &= np.broadcast_to(m, keep.shape)
+    if not keep.all():
+        worst = min(masks, key=lambda k: int(np.count_nonzero(masks[k])))
+        policy.enforce(keep, worst, f"{int((~keep).sum())} of {spec.draws} draws of the field unusable",
+                       "draws (over the whole field)")
     dropped = int((~keep).sum())
-    if keep.sum() < max(100, 0.5 * spec.draws):
-        raise InputError("draws", f"{dropped} of {spec.draws} unusable",
-                         "input distributions whose draws are mostly physical (narrow the spreads)")
 
     progress("field totals and method comparison")
     for vr, v in zip(vents, spec.vents):

@@ -1,0 +1,152 @@
+"""The one propagation driver: named streams, one rule for impossible draws, and one answer per question.
+
+The command line and a survey must give *identical* draws for the same
+orifice, patch and plume (same seed, same input names), so their summaries
+agree to rounding, not merely within Monte Carlo noise.
+"""
+
+import json
+
+import numpy as np
+import pytest
+
+from ventflux.cli import main
+from ventflux.errors import InputError
+from ventflux.survey.run import run_survey
+from ventflux.survey.spec import load_survey
+from ventflux.uncertainty import (
+    DEFAULT_MAX_UNPHYSICAL,
+    SharedDraws,
+    Uncertain,
+    UnphysicalPolicy,
+    draw_inputs,
+    normal,
+    propagate,
+    stream_key,
+)
+from ventflux.units import Q_
+
+SEED = 4321
+DRAWS = 3000
+
+SITE = f"""
+[site]
+name = "Test Site"
+depth = "2500 m"
+latitude = 10.0
+longitude = -100.0
+ambient_temperature = "2.0 ± 0.05 degC"
+
+[run]
+draws = {DRAWS}
+seed = {SEED}
+"""
+
+
+def _survey(tmp_path, text):
+    path = tmp_path / "survey.toml"
+    path.write_text(text, encoding="utf-8")
+    return run_survey(load_survey(path))
+
+
+def _cli_json(capsys, argv):
+    assert main(argv + ["--json"]) == 0
+    return json.loads(capsys.readouterr().out)
+
+
+# -- the driver itself -----------------------------------------------------------
+def test_streams_are_keyed_by_name_not_by_order_or_company():
+    u = Uncertain("normal", 1.0, 0.1, "m/s")
+    a = SharedDraws(100, seed=3)
+    b = SharedDraws(100, seed=3)
+    b.draw("other input", Uncertain("normal", 5.0, 1.0, "m"))  # another input drawn first
+    np.testing.assert_array_equal(a.draw("vent/velocity", u).magnitude, b.draw("vent/velocity", u).magnitude)
+    assert not np.array_equal(a.draw("vent/velocity", u).magnitude, a.draw("vent 2/velocity", u).magnitude)
+    # draw_inputs is the same mechanism: one stream per name
+    np.testing.assert_array_equal(draw_inputs({"vent/velocity": u}, 100, 3)["vent/velocity"].magnitude,
+                                  a.draw("vent/velocity", u).magnitude)
+
+
+def test_stream_key_is_stable_across_processes():
+    # BLAKE2b of the UTF-8 name (hashlib), not Python's salted hash(): a fixed value.
+    import hashlib
+
+    d = hashlib.blake2b(b"site/ambient temperature", digest_size=8).digest()
+    assert stream_key("site/ambient temperature") == (int.from_bytes(d[:4], "little"), int.from_bytes(d[4:], "little"))
+
+
+def _positive_sum(x, y):
+    return x + y
+
+
+def _positive(args):
+    return (np.asarray(args["x"].magnitude) > 0) & (np.asarray(args["y"].magnitude) > 0)
+
+
+def test_unphysical_draws_are_dropped_counted_and_refused_above_the_limit():
+    # x ~ N(1, 0.5): P(x <= 0) = Phi(-2) = 2.275 % (normal table), under the 5 % limit.
+    inputs = {"x": normal(Q_(1.0, "m"), Q_(0.5, "m")), "y": Q_(1.0, "m")}
+    p = propagate(_positive_sum, inputs, draws=20_000, seed=1, physical=_positive)
+    assert p.unphysical == pytest.approx(0.02275 * 20_000, rel=0.15)
+    assert p.result.magnitude.size == p.kept == 20_000 - p.unphysical
+    assert p.policy.max_share == DEFAULT_MAX_UNPHYSICAL
+    assert p.provenance()["max_unphysical_share"] == 0.05
+    # The same inputs with a limit of 1 % are refused, naming the input.
+    with pytest.raises(InputError) as err:
+        propagate(_positive_sum, inputs, draws=20_000, seed=1, physical=_positive, max_unphysical=0.01)
+    assert err.value.field == "x" and "1.0%" in err.value.allowed
+    # x ~ N(1, 1): P(x <= 0) = Phi(-1) = 15.9 %: refused at the default limit.
+    with pytest.raises(InputError) as err:
+        propagate(_positive_sum, {"x": normal(Q_(1.0, "m"), Q_(1.0, "m")), "y": Q_(1.0, "m")}, draws=2000,
+                  physical=_positive)
+    assert err.value.field == "x"
+
+
+def test_expand_puts_dropped_draws_back_as_nan():
+    p = propagate(_positive_sum, {"x": normal(Q_(1.0, "m"), Q_(0.5, "m")), "y": Q_(1.0, "m")}, draws=1000,
+                  seed=2, physical=_positive)
+    full = p.expand(p.result).magnitude
+    assert full.shape == (1000,) and np.count_nonzero(np.isnan(full)) == p.unphysical
+
+
+@pytest.mark.parametrize("share", [-0.1, 1.0, "a lot"])
+def test_policy_refuses_a_limit_that_is_not_a_share(share):
+    with pytest.raises(InputError):
+        UnphysicalPolicy(share)
+
+
+def test_unnamed_uncertain_input_is_refused_when_names_are_given():
+    with pytest.raises(InputError):
+        propagate(_positive_sum, {"x": normal(Q_(1.0, "m"), Q_(0.1, "m")), "y": Q_(1.0, "m")}, names={"y": "y"})
+
+
+# -- one answer per question: command line and survey ----------------------------------------
+ORIFICE = {"temperature": "352 ± 4 degC", "velocity": "1.2 ± 0.15 m/s", "diameter": "9 ± 0.5 cm"}
+
+
+def test_orifice_cli_and_survey_draw_identically(tmp_path, capsys):
+    text = SITE + '\n[[vent]]\nname = "Vent V"\n  [[vent.orifice]]\n' + "".join(
+        f'  {k} = "{v}"\n' for k, v in ORIFICE.items())
+    result = _survey(tmp_path, text)
+    H = result.vents[0].methods["orifice"].heat_power.to("MW").magnitude
+    argv = ["orifice", "--name", "Vent V", "--depth", "2500 m", "--latitude", "10", "--ambient-temperature",
+            "2.0 ± 0.05 degC", "--draws", str(DRAWS), "--seed", str(SEED)]
+    for k, v in ORIFICE.items():
+        argv += [f"--{k}", v]
+    out = _cli_json(capsys, argv)
+    assert out["unphysical_draws"] == int(np.count_nonzero(np.isnan(H)))
+    assert out["heat_power_W_p05"] / 1e6 == pytest.approx(np.nanpercentile(H, 5), rel=1e-12)
+    assert out["heat_power_W_p95"] / 1e6 == pytest.approx(np.nanpercentile(H, 95), rel=1e-12)
+    assert out["heat_power_W_mean"] / 1e6 == pytest.approx(np.nanmean(H), rel=1e-12)
+    assert out["max_unphysical_share"] == 0.05
+
+
+def test_orifice_cli_max_unphysical_is_settable(capsys):
+    # 0.6 ± 0.3 m/s: P(v <= 0) = Phi(-2) = 2.3 % of draws (normal table)
+    argv = ["orifice", "--depth", "2500 m", "--ambient-temperature", "2 degC", "--temperature", "300 degC",
+            "--velocity", "0.6 ± 0.3 m/s", "--diameter", "5 cm", "--draws", "4000"]
+    out = _cli_json(capsys, argv)
+    assert 0 < out["unphysical_draws"] < 0.05 * 4000
+    assert main(argv + ["--max-unphysical", "0.001"]) == 2
+    err = capsys.readouterr().err
+    assert "--velocity" in err and "0.1%" in err
