@@ -150,3 +150,56 @@ def test_orifice_cli_max_unphysical_is_settable(capsys):
     assert main(argv + ["--max-unphysical", "0.001"]) == 2
     err = capsys.readouterr().err
     assert "--velocity" in err and "0.1%" in err
+
+
+PATCHES = """patch,class,area [m^2],area_sd [m^2],active_fraction,active_fraction_sd,temperature_anomaly [K],temperature_anomaly_sd [K],velocity [cm/s],velocity_sd [cm/s]
+P1,mat,18.5,1.5,0.37,0.05,6.1,0.6,0.16,0.07
+P2,mat,28.2,2.3,0.39,0.05,2.5,0.6,0.19,0.07
+P3,crack,9.5,0.8,0.20,0.05,0.5,0.4,0.05,0.02
+P4,crack,12.0,1.0,0.25,0.05,1.5,0.4,0.09,0.02
+"""
+CLASSES = "class,area [m^2],area_sd [m^2]\nmat,1850,250\ncrack,4200,600\n"
+
+
+def test_diffuse_cli_and_survey_draw_identically_with_scale_up(tmp_path, capsys):
+    (tmp_path / "patches.csv").write_text(PATCHES, encoding="utf-8")
+    (tmp_path / "classes.csv").write_text(CLASSES, encoding="utf-8")
+    result = _survey(tmp_path, SITE + '\n[diffuse]\npatches = "patches.csv"\nclasses = "classes.csv"\n')
+    H = result.sections["diffuse"].heat_power.to("MW").magnitude.sum(axis=0)
+    out = _cli_json(capsys, ["diffuse", "--patches", str(tmp_path / "patches.csv"), "--classes",
+                             str(tmp_path / "classes.csv"), "--ambient-temperature", "2.0 ± 0.05 degC", "--depth",
+                             "2500 m", "--latitude", "10", "--draws", str(DRAWS), "--seed", str(SEED)])
+    su = out["scale_up"]
+    assert su["heat_power_MW_p05"] == pytest.approx(np.nanpercentile(H, 5), rel=1e-12)
+    assert su["heat_power_MW_p95"] == pytest.approx(np.nanpercentile(H, 95), rel=1e-12)
+    assert su["heat_power_MW_median"] == pytest.approx(np.nanmedian(H), rel=1e-12)
+    # A sediment-like patch (0.5 ± 0.4 K, 0.05 ± 0.02 cm/s) is drawn within its physical range, not clipped.
+    assert out["unphysical_draws"] == 0
+
+
+def test_diffuse_shared_velocity_spread_too_wide_is_refused_not_clipped(capsys):
+    # 0.6 ± 3 cm/s: P(w <= 0) = Phi(-0.2) = 42 % of draws (normal table) -> refused, naming the option.
+    rc = main(["diffuse", "--area", "10 m^2", "--active-fraction", "0.5", "--anomaly", "3 K", "--velocity",
+               "0.6 ± 3 cm/s", "--ambient-temperature", "2 degC", "--depth", "2000 m", "--draws", "2000"])
+    assert rc == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--velocity" in err[0] and "5.0%" in err[0]
+
+
+def test_diffuse_dropped_draws_are_counted(capsys):
+    # 1 ± 0.5 cm/s: Phi(-2) = 2.3 % of draws have w <= 0 (normal table): dropped and counted.
+    out = _cli_json(capsys, ["diffuse", "--area", "10 m^2", "--active-fraction", "0.5", "--anomaly", "3 K",
+                             "--velocity", "1 ± 0.5 cm/s", "--ambient-temperature", "2 degC", "--depth", "2000 m",
+                             "--draws", "20000"])
+    assert out["unphysical_draws"] == pytest.approx(0.02275 * 20000, rel=0.15)
+
+
+def test_from_mean_sd_keeps_mean_and_sd_inside_the_bound():
+    from ventflux.uncertainty import from_mean_sd
+
+    rng = np.random.default_rng(0)
+    for bound, mean, sd in (("positive", 0.52, 0.38), ("fraction", 0.08, 0.05), (None, 1.0, 0.2)):
+        x = from_mean_sd(mean, sd, "dimensionless", bound).sample(400_000, rng).magnitude
+        assert x.mean() == pytest.approx(mean, rel=0.01) and x.std() == pytest.approx(sd, rel=0.01)
+        if bound:
+            assert x.min() > 0 and (bound != "fraction" or x.max() < 1)

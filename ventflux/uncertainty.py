@@ -50,7 +50,7 @@ from .units import Q_, parse_quantity, require_dimension, ureg
 
 DEFAULT_SEED = 20_261_202
 DEFAULT_DRAWS = 10_000
-KINDS = ("normal", "uniform", "lognormal")
+KINDS = ("normal", "uniform", "lognormal", "beta")
 #: Largest share of Monte Carlo draws that may be dropped as physically
 #: impossible before the input distributions are refused (a choice: a few
 #: per cent of the tail of a normal spread past a bound changes the 5-95 %
@@ -78,6 +78,8 @@ class Uncertain:
     deviation is a difference, so ``"352 ± 3 degC"`` is 3 K wide).
     ``uniform``: ``a`` lower and ``b`` upper bound.
     ``lognormal``: ``a`` median, ``b`` geometric standard deviation (a factor > 1).
+    ``beta``: ``a`` mean, ``b`` standard deviation of a fraction in (0, 1)
+    (``b² < a(1 − a)``); made by ``from_mean_sd`` for bounded table columns.
     """
 
     kind: str
@@ -92,7 +94,8 @@ class Uncertain:
     @property
     def nominal(self) -> pint.Quantity:
         """The central value: mean, mid-point or median."""
-        centre = {"normal": self.a, "uniform": 0.5 * (self.a + self.b), "lognormal": self.a}[self.kind]
+        centre = {"normal": self.a, "uniform": 0.5 * (self.a + self.b), "lognormal": self.a,
+                  "beta": self.a}[self.kind]
         return Q_(centre, self.unit)
 
     def sample(self, n: int, rng: np.random.Generator) -> pint.Quantity:
@@ -100,6 +103,9 @@ class Uncertain:
             x = rng.normal(self.a, self.b, n)
         elif self.kind == "uniform":
             x = rng.uniform(self.a, self.b, n)
+        elif self.kind == "beta":
+            k = self.a * (1 - self.a) / self.b**2 - 1  # method of moments
+            x = rng.beta(self.a * k, (1 - self.a) * k, n)
         else:
             x = np.exp(rng.normal(np.log(self.a), np.log(self.b), n))
         return Q_(x, self.unit)
@@ -108,6 +114,8 @@ class Uncertain:
         u = f"{ureg.Unit(self.unit):~P}"
         if self.kind == "normal":
             return f"{self.a:g} ± {self.b:g} {u}"
+        if self.kind == "beta":
+            return f"beta(mean {self.a:g}, sd {self.b:g})"
         return f"{self.kind}({self.a:g}, {self.b:g}) {u}"
 
 
@@ -126,6 +134,52 @@ def uniform(low: pint.Quantity, high: pint.Quantity) -> Uncertain:
 def lognormal(median: pint.Quantity, factor: float) -> Uncertain:
     """Lognormal distribution from a median and a geometric standard deviation (> 1)."""
     return Uncertain("lognormal", float(median.magnitude), float(factor), str(median.units))
+
+
+#: What ``from_mean_sd`` draws for each kind of bound.
+BOUNDED_KINDS = {"positive": "lognormal", "fraction": "beta", None: "normal"}
+
+
+def from_mean_sd(mean: float, sd: float, unit: str, bound: str | None = None, field: str = "value"):
+    """A distribution with a given mean and standard deviation that respects a physical bound.
+
+    A normal distribution with a large relative spread crosses a physical
+    bound (8 % of the draws of an anomaly of 0.52 ± 0.38 K are ≤ 0). For a
+    table column of standard deviations the package therefore draws, with
+    the same mean and standard deviation:
+
+    * ``bound=None``: normal;
+    * ``bound="positive"``: lognormal, ``σ² = ln(1 + (sd/mean)²)``,
+      median ``mean / √(1 + (sd/mean)²)`` (method of moments);
+    * ``bound="fraction"``: beta on (0, 1), ``α = m k``, ``β = (1 − m) k``,
+      ``k = m(1 − m)/sd² − 1`` (method of moments; needs ``sd² < m(1 − m)``).
+
+    A zero standard deviation gives the exact value (a quantity).
+
+    References
+    ----------
+    .. [1] Johnson, N. L., Kotz, S. and Balakrishnan, N. (1994, 1995).
+       Continuous Univariate Distributions, vol. 1 ch. 14 (lognormal moments)
+       and vol. 2 ch. 25 (beta moments), Wiley.
+    """
+    mean, sd = float(mean), float(sd)
+    if not (np.isfinite(mean) and np.isfinite(sd)) or sd < 0:
+        raise InputError(field, f"{mean:g} ± {sd:g}", "a finite mean and a standard deviation ≥ 0")
+    if sd == 0:
+        return Q_(mean, unit)
+    if bound == "positive":
+        if not mean > 0:
+            raise InputError(field, f"{mean:g} ± {sd:g}", "a mean > 0 for a positive quantity")
+        r2 = 1 + (sd / mean) ** 2
+        return Uncertain("lognormal", mean / np.sqrt(r2), float(np.exp(np.sqrt(np.log(r2)))), unit)
+    if bound == "fraction":
+        if not (0 < mean < 1 and sd**2 < mean * (1 - mean)):
+            raise InputError(field, f"{mean:g} ± {sd:g}",
+                             "a fraction's mean in (0, 1) with a standard deviation below √(mean·(1 − mean))")
+        return Uncertain("beta", mean, sd, unit)
+    if bound is not None:
+        raise InputError("bound", bound, "one of positive, fraction or none")
+    return Uncertain("normal", mean, sd, unit)
 
 
 def _delta(sd, units):
@@ -473,7 +527,8 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
               draws: SharedDraws | int = DEFAULT_DRAWS, seed: int | None = DEFAULT_SEED,
               physical: Callable[[dict], np.ndarray] | None = None,
               max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL,
-              drawn: Mapping[str, pint.Quantity] | None = None) -> Propagation[R]:
+              drawn: Mapping[str, pint.Quantity] | None = None,
+              labels: Mapping[str, str] | None = None) -> Propagation[R]:
     """The propagation driver: draw every named input, drop unphysical draws, call the estimator once.
 
     Parameters
@@ -500,6 +555,9 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
     drawn : mapping, optional
         Arguments given as draws already (shape ``(..., n_draws)``, from the
         same ``SharedDraws``): subset like the drawn inputs.
+    labels : mapping, optional
+        How to show an input given in ``drawn`` in a refusal (its
+        distribution as the user wrote it); ``names`` gives its name.
 
     Returns
     -------
@@ -534,7 +592,7 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
     if physical is not None and (sampled or given):
         keep = np.broadcast_to(np.asarray(physical(args), bool), (n,)).copy()
     if not keep.all():
-        culprit, value = _culprit(physical, inputs, sampled, given, args, names, n)
+        culprit, value = _culprit(physical, inputs, sampled, given, args, names, n, labels or {})
         dropped = policy.enforce(keep, culprit, value)
     else:
         dropped = 0
@@ -554,7 +612,7 @@ def _subset(v, keep, n):
     return v[..., keep]
 
 
-def _culprit(physical, inputs, sampled, given, args, names, n):
+def _culprit(physical, inputs, sampled, given, args, names, n, labels):
     """The input whose own draws are impossible most often (the others held at their nominal values)."""
     pool = {**sampled, **given}
     if physical is None or not pool:
@@ -562,7 +620,7 @@ def _culprit(physical, inputs, sampled, given, args, names, n):
     base = {k: (nominal(v) if isinstance(v, Uncertain) else v) for k, v in inputs.items()}
     for k, v in given.items():
         m = np.asarray(v.magnitude if isinstance(v, pint.Quantity) else v, float)
-        mid = np.nanmedian(m, axis=-1)
+        mid = np.nanmedian(m, axis=-1, keepdims=True)
         base[k] = Q_(mid, v.units) if isinstance(v, pint.Quantity) else mid
     worst, lost = None, -1
     for k in pool:
@@ -574,7 +632,8 @@ def _culprit(physical, inputs, sampled, given, args, names, n):
         if bad > lost:
             worst, lost = k, bad
     value = inputs.get(worst)
-    return names.get(worst, worst), (str(value) if value is not None else f"{n} given draws")
+    text = str(value) if value is not None else labels.get(worst, f"{n} given draws")
+    return names.get(worst, worst), text
 
 
 @dataclass(frozen=True)

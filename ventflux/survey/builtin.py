@@ -223,79 +223,73 @@ def _parse_diffuse(f, ctx):
     return spec
 
 
-def _per_patch(draws, names, mean, sd, key):
-    """Per-patch draws (n_patches, n): normal where an sd column is given, else exact."""
-    if sd is None:
-        return Q_(np.repeat(mean.magnitude[:, None], draws.n_draws, axis=1), mean.units)
-    from ..uncertainty import Uncertain
-
-    values = [Uncertain("normal", float(m), float(s), str(mean.units)) for m, s in
-              zip(mean.magnitude, sd.to(mean.units).magnitude)]
-    return draws.draw_each([f"diffuse/{n}/{key}" for n in names], values, str(mean.units))
-
-
 def _estimate_diffuse(spec, ctx):
-    from ..diffuse import (
-        clip_to_physical_range,
-        diffuse_discharge,
-        scale_up_by_area_class,
-    )
+    from ..diffuse import diffuse_propagation, scale_up_uncertain
 
     t = spec["table"]
     d = ctx.draws
     names = list(t.names)
-    area = _per_patch(d, names, t.area, t.area_sd, "area")
-    frac = _per_patch(d, names, Q_(t.active_fraction, "dimensionless"),
-                      None if t.active_fraction_sd is None else Q_(t.active_fraction_sd, "dimensionless"),
-                      "active_fraction")
-    dT = _per_patch(d, names, t.temperature_anomaly, t.temperature_anomaly_sd, "temperature_anomaly")
+
+    def per_patch(mean, sd):
+        return mean if sd is None else (mean, sd)
+
+    overrides = {}
     if t.velocity is not None:
-        w = _per_patch(d, names, t.velocity, t.velocity_sd, "velocity")
+        w = per_patch(t.velocity, t.velocity_sd)
     else:
-        w = resolve(spec["velocity"], "diffuse/velocity", d)
-        w = w.reshape(1, -1) if np.ndim(w.magnitude) == 1 else w
-    clipped = clip_to_physical_range({"area": area, "active_fraction": frac.magnitude, "temperature_anomaly": dT,
-                           "velocity": w})
-    Ta = ctx.ambient_temperature
-    Ta = Ta.reshape(1, -1) if np.ndim(Ta.magnitude) == 1 else Ta
-    S = ctx.ambient_salinity
-    S = np.reshape(S, (1, -1)) if np.ndim(S) == 1 else S
-    res = diffuse_discharge(clipped["area"], clipped["active_fraction"], clipped["temperature_anomaly"],
-                            clipped["velocity"], Ta, S, ctx.pressure, check=False, names=names)
+        w = spec["velocity"]
+        if isinstance(w, SharedRef):  # a [shared] velocity: one stream for all its users
+            overrides["velocity"], w = "shared/" + w.name, w.value
+    frac_sd = None if t.active_fraction_sd is None else Q_(t.active_fraction_sd, "dimensionless")
+    drawn = {"ambient_temperature": ctx.ambient_temperature}
+    salinity = ctx.ambient_salinity
+    if np.ndim(salinity) == 1:
+        drawn["ambient_salinity"], salinity = salinity, None
+    prop = diffuse_propagation(per_patch(t.area, t.area_sd), per_patch(Q_(t.active_fraction, "dimensionless"),
+                                                                        frac_sd),
+                               per_patch(t.temperature_anomaly, t.temperature_anomaly_sd), w,
+                               nominal_of(ctx.site.ambient_temperature) if ctx.site.ambient_temperature is not None
+                               else Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
+                               salinity if salinity is not None else float(np.mean(ctx.ambient_salinity)),
+                               ctx.pressure, draws=d, names=names, input_names=overrides,
+                               max_unphysical=ctx.policy, drawn=drawn)
+    res = prop.draws
     H = res.heat_power.to("W")
     V = res.volume_flux.to("m^3/s")
     rows = []
     for i, n in enumerate(names):
+        h = H[i].magnitude
         rows.append({"patch": n, "class": t.classes[i], "area [m^2]": float(t.area[i].to("m^2").magnitude),
                      "active_fraction": float(t.active_fraction[i]),
                      "temperature_anomaly [K]": float(t.temperature_anomaly[i].to("K").magnitude),
-                     "heat_power_median [kW]": float(np.median(H[i].magnitude)) / 1e3,
-                     "heat_power_p05 [kW]": float(np.percentile(H[i].magnitude, 5)) / 1e3,
-                     "heat_power_p95 [kW]": float(np.percentile(H[i].magnitude, 95)) / 1e3,
-                     "heat_flux [W/m^2]": float(np.median(H[i].magnitude) / t.area[i].to("m^2").magnitude)})
+                     "heat_power_median [kW]": float(np.nanmedian(h)) / 1e3,
+                     "heat_power_p05 [kW]": float(np.nanpercentile(h, 5)) / 1e3,
+                     "heat_power_p95 [kW]": float(np.nanpercentile(h, 95)) / 1e3,
+                     "heat_flux [W/m^2]": float(np.nanmedian(h) / t.area[i].to("m^2").magnitude)})
     tables = {"diffuse_patches": rows}
+    notes = [f"Diffuse patches: {prop.unphysical} of {prop.n_draws} draws dropped as physically impossible "
+             f"(limit {prop.max_unphysical:.1%})."] if prop.unphysical else []
     if spec["classes"] is None:
         return SectionEstimate(category=spec["category"], names=names, heat_power=H, volume_flux=V, rows=rows,
-                               tables=tables)
+                               tables=tables, notes=notes)
     cnames, carea, carea_sd = spec["classes"]
-    ca = _per_patch(d, list(cnames), carea, carea_sd, "mapped_area")
-    ca = Q_(np.clip(ca.magnitude, 0, None), ca.units)
-    up = scale_up_by_area_class(t.classes, t.area, H, V, cnames, ca, seed=d.seed)
+    sp = scale_up_uncertain(prop, t.classes, list(cnames), carea, carea_sd, draws=d, max_unphysical=ctx.policy)
+    up = sp.scale_up
     crow = []
     for k, c in enumerate(up.classes):
         h = up.heat_power[k].to("MW").magnitude
         crow.append({"class": c, "mapped_area [m^2]": float(carea[k].to("m^2").magnitude),
                      "sampled_patches": int(up.n_sampled[k]),
-                     "heat_flux_median [W/m^2]": float(np.median(up.heat_flux_density[k].to("W/m^2").magnitude)),
-                     "heat_power_median [MW]": float(np.median(h)),
-                     "heat_power_p05 [MW]": float(np.percentile(h, 5)),
-                     "heat_power_p95 [MW]": float(np.percentile(h, 95))})
+                     "heat_flux_median [W/m^2]": float(np.nanmedian(up.heat_flux_density[k].to("W/m^2").magnitude)),
+                     "heat_power_median [MW]": float(np.nanmedian(h)),
+                     "heat_power_p05 [MW]": float(np.nanpercentile(h, 5)),
+                     "heat_power_p95 [MW]": float(np.nanpercentile(h, 95))})
     tables["diffuse_classes"] = crow
     return SectionEstimate(category=spec["category"], names=[f"class {c}" for c in up.classes],
                            heat_power=up.heat_power.to("W"), volume_flux=up.volume_flux.to("m^3/s"), rows=crow,
                            tables=tables,
-                           notes=["Diffuse output is scaled up from the sampled patches to the mapped area "
-                                  "classes; the sampled patches themselves are not added again."])
+                           notes=notes + ["Diffuse output is scaled up from the sampled patches to the mapped area "
+                                          "classes; the sampled patches themselves are not added again."])
 
 
 DIFFUSE = SurveySection(key="diffuse", summary="diffuse-flow patches (TEOS-10 enthalpy), scaled up to mapped areas",
