@@ -203,3 +203,19 @@ def test_from_mean_sd_keeps_mean_and_sd_inside_the_bound():
         assert x.mean() == pytest.approx(mean, rel=0.01) and x.std() == pytest.approx(sd, rel=0.01)
         if bound:
             assert x.min() > 0 and (bound != "fraction" or x.max() < 1)
+
+
+def test_plume_rise_cli_and_survey_draw_identically(tmp_path, capsys):
+    site = SITE.replace('depth = "2500 m"', 'pressure = "25 MPa"').replace(f"draws = {DRAWS}", "draws = 400")
+    text = site + ('\n[[vent]]\nname = "Vent P"\n  [vent.plume_rise]\n  height = "250 ± 25 m"\n'
+                   '  buoyancy_frequency = "1.0e-3 ± 1e-4 1/s"\n  entrainment = "0.12 ± 0.01"\n')
+    result = _survey(tmp_path, text)
+    H = result.vents[0].methods["plume_rise"].heat_power.to("W").magnitude
+    out = _cli_json(capsys, ["plume-rise", "--name", "Vent P", "--rise-height", "250 ± 25 m", "--buoyancy-frequency",
+                             "1.0e-3 ± 1e-4 1/s", "--entrainment", "0.12 ± 0.01", "--pressure", "25 MPa",
+                             "--ambient-temperature", "2.0 degC", "--ambient-salinity", "35", "--latitude", "10",
+                             "--longitude", "-100", "--draws", "400", "--seed", str(SEED)])
+    assert out["unphysical_draws"] == int(np.count_nonzero(np.isnan(H)))
+    assert out["heat_power_W_p05"] == pytest.approx(np.nanpercentile(H, 5), rel=1e-10)
+    assert out["heat_power_W_p95"] == pytest.approx(np.nanpercentile(H, 95), rel=1e-10)
+    assert out["heat_power_W_median"] == pytest.approx(np.nanmedian(H), rel=1e-10)

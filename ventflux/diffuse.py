@@ -57,8 +57,17 @@ from .properties.seawater import (
     sea_pressure_dbar,
 )
 from .tables import read_quantity_table
-from .uncertainty import (DEFAULT_DRAWS, DEFAULT_MAX_UNPHYSICAL, DEFAULT_SEED, SITE_INPUT_NAMES, SharedDraws,
-                          Uncertain, UnphysicalPolicy, from_mean_sd, propagate)
+from .uncertainty import (
+    DEFAULT_DRAWS,
+    DEFAULT_MAX_UNPHYSICAL,
+    DEFAULT_SEED,
+    SITE_INPUT_NAMES,
+    SharedDraws,
+    Uncertain,
+    UnphysicalPolicy,
+    from_mean_sd,
+    propagate,
+)
 from .units import Q_, magnitude, require_dimension, ureg
 
 __all__ = [
@@ -709,9 +718,9 @@ def velocity_from_source(name: str, *args, **options):
         The velocity; an ``Uncertain`` (normal) when the source reports a
         standard uncertainty.
     """
-    from .registry import velocity_source
-
     import inspect
+
+    from .registry import velocity_source
 
     src = velocity_source(name)
     if "diffuse" not in src.feeds:

@@ -31,11 +31,17 @@ from ..diffuse import (
     velocity_from_source,
 )
 from ..errors import InputError
-from ..properties.seawater import pressure_from_depth
+from ..properties.seawater import REFERENCE_SALINITY, pressure_from_depth
 from ..registry import Command, Method
-from ..uncertainty import DEFAULT_DRAWS, SharedDraws, Uncertain, UnphysicalPolicy, parse_uncertain, summarize
+from ..uncertainty import (
+    DEFAULT_DRAWS,
+    SharedDraws,
+    Uncertain,
+    UnphysicalPolicy,
+    parse_uncertain,
+    summarize,
+)
 from ..units import Q_, parse_quantity
-from ..properties.seawater import REFERENCE_SALINITY
 from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .output import add_output_options, print_json, print_table
 
