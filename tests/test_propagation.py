@@ -219,3 +219,23 @@ def test_plume_rise_cli_and_survey_draw_identically(tmp_path, capsys):
     assert out["heat_power_W_p05"] == pytest.approx(np.nanpercentile(H, 5), rel=1e-10)
     assert out["heat_power_W_p95"] == pytest.approx(np.nanpercentile(H, 95), rel=1e-10)
     assert out["heat_power_W_median"] == pytest.approx(np.nanmedian(H), rel=1e-10)
+
+
+def test_survey_reservoir_is_the_summarize_reservoir_answer_on_the_field_draws(tmp_path, capsys):
+    from ventflux import summarizer
+
+    text = SITE + '\n[[vent]]\nname = "Vent R"\n  [[vent.orifice]]\n' + "".join(
+        f'  {k} = "{v}"\n' for k, v in ORIFICE.items()) + (
+        '\n[[reservoir]]\nname = "lens"\nsupplies = "focused"\nvolume = "2 km^3"\n'
+        'temperature_drop = "500 K"\nporosity = 0\n')
+    result = _survey(tmp_path, text)
+    r = result.reservoirs[0]
+    direct = summarizer.reservoir_answer(result.focused.draws.to("W"), Q_(500, "K"), volume=Q_(2, "km^3"),
+                                         porosity=0.0, seed=SEED)
+    assert r["mining"].median.to("year").magnitude == pytest.approx(
+        direct.value("heat_mining_time").to("year").magnitude, rel=1e-12)
+    # With an exact power the command takes the same route (one evaluation, no draws).
+    out = _cli_json(capsys, ["summarize", "reservoir", "--power", "100 MW", "--volume", "2 km^3",
+                             "--temperature-drop", "500 K", "--porosity", "0"])
+    exact = summarizer.reservoir_answer(Q_(100, "MW"), Q_(500, "K"), volume=Q_(2, "km^3"), porosity=0.0)
+    assert out["heat_mining_time_year"] == pytest.approx(exact.value("heat_mining_time").to("year").magnitude)

@@ -142,7 +142,7 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
 
     checks = _field_checks(sec, focused, diffuse, keep, spec.seed)
     water = _field_water(vents, sec, keep, spec.seed)
-    reservoirs = [_reservoir(r, vents, focused, diffuse, pressure, spec.seed) for r in spec.reservoirs]
+    reservoirs = [_reservoir(r, vents, focused, diffuse, pressure, spec.seed, policy) for r in spec.reservoirs]
     shared = {k: v for k, v in draws.describe().items() if k.startswith(("shared/", "site/"))}
     return SurveyResult(spec=spec, pressure=pressure, vents=vents, sections=sec, focused=focused, diffuse=diffuse,
                         conductive=conductive, total=total, split=split, water=water, reservoirs=reservoirs, dropped_draws=dropped,
@@ -202,8 +202,9 @@ def _field_water(vents, sec, keep, seed):
     return out
 
 
-def _reservoir(r, vents, focused, diffuse, pressure, seed):
-    from ..reservoir import reservoir_heat, reservoir_lifetime
+def _reservoir(r, vents, focused, diffuse, pressure, seed, policy=None):
+    """A reservoir hypothesis through ``summarizer.reservoir_answer``: the route of ``ventflux summarize reservoir``."""
+    from ..summarizer import reservoir_answer
 
     if r.supplies == "focused":
         P = focused.draws
@@ -218,15 +219,17 @@ def _reservoir(r, vents, focused, diffuse, pressure, seed):
         opts.setdefault("pressure", pressure)
     if "temperature" not in opts:
         opts.setdefault("porosity", 0.0)
-    heat = reservoir_heat(**opts)
-    life = reservoir_lifetime(P.to("W"), heat, size=r.size)
-    return {"name": r.name, "supplies": r.supplies, "heat": heat, "lifetime": life,
-            "mining": summarize(life.mining_time.to("year"), seed),
-            "decline": summarize(life.decline_time.to("year"), seed),
-            "conductive": float(np.atleast_1d(life.conductive_time.to("year").magnitude)[0]),
-            "controlling": _mode(life.controlling)}
+    limit = policy.max_share if policy is not None else UnphysicalPolicy.max_share
+    ans = reservoir_answer(P.to("W"), size=r.size, seed=seed, max_unphysical=limit, **opts)
+    mining = ans.outputs["heat_mining_time"][0].to("year")
+    decline = ans.outputs["decline_time"][0].to("year")
+    conductive = ans.outputs.get("conductive_time")
+    return {"name": r.name, "supplies": r.supplies, "answer": ans, "heat": _StoredHeat(ans.value("stored_heat")),
+            "mining": mining, "decline": decline,
+            "conductive": float(conductive[0].median.to("year").magnitude) if conductive else float("nan"),
+            "controlling": ans.labels["controlling"]}
 
 
-def _mode(labels):
-    vals, counts = np.unique(np.asarray(labels).ravel(), return_counts=True)
-    return str(vals[np.argmax(counts)])
+@dataclass(frozen=True)
+class _StoredHeat:
+    total: object  # pint quantity [J]
