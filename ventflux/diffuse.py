@@ -89,7 +89,6 @@ __all__ = [
     "check_patch_inputs",
     "read_patch_table",
     "read_area_classes",
-    "velocity_from_source",
 ]
 
 
@@ -700,52 +699,14 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
 
 
 # --------------------------------------------------------------------------- velocity sources
-def velocity_from_source(name: str, *args, **options):
-    """Velocity from a registered velocity source (a plugin's measurement).
+def __getattr__(name):
+    # ``velocity_from_source`` looks a plugin up, so it lives in ``ventflux.registry``
+    # (this module sits below the plugin registry); the old import path still works.
+    if name == "velocity_from_source":
+        import importlib
 
-    Parameters
-    ----------
-    name : str
-        Name of a source from ``ventflux.registry.velocity_sources()`` that
-        feeds ``"diffuse"``.
-    *args, **options
-        Passed to the source's ``estimate`` callable (e.g. the path of a
-        temperature-depth profile and its options).
-
-    Returns
-    -------
-    pint.Quantity or Uncertain
-        The velocity; an ``Uncertain`` (normal) when the source reports a
-        standard uncertainty.
-    """
-    import inspect
-
-    from .registry import velocity_source
-
-    src = velocity_source(name)
-    if "diffuse" not in src.feeds:
-        raise InputError("velocity source", name, "a source that feeds the diffuse estimator")
-    try:
-        sig = inspect.signature(src.estimate)
-    except (TypeError, ValueError):  # a builtin without a signature: call it as it is
-        sig = None
-    if sig is not None:
-        try:
-            sig.bind(*args, **options)
-        except TypeError as exc:
-            accepted = ", ".join(p for p in sig.parameters if p not in ("args", "kwargs"))
-            raise InputError(f"velocity source {name}", ", ".join([*map(str, args), *options]) or "(nothing)",
-                             f"its input and options ({accepted}): {exc}") from None
-    out = src.estimate(*args, **options)
-    if isinstance(out, Uncertain):
-        return out
-    if isinstance(out, tuple):
-        v, sd = out[0], out[1]
-        v = require_dimension(v, "velocity", f"velocity from {name}")
-        if sd is None:
-            return v
-        return Uncertain("normal", float(v.to("m/s").magnitude), float(sd.to("m/s").magnitude), "m/s")
-    return require_dimension(out, "velocity", f"velocity from {name}")
+        return importlib.import_module("ventflux.registry").velocity_from_source
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 # --------------------------------------------------------------------------- tables
@@ -798,7 +759,9 @@ def read_patch_table(path, polygons=None) -> PatchTable:
     ``polygons``, from the polygon of each patch), ``active_fraction``
     (dimensionless, 0–1), ``temperature_anomaly [K]`` (``degC`` read as a
     difference), optional ``velocity [cm/s]`` and, for any of these, an
-    optional ``<name>_sd`` column of standard deviations (normal).
+    optional ``<name>_sd`` column of standard deviations (drawn with that
+    mean and standard deviation inside the physical range: lognormal for a
+    positive quantity, beta for the active fraction; ``PATCH_BOUNDS``).
 
     Parameters
     ----------

@@ -9,11 +9,14 @@ Inputs are only ever opened for reading.
 from __future__ import annotations
 
 import hashlib
+import math
 import os
 import shutil
 import tempfile
 from contextlib import contextmanager
 from pathlib import Path
+
+import numpy as np
 
 
 def atomic_write_bytes(path, data: bytes):
@@ -65,3 +68,19 @@ def sha256_of(path) -> str:
         for chunk in iter(lambda: fh.read(1 << 20), b""):
             h.update(chunk)
     return h.hexdigest()
+
+
+def json_ready(value):
+    """A JSON-ready copy: NumPy arrays and scalars as lists and numbers, non-finite floats as null."""
+    if isinstance(value, dict):
+        return {k: json_ready(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [json_ready(v) for v in value]
+    if isinstance(value, np.ndarray):
+        return json_ready(value.tolist())
+    if isinstance(value, (np.floating, float)):
+        f = float(value)
+        return f if math.isfinite(f) else None
+    if isinstance(value, np.integer):
+        return int(value)
+    return value

@@ -28,11 +28,10 @@ from ..diffuse import (
     read_area_classes,
     read_patch_table,
     scale_up_uncertain,
-    velocity_from_source,
 )
 from ..errors import InputError
 from ..properties.seawater import REFERENCE_SALINITY, pressure_from_depth
-from ..registry import Command, Method
+from ..registry import Command, Method, velocity_from_source
 from ..uncertainty import (
     DEFAULT_DRAWS,
     SharedDraws,

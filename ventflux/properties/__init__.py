@@ -11,10 +11,8 @@ here builds the core's own models. Models added by plugins (through the
 one layer up: this package imports nothing above ``units`` and ``errors``.
 """
 
-import functools
-
-
 from .heat import specific_heat_content, vent_fluid_state  # noqa: F401
+from .models import CORE_MODELS, fluid_model  # noqa: F401
 from .seawater import (  # noqa: F401
     SeawaterState,
     buoyancy_frequency_squared,
@@ -22,24 +20,3 @@ from .seawater import (  # noqa: F401
     seawater_state,
 )
 from .ventfluid import DEFAULT_MODEL, FluidModel, IAPWS95Water  # noqa: F401
-
-
-#: The core's fluid models by name: what each is built from.
-CORE_MODELS = {
-    DEFAULT_MODEL: dict(tabulated=True),
-    "iapws95-water-direct": dict(tabulated=False),
-}
-
-
-@functools.lru_cache(maxsize=None)
-def fluid_model(name: str = DEFAULT_MODEL) -> FluidModel:
-    """One of the core's fluid models by name, built once (default pure water, IAPWS-95).
-
-    Plugins' models are found through ``ventflux.registry.fluid_model``.
-    """
-    from ..errors import InputError
-
-    if name not in CORE_MODELS:
-        raise InputError("fluid model", name, "one of " + ", ".join(CORE_MODELS)
-                         + " (models from plugins: ventflux.registry.fluid_model)")
-    return IAPWS95Water(**CORE_MODELS[name])

@@ -21,6 +21,31 @@ from ..uncertainty import UnphysicalPolicy
 
 
 @dataclass(frozen=True)
+class ReportPart:
+    """How a survey method or section appears in the report, so the core names no method.
+
+    Attributes
+    ----------
+    table : str, optional
+        For a method: the table its rows (``MethodEstimate.rows``) go to,
+        one row per vent or orifice; default the method's key.
+    titles : dict
+        Table name → heading in the report (default: the name, capitalized).
+    intro : dict
+        Table name → a sentence shown under the heading.
+    rank : int
+        Where the part's tables and figures go in the report, lower first
+        (the core's: field totals 0, vents and methods 10, focused-vent
+        methods 20–39, field sections 40–89, reservoirs 90).
+    """
+
+    table: str | None = None
+    titles: dict[str, str] = field(default_factory=dict)
+    intro: dict[str, str] = field(default_factory=dict)
+    rank: int = 50
+
+
+@dataclass(frozen=True)
 class SurveyMethod:
     key: str
     summary: str
@@ -28,6 +53,7 @@ class SurveyMethod:
     estimate: Callable  # (spec, vent_name: str, context: RunContext) -> MethodEstimate
     many: bool = False  # an array of tables ([[vent.orifice]]) rather than one table
     provider: str = "ventflux"
+    report: ReportPart = field(default_factory=lambda: ReportPart(rank=30))
 
 
 @dataclass(frozen=True)
@@ -37,6 +63,7 @@ class SurveySection:
     parse: Callable  # (fields, context) -> spec
     estimate: Callable  # (spec, context) -> SectionEstimate
     provider: str = "ventflux"
+    report: ReportPart = field(default_factory=ReportPart)
 
 
 @dataclass

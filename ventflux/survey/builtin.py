@@ -27,7 +27,7 @@ from ..orifice import (
 )
 from ..uncertainty import propagate
 from ..units import Q_
-from .api import MethodEstimate, SectionEstimate, SurveyMethod, SurveySection
+from .api import MethodEstimate, ReportPart, SectionEstimate, SurveyMethod, SurveySection
 from .fields import SharedRef, as_float, nominal_of, resolve
 
 _ORIFICE_KEYS = (("temperature", "temperature"), ("velocity", "velocity"), ("diameter", "length"),
@@ -184,7 +184,8 @@ def nom_value(q, unit):
 
 ORIFICE = SurveyMethod(key="orifice", many=True,
                        summary="exit temperature, velocity and size of each orifice (IAPWS-95 enthalpy difference)",
-                       parse=_parse_orifice, estimate=_estimate_orifices)
+                       parse=_parse_orifice, estimate=_estimate_orifices,
+                       report=ReportPart(table="orifices", titles={"orifices": "Orifices"}, rank=20))
 
 
 # ---- diffuse patches -------------------------------------------------------------
@@ -293,7 +294,9 @@ def _estimate_diffuse(spec, ctx):
 
 
 DIFFUSE = SurveySection(key="diffuse", summary="diffuse-flow patches (TEOS-10 enthalpy), scaled up to mapped areas",
-                        parse=_parse_diffuse, estimate=_estimate_diffuse)
+                        parse=_parse_diffuse, estimate=_estimate_diffuse,
+                        report=ReportPart(titles={"diffuse_classes": "Diffuse discharge by mapped area class",
+                                                  "diffuse_patches": "Sampled diffuse patches"}, rank=40))
 
 def _plume_rise():
     from .plume_method import PLUME_RISE

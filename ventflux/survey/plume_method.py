@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..units import Q_
-from .api import MethodEstimate, SurveyMethod
+from .api import MethodEstimate, ReportPart, SurveyMethod
 from .fields import SharedRef, nominal_of
 
 
@@ -94,4 +94,5 @@ def _estimate(spec, vent, ctx):
 
 PLUME_RISE = SurveyMethod(key="plume_rise", summary="observed rise height of the vent's plume in the site's "
                                                    "stratification (integral plume model, inverted)",
-                          parse=_parse, estimate=_estimate)
+                          parse=_parse, estimate=_estimate,
+                          report=ReportPart(titles={"plume_rise": "Plume rise of each vent"}, rank=21))

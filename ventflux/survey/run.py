@@ -57,6 +57,8 @@ class SurveyResult:
     shared_inputs: dict
     checks: list = field(default_factory=list)  # (section key, MethodComparison) of field-level checks
     notes: list = field(default_factory=list)
+    #: key of every method and section used → its ``ReportPart`` (titles, tables, order in the report)
+    report_parts: dict = field(default_factory=dict)
 
 
 def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
@@ -147,7 +149,9 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
     return SurveyResult(spec=spec, pressure=pressure, vents=vents, sections=sec, focused=focused, diffuse=diffuse,
                         conductive=conductive, total=total, split=split, water=water, reservoirs=reservoirs, dropped_draws=dropped,
                         n_draws=int(keep.sum()), elapsed=time.perf_counter() - t0, shared_inputs=shared,
-                        checks=checks)
+                        checks=checks,
+                        report_parts={**{k: methods[k].report for v in spec.vents for k in v.methods},
+                                      **{k: sections[k].report for k in spec.sections}})
 
 
 def _field_checks(sec, focused, diffuse, keep, seed):

@@ -11,4 +11,4 @@ from .advection import fit_advection, profile_velocity  # noqa: F401
 from .array import array_anomalies  # noqa: F401
 from .probe import ProbeConstants, reduce_penetration  # noqa: F401
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"  # the one version source (pyproject.toml reads it)

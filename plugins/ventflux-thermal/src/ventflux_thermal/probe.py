@@ -49,9 +49,9 @@ from pathlib import Path
 
 import numpy as np
 from scipy import optimize
-from ventflux.errors import Collector, InputError
-from ventflux.tables import read_quantity_table
-from ventflux.units import Q_, parse_quantity
+from ventflux.plugin_api import Collector, InputError
+from ventflux.plugin_api import read_quantity_table
+from ventflux.plugin_api import Q_, parse_quantity
 
 from .decay import cylinder_decay
 from .fitting import first_parameter_se, require_increasing

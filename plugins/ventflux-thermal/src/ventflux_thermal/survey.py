@@ -15,10 +15,10 @@ from __future__ import annotations
 from pathlib import Path
 
 import numpy as np
-from ventflux.errors import InputError, InputErrors
-from ventflux.survey import SectionEstimate, SurveySection
-from ventflux.survey.fields import resolve
-from ventflux.units import Q_
+from ventflux.plugin_api import InputError, InputErrors
+from ventflux.plugin_api import SectionEstimate, SurveySection
+from ventflux.plugin_api import resolve
+from ventflux.plugin_api import Q_
 
 
 def _parse(f, ctx):

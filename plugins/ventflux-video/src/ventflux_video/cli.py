@@ -11,11 +11,11 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-from ventflux.cli.output import add_output_options, print_json, print_table
-from ventflux.errors import InputError
-from ventflux.io import atomic_directory
-from ventflux.registry import Command
-from ventflux.units import parse_quantity
+from ventflux.plugin_api import add_output_options, print_json, print_table
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import atomic_directory
+from ventflux.plugin_api import Command
+from ventflux.plugin_api import parse_quantity
 
 
 def _pair(text, field, n=2):
@@ -219,7 +219,7 @@ def configure_jet(p):
 
 
 def run_jet(args) -> int:
-    from ventflux.properties import pressure_from_depth
+    from ventflux.plugin_api import pressure_from_depth
 
     from .jet import analyze_jet_clip
     from .outputs import field_figure, field_table, profile_figure, profile_table

@@ -15,8 +15,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ventflux.errors import InputError
-from ventflux.units import Q_, magnitude
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import Q_, magnitude
 
 from .correlation import gaussian_peak_offset
 

@@ -12,10 +12,10 @@ by ``scale_factor = "@name"``, so its error is common to all of them.
 from __future__ import annotations
 
 import numpy as np
-from ventflux.errors import InputError
-from ventflux.survey import MethodEstimate, SurveyMethod
-from ventflux.survey.fields import as_float, resolve
-from ventflux.units import Q_
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import MethodEstimate, SurveyMethod
+from ventflux.plugin_api import as_float, resolve
+from ventflux.plugin_api import Q_
 
 
 def _parse(f, ctx):
@@ -52,7 +52,7 @@ def _parse(f, ctx):
 def _estimate(spec, vent, ctx):
     from .jet import analyze_jet_clip
 
-    from ventflux.survey.fields import nominal_of
+    from ventflux.plugin_api import nominal_of
 
     n = ctx.draws.n_draws
     k0 = float(as_float(nominal_of(spec["plume_constant"])))
@@ -64,7 +64,7 @@ def _estimate(spec, vent, ctx):
                            plume_constant=k0)
     H0 = res.heat_power.to("W").magnitude
     rel = float(res.heat_power_sd.to("W").magnitude / H0) if res.heat_power_sd is not None else 0.0
-    from ventflux.uncertainty import Uncertain
+    from ventflux.plugin_api import Uncertain
 
     fit = resolve(Uncertain("lognormal", 1.0, float(np.exp(rel)), "dimensionless") if rel > 0
                   else Q_(1.0, "dimensionless"), f"{vent}/video/fit", ctx.draws)
