@@ -2,7 +2,8 @@
 
 The graph is built from the source with ``ast`` (every ``import`` statement,
 those inside functions included, since a deferred import still ties the two
-modules together). Layers, from the bottom:
+modules together; only imports under ``if TYPE_CHECKING:``, which never run,
+are left out). Layers, from the bottom:
 
 0. ``units``, ``errors`` (and the package's ``__init__``)
 1. ``properties`` — equations of state; imports only layer 0
@@ -61,12 +62,25 @@ def _targets(mod, is_pkg, node, mods):
     return [f"{target}.{a.name}" if f"{target}.{a.name}" in mods else target for a in node.names]
 
 
+def _run_time_nodes(tree):
+    """Every node except those under ``if TYPE_CHECKING:`` (imports for annotations only)."""
+    todo = [tree]
+    while todo:
+        node = todo.pop()
+        yield node
+        for child in ast.iter_child_nodes(node):
+            if isinstance(child, ast.If) and ast.unparse(child.test) in ("TYPE_CHECKING", "typing.TYPE_CHECKING"):
+                todo.extend(child.orelse)
+                continue
+            todo.append(child)
+
+
 def import_graph():
     mods = _modules()
     graph = {}
     for mod, (path, is_pkg) in mods.items():
         deps = set()
-        for node in ast.walk(ast.parse(path.read_text(encoding="utf-8"))):
+        for node in _run_time_nodes(ast.parse(path.read_text(encoding="utf-8"))):
             for t in _targets(mod, is_pkg, node, mods):
                 while t not in mods and "." in t:
                     t = t.rsplit(".", 1)[0]
@@ -119,6 +133,10 @@ def test_the_graph_sees_imports_inside_functions():
 def test_no_import_cycles():
     cycle = _cycle(import_graph())
     assert cycle is None, "import cycle: " + " -> ".join(cycle)
+
+
+def test_annotation_only_imports_are_not_edges():
+    assert "ventflux.survey.spec" not in import_graph()["ventflux.survey.api"]
 
 
 def test_cycle_finder_finds_a_cycle():

@@ -198,7 +198,7 @@ class FocusedDiffuseSplit:
     diffuse: Summary
     total: Summary
     diffuse_fraction: Summary
-    draws: dict
+    draws: dict[str, pint.Quantity]
 
     def as_dict(self, name: str = "heat_power", unit: str = "MW") -> dict:
         out = {}
@@ -251,12 +251,12 @@ class MethodPair:
 class MethodComparison:
     """Several methods' estimates for one vent, their agreement and their combination."""
 
-    methods: dict  # name → Summary
-    pairs: list
+    methods: dict[str, Summary]  # method name → its summary
+    pairs: list[MethodPair]
     consistent: bool
     combined: Summary
     combined_draws: pint.Quantity
-    weights: dict  # name → weight on log power
+    weights: dict[str, float]  # method name → weight on log power
     scale_factor: float  # Birge factor applied (≥ 1)
     chi_squared: float
     limit: float = CONSISTENCY_LIMIT

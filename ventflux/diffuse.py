@@ -43,6 +43,7 @@ from __future__ import annotations
 
 import csv
 from dataclasses import dataclass, fields
+from typing import Any
 
 import gsw
 import numpy as np
@@ -383,8 +384,8 @@ def diffuse_physical(args) -> np.ndarray:
 
     f = m("active_fraction")
     ok = (m("area") >= 0) & (f >= 0) & (f <= 1) & (m("temperature_anomaly") > 0) & (m("velocity") > 0)
-    ok = np.asarray(ok)
-    return ok if ok.ndim < 2 else ok.all(axis=tuple(range(ok.ndim - 1)))
+    ok = np.asarray(ok, bool)
+    return ok if ok.ndim < 2 else np.asarray(ok.all(axis=tuple(range(ok.ndim - 1))), bool)
 
 
 #: Inputs of a patch (per patch) and of the site (shared by every patch).
@@ -511,7 +512,7 @@ def diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, am
                      physical=diffuse_physical, max_unphysical=policy, drawn=per_draw, labels=labels)
     out = prop.result
     shape = (max(n_patches, 1), prop.kept)
-    full = {}
+    full: dict[str, Any] = {}
     for f in fields(out):
         x = getattr(out, f.name)
         if isinstance(x, pint.Quantity):

@@ -39,7 +39,7 @@ from __future__ import annotations
 import hashlib
 import re
 from collections.abc import Callable, Iterable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Generic, TypeVar
 
 import numpy as np
@@ -649,8 +649,7 @@ class Summary:
     seed: int | None
 
     def to(self, unit: str) -> Summary:
-        return Summary(*(getattr(self, k).to(unit) for k in ("mean", "median", "p05", "p95", "std")),
-                       self.draws, self.seed)
+        return replace(self, **{k: getattr(self, k).to(unit) for k in ("mean", "median", "p05", "p95", "std")})
 
     def as_dict(self, name: str, unit: str) -> dict:
         """Flat dictionary with units in the keys (``heat_power_MW_p05``)."""

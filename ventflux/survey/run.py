@@ -17,48 +17,54 @@ from __future__ import annotations
 
 import time
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
+import pint
 
-from ..aggregate import compare_methods, field_total, focused_diffuse_split
+from ..aggregate import (FieldTotal, FocusedDiffuseSplit, MethodComparison, compare_methods, field_total,
+                         focused_diffuse_split)
 from ..orifice import in_situ_pressure
-from ..uncertainty import SITE_INPUT_NAMES, SharedDraws, UnphysicalPolicy, summarize
+from ..uncertainty import SITE_INPUT_NAMES, SharedDraws, Summary, Uncertain, UnphysicalPolicy, summarize
 from ..units import Q_
-from .api import RunContext
+from .api import MethodEstimate, ReportPart, RunContext, SectionEstimate
 from .spec import SurveySpec, survey_components
+
+if TYPE_CHECKING:
+    from ..throughput import WaterThroughput
 
 
 @dataclass
 class VentResult:
     name: str
-    methods: dict  # key -> MethodEstimate
-    heat_power: object  # combined draws (after column filtering)
-    comparison: object = None  # MethodComparison when several methods
-    throughput: object = None
-    exit_temperature: object = None
+    methods: dict[str, MethodEstimate]  # method key -> its estimate
+    heat_power: pint.Quantity | None  # combined draws (after column filtering)
+    comparison: MethodComparison | None = None  # when several methods
+    throughput: WaterThroughput | None = None
+    exit_temperature: pint.Quantity | Uncertain | None = None
 
 
 @dataclass
 class SurveyResult:
     spec: SurveySpec
-    pressure: object
-    vents: list
-    sections: dict  # key -> SectionEstimate
-    focused: object  # FieldTotal
-    diffuse: object  # FieldTotal or None
-    conductive: object  # FieldTotal or None (heat conducted through sediment)
-    total: object  # Summary of focused + diffuse + conductive
-    split: object  # FocusedDiffuseSplit or None
-    water: dict  # name -> Summary of field water flux
-    reservoirs: list
+    pressure: pint.Quantity
+    vents: list[VentResult]
+    sections: dict[str, SectionEstimate]
+    focused: FieldTotal | None
+    diffuse: FieldTotal | None
+    conductive: FieldTotal | None  # heat conducted through sediment
+    total: Summary | None  # focused + diffuse + conductive
+    split: FocusedDiffuseSplit | None
+    water: dict[str, Summary]  # field water flux by name
+    reservoirs: list[dict]
     dropped_draws: int
     n_draws: int
     elapsed: float
-    shared_inputs: dict
-    checks: list = field(default_factory=list)  # (section key, MethodComparison) of field-level checks
-    notes: list = field(default_factory=list)
+    shared_inputs: dict[str, str]
+    checks: list[tuple[str, MethodComparison]] = field(default_factory=list)  # field-level checks
+    notes: list[str] = field(default_factory=list)
     #: key of every method and section used → its ``ReportPart`` (titles, tables, order in the report)
-    report_parts: dict = field(default_factory=dict)
+    report_parts: dict[str, ReportPart] = field(default_factory=dict)
 
 
 def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
@@ -123,8 +129,9 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None) -> SurveyResult:
         if vr.exit_temperature is not None:
             vr.throughput = _throughput(vr, ctx, keep)
 
-    focused_items = [vr.heat_power.to("W") for vr in vents]
-    diffuse_items, conductive_items = [], []
+    focused_items: list[pint.Quantity] = [vr.heat_power.to("W") for vr in vents if vr.heat_power is not None]
+    diffuse_items: list[pint.Quantity] = []
+    conductive_items: list[pint.Quantity] = []
     for s in sec.values():
         if s.category in ("check", "context"):
             continue
@@ -236,4 +243,4 @@ def _reservoir(r, vents, focused, diffuse, pressure, seed, policy=None):
 
 @dataclass(frozen=True)
 class _StoredHeat:
-    total: object  # pint quantity [J]
+    total: pint.Quantity  # J
