@@ -73,23 +73,23 @@ from .units import Q_, magnitude, require_dimension, ureg
 
 __all__ = [
     "DiffuseDischarge",
-    "ScaleUp",
+    "DiffusePropagation",
     "PatchTable",
-    "polygon_area",
-    "temperature_difference",
+    "ScaleUp",
+    "ScaleUpPropagation",
+    "check_patch_inputs",
+    "class_area_draws",
+    "clip_to_physical_range",
     "diffuse_discharge",
     "diffuse_discharge_uncertain",
-    "diffuse_propagation",
     "diffuse_physical",
-    "DiffusePropagation",
-    "class_area_draws",
-    "scale_up_uncertain",
-    "ScaleUpPropagation",
-    "scale_up_by_area_class",
-    "clip_to_physical_range",
-    "check_patch_inputs",
-    "read_patch_table",
+    "diffuse_propagation",
+    "polygon_area",
     "read_area_classes",
+    "read_patch_table",
+    "scale_up_by_area_class",
+    "scale_up_uncertain",
+    "temperature_difference",
 ]
 
 
@@ -423,10 +423,10 @@ class DiffusePropagation:
 
 
 def diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, ambient_temperature,
-                        ambient_salinity, pressure, *, draws: "int | SharedDraws" = DEFAULT_DRAWS,
+                        ambient_salinity, pressure, *, draws: int | SharedDraws = DEFAULT_DRAWS,
                         seed: int | None = DEFAULT_SEED, names=None, prefix: str = "diffuse",
                         input_names: dict[str, str] | None = None,
-                        max_unphysical: "float | UnphysicalPolicy" = DEFAULT_MAX_UNPHYSICAL,
+                        max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL,
                         drawn: dict | None = None) -> DiffusePropagation:
     """Monte Carlo discharge of patches through the package's one propagation driver.
 
@@ -556,14 +556,14 @@ def class_area_draws(shared: SharedDraws, class_names, area, area_sd=None, prefi
 class ScaleUpPropagation:
     """Scale-up of drawn patches with the draws' bookkeeping (dropped columns hold NaN)."""
 
-    scale_up: "ScaleUp"
+    scale_up: ScaleUp
     keep: np.ndarray
     unphysical: int  # columns dropped for the scale-up (patch draws and class areas together)
 
 
 def scale_up_uncertain(patches: DiffusePropagation, patch_classes, class_names, class_area, class_area_sd=None, *,
                        draws: SharedDraws, prefix: str = "diffuse",
-                       max_unphysical: "float | UnphysicalPolicy" = DEFAULT_MAX_UNPHYSICAL) -> ScaleUpPropagation:
+                       max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL) -> ScaleUpPropagation:
     """Scale drawn patches up to mapped area classes: one route for ``ventflux diffuse`` and the survey.
 
     Class areas are drawn through ``class_area_draws``; a draw with a

@@ -224,7 +224,7 @@ def _val(q, unit):
 
 
 def _payload(res, nom, direction, args, strat):
-    from ..plume import closed_form
+    from ..plume.propagation import closed_form_heat_power
     from ..properties.seawater import CP0
 
     col = nom.column
@@ -245,8 +245,7 @@ def _payload(res, nom, direction, args, strat):
     }
     if nom.method == "integral" and args.rise_height is not None:
         # The common practice beside the full computation: the point-source formula with the mean N.
-        F = closed_form.buoyancy_flux_point_source(_val(nom.rise_height, "m"), out["mean_buoyancy_frequency_1_s"])
-        out["closed_form_heat_power_W"] = float(F / col.heat_to_buoyancy())
+        out["closed_form_heat_power_W"] = closed_form_heat_power(_val(nom.rise_height, "m"), col)
     if res.summary:
         out["draws"] = res.draws
         out["seed"] = res.seed

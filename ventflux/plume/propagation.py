@@ -71,9 +71,9 @@ class PlumePropagation:
     max_unphysical: float
 
 
-def plume_rise_propagation(inputs: dict, stratification, *, draws: "SharedDraws | int", seed: int | None = None,
+def plume_rise_propagation(inputs: dict, stratification, *, draws: SharedDraws | int, seed: int | None = None,
                            names: dict[str, str] | None = None, vent: str = "vent",
-                           max_unphysical: "float | UnphysicalPolicy" = DEFAULT_MAX_UNPHYSICAL,
+                           max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL,
                            level: str = "maximum", method: str = "integral", vent_depth=None, pressure=None,
                            ambient_temperature=None, ambient_salinity=None, latitude=None, longitude=None,
                            source: PlumeSource | None = None, track: bool = False,
@@ -153,6 +153,21 @@ def _full(q: pint.Quantity, m: int) -> pint.Quantity:
     return Q_(np.broadcast_to(np.asarray(q.magnitude, float), (m,)).copy(), q.units) if m > 1 else q
 
 
+def closed_form_heat_power(rise_height_m: float, column) -> float:
+    """Heat power [W] of the point-source rise formula with the column's mean N over the rise height.
+
+    Common practice shown beside the integral model's answer: the buoyancy
+    flux of a pure point-source plume rising ``rise_height_m`` in a uniform
+    stratification of the mean buoyancy frequency over that height
+    (``closed_form.buoyancy_flux_point_source``), converted to heat power at
+    the vent's ambient state (``Column.heat_to_buoyancy``).
+    """
+    from . import closed_form
+
+    n_mean = float(column.mean_n(max(rise_height_m, 1.0)))
+    return float(closed_form.buoyancy_flux_point_source(rise_height_m, n_mean) / column.heat_to_buoyancy())
+
+
 def orifice_plume_source(exit_temperature, exit_velocity, diameter, stratification, *, vent_depth=None,
                          pressure=None, ambient_temperature=None, ambient_salinity=None, latitude=None,
                          longitude=None) -> PlumeSource:
@@ -174,4 +189,11 @@ def orifice_plume_source(exit_temperature, exit_velocity, diameter, stratificati
     return plume_source_from_exit(exit_temperature, exit_velocity, diameter, p, t_amb, sp)
 
 
-__all__ = ["PLUME_INPUTS", "plume_input_names", "PlumePropagation", "plume_rise_propagation", "orifice_plume_source"]
+__all__ = [
+    "PLUME_INPUTS",
+    "PlumePropagation",
+    "closed_form_heat_power",
+    "orifice_plume_source",
+    "plume_input_names",
+    "plume_rise_propagation",
+]
