@@ -9,6 +9,8 @@ import json
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from ventflux.cli import main
 from ventflux.errors import InputError
@@ -239,3 +241,19 @@ def test_survey_reservoir_is_the_summarize_reservoir_answer_on_the_field_draws(t
                              "--temperature-drop", "500 K", "--porosity", "0"])
     exact = summarizer.reservoir_answer(Q_(100, "MW"), Q_(500, "K"), volume=Q_(2, "km^3"), porosity=0.0)
     assert out["heat_mining_time_year"] == pytest.approx(exact.value("heat_mining_time").to("year").magnitude)
+
+
+@settings(max_examples=60, deadline=None)
+@given(mean=st.floats(-2, 5), sd=st.floats(0.01, 3), share=st.floats(0, 0.5), seed=st.integers(0, 2**32 - 1))
+def test_driver_drops_exactly_the_impossible_draws_and_refuses_only_above_the_limit(mean, sd, share, seed):
+    inputs = {"x": normal(Q_(mean, "m"), Q_(sd, "m")), "y": Q_(1.0, "m")}
+    n = 500
+    x = SharedDraws(n, seed).draw("x", inputs["x"]).magnitude  # the same stream the driver draws from
+    bad = int(np.count_nonzero(x <= 0))
+    if bad > share * n:
+        with pytest.raises(InputError):
+            propagate(_positive_sum, inputs, draws=n, seed=seed, physical=_positive, max_unphysical=share)
+        return
+    p = propagate(_positive_sum, inputs, draws=n, seed=seed, physical=_positive, max_unphysical=share)
+    assert p.unphysical == bad and p.kept == n - bad
+    np.testing.assert_array_equal(p.result.magnitude, x[x > 0] + 1.0)

@@ -403,7 +403,9 @@ code{{background:#f4f4f4;padding:0 .2rem}} .wrap{{overflow-x:auto}}
     parts.append("<p class='key'>" + " ".join(key) + "</p>")
     parts.append(f"<p>Site depth/pressure: {result.pressure.to('MPa').m:.4g} MPa absolute; latitude "
                  f"{spec.site.latitude}, longitude {spec.site.longitude}. Monte Carlo: {result.n_draws} usable draws "
-                 f"of {spec.draws} (seed {spec.seed}); {result.dropped_draws} draws dropped as unphysical.</p>")
+                 f"of {spec.draws} (seed {spec.seed}); {result.dropped_draws} draws dropped as physically impossible "
+                 f"(limit {getattr(spec, 'max_unphysical', 0.05):.1%} of the draws, "
+                 "<code>[run] max_unphysical</code>).</p>")
     img_by = {stem: (cap, data) for stem, cap, data in images}
     under = _figure_tables(result)
     shown = set()
