@@ -101,7 +101,10 @@ def _inputs(args):
         vals["profile_factor"] = args.profile_factor
     from ..registry import fluid_model
 
-    vals["fluid"] = fluid_model(args.fluid)
+    try:
+        vals["fluid"] = fluid_model(args.fluid)  # estimators take the model object, not its name
+    except InputError as err:
+        raise InputError("--fluid", args.fluid, err.allowed) from None
     return vals
 
 
