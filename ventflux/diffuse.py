@@ -79,7 +79,6 @@ __all__ = [
     "ScaleUpPropagation",
     "check_patch_inputs",
     "class_area_draws",
-    "clip_to_physical_range",
     "diffuse_discharge",
     "diffuse_discharge_uncertain",
     "diffuse_physical",
@@ -260,7 +259,7 @@ def diffuse_discharge(area, active_fraction, temperature_anomaly, velocity, ambi
         Absolute in-situ pressure.
     check : bool
         Refuse impossible inputs (see ``check_patch_inputs``). Monte Carlo
-        callers that clip their draws to the physical range may pass False.
+        callers that have dropped impossible draws (``diffuse_physical``) may pass False.
     names : sequence of str, optional
         Patch names for error messages.
 
@@ -355,21 +354,6 @@ def _warm_beyond_teos10(t0_c, t1_c, p_sea_dbar):
 
 
 # --------------------------------------------------------------------------- Monte Carlo
-def clip_to_physical_range(d: dict) -> dict:
-    """Former rule (clipping draws to the physical range), kept for callers outside the package.
-
-    The package no longer clips: impossible draws are dropped and counted by
-    the one propagation driver (see ``diffuse_physical`` and
-    ``ventflux.uncertainty.propagate``).
-    """
-    out = dict(d)
-    out["active_fraction"] = np.clip(np.asarray(d["active_fraction"], float), 0.0, 1.0)
-    for k in ("area", "temperature_anomaly", "velocity"):
-        q = d[k]
-        out[k] = Q_(np.clip(q.magnitude, 0.0, None), q.units)
-    return out
-
-
 def diffuse_physical(args) -> np.ndarray:
     """Which draw columns the diffuse estimator can evaluate, for every patch at once.
 
