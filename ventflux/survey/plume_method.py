@@ -79,7 +79,7 @@ def _estimate(spec, vent, ctx):
            "spreading_volume_flux [m^3/s]": float(nominal.spreading_volume_flux.to("m^3/s").magnitude),
            "heat_power_p05 [MW]": float(np.nanpercentile(H, 5) / 1e6),
            "heat_power_p95 [MW]": float(np.nanpercentile(H, 95) / 1e6),
-           "failed_draws": int(pp.unphysical)}
+           "unphysical_draws": int(pp.unphysical)}
     figs = []
     if spec["method"] == "integral" and nominal.track is not None:
         from ..plume.figures import plume_figure
