@@ -28,7 +28,7 @@ from ..orifice import (
 from ..uncertainty import propagate
 from ..units import Q_
 from .api import MethodEstimate, ReportPart, SectionEstimate, SurveyMethod, SurveySection
-from .fields import SharedRef, as_float, nominal_of, resolve
+from .fields import SharedRef, as_float, nominal_of
 
 _ORIFICE_KEYS = (("temperature", "temperature"), ("velocity", "velocity"), ("diameter", "length"),
                  ("minor_diameter", "length"), ("area", "area"))
