@@ -257,3 +257,19 @@ def test_driver_drops_exactly_the_impossible_draws_and_refuses_only_above_the_li
     p = propagate(_positive_sum, inputs, draws=n, seed=seed, physical=_positive, max_unphysical=share)
     assert p.unphysical == bad and p.kept == n - bad
     np.testing.assert_array_equal(p.result.magnitude, x[x > 0] + 1.0)
+
+
+@pytest.mark.parametrize("row, key", [
+    ("P1,mat,18.5,1.5,0.9,0.35,6.1,0.6,0.16,0.07", "active_fraction_sd"),  # 0.35 > sqrt(0.9 * 0.1) = 0.3
+    ("P1,mat,18.5,1.5,1.0,0.05,6.1,0.6,0.16,0.07", "active_fraction_sd"),  # a fraction of 1 cannot spread
+    ("P1,mat,0,1.5,0.4,0.05,6.1,0.6,0.16,0.07", "area_sd"),  # a zero area cannot spread
+])
+def test_patch_sd_without_a_distribution_in_range_is_refused_when_read(tmp_path, row, key):
+    from ventflux.diffuse import read_patch_table
+    from ventflux.errors import InputErrors
+
+    path = tmp_path / "p.csv"
+    path.write_text(PATCHES.splitlines()[0] + "\n" + row + "\n", encoding="utf-8")
+    with pytest.raises((InputError, InputErrors)) as err:
+        read_patch_table(path)
+    assert key in str(err.value) and "p.csv:2" in str(err.value)

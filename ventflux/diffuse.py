@@ -531,7 +531,7 @@ def class_area_draws(shared: SharedDraws, class_names, area, area_sd=None, prefi
     if area_sd is None:
         return Q_(np.repeat(np.asarray(area.magnitude, float)[:, None], shared.n_draws, axis=1), area.units)
     unit = str(area.units)
-    values = [from_mean_sd(m, s, unit, "positive", f"{prefix}/{c}/mapped_area_sd") if m > 0 else Q_(m, unit)
+    values = [from_mean_sd(m, s, unit, "positive", f"{prefix}/{c}/mapped_area_sd")
               for m, s, c in zip(area.magnitude, area_sd.to(area.units).magnitude, class_names)]
     return shared.draw_each([f"{prefix}/{c}/mapped_area" for c in class_names], values, unit)
 
@@ -799,6 +799,24 @@ def read_patch_table(path, polygons=None) -> PatchTable:
         for i in np.flatnonzero(q.magnitude < 0):
             c.add(InputError(k, f"{q.magnitude[i]:g}", "a standard deviation ≥ 0", where=f"{path}:{tbl.lines[i]}"))
         sds[k] = q
+    # A standard deviation is drawn inside the column's physical range (``PATCH_BOUNDS``): such a
+    # distribution exists only for a positive mean, and for a fraction only when sd² < f(1 − f).
+    for k, mean in (("area_sd", area.magnitude), ("temperature_anomaly_sd", dT.magnitude),
+                    ("velocity_sd", None if w is None else w.magnitude)):
+        if sds.get(k) is None or mean is None:
+            continue
+        sd = sds[k].to(area.units if k == "area_sd" else dT.units if k == "temperature_anomaly_sd"
+                       else w.units).magnitude
+        for i in np.flatnonzero((sd > 0) & ~(mean > 0)):
+            c.add(InputError(k, f"{sd[i]:g}", f"a standard deviation of 0 for a {k[:-3].replace('_', ' ')} of "
+                             f"{mean[i]:g} (a spread needs a positive value)", where=f"{path}:{tbl.lines[i]}"))
+    if sds.get("active_fraction_sd") is not None:
+        sd = sds["active_fraction_sd"].to("dimensionless").magnitude
+        for i in np.flatnonzero((sd > 0) & ~(sd**2 < frac * (1 - frac))):
+            c.add(InputError("active_fraction_sd", f"{sd[i]:g}", f"a standard deviation below "
+                             f"√(f(1 − f)) = {np.sqrt(max(frac[i] * (1 - frac[i]), 0)):.3g} for an active fraction "
+                             f"f = {frac[i]:g} (the widest spread a fraction between 0 and 1 can have)",
+                             where=f"{path}:{tbl.lines[i]}"))
     c.raise_if_any()
     return PatchTable(names=tuple(names), classes=tuple(classes), area=area, active_fraction=frac,
                       temperature_anomaly=dT, velocity=w, area_sd=sds["area_sd"],
@@ -839,6 +857,13 @@ def read_area_classes(path):
     c = Collector()
     for i in np.flatnonzero(tbl["area"].magnitude < 0):
         c.add(InputError("area", f"{tbl['area'].magnitude[i]:g}", "a mapped area ≥ 0", where=f"{path}:{tbl.lines[i]}"))
+    if "area_sd" in tbl:  # drawn lognormal with this mean and sd: a spread needs a positive area
+        sd = tbl["area_sd"].to(tbl["area"].units).magnitude
+        for i in np.flatnonzero(sd < 0):
+            c.add(InputError("area_sd", f"{sd[i]:g}", "a standard deviation ≥ 0", where=f"{path}:{tbl.lines[i]}"))
+        for i in np.flatnonzero((sd > 0) & ~(tbl["area"].magnitude > 0)):
+            c.add(InputError("area_sd", f"{sd[i]:g}", "a standard deviation of 0 for a mapped area of 0",
+                             where=f"{path}:{tbl.lines[i]}"))
     c.raise_if_any()
     return names, tbl["area"].to("m^2"), (tbl["area_sd"].to("m^2") if "area_sd" in tbl else None)
 
