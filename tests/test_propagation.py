@@ -273,3 +273,19 @@ def test_patch_sd_without_a_distribution_in_range_is_refused_when_read(tmp_path,
     with pytest.raises((InputError, InputErrors)) as err:
         read_patch_table(path)
     assert key in str(err.value) and "p.csv:2" in str(err.value)
+
+
+ONE_PATCH = ["diffuse", "--anomaly", "3.2 K", "--velocity", "0.8 cm/s", "--ambient-temperature", "2.1 degC",
+             "--depth", "2200 m", "--draws", "500"]
+
+
+@pytest.mark.parametrize("area, fraction", [("12 ± 2 m^2", "0.4 ± 0.1"), ("12 m^2", "0.4 ± 0")])
+def test_single_patch_with_shared_distributions_runs(capsys, area, fraction):
+    out = _cli_json(capsys, ONE_PATCH + ["--area", area, "--active-fraction", fraction])
+    assert len(out["patches"]) == 1 and out["heat_power_MW"] > 0
+
+
+def test_non_finite_exact_input_is_one_line(capsys):
+    assert main(ONE_PATCH + ["--area", "12 m^2", "--active-fraction", "nan"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--active-fraction" in err[0] and "finite" in err[0]

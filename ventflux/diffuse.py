@@ -448,7 +448,11 @@ def diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, am
             v = _delta_uncertain(v).nominal if k == "temperature_anomaly" else v.nominal
         return v
 
-    nominal = diffuse_discharge(**{k: nom(k) for k in raw}, names=names)
+    nominal_inputs = {k: nom(k) for k in raw}
+    if all(np.ndim(getattr(nominal_inputs[k], "magnitude", nominal_inputs[k])) == 0 for k in PATCH_INPUTS):
+        # one patch given by scalars (or shared distributions): a patch axis of length one
+        nominal_inputs.update({k: _one_patch(nominal_inputs[k]) for k in PATCH_INPUTS})
+    nominal = diffuse_discharge(**nominal_inputs, names=names)
     n_patches = np.shape(nominal.heat_power.magnitude)[0] if nominal.heat_power.ndim else 1
     patch_names = list(names) if names is not None else ["patch"] + [f"patch {i}" for i in range(2, n_patches + 1)]
     shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
@@ -491,8 +495,9 @@ def diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, am
         a["active_fraction"] = a["active_fraction"].to("dimensionless").magnitude
         return diffuse_discharge(**a, check=False, names=patch_names)
 
-    labels = {k: str(raw[k]) if isinstance(raw[k], Uncertain) else "a distribution per patch" for k in per_draw}
-    prop = propagate(estimator, fixed, names={k: stream.get(k, f"{prefix}/{k}") for k in per_draw}, draws=shared,
+    labels = {k: str(raw[k]) if isinstance(raw[k], (Uncertain, pint.Quantity)) or k in fixed
+              else "a distribution per patch" for k in args}
+    prop = propagate(estimator, fixed, names={k: stream.get(k, f"{prefix}/{k}") for k in args}, draws=shared,
                      physical=diffuse_physical, max_unphysical=policy, drawn=per_draw, labels=labels)
     out = prop.result
     shape = (max(n_patches, 1), prop.kept)
@@ -508,6 +513,10 @@ def diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, am
     return DiffusePropagation(nominal=nominal, draws=DiffuseDischarge(**full), keep=prop.keep,
                               unphysical=prop.unphysical, n_draws=n, seed=shared.seed,
                               max_unphysical=policy.max_share, inputs=described)
+
+
+def _one_patch(x):
+    return Q_(np.atleast_1d(x.magnitude), x.units) if isinstance(x, pint.Quantity) else np.atleast_1d(x)
 
 
 def diffuse_discharge_uncertain(area, active_fraction, temperature_anomaly, velocity, ambient_temperature,

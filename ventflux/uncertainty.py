@@ -556,8 +556,9 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
         Arguments given as draws already (shape ``(..., n_draws)``, from the
         same ``SharedDraws``): subset like the drawn inputs.
     labels : mapping, optional
-        How to show an input given in ``drawn`` in a refusal (its
-        distribution as the user wrote it); ``names`` gives its name.
+        How to show an input in a refusal (its value or distribution as the
+        user wrote it), where ``str`` of the argument would not; ``names``
+        gives its name.
 
     Returns
     -------
@@ -585,11 +586,12 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
         if isinstance(v, Uncertain):
             sampled[k] = args[k] = shared.draw(names.get(k, k), v)
         else:
+            _require_finite(v, names.get(k, k), (labels or {}).get(k))
             args[k] = v
     given = dict(drawn or {})
     args.update(given)
     keep = np.ones(n, bool)
-    if physical is not None and (sampled or given):
+    if physical is not None:  # exact inputs too: an exact NaN makes every draw impossible
         keep = np.broadcast_to(np.asarray(physical(args), bool), (n,)).copy()
     if not keep.all():
         culprit, value = _culprit(physical, inputs, sampled, given, args, names, n, labels or {})
@@ -603,6 +605,13 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
     described = {names.get(k, k): str(v) for k, v in inputs.items() if isinstance(v, Uncertain)}
     return Propagation(result=result, keep=keep, n_draws=n, unphysical=dropped, seed=shared.seed, policy=policy,
                        inputs=described)
+
+
+def _require_finite(v, name, label=None):
+    """Refuse a non-finite number among the exact inputs (a NaN would make every draw impossible)."""
+    m = v.magnitude if isinstance(v, pint.Quantity) else v
+    if isinstance(m, (int, float, np.ndarray, np.number)) and not np.all(np.isfinite(m)):
+        raise InputError(name, label or str(v), "a finite value")
 
 
 def _subset(v, keep, n):
@@ -663,6 +672,9 @@ def summarize(values: pint.Quantity, seed: int | None = None) -> Summary:
     units = values.units
     v = np.asarray(values.magnitude, dtype=float)
     v = v[np.isfinite(v)]
+    if v.size == 0:
+        raise InputError("inputs", "no draw with a finite result",
+                         "finite inputs within the estimator's range (check for nan or inf)")
     p05, med, p95 = np.percentile(v, [5, 50, 95])
     return Summary(Q_(v.mean(), units), Q_(med, units), Q_(p05, units), Q_(p95, units),
                    Q_(v.std(ddof=1), units), int(v.size), seed)
