@@ -449,7 +449,7 @@ def diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, am
         return v
 
     nominal_inputs = {k: nom(k) for k in raw}
-    if all(np.ndim(getattr(nominal_inputs[k], "magnitude", nominal_inputs[k])) == 0 for k in PATCH_INPUTS):
+    if all(np.size(getattr(nominal_inputs[k], "magnitude", nominal_inputs[k])) == 1 for k in PATCH_INPUTS):
         # one patch given by scalars (or shared distributions): a patch axis of length one
         nominal_inputs.update({k: _one_patch(nominal_inputs[k]) for k in PATCH_INPUTS})
     nominal = diffuse_discharge(**nominal_inputs, names=names)
@@ -516,7 +516,9 @@ def diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, am
 
 
 def _one_patch(x):
-    return Q_(np.atleast_1d(x.magnitude), x.units) if isinstance(x, pint.Quantity) else np.atleast_1d(x)
+    if isinstance(x, pint.Quantity):
+        return Q_(np.reshape(x.magnitude, (1,)), x.units)
+    return np.reshape(x, (1,))
 
 
 def diffuse_discharge_uncertain(area, active_fraction, temperature_anomaly, velocity, ambient_temperature,
