@@ -161,7 +161,8 @@ def _run(question, fn, inputs, outputs, positive=(), draws=DEFAULT_DRAWS, seed=D
     shown = {k: (f"{np.size(v.magnitude)} given draws" if k in given else str(v) if v is not None else None)
              for k, v in inputs.items()}
     return result, Answer(question, summaries, {}, shown, m, dropped, seed if uncertain else None, samples,
-                          float(max_unphysical))
+                          max_unphysical.max_share if isinstance(max_unphysical, UnphysicalPolicy)
+                          else float(max_unphysical))
 
 
 def _exact(q) -> Summary:
