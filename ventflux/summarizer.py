@@ -43,6 +43,7 @@ from .uncertainty import (
     SharedDraws,
     Summary,
     Uncertain,
+    UnphysicalPolicy,
     propagate,
     summarize,
     unit_tag,
