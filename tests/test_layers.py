@@ -171,3 +171,29 @@ def test_plugins_import_only_the_plugin_api(plugin):
                      else [node.module or ""] if isinstance(node, ast.ImportFrom) and not node.level else [])
             bad += [f"{f.name}: {n}" for n in names if n.split(".")[0] == "ventflux" and n != "ventflux.plugin_api"]
     assert bad == []
+
+
+def test_report_names_no_survey_method_or_section():
+    # Methods and sections bring their titles and tables through their ReportPart (see survey/api.py).
+    import ventflux.survey.report as report
+    from ventflux.registry import survey_methods, survey_sections
+
+    source = Path(report.__file__).read_text(encoding="utf-8")
+    keys = {m.key for m in survey_methods()} | {s.key for s in survey_sections()}
+    assert keys >= {"orifice", "plume_rise", "diffuse"}
+    categories = {"focused", "diffuse", "conductive"}  # the field totals' parts, named by the report itself
+    assert [k for k in keys - categories if f'"{k}"' in source or f"'{k}'" in source] == []
+
+
+def test_a_new_method_is_laid_out_from_its_report_part():
+    from types import SimpleNamespace
+
+    from ventflux.survey.api import ReportPart
+    from ventflux.survey.report import _layout
+
+    result = SimpleNamespace(report_parts={"echo_sounder": ReportPart(table="echoes", titles={"echoes": "Echo rises"},
+                                                                      intro={"echoes": "From the ship."}, rank=25)})
+    tables = {"vents": [], "echoes": [], "field_totals": [], "reservoirs": []}
+    assert _layout(result, tables) == [("field_totals", "Field totals", None), ("vents", "Vents", None),
+                                       ("echoes", "Echo rises", "From the ship."),
+                                       ("reservoirs", "Heat reservoirs", None)]
