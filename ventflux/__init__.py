@@ -6,11 +6,8 @@ IAPWS-95 (CoolProp) for hot vent fluid. All public functions take pint
 quantities from ``ventflux.units``.
 """
 
-from importlib import metadata as _metadata
-
 from .units import Q_, ureg  # noqa: F401
 
-try:
-    __version__ = _metadata.version("ventflux")
-except _metadata.PackageNotFoundError:  # running from a source tree
-    __version__ = "0.1.0"
+#: The package's one version source: ``pyproject.toml`` reads it (setuptools
+#: dynamic version) and plugins declare the range they support against it.
+__version__ = "0.2.0"

@@ -12,6 +12,8 @@ consumer asking for ``"camera-2 pixel scale"`` gets the same array, so draw
 (``"vent A/velocity"``) give independent draws. Each name seeds its own
 random stream from the run's seed and the name, so the draws depend neither
 on the order in which inputs are asked for nor on which other inputs exist.
+``SharedDraws`` is defined in ``ventflux.uncertainty`` beside the one
+propagation driver (``propagate``) and re-exported here.
 
 Per-item draws are arrays of shape ``(n_items, n_draws)`` whose column ``j``
 is one consistent realization of the whole field; ``field_total`` sums over
@@ -74,119 +76,19 @@ References
 
 from __future__ import annotations
 
-import zlib
 from dataclasses import dataclass, field
 
 import numpy as np
 import pint
 
 from .errors import InputError
-from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Summary, Uncertain, summarize
+# SharedDraws lives in the uncertainty layer (one mechanism for every command and the survey);
+# it is re-exported here for existing callers.
+from .uncertainty import SharedDraws, Summary, summarize
 from .units import Q_
 
 #: |z| at or below which two methods agree (about 95 % two-sided for a normal difference).
 CONSISTENCY_LIMIT = 2.0
-
-
-class SharedDraws:
-    """Monte Carlo draws of named inputs; one name, one draw array, for every consumer.
-
-    Parameters
-    ----------
-    n_draws : int
-        Draws per input.
-    seed : int, optional
-        Run seed; each name's stream is seeded from ``(seed, crc32(name))``.
-
-    Examples
-    --------
-    >>> d = SharedDraws(1000, seed=1)
-    >>> from ventflux.uncertainty import normal
-    >>> s = normal(Q_(1.0, "dimensionless"), Q_(0.02, "dimensionless"))
-    >>> a = d.draw("camera pixel scale", s)
-    >>> b = d.draw("camera pixel scale", s)
-    >>> bool((a == b).all())
-    True
-    """
-
-    def __init__(self, n_draws: int = DEFAULT_DRAWS, seed: int | None = DEFAULT_SEED):
-        if int(n_draws) < 2:
-            raise InputError("draws", n_draws, "at least 2 Monte Carlo draws")
-        self.n_draws = int(n_draws)
-        self.seed = DEFAULT_SEED if seed is None else int(seed)
-        self._shared: dict[str, pint.Quantity] = {}
-        self._known: dict[str, object] = {}
-
-    def _rng(self, name: str) -> np.random.Generator:
-        return np.random.default_rng(np.random.SeedSequence([self.seed, zlib.crc32(name.encode("utf-8"))]))
-
-    def _register(self, name: str, value):
-        if not isinstance(name, str) or not name:
-            raise InputError("input name", name, "a non-empty name for the input")
-        previous = self._known.get(name)
-        if previous is not None and not _same(previous, value):
-            raise InputError(name, str(value), f"the value already given under this name ({previous}); "
-                             "inputs that share a name share their draws, so give different inputs different names")
-        self._known[name] = value
-
-    def draw(self, name: str, value) -> pint.Quantity:
-        """Draws of the input ``name`` (shape ``(n_draws,)``); the same array on every call.
-
-        An exact quantity is returned unchanged and broadcasts.
-        """
-        self._register(name, value)
-        if not isinstance(value, Uncertain):
-            return value
-        if name not in self._shared:
-            self._shared[name] = value.sample(self.n_draws, self._rng(name))
-        return self._shared[name]
-
-    def draw_each(self, names, values, unit: str | None = None) -> pint.Quantity:
-        """Independent draws for per-item inputs, stacked to shape ``(n_items, n_draws)``.
-
-        ``names`` are the inputs' names (unique per item, e.g. ``"vent A/velocity"``);
-        exact values are repeated along the draws. The arrays are not kept:
-        the same names give the same draws on every call, because each name
-        seeds its own stream.
-        """
-        names, values = list(names), list(values)
-        if len(names) != len(values):
-            raise InputError("names", f"{len(names)} names", f"one name per value ({len(values)})")
-        if not values:
-            raise InputError("values", "none", "at least one item")
-        unit = unit or (values[0].unit if isinstance(values[0], Uncertain) else str(values[0].units))
-        out = np.empty((len(values), self.n_draws))
-        for i, (name, value) in enumerate(zip(names, values)):
-            self._register(name, value)
-            q = value.sample(self.n_draws, self._rng(name)) if isinstance(value, Uncertain) else value
-            out[i] = q.to(unit).magnitude
-        return Q_(out, unit)
-
-    def names(self) -> list[str]:
-        return sorted(self._known)
-
-    def shared_names(self) -> list[str]:
-        """Names drawn through ``draw`` (the inputs shared between items)."""
-        return sorted(self._shared)
-
-    def describe(self) -> dict:
-        """Every input by name with its distribution or value, for provenance."""
-        return {k: str(self._known[k]) for k in sorted(self._known)}
-
-    def __contains__(self, name):
-        return name in self._known
-
-    def __len__(self):
-        return len(self._known)
-
-
-def _same(a, b) -> bool:
-    if isinstance(a, Uncertain) or isinstance(b, Uncertain):
-        return a == b
-    try:
-        return bool(np.all(np.asarray(a.to(b.units).magnitude) == np.asarray(b.magnitude)))
-    except Exception:
-        return False
 
 
 @dataclass(frozen=True)
@@ -296,7 +198,7 @@ class FocusedDiffuseSplit:
     diffuse: Summary
     total: Summary
     diffuse_fraction: Summary
-    draws: dict
+    draws: dict[str, pint.Quantity]
 
     def as_dict(self, name: str = "heat_power", unit: str = "MW") -> dict:
         out = {}
@@ -349,12 +251,12 @@ class MethodPair:
 class MethodComparison:
     """Several methods' estimates for one vent, their agreement and their combination."""
 
-    methods: dict  # name → Summary
-    pairs: list
+    methods: dict[str, Summary]  # method name → its summary
+    pairs: list[MethodPair]
     consistent: bool
     combined: Summary
     combined_draws: pint.Quantity
-    weights: dict  # name → weight on log power
+    weights: dict[str, float]  # method name → weight on log power
     scale_factor: float  # Birge factor applied (≥ 1)
     chi_squared: float
     limit: float = CONSISTENCY_LIMIT

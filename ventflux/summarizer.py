@@ -12,11 +12,12 @@ inputs and returning an ``Answer`` (Monte Carlo summaries with units):
   reference and the equivalent column of circulated seawater
   (``ventflux.ridge_flank``).
 
-Monte Carlo follows the package's rule: every uncertain input is drawn once
+Monte Carlo goes through the package's one driver (``uncertainty.propagate``):
+every uncertain input is drawn once
 as an array, the domain function runs once on the arrays, and the outputs are
 summarized. Inputs that must be positive (a power, a volume, an uncertain
 porosity) drop the draws that are not, and refuse the distribution if more
-than 5 % are dropped.
+than ``max_unphysical`` (5 % by default) are dropped.
 Without an uncertain input the answer is exact (one evaluation). An input
 may also be given as an array of draws made elsewhere (a field total's
 draws from ``ventflux.aggregate.field_total``), so the survey run can carry
@@ -36,11 +37,22 @@ from .errors import InputError
 from .orifice import DEFAULT_AMBIENT_SALINITY
 from .properties import seawater_heat as sh
 from .throughput import water_throughput
-from .uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Summary, Uncertain, draw_inputs, summarize, unit_tag
+from .uncertainty import (
+    DEFAULT_DRAWS,
+    DEFAULT_MAX_UNPHYSICAL,
+    DEFAULT_SEED,
+    SharedDraws,
+    Summary,
+    Uncertain,
+    UnphysicalPolicy,
+    propagate,
+    summarize,
+    unit_tag,
+)
 from .units import Q_
 
-#: Largest share of draws that may be dropped as unphysical before a distribution is refused.
-MAX_DROPPED_SHARE = 0.05
+#: Former name of the package-wide limit on dropped draws (``uncertainty.DEFAULT_MAX_UNPHYSICAL``).
+MAX_DROPPED_SHARE = DEFAULT_MAX_UNPHYSICAL
 
 
 @dataclass(frozen=True)
@@ -55,6 +67,7 @@ class Answer:
     dropped: int = 0
     seed: int | None = None
     samples: dict = field(default_factory=dict, repr=False)  # name → quantity array of the draws
+    max_unphysical: float = DEFAULT_MAX_UNPHYSICAL  # the limit the draws were held to
 
     def value(self, name):
         """Median of an output as a quantity in its reporting unit."""
@@ -63,7 +76,8 @@ class Answer:
 
     def as_dict(self) -> dict:
         """Flat JSON-ready dictionary, units in the key names (``mass_flux_kg_s_median``)."""
-        out = {"question": self.question, "draws": self.draws, "dropped_draws": self.dropped, "seed": self.seed}
+        out = {"question": self.question, "draws": self.draws, "unphysical_draws": self.dropped,
+               "max_unphysical_share": self.max_unphysical, "seed": self.seed}
         for name, (s, unit) in self.outputs.items():
             if self.draws > 1:
                 out.update(s.as_dict(name, unit))
@@ -93,13 +107,17 @@ def _given_draws(inputs, observations):
             and np.ndim(v.magnitude) == 1 and np.size(v.magnitude) > 1}
 
 
-def _run(question, fn, inputs, outputs, positive=(), draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, observations=()):
-    """Draw the uncertain inputs once, call ``fn`` once, summarize ``outputs`` (name → (getter, unit)).
+def _run(question, fn, inputs, outputs, positive=(), draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, observations=(),
+         max_unphysical=DEFAULT_MAX_UNPHYSICAL):
+    """Propagate through the package's one driver (``uncertainty.propagate``) and summarize ``outputs``.
 
-    An input given as a 1-D quantity array is taken as draws made elsewhere
-    (e.g. a field total's draws from ``ventflux.aggregate``); the uncertain
-    inputs are then drawn as many times. ``observations`` names inputs that
-    are arrays along something else (ages of heat-flow observations).
+    ``outputs`` maps name → (getter, unit). An input given as a 1-D quantity
+    array is taken as draws made elsewhere (e.g. a field total's draws from
+    ``ventflux.aggregate``); the uncertain inputs are then drawn as many
+    times. ``observations`` names inputs that are arrays along something
+    else (ages of heat-flow observations). Draws of a ``positive`` input that
+    are not positive are dropped and counted; above ``max_unphysical`` of
+    the draws the input is refused.
     """
     uncertain = {k: v for k, v in inputs.items() if isinstance(v, Uncertain)}
     given = _given_draws(inputs, observations)
@@ -110,20 +128,21 @@ def _run(question, fn, inputs, outputs, positive=(), draws=DEFAULT_DRAWS, seed=D
     n = sizes.pop() if sizes else (int(draws) if uncertain else 1)
     if uncertain and n < 2:
         raise InputError("draws", draws, "an integer ≥ 2")
-    sampled = {**given, **(draw_inputs(uncertain, n, seed) if uncertain else {})}
-    keep = np.ones(n, bool)
-    for k in positive:
-        if k in sampled:
-            keep &= np.asarray(sampled[k].magnitude) > 0
-    dropped = int(n - keep.sum())
-    if dropped > MAX_DROPPED_SHARE * n:
-        worst = max((k for k in positive if k in sampled),
-                    key=lambda k: np.count_nonzero(np.asarray(sampled[k].magnitude) <= 0))
-        raise InputError(worst, str(inputs[worst]) if worst in uncertain else f"{n} draws",
-                         f"draws that are positive; {dropped} of {n} were not "
-                         "(use a smaller spread or a lognormal)")
-    args = {**inputs, **{k: v[keep] for k, v in sampled.items()}}
-    result = fn(**args)
+    if n == 1:
+        result, dropped = fn(**inputs), 0
+    else:
+        checked = [k for k in positive if k in uncertain or k in given]
+
+        def physical(args):
+            keep = np.ones((), bool)
+            for k in checked:
+                keep = keep & (np.asarray(args[k].magnitude) > 0)
+            return keep
+
+        prop = propagate(fn, {k: v for k, v in inputs.items() if k not in given}, draws=SharedDraws(n, seed),
+                         physical=physical, max_unphysical=max_unphysical, drawn=given,
+                         labels={k: f"{n} given draws" for k in given})
+        result, dropped = prop.result, prop.unphysical
     m = n - dropped
     summaries, samples = {}, {}
     for name, (get, unit) in outputs.items():
@@ -143,7 +162,9 @@ def _run(question, fn, inputs, outputs, positive=(), draws=DEFAULT_DRAWS, seed=D
             summaries[name] = (_exact(Q_(float(mag[0]), unit)), unit)
     shown = {k: (f"{np.size(v.magnitude)} given draws" if k in given else str(v) if v is not None else None)
              for k, v in inputs.items()}
-    return result, Answer(question, summaries, {}, shown, m, dropped, seed if uncertain else None, samples)
+    return result, Answer(question, summaries, {}, shown, m, dropped, seed if uncertain else None, samples,
+                          max_unphysical.max_share if isinstance(max_unphysical, UnphysicalPolicy)
+                          else float(max_unphysical))
 
 
 def _exact(q) -> Summary:
@@ -175,7 +196,8 @@ WATER_OUTPUTS = {
 
 
 def water_answer(power, temperature, pressure, ambient_temperature, salinity=DEFAULT_AMBIENT_SALINITY,
-                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED) -> Answer:
+                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED,
+                 max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> Answer:
     """Mass flux, volume fluxes and annual water throughput carried by ``power``.
 
     Parameters are those of ``ventflux.throughput.water_throughput``; any may
@@ -185,7 +207,7 @@ def water_answer(power, temperature, pressure, ambient_temperature, salinity=DEF
     _, ans = _run("water", water_throughput,
                   dict(power=power, temperature=temperature, pressure=pressure,
                        ambient_temperature=ambient_temperature, salinity=salinity),
-                  WATER_OUTPUTS, positive=("power", "pressure"), draws=draws, seed=seed)
+                  WATER_OUTPUTS, positive=("power", "pressure"), draws=draws, seed=seed, max_unphysical=max_unphysical)
     ans.labels["heat_content_model"] = "IAPWS-95 pure water at both ends; ambient density TEOS-10"
     ans.labels["shortcut"] = "c_p0 (T - T_ambient), TEOS-10's c_p0 = 3991.87 J/(kg K)"
     return ans
@@ -217,7 +239,7 @@ def reservoir_answer(power, temperature_drop, volume=None, area=None, thickness=
                      melt_density=rv.MELT_DENSITY, size=None, diffusivity=rv.THERMAL_DIFFUSIVITY,
                      spent_fraction=rv.SPENT_FRACTION, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED,
                      depth_below_seafloor=None, seafloor_pressure=None, pressure_regime="hydrostatic",
-                     cooled_faces=1) -> Answer:
+                     cooled_faces=1, max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> Answer:
     """Heat-mining time, exponential-decline lifetime and ``L²/κ``, with the controlling one.
 
     Parameters are those of ``ventflux.reservoir.reservoir_heat`` and
@@ -236,7 +258,7 @@ def reservoir_answer(power, temperature_drop, volume=None, area=None, thickness=
                      positive=("power", "temperature_drop", "volume", "area", "thickness", "rock_density",
                                "rock_heat_capacity", "size", "diffusivity", "melt_volume", "latent_heat",
                                "porosity"),
-                     draws=draws, seed=seed)
+                     draws=draws, seed=seed, max_unphysical=max_unphysical)
     share = float(np.mean(np.atleast_1d(life.controlling) == "advective decline"))
     label = "advective decline" if share >= 0.5 else "conductive cooling"
     ans.labels["controlling"] = label
@@ -259,7 +281,8 @@ SIZE_OUTPUTS = {
 def reservoir_size_answer(power, duration, temperature_drop, area=None, rock_density=rv.ROCK_DENSITY,
                           rock_heat_capacity=rv.ROCK_HEAT_CAPACITY, porosity=rv.POROSITY, temperature=None,
                           pressure=None, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, depth_below_seafloor=None,
-                          seafloor_pressure=None, pressure_regime="hydrostatic") -> Answer:
+                          seafloor_pressure=None, pressure_regime="hydrostatic",
+                          max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> Answer:
     """Hot-rock volume (and thickness under ``area``) that sustains ``power`` for ``duration``.
 
     The reservoir pressure for the pore fluid is ``pressure`` or comes from ``depth_below_seafloor`` and
@@ -272,7 +295,7 @@ def reservoir_size_answer(power, duration, temperature_drop, area=None, rock_den
     _, ans = _run("reservoir size", rv.reservoir_size_for, inputs, SIZE_OUTPUTS,
                   positive=("power", "duration", "temperature_drop", "area", "rock_density", "rock_heat_capacity",
                             "porosity"),
-                  draws=draws, seed=seed)
+                  draws=draws, seed=seed, max_unphysical=max_unphysical)
     return ans
 
 
@@ -313,7 +336,8 @@ def _flank(age, heat_flow, reference, half_spreading_rate, temperature_rise, amb
 def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, temperature_rise=None,
                  ambient_temperature=Q_(2.0, "degC"), pressure=None, salinity=DEFAULT_AMBIENT_SALINITY,
                  conductivity=None, diffusivity=None, temperature_difference=None,
-                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, deficit_span="observed") -> Answer:
+                 draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, deficit_span="observed",
+                 max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> Answer:
     """Ridge-flank heat deficit, advective loss per area and per ridge length, and the water column.
 
     Parameters
@@ -349,7 +373,7 @@ def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, tem
                   salinity=salinity, deficit_span=deficit_span, **half_space)
     out, ans = _run("ridge flank", _flank, inputs, FLANK_OUTPUTS,
                     positive=("half_spreading_rate", "temperature_rise", "conductivity", "diffusivity",
-                              "temperature_difference"), draws=draws, seed=seed,
+                              "temperature_difference"), draws=draws, seed=seed, max_unphysical=max_unphysical,
                     observations=("age", "heat_flow"))
     ans.labels["reference"] = reference
     if out.get("water_model"):

@@ -28,6 +28,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pint
 
 from .errors import InputError
 from .orifice import DEFAULT_AMBIENT_SALINITY
@@ -40,16 +41,16 @@ from .units import Q_, magnitude
 class WaterThroughput:
     """Fluid carried by a vent's heat power (all quantities, broadcast shape)."""
 
-    specific_heat_content: object  # Δh, J/kg, IAPWS-95 at both ends
-    mass_flux: object  # kg/s
-    volume_flux_vent: object  # m³/s at exit temperature and in-situ pressure
-    volume_flux_ambient: object  # m³/s of ambient seawater
-    annual_mass: object  # kg/yr
-    annual_volume: object  # km³/yr of ambient seawater
-    vent_density: object
-    ambient_density: object
-    shortcut_heat_content: object  # c_p0 · (T − T_a), J/kg, for comparison only
-    shortcut_mass_flux: object  # P / (c_p ΔT), kg/s, for comparison only
+    specific_heat_content: pint.Quantity  # Δh, J/kg, IAPWS-95 at both ends
+    mass_flux: pint.Quantity  # kg/s
+    volume_flux_vent: pint.Quantity  # m³/s at exit temperature and in-situ pressure
+    volume_flux_ambient: pint.Quantity  # m³/s of ambient seawater
+    annual_mass: pint.Quantity  # kg/yr
+    annual_volume: pint.Quantity  # km³/yr of ambient seawater
+    vent_density: pint.Quantity
+    ambient_density: pint.Quantity
+    shortcut_heat_content: pint.Quantity  # c_p0 · (T − T_a), J/kg, for comparison only
+    shortcut_mass_flux: pint.Quantity  # P / (c_p ΔT), kg/s, for comparison only
 
 
 def water_throughput(power, temperature, pressure, ambient_temperature, salinity=DEFAULT_AMBIENT_SALINITY, model=None):

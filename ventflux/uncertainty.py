@@ -8,6 +8,27 @@ factor rather than an offset. ``propagate`` draws every uncertain input once
 summarizes the result; there is no loop over draws, so estimators must accept
 arrays (all ventflux estimators do).
 
+One propagation driver
+----------------------
+Every command and the survey run propagate uncertainty the same way, through
+``propagate``:
+
+1. every named input is drawn through ``SharedDraws``: one random stream per
+   input *name*, seeded by ``numpy.random.SeedSequence`` from the run's seed
+   and a stable hash of the name (so draws depend neither on the order inputs
+   are asked for nor on which other inputs exist, and the same input asked for
+   by a command and by a survey gets the same draws);
+2. a vectorized test marks the draws that are physically impossible
+   (a negative velocity, a boiling exit temperature, an active fraction above
+   one); they are **dropped and counted**, never clipped;
+3. if more than ``max_unphysical`` of the draws (5 % by default,
+   ``DEFAULT_MAX_UNPHYSICAL``; ``--max-unphysical`` on every command,
+   ``[run] max_unphysical`` in a survey file) are dropped, the input
+   distributions are refused, naming the input that lost the most draws;
+4. the estimator is called once on the remaining draws and the outputs are
+   summarized. The share limit, the number dropped and every input's
+   distribution are kept in the result for the provenance.
+
 The random generator is NumPy's PCG64 (``numpy.random.default_rng``) seeded
 with ``DEFAULT_SEED`` unless told otherwise; the seed is reported with every
 result so a run can be repeated exactly.
@@ -15,8 +36,11 @@ result so a run can be repeated exactly.
 
 from __future__ import annotations
 
+import hashlib
 import re
-from dataclasses import dataclass
+from collections.abc import Callable, Iterable, Mapping
+from dataclasses import dataclass, field, replace
+from typing import Any, Generic, TypeVar
 
 import numpy as np
 import pint
@@ -26,7 +50,24 @@ from .units import Q_, parse_quantity, require_dimension, ureg
 
 DEFAULT_SEED = 20_261_202
 DEFAULT_DRAWS = 10_000
-KINDS = ("normal", "uniform", "lognormal")
+KINDS = ("normal", "uniform", "lognormal", "beta")
+#: Largest share of Monte Carlo draws that may be dropped as physically
+#: impossible before the input distributions are refused (a choice: a few
+#: per cent of the tail of a normal spread past a bound changes the 5-95 %
+#: interval by less than its own Monte Carlo noise; more means the
+#: distribution does not describe the quantity). Settable per run.
+DEFAULT_MAX_UNPHYSICAL = 0.05
+#: Largest number of draws a run may ask for (a guard against a typo that
+#: would exhaust memory; 10 million draws of one input are 80 MB).
+MAX_DRAWS = 10_000_000
+#: Names of the site-wide inputs every estimator shares (one stream each per
+#: run): the same in every command and in a survey, so both draw them alike.
+SITE_INPUT_NAMES = {
+    "ambient_temperature": "site/ambient temperature",
+    "ambient_salinity": "site/ambient salinity",
+    "pressure": "site/pressure",
+    "depth": "site/depth",
+}
 
 
 @dataclass(frozen=True)
@@ -37,6 +78,8 @@ class Uncertain:
     deviation is a difference, so ``"352 ± 3 degC"`` is 3 K wide).
     ``uniform``: ``a`` lower and ``b`` upper bound.
     ``lognormal``: ``a`` median, ``b`` geometric standard deviation (a factor > 1).
+    ``beta``: ``a`` mean, ``b`` standard deviation of a fraction in (0, 1)
+    (``b² < a(1 − a)``); made by ``from_mean_sd`` for bounded table columns.
     """
 
     kind: str
@@ -51,7 +94,8 @@ class Uncertain:
     @property
     def nominal(self) -> pint.Quantity:
         """The central value: mean, mid-point or median."""
-        centre = {"normal": self.a, "uniform": 0.5 * (self.a + self.b), "lognormal": self.a}[self.kind]
+        centre = {"normal": self.a, "uniform": 0.5 * (self.a + self.b), "lognormal": self.a,
+                  "beta": self.a}[self.kind]
         return Q_(centre, self.unit)
 
     def sample(self, n: int, rng: np.random.Generator) -> pint.Quantity:
@@ -59,6 +103,9 @@ class Uncertain:
             x = rng.normal(self.a, self.b, n)
         elif self.kind == "uniform":
             x = rng.uniform(self.a, self.b, n)
+        elif self.kind == "beta":
+            k = self.a * (1 - self.a) / self.b**2 - 1  # method of moments
+            x = rng.beta(self.a * k, (1 - self.a) * k, n)
         else:
             x = np.exp(rng.normal(np.log(self.a), np.log(self.b), n))
         return Q_(x, self.unit)
@@ -67,6 +114,8 @@ class Uncertain:
         u = f"{ureg.Unit(self.unit):~P}"
         if self.kind == "normal":
             return f"{self.a:g} ± {self.b:g} {u}"
+        if self.kind == "beta":
+            return f"beta(mean {self.a:g}, sd {self.b:g})"
         return f"{self.kind}({self.a:g}, {self.b:g}) {u}"
 
 
@@ -87,6 +136,52 @@ def lognormal(median: pint.Quantity, factor: float) -> Uncertain:
     return Uncertain("lognormal", float(median.magnitude), float(factor), str(median.units))
 
 
+#: What ``from_mean_sd`` draws for each kind of bound.
+BOUNDED_KINDS = {"positive": "lognormal", "fraction": "beta", None: "normal"}
+
+
+def from_mean_sd(mean: float, sd: float, unit: str, bound: str | None = None, field: str = "value"):
+    """A distribution with a given mean and standard deviation that respects a physical bound.
+
+    A normal distribution with a large relative spread crosses a physical
+    bound (8 % of the draws of an anomaly of 0.52 ± 0.38 K are ≤ 0). For a
+    table column of standard deviations the package therefore draws, with
+    the same mean and standard deviation:
+
+    * ``bound=None``: normal;
+    * ``bound="positive"``: lognormal, ``σ² = ln(1 + (sd/mean)²)``,
+      median ``mean / √(1 + (sd/mean)²)`` (method of moments);
+    * ``bound="fraction"``: beta on (0, 1), ``α = m k``, ``β = (1 − m) k``,
+      ``k = m(1 − m)/sd² − 1`` (method of moments; needs ``sd² < m(1 − m)``).
+
+    A zero standard deviation gives the exact value (a quantity).
+
+    References
+    ----------
+    .. [1] Johnson, N. L., Kotz, S. and Balakrishnan, N. (1994, 1995).
+       Continuous Univariate Distributions, vol. 1 ch. 14 (lognormal moments)
+       and vol. 2 ch. 25 (beta moments), Wiley.
+    """
+    mean, sd = float(mean), float(sd)
+    if not (np.isfinite(mean) and np.isfinite(sd)) or sd < 0:
+        raise InputError(field, f"{mean:g} ± {sd:g}", "a finite mean and a standard deviation ≥ 0")
+    if sd == 0:
+        return Q_(mean, unit)
+    if bound == "positive":
+        if not mean > 0:
+            raise InputError(field, f"{mean:g} ± {sd:g}", "a mean > 0 for a positive quantity")
+        r2 = 1 + (sd / mean) ** 2
+        return Uncertain("lognormal", mean / np.sqrt(r2), float(np.exp(np.sqrt(np.log(r2)))), unit)
+    if bound == "fraction":
+        if not (0 < mean < 1 and sd**2 < mean * (1 - mean)):
+            raise InputError(field, f"{mean:g} ± {sd:g}",
+                             "a fraction's mean in (0, 1) with a standard deviation below √(mean·(1 − mean))")
+        return Uncertain("beta", mean, sd, unit)
+    if bound is not None:
+        raise InputError("bound", bound, "one of positive, fraction or none")
+    return Uncertain("normal", mean, sd, unit)
+
+
 def _delta(sd, units):
     """Standard deviation in ``units``; a degC spread is a difference, not an offset."""
     if not isinstance(sd, pint.Quantity):
@@ -102,7 +197,7 @@ def _delta(sd, units):
 
 _NUM = r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?"
 _PM = re.compile(rf"^\s*({_NUM})\s*(?:±|\+-|\+/-)\s*({_NUM})\s*(.*?)\s*$")
-_FUNC = re.compile(rf"^\s*(normal|uniform|lognormal)\s*\(\s*({_NUM})\s*,\s*({_NUM})\s*\)\s*(.*?)\s*$", re.I)
+_FUNC = re.compile(rf"^\s*(normal|uniform|lognormal)\s*\(\s*({_NUM})\s*,\s*({_NUM})\s*\)\s*(.*?)\s*$", re.IGNORECASE)
 
 
 def parse_uncertain(text, dimension: str, field: str, default_unit: str | None = None):
@@ -172,11 +267,382 @@ def draw(x, n: int, rng: np.random.Generator):
 def draw_inputs(inputs: dict, n: int, seed: int | None = DEFAULT_SEED) -> dict:
     """Draw every uncertain value of ``inputs`` once; exact values pass through.
 
-    Inputs are drawn in sorted key order from one generator, so the draws for
-    a given seed do not depend on the order the caller wrote them in.
+    Each input is drawn from its own stream, keyed by its name (see
+    ``SharedDraws``), so the draws for a given seed depend neither on the
+    order the caller wrote them in nor on which other inputs are given.
     """
-    rng = np.random.default_rng(DEFAULT_SEED if seed is None else seed)
-    return {k: draw(inputs[k], n, rng) for k in sorted(inputs)}
+    shared = SharedDraws(n, seed)
+    return {k: shared.draw(k, inputs[k]) for k in sorted(inputs)}
+
+
+def check_draws(n_draws, field: str = "draws") -> int:
+    """The number of draws as an int, or an ``InputError`` naming ``field``."""
+    try:
+        n = int(n_draws)
+    except (TypeError, ValueError):
+        raise InputError(field, n_draws, "a whole number of Monte Carlo draws ≥ 2") from None
+    if n != n_draws or n < 2:
+        raise InputError(field, n_draws, "a whole number of Monte Carlo draws ≥ 2")
+    if n > MAX_DRAWS:
+        raise InputError(field, n_draws, f"at most {MAX_DRAWS:,} Monte Carlo draws")
+    return n
+
+
+def check_seed(seed, field: str = "seed") -> int:
+    """A seed as an int in 0 … 2³²−1, or an ``InputError`` naming ``field``."""
+    try:
+        s = int(seed)
+    except (TypeError, ValueError):
+        raise InputError(field, seed, "a whole number from 0 to 4294967295") from None
+    if s != seed or not 0 <= s < 2**32:
+        raise InputError(field, seed, "a whole number from 0 to 4294967295")
+    return s
+
+
+def check_max_unphysical(share, field: str = "max unphysical") -> float:
+    """A share of draws in [0, 1), or an ``InputError`` naming ``field``."""
+    try:
+        x = float(share)
+    except (TypeError, ValueError):
+        raise InputError(field, share, "a share of draws from 0 to below 1, e.g. 0.05") from None
+    if not 0 <= x < 1:
+        raise InputError(field, share, "a share of draws from 0 to below 1, e.g. 0.05")
+    return x
+
+
+def stream_key(name: str) -> tuple[int, int]:
+    """A stable 64-bit key of an input's name (BLAKE2b), as two 32-bit words.
+
+    Python's ``hash`` changes between processes; this does not, so the same
+    name gives the same stream in every run on every machine.
+    """
+    digest = hashlib.blake2b(name.encode("utf-8"), digest_size=8).digest()
+    return int.from_bytes(digest[:4], "little"), int.from_bytes(digest[4:], "little")
+
+
+class SharedDraws:
+    """Monte Carlo draws of named inputs; one name, one draw array, for every consumer.
+
+    Vents measured with the same instrument share its error: one pixel scale
+    for every vent filmed through one camera, one probe calibration for every
+    patch, one CTD cast for every ambient temperature. ``SharedDraws`` hands
+    out draws by input *name*: every consumer asking for ``"camera-2 pixel
+    scale"`` gets the same array, so draw ``j`` of every vent uses the same
+    scale. Names that are unique to one vent (``"vent A/velocity"``) give
+    independent draws. Each name has its own random stream,
+    ``SeedSequence(seed, spawn_key=stream_key(name))``.
+
+    Parameters
+    ----------
+    n_draws : int
+        Draws per input (2 … ``MAX_DRAWS``).
+    seed : int, optional
+        Run seed, 0 … 2³²−1.
+
+    Examples
+    --------
+    >>> d = SharedDraws(1000, seed=1)
+    >>> s = normal(Q_(1.0, "dimensionless"), Q_(0.02, "dimensionless"))
+    >>> a = d.draw("camera pixel scale", s)
+    >>> b = d.draw("camera pixel scale", s)
+    >>> bool((a == b).all())
+    True
+    """
+
+    def __init__(self, n_draws: int = DEFAULT_DRAWS, seed: int | None = DEFAULT_SEED):
+        self.n_draws = check_draws(n_draws)
+        self.seed = DEFAULT_SEED if seed is None else check_seed(seed)
+        self._shared: dict[str, pint.Quantity] = {}
+        self._known: dict[str, Any] = {}
+
+    def rng(self, name: str) -> np.random.Generator:
+        """The random generator of the stream called ``name`` (a new generator, always the same draws)."""
+        return np.random.default_rng(np.random.SeedSequence(self.seed, spawn_key=stream_key(name)))
+
+    _rng = rng  # older name
+
+    def _register(self, name: str, value):
+        if not isinstance(name, str) or not name:
+            raise InputError("input name", name, "a non-empty name for the input")
+        previous = self._known.get(name)
+        if previous is not None and not _same(previous, value):
+            raise InputError(name, str(value), f"the value already given under this name ({previous}); "
+                             "inputs that share a name share their draws, so give different inputs different names")
+        self._known[name] = value
+
+    def draw(self, name: str, value):
+        """Draws of the input ``name`` (shape ``(n_draws,)``); the same array on every call.
+
+        An exact quantity is returned unchanged and broadcasts.
+        """
+        self._register(name, value)
+        if not isinstance(value, Uncertain):
+            return value
+        if name not in self._shared:
+            self._shared[name] = value.sample(self.n_draws, self.rng(name))
+        return self._shared[name]
+
+    def draw_each(self, names, values, unit: str | None = None) -> pint.Quantity:
+        """Independent draws for per-item inputs, stacked to shape ``(n_items, n_draws)``.
+
+        ``names`` are the inputs' names (unique per item, e.g. ``"vent A/velocity"``);
+        exact values are repeated along the draws. The arrays are not kept:
+        the same names give the same draws on every call, because each name
+        seeds its own stream.
+        """
+        names, values = list(names), list(values)
+        if len(names) != len(values):
+            raise InputError("names", f"{len(names)} names", f"one name per value ({len(values)})")
+        if not values:
+            raise InputError("values", "none", "at least one item")
+        unit = unit or (values[0].unit if isinstance(values[0], Uncertain) else str(values[0].units))
+        out = np.empty((len(values), self.n_draws))
+        for i, (name, value) in enumerate(zip(names, values)):
+            self._register(name, value)
+            q = value.sample(self.n_draws, self.rng(name)) if isinstance(value, Uncertain) else value
+            out[i] = q.to(unit).magnitude
+        return Q_(out, unit)
+
+    def names(self) -> list[str]:
+        return sorted(self._known)
+
+    def shared_names(self) -> list[str]:
+        """Names drawn through ``draw`` (the inputs shared between items)."""
+        return sorted(self._shared)
+
+    def describe(self) -> dict[str, str]:
+        """Every input by name with its distribution or value, for provenance."""
+        return {k: str(self._known[k]) for k in sorted(self._known)}
+
+    def __contains__(self, name):
+        return name in self._known
+
+    def __len__(self):
+        return len(self._known)
+
+
+def _same(a, b) -> bool:
+    if isinstance(a, Uncertain) or isinstance(b, Uncertain):
+        return a == b
+    try:
+        return bool(np.all(np.asarray(a.to(b.units).magnitude) == np.asarray(b.magnitude)))
+    except Exception:
+        return a is b
+
+
+@dataclass(frozen=True)
+class UnphysicalPolicy:
+    """The one rule for physically impossible draws: drop and count; refuse above ``max_share``.
+
+    Parameters
+    ----------
+    max_share : float
+        Largest share of draws that may be dropped (default 5 %,
+        ``DEFAULT_MAX_UNPHYSICAL``).
+    option : str
+        How the user sets the limit, named in the refusal
+        (``--max-unphysical`` on the command line, ``run.max_unphysical`` in
+        a survey file).
+    """
+
+    max_share: float = DEFAULT_MAX_UNPHYSICAL
+    option: str = "--max-unphysical"
+
+    def __post_init__(self):
+        object.__setattr__(self, "max_share", check_max_unphysical(self.max_share, self.option))
+
+    def enforce(self, keep: np.ndarray, field: str, value: str, what: str = "draws") -> int:
+        """Number of dropped draws in ``keep`` (False = dropped); ``InputError`` naming ``field`` above the limit."""
+        keep = np.asarray(keep, bool)
+        n = keep.size
+        dropped = int(n - np.count_nonzero(keep))
+        if dropped > self.max_share * n:
+            raise InputError(field, value, f"a distribution whose {what} are physical: {dropped} of {n} "
+                             f"({dropped / n:.1%}) were not, above the limit of {self.max_share:.1%} "
+                             f"({self.option}); narrow the spread or use a lognormal for a positive quantity")
+        return dropped
+
+    def as_dict(self) -> dict[str, Any]:
+        return {"max_unphysical_share": self.max_share, "unphysical_rule": "dropped and counted; refused above "
+                                                                           "the share"}
+
+
+def input_names(keys: Iterable[str], prefix: str | None = None) -> dict[str, str]:
+    """Names under which inputs are drawn: ``prefix/key`` (or ``key`` without a prefix)."""
+    return {k: (f"{prefix}/{k}" if prefix else k) for k in keys}
+
+
+R = TypeVar("R")
+
+
+@dataclass(frozen=True)
+class Propagation(Generic[R]):
+    """What ``propagate`` gives back: the estimator's result on the kept draws, and the bookkeeping.
+
+    Attributes
+    ----------
+    result
+        The estimator's output, computed once on the ``kept`` draws.
+    keep : numpy.ndarray of bool, shape ``(n_draws,)``
+        Which draws were physical (the result's draw axis has ``keep.sum()``
+        entries).
+    n_draws, unphysical, seed
+        Draws asked for, draws dropped, run seed.
+    policy : UnphysicalPolicy
+    inputs : dict
+        Input name (as drawn) → its distribution or value, for provenance.
+    """
+
+    result: R
+    keep: np.ndarray
+    n_draws: int
+    unphysical: int
+    seed: int
+    policy: UnphysicalPolicy
+    inputs: dict[str, str] = field(default_factory=dict)
+
+    @property
+    def kept(self) -> int:
+        return int(np.count_nonzero(self.keep))
+
+    def expand(self, q: pint.Quantity, unit: str | None = None) -> pint.Quantity:
+        """Draws of ``q`` (last axis = kept draws, or a scalar) put back on all ``n_draws`` columns, NaN where dropped."""
+        unit = unit or str(q.units)
+        m = np.asarray(q.to(unit).magnitude, float)
+        lead = m.shape[:-1] if m.ndim and m.shape[-1] == self.kept else m.shape
+        out = np.full(lead + (self.n_draws,), np.nan)
+        out[..., self.keep] = m if m.ndim and m.shape[-1] == self.kept else m[..., None]
+        return Q_(out, unit)
+
+    def summary(self, q: pint.Quantity, unit: str | None = None) -> Summary:
+        q = q.to(unit) if unit else q
+        return summarize(q, self.seed)
+
+    def provenance(self) -> dict[str, Any]:
+        return {"draws": self.n_draws, "unphysical_draws": self.unphysical, "seed": self.seed,
+                **self.policy.as_dict(), "inputs": dict(self.inputs)}
+
+
+def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: Mapping[str, str] | str | None = None,
+              draws: SharedDraws | int = DEFAULT_DRAWS, seed: int | None = DEFAULT_SEED,
+              physical: Callable[[dict], np.ndarray] | None = None,
+              max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL,
+              drawn: Mapping[str, pint.Quantity] | None = None,
+              labels: Mapping[str, str] | None = None) -> Propagation[R]:
+    """The propagation driver: draw every named input, drop unphysical draws, call the estimator once.
+
+    Parameters
+    ----------
+    estimator : callable
+        A deterministic, vectorized function of the inputs (keyword arguments);
+        it receives arrays of the kept draws for every uncertain input.
+    inputs : mapping
+        Keyword arguments of ``estimator``: ``Uncertain`` values are drawn,
+        anything else is passed unchanged.
+    names : mapping or str, optional
+        The name each input is drawn under (its stream, shared with every
+        other consumer of the same name); a string is a prefix
+        (``"vent A/orifice[0]"`` → ``"vent A/orifice[0]/velocity"``). Default:
+        the keyword itself.
+    draws : SharedDraws or int
+        The run's shared draws, or a number of draws for a fresh set seeded
+        with ``seed``.
+    physical : callable, optional
+        ``physical(args) -> bool array (n_draws,)``: which draws the
+        estimator can evaluate, given the drawn and exact arguments.
+    max_unphysical : float or UnphysicalPolicy
+        Largest share of draws that may be dropped (default 5 %).
+    drawn : mapping, optional
+        Arguments given as draws already (shape ``(..., n_draws)``, from the
+        same ``SharedDraws``): subset like the drawn inputs.
+    labels : mapping, optional
+        How to show an input in a refusal (its value or distribution as the
+        user wrote it), where ``str`` of the argument would not; ``names``
+        gives its name.
+
+    Returns
+    -------
+    Propagation
+        ``result`` is ``estimator(**args)`` on the kept draws.
+
+    Raises
+    ------
+    InputError
+        When more than ``max_unphysical`` of the draws are impossible, naming
+        the input whose draws were impossible most often.
+    """
+    shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
+    policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    if isinstance(names, str) or names is None:
+        names = input_names(inputs, names)
+    else:
+        missing = [k for k, v in inputs.items() if isinstance(v, Uncertain) and k not in names]
+        if missing:  # two consumers must never share a stream by accident of a bare keyword
+            raise InputError("input names", ", ".join(missing), "a name for every uncertain input")
+    n = shared.n_draws
+    args: dict[str, Any] = {}
+    sampled: dict[str, Any] = {}
+    for k, v in inputs.items():
+        if isinstance(v, Uncertain):
+            sampled[k] = args[k] = shared.draw(names.get(k, k), v)
+        else:
+            _require_finite(v, names.get(k, k), (labels or {}).get(k))
+            args[k] = v
+    given = dict(drawn or {})
+    args.update(given)
+    keep = np.ones(n, bool)
+    if physical is not None:  # exact inputs too: an exact NaN makes every draw impossible
+        keep = np.broadcast_to(np.asarray(physical(args), bool), (n,)).copy()
+    if not keep.all():
+        culprit, value = _culprit(physical, inputs, sampled, given, args, names, n, labels or {})
+        dropped = policy.enforce(keep, culprit, value)
+    else:
+        dropped = 0
+    if dropped:
+        for k in list(sampled) + list(given):
+            args[k] = _subset(args[k], keep, n)
+    result = estimator(**args)
+    described = {names.get(k, k): str(v) for k, v in inputs.items() if isinstance(v, Uncertain)}
+    return Propagation(result=result, keep=keep, n_draws=n, unphysical=dropped, seed=shared.seed, policy=policy,
+                       inputs=described)
+
+
+def _require_finite(v, name, label=None):
+    """Refuse a non-finite number among the exact inputs (a NaN would make every draw impossible)."""
+    m = v.magnitude if isinstance(v, pint.Quantity) else v
+    if isinstance(m, (int, float, np.ndarray, np.number)) and not np.all(np.isfinite(m)):
+        raise InputError(name, label or str(v), "a finite value")
+
+
+def _subset(v, keep, n):
+    m = v.magnitude if isinstance(v, pint.Quantity) else v
+    if np.ndim(m) == 0 or np.shape(m)[-1] != n:
+        return v
+    return v[..., keep]
+
+
+def _culprit(physical, inputs, sampled, given, args, names, n, labels):
+    """The input whose own draws are impossible most often (the others held at their nominal values)."""
+    pool = {**sampled, **given}
+    if physical is None or not pool:
+        return "draws", f"{n} draws"
+    base = {k: (nominal(v) if isinstance(v, Uncertain) else v) for k, v in inputs.items()}
+    for k, v in given.items():
+        m = np.asarray(v.magnitude if isinstance(v, pint.Quantity) else v, float)
+        mid = np.nanmedian(m, axis=-1, keepdims=True)
+        base[k] = Q_(mid, v.units) if isinstance(v, pint.Quantity) else mid
+    worst, lost = None, -1
+    for k in pool:
+        trial = {**base, k: args[k]}
+        try:
+            bad = int(np.count_nonzero(~np.broadcast_to(np.asarray(physical(trial), bool), (n,))))
+        except Exception:  # noqa: BLE001 - a mixed trial the test cannot evaluate; rank it last
+            bad = 0
+        if bad > lost:
+            worst, lost = k, bad
+    value = inputs.get(worst)
+    text = str(value) if value is not None else labels.get(worst, f"{n} given draws")
+    return names.get(worst, worst), text
 
 
 @dataclass(frozen=True)
@@ -191,9 +657,8 @@ class Summary:
     draws: int
     seed: int | None
 
-    def to(self, unit: str) -> "Summary":
-        return Summary(*(getattr(self, k).to(unit) for k in ("mean", "median", "p05", "p95", "std")),
-                       self.draws, self.seed)
+    def to(self, unit: str) -> Summary:
+        return replace(self, **{k: getattr(self, k).to(unit) for k in ("mean", "median", "p05", "p95", "std")})
 
     def as_dict(self, name: str, unit: str) -> dict:
         """Flat dictionary with units in the keys (``heat_power_MW_p05``)."""
@@ -207,6 +672,9 @@ def summarize(values: pint.Quantity, seed: int | None = None) -> Summary:
     units = values.units
     v = np.asarray(values.magnitude, dtype=float)
     v = v[np.isfinite(v)]
+    if v.size == 0:
+        raise InputError("inputs", "no draw with a finite result",
+                         "finite inputs within the estimator's range (check for nan or inf)")
     p05, med, p95 = np.percentile(v, [5, 50, 95])
     return Summary(Q_(v.mean(), units), Q_(med, units), Q_(p05, units), Q_(p95, units),
                    Q_(v.std(ddof=1), units), int(v.size), seed)

@@ -23,19 +23,25 @@ from __future__ import annotations
 import numpy as np
 
 from ..diffuse import (
-    diffuse_discharge_uncertain,
+    diffuse_propagation,
     polygon_area,
     read_area_classes,
     read_patch_table,
-    scale_up_by_area_class,
-    velocity_from_source,
+    scale_up_uncertain,
 )
 from ..errors import InputError
-from ..properties.seawater import pressure_from_depth
-from ..registry import Command, Method
-from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain, summarize
+from ..properties.seawater import REFERENCE_SALINITY, pressure_from_depth
+from ..registry import Command, Method, velocity_from_source
+from ..uncertainty import (
+    DEFAULT_DRAWS,
+    SharedDraws,
+    Uncertain,
+    UnphysicalPolicy,
+    parse_uncertain,
+    summarize,
+)
 from ..units import Q_, parse_quantity
-from ..properties.seawater import REFERENCE_SALINITY
+from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .output import add_output_options, print_json, print_table
 
 #: Practical salinity used when none is given: the package-wide default
@@ -69,9 +75,9 @@ def configure(p):
     a.add_argument("--pressure", help="absolute in-situ pressure, e.g. '22.3 MPa'")
     a.add_argument("--depth", help="depth below the sea surface, e.g. '2200 m' (instead of --pressure)")
     a.add_argument("--latitude", type=float, help="latitude in degrees north, for --depth")
-    m = p.add_argument_group("Monte Carlo")
-    m.add_argument("--draws", type=int, default=DEFAULT_DRAWS, help=f"number of draws (default {DEFAULT_DRAWS})")
-    m.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+    m = p.add_argument_group("Monte Carlo (draws are named as in a survey's [diffuse] section: the same seed "
+                             "gives the same draws)")
+    add_monte_carlo_options(m, DEFAULT_DRAWS)
     add_output_options(p)
 
 
@@ -171,9 +177,24 @@ def _summary(q, unit, name, seed):
     return summarize(q.to(unit), seed).as_dict(name, unit)
 
 
+#: Library input names and the options that give them, for one-line errors.
+_FLAGS = {"area": "--area", "active_fraction": "--active-fraction", "temperature_anomaly": "--anomaly",
+          "velocity": "--velocity", "ambient temperature": "--ambient-temperature",
+          "ambient salinity": "--salinity"}
+
+
 def run(args) -> int:
-    if args.draws < 2:
-        raise InputError("--draws", args.draws, "at least 2 draws")
+    try:
+        return _run(args)
+    except InputError as err:  # a drawn input is named by its stream (diffuse/velocity): name the option
+        key = err.field.rsplit("/", 1)[-1]
+        if err.field.startswith(("diffuse/", "site/")) and key in _FLAGS and not args.patches:
+            raise InputError(_FLAGS[key], err.value, err.allowed, where=err.where) from None
+        raise
+
+
+def _run(args) -> int:
+    mc = monte_carlo_settings(args)
     if args.patches is None and args.polygons is not None:
         raise InputError("--polygons", args.polygons, "a polygon file together with --patches")
     p = _pressure(args)
@@ -186,9 +207,12 @@ def run(args) -> int:
     else:
         inputs = _single_patch(args)
     names, classes = inputs["names"], inputs["classes"]
-    nom, dr = diffuse_discharge_uncertain(
+    shared = SharedDraws(mc.draws, mc.seed)
+    policy = UnphysicalPolicy(mc.max_unphysical)
+    prop = diffuse_propagation(
         inputs["area"], inputs["active_fraction"], inputs["temperature_anomaly"], inputs["velocity"],
-        ambient, salinity, p, draws=args.draws, seed=args.seed, names=names if args.patches else None)
+        ambient, salinity, p, draws=shared, names=names if args.patches else None, max_unphysical=policy)
+    nom, dr = prop.nominal, prop.draws
     patches = []
     for i, name in enumerate(names):
         row = {"patch": name, "class": classes[i] or None,
@@ -197,20 +221,21 @@ def run(args) -> int:
                "heat_power_cp_shortcut_W": float(nom.heat_power_cp_shortcut.to("W").magnitude[i]),
                "volume_flux_m3_s": float(nom.volume_flux.to("m^3/s").magnitude[i]),
                "seawater_model": str(nom.heat_model[i])}
-        row.update(_summary(dr.heat_power[i], "W", "heat_power", args.seed))
+        row.update(_summary(dr.heat_power[i], "W", "heat_power", mc.seed))
         patches.append(row)
-    out = {"method": "diffuse", "draws": args.draws, "seed": args.seed,
+    out = {"method": "diffuse", "draws": mc.draws, "seed": mc.seed, "unphysical_draws": prop.unphysical,
+           "max_unphysical_share": mc.max_unphysical,
            "pressure_Pa": float(p.to("Pa").magnitude),
            "velocity": str(inputs["velocity"]) if not isinstance(inputs["velocity"], tuple) else "per patch",
            "heat_power_MW": float(nom.total_heat_power.to("MW").magnitude),
            "heat_power_cp_shortcut_MW": float(nom.total_heat_power_cp_shortcut.to("MW").magnitude),
            "seawater_models": sorted({str(m) for m in np.ravel(nom.heat_model)}),
            "volume_flux_m3_s": float(nom.total_volume_flux.to("m^3/s").magnitude),
-           **_summary(dr.total_heat_power, "MW", "heat_power", args.seed),
-           **_summary(dr.total_volume_flux, "m^3/s", "volume_flux", args.seed),
+           **_summary(dr.total_heat_power, "MW", "heat_power", mc.seed),
+           **_summary(dr.total_volume_flux, "m^3/s", "volume_flux", mc.seed),
            "patches": patches}
     if args.classes is not None:
-        out["scale_up"] = _scale_up(args, inputs, dr)
+        out["scale_up"] = _scale_up(args, inputs, prop, shared, policy)
     if args.json:
         print_json(out)
         return 0
@@ -221,7 +246,8 @@ def run(args) -> int:
             ("volume flux", out["volume_flux_m3_s"], "m^3/s"),
             ("  5th-95th percentile", f"{out['volume_flux_m3_s_p05']:.4g} – {out['volume_flux_m3_s_p95']:.4g}",
              "m^3/s")]
-    print_table(rows, title=f"diffuse discharge ({args.draws} draws, seed {args.seed})")
+    print_table(rows, title=f"diffuse discharge ({mc.draws} draws, seed {mc.seed}, {prop.unphysical} dropped as "
+                            f"physically impossible, limit {mc.max_unphysical:.1%})")
     if "scale_up" in out:
         su = out["scale_up"]
         rows = [(f"{c['class']} ({c['n_sampled']} sampled, {c['mapped_area_m2']:.4g} m^2)",
@@ -233,26 +259,19 @@ def run(args) -> int:
     return 0
 
 
-def _scale_up(args, inputs, dr):
+def _scale_up(args, inputs, prop, shared, policy):
     names, area, area_sd = read_area_classes(args.classes)
-    if area_sd is not None:
-        rng = np.random.default_rng(args.seed + 7)  # a stream of its own, apart from the patch draws
-        draws = area.magnitude[:, None] + area_sd.to(area.units).magnitude[:, None] * rng.standard_normal(
-            (len(names), args.draws))
-        area_draws = Q_(np.clip(draws, 0.0, None), area.units)
-    else:
-        area_draws = Q_(np.repeat(area.magnitude[:, None], args.draws, axis=1), area.units)
-    su = scale_up_by_area_class(inputs["classes"], dr.area, dr.heat_power, dr.volume_flux, names, area_draws,
-                                seed=args.seed)
+    sp = scale_up_uncertain(prop, inputs["classes"], names, area, area_sd, draws=shared, max_unphysical=policy)
+    su, seed = sp.scale_up, shared.seed
     classes = []
     for k, name in enumerate(su.classes):
         row = {"class": name, "n_sampled": int(su.n_sampled[k]), "mapped_area_m2": float(area.magnitude[k])}
-        row.update(_summary(su.heat_flux_density[k], "W/m^2", "heat_flux", args.seed))
-        row.update(_summary(su.heat_power[k], "MW", "heat_power", args.seed))
-        row.update(_summary(su.volume_flux[k], "m^3/s", "volume_flux", args.seed))
+        row.update(_summary(su.heat_flux_density[k], "W/m^2", "heat_flux", seed))
+        row.update(_summary(su.heat_power[k], "MW", "heat_power", seed))
+        row.update(_summary(su.volume_flux[k], "m^3/s", "volume_flux", seed))
         classes.append(row)
-    return {"classes": classes, **_summary(su.total_heat_power, "MW", "heat_power", args.seed),
-            **_summary(su.total_volume_flux, "m^3/s", "volume_flux", args.seed),
+    return {"classes": classes, **_summary(su.total_heat_power, "MW", "heat_power", seed),
+            **_summary(su.total_volume_flux, "m^3/s", "volume_flux", seed), "unphysical_draws": sp.unphysical,
             "note": "class heat flux per unit area = ΣH/ΣA of its sampled patches, bootstrapped over patches"}
 
 

@@ -7,9 +7,13 @@ import sys
 from ..errors import Collector, InputError
 from ..orifice import DEFAULT_AMBIENT_SALINITY
 from ..registry import Command, Method
-from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
+from ..uncertainty import DEFAULT_DRAWS, Uncertain, parse_uncertain
+from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .budget import add_budget, add_budget_option, print_budget
 from .output import add_output_options, print_json
+
+#: Vent name of a single orifice given on the command line (keys its random streams).
+DEFAULT_VENT_NAME = "vent"
 
 # (attribute, unit shown, label) of the readable table.
 _SHOWN = (
@@ -59,9 +63,11 @@ def configure(p):
                    help=f"practical salinity (default {DEFAULT_AMBIENT_SALINITY:g}, TEOS-10 standard seawater)")
     m = p.add_argument_group("model and uncertainty")
     m.add_argument("--fluid", default="iapws95-water", help="vent-fluid model (see 'ventflux methods')")
-    m.add_argument("--draws", type=int, default=None, metavar="N",
-                   help=f"Monte Carlo draws (default {DEFAULT_DRAWS} when any input carries an uncertainty)")
-    m.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+    m.add_argument("--name", default=DEFAULT_VENT_NAME, metavar="NAME",
+                   help="the vent's name: labels the result and keys its random streams, so the draws equal "
+                        "those of the first orifice of a survey vent of that name with the same seed "
+                        f"(default '{DEFAULT_VENT_NAME}')")
+    add_monte_carlo_options(m, draws_default=None)
     add_budget_option(m)
     add_output_options(p)
 
@@ -85,8 +91,8 @@ def _inputs(args):
             vals["velocity"] = _velocity_from_source(args.velocity_source, args.source_option)
     if args.minor_diameter is not None and args.diameter is None:
         errs.add(InputError("--minor-diameter", args.minor_diameter, "a minor diameter only together with --diameter"))
-    if args.draws is not None and args.draws < 2:
-        errs.add(InputError("--draws", args.draws, "an integer ≥ 2"))
+    with errs.check():
+        vals["monte_carlo"] = monte_carlo_settings(args)
     errs.raise_if_any()
     if "ambient_salinity" in vals and not isinstance(vals["ambient_salinity"], Uncertain):
         vals["ambient_salinity"] = float(vals["ambient_salinity"].to("dimensionless").magnitude)
@@ -95,7 +101,12 @@ def _inputs(args):
     vals["velocity_kind"] = args.velocity_kind
     if args.profile_factor is not None:
         vals["profile_factor"] = args.profile_factor
-    vals["fluid"] = args.fluid
+    from ..registry import fluid_model
+
+    try:
+        vals["fluid"] = fluid_model(args.fluid)  # estimators take the model object, not its name
+    except InputError as err:
+        raise InputError("--fluid", args.fluid, err.allowed) from None
     return vals
 
 
@@ -126,7 +137,7 @@ def run(args) -> int:
     try:
         return _run(args)
     except InputError as err:  # name the command-line option rather than the library argument
-        flag = "--" + err.field.replace(" ", "-").replace("_", "-")
+        flag = "--" + err.field.rsplit("/", 1)[-1].replace(" ", "-").replace("_", "-")
         if err.where is None and flag in _FLAGS:
             raise InputError(flag, err.value, err.allowed) from None
         raise
@@ -137,29 +148,38 @@ _FLAGS = {"--temperature", "--velocity", "--diameter", "--area", "--minor-diamet
 
 
 def _run(args) -> int:
-    from ..orifice import orifice_discharge, orifice_discharge_uncertain, physical_draws
+    from ..orifice import (
+        orifice_discharge,
+        orifice_discharge_uncertain,
+        orifice_input_names,
+        physical_draws,
+    )
 
     vals = _inputs(args)
+    mc = vals.pop("monte_carlo")
     uncertain = any(isinstance(v, Uncertain) for v in vals.values())
-    draws = args.draws if args.draws is not None else (DEFAULT_DRAWS if uncertain else None)
+    draws = mc.draws if mc.draws is not None else (DEFAULT_DRAWS if uncertain else None)
+    rejected = 0
     if draws:
-        res = orifice_discharge_uncertain(draws=draws, seed=args.seed, **vals)
-        result, summaries = res.nominal, res.summaries
+        res = orifice_discharge_uncertain(draws=draws, seed=mc.seed, names=orifice_input_names(args.name, 0),
+                                          max_unphysical=mc.max_unphysical, **vals)
+        result, summaries, rejected = res.nominal, res.summaries, res.rejected
         payload = res.as_dict()
     else:
         result, summaries = orifice_discharge(**vals), {}
         payload = result.as_dict()
+    payload["vent"] = args.name
     payload["fluid_model"] = args.fluid
     budget = add_budget(args, payload, orifice_discharge, vals, physical_draws)  # --budget (ventflux.cli.budget)
     if args.json:
         print_json(payload)
         return 0
-    _print_readable(result, summaries, draws, args.seed)
+    _print_readable(result, summaries, draws, mc.seed, rejected=rejected, limit=mc.max_unphysical)
     print_budget(budget)
     return 0
 
 
-def _print_readable(result, summaries, draws, seed, out=None):
+def _print_readable(result, summaries, draws, seed, out=None, rejected=0, limit=0.05):
     out = out or sys.stdout
     head = ["quantity", "value", "unit"] + (["median", "5 %", "95 %"] if summaries else [])
     rows = []
@@ -177,7 +197,8 @@ def _print_readable(result, summaries, draws, seed, out=None):
     for r in rows:
         out.write(fmt.format(*r) + "\n")
     if summaries:
-        out.write(f"Monte Carlo: {draws} draws, seed {seed}; value column is the nominal estimate.\n")
+        out.write(f"Monte Carlo: {draws} draws, seed {seed}, {rejected} dropped as physically impossible "
+                  f"(limit {limit:.1%}); value column is the nominal estimate.\n")
 
 
 COMMAND = Command(name="orifice", help="heat, mass and volume discharge of one vent orifice", configure=configure,

@@ -24,18 +24,10 @@ def write_output(option, path, write, *args):
 
 
 def _clean(value):
-    if isinstance(value, dict):
-        return {k: _clean(v) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_clean(v) for v in value]
-    if isinstance(value, np.ndarray):
-        return _clean(value.tolist())
-    if isinstance(value, (np.floating, float)):
-        f = float(value)
-        return f if math.isfinite(f) else None
-    if isinstance(value, np.integer):
-        return int(value)
-    return value
+    """JSON-ready copy of ``value`` (``ventflux.io.json_ready``)."""
+    from ..io import json_ready
+
+    return json_ready(value)
 
 
 def print_json(obj, stream=None):

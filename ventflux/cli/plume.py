@@ -4,14 +4,13 @@ from __future__ import annotations
 
 import sys
 
-import gsw
 import numpy as np
 
 from ..errors import Collector, InputError
-from ..properties.seawater import STANDARD_ATMOSPHERE
 from ..registry import Command, Method
-from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
-from ..units import Q_, column_name, parse_quantity
+from ..uncertainty import DEFAULT_DRAWS, Uncertain, parse_uncertain
+from ..units import column_name, parse_quantity
+from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .output import add_output_options, print_json, write_output
 
 _UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) unit'"
@@ -23,7 +22,7 @@ _FLAGS = {"rise height": "--rise-height", "heat power": "--heat-power", "buoyanc
           "current": "--current", "current speed": "--current-profile", "current depth": "--current-profile",
           "method": "--method", "level": "--level", "window": "--window",
           "latitude": "--latitude", "longitude": "--longitude", "draws": "--draws",
-          "stratification scale": "--stratification-scale"}
+          "stratification scale": "--stratification-scale", "height": "--rise-height"}
 
 
 def configure(p):
@@ -68,9 +67,10 @@ def configure(p):
     cur.add_argument("--current", default=None, metavar="Q", help="horizontal current speed, e.g. '0.05 m/s'" + _UNC)
     cur.add_argument("--current-profile", default=None, metavar="CSV",
                      help="current varying with depth: CSV with 'depth [m]' and 'speed [m/s]' columns")
-    m.add_argument("--draws", type=int, default=None, metavar="N",
-                   help=f"Monte Carlo draws (default {DEFAULT_DRAWS} when any input carries an uncertainty)")
-    m.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+    m.add_argument("--name", default="vent", metavar="NAME",
+                   help="the vent's name: keys its random streams, so the draws equal those of a survey's "
+                        "[vent.plume_rise] of a vent of that name with the same seed (default 'vent')")
+    add_monte_carlo_options(m, draws_default=None)
     o = p.add_argument_group("extra outputs")
     o.add_argument("--figure", metavar="PNG", help="write a figure of the plume's profiles beside the stratification")
     o.add_argument("--profile-table", metavar="CSV", help="write radius, speed and volume flux along the plume")
@@ -80,8 +80,8 @@ def configure(p):
 def run(args) -> int:
     try:
         return _run(args)
-    except InputError as err:
-        flag = _FLAGS.get(err.field)
+    except InputError as err:  # a drawn input is named by its stream (vent/plume_rise/height): name the option
+        flag = _FLAGS.get(err.field) or _FLAGS.get(err.field.rsplit("/", 1)[-1].replace("_", " "))
         if err.where is None and flag is not None:
             raise InputError(flag, err.value, err.allowed) from None
         raise
@@ -123,8 +123,8 @@ def _inputs(args):
     elif args.exit_velocity is not None or args.diameter is not None:
         errs.add(InputError("--exit-velocity" if args.exit_velocity else "--diameter", "given",
                             "an orifice's --exit-velocity and --diameter only with --exit-temperature"))
-    if args.draws is not None and args.draws < 2:
-        errs.add(InputError("--draws", args.draws, "an integer ≥ 2"))
+    with errs.check():
+        vals["monte_carlo"] = monte_carlo_settings(args)
     if args.buoyancy_frequency is not None:
         for key in ("ambient_temperature", "ambient_salinity"):
             if getattr(args, key) is None:
@@ -147,7 +147,8 @@ def _inputs(args):
 
 
 def _run(args) -> int:
-    from ..plume import inversion, figures
+    from ..plume import figures, inversion
+    from ..plume.propagation import orifice_plume_source, plume_rise_propagation
     from ..profiles import read_ctd_cast
 
     vals, window = _inputs(args)
@@ -156,8 +157,9 @@ def _run(args) -> int:
             figures.figure_format(args.figure)
         except InputError as err:
             raise InputError("--figure", err.value, err.allowed) from None
+    mc = vals.pop("monte_carlo")
     uncertain = any(isinstance(v, Uncertain) for v in vals.values())
-    draws = args.draws if args.draws is not None else (DEFAULT_DRAWS if uncertain else None)
+    draws = mc.draws if mc.draws is not None else (DEFAULT_DRAWS if uncertain else None)
     if args.ctd is not None:
         strat = read_ctd_cast(args.ctd, latitude=args.latitude, longitude=args.longitude, window=window)
         if args.ambient_temperature is not None or args.ambient_salinity is not None:
@@ -165,28 +167,44 @@ def _run(args) -> int:
                   "--ambient-salinity are not used with --ctd", file=sys.stderr)
     else:
         strat = vals["buoyancy_frequency"]
-    common = dict(level=args.level, method=args.method, entrainment=vals.get("entrainment"),
-                  current=vals.get("current"), draws=draws, seed=args.seed, vent_depth=vals.get("depth"),
-                  pressure=vals.get("pressure"), ambient_temperature=vals.get("ambient_temperature"),
-                  ambient_salinity=vals.get("ambient_salinity"), latitude=args.latitude, longitude=args.longitude,
-                  stratification_scale=vals.get("stratification_scale"),
-                  track=bool(args.figure or args.profile_table))
-    if args.current_profile is not None:
-        common["current"] = _current_profile(args.current_profile)
+    site = dict(level=args.level, method=args.method, vent_depth=vals.get("depth"), pressure=vals.get("pressure"),
+                ambient_temperature=vals.get("ambient_temperature"), ambient_salinity=vals.get("ambient_salinity"),
+                latitude=args.latitude, longitude=args.longitude)
+    profile = _current_profile(args.current_profile) if args.current_profile is not None else None
+    source = None
+    if args.exit_temperature is not None:
+        source = orifice_plume_source(vals["exit_temperature"], vals["exit_velocity"], vals["diameter"], strat,
+                                      **{k: v for k, v in site.items() if k not in ("level", "method")})
     if args.rise_height is not None:
-        res = inversion.heat_power_from_rise_height(vals["rise_height"], strat, **common)
         direction = "rise height to heat power"
-    elif args.exit_temperature is not None:
-        res = inversion.rise_height_from_heat_power(None, strat, source=_orifice_source(vals, strat, common),
-                                                    **common)
+    elif source is not None:
         direction = "orifice to rise height"
     else:
-        res = inversion.rise_height_from_heat_power(vals["heat_power"], strat, **common)
         direction = "heat power to rise height"
-    nom = res.nominal if res.nominal is not None else res
-    if draws and res.failed == draws:
-        raise InputError("--draws", draws, "inputs for which some draws give a plume within the ambient profile")
+    track = bool(args.figure or args.profile_table)
+    unphysical = None
+    if draws:
+        inputs = {"height": vals.get("rise_height"), "heat_power": vals.get("heat_power"),
+                  "entrainment": vals.get("entrainment"), "current": vals.get("current"),
+                  "stratification_scale": vals.get("stratification_scale")}
+        if args.ctd is None:
+            inputs["buoyancy_frequency"] = strat
+        pp = plume_rise_propagation(inputs, strat if args.ctd is not None else None, draws=draws, seed=mc.seed,
+                                    vent=args.name, max_unphysical=mc.max_unphysical, source=source, track=track,
+                                    current_profile=profile, **site)
+        res, nom, unphysical = pp.result, pp.result.nominal, pp.unphysical
+    else:
+        common = dict(entrainment=vals.get("entrainment"), current=profile or vals.get("current"),
+                      stratification_scale=vals.get("stratification_scale"), track=track, **site)
+        if args.rise_height is not None:
+            res = inversion.heat_power_from_rise_height(vals["rise_height"], strat, **common)
+        else:
+            res = inversion.rise_height_from_heat_power(vals.get("heat_power"), strat, source=source, **common)
+        nom = res
     payload = _payload(res, nom, direction, args, strat)
+    if unphysical is not None:
+        payload["unphysical_draws"] = unphysical
+        payload["max_unphysical_share"] = mc.max_unphysical
     if args.figure:
         write_output("--figure", args.figure, figures.save_plume_figure, res, args.figure)
     if args.profile_table:
@@ -207,25 +225,12 @@ def _current_profile(path):
     return CurrentProfile(depth=tbl["depth"], speed=tbl["speed"])
 
 
-def _orifice_source(vals, strat, common):
-    """Forced-plume source from the orifice's exit conditions at the vent's in-situ pressure."""
-    from ..plume import inversion, plume_source_from_exit
-
-    column, _, _ = inversion.ambient_column(strat, common["vent_depth"], common["pressure"], common["ambient_temperature"],
-                                     common["ambient_salinity"], common["latitude"], common["longitude"])
-    pressure = Q_(column.p0 * 1e4 + STANDARD_ATMOSPHERE, "Pa")
-    t_amb = Q_(float(gsw.t_from_CT(column.SA0, column.CT0, column.p0)), "degC")
-    sp = float(gsw.SP_from_SR(column.SA0))
-    return plume_source_from_exit(vals["exit_temperature"], vals["exit_velocity"], vals["diameter"], pressure,
-                                  t_amb, sp)
-
-
 def _val(q, unit):
     return float(np.asarray(q.to(unit).magnitude))
 
 
 def _payload(res, nom, direction, args, strat):
-    from ..plume import closed_form
+    from ..plume.propagation import closed_form_heat_power
     from ..properties.seawater import CP0
 
     col = nom.column
@@ -246,8 +251,7 @@ def _payload(res, nom, direction, args, strat):
     }
     if nom.method == "integral" and args.rise_height is not None:
         # The common practice beside the full computation: the point-source formula with the mean N.
-        F = closed_form.buoyancy_flux_point_source(_val(nom.rise_height, "m"), out["mean_buoyancy_frequency_1_s"])
-        out["closed_form_heat_power_W"] = float(F / col.heat_to_buoyancy())
+        out["closed_form_heat_power_W"] = closed_form_heat_power(_val(nom.rise_height, "m"), col)
         out["closed_form_ignores_current"] = args.current is not None or args.current_profile is not None
     if res.summary:
         out["draws"] = res.draws

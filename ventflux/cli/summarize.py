@@ -42,8 +42,9 @@ from ..orifice import DEFAULT_AMBIENT_SALINITY
 from ..registry import Command, Method
 from ..ridge_flank import DEFICIT_SPANS, REFERENCES
 from ..tables import read_quantity_table
-from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, parse_uncertain
+from ..uncertainty import DEFAULT_DRAWS, parse_uncertain
 from ..units import Q_, parse_quantity
+from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .output import add_output_options, print_json, print_table
 
 # (option, dimension, required, default text, help) per question; the option's
@@ -146,8 +147,7 @@ def configure(p):
                            help="deficit the water column uses: over the observed ages, or from age 0 adding the "
                                 "reference's heat loss before the first observation (default observed; both are "
                                 "reported)")
-        q.add_argument("--draws", type=int, default=DEFAULT_DRAWS, help=f"Monte Carlo draws (default {DEFAULT_DRAWS})")
-        q.add_argument("--seed", type=int, default=DEFAULT_SEED, help=f"random seed (default {DEFAULT_SEED})")
+        add_monte_carlo_options(q, DEFAULT_DRAWS)
         add_output_options(q)
 
 
@@ -170,8 +170,7 @@ def _observations(args):
 
 def run(args) -> int:
     fn, _, options = QUESTIONS[args.question]
-    if args.draws < 2:
-        raise InputError("--draws", args.draws, "a whole number of Monte Carlo draws ≥ 2")
+    mc = monte_carlo_settings(args)
     kwargs = {}
     for option, dim, _required, _default, _help in options:
         text = getattr(args, _dest(option))
@@ -187,7 +186,7 @@ def run(args) -> int:
         kwargs["age"], kwargs["heat_flow"] = _observations(args)
         kwargs["reference"] = args.reference
         kwargs["deficit_span"] = args.deficit_span
-    answer = fn(**kwargs, draws=args.draws, seed=args.seed)
+    answer = fn(**kwargs, draws=mc.draws, seed=mc.seed, max_unphysical=mc.max_unphysical)
     if args.json:
         print_json(answer.as_dict())
     else:

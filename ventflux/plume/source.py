@@ -21,6 +21,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pint
 
 from ..errors import InputError
 from ..orifice import DEFAULT_AMBIENT_SALINITY
@@ -32,10 +33,10 @@ from ..units import Q_, magnitude, require_dimension
 class PlumeSource:
     """Source fluxes of a forced plume (quantities; arrays broadcast)."""
 
-    volume_flux: object  # m³/s at ambient density
-    momentum_flux: object  # m⁴/s²
-    heat_power: object  # W above ambient
-    salt_flux: object = None  # (g/kg)·m³/s, SA anomaly flux; None = ambient salinity
+    volume_flux: pint.Quantity  # m³/s at ambient density
+    momentum_flux: pint.Quantity  # m⁴/s²
+    heat_power: pint.Quantity  # W above ambient
+    salt_flux: pint.Quantity | None = None  # (g/kg)·m³/s, SA anomaly flux; None = ambient salinity
 
     def si(self):
         """(Q0, M0, H, S) as plain SI arrays."""

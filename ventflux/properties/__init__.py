@@ -10,11 +10,14 @@
   pressure with one fluid model at both ends, and the one constant-c_p
   shortcut shown beside it (TEOS-10's c_p0).
 
-Fluid models are found through the ``ventflux_fluid_models`` hook, so a brine
-equation of state can be added by a plugin; ``fluid_model(name)`` builds one.
+Estimators take a fluid-model *object* (``FluidModel``); ``fluid_model(name)``
+here builds the core's own models. Models added by plugins (through the
+``ventflux_fluid_models`` hook) are looked up by ``ventflux.registry.fluid_model``,
+one layer up: this package imports nothing above ``units`` and ``errors``.
 """
 
 from .heat import specific_heat_content, vent_fluid_state  # noqa: F401
+from .models import CORE_MODELS, fluid_model  # noqa: F401
 from .seawater import (  # noqa: F401
     SeawaterState,
     buoyancy_frequency_squared,
@@ -22,10 +25,3 @@ from .seawater import (  # noqa: F401
     seawater_state,
 )
 from .ventfluid import DEFAULT_MODEL, FluidModel, IAPWS95Water  # noqa: F401
-
-
-def fluid_model(name: str = DEFAULT_MODEL) -> FluidModel:
-    """Build a fluid model by name (the core's or a plugin's)."""
-    from ..registry import fluid_model as _build
-
-    return _build(name)

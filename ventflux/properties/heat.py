@@ -70,7 +70,7 @@ class VentFluidState:
 
 def _model(model):
     if model is None or isinstance(model, str):
-        from . import fluid_model
+        from .models import fluid_model
 
         return fluid_model(model or "iapws95-water")
     return model

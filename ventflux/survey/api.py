@@ -15,7 +15,41 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Callable
+from typing import TYPE_CHECKING, Callable
+
+from ..uncertainty import SharedDraws, UnphysicalPolicy
+
+if TYPE_CHECKING:
+    import numpy as np
+    import pint
+
+    from ..profiles import AmbientProfile
+    from .spec import SiteSpec
+
+
+@dataclass(frozen=True)
+class ReportPart:
+    """How a survey method or section appears in the report, so the core names no method.
+
+    Attributes
+    ----------
+    table : str, optional
+        For a method: the table its rows (``MethodEstimate.rows``) go to,
+        one row per vent or orifice; default the method's key.
+    titles : dict
+        Table name → heading in the report (default: the name, capitalized).
+    intro : dict
+        Table name → a sentence shown under the heading.
+    rank : int
+        Where the part's tables and figures go in the report, lower first
+        (the core's: field totals 0, vents and methods 10, focused-vent
+        methods 20–39, field sections 40–89, reservoirs 90).
+    """
+
+    table: str | None = None
+    titles: dict[str, str] = field(default_factory=dict)
+    intro: dict[str, str] = field(default_factory=dict)
+    rank: int = 50
 
 
 @dataclass(frozen=True)
@@ -26,6 +60,7 @@ class SurveyMethod:
     estimate: Callable  # (spec, vent_name: str, context: RunContext) -> MethodEstimate
     many: bool = False  # an array of tables ([[vent.orifice]]) rather than one table
     provider: str = "ventflux"
+    report: ReportPart = field(default_factory=lambda: ReportPart(rank=30))
 
 
 @dataclass(frozen=True)
@@ -35,16 +70,17 @@ class SurveySection:
     parse: Callable  # (fields, context) -> spec
     estimate: Callable  # (spec, context) -> SectionEstimate
     provider: str = "ventflux"
+    report: ReportPart = field(default_factory=ReportPart)
 
 
 @dataclass
 class MethodEstimate:
     """One method's estimate of one vent: heat power draws (shape ``(n_draws,)``) and its tables."""
 
-    heat_power: object  # pint quantity (n_draws,)
-    nominal_heat_power: object
-    exit_temperature: object = None  # for the vent's water throughput, if the method measured it
-    mass_flux: object = None  # draws, if the method measures it directly
+    heat_power: pint.Quantity  # draws, shape (n_draws,)
+    nominal_heat_power: pint.Quantity
+    exit_temperature: pint.Quantity | None = None  # for the vent's water throughput, if the method measured it
+    mass_flux: pint.Quantity | None = None  # draws, if the method measures it directly
     rows: list = field(default_factory=list)  # detail rows for this method's table
     figures: list = field(default_factory=list)  # (file stem, matplotlib figure, caption)
     notes: list = field(default_factory=list)
@@ -57,8 +93,8 @@ class SectionEstimate:
     category: str  # "focused", "diffuse", "conductive" (heat conducted, not discharged), or not added to the
     # totals: "check" (an independent estimate compared with them) or "context"
     names: list
-    heat_power: object
-    volume_flux: object = None
+    heat_power: pint.Quantity  # draws, shape (n_items, n_draws)
+    volume_flux: pint.Quantity | None = None
     rows: list = field(default_factory=list)
     tables: dict = field(default_factory=dict)  # extra tables: name -> list of dict rows
     figures: list = field(default_factory=list)
@@ -71,7 +107,7 @@ class ParseContext:
     """What a parser may consult: the survey's folder and its site-wide values."""
 
     base_dir: Path
-    site: object
+    site: SiteSpec | None
     input_files: dict  # path -> role, every file the survey reads (for hashing)
 
 
@@ -79,10 +115,12 @@ class ParseContext:
 class RunContext:
     """What an estimator is given: the shared draws and the site."""
 
-    draws: object  # ventflux.aggregate.SharedDraws
-    site: object  # parsed SiteSpec
-    pressure: object  # absolute pressure quantity
-    ambient_temperature: object  # draws (n,) shared by every consumer
-    ambient_salinity: object  # draws or float
-    stratification: object = None  # ventflux.profiles object, if a CTD cast is given
+    draws: SharedDraws
+    site: SiteSpec
+    pressure: pint.Quantity  # absolute
+    ambient_temperature: pint.Quantity  # draws (n,) shared by every consumer
+    ambient_salinity: float | np.ndarray  # draws or one value
+    stratification: AmbientProfile | None = None  # the site's CTD cast, if given
     progress: Callable = lambda msg: None
+    #: The run's one rule for impossible draws (``[run] max_unphysical``); pass it to ``propagate``.
+    policy: UnphysicalPolicy = field(default_factory=lambda: UnphysicalPolicy(option="run.max_unphysical"))

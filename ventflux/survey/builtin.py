@@ -1,23 +1,34 @@
 """The core's survey methods (orifice measurements) and sections (diffuse patches).
 
-Each method draws its inputs through the run's ``SharedDraws`` under the
-input's key path (``Gildhorn/orifice[0]/velocity``), or under its shared
-name when the survey file refers to ``[shared]`` with ``"@name"``; the site's
-ambient temperature is one shared input for every vent and patch. Draws a
-method cannot evaluate (a boiling exit temperature, a negative velocity)
-become NaN; the run drops those draw columns for the whole field, so every
-remaining column stays one consistent realization.
+Each method goes through the package's one propagation driver
+(``ventflux.uncertainty.propagate``) with the run's ``SharedDraws``: every
+input is drawn under its key path (``Gildhorn/orifice[0]/velocity``), or
+under its shared name when the survey file refers to ``[shared]`` with
+``"@name"``; the site's ambient temperature is one shared input for every
+vent and patch. These are the names ``ventflux orifice --name`` and
+``ventflux diffuse`` use, so a command and a survey draw the same values.
+Draws a method cannot evaluate (a boiling exit temperature, a negative
+velocity) are dropped and counted under the run's one limit
+(``[run] max_unphysical``) and become NaN; the run drops those draw columns
+for the whole field, so every remaining column stays one consistent
+realization.
 """
 
 from __future__ import annotations
 
 import numpy as np
 
-from ..orifice import (CENTERLINE_PROFILE_FACTOR, VELOCITY_KINDS, orifice_discharge, physical_draws)
-from ..uncertainty import Uncertain
+from ..orifice import (
+    CENTERLINE_PROFILE_FACTOR,
+    VELOCITY_KINDS,
+    orifice_discharge,
+    orifice_input_names,
+    orifice_physical,
+)
+from ..uncertainty import Uncertain, propagate
 from ..units import Q_
-from .api import MethodEstimate, SectionEstimate, SurveyMethod, SurveySection
-from .fields import as_float, nominal_of, resolve
+from .api import MethodEstimate, ReportPart, SectionEstimate, SurveyMethod, SurveySection
+from .fields import SharedRef, as_float, nominal_of
 
 #: The mean/centreline velocity ratio of a fully turbulent jet exit, a range rather than a constant: power-law
 #: profiles u ∝ (1 − r/R)^(1/m) with m from 6 to 10 (Schlichting, Boundary-Layer Theory; from memory) give
@@ -82,44 +93,38 @@ def _estimate_orifices(specs, vent, ctx):
     nominal_total = 0.0
     mass = np.zeros(n)
     rows = []
+    site = ctx.site
     for i, spec in enumerate(specs):
         label = spec["name"] or f"orifice {i + 1}"
-        drawn = {}
-        exact = {"ambient_temperature": ctx.ambient_temperature}
-        for key, _ in _ORIFICE_KEYS + (("profile_factor", None),):
+        names = {**orifice_input_names(vent, i), **{k: f"{vent}/orifice[{i}]/{k}" for k in _DRAWN_KEYS}}
+        inputs, exact = {}, {}
+        for key in _DRAWN_KEYS:
             v = spec.get(key)
             if v is None:
                 continue
-            q = resolve(v, f"{vent}/orifice[{i}]/{key}", ctx.draws)
-            if np.ndim(q.magnitude) == 1:
-                drawn[key] = q
+            if isinstance(v, SharedRef):  # a [shared] input: one stream for all its users
+                names[key], v = "shared/" + v.name, v.value
+            inputs[key] = v
             exact[key] = nominal_of(v)
         if spec["velocity_kind"] == "centerline" and spec.get("profile_factor") is None:  # a constant known as a range
-            drawn["profile_factor"] = ctx.draws.draw(PROFILE_FACTOR_NAME, PROFILE_FACTOR_UNCERTAIN)
+            names["profile_factor"], inputs["profile_factor"] = PROFILE_FACTOR_NAME, PROFILE_FACTOR_UNCERTAIN
             exact["profile_factor"] = PROFILE_FACTOR_UNCERTAIN.nominal
-        _apply_calibration(spec, drawn, exact, vent, i, ctx.draws)
-        if np.ndim(ctx.ambient_temperature.magnitude) == 1:
-            drawn["ambient_temperature"] = ctx.ambient_temperature
-        exact["ambient_temperature"] = Q_(np.mean(ctx.ambient_temperature.to("K").magnitude), "K")
-        exact["pressure"] = ctx.pressure
-        keep = physical_draws(drawn, exact, n) if drawn else np.ones(n, bool)
-        args = {**exact, **{k: v[keep] for k, v in drawn.items()}}
-        args["velocity_kind"] = spec["velocity_kind"]
-        if "profile_factor" in args:
-            args["profile_factor"] = as_float(args["profile_factor"])
-        salinity = ctx.ambient_salinity
-        args["ambient_salinity"] = salinity[keep] if np.ndim(salinity) == 1 else salinity
-        args.setdefault("latitude", ctx.site.latitude)
-        args.setdefault("longitude", ctx.site.longitude)
-        res = orifice_discharge(**args)
-        H = np.full(n, np.nan)
-        H[keep] = np.broadcast_to(res.heat_power.to("W").magnitude, (int(keep.sum()),))
-        m = np.full(n, np.nan)
-        m[keep] = np.broadcast_to(res.mass_flux.to("kg/s").magnitude, (int(keep.sum()),))
-        nom = orifice_discharge(**{**exact, "velocity_kind": spec["velocity_kind"],
-                                   "ambient_salinity": float(np.mean(salinity)),
-                                   **({"profile_factor": as_float(exact["profile_factor"])}
-                                      if "profile_factor" in exact else {})})
+        drawn = {"ambient_temperature": ctx.ambient_temperature}
+        if np.ndim(ctx.ambient_salinity) == 1:
+            drawn["ambient_salinity"] = ctx.ambient_salinity
+        else:
+            inputs["ambient_salinity"] = ctx.ambient_salinity
+        common = {"pressure": ctx.pressure, "velocity_kind": spec["velocity_kind"], "latitude": site.latitude,
+                  "longitude": site.longitude}
+        prop = propagate(calibrated_orifice_discharge, {**inputs, **common}, names=names, draws=ctx.draws,
+                         physical=calibrated_orifice_physical, max_unphysical=ctx.policy, drawn=drawn)
+        res = prop.result
+        H = prop.expand(_per_draw(res.heat_power, prop.kept), "W").magnitude
+        m = prop.expand(_per_draw(res.mass_flux, prop.kept), "kg/s").magnitude
+        ambient_nominal = (nominal_of(site.ambient_temperature) if site.ambient_temperature is not None
+                           else Q_(np.mean(ctx.ambient_temperature.to("K").magnitude), "K"))
+        nom = calibrated_orifice_discharge(**{**exact, **common, "ambient_temperature": ambient_nominal,
+                                              "ambient_salinity": float(np.mean(ctx.ambient_salinity))})
         total += H
         mass += m
         nominal_total += nom.heat_power.to("W").magnitude
@@ -134,30 +139,54 @@ def _estimate_orifices(specs, vent, ctx):
                      "constant_cp_difference [%]": nom.shortcut_difference.to("percent").magnitude,
                      "heat_power_p05 [MW]": np.nanpercentile(H, 5) / 1e6,
                      "heat_power_p95 [MW]": np.nanpercentile(H, 95) / 1e6,
-                     "unphysical_draws": int(n - keep.sum())})
+                     "unphysical_draws": prop.unphysical})
     temps = [nominal_of(s["temperature"]).to("K").magnitude for s in specs]
     return MethodEstimate(heat_power=Q_(total, "W"), nominal_heat_power=Q_(nominal_total, "W"),
                           exit_temperature=Q_(max(temps), "K"), mass_flux=Q_(mass, "kg/s"), rows=rows)
 
 
-def _apply_calibration(spec, drawn, exact, vent, i, draws):
-    """Apply a temperature offset and size/velocity factors (drawn like any input) to the draws."""
-    off = spec.get("temperature_offset")
+def _per_draw(q, n):
+    """An output as ``n`` draws (an output no drawn input reached is one value)."""
+    return Q_(np.broadcast_to(q.magnitude, (n,)), q.units)
+
+
+#: Inputs of one orifice that may be drawn, calibration terms included.
+_DRAWN_KEYS = ("temperature", "velocity", "diameter", "minor_diameter", "area", "profile_factor",
+               "temperature_offset", "size_factor", "velocity_factor")
+
+
+def _calibrated(args):
+    """The orifice's arguments with a temperature offset and size/velocity factors applied (draw by draw)."""
+    args = dict(args)
+    off = args.pop("temperature_offset", None)
+    size = args.pop("size_factor", None)
+    vel = args.pop("velocity_factor", None)
     if off is not None:
-        d = resolve(off, f"{vent}/orifice[{i}]/temperature_offset", draws).to("K").magnitude
-        T = drawn.get("temperature", exact["temperature"]).to("K").magnitude
-        drawn["temperature"] = Q_(T + d, "K") if np.ndim(T + d) == 1 else Q_(np.full(draws.n_draws, T + d), "K")
-    for key, targets in (("size_factor", ("diameter", "minor_diameter", "area")), ("velocity_factor", ("velocity",))):
-        fac = spec.get(key)
+        args["temperature"] = Q_(args["temperature"].to("K").magnitude + off.to("K").magnitude, "K")
+    for fac, targets in ((size, ("diameter", "minor_diameter", "area")), (vel, ("velocity",))):
         if fac is None:
             continue
-        k = as_float(resolve(fac, f"{vent}/orifice[{i}]/{key}", draws))
+        k = as_float(fac)
         for t in targets:
-            if t not in exact:
-                continue
-            power = 2 if t == "area" else 1
-            base = drawn.get(t, exact[t])
-            drawn[t] = base * np.broadcast_to(k, (draws.n_draws,)) ** power
+            if args.get(t) is not None:
+                args[t] = args[t] * k ** (2 if t == "area" else 1)
+    if args.get("profile_factor") is not None:
+        args["profile_factor"] = as_float(args["profile_factor"])
+    return args
+
+
+def calibrated_orifice_discharge(**args):
+    """``orifice_discharge`` of an orifice whose measurements carry calibration terms (see ``_calibrated``)."""
+    return orifice_discharge(**_calibrated(args))
+
+
+def calibrated_orifice_physical(args):
+    """``orifice_physical`` after calibration; factors must be positive."""
+    keep = np.ones((), bool)
+    for k in ("size_factor", "velocity_factor"):
+        if args.get(k) is not None:
+            keep = keep & (np.asarray(as_float(args[k])) > 0)
+    return keep & orifice_physical(_calibrated(args))
 
 
 def nom_value(q, unit):
@@ -166,7 +195,8 @@ def nom_value(q, unit):
 
 ORIFICE = SurveyMethod(key="orifice", many=True,
                        summary="exit temperature, velocity and size of each orifice (IAPWS-95 enthalpy difference)",
-                       parse=_parse_orifice, estimate=_estimate_orifices)
+                       parse=_parse_orifice, estimate=_estimate_orifices,
+                       report=ReportPart(table="orifices", titles={"orifices": "Orifices"}, rank=20))
 
 
 # ---- diffuse patches -------------------------------------------------------------
@@ -205,79 +235,79 @@ def _parse_diffuse(f, ctx):
     return spec
 
 
-def _per_patch(draws, names, mean, sd, key):
-    """Per-patch draws (n_patches, n): normal where an sd column is given, else exact."""
-    if sd is None:
-        return Q_(np.repeat(mean.magnitude[:, None], draws.n_draws, axis=1), mean.units)
-    from ..uncertainty import Uncertain
-
-    values = [Uncertain("normal", float(m), float(s), str(mean.units)) for m, s in
-              zip(mean.magnitude, sd.to(mean.units).magnitude)]
-    return draws.draw_each([f"diffuse/{n}/{key}" for n in names], values, str(mean.units))
-
-
 def _estimate_diffuse(spec, ctx):
-    from ..diffuse import clip_to_physical_range, diffuse_discharge, scale_up_by_area_class
+    from ..diffuse import diffuse_propagation, scale_up_uncertain
 
     t = spec["table"]
     d = ctx.draws
     names = list(t.names)
-    area = _per_patch(d, names, t.area, t.area_sd, "area")
-    frac = _per_patch(d, names, Q_(t.active_fraction, "dimensionless"),
-                      None if t.active_fraction_sd is None else Q_(t.active_fraction_sd, "dimensionless"),
-                      "active_fraction")
-    dT = _per_patch(d, names, t.temperature_anomaly, t.temperature_anomaly_sd, "temperature_anomaly")
+
+    def per_patch(mean, sd):
+        return mean if sd is None else (mean, sd)
+
+    overrides = {}
     if t.velocity is not None:
-        w = _per_patch(d, names, t.velocity, t.velocity_sd, "velocity")
+        w = per_patch(t.velocity, t.velocity_sd)
     else:
-        w = resolve(spec["velocity"], "diffuse/velocity", d)
-        w = w.reshape(1, -1) if np.ndim(w.magnitude) == 1 else w
-    clipped = clip_to_physical_range({"area": area, "active_fraction": frac.magnitude, "temperature_anomaly": dT,
-                           "velocity": w})
-    Ta = ctx.ambient_temperature
-    Ta = Ta.reshape(1, -1) if np.ndim(Ta.magnitude) == 1 else Ta
-    S = ctx.ambient_salinity
-    S = np.reshape(S, (1, -1)) if np.ndim(S) == 1 else S
-    res = diffuse_discharge(clipped["area"], clipped["active_fraction"], clipped["temperature_anomaly"],
-                            clipped["velocity"], Ta, S, ctx.pressure, check=False, names=names)
+        w = spec["velocity"]
+        if isinstance(w, SharedRef):  # a [shared] velocity: one stream for all its users
+            overrides["velocity"], w = "shared/" + w.name, w.value
+    frac_sd = None if t.active_fraction_sd is None else Q_(t.active_fraction_sd, "dimensionless")
+    drawn = {"ambient_temperature": ctx.ambient_temperature}
+    salinity = ctx.ambient_salinity
+    if np.ndim(salinity) == 1:
+        drawn["ambient_salinity"], salinity = salinity, None
+    prop = diffuse_propagation(per_patch(t.area, t.area_sd), per_patch(Q_(t.active_fraction, "dimensionless"),
+                                                                        frac_sd),
+                               per_patch(t.temperature_anomaly, t.temperature_anomaly_sd), w,
+                               nominal_of(ctx.site.ambient_temperature) if ctx.site.ambient_temperature is not None
+                               else Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
+                               salinity if salinity is not None else float(np.mean(ctx.ambient_salinity)),
+                               ctx.pressure, draws=d, names=names, input_names=overrides,
+                               max_unphysical=ctx.policy, drawn=drawn)
+    res = prop.draws
     H = res.heat_power.to("W")
     V = res.volume_flux.to("m^3/s")
     rows = []
     for i, n in enumerate(names):
+        h = H[i].magnitude
         rows.append({"patch": n, "class": t.classes[i], "area [m^2]": float(t.area[i].to("m^2").magnitude),
                      "active_fraction": float(t.active_fraction[i]),
                      "temperature_anomaly [K]": float(t.temperature_anomaly[i].to("K").magnitude),
-                     "heat_power_median [kW]": float(np.median(H[i].magnitude)) / 1e3,
-                     "heat_power_p05 [kW]": float(np.percentile(H[i].magnitude, 5)) / 1e3,
-                     "heat_power_p95 [kW]": float(np.percentile(H[i].magnitude, 95)) / 1e3,
-                     "heat_flux [W/m^2]": float(np.median(H[i].magnitude) / t.area[i].to("m^2").magnitude)})
+                     "heat_power_median [kW]": float(np.nanmedian(h)) / 1e3,
+                     "heat_power_p05 [kW]": float(np.nanpercentile(h, 5)) / 1e3,
+                     "heat_power_p95 [kW]": float(np.nanpercentile(h, 95)) / 1e3,
+                     "heat_flux [W/m^2]": float(np.nanmedian(h) / t.area[i].to("m^2").magnitude)})
     tables = {"diffuse_patches": rows}
+    notes = [f"Diffuse patches: {prop.unphysical} of {prop.n_draws} draws dropped as physically impossible "
+             f"(limit {prop.max_unphysical:.1%})."] if prop.unphysical else []
     if spec["classes"] is None:
         return SectionEstimate(category=spec["category"], names=names, heat_power=H, volume_flux=V, rows=rows,
-                               tables=tables)
+                               tables=tables, notes=notes)
     cnames, carea, carea_sd = spec["classes"]
-    ca = _per_patch(d, list(cnames), carea, carea_sd, "mapped_area")
-    ca = Q_(np.clip(ca.magnitude, 0, None), ca.units)
-    up = scale_up_by_area_class(t.classes, t.area, H, V, cnames, ca, seed=d.seed)
+    sp = scale_up_uncertain(prop, t.classes, list(cnames), carea, carea_sd, draws=d, max_unphysical=ctx.policy)
+    up = sp.scale_up
     crow = []
     for k, c in enumerate(up.classes):
         h = up.heat_power[k].to("MW").magnitude
         crow.append({"class": c, "mapped_area [m^2]": float(carea[k].to("m^2").magnitude),
                      "sampled_patches": int(up.n_sampled[k]),
-                     "heat_flux_median [W/m^2]": float(np.median(up.heat_flux_density[k].to("W/m^2").magnitude)),
-                     "heat_power_median [MW]": float(np.median(h)),
-                     "heat_power_p05 [MW]": float(np.percentile(h, 5)),
-                     "heat_power_p95 [MW]": float(np.percentile(h, 95))})
+                     "heat_flux_median [W/m^2]": float(np.nanmedian(up.heat_flux_density[k].to("W/m^2").magnitude)),
+                     "heat_power_median [MW]": float(np.nanmedian(h)),
+                     "heat_power_p05 [MW]": float(np.nanpercentile(h, 5)),
+                     "heat_power_p95 [MW]": float(np.nanpercentile(h, 95))})
     tables["diffuse_classes"] = crow
     return SectionEstimate(category=spec["category"], names=[f"class {c}" for c in up.classes],
                            heat_power=up.heat_power.to("W"), volume_flux=up.volume_flux.to("m^3/s"), rows=crow,
                            tables=tables,
-                           notes=["Diffuse output is scaled up from the sampled patches to the mapped area "
-                                  "classes; the sampled patches themselves are not added again."])
+                           notes=notes + ["Diffuse output is scaled up from the sampled patches to the mapped area "
+                                          "classes; the sampled patches themselves are not added again."])
 
 
 DIFFUSE = SurveySection(key="diffuse", summary="diffuse-flow patches (TEOS-10 enthalpy), scaled up to mapped areas",
-                        parse=_parse_diffuse, estimate=_estimate_diffuse)
+                        parse=_parse_diffuse, estimate=_estimate_diffuse,
+                        report=ReportPart(titles={"diffuse_classes": "Diffuse discharge by mapped area class",
+                                                  "diffuse_patches": "Sampled diffuse patches"}, rank=40))
 
 def _plume_rise():
     from .plume_method import PLUME_RISE

@@ -71,7 +71,7 @@ def _estimate_flank(spec, ctx):
                        half_spreading_rate=spec["half_spreading_rate"], temperature_rise=spec["temperature_rise"],
                        ambient_temperature=Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
                        pressure=ctx.pressure, salinity=float(np.mean(ctx.ambient_salinity)),
-                       draws=ctx.draws.n_draws, seed=ctx.draws.seed)
+                       draws=ctx.draws.n_draws, seed=ctx.draws.seed, max_unphysical=ctx.policy)
     rows = []
     for name, (summ, unit) in ans.outputs.items():
         q = summ.to(unit)

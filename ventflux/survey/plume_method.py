@@ -7,6 +7,9 @@ coefficient is a model constant, the same for every plume of the field;
 give it as a shared value (``"@entrainment"``) to carry its uncertainty
 coherently. Left out, it is the uncertain constant ``ENTRAINMENT_UNCERTAIN``,
 drawn once per draw for every plume under ``constants/entrainment coefficient``.
+
+Propagation goes through ``ventflux.plume.propagation.plume_rise_propagation``
+(the package's one driver), the same route as ``ventflux plume-rise --name``.
 """
 
 from __future__ import annotations
@@ -15,8 +18,8 @@ import numpy as np
 
 from ..uncertainty import Uncertain
 from ..units import Q_
-from .api import MethodEstimate, SurveyMethod
-from .fields import as_float, nominal_of, resolve
+from .api import MethodEstimate, ReportPart, SurveyMethod
+from .fields import SharedRef, nominal_of
 
 #: The top-hat entrainment coefficient as the literature gives it, a range: published Gaussian values of pure
 #: plumes span about 0.08–0.12 (e.g. Morton, Taylor & Turner 1956: 0.093; Papanicolaou & List 1988: 0.105;
@@ -73,43 +76,32 @@ def _height(f, ctx, level):
 
 
 def _estimate(spec, vent, ctx):
-    from ..plume import DEFAULT_ENTRAINMENT, heat_power_from_rise_height
+    from ..plume.propagation import plume_input_names, plume_rise_propagation
 
-    n = ctx.draws.n_draws
-    key = f"{vent}/plume_rise"
-
-    def drawn(name, default=None):
-        v = spec.get(name)
-        if v is None:
-            return default
-        q = resolve(v, f"{key}/{name}", ctx.draws)
-        return q
-
-    z = drawn("height")
-    alpha = drawn("entrainment", None)
-    if alpha is None:  # a constant known only as a range: one draw per draw for every plume of the field
-        alpha = ctx.draws.draw(ENTRAINMENT_NAME, ENTRAINMENT_UNCERTAIN)
-    kwargs = dict(level=spec["level"], method=spec["method"], pressure=ctx.pressure,
-                  latitude=ctx.site.latitude, longitude=ctx.site.longitude)
+    names = plume_input_names(vent)
+    inputs = {}
+    for key in ("height", "entrainment", "current", "buoyancy_frequency", "stratification_scale"):
+        v = spec.get(key)
+        if isinstance(v, SharedRef):  # a [shared] input: one stream for all its users
+            names[key], v = "shared/" + v.name, v.value
+        inputs[key] = v
+    if inputs["entrainment"] is None:  # a constant known only as a range: one draw per draw for every plume
+        names["entrainment"], inputs["entrainment"] = ENTRAINMENT_NAME, ENTRAINMENT_UNCERTAIN
+    site = ctx.site
+    kwargs = dict(level=spec["level"], method=spec["method"], pressure=ctx.pressure, latitude=site.latitude,
+                  longitude=site.longitude)
     if spec["buoyancy_frequency"] is not None:
-        strat = _full(drawn("buoyancy_frequency"), n, "1/s")
-        strat_nominal = nominal_of(spec["buoyancy_frequency"])
-        kwargs.update(ambient_temperature=Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
-                      ambient_salinity=float(np.mean(ctx.ambient_salinity)))
+        strat = None
+        ambient = (nominal_of(site.ambient_temperature) if site.ambient_temperature is not None
+                   else Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"))
+        kwargs.update(ambient_temperature=ambient, ambient_salinity=float(np.mean(ctx.ambient_salinity)))
     else:
-        strat = strat_nominal = ctx.stratification
-    cur = drawn("current")
-    scale = drawn("stratification_scale")
-    arrays = {"rise_height": _full(z, n, "m"), "entrainment": _full(alpha, n, "dimensionless")}
-    if cur is not None:
-        arrays["current"] = _full(cur, n, "m/s")
-    if scale is not None:
-        arrays["stratification_scale"] = as_float(_full(scale, n, "dimensionless"))
-    res = heat_power_from_rise_height(arrays.pop("rise_height"), strat, **arrays, **kwargs, predrawn=True)
-    alpha_nominal = DEFAULT_ENTRAINMENT if spec["entrainment"] is None else float(as_float(nominal_of(spec["entrainment"])))
-    nominal = heat_power_from_rise_height(nominal_of(spec["height"]), strat_nominal, entrainment=alpha_nominal,
-                                          track=True, **kwargs)
-    H = res.heat_power.to("W").magnitude
+        strat = ctx.stratification
+        inputs.pop("buoyancy_frequency")
+    pp = plume_rise_propagation(inputs, strat, draws=ctx.draws, names=names, vent=vent, max_unphysical=ctx.policy,
+                                track=spec["method"] == "integral", **kwargs)
+    nominal = pp.result.nominal
+    H = pp.heat_power.to("W").magnitude
     row = {"vent": vent, "observed_height [m]": float(nominal_of(spec["height"]).to("m").magnitude),
            "level": spec["level"], "model": spec["method"],
            "heat_power [MW]": float(nominal.heat_power.to("MW").magnitude),
@@ -119,7 +111,7 @@ def _estimate(spec, vent, ctx):
            "spreading_volume_flux [m^3/s]": float(nominal.spreading_volume_flux.to("m^3/s").magnitude),
            "heat_power_p05 [MW]": float(np.nanpercentile(H, 5) / 1e6),
            "heat_power_p95 [MW]": float(np.nanpercentile(H, 95) / 1e6),
-           "failed_draws": int(res.failed)}
+           "unphysical_draws": int(pp.unphysical)}
     figs = []
     if spec["method"] == "integral" and nominal.track is not None:
         from ..plume.figures import plume_figure
@@ -132,11 +124,7 @@ def _estimate(spec, vent, ctx):
                                  "stratification (top-hat integral model, TEOS-10 densities)."])
 
 
-def _full(q, n, unit):
-    m = np.asarray(q.to(unit).magnitude if hasattr(q, "to") else q, float)
-    return Q_(np.broadcast_to(m, (n,)).copy(), unit)
-
-
 PLUME_RISE = SurveyMethod(key="plume_rise", summary="observed rise height of the vent's plume in the site's "
                                                    "stratification (integral plume model, inverted)",
-                          parse=_parse, estimate=_estimate)
+                          parse=_parse, estimate=_estimate,
+                          report=ReportPart(titles={"plume_rise": "Plume rise of each vent"}, rank=21))

@@ -59,7 +59,7 @@ def tables_of(result) -> dict:
             row["annual_volume_median [km^3/yr]"] = float(np.median(vr.throughput.annual_volume.to("km^3/yr").m))
         vents.append(row)
     t["vents"] = vents
-    methods, pairs, orifices = [], [], []
+    methods, pairs = [], []
     for vr in result.vents:
         for key, e in vr.methods.items():
             s = _summary(e.heat_power)
@@ -67,8 +67,6 @@ def tables_of(result) -> dict:
                             float(e.nominal_heat_power.to("MW").magnitude),
                             **{f"heat_power_{k}": v for k, v in _mw(s).items()},
                             "weight_in_combination": (vr.comparison.weights[key] if vr.comparison else 1.0)})
-            if key == "orifice":
-                orifices += e.rows
         if vr.comparison is not None:
             methods.append({"vent": vr.name, "method": "combined", **{f"heat_power_{k}": v for k, v in
                                                                       _mw(vr.comparison.combined).items()},
@@ -78,12 +76,10 @@ def tables_of(result) -> dict:
     t["methods"] = methods
     if pairs:
         t["method_pairs"] = pairs
-    if orifices:
-        t["orifices"] = orifices
-    for vr in result.vents:
+    for vr in result.vents:  # each method's own table, named by its report part
         for key, e in vr.methods.items():
-            if key != "orifice" and e.rows:
-                t.setdefault(f"{key}", []).extend(e.rows)
+            if e.rows:
+                t.setdefault(_method_table(result, key), []).extend(e.rows)
     for s in result.sections.values():
         t.update(s.tables)
     totals = []
@@ -120,6 +116,51 @@ def tables_of(result) -> dict:
     if res:
         t["reservoirs"] = res
     return t
+
+
+def _method_table(result, key):
+    part = result.report_parts.get(key)
+    return (part.table if part is not None and part.table else None) or key
+
+
+#: The core's own tables: (rank, heading), and the figures shown under each.
+CORE_TABLES = {"field_totals": (0, "Field totals"), "field_checks": (1, "Field-wide checks"),
+               "vents": (10, "Vents"), "methods": (11, "Methods for each vent"),
+               "method_pairs": (12, "Do the methods agree?"), "reservoirs": (90, "Heat reservoirs")}
+CORE_FIGURES = {"vents": ["vents_by_method"], "field_totals": ["focused_diffuse"], "reservoirs": ["reservoirs"]}
+CORE_INTRO = {"method_pairs": "A pair of methods is consistent when their log-ratio differs from zero by at most "
+                              "two standard deviations of its own Monte Carlo spread; the combined estimate weights "
+                              "the methods by the inverse covariance of their log draws."}
+
+
+def _layout(result, tables):
+    """Tables in report order with their headings and intros, from the core's and each part's ``ReportPart``."""
+    rank, title, intro = {}, {}, dict(CORE_INTRO)
+    for name, (r, t) in CORE_TABLES.items():
+        rank[name], title[name] = (r, 0), t
+    for key, part in result.report_parts.items():
+        owned = list(part.titles) + [_method_table(result, key), key]
+        for i, name in enumerate(owned):
+            rank.setdefault(name, (part.rank, i))
+            if name in part.titles:
+                title.setdefault(name, part.titles[name])
+        intro.update({k: v for k, v in part.intro.items() if k not in intro})
+    names = sorted(tables, key=lambda n: (*rank.get(n, (60, 0)), n))
+    return [(n, title.get(n, n.replace("_", " ").capitalize()), intro.get(n)) for n in names]
+
+
+def _figure_tables(result):
+    """Figure stem → the table it is shown under (a method's under its table, a section's under its first)."""
+    out = {stem: table for table, stems in CORE_FIGURES.items() for stem in stems}
+    for vr in result.vents:
+        for key, e in vr.methods.items():
+            for stem, _, _ in e.figures:
+                out[f"{_slug(vr.name)}_{stem}"] = _method_table(result, key)
+    for key, s in result.sections.items():
+        first = next(iter(s.tables), key)
+        for stem, _, _ in s.figures:
+            out[f"{key}_{stem}"] = first
+    return out
 
 
 def _plain(s):
@@ -240,7 +281,8 @@ def summary_of(result, tables) -> dict:
         "versions": {**distribution_versions(), "python": platform.python_version(), **_library_versions()},
         "inputs": {str(Path(p)): {"role": role, "sha256": sha256_of(p)} for p, role in spec.input_files.items()},
         "seed": spec.seed, "draws_requested": spec.draws, "draws_used": result.n_draws,
-        "draws_dropped_as_unphysical": result.dropped_draws,
+        "unphysical_draws": result.dropped_draws,
+        "max_unphysical_share": getattr(spec, "max_unphysical", 0.05),
         "shared_inputs": result.shared_inputs,
         "defaults_used": spec.defaults_used,
         "pressure_Pa": float(result.pressure.to("Pa").magnitude),
@@ -302,9 +344,9 @@ def write_results(result, out_dir) -> Path:
 
 
 def _clean(v):
-    from ..cli.output import _clean as clean
+    from ..io import json_ready
 
-    return clean(v)
+    return json_ready(v)
 
 
 def _plain_cell(v):
@@ -388,28 +430,20 @@ figure,tr{{break-inside:avoid}} .caution{{border:1px solid #e0a030}}}}
     parts.append("<p class='key'>" + " ".join(key) + "</p>")
     parts.append(f"<p>Site depth/pressure: {result.pressure.to('MPa').m:.4g} MPa absolute; latitude "
                  f"{spec.site.latitude}, longitude {spec.site.longitude}. Monte Carlo: {result.n_draws} usable draws "
-                 f"of {spec.draws} (seed {spec.seed}); {result.dropped_draws} draws dropped as unphysical.</p>")
-    order = ["field_totals", "field_checks", "vents", "methods", "method_pairs", "orifices", "plume_rise", "video",
-             "diffuse_classes", "diffuse_patches", "reservoirs"]
-    titles = {"field_totals": "Field totals", "field_checks": "Field-wide checks", "vents": "Vents", "methods": "Methods for each vent",
-              "method_pairs": "Do the methods agree?", "orifices": "Orifices", "diffuse_classes":
-              "Diffuse discharge by mapped area class", "diffuse_patches": "Sampled diffuse patches",
-              "reservoirs": "Heat reservoirs"}
-    names = [n for n in order if n in tables] + [n for n in tables if n not in order]
+                 f"of {spec.draws} (seed {spec.seed}); {result.dropped_draws} draws dropped as physically impossible "
+                 f"(limit {getattr(spec, 'max_unphysical', 0.05):.1%} of the draws, "
+                 "<code>[run] max_unphysical</code>).</p>")
     img_by = {stem: (cap, data) for stem, cap, data in images}
-    fig_after = {"vents": ["vents_by_method"], "field_totals": ["focused_diffuse"], "reservoirs": ["reservoirs"]}
+    under = _figure_tables(result)
     shown = set()
-    for n in names:
-        parts.append(f"<h2>{esc(titles.get(n, n.replace('_', ' ').capitalize()))}</h2>")
-        if n == "method_pairs":
-            parts.append("<p>A pair of methods is consistent when their log-ratio differs from zero by at most "
-                         "two standard deviations of its own Monte Carlo spread; the combined estimate weights the "
-                         "methods by the inverse covariance of their log draws.</p>")
+    for n, title, intro in _layout(result, tables):
+        parts.append(f"<h2>{esc(title)}</h2>")
+        if intro:
+            parts.append(f"<p>{esc(intro)}</p>")
         parts.append(_table_html(tables[n]))
-        for stem in fig_after.get(n, []):
-            if stem in img_by:
-                parts.append(_figure(stem, *img_by[stem]))
-                shown.add(stem)
+        for stem in [s for s in img_by if under.get(s) == n]:
+            parts.append(_figure(stem, *img_by[stem]))
+            shown.add(stem)
     rest = [s for s in img_by if s not in shown]
     if rest:
         parts.append("<h2>Method figures</h2>")

@@ -6,55 +6,65 @@ between vents (the site's ambient temperature, a camera's pixel scale, a
 probe calibration, the CTD cast) take the same value in draw ``j``
 everywhere, and their errors do not average away in the totals.
 
-Draws that some method could not evaluate (NaN) are dropped for the whole
-field, column by column; their number is reported.
+Every method and section propagates through ``ventflux.uncertainty.propagate``
+with the run's one ``UnphysicalPolicy`` (``[run] max_unphysical``, 5 % by
+default). Draws that some method could not evaluate (NaN) are dropped for the
+whole field, column by column; their number is reported, and the run is
+refused when more than the same share of columns is lost.
 """
 
 from __future__ import annotations
 
 import time
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
+import pint
 
-from ..aggregate import SharedDraws, compare_methods, field_total, focused_diffuse_split
-from ..errors import InputError
+from ..aggregate import (FieldTotal, FocusedDiffuseSplit, MethodComparison, compare_methods, field_total,
+                         focused_diffuse_split)
 from ..orifice import in_situ_pressure
+from ..uncertainty import SITE_INPUT_NAMES, SharedDraws, Summary, Uncertain, UnphysicalPolicy, summarize
 from ..units import Q_
-from ..uncertainty import summarize
-from .api import RunContext
+from .api import MethodEstimate, ReportPart, RunContext, SectionEstimate
 from .spec import SurveySpec, survey_components
+
+if TYPE_CHECKING:
+    from ..throughput import WaterThroughput
 
 
 @dataclass
 class VentResult:
     name: str
-    methods: dict  # key -> MethodEstimate
-    heat_power: object  # combined draws (after column filtering)
-    comparison: object = None  # MethodComparison when several methods
-    throughput: object = None
-    exit_temperature: object = None
+    methods: dict[str, MethodEstimate]  # method key -> its estimate
+    heat_power: pint.Quantity | None  # combined draws (after column filtering)
+    comparison: MethodComparison | None = None  # when several methods
+    throughput: WaterThroughput | None = None
+    exit_temperature: pint.Quantity | Uncertain | None = None
 
 
 @dataclass
 class SurveyResult:
     spec: SurveySpec
-    pressure: object
-    vents: list
-    sections: dict  # key -> SectionEstimate
-    focused: object  # FieldTotal
-    diffuse: object  # FieldTotal or None
-    conductive: object  # FieldTotal or None (heat conducted through sediment)
-    total: object  # Summary of focused + diffuse + conductive
-    split: object  # FocusedDiffuseSplit or None
-    water: dict  # name -> Summary of field water flux
-    reservoirs: list
+    pressure: pint.Quantity
+    vents: list[VentResult]
+    sections: dict[str, SectionEstimate]
+    focused: FieldTotal | None
+    diffuse: FieldTotal | None
+    conductive: FieldTotal | None  # heat conducted through sediment
+    total: Summary | None  # focused + diffuse + conductive
+    split: FocusedDiffuseSplit | None
+    water: dict[str, Summary]  # field water flux by name
+    reservoirs: list[dict]
     dropped_draws: int
     n_draws: int
     elapsed: float
-    shared_inputs: dict
-    checks: list = field(default_factory=list)  # (section key, MethodComparison) of field-level checks
-    notes: list = field(default_factory=list)
+    shared_inputs: dict[str, str]
+    checks: list[tuple[str, MethodComparison]] = field(default_factory=list)  # field-level checks
+    notes: list[str] = field(default_factory=list)
+    #: key of every method and section used → its ``ReportPart`` (titles, tables, order in the report)
+    report_parts: dict[str, ReportPart] = field(default_factory=dict)
     # Uncertainty budget (ventflux.survey.budget): the run's draws, its kept draw columns, the budget's mode.
     draws: object = None
     keep: object = None
@@ -75,19 +85,20 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None) -> Surve
     t0 = time.perf_counter()
     methods, sections = survey_components()
     draws = SharedDraws(spec.draws, spec.seed) if draws is None else draws
+    policy = UnphysicalPolicy(getattr(spec, "max_unphysical", UnphysicalPolicy.max_share), "run.max_unphysical")
     site = spec.site
     pressure = in_situ_pressure(site.pressure, site.depth, site.latitude)
-    ambient = draws.draw("site/ambient temperature", site.ambient_temperature)
+    ambient = draws.draw(SITE_INPUT_NAMES["ambient_temperature"], site.ambient_temperature)
     if np.ndim(ambient.magnitude) == 0:
         ambient = Q_(np.full(spec.draws, ambient.to("K").magnitude), "K")
-    salinity = draws.draw("site/ambient salinity", site.ambient_salinity)
+    salinity = draws.draw(SITE_INPUT_NAMES["ambient_salinity"], site.ambient_salinity)
     salinity = salinity.to("dimensionless").magnitude if hasattr(salinity, "to") else salinity
     strat = None
     if site.ctd is not None:
         progress("reading the CTD cast")
         strat = _read_stratification(site)
     ctx = RunContext(draws=draws, site=site, pressure=pressure, ambient_temperature=ambient,
-                     ambient_salinity=salinity, stratification=strat, progress=progress)
+                     ambient_salinity=salinity, stratification=strat, progress=progress, policy=policy)
 
     vents = []
     for i, v in enumerate(spec.vents, 1):
@@ -101,18 +112,22 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None) -> Surve
         progress(f"section: {key}")
         sec[key] = sections[key].estimate(parsed, ctx)
 
-    # One mask of usable draw columns for the whole field.
-    keep = np.ones(spec.draws, bool)
+    # One mask of usable draw columns for the whole field, under the run's one limit.
+    masks = {}
     for vr in vents:
-        for e in vr.methods.values():
-            keep &= np.isfinite(e.heat_power.magnitude) & (e.heat_power.magnitude > 0)
-    for s in sec.values():
+        for k, e in vr.methods.items():
+            masks[f"{vr.name}/{k}"] = np.isfinite(e.heat_power.magnitude) & (e.heat_power.magnitude > 0)
+    for k, s in sec.items():
         if s.category in ("focused", "diffuse", "conductive"):
-            keep &= np.all(np.isfinite(np.atleast_2d(s.heat_power.magnitude)), axis=0)
+            masks[k] = np.all(np.isfinite(np.atleast_2d(s.heat_power.magnitude)), axis=0)
+    keep = np.ones(spec.draws, bool)
+    for m in masks.values():
+        keep &= np.broadcast_to(m, keep.shape)
+    if not keep.all():
+        worst = min(masks, key=lambda k: int(np.count_nonzero(masks[k])))
+        policy.enforce(keep, worst, f"{int((~keep).sum())} of {spec.draws} draws of the field unusable",
+                       "draws (over the whole field)")
     dropped = int((~keep).sum())
-    if keep.sum() < max(100, 0.5 * spec.draws):
-        raise InputError("draws", f"{dropped} of {spec.draws} unusable",
-                         "input distributions whose draws are mostly physical (narrow the spreads)")
 
     progress("field totals and method comparison")
     for vr, v in zip(vents, spec.vents):
@@ -127,8 +142,9 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None) -> Surve
         if vr.exit_temperature is not None:
             vr.throughput = _throughput(vr, ctx, keep)
 
-    focused_items = [vr.heat_power.to("W") for vr in vents]
-    diffuse_items, conductive_items = [], []
+    focused_items: list[pint.Quantity] = [vr.heat_power.to("W") for vr in vents if vr.heat_power is not None]
+    diffuse_items: list[pint.Quantity] = []
+    conductive_items: list[pint.Quantity] = []
     for s in sec.values():
         if s.category in ("check", "context"):
             continue
@@ -148,12 +164,14 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None) -> Surve
 
     checks = _field_checks(sec, focused, diffuse, keep, spec.seed)
     water = _field_water(vents, sec, keep, spec.seed)
-    reservoirs = [_reservoir(r, vents, focused, diffuse, pressure, spec.seed) for r in spec.reservoirs]
+    reservoirs = [_reservoir(r, vents, focused, diffuse, pressure, spec.seed, policy) for r in spec.reservoirs]
     shared = {k: v for k, v in draws.describe().items() if k.startswith(("shared/", "site/"))}
     return SurveyResult(spec=spec, pressure=pressure, vents=vents, sections=sec, focused=focused, diffuse=diffuse,
                         conductive=conductive, total=total, split=split, water=water, reservoirs=reservoirs, dropped_draws=dropped,
                         n_draws=int(keep.sum()), elapsed=time.perf_counter() - t0, shared_inputs=shared,
-                        checks=checks, draws=draws, keep=keep)
+                        checks=checks, draws=draws, keep=keep,
+                        report_parts={**{k: methods[k].report for v in spec.vents for k in v.methods},
+                                      **{k: sections[k].report for k in spec.sections}})
 
 
 def _field_checks(sec, focused, diffuse, keep, seed):
@@ -208,8 +226,9 @@ def _field_water(vents, sec, keep, seed):
     return out
 
 
-def _reservoir(r, vents, focused, diffuse, pressure, seed):
-    from ..reservoir import reservoir_heat, reservoir_lifetime
+def _reservoir(r, vents, focused, diffuse, pressure, seed, policy=None):
+    """A reservoir hypothesis through ``summarizer.reservoir_answer``: the route of ``ventflux summarize reservoir``."""
+    from ..summarizer import reservoir_answer
 
     if r.supplies == "focused":
         P = focused.draws
@@ -224,15 +243,17 @@ def _reservoir(r, vents, focused, diffuse, pressure, seed):
         opts.setdefault("pressure", pressure)
     if "temperature" not in opts:
         opts.setdefault("porosity", 0.0)
-    heat = reservoir_heat(**opts)
-    life = reservoir_lifetime(P.to("W"), heat, size=r.size)
-    return {"name": r.name, "supplies": r.supplies, "heat": heat, "lifetime": life,
-            "mining": summarize(life.mining_time.to("year"), seed),
-            "decline": summarize(life.decline_time.to("year"), seed),
-            "conductive": float(np.atleast_1d(life.conductive_time.to("year").magnitude)[0]),
-            "controlling": _mode(life.controlling)}
+    limit = policy.max_share if policy is not None else UnphysicalPolicy.max_share
+    ans = reservoir_answer(P.to("W"), size=r.size, seed=seed, max_unphysical=limit, **opts)
+    mining = ans.outputs["heat_mining_time"][0].to("year")
+    decline = ans.outputs["decline_time"][0].to("year")
+    conductive = ans.outputs.get("conductive_time")
+    return {"name": r.name, "supplies": r.supplies, "answer": ans, "heat": _StoredHeat(ans.value("stored_heat")),
+            "mining": mining, "decline": decline,
+            "conductive": float(conductive[0].median.to("year").magnitude) if conductive else float("nan"),
+            "controlling": ans.labels["controlling"]}
 
 
-def _mode(labels):
-    vals, counts = np.unique(np.asarray(labels).ravel(), return_counts=True)
-    return str(vals[np.argmax(counts)])
+@dataclass(frozen=True)
+class _StoredHeat:
+    total: pint.Quantity  # J

@@ -4,7 +4,8 @@ Layout (every key is documented in ``ventflux survey --format``)::
 
     [site]            name, depth or pressure, latitude, longitude,
                       ambient_temperature, ambient_salinity, ctd (a CSV cast)
-    [run]             draws, seed
+    [run]             draws, seed, max_unphysical (share of draws dropped as
+                      physically impossible before the run refuses; 0.05)
     [shared]          named uncertain inputs drawn once per draw for every
                       value that refers to them as "@name"
     [[vent]]          one table per focused vent: name, exit_temperature,
@@ -74,6 +75,8 @@ class SurveySpec:
     reservoirs: list
     defaults_used: dict
     input_files: dict = field(default_factory=dict)
+    #: ``[run] max_unphysical``: largest share of draws dropped as impossible before the run refuses.
+    max_unphysical: float = 0.05
 
 
 def survey_components():
@@ -130,11 +133,15 @@ def load_survey(path) -> SurveySpec:
 
     site = _parse_site(top.sub("site", required=True), input_files)
     run = top.sub("run")
+    from ..uncertainty import DEFAULT_MAX_UNPHYSICAL
+
     draws = DEFAULT_DRAWS
     seed = None
+    max_unphysical = DEFAULT_MAX_UNPHYSICAL
     if run is not None:
         draws = run.number("draws", default=DEFAULT_DRAWS, minimum=100, maximum=1_000_000, integer=True)
         seed = run.number("seed", default=None, minimum=0, integer=True)
+        max_unphysical = run.number("max_unphysical", default=DEFAULT_MAX_UNPHYSICAL, minimum=0, maximum=0.99)
         run.check_unknown()
     from ..uncertainty import DEFAULT_SEED
 
@@ -178,7 +185,7 @@ def load_survey(path) -> SurveySpec:
     errs.raise_if_any()
     return SurveySpec(path=path, site=site, draws=int(draws), seed=int(seed), shared=shared, vents=vents,
                       sections=parsed_sections, reservoirs=reservoirs, defaults_used=defaults,
-                      input_files=input_files)
+                      input_files=input_files, max_unphysical=float(max_unphysical))
 
 
 def _guess_dimension(text: str) -> str:

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import importlib
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"  # the one version source (pyproject.toml reads it)
 
 _LAZY = {"fit_advection": "advection", "profile_velocity": "advection", "array_anomalies": "array",
          "ProbeConstants": "constants", "reduce_penetration": "probe", "reduce_station": "station"}

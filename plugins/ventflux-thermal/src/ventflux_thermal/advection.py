@@ -44,11 +44,11 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy import optimize
-from ventflux.errors import InputError
-from ventflux.properties import seawater_state
-from ventflux.tables import read_quantity_table
-from ventflux.uncertainty import Uncertain, nominal, parse_uncertain
-from ventflux.units import Q_, parse_quantity
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import seawater_state
+from ventflux.plugin_api import read_quantity_table
+from ventflux.plugin_api import Uncertain, nominal, parse_uncertain
+from ventflux.plugin_api import Q_, parse_quantity
 
 from .constants import DEFAULT_SALINITY  # noqa: F401  (re-exported: defined with the CLI's defaults)
 from .fitting import first_parameter_se, require_increasing
@@ -277,7 +277,7 @@ def profile_velocity(profile, conductivity="1.0 W/(m*K)", pressure=None, depth=N
     tuple of pint.Quantity
         ``(w, sd)``; a downflow gives ``w < 0``, which the diffuse estimator refuses.
     """
-    from ventflux.properties import pressure_from_depth
+    from ventflux.plugin_api import pressure_from_depth
 
     if profile is None:
         raise InputError("velocity source input", "(missing)", "a temperature-depth profile CSV (--source-input)")

@@ -28,9 +28,9 @@ from dataclasses import dataclass
 
 import numpy as np
 from scipy import interpolate, signal
-from ventflux.errors import InputError
-from ventflux.tables import read_quantity_table
-from ventflux.units import parse_column_name
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import read_quantity_table
+from ventflux.plugin_api import parse_column_name
 
 from .fitting import require_increasing
 

@@ -25,11 +25,11 @@ import sys
 from pathlib import Path
 
 import numpy as np
-from ventflux.cli.output import add_output_options, print_json, print_table, write_output
-from ventflux.errors import InputError, InputErrors
-from ventflux.io import atomic_write_text
-from ventflux.uncertainty import parse_uncertain
-from ventflux.units import Q_, parse_quantity
+from ventflux.plugin_api import add_output_options, print_json, print_table, write_output
+from ventflux.plugin_api import InputError, InputErrors
+from ventflux.plugin_api import atomic_write_text
+from ventflux.plugin_api import parse_uncertain
+from ventflux.plugin_api import Q_, parse_quantity
 
 from .constants import DEFAULT_SALINITY
 from .constants import METHODS, ProbeConstants
@@ -230,7 +230,7 @@ def configure_advection(p):
 
 
 def run_advection(args) -> int:
-    from ventflux.properties import pressure_from_depth
+    from ventflux.plugin_api import pressure_from_depth
 
     from .advection import fit_advection, read_profile
 

@@ -10,7 +10,7 @@ import matplotlib
 matplotlib.use("Agg")
 import matplotlib.pyplot as plt  # noqa: E402
 import numpy as np  # noqa: E402
-from ventflux.io import atomic_write_bytes  # noqa: E402
+from ventflux.plugin_api import atomic_write_bytes  # noqa: E402
 
 from .probe import PenetrationResult, ProbeConstants, frictional_model, pulse_model  # noqa: E402
 

@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
-from ventflux.errors import InputError
+from ventflux.plugin_api import InputError
 
 
 def require_increasing(values, lines, path, field: str, unit: str):

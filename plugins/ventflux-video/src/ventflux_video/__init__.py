@@ -15,4 +15,4 @@ package reports is in a right-handed frame with ``u`` to the right and ``w``
 *up* (against the row index), so a rising jet has ``w > 0``.
 """
 
-__version__ = "0.1.0"
+__version__ = "0.2.0"  # the one version source (pyproject.toml reads it)

@@ -23,8 +23,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ventflux.errors import InputError
-from ventflux.units import Q_, magnitude
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import Q_, magnitude
 
 from .correlation import VectorField, check_passes, displacement_field, pattern_width
 from .frames import frame_pairs

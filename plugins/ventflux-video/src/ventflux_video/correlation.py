@@ -51,8 +51,8 @@ import scipy.fft
 from numpy.lib.stride_tricks import sliding_window_view
 from scipy.interpolate import RegularGridInterpolator
 
-from ventflux.errors import InputError
-from ventflux.units import Q_, magnitude
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import Q_, magnitude
 
 #: Normalized median test: threshold and noise level (px) recommended in [3].
 MEDIAN_THRESHOLD = 2.0

@@ -40,8 +40,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.errors import InputError
-from ventflux.units import Q_, magnitude
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import Q_, magnitude
 
 VIDEO_SUFFIXES = (".mp4", ".mov", ".avi", ".mkv", ".m4v", ".mpg", ".mpeg", ".wmv", ".webm")
 IMAGE_SUFFIXES = (".png", ".tif", ".tiff", ".jpg", ".jpeg", ".bmp", ".pgm")

@@ -40,8 +40,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ventflux.errors import InputError
-from ventflux.units import Q_, magnitude, parse_quantity
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import Q_, magnitude, parse_quantity
 
 from .plume import DEFAULT_PLUME_CONSTANT, PlumeFit, buoyancy_flux_from_centreline, heat_power_from_buoyancy_flux
 from .sightline import DEFAULT_VIEW, DEFAULT_WIDTH_RATIO_RANGE, check_view

@@ -6,7 +6,7 @@ import io
 
 import numpy as np
 
-from ventflux.units import column_name, magnitude
+from ventflux.plugin_api import column_name, magnitude
 
 
 def _csv(columns):

@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from ventflux.hookspecs import hookimpl
-from ventflux.registry import Method, Reader, VelocitySource
+from ventflux.plugin_api import hookimpl
+from ventflux.plugin_api import Method, Reader, VelocitySource
 
 
 @hookimpl

@@ -49,8 +49,8 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.optimize import curve_fit
 
-from ventflux.errors import InputError
-from ventflux.units import Q_, magnitude
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import Q_, magnitude
 
 #: Published range of the centreline velocity constant of pure-plume theory, [3] to [2] (from memory).
 PLUME_CONSTANT_RANGE = (3.85, 4.7)
@@ -180,7 +180,7 @@ def gravity(latitude=None, pressure=None):
         return STANDARD_GRAVITY
     import gsw
 
-    from ventflux.properties.seawater import sea_pressure_dbar
+    from ventflux.plugin_api import sea_pressure_dbar
 
     lat = latitude.to("degree").magnitude if hasattr(latitude, "to") else float(latitude)
     p = 0.0 if pressure is None else sea_pressure_dbar(pressure)
@@ -208,8 +208,8 @@ def heat_power_from_buoyancy_flux(buoyancy_flux, temperature, salinity, pressure
     pint.Quantity
         Heat power in W.
     """
-    from ventflux.properties import seawater_state
-    from ventflux.properties.seawater import CP0
+    from ventflux.plugin_api import seawater_state
+    from ventflux.plugin_api import CP0
 
     f = magnitude(buoyancy_flux, "m^4/s^3", None, "buoyancy flux") if hasattr(buoyancy_flux, "to") else None
     if f is None:

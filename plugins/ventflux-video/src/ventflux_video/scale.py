@@ -20,8 +20,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ventflux.errors import InputError
-from ventflux.units import Q_, magnitude
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import Q_, magnitude
 
 
 def _check_length(length, field):

@@ -11,8 +11,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ventflux.errors import InputError
-from ventflux.units import Q_, parse_quantity
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import Q_, parse_quantity
 
 _QUANTITIES = {"metres_per_pixel": "length", "frame_rate": "frequency", "search_half_width": "length"}
 _INTS = ("gap", "pairs", "start", "stop", "exit_points")

@@ -28,7 +28,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.spatial import cKDTree
 
-from ventflux.errors import InputError
+from ventflux.plugin_api import InputError
 
 from .correlation import _resample, displacement_field, gaussian_peak_offset, window_grid
 

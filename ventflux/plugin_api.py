@@ -1,0 +1,161 @@
+"""The plugin API: everything a ventflux plugin may import, and nothing else.
+
+A plugin (a distribution with an entry point in the ``ventflux`` group)
+imports from this module only, so the core can reorganize its modules without
+breaking plugins; ``tests/test_layers.py`` checks the project's own plugins.
+A plugin declares the core versions it supports in its ``pyproject.toml``
+(``dependencies = ["ventflux>=0.2,<0.3"]``); ``API_VERSION`` is the version of
+this contract.
+
+What is here
+------------
+Hooks and descriptions
+    ``hookimpl`` (decorate hook functions), ``Method``, ``Command``,
+    ``FluidModelInfo``, ``Reader``, ``VelocitySource`` (what hooks return);
+    ``SurveyMethod``, ``SurveySection``, ``MethodEstimate``,
+    ``SectionEstimate``, ``ReportPart`` (survey methods and sections, and the
+    report titles, tables and figures they supply).
+Units and errors
+    ``ureg``, ``Q_``, ``parse_quantity``, ``magnitude``, ``require_dimension``,
+    ``column_name``, ``parse_column_name``; ``InputError``, ``InputErrors``,
+    ``Collector`` (bad input: one line naming the field, exit 2).
+Uncertainty (the one propagation driver)
+    ``Uncertain``, ``normal``, ``uniform``, ``lognormal``, ``from_mean_sd``,
+    ``parse_uncertain``, ``nominal``, ``SharedDraws``, ``propagate``,
+    ``Propagation``, ``UnphysicalPolicy``, ``summarize``, ``Summary``,
+    ``DEFAULT_DRAWS``, ``DEFAULT_SEED``, ``DEFAULT_MAX_UNPHYSICAL``.
+Survey values
+    ``resolve`` (draws of a survey value through the run's ``SharedDraws``),
+    ``nominal_of``, ``as_float``, ``SharedRef``.
+Properties
+    ``seawater_state``, ``pressure_from_depth``, ``sea_pressure_dbar``,
+    ``CP0``, ``fluid_model``, ``FluidModel``.
+Files and output
+    ``read_quantity_table``, ``atomic_write_text``, ``atomic_write_bytes``,
+    ``atomic_directory``,
+    ``add_output_options``, ``add_monte_carlo_options``,
+    ``monte_carlo_settings``, ``print_json``, ``print_table``, ``write_output``.
+Registry look-ups
+    ``velocity_from_source``, ``fluid_model_by_name``.
+"""
+
+from __future__ import annotations
+
+from .cli.montecarlo import add_monte_carlo_options, monte_carlo_settings
+from .cli.output import add_output_options, print_json, print_table, write_output
+from .errors import Collector, InputError, InputErrors
+from .hookspecs import hookimpl
+from .io import atomic_directory, atomic_write_bytes, atomic_write_text
+from .properties import FluidModel, fluid_model, pressure_from_depth, seawater_state
+from .properties.seawater import CP0, sea_pressure_dbar
+from .registry import (
+                          Command,
+                          FluidModelInfo,
+                          Method,
+                          Reader,
+                          VelocitySource,
+                          velocity_from_source,
+)
+from .registry import fluid_model as fluid_model_by_name
+from .survey.api import (
+                          MethodEstimate,
+                          ReportPart,
+                          SectionEstimate,
+                          SurveyMethod,
+                          SurveySection,
+)
+from .survey.fields import SharedRef, as_float, nominal_of, resolve
+from .tables import read_quantity_table
+from .uncertainty import (
+                          DEFAULT_DRAWS,
+                          DEFAULT_MAX_UNPHYSICAL,
+                          DEFAULT_SEED,
+                          Propagation,
+                          SharedDraws,
+                          Summary,
+                          Uncertain,
+                          UnphysicalPolicy,
+                          from_mean_sd,
+                          lognormal,
+                          nominal,
+                          normal,
+                          parse_uncertain,
+                          propagate,
+                          summarize,
+                          uniform,
+)
+from .units import (
+                          Q_,
+                          column_name,
+                          magnitude,
+                          parse_column_name,
+                          parse_quantity,
+                          require_dimension,
+                          ureg,
+)
+
+#: Version of this plugin contract (changes when a name here changes meaning or goes away).
+API_VERSION = "1"
+
+__all__ = [
+                          "API_VERSION",
+                          "CP0",
+                          "DEFAULT_DRAWS",
+                          "DEFAULT_MAX_UNPHYSICAL",
+                          "DEFAULT_SEED",
+                          "Q_",
+                          "Collector",
+                          "Command",
+                          "FluidModel",
+                          "FluidModelInfo",
+                          "InputError",
+                          "InputErrors",
+                          "Method",
+                          "MethodEstimate",
+                          "Propagation",
+                          "Reader",
+                          "ReportPart",
+                          "SectionEstimate",
+                          "SharedDraws",
+                          "SharedRef",
+                          "Summary",
+                          "SurveyMethod",
+                          "SurveySection",
+                          "Uncertain",
+                          "UnphysicalPolicy",
+                          "VelocitySource",
+                          "add_monte_carlo_options",
+                          "add_output_options",
+                          "as_float",
+                          "atomic_directory",
+                          "atomic_write_bytes",
+                          "atomic_write_text",
+                          "column_name",
+                          "fluid_model",
+                          "fluid_model_by_name",
+                          "from_mean_sd",
+                          "hookimpl",
+                          "lognormal",
+                          "magnitude",
+                          "monte_carlo_settings",
+                          "nominal",
+                          "nominal_of",
+                          "normal",
+                          "parse_column_name",
+                          "parse_quantity",
+                          "parse_uncertain",
+                          "pressure_from_depth",
+                          "print_json",
+                          "print_table",
+                          "propagate",
+                          "read_quantity_table",
+                          "require_dimension",
+                          "resolve",
+                          "sea_pressure_dbar",
+                          "seawater_state",
+                          "summarize",
+                          "uniform",
+                          "ureg",
+                          "velocity_from_source",
+                          "write_output",
+]
