@@ -3,6 +3,8 @@
 import json
 
 import numpy as np
+
+from ventflux.survey.budget import survey_budget
 import pytest
 
 from ventflux.cli import main
@@ -51,7 +53,7 @@ def test_a_total_dominated_by_one_shared_input_ranks_it_first(tmp_path):
     # By construction: every vent's size carries the shared 12 % scale error (power ∝ scale², about 24 %),
     # while each vent's own velocity and temperature errors are 1–2 %: the shared input owns the total's variance.
     result = run_survey(_survey(tmp_path))
-    b = result.budget()
+    b = survey_budget(result)
     field = b.indices["field total"]
     assert field.top(1) == ["shared/laser scale"]
     i = field.names.index("shared/laser scale")
@@ -100,8 +102,8 @@ def test_results_folder_carries_the_budget(tmp_path):
 @pytest.mark.slow
 def test_full_design_agrees_with_the_draws_on_the_dominant_input(tmp_path):
     result = run_survey(_survey(tmp_path, n_vents=2, draws=1000))
-    given = result.budget()
-    full = result.budget("full", base_draws=400)
+    given = survey_budget(result)
+    full = survey_budget(result, "full", base_draws=400)
     assert full.evaluations_multiple > 1
     g, f = given.indices["field total"], full.indices["field total"]
     assert f.top(1) == g.top(1) == ["shared/laser scale"]

@@ -7,9 +7,10 @@ are left out). Layers, from the bottom:
 
 0. ``units``, ``errors`` (and the package's ``__init__``)
 1. ``properties`` — equations of state; imports only layer 0
-2. ``uncertainty``, ``tables``, ``io``, ``profiles`` — inputs and their distributions
+2. ``uncertainty``, ``tables``, ``io``, ``profiles``, ``sensitivity`` — inputs, their distributions and
+   what their draws explain
 3. estimators: ``orifice``, ``diffuse``, ``plume``, ``reservoir``, ``ridge_flank``,
-   ``throughput``, ``aggregate``, ``summarizer``
+   ``throughput``, ``aggregate``, ``summarizer``, ``budget`` (of one estimate)
 4. the plugin contract: ``hookspecs``, ``registry``
 5. ``survey``
 6. ``cli`` and the plugin API (``plugin_api``)
@@ -27,9 +28,9 @@ PACKAGE = ROOT / "ventflux"
 LAYERS = [
     ("ventflux", "ventflux.units", "ventflux.errors"),
     ("ventflux.properties",),
-    ("ventflux.uncertainty", "ventflux.tables", "ventflux.io", "ventflux.profiles"),
+    ("ventflux.uncertainty", "ventflux.tables", "ventflux.io", "ventflux.profiles", "ventflux.sensitivity"),
     ("ventflux.orifice", "ventflux.diffuse", "ventflux.plume", "ventflux.reservoir", "ventflux.ridge_flank",
-     "ventflux.throughput", "ventflux.aggregate", "ventflux.summarizer"),
+     "ventflux.throughput", "ventflux.aggregate", "ventflux.summarizer", "ventflux.budget"),
     ("ventflux.hookspecs", "ventflux.registry"),
     ("ventflux.survey",),
     ("ventflux.cli", "ventflux.plugin_api"),

@@ -32,7 +32,6 @@ import pint
 from .errors import InputError
 from .properties.heat import SHORTCUT_HEAT_CAPACITY, ambient_enthalpy, shortcut_heat_content
 from .properties.seawater import (
-    CP0,
     REFERENCE_SALINITY,
     pressure_from_depth,
     seawater_state,

@@ -30,9 +30,12 @@ Survey values
 Properties
     ``seawater_state``, ``pressure_from_depth``, ``sea_pressure_dbar``,
     ``CP0``, ``fluid_model``, ``FluidModel``.
+Estimators
+    ``orifice_discharge``, ``in_situ_pressure``, ``diffuse_discharge`` (deterministic, vectorized).
 Files and output
     ``read_quantity_table``, ``atomic_write_text``, ``atomic_write_bytes``,
-    ``atomic_directory``,
+    ``results_directory`` (alias ``atomic_directory``), ``check_results_destination``, ``cache_dir``,
+    ``sha256_of``,
     ``add_output_options``, ``add_monte_carlo_options``,
     ``monte_carlo_settings``, ``print_json``, ``print_table``, ``write_output``.
 Registry look-ups
@@ -45,9 +48,20 @@ from .cli.montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .cli.output import add_output_options, print_json, print_table, write_output
 from .errors import Collector, InputError, InputErrors
 from .hookspecs import hookimpl
-from .io import atomic_directory, atomic_write_bytes, atomic_write_text
+from . import __version__ as CORE_VERSION
+from .diffuse import diffuse_discharge
+from .io import (
+    atomic_directory,
+    atomic_write_bytes,
+    atomic_write_text,
+    cache_dir,
+    check_results_destination,
+    results_directory,
+    sha256_of,
+)
+from .orifice import in_situ_pressure, orifice_discharge
 from .properties import FluidModel, fluid_model, pressure_from_depth, seawater_state
-from .properties.seawater import CP0, sea_pressure_dbar
+from .properties.seawater import CP0, STANDARD_ATMOSPHERE, sea_pressure_dbar
 from .registry import (
                           Command,
                           FluidModelInfo,
@@ -83,8 +97,10 @@ from .uncertainty import (
                           propagate,
                           summarize,
                           uniform,
+                          unit_tag,
 )
 from .units import (
+                          DIMENSIONS,
                           Q_,
                           column_name,
                           magnitude,
@@ -99,6 +115,17 @@ API_VERSION = "1"
 
 __all__ = [
                           "API_VERSION",
+                          "CORE_VERSION",
+                          "DIMENSIONS",
+                          "STANDARD_ATMOSPHERE",
+                          "cache_dir",
+                          "check_results_destination",
+                          "diffuse_discharge",
+                          "in_situ_pressure",
+                          "orifice_discharge",
+                          "results_directory",
+                          "sha256_of",
+                          "unit_tag",
                           "CP0",
                           "DEFAULT_DRAWS",
                           "DEFAULT_MAX_UNPHYSICAL",

@@ -21,6 +21,8 @@ from pathlib import Path
 
 import numpy as np
 
+from ventflux.survey.budget import survey_budget
+
 ROOT = Path(__file__).resolve().parents[2]
 
 
@@ -37,7 +39,7 @@ def survey_fraction(draws, repeats):
         result = run_survey(spec)
         t_run.append(time.perf_counter() - t0)
         t0 = time.perf_counter()
-        b = result.budget()
+        b = survey_budget(result)
         t_budget.append(time.perf_counter() - t0)
     r, bb = statistics.median(t_run), statistics.median(t_budget)
     print(f"demo survey, {spec.draws} draws, {len(b.inputs)} uncertain inputs, {len(b.indices)} results:")

@@ -39,6 +39,7 @@ import numpy as np
 
 from .. import sensitivity
 from ..errors import InputError
+from ..uncertainty import SharedDraws
 
 MODES = ("draws", "full", "off")
 #: The budget row of the variance share no single named input explains.
@@ -156,7 +157,7 @@ def input_draws(draws, keep=None) -> tuple[dict, dict]:
     for k, u in named.items():
         q = samples(k) if callable(samples) else shared.get(k)
         if q is None:  # per-item inputs are not kept; each name's own stream gives them again, exactly
-            q = u.sample(draws.n_draws, draws._rng(k))
+            q = u.sample(draws.n_draws, draws.rng(k))
         x = np.asarray(q.to(u.unit).magnitude, float)
         X[k] = x[keep] if keep is not None else x
         nominal[k] = float(u.nominal.to(u.unit).magnitude)
@@ -226,7 +227,7 @@ def _affects(name: str, vent) -> bool:
     return vent is None or name.startswith(f"{vent}/") or name.startswith(FIELD_WIDE)
 
 
-def survey_budget(result, mode: str = "draws", *, bootstrap: int = sensitivity.DEFAULT_BOOTSTRAP,
+def survey_budget(result, mode: str | None = None, *, bootstrap: int = sensitivity.DEFAULT_BOOTSTRAP,
                   base_draws: int | None = None, progress=lambda msg: None) -> SurveyBudget:
     """The uncertainty budget of a finished survey run (see the module notes for the modes).
 
@@ -234,12 +235,14 @@ def survey_budget(result, mode: str = "draws", *, bootstrap: int = sensitivity.D
     ----------
     result : SurveyResult
         A run of ``ventflux.survey.run.run_survey`` (it keeps its draws and kept columns).
-    mode : {"draws", "full"}
+    mode : {"draws", "full"}, optional
+        Default: the run's ``budget_mode`` (``"draws"`` unless the survey asked otherwise).
     bootstrap : int
         Bootstrap replicates for the indices' errors.
     base_draws : int, optional
         ``N`` of the dedicated design (mode ``"full"``).
     """
+    mode = mode or getattr(result, "budget_mode", "draws")
     if mode not in MODES[:2]:
         raise InputError("--budget", mode, "one of " + ", ".join(MODES))
     cache = result.__dict__.setdefault("_budgets", {})
@@ -312,19 +315,16 @@ def _full(result, given, named, nominal, bootstrap, base_draws, units, progress)
     return ind, multiple, notes
 
 
-class DesignDraws:
+class DesignDraws(SharedDraws):
     """Draws of a dedicated design, handed out by input name like the run's own draws.
 
     Every uncertain input of the first run gets its ``pick_freeze_design``
     column; an input not among them (none, for the same survey) is drawn
-    independently.
+    independently from its own named stream, as in any run.
     """
 
     def __init__(self, named: dict, n_base: int, seed: int, fixed: dict):
-        from ..aggregate import SharedDraws
-
-        self._plain = SharedDraws(n_base * sensitivity.design_cost(len(named), len(fixed)), seed)
-        self.n_draws, self.seed = self._plain.n_draws, self._plain.seed
+        super().__init__(n_base * sensitivity.design_cost(len(named), len(fixed)), seed)
         A = {k: v.sample(n_base, _stream(seed, k, 0)).magnitude for k, v in named.items()}
         B = {k: v.sample(n_base, _stream(seed, k, 1)).magnitude for k, v in named.items()}
         self._cols = sensitivity.pick_freeze_design(A, B, fixed)
@@ -333,25 +333,22 @@ class DesignDraws:
     def draw(self, name, value):
         from ..units import Q_
 
-        self._plain._register(name, value)
         if name in self._cols:
+            self._register(name, value)
             return Q_(self._cols[name], self._units[name])
-        return self._plain.draw(name, value)
+        return super().draw(name, value)
 
     def draw_each(self, names, values, unit=None):
         from ..units import Q_
 
         names, values = list(names), list(values)
-        out = self._plain.draw_each(names, values, unit)
+        out = super().draw_each(names, values, unit)
         unit = str(out.units)
         m = out.magnitude.copy()
         for i, k in enumerate(names):
             if k in self._cols:
                 m[i] = Q_(self._cols[k], self._units[k]).to(unit).magnitude
         return Q_(m, unit)
-
-    def __getattr__(self, item):  # names(), describe(), … as the plain draws
-        return getattr(self._plain, item)
 
 
 def _stream(seed, name, which):
@@ -434,7 +431,7 @@ def write_budget(result, out_dir, images_html) -> str:
                 "attribute to an input.</p>")
     b = survey_budget(result, mode)
     pd.DataFrame(b.rows()).to_csv(out_dir / "tables" / "budget.csv", index=False)
-    from ..cli.output import _clean
+    from ..io import json_ready as _clean
 
     (out_dir / "budget.json").write_text(json.dumps(_clean(b.as_dict()), indent=2, ensure_ascii=False) + "\n",
                                          encoding="utf-8")

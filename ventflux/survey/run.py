@@ -68,13 +68,7 @@ class SurveyResult:
     # Uncertainty budget (ventflux.survey.budget): the run's draws, its kept draw columns, the budget's mode.
     draws: object = None
     keep: object = None
-    budget_mode: str = "draws"
-
-    def budget(self, mode: str | None = None, **options):
-        """Which input owns the variance of each result (``ventflux.survey.budget.survey_budget``)."""
-        from .budget import survey_budget
-
-        return survey_budget(self, mode or self.budget_mode, **options)
+    budget_mode: str = "draws"  # what ``ventflux.survey.budget.survey_budget(result)`` does by default
 
 
 def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None) -> SurveyResult:

@@ -25,8 +25,8 @@ def configure(p):
 
 
 def run(args) -> int:
-    from ventflux.cli.output import print_json
-    from ventflux.errors import InputError
+    from ventflux.plugin_api import print_json
+    from ventflux.plugin_api import InputError
 
     from .manifest import read_manifest
     from .run import run_series
@@ -41,7 +41,7 @@ def run(args) -> int:
         return 0
     slug = "".join(c if c.isalnum() else "-" for c in m.name.lower()).strip("-") or "series"
     out = Path(args.out) if args.out else Path.cwd() / "ventflux-results" / slug
-    from ventflux.io import check_results_destination
+    from ventflux.plugin_api import check_results_destination
 
     check_results_destination(out, "--out")
     res = run_series(m, scheduler=args.scheduler, workers=args.workers, fresh=args.fresh, quiet=args.quiet,

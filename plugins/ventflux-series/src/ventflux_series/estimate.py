@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ventflux.units import Q_
+from ventflux.plugin_api import Q_
 
 #: Samples evaluated at once per chunk (times the draws): bounds a worker's memory whatever the record's length.
 CHUNK_SAMPLES = 4096
@@ -116,8 +116,8 @@ def _chunked(n_samples, starts):
 
 def _orifice_power(T_K, velocity, diameter, site):
     """Heat power [W] of an orifice for exit temperatures ``T_K`` (draws × samples); NaN where unphysical."""
-    from ventflux.orifice import orifice_discharge
-    from ventflux.properties import fluid_model
+    from ventflux.plugin_api import orifice_discharge
+    from ventflux.plugin_api import fluid_model
 
     model = fluid_model()
     Ta = site["ambient_temperature_K"]
@@ -133,7 +133,7 @@ def _orifice_power(T_K, velocity, diameter, site):
 
 
 def _diffuse_power(anomaly_K, area, fraction, velocity, site):
-    from ventflux.diffuse import diffuse_discharge
+    from ventflux.plugin_api import diffuse_discharge
 
     shape = anomaly_K.shape
     A, f, w = (np.broadcast_to(x, shape) for x in (area, fraction, velocity))
@@ -253,8 +253,8 @@ def _video(item, vent, draws, site, n, seed):
         from ventflux_video.propagation import jet_draws
     except ImportError:
         raise ItemFailure("the video methods need the ventflux-video plugin") from None
-    from ventflux.aggregate import SharedDraws
-    from ventflux.errors import InputError
+    from ventflux.plugin_api import SharedDraws
+    from ventflux.plugin_api import InputError
 
     s = np.asarray(draws["metres_per_pixel"], float)
     s_nom = float(np.median(s)) if np.ndim(s) else float(s)

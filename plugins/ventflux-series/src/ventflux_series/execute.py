@@ -40,8 +40,8 @@ def _digest(obj) -> str:
 
 def item_key(item, vent, site, draws, settings: dict) -> str:
     """Content key of an item's result: its file's bytes and every setting that affects it."""
-    from ventflux import __version__ as core_version
-    from ventflux.io import sha256_of
+    from ventflux.plugin_api import CORE_VERSION as core_version
+    from ventflux.plugin_api import sha256_of
 
     from . import __version__
 

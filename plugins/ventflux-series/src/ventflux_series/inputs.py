@@ -10,8 +10,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ventflux.aggregate import SharedDraws
-from ventflux.uncertainty import Uncertain
+from ventflux.plugin_api import SharedDraws
+from ventflux.plugin_api import Uncertain
 
 from .manifest import Manifest, SharedName
 
@@ -46,11 +46,11 @@ def series_input_draws(manifest: Manifest) -> tuple[dict[str, dict], dict[str, s
 
 def site_state(manifest: Manifest) -> dict:
     """The site as plain SI numbers: absolute pressure, ambient temperature, salinity, latitude."""
-    from ventflux.orifice import in_situ_pressure
+    from ventflux.plugin_api import in_situ_pressure
 
     s = manifest.site
     lat = s.get("latitude")
-    from ventflux.units import Q_
+    from ventflux.plugin_api import Q_
 
     p = in_situ_pressure(pressure=s.get("pressure"), depth=s.get("depth"),
                          latitude=None if lat is None else Q_(lat, "degree"))

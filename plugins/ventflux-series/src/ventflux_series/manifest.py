@@ -26,9 +26,9 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ventflux.errors import Collector, InputError
-from ventflux.uncertainty import Uncertain, parse_uncertain
-from ventflux.units import parse_quantity
+from ventflux.plugin_api import Collector, InputError
+from ventflux.plugin_api import Uncertain, parse_uncertain
+from ventflux.plugin_api import parse_quantity
 
 #: The methods an item can be estimated by, with what each needs (key: (dimension, required)).
 METHOD_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
@@ -185,7 +185,7 @@ def read_manifest(path) -> Manifest:
 
 def _guess_dimension(text: str) -> str:
     """The dimension a shared value's unit implies (shared inputs are typed by their unit)."""
-    from ventflux.units import ureg
+    from ventflux.plugin_api import ureg
 
     tail = text.split(")")[-1] if ")" in text else text.split()[-1] if len(text.split()) > 1 else ""
     try:

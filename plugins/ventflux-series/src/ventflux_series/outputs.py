@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.io import results_directory
+from ventflux.plugin_api import results_directory
 
 from .analysis import TIDAL_PERIODS_H, VentSeries
 

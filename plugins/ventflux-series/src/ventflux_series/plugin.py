@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
-from ventflux.hookspecs import hookimpl
-from ventflux.registry import Command, Method
+from ventflux.plugin_api import hookimpl
+from ventflux.plugin_api import Command, Method
 
 
 def _configure(p):

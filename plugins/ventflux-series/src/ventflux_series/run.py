@@ -27,7 +27,7 @@ class SeriesRun:
 
 
 def default_cache() -> Path:
-    from ventflux.io import cache_dir
+    from ventflux.plugin_api import cache_dir
 
     return cache_dir() / "series"
 

@@ -82,9 +82,9 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.errors import Collector, InputError
-from ventflux.uncertainty import Uncertain, nominal, parse_uncertain
-from ventflux.units import Q_, parse_quantity, ureg
+from ventflux.plugin_api import Collector, InputError
+from ventflux.plugin_api import Uncertain, nominal, parse_uncertain
+from ventflux.plugin_api import Q_, parse_quantity, ureg
 
 from .constants import METHODS, PROBE_FIELDS, ProbeConstants
 from .decay import cylinder_decay, cylinder_pulse_decay, cylinder_pulse_decay_and_slopes

@@ -22,8 +22,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.errors import Collector, InputError
-from ventflux.units import DIMENSIONS, Q_, parse_column_name, ureg
+from ventflux.plugin_api import Collector, InputError
+from ventflux.plugin_api import DIMENSIONS, Q_, parse_column_name, ureg
 
 from .fitting import require_increasing
 

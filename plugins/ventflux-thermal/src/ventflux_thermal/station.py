@@ -37,8 +37,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.errors import InputError
-from ventflux.units import Q_
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import Q_
 
 from .constants import METHODS, ProbeConstants
 from .probe import (
@@ -161,7 +161,7 @@ def read_navigation(path, start=None):
     """
     import csv
 
-    from ventflux.units import parse_column_name
+    from ventflux.plugin_api import parse_column_name
 
     path = Path(path)
     if not path.is_file():

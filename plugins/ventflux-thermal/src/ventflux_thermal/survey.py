@@ -38,11 +38,11 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.errors import InputError, InputErrors
-from ventflux.survey import SectionEstimate, SurveySection
-from ventflux.survey.fields import resolve
-from ventflux.uncertainty import normal, uniform
-from ventflux.units import Q_
+from ventflux.plugin_api import InputError, InputErrors
+from ventflux.plugin_api import SectionEstimate, SurveySection
+from ventflux.plugin_api import resolve
+from ventflux.plugin_api import normal, uniform
+from ventflux.plugin_api import Q_
 
 from .constants import METHODS, PROBE_FIELDS, ProbeConstants
 

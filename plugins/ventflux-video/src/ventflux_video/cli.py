@@ -13,11 +13,11 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.cli.output import add_output_options, print_json, print_table
-from ventflux.errors import InputError
-from ventflux.io import atomic_directory
-from ventflux.registry import Command
-from ventflux.units import parse_quantity
+from ventflux.plugin_api import add_output_options, print_json, print_table
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import atomic_directory
+from ventflux.plugin_api import Command
+from ventflux.plugin_api import parse_quantity
 
 
 def _pair(text, field, n=2):
@@ -92,7 +92,7 @@ def metres_per_pixel(args, field_clip=None):
 
 def pixel_scale(args, field_clip=None):
     """The pixel size and its relative error as a factor of nominal 1 (an ``Uncertain``, or None if exact)."""
-    from ventflux.uncertainty import Uncertain, nominal, parse_uncertain
+    from ventflux.plugin_api import Uncertain, nominal, parse_uncertain
 
     from .jet import check_scale
     from .scale import metres_per_pixel_from_laser_spots, metres_per_pixel_from_points
@@ -123,7 +123,7 @@ def pixel_scale(args, field_clip=None):
 
 def _relative(u):
     """An uncertain length as a factor of nominal 1 with the same relative standard deviation."""
-    from ventflux.uncertainty import Uncertain
+    from ventflux.plugin_api import Uncertain
 
     centre = u.nominal.magnitude
     if u.kind == "normal":
@@ -277,12 +277,12 @@ def configure_jet(p):
 
 def _uncertain_number(text, field, default):
     """A dimensionless option: ``None`` → ``default``; ``"4.7"`` or ``"uniform(3.85, 4.7)"`` parsed."""
-    from ventflux.uncertainty import parse_uncertain
+    from ventflux.plugin_api import parse_uncertain
 
     if text is None:
         return default
     value = parse_uncertain(str(text), "dimensionless", field)
-    from ventflux.uncertainty import nominal
+    from ventflux.plugin_api import nominal
 
     if not float(nominal(value).to("dimensionless").magnitude) > 0:
         raise InputError(field, text, "a value > 0")
@@ -290,9 +290,9 @@ def _uncertain_number(text, field, default):
 
 
 def run_jet(args) -> int:
-    from ventflux.aggregate import SharedDraws
-    from ventflux.properties import pressure_from_depth
-    from ventflux.uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, nominal, summarize
+    from ventflux.plugin_api import SharedDraws
+    from ventflux.plugin_api import pressure_from_depth
+    from ventflux.plugin_api import DEFAULT_DRAWS, DEFAULT_SEED, nominal, summarize
 
     from .jet import analyze_jet_clip
     from .outputs import field_figure, field_table, profile_figure, profile_table

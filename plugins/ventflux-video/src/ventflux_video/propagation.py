@@ -42,9 +42,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ventflux.survey.fields import as_float, nominal_of, resolve
-from ventflux.uncertainty import Uncertain
-from ventflux.units import Q_
+from ventflux.plugin_api import as_float, nominal_of, resolve
+from ventflux.plugin_api import Uncertain
+from ventflux.plugin_api import Q_
 
 from .plume import PLUME_CONSTANT_RANGE
 from .sightline import DEFAULT_WIDTH_RATIO_RANGE, centreline_displacement

@@ -52,7 +52,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from ventflux.errors import InputError
+from ventflux.plugin_api import InputError
 
 VIEWS = ("volume", "sheet")
 #: Default view for dive video: the camera sees the whole plume.

@@ -22,10 +22,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from ventflux.errors import InputError
-from ventflux.survey import MethodEstimate, SurveyMethod
-from ventflux.survey.fields import as_float, nominal_of
-from ventflux.units import Q_
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import MethodEstimate, SurveyMethod
+from ventflux.plugin_api import as_float, nominal_of
+from ventflux.plugin_api import Q_
 
 
 def _parse(f, ctx):

@@ -47,7 +47,7 @@ from dataclasses import dataclass
 import gsw
 import numpy as np
 
-from ventflux.errors import InputError
+from ventflux.plugin_api import InputError
 
 #: Robust standard deviation from the median absolute deviation (normal data) [3].
 MAD_TO_SD = 1.4826

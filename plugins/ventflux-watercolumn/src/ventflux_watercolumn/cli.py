@@ -16,12 +16,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from ventflux.cli.output import (
-    add_output_options,
-    print_json,
-    print_table,
-    write_output,
-)
+from ventflux.plugin_api import add_output_options, print_json, print_table, write_output
 
 DEFAULT_BIN = "5 m"
 
@@ -55,9 +50,9 @@ def configure(p):
 
 
 def _spec(args):
-    from ventflux.errors import Collector, InputError
-    from ventflux.uncertainty import parse_uncertain
-    from ventflux.units import parse_quantity
+    from ventflux.plugin_api import Collector, InputError
+    from ventflux.plugin_api import parse_uncertain
+    from ventflux.plugin_api import parse_quantity
 
     errs = Collector()
 
@@ -88,9 +83,9 @@ def _spec(args):
 def run(args) -> int:
     from types import SimpleNamespace
 
-    from ventflux.aggregate import SharedDraws
-    from ventflux.errors import InputError
-    from ventflux.io import atomic_write_bytes, atomic_write_text
+    from ventflux.plugin_api import SharedDraws
+    from ventflux.plugin_api import InputError
+    from ventflux.plugin_api import atomic_write_bytes, atomic_write_text
 
     from .section import draw_section, section_draws
     from .survey import analyse, summary_rows
@@ -134,8 +129,8 @@ def _payload(res, out, draws):
     """One JSON object, SI units in the keys (``heat_flux_W_p05``, ``rise_height_maximum_m_median``)."""
     import re
 
-    from ventflux.uncertainty import unit_tag
-    from ventflux.units import parse_column_name
+    from ventflux.plugin_api import unit_tag
+    from ventflux.plugin_api import parse_column_name
 
     from .survey import summaries
 

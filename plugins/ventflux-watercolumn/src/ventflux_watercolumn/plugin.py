@@ -6,8 +6,8 @@ matplotlib are imported where they are used.
 
 from __future__ import annotations
 
-from ventflux.hookspecs import hookimpl
-from ventflux.registry import Command, Method, Reader
+from ventflux.plugin_api import hookimpl
+from ventflux.plugin_api import Command, Method, Reader
 
 
 @hookimpl

@@ -46,8 +46,8 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.errors import Collector, InputError
-from ventflux.units import ureg
+from ventflux.plugin_api import Collector, InputError
+from ventflux.plugin_api import ureg
 
 #: Mean Earth radius, m [2].
 EARTH_RADIUS = 6_371_008.8
@@ -131,7 +131,7 @@ def read_section(path, latitude=None, longitude=None) -> SectionData:
 
 
 def _read_csv(path):
-    from ventflux.tables import read_quantity_table
+    from ventflux.plugin_api import read_quantity_table
 
     t = read_quantity_table(
         path, {"time": "time", "pressure": "pressure", "temperature": "temperature", "salinity": "dimensionless"},
@@ -191,9 +191,7 @@ def _read_netcdf(path):
                                     where=str(path)))
                 continue
             if key == "pressure" and da.attrs["standard_name"] == "sea_water_pressure":
-                from ventflux.properties.seawater import (
-                    STANDARD_ATMOSPHERE,  # sea pressure = absolute − 1 atm
-                )
+                from ventflux.plugin_api import STANDARD_ATMOSPHERE
 
                 values = values - STANDARD_ATMOSPHERE / 1e4
             cols[key] = values

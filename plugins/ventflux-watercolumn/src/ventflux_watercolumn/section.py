@@ -32,10 +32,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ventflux.errors import InputError
-from ventflux.properties.seawater import (
-    CP0,  # TEOS-10's c_p0, J/(kg K), defined once in the core
-)
+from ventflux.plugin_api import InputError
+from ventflux.plugin_api import CP0
 
 from . import anomaly as an
 from .flux import (
@@ -317,9 +315,9 @@ def section_draws(draws, key, n_profiles, current=None, current_direction=None, 
     current, current_direction, current_uncertainty, vent_depth
         Survey values (quantities, ``Uncertain`` or ``SharedRef``), or None.
     """
-    from ventflux.survey.fields import nominal_of, resolve
-    from ventflux.uncertainty import uniform
-    from ventflux.units import Q_
+    from ventflux.plugin_api import nominal_of, resolve
+    from ventflux.plugin_api import uniform
+    from ventflux.plugin_api import Q_
 
     n = draws.n_draws
     u = draws.draw_each([f"{key}/profile bootstrap {i + 1}" for i in range(n_profiles)],
@@ -339,7 +337,7 @@ def section_draws(draws, key, n_profiles, current=None, current_direction=None, 
                                                                               "degree"))}
     out["current_uncertainty"] = None
     if current_uncertainty is not None:  # a measured current's error along the normal: one offset per draw
-        from ventflux.uncertainty import normal
+        from ventflux.plugin_api import normal
 
         sd = current_uncertainty.to("m/s")
         out["current_uncertainty"] = draws.draw(f"{key}/current offset", normal(Q_(0.0, "m/s"), sd)).to(

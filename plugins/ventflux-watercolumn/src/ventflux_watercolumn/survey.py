@@ -29,9 +29,9 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.errors import InputError, InputErrors
-from ventflux.survey import SectionEstimate, SurveySection
-from ventflux.units import Q_
+from ventflux.plugin_api import InputError, InputErrors
+from ventflux.plugin_api import SectionEstimate, SurveySection
+from ventflux.plugin_api import Q_
 
 from .section import LEVELS as LEVEL_NAMES
 from .section import TRACERS
@@ -85,7 +85,7 @@ def _parse(f, ctx):
 
 def analyse(spec, site):
     """Read and analyse the section named by a parsed ``[water_column]`` table (nominal values)."""
-    from ventflux.survey.fields import nominal_of
+    from ventflux.plugin_api import nominal_of
 
     from .reading import read_section
     from .section import analyse_section
@@ -109,7 +109,7 @@ def rise_height(path, level="maximum", site=None):
     ``level`` ``maximum`` is the layer's mean top, ``spreading`` its mean core, each above the site's depth;
     the uncertainty is ``SectionAnalysis.height_sd``. Returns a normal ``Uncertain`` (m).
     """
-    from ventflux.uncertainty import normal
+    from ventflux.plugin_api import normal
 
     depth = getattr(site, "depth", None)
     if depth is None:
@@ -150,7 +150,7 @@ def _estimate(spec, ctx):
 
 def summaries(res, out) -> dict:
     """Monte Carlo summaries (``ventflux.uncertainty.Summary``) by name: heat flux (W), its parts, rise heights (m)."""
-    from ventflux.uncertainty import summarize
+    from ventflux.plugin_api import summarize
 
     def summ(draws, unit):
         d = np.asarray(draws, float)
