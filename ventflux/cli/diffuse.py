@@ -32,7 +32,7 @@ from ..diffuse import (
 )
 from ..errors import InputError
 from ..properties.seawater import pressure_from_depth
-from ..registry import Command, Method
+from ..registry import Method
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain, summarize
 from ..units import Q_, parse_quantity
 from ..properties.seawater import REFERENCE_SALINITY
@@ -253,13 +253,6 @@ def _scale_up(args, inputs, dr):
             **_summary(su.total_volume_flux, "m^3/s", "volume_flux", args.seed),
             "note": "class heat flux per unit area = ΣH/ΣA of its sampled patches, bootstrapped over patches"}
 
-
-COMMAND = Command(
-    name="diffuse",
-    help="heat and water discharge of diffuse-flow patches (TEOS-10 enthalpy), with scale-up to mapped areas",
-    configure=configure,
-    run=run,
-)
 
 METHODS = [
     Method(

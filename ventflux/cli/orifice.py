@@ -6,7 +6,7 @@ import sys
 
 from ..errors import Collector, InputError
 from ..orifice import DEFAULT_AMBIENT_SALINITY
-from ..registry import Command, Method
+from ..registry import Method
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
 from .output import add_output_options, print_json
 
@@ -176,8 +176,6 @@ def _print_readable(result, summaries, draws, seed, out=None):
         out.write(f"Monte Carlo: {draws} draws, seed {seed}; value column is the nominal estimate.\n")
 
 
-COMMAND = Command(name="orifice", help="heat, mass and volume discharge of one vent orifice", configure=configure,
-                  run=run)
 METHODS = [Method(name="orifice", summary="exit temperature, velocity and orifice size → heat power with "
                                           "IAPWS-95 enthalpy difference; constant-cp shortcut beside it",
                   estimates="heat power, mass flux, volume flux",

@@ -9,7 +9,7 @@ import numpy as np
 
 from ..errors import Collector, InputError
 from ..properties.seawater import STANDARD_ATMOSPHERE
-from ..registry import Command, Method
+from ..registry import Method
 from ..uncertainty import DEFAULT_DRAWS, DEFAULT_SEED, Uncertain, parse_uncertain
 from ..units import Q_, column_name, parse_quantity
 from .output import add_output_options, print_json, write_output
@@ -297,8 +297,6 @@ def _write_track(res, path):
     atomic_write_text(path, "\n".join(lines) + "\n")
 
 
-COMMAND = Command(name="plume-rise", help="heat power from a plume's rise height in a measured stratification "
-                                          "(or rise height from heat power)", configure=configure, run=run)
 METHODS = [
     Method(name="plume-rise-integral",
            summary="rise height ↔ heat power with a top-hat integral plume model on TEOS-10 densities, "
