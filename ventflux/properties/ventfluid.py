@@ -9,12 +9,16 @@ lower heat capacity of saline water); densities differ by a few percent too.
 A brine model can be added as a plugin through the ``ventflux_fluid_models``
 hook (see DEVELOPERS.md).
 
-Speed: CoolProp solves the Helmholtz equation for density at every (T, p)
-point (about 20–30 µs a point). ``IAPWS95Water`` instead evaluates bicubic
-splines on a table of direct IAPWS-95 values built once and cached on disk,
-and falls back to direct evaluation in the narrow bands where a spline cannot
-follow the fluid (next to the saturation curve and around the critical
-point). ``tests/benchmarks/bench_properties.py`` measures speed and error.
+Speed: ``IAPWS95Water`` evaluates bicubic splines on a table of IAPWS-95
+values built once per machine and cached on disk, and solves directly the
+narrow bands where a spline cannot follow the fluid (next to the saturation
+curve and around the critical point). The table and the direct solves use
+the explicit, vectorized Helmholtz-energy evaluation in
+``ventflux.properties.iapws95`` (the table builds in well under two seconds);
+the saturation check uses the release's auxiliary saturation equation. So a
+check or a tabulated point never imports CoolProp; it serves the
+``iapws95-water-direct`` model and the tests.
+``tests/benchmarks/bench_properties.py`` measures speed and error.
 
 References
 ----------
@@ -37,6 +41,7 @@ from typing import Protocol
 import numpy as np
 
 from ..errors import InputError
+from . import iapws95
 
 DEFAULT_MODEL = "iapws95-water"
 
@@ -105,7 +110,7 @@ _P_NODES = np.unique(np.concatenate([
     np.arange(22.25e6, 45e6, 0.25e6),
     np.arange(45e6, 100e6 + 1, 1e6),
 ]))
-_TABLE_VERSION = "3"
+_TABLE_VERSION = "4"
 # The supercritical table starts a little below the critical pressure with
 # true (vapour-like) nodes; the subcritical one ends at it. Points in the seam
 # lie in the near-critical box and are solved directly.
@@ -118,31 +123,21 @@ _CRIT_BOX_T = (12.0, 20.0)  # below, above the critical temperature
 _CRIT_BOX_P = (2.5e6, 4.0e6)  # below, above the critical pressure
 
 
-def _saturation_temperature_direct(p):
-    CP = _coolprop()
-    p = np.atleast_1d(np.asarray(p, float))
-    out = np.full(p.shape, np.nan)
-    sub = (p < P_CRIT) & (p >= P_MIN)
-    if sub.any():
-        out[sub] = CP.PropsSI("T", "P", p[sub], "Q", 0, "Water")
-    return out
-
-
 def _cache_dir() -> Path:
-    root = os.environ.get("VENTFLUX_CACHE") or os.path.join(
-        os.environ.get("XDG_CACHE_HOME") or os.path.expanduser("~/.cache"), "ventflux")
-    return Path(root)
+    from ..cachedir import cache_dir
+
+    return cache_dir()
 
 
 def _table_key():
-    CP = _coolprop()
-    tag = f"{_TABLE_VERSION}|{CP.get_global_param_string('version')}|{_T_NODES.size}|{_P_NODES.size}"
-    tag += f"|{_T_NODES[0]:.6f}|{_T_NODES[-1]:.6f}|{_P_NODES[0]:.1f}|{_P_NODES[-1]:.1f}"
+    """Hash of everything the table's values depend on: its version, the formulation's code and the grid."""
+    tag = f"{_TABLE_VERSION}|{iapws95.FORMULATION}|{_T_NODES.size}|{_P_NODES.size}"
+    tag += "|" + hashlib.sha256(_T_NODES.tobytes() + _P_NODES.tobytes()).hexdigest()
     return hashlib.sha256(tag.encode()).hexdigest()[:16]
 
 
-def _build_table():
-    """Direct IAPWS-95 values on the grid; vapour nodes continued from the liquid side.
+def _build_table(progress=None):
+    """IAPWS-95 values on the grid; vapour nodes continued from the liquid side.
 
     Below the critical pressure the nodes above the saturation temperature lie
     in the vapour; a spline through the liquid-vapour jump would ring into the
@@ -151,24 +146,51 @@ def _build_table():
     liquid side. Points near saturation are never read from the table anyway.
     """
     TT, PP = np.meshgrid(_T_NODES, _P_NODES, indexing="ij")
-    tsat = _saturation_temperature_direct(_P_NODES)
+    tsat = iapws95.saturation_temperature(_P_NODES)
     vapour = np.isfinite(tsat)[None, :] & (TT >= tsat[None, :] - 0.5)
     h = np.empty(TT.shape)
     d = np.empty(TT.shape)
     liq = ~vapour
-    h[liq], d[liq] = _direct(TT[liq], PP[liq])
-    for j in np.flatnonzero(np.isfinite(tsat)):
+    # the continuation's two liquid states per subcritical isobar are solved with the nodes
+    cols = np.flatnonzero(np.isfinite(tsat) & vapour.any(axis=0))
+    ts = tsat[cols] - 0.5
+    T_all = np.concatenate([TT[liq], ts, ts - 0.5])
+    p_all = np.concatenate([PP[liq], _P_NODES[cols], _P_NODES[cols]])
+    if progress is not None:
+        progress(f"building the IAPWS-95 property table ({T_all.size:,} states, once per machine) ...")
+    # Starting densities: solve every 8th temperature of the grid from scratch, interpolate between
+    # them along each isobar; the full grid then needs two or three Newton steps a node.
+    coarse = np.zeros(TT.shape, bool)
+    coarse[::8] = True
+    coarse[-1] = True
+    coarse &= liq
+    rho_c = np.full(TT.shape, np.nan)
+    rho_c[coarse] = iapws95.density(TT[coarse], PP[coarse])
+    guess = np.full(TT.shape, np.nan)
+    for j in range(TT.shape[1]):
+        ok = np.isfinite(rho_c[:, j])
+        if ok.sum() >= 2:
+            guess[:, j] = np.interp(_T_NODES, _T_NODES[ok], rho_c[ok, j])
+    g_cols = guess[np.clip(np.searchsorted(_T_NODES, ts), 0, _T_NODES.size - 1), cols]
+    h_all, d_all = iapws95.enthalpy_density(T_all, p_all, guess=np.concatenate([guess[liq], g_cols, g_cols]))
+    if not (np.isfinite(h_all).all() and np.isfinite(d_all).all()):
+        raise RuntimeError("IAPWS-95 table build: the density iteration failed at some nodes")
+    n = int(liq.sum())
+    h[liq], d[liq] = h_all[:n], d_all[:n]
+    h0, hm = h_all[n:n + cols.size], h_all[n + cols.size:]
+    d0, dm = d_all[n:n + cols.size], d_all[n + cols.size:]
+    for k, j in enumerate(cols):
         col = vapour[:, j]
-        if not col.any():
-            continue
-        ts = tsat[j] - 0.5
-        p = _P_NODES[j]
-        h0, d0 = _direct(ts, p)
-        hm, dm = _direct(ts - 0.5, p)
-        dT = TT[col, j] - ts
-        h[col, j] = h0[0] + (h0[0] - hm[0]) / 0.5 * dT
-        d[col, j] = d0[0] + (d0[0] - dm[0]) / 0.5 * dT
+        dT = TT[col, j] - ts[k]
+        h[col, j] = h0[k] + (h0[k] - hm[k]) / 0.5 * dT
+        d[col, j] = d0[k] + (d0[k] - dm[k]) / 0.5 * dT
     return h, d
+
+
+def _say(message):
+    import sys
+
+    print(f"ventflux: {message}", file=sys.stderr, flush=True)
 
 
 def _load_table():
@@ -179,21 +201,15 @@ def _load_table():
                 return z["h"], z["d"]
         except Exception:  # a damaged cache is rebuilt, never trusted
             pass
-    h, d = _build_table()
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f"{path.stem}.{os.getpid()}.part.npz")
-    np.savez(tmp, h=h, d=d)
-    os.replace(tmp, path)
+    h, d = _build_table(progress=_say)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        tmp = path.with_name(f"{path.stem}.{os.getpid()}.part.npz")
+        np.savez(tmp, h=h, d=d)
+        os.replace(tmp, path)
+    except OSError as exc:  # an unwritable cache costs a rebuild next time, not the result
+        _say(f"could not cache the property table in {path.parent} ({exc}); it will be rebuilt next time")
     return h, d
-
-
-@functools.lru_cache(maxsize=1)
-def _saturation_spline():
-    """Saturation temperature against log pressure, from direct IAPWS-95 values."""
-    from scipy.interpolate import CubicSpline
-
-    grid = np.geomspace(P_MIN, P_CRIT * (1 - 1e-9), 600)
-    return CubicSpline(np.log(grid), _saturation_temperature_direct(grid))
 
 
 class IAPWS95Water:
@@ -218,17 +234,18 @@ class IAPWS95Water:
         self.tabulated = tabulated
         self.allow_vapour = allow_vapour
         self._splines = None
-        self._tsat = None
 
     # -- phase and validity ---------------------------------------------------
     def saturation_temperature(self, p):
-        """Saturation temperature [K] at pressure ``p`` [Pa]; NaN at or above the critical pressure."""
+        """Saturation temperature [K] at pressure ``p`` [Pa]; NaN at or above the critical pressure.
+
+        From the auxiliary saturation equation of IAPWS SR1-86(1992), within a
+        few millikelvin of IAPWS-95's own phase equilibrium.
+        """
         p = np.asarray(p, float)
-        if self._tsat is None:
-            self._tsat = _saturation_spline()
         out = np.full(p.shape, np.nan)
         sub = (p < P_CRIT) & (p >= P_MIN)
-        out[sub] = self._tsat(np.log(p[sub]))
+        out[sub] = iapws95.saturation_temperature(p[sub])
         return out
 
     def valid(self, T, p):
