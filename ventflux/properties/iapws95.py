@@ -281,8 +281,10 @@ def density(T, p, guess=None, iso: Isotherms | None = None):
         Starting densities [kg/m³]. Without one the iteration starts from
         1100 kg/m³, above every single-phase root at these pressures, and
         descends the liquid branch (or, above the critical temperature, the
-        one branch) with bisection as a safeguard; a point below the critical
-        temperature in the vapour is therefore not found (NaN).
+        one branch) with bisection as a safeguard. Below the critical
+        temperature only the liquid branch is followed: a point in the vapour
+        region gives the superheated liquid (check the phase first, as
+        ``IAPWS95Water.check`` does).
     iso : Isotherms, optional
         Precomputed τ-parts for ``T`` (reused by ``enthalpy_density``).
 
