@@ -115,8 +115,8 @@ _TABLE_VERSION = "6"
 # the saturation temperature below the critical pressure, and in a box around
 # the critical point. Chosen from the benchmark's error map.
 _SAT_BAND = 4.0
-_CRIT_BOX_T = (12.0, 20.0)  # below, above the critical temperature
-_CRIT_BOX_P = (2.5e6, 4.0e6)  # below, above the critical pressure
+_CRIT_BOX_T = (12.0, 30.0)  # below, above the critical temperature
+_CRIT_BOX_P = (2.5e6, 8.0e6)  # below, above the critical pressure
 
 
 def _cache_dir() -> Path:
@@ -411,8 +411,17 @@ class IAPWS95Water:
         return h.reshape(shape), d.reshape(shape)
 
     def _solve(self, T, p):
-        """Points the table cannot follow, solved from the explicit IAPWS-95 (CoolProp where that fails)."""
-        h, d = iapws95.enthalpy_density(T, p)
+        """Points the table cannot follow, solved from the explicit IAPWS-95 (CoolProp where that fails).
+
+        The table's density, close even where it is not accurate enough, starts the iteration.
+        """
+        guess = np.full(T.shape, np.nan)
+        inside = (T >= _T_NODES[0]) & (T <= _T_NODES[-1]) & (p >= _P_NODES[0]) & (p <= _P_NODES[-1])
+        for patches, part in zip(self._spline(), (p < P_CRIT, p >= P_CRIT)):
+            sel = inside & part
+            if sel.any():
+                guess[sel] = patches(T[sel], p[sel])[1]
+        h, d = iapws95.enthalpy_density(T, p, guess=guess)
         bad = ~(np.isfinite(h) & np.isfinite(d))
         if self.allow_vapour:  # the explicit solver follows the liquid branch only below T_c
             ts = self.saturation_temperature(p)
