@@ -366,24 +366,52 @@ def saturation_pressure(T):
     return np.where(T < T_CRIT, P_CRIT * np.exp(T_CRIT / np.minimum(T, T_CRIT) * s), np.nan)
 
 
-def saturation_temperature(p):
-    """Saturation temperature [K] at ``p`` [Pa] below the critical pressure (NaN elsewhere), inverting [3] eq. 1."""
-    p = np.asarray(p, float)
-    sub = (p > 0) & (p < P_CRIT)
-    T = np.full(p.shape, np.nan)
-    if not sub.any():
-        return T
-    ps = p[sub]
-    # start from a Clausius-Clapeyron-like straight line in 1/T against log p, then Newton on log p
-    x = np.log(ps / P_CRIT)
-    t = T_CRIT / (1.0 - x / 7.5)
-    for _ in range(30):
-        f = np.log(saturation_pressure(t) / ps)
-        h = 1e-4
-        df = (np.log(saturation_pressure(t + h) / ps) - np.log(saturation_pressure(t - h) / ps)) / (2 * h)
-        step = f / df
+def _saturation_slope(T):
+    """d ln p_sat / dT [1/K] of [3] eq. 1 at ``T`` [K] < T_c."""
+    theta = 1.0 - T / T_CRIT
+    s = sum(a * theta ** e for a, e in zip(_A_SAT, _E_SAT))
+    ds = sum(a * e * theta ** (e - 1.0) for a, e in zip(_A_SAT, _E_SAT))
+    return -(T_CRIT / T * s + ds) / T
+
+
+def _saturation_temperature_newton(p):
+    """Invert [3] eq. 1 by Newton iteration on ln p (to 1e-12 K)."""
+    x = np.log(p / P_CRIT)
+    t = T_CRIT / (1.0 - x / 7.5)  # start: a straight line in 1/T against ln p
+    t = np.clip(t, 250.0, T_CRIT - 1e-6)
+    for _ in range(50):
+        step = (np.log(saturation_pressure(t) / p)) / _saturation_slope(t)
         t = np.clip(t - step, 200.0, T_CRIT - 1e-9)
-        if np.all(np.abs(step) < 1e-10):
+        if np.all(np.abs(step) < 1e-12):
             break
-    T[sub] = t
-    return T
+    return t
+
+
+# Saturation temperature against ln p on nodes, for cubic Hermite interpolation (slopes from the
+# equation itself): built once at import; within 1e-6 K of the exact inverse up to 22.0 MPa and 2e-4 K in the
+# last 0.06 MPa below the critical pressure (checked in the tests), far below [3]'s own uncertainty.
+_SAT_LNP = np.linspace(np.log(611.0), np.log(P_CRIT), 4001)
+_SAT_T = _saturation_temperature_newton(np.exp(_SAT_LNP))
+_SAT_SLOPE = 1.0 / _saturation_slope(_SAT_T)  # dT / d ln p
+_SAT_SLOPE[-1] = _SAT_SLOPE[-2]  # the equation's slope at T_c itself; the last cell ends at p_c
+
+
+def saturation_temperature(p):
+    """Saturation temperature [K] at ``p`` [Pa] from 611 Pa up to the critical pressure (NaN elsewhere).
+
+    The inverse of [3] eq. 1, interpolated (cubic Hermite in ln p) from nodes solved once.
+    """
+    p = np.asarray(p, float)
+    out = np.full(p.shape, np.nan)
+    sub = (p >= 611.0) & (p < P_CRIT)
+    if not sub.any():
+        return out
+    x = np.log(p[sub])
+    h = _SAT_LNP[1] - _SAT_LNP[0]
+    i = np.clip(((x - _SAT_LNP[0]) / h).astype(int), 0, _SAT_LNP.size - 2)
+    t = (x - _SAT_LNP[i]) / h
+    t2 = t * t
+    v1 = t2 * (3.0 - 2.0 * t)
+    out[sub] = ((1.0 - v1) * _SAT_T[i] + v1 * _SAT_T[i + 1]
+                + h * ((t2 * t - 2.0 * t2 + t) * _SAT_SLOPE[i] + (t2 * t - t2) * _SAT_SLOPE[i + 1]))
+    return out
