@@ -8,7 +8,15 @@ quantities from ``ventflux.units``.
 
 from importlib import metadata as _metadata
 
-from .units import Q_, ureg  # noqa: F401
+
+def __getattr__(name):
+    # ``ventflux.ureg`` and ``ventflux.Q_`` load pint on first use, so that ``ventflux --help`` stays light.
+    if name in ("ureg", "Q_"):
+        from . import units
+
+        return getattr(units, name)
+    raise AttributeError(f"module 'ventflux' has no attribute {name!r}")
+
 
 try:
     __version__ = _metadata.version("ventflux")
