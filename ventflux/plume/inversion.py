@@ -50,6 +50,10 @@ TOLERANCE = 1e-6
 LOOSE_TOLERANCE = 1e-4
 #: Secant sweeps before a member that has not converged is given up (NaN, counted in ``failed``).
 MAX_ITERATIONS = 20
+#: From this many draws on, a rise height without a current is inverted on a forward emulator built once
+#: for the column (``ventflux.plume.emulator``), the rest integrated; below it every draw is integrated
+#: (building the emulator costs about as much as integrating a thousand draws; a choice made here).
+EMULATOR_MIN_DRAWS = 1000
 
 
 @dataclass(frozen=True)
@@ -82,6 +86,9 @@ class PlumeRiseResult:
     summary: dict = field(default_factory=dict)
     nominal: "PlumeRiseResult | None" = None
     track: dict | None = None
+    #: Worst measured interpolation error (in log rise height) of the forward emulator, when the draws were
+    #: inverted on one (``ventflux.plume.emulator``); None when every draw was integrated.
+    emulator_error: float | None = None
 
 
 # --------------------------------------------------------------------------- set-up
@@ -301,6 +308,49 @@ def _invert_integral(column, target, level, alpha, scale, U, shape):
     return Fout, out
 
 
+def _invert_many(column, z, level, alpha, scale, U, shape):
+    """(F, fields, emulator error or None): the emulator for many draws without a current, else the secant.
+
+    Draws the emulator cannot answer (outside its grid, next to a plume that
+    escapes the column) are integrated like any other.
+    """
+    n = z.size
+    if U is not None or n < EMULATOR_MIN_DRAWS or not np.isfinite(z).any():
+        return (*_invert_integral(column, z, level, alpha, scale, U, shape), None)
+    from . import emulator
+
+    a = np.broadcast_to(np.asarray(alpha, float), (n,))
+    sc = np.broadcast_to(np.asarray(scale, float), (n,))
+    usable = np.isfinite(z) & (z > 0) & np.isfinite(a) & (a > 0) & np.isfinite(sc) & (sc > 0)
+    if not usable.any():
+        return (*_invert_integral(column, z, level, alpha, scale, U, shape), None)
+    emu = emulator.build(column, z[usable], a[usable], sc[usable], level)
+    if emu is None:
+        return (*_invert_integral(column, z, level, alpha, scale, U, shape), None)
+    logF = np.full(n, np.nan)
+    logF[usable] = emu.invert(z[usable], a[usable], sc[usable])
+    got = np.isfinite(logF)
+    F = np.exp(logF)
+    fields = {k: np.full(n, np.nan) for k in ("zt", "zs", "xt", "xs", "Qs", "dTs")}
+    other = "spreading" if level == "maximum" else "maximum"
+    args = (logF[got], a[got], sc[got])
+    fields["zt" if level == "maximum" else "zs"][got] = z[got]
+    fields["zs" if level == "maximum" else "zt"][got] = emu.field(other, *args)
+    fields["Qs"][got] = emu.field("volume_flux", *args)
+    fields["dTs"][got] = emu.field("anomaly", *args)
+    fields["xt"][got] = 0.0
+    fields["xs"][got] = 0.0
+    rest = usable & ~got
+    if rest.any():
+        idx = np.flatnonzero(rest)
+        F_r, f_r = _invert_integral(column, z[idx], level, a[idx], sc[idx], None, shape)
+        F[idx] = F_r
+        for k, v in f_r.items():
+            fields[k][idx] = v
+    F[~usable] = np.nan
+    return F, fields, emu.error
+
+
 def integral_H(column, F):
     """Heat power [W] whose far-field buoyancy flux is F [m⁴/s³] at this vent."""
     return np.asarray(F, float) / column.heat_to_buoyancy()
@@ -458,6 +508,7 @@ def _solve(direction, sampled, n, column, Nnom, current, level, method, source, 
     if U is not None and np.any(U < 0):
         U = np.abs(U)  # a current's direction does not matter to the rise; drawn negatives are speeds
     tr = None
+    emu_error = None
     nan = np.full(n, np.nan)
     if direction == "inverse":
         z = _si(sampled["rise_height"], "m", "length", "rise height", n)
@@ -468,7 +519,7 @@ def _solve(direction, sampled, n, column, Nnom, current, level, method, source, 
                 (z / closed_form.SPREADING_FRACTION, z)
             fields = {"zt": zt, "zs": zs, "xt": nan, "xs": nan, "Qs": nan, "dTs": nan}
         else:
-            F, fields = _invert_integral(column, z, level, alpha, scale, U, shape)
+            F, fields, emu_error = _invert_many(column, z, level, alpha, scale, U, shape)
             if track:
                 ens, _ = _forward_integral(column, integral_H(column, F), alpha, scale, U, shape, track=True)
                 tr = ens.track
@@ -509,7 +560,8 @@ def _solve(direction, sampled, n, column, Nnom, current, level, method, source, 
         spreading_volume_flux=Q_(squeeze(fields["Qs"]), "m^3/s"),
         spreading_dilution=Q_(squeeze(fields["Qs"] / Qv), "dimensionless"),
         spreading_anomaly=Q_(squeeze(fields["dTs"]), "K"), level=level, method=method,
-        vent_depth=Q_(column.vent_depth, "m"), column=column, failed=failed, track=_track_quantities(tr))
+        vent_depth=Q_(column.vent_depth, "m"), column=column, failed=failed, track=_track_quantities(tr),
+        emulator_error=emu_error)
 
 
 def _track_quantities(tr):
