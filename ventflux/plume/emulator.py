@@ -53,10 +53,34 @@ class ForwardEmulator:
     fields: dict  # name -> array (n_alpha, n_scale, n_F)
     error: float  # worst measured interpolation error in log rise height
 
-    def invert(self, z, alpha, scale):
+    def curves(self, alpha, scale, names=("level",), start=None):
+        """Fields along the F nodes for each draw, interpolated in α and s: (n, n_F, len(names)).
+
+        With ``start`` (n ints) only the four F nodes from ``start`` on are
+        interpolated: (n, 4, len(names)).
+        """
+        table = self._stacked()[..., [self.names.index(k) for k in names]]
+        n = np.size(alpha)
+        wa, ia = _axis_weights(np.log(alpha), self.log_alpha, n)
+        ws, is_ = _axis_weights(np.log(scale), self.log_scale, n)
+        if start is None:
+            cols = slice(None)
+            shape = (n, table.shape[2], len(names))
+        else:
+            cols = start[:, None] + np.arange(4)[None, :]
+            shape = (n, 4, len(names))
+        out = np.zeros(shape)
+        for a in range(wa.shape[1]):
+            for b in range(ws.shape[1]):
+                rows_a = (ia + a)[:, None] if start is not None else (ia + a)
+                rows_b = (is_ + b)[:, None] if start is not None else (is_ + b)
+                out += (wa[:, a] * ws[:, b])[:, None, None] * table[rows_a, rows_b, cols]
+        return out
+
+    def invert(self, z, curves):
         """log F [m⁴/s³] giving rise height ``z`` [m] for each draw; NaN where the grid cannot answer."""
         target = np.log(z)
-        curve = self._curve("level", alpha, scale)  # (n, n_F) log z at every F node
+        curve = curves[..., 0]  # (n, n_F) log z at every F node (``curves`` of the level only)
         n, nf = curve.shape
         ok = np.isfinite(target) & np.isfinite(curve).all(axis=1)
         # bracket: the last node below the target (the rise grows with F)
@@ -78,24 +102,24 @@ class ForwardEmulator:
         h = self.log_F[1] - self.log_F[0]
         return np.where(ok, self.log_F[0] + (i0 + r) * h, np.nan)
 
-    def field(self, name, log_F, alpha, scale):
-        """Interpolated field ``name`` at (log F, α, s) per draw."""
-        curve = self._curve(name, alpha, scale)
+    def fields_at(self, names, log_F, alpha, scale):
+        """Interpolated fields ``names`` at (log F, α, s) per draw: dict name -> array."""
         w, i0 = _weights(log_F, self.log_F)
-        v = sum(w[:, k] * curve[np.arange(curve.shape[0]), i0 + k] for k in range(4))
-        return np.exp(v) if name in _LOGGED else v
-
-    def _curve(self, name, alpha, scale):
-        """The field along the F nodes for each draw (interpolated in α and s)."""
-        table = self.fields[name]
-        n = np.size(alpha)
-        wa, ia = _axis_weights(np.log(alpha), self.log_alpha, n)
-        ws, is_ = _axis_weights(np.log(scale), self.log_scale, n)
-        out = np.zeros((n, table.shape[2]))
-        for a in range(wa.shape[1]):
-            for b in range(ws.shape[1]):
-                out += (wa[:, a] * ws[:, b])[:, None] * table[ia + a, is_ + b, :]
+        local = self.curves(alpha, scale, names, start=i0)  # (n, 4, len(names))
+        out = {}
+        for m, name in enumerate(names):
+            v = (w * local[..., m]).sum(axis=1)
+            out[name] = np.exp(v) if name in _LOGGED else v
         return out
+
+    @property
+    def names(self):
+        return list(self.fields)
+
+    def _stacked(self):
+        if getattr(self, "_table", None) is None:
+            self._table = np.stack([self.fields[k] for k in self.names], axis=-1)
+        return self._table
 
 
 _LOGGED = ("level", "maximum", "spreading", "volume_flux")
@@ -196,7 +220,7 @@ def build(column, z, alpha, scale, level, rng=None) -> ForwardEmulator | None:
         ca = np.exp(rng.uniform(la[0], la[-1], m)) if la.size > 1 else np.full(m, np.exp(la[0]))
         cs = np.exp(rng.uniform(ls[0], ls[-1], m)) if ls.size > 1 else np.full(m, np.exp(ls[0]))
         direct = _forward(column, cf, ca, cs)[level]
-        approx = emu.field("level", cf, ca, cs)
+        approx = emu.fields_at(("level",), cf, ca, cs)["level"]
         both = np.isfinite(direct) & np.isfinite(approx)
         if both.sum() < m // 2:
             return None
