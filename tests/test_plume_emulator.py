@@ -8,7 +8,6 @@ a grid that cannot reach its tolerance is refused and every draw integrated.
 
 import gsw
 import numpy as np
-import pytest
 
 from ventflux.plume import emulator
 from ventflux.plume.inversion import (

@@ -19,8 +19,8 @@ _COMMANDS = (
     ("methods", "list estimation methods, fluid models and velocity sources, and who provides each",
      "ventflux.cli.methods"),
     ("orifice", "heat, mass and volume discharge of one vent orifice", "ventflux.cli.orifice"),
-    ("plume-rise", "heat power from a plume's rise height in a measured stratification "
-                   "(or rise height from heat power)", "ventflux.cli.plume"),
+    ("plume-rise", ("heat power from a plume's rise height in a measured stratification "
+                    "(or rise height from heat power)"), "ventflux.cli.plume"),
     ("diffuse", "heat and water discharge of diffuse-flow patches (TEOS-10 enthalpy), with scale-up to mapped areas",
      "ventflux.cli.diffuse"),
     ("summarize", "water throughput, reservoir lifetime and size, ridge-flank heat deficit", "ventflux.cli.summarize"),

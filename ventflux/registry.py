@@ -81,7 +81,7 @@ class Deferred:
     ``Command("orifice", "...", configure=Deferred("ventflux.cli.orifice", "configure"), run=...)``.
     """
 
-    __slots__ = ("module", "attribute")
+    __slots__ = ("attribute", "module")
 
     def __init__(self, module: str, attribute: str):
         self.module = module

@@ -62,15 +62,11 @@ def main():
     ap.add_argument("--rounds", type=int, default=3)
     a = ap.parse_args()
     n = a.draws
-    kw = dict(temperature=normal(Q_(352, "degC"), Q_(3, "K")), velocity=normal(Q_(1.4, "m/s"), Q_(0.2, "m/s")),
-              diameter=normal(Q_(0.12, "m"), Q_(0.01, "m")), pressure=Q_(P, "Pa"),
-              ambient_temperature=Q_(2.1, "degC"), ambient_salinity=34.6)
+    kw = {"temperature": normal(Q_(352, "degC"), Q_(3, "K")), "velocity": normal(Q_(1.4, "m/s"), Q_(0.2, "m/s")),
+          "diameter": normal(Q_(0.12, "m"), Q_(0.01, "m")), "pressure": Q_(P, "Pa"),
+          "ambient_temperature": Q_(2.1, "degC"), "ambient_salinity": 34.6}
     orifice_discharge_uncertain(draws=1000, **kw)  # load the property table
     competitor_bicubic(np.array([600.0]), np.ones(1), np.ones(1), 275.25)  # CoolProp loads its tables
-    d = draw_inputs({k: v for k, v in kw.items() if hasattr(v, "sample")}, n, DEFAULT_SEED)
-    T = d["temperature"].to("K").magnitude
-    u = d["velocity"].to("m/s").magnitude
-    dd = d["diameter"].to("m").magnitude
     Ta = 275.25
     m = min(a.heos_draws, n)
 

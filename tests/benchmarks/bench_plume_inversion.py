@@ -29,7 +29,12 @@ from scipy.integrate import solve_ivp
 from scipy.optimize import brentq
 
 from ventflux.plume import closed_form, integral
-from ventflux.plume.inversion import _forward_integral, _invert_integral, heat_power_from_rise_height, integral_H
+from ventflux.plume.inversion import (
+    _forward_integral,
+    _invert_integral,
+    heat_power_from_rise_height,
+    integral_H,
+)
 from ventflux.profiles import read_ctd_cast
 from ventflux.uncertainty import draw_inputs, normal, uniform
 from ventflux.units import Q_

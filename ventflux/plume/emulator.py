@@ -28,7 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from . import closed_form, integral
+from . import closed_form
 
 #: Worst interpolation error accepted in log rise height (choice made here: heat power ∝ z⁴, so 1e-4
 #: in log z is 4e-4 in heat power, inside the 5e-4 asked of every draw).

@@ -163,7 +163,7 @@ class Isotherms:
         self.A, self.At, self.G, self.Gt = A[:, inv], At[:, inv], G[inv], Gt[inv]
         self.near = np.abs(self.tau - 1.0) < _NONANALYTIC_TAU
 
-    def take(self, idx) -> "Isotherms":
+    def take(self, idx) -> Isotherms:
         """The same isotherms at positions ``idx`` only."""
         out = Isotherms.__new__(Isotherms)
         out.T, out.tau = self.T[idx], self.tau[idx]
