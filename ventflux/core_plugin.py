@@ -50,7 +50,7 @@ def ventflux_fluid_models():
     return [
         FluidModelInfo(
             name=ventfluid.DEFAULT_MODEL,
-            summary="pure water, IAPWS-95 (CoolProp), with a cached interpolation table",
+            summary="pure water, IAPWS-95 (explicit Helmholtz evaluation), with a cached interpolation table",
             factory=ventfluid.IAPWS95Water,
         ),
         FluidModelInfo(
