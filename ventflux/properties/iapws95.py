@@ -30,6 +30,8 @@ References
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
 # Constants of the release [1], section 2 (and eq. 6.3 for R).
@@ -375,14 +377,14 @@ def _saturation_slope(T):
 
 
 def _saturation_temperature_newton(p):
-    """Invert [3] eq. 1 by Newton iteration on ln p (to 1e-12 K)."""
+    """Invert [3] eq. 1 by Newton iteration on ln p (to 1e-10 K)."""
     x = np.log(p / P_CRIT)
     t = T_CRIT / (1.0 - x / 7.5)  # start: a straight line in 1/T against ln p
     t = np.clip(t, 250.0, T_CRIT - 1e-6)
     for _ in range(50):
         step = (np.log(saturation_pressure(t) / p)) / _saturation_slope(t)
         t = np.clip(t - step, 200.0, T_CRIT - 1e-9)
-        if np.all(np.abs(step) < 1e-12):
+        if np.all((np.abs(step) < 1e-10) | (t >= T_CRIT - 1e-9)):  # at p_c itself the root is T_c (clipped)
             break
     return t
 
@@ -391,9 +393,14 @@ def _saturation_temperature_newton(p):
 # equation itself): built once at import; within 1e-6 K of the exact inverse up to 22.0 MPa and 2e-4 K in the
 # last 0.06 MPa below the critical pressure (checked in the tests), far below [3]'s own uncertainty.
 _SAT_LNP = np.linspace(np.log(611.0), np.log(P_CRIT), 4001)
-_SAT_T = _saturation_temperature_newton(np.exp(_SAT_LNP))
-_SAT_SLOPE = 1.0 / _saturation_slope(_SAT_T)  # dT / d ln p
-_SAT_SLOPE[-1] = _SAT_SLOPE[-2]  # the equation's slope at T_c itself; the last cell ends at p_c
+
+
+@functools.lru_cache(maxsize=1)
+def _saturation_nodes():
+    T = _saturation_temperature_newton(np.exp(_SAT_LNP))
+    slope = 1.0 / _saturation_slope(T)  # dT / d ln p
+    slope[-1] = slope[-2]  # the equation's slope at T_c itself; the last cell ends at p_c
+    return T, slope
 
 
 def saturation_temperature(p):
@@ -407,11 +414,12 @@ def saturation_temperature(p):
     if not sub.any():
         return out
     x = np.log(p[sub])
+    nodes, slopes = _saturation_nodes()
     h = _SAT_LNP[1] - _SAT_LNP[0]
     i = np.clip(((x - _SAT_LNP[0]) / h).astype(int), 0, _SAT_LNP.size - 2)
     t = (x - _SAT_LNP[i]) / h
     t2 = t * t
     v1 = t2 * (3.0 - 2.0 * t)
-    out[sub] = ((1.0 - v1) * _SAT_T[i] + v1 * _SAT_T[i + 1]
-                + h * ((t2 * t - 2.0 * t2 + t) * _SAT_SLOPE[i] + (t2 * t - t2) * _SAT_SLOPE[i + 1]))
+    out[sub] = ((1.0 - v1) * nodes[i] + v1 * nodes[i + 1]
+                + h * ((t2 * t - 2.0 * t2 + t) * slopes[i] + (t2 * t - t2) * slopes[i + 1]))
     return out

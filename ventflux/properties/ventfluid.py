@@ -110,7 +110,7 @@ _P_NODES = np.unique(np.concatenate([
     np.arange(22.25e6, 45e6, 0.25e6),
     np.arange(45e6, 100e6 + 1, 1e6),
 ]))
-_TABLE_VERSION = "6"
+_TABLE_VERSION = "7"
 # Bands solved directly instead of interpolated (K, Pa): within _SAT_BAND of
 # the saturation temperature below the critical pressure, and in a box around
 # the critical point. Chosen from the benchmark's error map.
@@ -219,20 +219,20 @@ def _patch_nodes(h, d):
     """Values and derivatives at the nodes of both halves of the grid, for bicubic Hermite patches.
 
     Returns ``(below, above)`` (pressures up to and from the critical
-    pressure), each an array (nT, nP_half, 8): h, ∂h/∂T, ∂h/∂p, ∂²h/∂T∂p,
-    then the same for density. Each half's derivatives use its own nodes only,
+    pressure), each an array (8, nT, nP_half): h, ∂h/∂T, ∂h/∂p, ∂²h/∂T∂p,
+    then the same for density (each quantity contiguous, used without a copy). Each half's derivatives use its own nodes only,
     so nothing crosses the critical isobar.
     """
     out = []
     for sel in (_P_NODES <= P_CRIT, _P_NODES >= P_CRIT):
         y = _P_NODES[sel]
-        c = np.empty((_T_NODES.size, y.size, 8))
+        c = np.empty((8, _T_NODES.size, y.size))
         for k, f in enumerate((h[:, sel], d[:, sel])):
             fT = _derivative(_T_NODES, f, 0)
-            c[..., 4 * k] = f
-            c[..., 4 * k + 1] = fT
-            c[..., 4 * k + 2] = _derivative(y, f, 1)
-            c[..., 4 * k + 3] = _derivative(y, fT, 1)
+            c[4 * k] = f
+            c[4 * k + 1] = fT
+            c[4 * k + 2] = _derivative(y, f, 1)
+            c[4 * k + 3] = _derivative(y, fT, 1)
         out.append(c)
     return tuple(out)
 
@@ -269,7 +269,7 @@ class _Patches:
         self.x, self.y = x, y
         self.ny = y.size
         # one contiguous array per stored quantity: 1-D gathers are the fastest numpy has
-        self.cols = [np.ascontiguousarray(nodes[..., k].ravel()) for k in range(nodes.shape[-1])]
+        self.cols = [np.ascontiguousarray(nodes[k]).ravel() for k in range(nodes.shape[0])]
 
     def __call__(self, X, Y):
         x, y = self.x, self.y
