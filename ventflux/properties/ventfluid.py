@@ -1,4 +1,4 @@
-"""Hot vent fluid: pure water from IAPWS-95 through CoolProp.
+"""Hot vent fluid: pure water from IAPWS-95 (explicit evaluation, tabulated; CoolProp for checks).
 
 Vent fluids are seawater-derived brines or vapours, but no equation of state
 for H2O-NaCl of IAPWS-95's accuracy is in a standard library; ventflux treats
@@ -9,16 +9,19 @@ lower heat capacity of saline water); densities differ by a few percent too.
 A brine model can be added as a plugin through the ``ventflux_fluid_models``
 hook (see DEVELOPERS.md).
 
-Speed: ``IAPWS95Water`` evaluates bicubic splines on a table of IAPWS-95
-values built once per machine and cached on disk, and solves directly the
-narrow bands where a spline cannot follow the fluid (next to the saturation
-curve and around the critical point). The table and the direct solves use
-the explicit, vectorized Helmholtz-energy evaluation in
-``ventflux.properties.iapws95`` (the table builds in well under two seconds);
-the saturation check uses the release's auxiliary saturation equation. So a
-check or a tabulated point never imports CoolProp; it serves the
-``iapws95-water-direct`` model and the tests.
-``tests/benchmarks/bench_properties.py`` measures speed and error.
+Speed: ``IAPWS95Water`` evaluates bicubic Hermite patches on a table of
+IAPWS-95 values (node values and fourth-order node derivatives, no fitting
+at evaluation) built once per machine and cached on disk, and solves
+directly the narrow bands where a patch cannot follow the fluid (next to the
+saturation curve, around the critical point and up the steep start of the
+pseudo-critical line). The table and the direct solves use the explicit,
+vectorized Helmholtz-energy evaluation in ``ventflux.properties.iapws95``
+(the table builds in about two seconds on a busy 2-core machine, with a
+message); the saturation check uses the IAPWS auxiliary saturation equation.
+So a check or a tabulated point never imports CoolProp; it serves the
+``iapws95-water-direct`` model, the rare point the explicit solver cannot
+settle, and the tests. ``tests/benchmarks/bench_properties.py`` measures
+speed and error against CoolProp's own tables.
 
 References
 ----------
@@ -306,14 +309,15 @@ class _Patches:
 
 
 class IAPWS95Water:
-    """Pure water from IAPWS-95 [1] via CoolProp [2], tabulated for speed.
+    """Pure water from IAPWS-95 [1], tabulated for speed (direct mode: CoolProp [2]).
 
     Parameters
     ----------
     tabulated : bool, default True
-        Interpolate a cached table (max. relative error ~1e-5 away from the
-        pseudo-critical line, see the benchmark) or solve every point
-        directly.
+        Interpolate a cached table (worst relative error 1e-4 within 10 K of
+        the saturation and pseudo-critical lines, 5e-6 elsewhere over
+        2-450 degC x 5-60 MPa; see the benchmark and the tests) or solve every
+        point directly with CoolProp.
     allow_vapour : bool, default False
         Below the critical pressure a fluid above its saturation temperature
         has boiled; by default this is an error naming the saturation
