@@ -127,8 +127,10 @@ _TERMS = np.argsort(_GROUP_OF, kind="stable")
 _TERM_STARTS = np.searchsorted(_GROUP_OF[_TERMS], np.arange(len(_GROUPS)))
 _TAU_INT = np.arange(int(_T.max()) + 1)
 _IS_INT = _T == np.round(_T)
-# |τ - 1| beyond which the non-analytic terms (ψ ∝ exp(-D(τ-1)²), D ≥ 700) are below 1e-17 and skipped.
+# |τ - 1| or |δ - 1| beyond which the non-analytic terms (ψ = exp(-C(δ-1)² - D(τ-1)²), C ≥ 28, D ≥ 700)
+# and their derivatives are below 1e-15 and skipped.
 _NONANALYTIC_TAU = 0.25
+_NONANALYTIC_DELTA = 1.2
 
 
 def _tau_powers(tau):
@@ -208,8 +210,9 @@ class Isotherms:
             Yt = self.At * powers[_DG_I]
             Pt = [np.einsum("gn->n", Yt[a:b]) for a, b in _SPANS]
             tau_d = Pt[0] + sum(Pt[k] * np.exp(-powers[c]) for k, c in enumerate(_CS) if c) + self.Gt * bell_d
-        if self.near.any():
-            idx = np.flatnonzero(self.near)
+        near = self.near & (np.abs(dm) < _NONANALYTIC_DELTA)
+        if near.any():
+            idx = np.flatnonzero(near)
             n1, n2, nt = _nonanalytic(delta[idx], self.tau[idx], tau_derivative)
             d1[idx] += n1
             d2[idx] += n2
