@@ -6,7 +6,16 @@ IAPWS-95 (CoolProp) for hot vent fluid. All public functions take pint
 quantities from ``ventflux.units``.
 """
 
-from .units import Q_, ureg  # noqa: F401
+
+
+def __getattr__(name):
+    # ``ventflux.ureg`` and ``ventflux.Q_`` load pint on first use, so that ``ventflux --help`` stays light.
+    if name in ("ureg", "Q_"):
+        from . import units
+
+        return getattr(units, name)
+    raise AttributeError(f"module 'ventflux' has no attribute {name!r}")
+
 
 #: The package's one version source: ``pyproject.toml`` reads it (setuptools
 #: dynamic version) and plugins declare the range they support against it.

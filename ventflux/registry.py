@@ -77,6 +77,34 @@ class Command:
     aliases: tuple[str, ...] = field(default_factory=tuple)
 
 
+class Deferred:
+    """A callable named by module and attribute, imported on its first call.
+
+    Command descriptions use it for ``configure`` and ``run`` so that listing
+    the commands (``ventflux --help``) imports none of their modules, e.g.
+    ``Command("orifice", "...", configure=Deferred("ventflux.cli.orifice", "configure"), run=...)``.
+    """
+
+    __slots__ = ("attribute", "module")
+
+    def __init__(self, module: str, attribute: str):
+        self.module = module
+        self.attribute = attribute
+
+    def __call__(self, *args, **kwargs):
+        import importlib
+
+        return getattr(importlib.import_module(self.module), self.attribute)(*args, **kwargs)
+
+    def __repr__(self):
+        return f"Deferred({self.module!r}, {self.attribute!r})"
+
+
+def deferred_command(name: str, help: str, module: str, aliases: tuple[str, ...] = (),
+                     provider: str = "ventflux") -> Command:
+    """A ``Command`` whose ``configure`` and ``run`` are module ``module``'s functions of those names, imported on use."""
+    return Command(name=name, help=help, configure=Deferred(module, "configure"), run=Deferred(module, "run"),
+                   provider=provider, aliases=tuple(aliases))
 
 
 #: Module holding the core's own hook implementations.

@@ -16,7 +16,25 @@ import pint
 
 from .errors import InputError
 
-ureg = pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+
+def _build_registry() -> pint.UnitRegistry:
+    """The registry, from pint's on-disk cache of parsed definitions when it can be used.
+
+    Parsing pint's definition file costs about a quarter of a second at every
+    start; pint caches the parsed result keyed on the file's content, so a
+    changed pint rebuilds it. An unwritable cache only costs that time.
+    """
+    from .cachedir import cache_dir
+
+    try:
+        folder = cache_dir() / "pint"
+        folder.mkdir(parents=True, exist_ok=True)
+        return pint.UnitRegistry(autoconvert_offset_to_baseunit=True, cache_folder=folder)
+    except Exception:  # noqa: BLE001 - any cache problem: build from the definitions instead
+        return pint.UnitRegistry(autoconvert_offset_to_baseunit=True)
+
+
+ureg = _build_registry()
 ureg.formatter.default_format = "~P"
 # Practical salinity is dimensionless (PSS-78); "psu" is the trade's label for it.
 ureg.define("practical_salinity_unit = [] = psu = PSU")

@@ -9,10 +9,14 @@ differences). Inputs shared between items are drawn once per draw through
 the hot-probe and thermistor calibrations, the CTD cast's ambient
 temperature. Vents are processed in chunks to bound memory.
 
-The same work is then done by a plain Python loop, per draw and per vent,
-calling the same estimators with scalar inputs, on a subsample; its time is
-scaled up to the whole field, and the ratio is printed. The two paths are
-also checked to give the same numbers for the same inputs.
+The fair competitor is a numpy script over the same (vent x draw) arrays
+with CoolProp's tabular ``BICUBIC&HEOS`` backend (its fastest mode, about
+1e-4 here) for the vent fluid. Only its property calls are timed (on a
+subsample of vent-draws, scaled), so its printed time is a lower bound and
+the ratio favours the competitor. The plain Python loop, per draw and per
+vent, calling the same estimators with scalar inputs, is a secondary line
+(timed on a subsample and scaled). The two ventflux paths are also checked to
+give the same numbers for the same inputs.
 
 Run::
 
@@ -78,8 +82,8 @@ def _names(kind, n, var):
 def vent_chunk(draws, vents, sl, shared):
     n = len(vents["temperature"])
     idx = range(n)[sl]
-    pick = lambda var: [vents[var][i] for i in idx]  # noqa: E731
-    names = lambda var: [f"vent {i}/{var}" for i in idx]  # noqa: E731
+    pick = lambda var: [vents[var][i] for i in idx]
+    names = lambda var: [f"vent {i}/{var}" for i in idx]
     T = draws.draw_each(names("temperature"), pick("temperature"), "degC").magnitude
     T = Q_(T + shared["hot probe calibration"].to("K").magnitude, "degC")
     v = draws.draw_each(names("velocity"), pick("velocity"), "m/s")
@@ -93,8 +97,8 @@ def vent_chunk(draws, vents, sl, shared):
 def patch_chunk(draws, patches, sl, shared):
     n = len(patches["area"])
     idx = range(n)[sl]
-    pick = lambda var: [patches[var][i] for i in idx]  # noqa: E731
-    names = lambda var: [f"patch {i}/{var}" for i in idx]  # noqa: E731
+    pick = lambda var: [patches[var][i] for i in idx]
+    names = lambda var: [f"patch {i}/{var}" for i in idx]
     A = draws.draw_each(names("area"), pick("area"), "m^2") * shared["camera pixel scale"] ** 2
     f = draws.draw_each(names("active_fraction"), pick("active_fraction"), "dimensionless").magnitude
     dT = draws.draw_each(names("temperature_anomaly"), pick("temperature_anomaly"), "K").magnitude
@@ -155,6 +159,24 @@ def plain_loop(vents, patches, loop_vents, loop_patches, loop_draws, seed=13):
     return t_vent, t_patch, np.array(inputs), np.array(outputs)
 
 
+def competitor_properties(vents, n_points, seed=17):
+    """Seconds per vent-draw for h and ρ through CoolProp's BICUBIC&HEOS loop (the competitor's core)."""
+    import CoolProp
+
+    rng = np.random.default_rng(seed)
+    T = np.array([vents["temperature"][i].sample(1, rng)[0].to("K").magnitude
+                  for i in rng.integers(0, len(vents["temperature"]), n_points)])
+    p = PRESSURE.to("Pa").magnitude
+    st = CoolProp.AbstractState("BICUBIC&HEOS", "Water")
+    st.update(CoolProp.PT_INPUTS, p, 600.0)  # CoolProp loads its tables here
+    t0 = time.perf_counter()
+    for Ti in T.tolist():
+        st.update(CoolProp.PT_INPUTS, p, Ti)
+        st.hmass()
+        st.rhomass()
+    return (time.perf_counter() - t0) / n_points
+
+
 def same_numbers(inputs, outputs):
     """The vectorized estimator on the loop's own inputs gives the loop's numbers."""
     T, v, d, Ta = inputs.T
@@ -173,6 +195,7 @@ def main(argv=None):
     p.add_argument("--loop-vents", type=int, default=10)
     p.add_argument("--loop-patches", type=int, default=10)
     p.add_argument("--loop-draws", type=int, default=50)
+    p.add_argument("--competitor-points", type=int, default=200_000, help="vent-draws the competitor is timed on")
     p.add_argument("--tracemalloc", action="store_true", help="also trace peak Python/numpy allocations (slower)")
     a = p.parse_args(argv)
 
@@ -190,6 +213,7 @@ def main(argv=None):
         tracemalloc.stop()
     rss1 = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
+    t_comp = competitor_properties(vents, a.competitor_points) * a.vents * a.draws
     t_vent, t_patch, inputs, outputs = plain_loop(vents, patches, a.loop_vents, a.loop_patches, a.loop_draws)
     t_loop = (t_vent * a.vents + t_patch * a.patches) * a.draws
     agree = same_numbers(inputs, outputs)
@@ -207,10 +231,14 @@ def main(argv=None):
     print(f"plain loop: {t_vent * 1e3:.3f} ms per vent-draw, {t_patch * 1e3:.3f} ms per patch-draw "
           f"(measured on {a.loop_vents} vents / {a.loop_patches} patches × {a.loop_draws} draws); "
           f"scaled to the whole field: {t_loop:.0f} s ({t_loop / 3600:.2f} h)")
-    print(f"ratio plain loop / vectorized: {t_loop / t_vec:.0f}x")
+    print(f"competitor (numpy + CoolProp BICUBIC&HEOS, property calls only, scaled from "
+          f"{a.competitor_points:,} vent-draws): >= {t_comp:.1f} s")
+    print(f"ratio competitor / ventflux: >= {t_comp / t_vec:.2f}x")
+    print("shared machine: 2 cores, about 9 engineers working at once; absolute times are noisy")
+    print(f"secondary: ratio plain loop / vectorized: {t_loop / t_vec:.0f}x")
     print(f"same inputs, same numbers: max relative difference {agree:.1e}")
-    print(f"goals: whole field < 30 s: {'yes' if t_vec < 30 else 'NO'}; ≥ 100x the loop: "
-          f"{'yes' if t_loop / t_vec >= 100 else 'NO'}")
+    print(f"goals: whole field < 5 s: {'yes' if t_vec < 5 else 'NO'}; peak RSS < 1 GiB: "
+          f"{'yes' if rss1 < 1024 else 'NO'}")
 
 
 if __name__ == "__main__":

@@ -23,7 +23,13 @@ class _Parser(argparse.ArgumentParser):
         self.exit(EXIT_USAGE, f"{self.prog}: error: {message}\n")
 
 
-def build_parser() -> argparse.ArgumentParser:
+def build_parser(argv=None) -> argparse.ArgumentParser:
+    """The ``ventflux`` parser; only the command named in ``argv`` gets its arguments.
+
+    Every command is listed (name and help), but ``configure`` runs, and so its
+    module is imported, only for the one chosen; ``argv=None`` configures all
+    (for documentation tools).
+    """
     from .. import __version__
     from ..registry import commands
 
@@ -35,15 +41,18 @@ def build_parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"ventflux {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
     sub.required = True
+    chosen = None if argv is None else next((a for a in argv if not a.startswith("-")), "")
     for cmd in sorted(commands(), key=lambda c: c.name):
         p = sub.add_parser(cmd.name, help=cmd.help, description=cmd.help, aliases=list(cmd.aliases))
-        cmd.configure(p)
+        if chosen is None or chosen in (cmd.name, *cmd.aliases):
+            cmd.configure(p)
         p.set_defaults(_run=cmd.run)
     return parser
 
 
 def main(argv=None) -> int:
-    parser = build_parser()
+    argv = sys.argv[1:] if argv is None else list(argv)
+    parser = build_parser(argv)
     args = parser.parse_args(argv)
     try:
         return int(args._run(args) or 0)

@@ -31,7 +31,7 @@ from ..diffuse import (
 )
 from ..errors import InputError
 from ..properties.seawater import REFERENCE_SALINITY, pressure_from_depth
-from ..registry import Command, Method, velocity_from_source
+from ..registry import Method, velocity_from_source
 from ..uncertainty import (
     DEFAULT_DRAWS,
     SharedDraws,
@@ -274,13 +274,6 @@ def _scale_up(args, inputs, prop, shared, policy):
             **_summary(su.total_volume_flux, "m^3/s", "volume_flux", seed), "unphysical_draws": sp.unphysical,
             "note": "class heat flux per unit area = ΣH/ΣA of its sampled patches, bootstrapped over patches"}
 
-
-COMMAND = Command(
-    name="diffuse",
-    help="heat and water discharge of diffuse-flow patches (TEOS-10 enthalpy), with scale-up to mapped areas",
-    configure=configure,
-    run=run,
-)
 
 METHODS = [
     Method(

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from ..registry import BROKEN_PLUGINS, Command, fluid_models, methods, velocity_sources
+from ..registry import BROKEN_PLUGINS, fluid_models, methods, velocity_sources
 from .output import add_output_options, print_json
 
 
@@ -42,7 +42,3 @@ def _section(title, rows):
     print(f"  {'name':<{w0}}  {'provided by':<{w1}}  what it does")
     for a, b, c in rows:
         print(f"  {a:<{w0}}  {b:<{w1}}  {c}")
-
-
-COMMAND = Command(name="methods", help="list estimation methods, fluid models and velocity sources, and who provides each",
-                  configure=configure, run=run)

@@ -6,7 +6,7 @@ import sys
 
 from ..errors import Collector, InputError
 from ..orifice import DEFAULT_AMBIENT_SALINITY
-from ..registry import Command, Method
+from ..registry import Method
 from ..uncertainty import DEFAULT_DRAWS, Uncertain, parse_uncertain
 from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .budget import add_budget, add_budget_option, print_budget
@@ -201,8 +201,6 @@ def _print_readable(result, summaries, draws, seed, out=None, rejected=0, limit=
                   f"(limit {limit:.1%}); value column is the nominal estimate.\n")
 
 
-COMMAND = Command(name="orifice", help="heat, mass and volume discharge of one vent orifice", configure=configure,
-                  run=run)
 METHODS = [Method(name="orifice", summary="exit temperature, velocity and orifice size → heat power with "
                                           "IAPWS-95 enthalpy difference; constant-cp shortcut beside it",
                   estimates="heat power, mass flux, volume flux",

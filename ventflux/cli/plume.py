@@ -7,7 +7,7 @@ import sys
 import numpy as np
 
 from ..errors import Collector, InputError
-from ..registry import Command, Method
+from ..registry import Method
 from ..uncertainty import DEFAULT_DRAWS, Uncertain, parse_uncertain
 from ..units import column_name, parse_quantity
 from .montecarlo import add_monte_carlo_options, monte_carlo_settings
@@ -310,8 +310,6 @@ def _write_track(res, path):
     atomic_write_text(path, "\n".join(lines) + "\n")
 
 
-COMMAND = Command(name="plume-rise", help="heat power from a plume's rise height in a measured stratification "
-                                          "(or rise height from heat power)", configure=configure, run=run)
 METHODS = [
     Method(name="plume-rise-integral",
            summary="rise height ↔ heat power with a top-hat integral plume model on TEOS-10 densities, "

@@ -39,7 +39,7 @@ from .. import reservoir as rv
 from .. import summarizer as sm
 from ..errors import InputError
 from ..orifice import DEFAULT_AMBIENT_SALINITY
-from ..registry import Command, Method
+from ..registry import Method
 from ..ridge_flank import DEFICIT_SPANS, REFERENCES
 from ..tables import read_quantity_table
 from ..uncertainty import DEFAULT_DRAWS, parse_uncertain
@@ -196,8 +196,6 @@ def run(args) -> int:
     return 0
 
 
-COMMAND = Command(name="summarize", help="water throughput, reservoir lifetime and size, ridge-flank heat deficit",
-                  configure=configure, run=run)
 
 METHODS = [
     Method(name="water-throughput", summary="mass and volume flux and annual throughput from heat power "

@@ -5,7 +5,7 @@ from __future__ import annotations
 import sys
 from pathlib import Path
 
-from ..registry import Command, Method
+from ..registry import Method
 from .output import add_output_options, print_json
 
 FORMAT = """\
@@ -113,8 +113,6 @@ def run(args) -> int:
     return 0
 
 
-COMMAND = Command(name="survey", help="run a whole vent-field survey: totals, split, method comparison, "
-                                      "reservoirs, report", configure=configure, run=run)
 METHODS = [Method(name="field survey", summary="every vent and method of a survey file, correlated Monte Carlo "
                                                "totals, focused/diffuse split, method agreement, reservoir lifetimes",
                   estimates="field heat power and water flux", command="ventflux survey")]

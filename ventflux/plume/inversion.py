@@ -50,6 +50,10 @@ TOLERANCE = 1e-6
 LOOSE_TOLERANCE = 1e-4
 #: Secant sweeps before a member that has not converged is given up (NaN, counted in ``failed``).
 MAX_ITERATIONS = 20
+#: From this many draws on, a rise height without a current is inverted on a forward emulator built once
+#: for the column (``ventflux.plume.emulator``), the rest integrated; below it every draw is integrated
+#: (building the emulator costs about as much as integrating a thousand draws; a choice made here).
+EMULATOR_MIN_DRAWS = 1000
 
 
 @dataclass(frozen=True)
@@ -82,6 +86,10 @@ class PlumeRiseResult:
     summary: dict = field(default_factory=dict)
     nominal: "PlumeRiseResult | None" = None
     track: dict | None = None
+    #: Worst measured interpolation error (in log rise height) of the forward emulator, when the draws were
+    #: inverted on one (``ventflux.plume.emulator``); None when every draw was integrated.
+    emulator_error: float | None = None
+    _emulator: object = field(default=None, repr=False, compare=False)
 
 
 # --------------------------------------------------------------------------- set-up
@@ -301,6 +309,50 @@ def _invert_integral(column, target, level, alpha, scale, U, shape):
     return Fout, out
 
 
+def _invert_many(column, z, level, alpha, scale, U, shape, reuse=None):
+    """(F, fields, emulator or None): an emulator for many draws without a current, else the secant.
+
+    ``reuse`` is an emulator already built for this column and level (the
+    nominal solve after the draws'). Draws the emulator cannot answer (outside
+    its grid, next to a plume that escapes the column) are integrated like any
+    other.
+    """
+    n = z.size
+    a = np.broadcast_to(np.asarray(alpha, float), (n,))
+    sc = np.broadcast_to(np.asarray(scale, float), (n,))
+    usable = np.isfinite(z) & (z > 0) & np.isfinite(a) & (a > 0) & np.isfinite(sc) & (sc > 0)
+    emu = reuse if (reuse is not None and reuse.level == level) else None
+    if emu is None and U is None and n >= EMULATOR_MIN_DRAWS and usable.any():
+        from . import emulator
+
+        emu = emulator.build(column, z[usable], a[usable], sc[usable], level)
+    if emu is None or U is not None:
+        return (*_invert_integral(column, z, level, alpha, scale, U, shape), None)
+    logF = np.full(n, np.nan)
+    curves = emu.curves(a[usable], sc[usable])
+    logF[usable] = emu.invert(z[usable], curves)
+    got = np.isfinite(logF)
+    F = np.exp(logF)
+    fields = {k: np.full(n, np.nan) for k in ("zt", "zs", "xt", "xs", "Qs", "dTs")}
+    other = "spreading" if level == "maximum" else "maximum"
+    at = emu.fields_at((other, "volume_flux", "anomaly"), logF[got], a[got], sc[got])
+    fields["zt" if level == "maximum" else "zs"][got] = z[got]
+    fields["zs" if level == "maximum" else "zt"][got] = at[other]
+    fields["Qs"][got] = at["volume_flux"]
+    fields["dTs"][got] = at["anomaly"]
+    fields["xt"][got] = 0.0
+    fields["xs"][got] = 0.0
+    rest = usable & ~got
+    if rest.any():
+        idx = np.flatnonzero(rest)
+        F_r, f_r = _invert_integral(column, z[idx], level, a[idx], sc[idx], None, shape)
+        F[idx] = F_r
+        for k, v in f_r.items():
+            fields[k][idx] = v
+    F[~usable] = np.nan
+    return F, fields, emu
+
+
 def integral_H(column, F):
     """Heat power [W] whose far-field buoyancy flux is F [m⁴/s³] at this vent."""
     return np.asarray(F, float) / column.heat_to_buoyancy()
@@ -408,7 +460,7 @@ def _estimate(direction, value, stratification, level, method, entrainment, curr
     res = _solve(direction, sampled, n, column, Nnom, current, level, method, source, track=track and draws is None)
     if draws is not None:
         res.nominal = _solve(direction, {k: nominal(v) for k, v in inputs.items() if v is not None}, 1, column, Nnom,
-                             current, level, method, source, track=track)
+                             current, level, method, source, track=track, reuse=res._emulator)
     if draws is not None or (predrawn and n > 1):
         res.draws, res.seed = (int(draws), seed) if draws is not None else (n, None)
         res.summary = {k: summarize(getattr(res, k), seed) for k in
@@ -450,7 +502,7 @@ def _check_power(H):
         raise InputError("heat power", f"{h[~(h > 0)][0]:g} W", "a heat power > 0 W")
 
 
-def _solve(direction, sampled, n, column, Nnom, current, level, method, source, track=False):
+def _solve(direction, sampled, n, column, Nnom, current, level, method, source, track=False, reuse=None):
     alpha = _si(sampled["entrainment"], "dimensionless", "dimensionless", "entrainment", n)
     scale = _scale(sampled, Nnom, n)
     U, shape = _current_si(sampled.get("current") if not isinstance(current, CurrentProfile) else current, column)
@@ -458,6 +510,7 @@ def _solve(direction, sampled, n, column, Nnom, current, level, method, source, 
     if U is not None and np.any(U < 0):
         U = np.abs(U)  # a current's direction does not matter to the rise; drawn negatives are speeds
     tr = None
+    emu_error = emu = None
     nan = np.full(n, np.nan)
     if direction == "inverse":
         z = _si(sampled["rise_height"], "m", "length", "rise height", n)
@@ -468,7 +521,8 @@ def _solve(direction, sampled, n, column, Nnom, current, level, method, source, 
                 (z / closed_form.SPREADING_FRACTION, z)
             fields = {"zt": zt, "zs": zs, "xt": nan, "xs": nan, "Qs": nan, "dTs": nan}
         else:
-            F, fields = _invert_integral(column, z, level, alpha, scale, U, shape)
+            F, fields, emu = _invert_many(column, z, level, alpha, scale, U, shape, reuse=reuse)
+            emu_error = None if emu is None else emu.error
             if track:
                 ens, _ = _forward_integral(column, integral_H(column, F), alpha, scale, U, shape, track=True)
                 tr = ens.track
@@ -509,7 +563,8 @@ def _solve(direction, sampled, n, column, Nnom, current, level, method, source, 
         spreading_volume_flux=Q_(squeeze(fields["Qs"]), "m^3/s"),
         spreading_dilution=Q_(squeeze(fields["Qs"] / Qv), "dimensionless"),
         spreading_anomaly=Q_(squeeze(fields["dTs"]), "K"), level=level, method=method,
-        vent_depth=Q_(column.vent_depth, "m"), column=column, failed=failed, track=_track_quantities(tr))
+        vent_depth=Q_(column.vent_depth, "m"), column=column, failed=failed, track=_track_quantities(tr),
+        emulator_error=emu_error, _emulator=emu)
 
 
 def _track_quantities(tr):

@@ -1,4 +1,4 @@
-"""Hot vent fluid: pure water from IAPWS-95 through CoolProp.
+"""Hot vent fluid: pure water from IAPWS-95 (explicit evaluation, tabulated; CoolProp for checks).
 
 Vent fluids are seawater-derived brines or vapours, but no equation of state
 for H2O-NaCl of IAPWS-95's accuracy is in a standard library; ventflux treats
@@ -9,12 +9,19 @@ lower heat capacity of saline water); densities differ by a few percent too.
 A brine model can be added as a plugin through the ``ventflux_fluid_models``
 hook (see DEVELOPERS.md).
 
-Speed: CoolProp solves the Helmholtz equation for density at every (T, p)
-point (about 20–30 µs a point). ``IAPWS95Water`` instead evaluates bicubic
-splines on a table of direct IAPWS-95 values built once and cached on disk,
-and falls back to direct evaluation in the narrow bands where a spline cannot
-follow the fluid (next to the saturation curve and around the critical
-point). ``tests/benchmarks/bench_properties.py`` measures speed and error.
+Speed: ``IAPWS95Water`` evaluates bicubic Hermite patches on a table of
+IAPWS-95 values (node values and fourth-order node derivatives, no fitting
+at evaluation) built once per machine and cached on disk, and solves
+directly the narrow bands where a patch cannot follow the fluid (next to the
+saturation curve, around the critical point and up the steep start of the
+pseudo-critical line). The table and the direct solves use the explicit,
+vectorized Helmholtz-energy evaluation in ``ventflux.properties.iapws95``
+(the table builds in about two seconds on a busy 2-core machine, with a
+message); the saturation check uses the IAPWS auxiliary saturation equation.
+So a check or a tabulated point never imports CoolProp; it serves the
+``iapws95-water-direct`` model, the rare point the explicit solver cannot
+settle, and the tests. ``tests/benchmarks/bench_properties.py`` measures
+speed and error against CoolProp's own tables.
 
 References
 ----------
@@ -37,6 +44,7 @@ from typing import Protocol
 import numpy as np
 
 from ..errors import InputError
+from . import iapws95
 
 DEFAULT_MODEL = "iapws95-water"
 
@@ -105,44 +113,30 @@ _P_NODES = np.unique(np.concatenate([
     np.arange(22.25e6, 45e6, 0.25e6),
     np.arange(45e6, 100e6 + 1, 1e6),
 ]))
-_TABLE_VERSION = "3"
-# The supercritical table starts a little below the critical pressure with
-# true (vapour-like) nodes; the subcritical one ends at it. Points in the seam
-# lie in the near-critical box and are solved directly.
-_P_OVERLAP = 0.0
+_TABLE_VERSION = "7"
 # Bands solved directly instead of interpolated (K, Pa): within _SAT_BAND of
 # the saturation temperature below the critical pressure, and in a box around
 # the critical point. Chosen from the benchmark's error map.
 _SAT_BAND = 4.0
-_CRIT_BOX_T = (12.0, 20.0)  # below, above the critical temperature
-_CRIT_BOX_P = (2.5e6, 4.0e6)  # below, above the critical pressure
-
-
-def _saturation_temperature_direct(p):
-    CP = _coolprop()
-    p = np.atleast_1d(np.asarray(p, float))
-    out = np.full(p.shape, np.nan)
-    sub = (p < P_CRIT) & (p >= P_MIN)
-    if sub.any():
-        out[sub] = CP.PropsSI("T", "P", p[sub], "Q", 0, "Water")
-    return out
+_CRIT_BOX_T = (12.0, 30.0)  # below, above the critical temperature
+_CRIT_BOX_P = (2.5e6, 8.0e6)  # below, above the critical pressure
 
 
 def _cache_dir() -> Path:
-    root = os.environ.get("VENTFLUX_CACHE") or os.path.join(
-        os.environ.get("XDG_CACHE_HOME") or os.path.expanduser("~/.cache"), "ventflux")
-    return Path(root)
+    from ..cachedir import cache_dir
+
+    return cache_dir()
 
 
 def _table_key():
-    CP = _coolprop()
-    tag = f"{_TABLE_VERSION}|{CP.get_global_param_string('version')}|{_T_NODES.size}|{_P_NODES.size}"
-    tag += f"|{_T_NODES[0]:.6f}|{_T_NODES[-1]:.6f}|{_P_NODES[0]:.1f}|{_P_NODES[-1]:.1f}"
+    """Hash of everything the table's values depend on: its version, the formulation's code and the grid."""
+    tag = f"{_TABLE_VERSION}|{iapws95.FORMULATION}|{_T_NODES.size}|{_P_NODES.size}"
+    tag += "|" + hashlib.sha256(_T_NODES.tobytes() + _P_NODES.tobytes()).hexdigest()
     return hashlib.sha256(tag.encode()).hexdigest()[:16]
 
 
-def _build_table():
-    """Direct IAPWS-95 values on the grid; vapour nodes continued from the liquid side.
+def _build_table(progress=None):
+    """IAPWS-95 values on the grid; vapour nodes continued from the liquid side.
 
     Below the critical pressure the nodes above the saturation temperature lie
     in the vapour; a spline through the liquid-vapour jump would ring into the
@@ -151,60 +145,179 @@ def _build_table():
     liquid side. Points near saturation are never read from the table anyway.
     """
     TT, PP = np.meshgrid(_T_NODES, _P_NODES, indexing="ij")
-    tsat = _saturation_temperature_direct(_P_NODES)
+    tsat = iapws95.saturation_temperature(_P_NODES)
     vapour = np.isfinite(tsat)[None, :] & (TT >= tsat[None, :] - 0.5)
     h = np.empty(TT.shape)
     d = np.empty(TT.shape)
     liq = ~vapour
-    h[liq], d[liq] = _direct(TT[liq], PP[liq])
-    for j in np.flatnonzero(np.isfinite(tsat)):
+    # the continuation's two liquid states per subcritical isobar are solved with the nodes
+    cols = np.flatnonzero(np.isfinite(tsat) & vapour.any(axis=0))
+    ts = tsat[cols] - 0.5
+    T_all = np.concatenate([TT[liq], ts, ts - 0.5])
+    p_all = np.concatenate([PP[liq], _P_NODES[cols], _P_NODES[cols]])
+    if progress is not None:
+        progress(f"building the IAPWS-95 property table ({T_all.size:,} states, once per machine) ...")
+    # Starting densities: solve every 8th temperature of the grid from scratch, interpolate between
+    # them along each isobar; the full grid then needs two or three Newton steps a node.
+    coarse = np.zeros(TT.shape, bool)
+    coarse[::8] = True
+    coarse[-1] = True
+    coarse &= liq
+    rho_c = np.full(TT.shape, np.nan)
+    rho_c[coarse] = iapws95.density(TT[coarse], PP[coarse])
+    guess = np.full(TT.shape, np.nan)
+    for j in range(TT.shape[1]):
+        ok = np.isfinite(rho_c[:, j])
+        if ok.sum() >= 2:
+            guess[:, j] = np.interp(_T_NODES, _T_NODES[ok], rho_c[ok, j])
+    g_cols = guess[np.clip(np.searchsorted(_T_NODES, ts), 0, _T_NODES.size - 1), cols]
+    h_all, d_all = iapws95.enthalpy_density(T_all, p_all, guess=np.concatenate([guess[liq], g_cols, g_cols]))
+    if not (np.isfinite(h_all).all() and np.isfinite(d_all).all()):
+        raise RuntimeError("IAPWS-95 table build: the density iteration failed at some nodes")
+    n = int(liq.sum())
+    h[liq], d[liq] = h_all[:n], d_all[:n]
+    h0, hm = h_all[n:n + cols.size], h_all[n + cols.size:]
+    d0, dm = d_all[n:n + cols.size], d_all[n + cols.size:]
+    for k, j in enumerate(cols):
         col = vapour[:, j]
-        if not col.any():
-            continue
-        ts = tsat[j] - 0.5
-        p = _P_NODES[j]
-        h0, d0 = _direct(ts, p)
-        hm, dm = _direct(ts - 0.5, p)
-        dT = TT[col, j] - ts
-        h[col, j] = h0[0] + (h0[0] - hm[0]) / 0.5 * dT
-        d[col, j] = d0[0] + (d0[0] - dm[0]) / 0.5 * dT
+        dT = TT[col, j] - ts[k]
+        h[col, j] = h0[k] + (h0[k] - hm[k]) / 0.5 * dT
+        d[col, j] = d0[k] + (d0[k] - dm[k]) / 0.5 * dT
     return h, d
 
 
+def _say(message):
+    import sys
+
+    print(f"ventflux: {message}", file=sys.stderr, flush=True)
+
+
+def _derivative(x, f, axis):
+    """∂f/∂x at the nodes ``x`` along ``axis`` of ``f``: five-point Lagrange stencils, one-sided at the ends.
+
+    Exact for quartics, so its error is O(h⁴) on smooth data, which keeps the
+    cubic Hermite patches fourth-order accurate; uneven spacing is handled by
+    the stencil weights.
+    """
+    n = x.size
+    start = np.clip(np.arange(n) - 2, 0, n - 5)
+    idx = start[:, None] + np.arange(5)[None, :]  # (n, 5) stencil nodes
+    xs = x[idx]
+    xi = x[:, None]
+    w = np.empty((n, 5))
+    for k in range(5):
+        others = [m for m in range(5) if m != k]
+        # L_k'(x_i) = Σ_{m≠k} Π_{l≠k,m} (x_i - x_l) / Π_{l≠k} (x_k - x_l)
+        denom = np.prod([xs[:, k] - xs[:, m] for m in others], axis=0)
+        num = np.zeros(n)
+        for m in others:
+            num += np.prod([xi[:, 0] - xs[:, l] for l in others if l != m], axis=0)
+        w[:, k] = num / denom
+    f = np.moveaxis(f, axis, 0)
+    out = np.einsum("nk,nk...->n...", w, f[idx])
+    return np.moveaxis(out, 0, axis)
+
+
+def _patch_nodes(h, d):
+    """Values and derivatives at the nodes of both halves of the grid, for bicubic Hermite patches.
+
+    Returns ``(below, above)`` (pressures up to and from the critical
+    pressure), each an array (8, nT, nP_half): h, ∂h/∂T, ∂h/∂p, ∂²h/∂T∂p,
+    then the same for density (each quantity contiguous, used without a copy). Each half's derivatives use its own nodes only,
+    so nothing crosses the critical isobar.
+    """
+    out = []
+    for sel in (_P_NODES <= P_CRIT, _P_NODES >= P_CRIT):
+        y = _P_NODES[sel]
+        c = np.empty((8, _T_NODES.size, y.size))
+        for k, f in enumerate((h[:, sel], d[:, sel])):
+            fT = _derivative(_T_NODES, f, 0)
+            c[4 * k] = f
+            c[4 * k + 1] = fT
+            c[4 * k + 2] = _derivative(y, f, 1)
+            c[4 * k + 3] = _derivative(y, fT, 1)
+        out.append(c)
+    return tuple(out)
+
+
 def _load_table():
+    """(below, above) node arrays of ``_patch_nodes``, from the cache or built and cached."""
     path = _cache_dir() / f"iapws95-water-{_table_key()}.npz"
     if path.exists():
         try:
             with np.load(path) as z:
-                return z["h"], z["d"]
+                return z["below"], z["above"]
         except Exception:  # a damaged cache is rebuilt, never trusted
             pass
-    h, d = _build_table()
-    path.parent.mkdir(parents=True, exist_ok=True)
-    tmp = path.with_name(f"{path.stem}.{os.getpid()}.part.npz")
-    np.savez(tmp, h=h, d=d)
-    os.replace(tmp, path)
-    return h, d
+    below, above = _patch_nodes(*_build_table(progress=_say))
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+        tmp = path.with_name(f"{path.stem}.{os.getpid()}.part.npz")
+        np.savez(tmp, below=below, above=above)
+        os.replace(tmp, path)
+    except OSError as exc:  # an unwritable cache costs a rebuild next time, not the result
+        _say(f"could not cache the property table in {path.parent} ({exc}); it will be rebuilt next time")
+    return below, above
 
 
-@functools.lru_cache(maxsize=1)
-def _saturation_spline():
-    """Saturation temperature against log pressure, from direct IAPWS-95 values."""
-    from scipy.interpolate import CubicSpline
+class _Patches:
+    """Bicubic Hermite patches on a rectangular grid: ``(h, ρ)`` at points inside it.
 
-    grid = np.geomspace(P_MIN, P_CRIT * (1 - 1e-9), 600)
-    return CubicSpline(np.log(grid), _saturation_temperature_direct(grid))
+    Each cell's polynomial follows from the values and derivatives stored at
+    its four corners (16 numbers per property), gathered per point; nothing
+    is fitted at evaluation time and no scipy import is needed.
+    """
+
+    def __init__(self, x, y, nodes):
+        self.x, self.y = x, y
+        self.ny = y.size
+        # one contiguous array per stored quantity: 1-D gathers are the fastest numpy has
+        self.cols = [np.ascontiguousarray(nodes[k]).ravel() for k in range(nodes.shape[0])]
+
+    def __call__(self, X, Y):
+        x, y = self.x, self.y
+        i = np.clip(np.searchsorted(x, X, side="right") - 1, 0, x.size - 2)
+        j = np.clip(np.searchsorted(y, Y, side="right") - 1, 0, y.size - 2)
+        xi, yj = x[i], y[j]
+        hx = x[i + 1] - xi
+        hy = y[j + 1] - yj
+        t = (X - xi) / hx
+        u = (Y - yj) / hy
+        # cubic Hermite basis in p (value at near/far node, slope at near/far node), then in T
+        t2, u2 = t * t, u * u
+        vu1 = u2 * (3.0 - 2.0 * u)
+        vu0 = 1.0 - vu1
+        su0 = (u2 * u - 2.0 * u2 + u) * hy
+        su1 = (u2 * u - u2) * hy
+        vt1 = t2 * (3.0 - 2.0 * t)
+        vt0 = 1.0 - vt1
+        st0 = (t2 * t - 2.0 * t2 + t) * hx
+        st1 = (t2 * t - t2) * hx
+        near_row = i * self.ny + j
+        out = []
+        for k in (0, 4):  # enthalpy, density
+            f, fT, fp, fTp = self.cols[k:k + 4]
+            acc = 0.0
+            for r, vt, st in ((near_row, vt0, st0), (near_row + self.ny, vt1, st1)):
+                r1 = r + 1
+                # value and T-slope along the row at this pressure, then across the rows
+                g = vu0 * f.take(r) + vu1 * f.take(r1) + su0 * fp.take(r) + su1 * fp.take(r1)
+                gT = vu0 * fT.take(r) + vu1 * fT.take(r1) + su0 * fTp.take(r) + su1 * fTp.take(r1)
+                acc = acc + vt * g + st * gT
+            out.append(acc)
+        return out[0], out[1]
 
 
 class IAPWS95Water:
-    """Pure water from IAPWS-95 [1] via CoolProp [2], tabulated for speed.
+    """Pure water from IAPWS-95 [1], tabulated for speed (direct mode: CoolProp [2]).
 
     Parameters
     ----------
     tabulated : bool, default True
-        Interpolate a cached table (max. relative error ~1e-5 away from the
-        pseudo-critical line, see the benchmark) or solve every point
-        directly.
+        Interpolate a cached table (worst relative error 1e-4 within 10 K of
+        the saturation and pseudo-critical lines, 5e-6 elsewhere over
+        2-450 degC x 5-60 MPa; see the benchmark and the tests) or solve every
+        point directly with CoolProp.
     allow_vapour : bool, default False
         Below the critical pressure a fluid above its saturation temperature
         has boiled; by default this is an error naming the saturation
@@ -218,17 +331,18 @@ class IAPWS95Water:
         self.tabulated = tabulated
         self.allow_vapour = allow_vapour
         self._splines = None
-        self._tsat = None
 
     # -- phase and validity ---------------------------------------------------
     def saturation_temperature(self, p):
-        """Saturation temperature [K] at pressure ``p`` [Pa]; NaN at or above the critical pressure."""
+        """Saturation temperature [K] at pressure ``p`` [Pa]; NaN at or above the critical pressure.
+
+        From the auxiliary saturation equation of IAPWS SR1-86(1992), within a
+        few millikelvin of IAPWS-95's own phase equilibrium.
+        """
         p = np.asarray(p, float)
-        if self._tsat is None:
-            self._tsat = _saturation_spline()
         out = np.full(p.shape, np.nan)
         sub = (p < P_CRIT) & (p >= P_MIN)
-        out[sub] = self._tsat(np.log(p[sub]))
+        out[sub] = iapws95.saturation_temperature(p[sub])
         return out
 
     def valid(self, T, p):
@@ -290,14 +404,35 @@ class IAPWS95Water:
         if table.any():
             # Two tables meet at the critical pressure, so the vapour-side fill
             # of the subcritical one never leaks into supercritical points.
-            for (sh, sd), part in zip(self._spline(), (p < P_CRIT, p >= P_CRIT)):
+            for patches, part in zip(self._spline(), (p < P_CRIT, p >= P_CRIT)):
                 sel = table & part
-                if sel.any():
-                    h[sel] = sh.ev(T[sel], p[sel])
-                    d[sel] = sd.ev(T[sel], p[sel])
+                if sel.all():
+                    h, d = patches(T, p)
+                elif sel.any():
+                    h[sel], d[sel] = patches(T[sel], p[sel])
         if direct.any():
-            h[direct], d[direct] = _direct(T[direct], p[direct])
+            h[direct], d[direct] = self._solve(T[direct], p[direct])
         return h.reshape(shape), d.reshape(shape)
+
+    def _solve(self, T, p):
+        """Points the table cannot follow, solved from the explicit IAPWS-95 (CoolProp where that fails).
+
+        The table's density, close even where it is not accurate enough, starts the iteration.
+        """
+        guess = np.full(T.shape, np.nan)
+        inside = (T >= _T_NODES[0]) & (T <= _T_NODES[-1]) & (p >= _P_NODES[0]) & (p <= _P_NODES[-1])
+        for patches, part in zip(self._spline(), (p < P_CRIT, p >= P_CRIT)):
+            sel = inside & part
+            if sel.any():
+                guess[sel] = patches(T[sel], p[sel])[1]
+        h, d = iapws95.enthalpy_density(T, p, guess=guess)
+        bad = ~(np.isfinite(h) & np.isfinite(d))
+        if self.allow_vapour:  # the explicit solver follows the liquid branch only below T_c
+            ts = self.saturation_temperature(p)
+            bad |= np.isfinite(ts) & (T >= ts)
+        if bad.any():
+            h[bad], d[bad] = _direct(T[bad], p[bad])
+        return h, d
 
     def _needs_direct(self, T, p):
         outside = (T < _T_NODES[0]) | (T > _T_NODES[-1]) | (p < _P_NODES[0]) | (p > _P_NODES[-1])
@@ -317,13 +452,7 @@ class IAPWS95Water:
 
 @functools.lru_cache(maxsize=1)
 def _splines():
-    """Splines on the cached table, built once per process and shared by all instances."""
-    from scipy.interpolate import RectBivariateSpline
-
-    h, d = _load_table()
-    below = _P_NODES <= P_CRIT + _P_OVERLAP
-    above = _P_NODES >= P_CRIT - _P_OVERLAP
-    return tuple(
-        (RectBivariateSpline(_T_NODES, _P_NODES[sel], h[:, sel]),
-         RectBivariateSpline(_T_NODES, _P_NODES[sel], d[:, sel]))
-        for sel in (below, above))
+    """The two halves' patches on the cached table, built once per process and shared by all instances."""
+    below, above = _load_table()
+    return (_Patches(_T_NODES, _P_NODES[_P_NODES <= P_CRIT], below),
+            _Patches(_T_NODES, _P_NODES[_P_NODES >= P_CRIT], above))

@@ -391,8 +391,8 @@ def _html(result, tables, images, summary, budget_html="") -> str:
 <style>
 body{{font-family:system-ui,sans-serif;max-width:62rem;margin:2rem auto;padding:0 1rem;color:#222;line-height:1.45}}
 h1{{font-size:1.6rem}} h2{{font-size:1.2rem;border-bottom:1px solid #ccc;padding-bottom:.2rem;margin-top:2rem}}
-table.t{{border-collapse:collapse;font-size:.8rem;margin:.5rem 0;width:100%}}
-table.t td,table.t th{{padding:.2rem .35rem;border-bottom:1px solid #e3e3e3;text-align:right;overflow-wrap:break-word}}
+table.t{{border-collapse:collapse;font-size:.8rem;margin:.5rem 0;width:100%;table-layout:fixed}}
+table.t td,table.t th{{padding:.2rem .35rem;border-bottom:1px solid #e3e3e3;text-align:right;overflow-wrap:anywhere}}
 table.t th{{overflow-wrap:anywhere}}
 table.t th{{background:#f4f4f4;font-weight:600;vertical-align:bottom}} table.t td:first-child{{text-align:left}}
 .caution{{background:#fff4e0;border-left:4px solid #e0a030;padding:.6rem 1rem}}
