@@ -54,8 +54,6 @@ def test_command_help_imports_only_that_command():
     assert "CoolProp" not in out["loaded"]
 
 
-@pytest.mark.xfail(strict=True, reason="the installed plugins still import scipy.signal and matplotlib when "
-                                       "registering their commands (their lazy registration is separate work)")
 def test_help_with_installed_plugins_imports_no_heavy_module():
     assert _run(["--help"], core_only=False)["loaded"] == []
 
