@@ -5,7 +5,7 @@ those inside functions included, since a deferred import still ties the two
 modules together; only imports under ``if TYPE_CHECKING:``, which never run,
 are left out). Layers, from the bottom:
 
-0. ``units``, ``errors`` (and the package's ``__init__``)
+0. ``units``, ``errors``, ``cachedir`` (and the package's ``__init__``)
 1. ``properties`` — equations of state; imports only layer 0
 2. ``uncertainty``, ``tables``, ``io``, ``profiles``, ``sensitivity`` — inputs, their distributions and
    what their draws explain
@@ -26,7 +26,7 @@ ROOT = Path(__file__).resolve().parents[1]
 PACKAGE = ROOT / "ventflux"
 
 LAYERS = [
-    ("ventflux", "ventflux.units", "ventflux.errors"),
+    ("ventflux", "ventflux.units", "ventflux.errors", "ventflux.cachedir"),
     ("ventflux.properties",),
     ("ventflux.uncertainty", "ventflux.tables", "ventflux.io", "ventflux.profiles", "ventflux.sensitivity"),
     ("ventflux.orifice", "ventflux.diffuse", "ventflux.plume", "ventflux.reservoir", "ventflux.ridge_flank",
@@ -156,11 +156,11 @@ def test_layers_import_only_downwards():
     assert upward == []
 
 
-def test_properties_import_only_units_and_errors():
+def test_properties_import_only_units_errors_and_the_cache_folder():
     graph = import_graph()
     outside = {d for m, deps in graph.items() if m.startswith("ventflux.properties") for d in deps
                if not d.startswith("ventflux.properties")}
-    assert outside <= {"ventflux.units", "ventflux.errors"}
+    assert outside <= {"ventflux.units", "ventflux.errors", "ventflux.cachedir"}
 
 
 @pytest.mark.parametrize("plugin", sorted(p.name for p in (ROOT / "plugins").iterdir() if p.is_dir()))

@@ -37,6 +37,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .cachedir import cache_dir
 from .errors import InputError
 
 #: Name of the marker file inside a finished results folder; written last.
@@ -44,13 +45,6 @@ RESULTS_MARKER = ".ventflux-results"
 #: Name of the marker file inside a results folder that is still being built.
 PARTIAL_MARKER = ".ventflux-partial"
 _REGISTRY = "written-files.tsv"
-
-
-def cache_dir() -> Path:
-    """ventflux's cache folder: ``$VENTFLUX_CACHE``, else ``$XDG_CACHE_HOME/ventflux`` or ``~/.cache/ventflux``."""
-    root = os.environ.get("VENTFLUX_CACHE") or os.path.join(
-        os.environ.get("XDG_CACHE_HOME") or os.path.expanduser("~/.cache"), "ventflux")
-    return Path(root)
 
 
 # ---- files ---------------------------------------------------------------------

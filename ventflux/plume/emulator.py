@@ -166,12 +166,14 @@ def _axis(values):
     return np.linspace(lo - pad, hi + pad, PARAMETER_NODES)
 
 
-def _forward(column, log_F, alpha, scale):
-    """The integral model at (log F, α, s) arrays: dict of the emulated fields (NaN where escaped)."""
-    from .inversion import _forward_integral, integral_H
+def _forward(column, log_F, alpha, scale, integrate):
+    """The integral model at (log F, α, s) arrays: dict of the emulated fields (NaN where escaped).
 
+    ``integrate(column, F, alpha, scale)`` is the integral model's ensemble (handed in by
+    ``ventflux.plume.inversion``, which uses this module: no import back).
+    """
     F = np.exp(log_F)
-    ens, _ = _forward_integral(column, integral_H(column, F), alpha, scale, None, None)
+    ens = integrate(column, F, alpha, scale)
     bad = ens.escaped | ~np.isfinite(ens.maximum_height)
     with np.errstate(divide="ignore", invalid="ignore"):
         out = {"maximum": np.log(ens.maximum_height), "spreading": np.log(ens.spreading_height),
@@ -193,7 +195,7 @@ def _flux_range(column, z, alpha, scale, level):
     return np.log(min(F) / a_ratio) - 1.0, np.log(max(F) * a_ratio) + 1.0
 
 
-def build(column, z, alpha, scale, level, rng=None) -> ForwardEmulator | None:
+def build(column, z, alpha, scale, level, integrate, rng=None) -> ForwardEmulator | None:
     """An emulator covering the draws ``z`` (target rise, m), ``alpha`` and ``scale`` (arrays), or None.
 
     None when the measured interpolation error stays above ``TOLERANCE`` at
@@ -210,7 +212,7 @@ def build(column, z, alpha, scale, level, rng=None) -> ForwardEmulator | None:
     while nf <= MAX_F_NODES:
         lf = np.linspace(f_lo, f_hi, nf)
         A, S, LF = np.meshgrid(la, ls, lf, indexing="ij")
-        res = _forward(column, LF.ravel(), np.exp(A.ravel()), np.exp(S.ravel()))
+        res = _forward(column, LF.ravel(), np.exp(A.ravel()), np.exp(S.ravel()), integrate)
         fields = {k: v.reshape(A.shape) for k, v in res.items()}
         fields["level"] = fields[level]
         emu = ForwardEmulator(level, lf, la, ls, fields, np.inf)
@@ -219,7 +221,7 @@ def build(column, z, alpha, scale, level, rng=None) -> ForwardEmulator | None:
         cf = rng.uniform(lf[1], lf[-2], m)
         ca = np.exp(rng.uniform(la[0], la[-1], m)) if la.size > 1 else np.full(m, np.exp(la[0]))
         cs = np.exp(rng.uniform(ls[0], ls[-1], m)) if ls.size > 1 else np.full(m, np.exp(ls[0]))
-        direct = _forward(column, cf, ca, cs)[level]
+        direct = _forward(column, cf, ca, cs, integrate)[level]
         approx = emu.fields_at(("level",), cf, ca, cs)["level"]
         both = np.isfinite(direct) & np.isfinite(approx)
         if both.sum() < m // 2:

@@ -325,7 +325,7 @@ def _invert_many(column, z, level, alpha, scale, U, shape, reuse=None):
     if emu is None and U is None and n >= EMULATOR_MIN_DRAWS and usable.any():
         from . import emulator
 
-        emu = emulator.build(column, z[usable], a[usable], sc[usable], level)
+        emu = emulator.build(column, z[usable], a[usable], sc[usable], level, _ensemble)
     if emu is None or U is not None:
         return (*_invert_integral(column, z, level, alpha, scale, U, shape), None)
     logF = np.full(n, np.nan)
@@ -351,6 +351,12 @@ def _invert_many(column, z, level, alpha, scale, U, shape, reuse=None):
             fields[k][idx] = v
     F[~usable] = np.nan
     return F, fields, emu
+
+
+def _ensemble(column, F, alpha, scale):
+    """The integral model's ensemble for buoyancy fluxes ``F`` (what the emulator tabulates)."""
+    ens, _ = _forward_integral(column, integral_H(column, F), alpha, scale, None, None)
+    return ens
 
 
 def integral_H(column, F):

@@ -208,6 +208,9 @@ def periodogram(t_days, y, span_days) -> Periodogram:
 def analyze(series: VentSeries, min_steps: int = 12) -> VentSeries:
     """Trend, steps and periodogram of one vent's series (in place; also returned)."""
     ok = np.isfinite(series.median_W)
+    if ok.sum() >= min_steps and np.ptp(series.median_W[ok]) == 0:
+        series.notes.append("the output is constant through time: no trend, step or period to find")
+        return series
     if ok.sum() < min_steps:
         series.notes.append(f"only {int(ok.sum())} time steps with a value: no trend, step or period analysis "
                             f"(needs {min_steps})")
