@@ -6,7 +6,7 @@ against the serial loop, and each worker's peak memory. The serial loop calls th
 baseline: what a user would write without Dask). Cluster start-up is excluded from the per-item rate and
 printed separately.
 
-    python plugins/ventflux-series/benchmarks/bench_series_scaling.py --items 40 --rounds 2
+    python plugins/ventflux-series/benchmarks/bench_series_scaling.py --items 24 --rounds 2
 """
 
 from __future__ import annotations
@@ -23,10 +23,17 @@ import numpy as np
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "tests"))
 
 
-def _records(folder: Path, n: int) -> Path:
-    from test_series import _manifest, _tidal_records
+def _records(folder: Path, n: int, samples: int) -> Path:
+    """``n`` logger downloads of ``samples`` one-minute samples each (a tidal temperature signal)."""
+    from test_series import _manifest, _write_logger
 
-    files = _tidal_records(folder, days=n)
+    rng = np.random.default_rng(1)
+    files = []
+    for i in range(n):
+        t_h = (i * samples + np.arange(samples)) / 60.0
+        T = 320 + 3 * np.cos(2 * np.pi * t_h / 12.42) + rng.normal(0, 0.3, samples)
+        _write_logger(folder / f"r{i:03d}.csv", t_h, T)
+        files.append(f"r{i:03d}.csv")
     return _manifest(folder, files, velocity="1.0 ± 0.1 m/s", draws=1000)
 
 
@@ -38,6 +45,7 @@ def main():
     ap = argparse.ArgumentParser()
     ap.add_argument("--items", type=int, default=40)
     ap.add_argument("--rounds", type=int, default=2)
+    ap.add_argument("--samples", type=int, default=4320, help="one-minute samples per item (default 3 days)")
     args = ap.parse_args()
     from distributed import Client, LocalCluster
 
@@ -46,7 +54,7 @@ def main():
     from ventflux_series.manifest import read_manifest
 
     folder = Path(tempfile.mkdtemp())
-    m = read_manifest(_records(folder, args.items))
+    m = read_manifest(_records(folder, args.items, args.samples))
     draws, _ = series_input_draws(m)
     site = site_state(m)
     task_args = [(it, m.vents[it.vent], site, draws[it.vent], m.draws, m.interval_s, m.max_unphysical, m.seed, None, "")
@@ -78,7 +86,8 @@ def main():
         c.close()
         cl.close()
     med = {k: float(np.median(v)) for k, v in rates.items()}
-    print(f"{len(task_args)} items (one day of a 10-minute logger each, 1000 draws), {args.rounds} interleaved rounds")
+    print(f"{len(task_args)} items ({args.samples} one-minute logger samples each, 1000 draws), {args.rounds} "
+          "interleaved rounds")
     for k, v in med.items():
         print(f"  {k:<16} {v:6.2f} items/s")
     print(f"  scaling 2 workers / 1 worker: {med['dask, 2 workers'] / med['dask, 1 worker']:.2f}x (ideal 2)")
