@@ -156,7 +156,10 @@ def _unit_of(unit_text, dimension, field, whole, default_unit):
 def check_uncertain(u: Uncertain, dimension: str, field: str) -> Uncertain:
     require_dimension(Q_(1.0, u.unit) if ureg.Unit(u.unit) not in (ureg.degC, ureg.degF) else Q_(0.0, u.unit),
                       dimension, field)
-    return u
+    from . import limits  # non-finite parameters never pass; magnitudes against the plausibility table
+
+    limits.check_finite(field, [u.a, u.b], u)
+    return limits.check(field, u, u, dimension)
 
 
 def nominal(x):

@@ -9,6 +9,7 @@ answer otherwise.
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 from ..errors import Collector, InputError
@@ -95,6 +96,13 @@ class Fields:
                            (", ".join(sorted(self.shared)) or "(none defined)"))
                 return None
             value = self.shared[ref]
+            try:  # a shared value meets the plausibility limit of every key that uses it
+                from ..limits import check
+
+                check(self.key(name), value, f"{raw} = {value}", dimension)
+            except InputError as e:
+                self.errors.add(InputError(self.key(name), raw, e.allowed, where=self.where))
+                return None
             return SharedRef(ref, value)
         if isinstance(raw, (int, float)) and not isinstance(raw, bool):
             raw = str(raw) if dimension == "dimensionless" else raw
@@ -132,6 +140,9 @@ class Fields:
         if isinstance(raw, bool) or not ok_type:
             self.error(name, repr(raw), "an integer" if integer else "a number")
             return None
+        if not math.isfinite(raw):
+            self.error(name, raw, "a finite number (not inf or nan)")
+            return None
         if (minimum is not None and raw < minimum) or (maximum is not None and raw > maximum):
             rng = f"from {minimum} to {maximum}" if maximum is not None else f"≥ {minimum}"
             self.error(name, raw, f"a number {rng}")
@@ -156,6 +167,9 @@ class Fields:
             return None
         if not isinstance(raw, str) or not raw.strip():
             self.error(name, repr(raw), "a path written as a string, relative to the survey file")
+            return None
+        if "\0" in raw:
+            self.error(name, raw.replace("\0", "\\0"), "a path without NUL characters")
             return None
         p = (self.base_dir / raw).resolve() if not Path(raw).is_absolute() else Path(raw)
         exists = p.is_file() if kind == "file" else p.is_dir()

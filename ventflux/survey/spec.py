@@ -23,10 +23,11 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ..errors import Collector, InputError
+from ..errors import Collector, InputError, InputErrors, Warnings
+from ..resources import MAX_SEED, check_memory
 from ..units import Q_
 from .api import ParseContext
-from .fields import Fields
+from .fields import Fields, SharedRef
 
 #: Default Monte Carlo draws of a survey run (a choice: the 5-95 % limits of
 #: 10,000 draws are reproducible to about 1 % of the interval width).
@@ -74,6 +75,9 @@ class SurveySpec:
     reservoirs: list
     defaults_used: dict
     input_files: dict = field(default_factory=dict)
+    #: Problems that do not stop the run (a vent left out of the water total, ...): printed by the command,
+    #: listed in the report's warnings section and stored in summary.json.
+    warnings: Warnings = field(default_factory=lambda: Warnings())
 
 
 def survey_components():
@@ -107,7 +111,16 @@ def load_survey(path) -> SurveySpec:
         raise InputError("survey file", "not valid TOML", f"valid TOML ({e})", where=where) from None
     except UnicodeDecodeError:
         raise InputError("survey file", "not UTF-8 text", "a UTF-8 TOML file", where=where) from None
+    allow = raw.get("run", {}).get("allow_implausible", False) if isinstance(raw.get("run"), dict) else False
+    from ..limits import allowing_implausible, implausible_allowed
+
+    with allowing_implausible(allow is True or implausible_allowed()):
+        return _load(raw, path, where)
+
+
+def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     errs = Collector()
+    warnings = Warnings()
     defaults: dict = {}
     top = Fields(raw, "", errs, where, path.parent, defaults)
     input_files = {str(path): "survey"}
@@ -134,7 +147,11 @@ def load_survey(path) -> SurveySpec:
     seed = None
     if run is not None:
         draws = run.number("draws", default=DEFAULT_DRAWS, minimum=100, maximum=1_000_000, integer=True)
-        seed = run.number("seed", default=None, minimum=0, integer=True)
+        seed = run.number("seed", default=None, minimum=0, maximum=MAX_SEED, integer=True)
+        allow = run.table.get("allow_implausible", False)
+        run.used.add("allow_implausible")
+        if not isinstance(allow, bool):
+            run.error("allow_implausible", repr(allow), "true or false")
         run.check_unknown()
     from ..uncertainty import DEFAULT_SEED
 
@@ -165,20 +182,97 @@ def load_survey(path) -> SurveySpec:
         if not parsed and isinstance(vf.table, dict):
             vf.error("", name, "a vent with at least one method: " + ", ".join(sorted(methods)))
         vf.check_unknown()
+        _check_vent(vf, name, exit_t, parsed, site, warnings)
         vents.append(VentSpec(name=name, exit_temperature=exit_t, methods=parsed))
     parsed_sections = {}
     for key, s in sections.items():
         if key in raw:
             parsed_sections[key] = s.parse(top.sub(key), ctx)
-    reservoirs = [_parse_reservoir(rf, names) for rf in top.subs("reservoir")]
+    reservoirs = [_parse_reservoir(rf, names, site) for rf in top.subs("reservoir")]
+    if "field_plume" in parsed_sections and isinstance(parsed_sections["field_plume"], dict):
+        fp = top.sub("field_plume")
+        if fp is not None:
+            _check_rise_height(fp, parsed_sections["field_plume"].get("height"), site)
     top.check_unknown()
     if not vents and not parsed_sections:
         errs.add(InputError("survey", "no [[vent]] and no field-wide section", "at least one vent or section",
                             where=where))
+    if draws is not None:
+        with errs.check():
+            check_memory(int(draws), _series(vents, parsed_sections), "run.draws" if run is not None and
+                         "draws" in run.table else "--draws", where=where)
     errs.raise_if_any()
     return SurveySpec(path=path, site=site, draws=int(draws), seed=int(seed), shared=shared, vents=vents,
                       sections=parsed_sections, reservoirs=reservoirs, defaults_used=defaults,
-                      input_files=input_files)
+                      input_files=input_files, warnings=warnings)
+
+
+def _series(vents, sections) -> int:
+    """How many arrays of draws a run holds at once, roughly: one per orifice, patch, class and section."""
+    n = 8  # the site's shared inputs and the field totals
+    for v in vents:
+        for parsed in v.methods.values():
+            n += 4 * (len(parsed) if isinstance(parsed, list) else 1)
+    for parsed in sections.values():
+        table = parsed.get("table") if isinstance(parsed, dict) else None
+        n += 4 + 4 * (len(table.names) if hasattr(table, "names") else 0)
+    return n
+
+
+def _check_vent(f: Fields, name, exit_t, methods: dict, site, warnings: Warnings):
+    """Cross-field checks of one vent that no single key can make."""
+    plume = methods.get("plume_rise")
+    if isinstance(plume, dict):
+        sub = f.sub("plume_rise")
+        if sub is not None:
+            _check_rise_height(sub, plume.get("height"), site)
+    if exit_t is None and "orifice" not in methods:
+        warnings.add(f.path, f"vent '{name}' has no exit temperature (no exit_temperature and no orifice "
+                             "measurement): its heat counts in the totals but it is left out of the field's water "
+                             "flux total")
+
+
+def _check_rise_height(f: Fields, height, site):
+    """A plume cannot rise above the sea surface: the rise height (up to its 95 % point) stays below the depth."""
+    if height is None or site is None:
+        return
+    from ..limits import _span
+
+    depth = _site_depth_m(site)
+    if depth is None:
+        return
+    value = height.value if isinstance(height, SharedRef) else height
+    try:
+        _, _, hi = _span(value, "m")
+    except Exception:
+        return
+    if not hi < depth:
+        f.error("height", f.table.get("height"), f"a rise height below the site's depth ({depth:.0f} m) up to its "
+                                                  "95 % point: a plume cannot rise above the sea surface")
+
+
+def _site_depth_m(site):
+    try:
+        if site.depth is not None:
+            return float(site.depth.to("m").magnitude)
+        if site.pressure is not None:
+            import gsw
+
+            from ..properties.seawater import sea_pressure_dbar
+
+            return float(-gsw.z_from_p(float(sea_pressure_dbar(site.pressure)), site.latitude or 0.0))
+    except Exception:
+        return None
+    return None
+
+
+def _site_pressure(site):
+    from ..orifice import in_situ_pressure
+
+    try:
+        return in_situ_pressure(site.pressure, site.depth, site.latitude)
+    except Exception:
+        return None
 
 
 def _guess_dimension(text: str) -> str:
@@ -220,11 +314,71 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
         input_files[str(ctd)] = "CTD cast"
     window = f.quantity("ctd_smoothing", "length", uncertain=False, positive=True)
     f.check_unknown()
-    return SiteSpec(name=name, pressure=pressure, depth=depth, latitude=lat, longitude=lon,
+    site = SiteSpec(name=name, pressure=pressure, depth=depth, latitude=lat, longitude=lon,
                     ambient_temperature=t_amb, ambient_salinity=s_amb, ctd=ctd, ctd_window=window, cruise=cruise)
+    _check_ambient(f, site)
+    if ctd is not None and "ctd_smoothing" in f.table and window is None:
+        return site  # the window's own error is reported; the cast is read once it is fixed
+    if ctd is not None:
+        _check_ctd(f, site)
+    return site
 
 
-def _parse_reservoir(f: Fields, vent_names) -> ReservoirSpec:
+def _check_ambient(f: Fields, site: SiteSpec):
+    """The ambient seawater must lie in TEOS-10's funnel at the site's pressure, over its 5-95 % range."""
+    if site.ambient_temperature is None or (site.depth is None and site.pressure is None):
+        return
+    import gsw
+    import numpy as np
+
+    from ..limits import _span
+    from ..properties.seawater import absolute_salinity, sea_pressure_dbar
+
+    p_abs = _site_pressure(site)
+    if p_abs is None:
+        return
+    try:
+        p = float(sea_pressure_dbar(p_abs))
+        t = np.array(_span(site.ambient_temperature, "degC"))
+        sp = np.array(_span(site.ambient_salinity, "dimensionless")) if site.ambient_salinity is not None \
+            else np.array([35.0])
+    except Exception:
+        return
+    for i, (tt, ss) in enumerate(((t_, s_) for t_ in t for s_ in sp)):
+        SA = float(absolute_salinity(ss, p, site.longitude, site.latitude))
+        CT = float(gsw.CT_from_t(SA, tt, p))
+        if not bool(gsw.infunnel(SA, CT, p)):
+            tf = float(gsw.t_freezing(SA, p, 0))
+            key = "ambient_salinity" if not 0 <= ss <= 42 else "ambient_temperature"
+            f.error(key, f.table.get(key), f"seawater within TEOS-10's validity at the site's {p:.0f} dbar over "
+                                          f"its 5-95 % range: above its freezing point ({tf:.2f} degC) and at most "
+                                          "40 degC, salinity 0-42")
+            return
+
+
+def _check_ctd(f: Fields, site: SiteSpec):
+    """Read the cast now, so that --check finds every problem the run would (order, numbers, stability)."""
+    from .. import profiles
+
+    kwargs = {"latitude": site.latitude, "longitude": site.longitude}
+    if site.ctd_window is not None:
+        kwargs["window"] = site.ctd_window
+    try:
+        profiles.read_ctd_cast(site.ctd, **kwargs)
+    except InputErrors as e:
+        f.errors.errors.extend(_in_key(x, f.key("ctd")) for x in e.errors)
+    except InputError as e:
+        f.errors.add(_in_key(e, f.key("ctd")))
+
+
+def _in_key(e: InputError, key: str) -> InputError:
+    """A data file's problem keeps its file:line and also names the survey key that points at the file."""
+    if e.where and ":" in str(e.where).rsplit("/", 1)[-1]:
+        return e  # file:line already says where
+    return InputError(f"{key}: {e.field}" if e.field != key else key, e.value, e.allowed, where=e.where)
+
+
+def _parse_reservoir(f: Fields, vent_names, site=None) -> ReservoirSpec:
     name = f.string("name", required=True)
     supplies = f.string("supplies", default="field total")
     if supplies is not None and supplies not in ("field total", "focused", "diffuse") and supplies not in vent_names:
@@ -246,4 +400,45 @@ def _parse_reservoir(f: Fields, vent_names) -> ReservoirSpec:
             {"volume", "area", "thickness"} & set(f.table)):
         f.error("volume", "(missing)", "a volume, or an area and a thickness")
     f.check_unknown()
+    _check_pore_fluid(f, opts, site)
     return ReservoirSpec(name=name, supplies=supplies or "field total", options=opts, size=size)
+
+
+def _check_pore_fluid(f: Fields, opts: dict, site):
+    """With porosity > 0 the pore fluid cools from ``temperature`` by ``temperature_drop``: both ends must lie
+    in the fluid model's validity at the site's pressure (a 1100 degC pore fluid does not)."""
+    from ..reservoir import POROSITY
+
+    T = opts.get("temperature")
+    if T is None or site is None:
+        return
+    phi = opts.get("porosity", POROSITY)
+    if not phi > 0:
+        return
+    p = _site_pressure(site)
+    if p is None:
+        return
+    from ..properties import fluid_model
+
+    model = fluid_model()
+    Tk = float(T.to("K").magnitude)
+    dT = opts.get("temperature_drop")
+    ends = [("temperature", Tk)]
+    if dT is not None:
+        try:
+            drop = dT.magnitude if str(dT.units) in ("degree_Celsius", "delta_degree_Celsius") else dT.to("K").magnitude
+            ends.append(("temperature_drop", Tk - float(drop)))
+        except Exception:
+            pass
+    for key, value in ends:
+        try:
+            model.check(value, float(p.to("Pa").magnitude), key)
+        except InputError as e:
+            what = "the pore fluid's initial temperature" if key == "temperature" else \
+                "the pore fluid's final temperature (temperature - temperature_drop)"
+            shown = f.table.get(key)
+            if "porosity" not in opts:
+                shown = f"{shown} with the default porosity {POROSITY:g}"
+            f.error(key, shown, f"{what} within the fluid model's validity ({e.allowed}), or porosity = 0 "
+                                "for a reservoir without pore fluid")
+            return
