@@ -503,6 +503,14 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
     if Ac.shape[0] != len(class_names):
         raise InputError("class area", f"{Ac.shape[0]} areas for {len(class_names)} classes", "one area per class")
     c = Collector()
+    seen = set()
+    for name in class_names:  # a class listed twice would be added twice
+        if name in seen:
+            c.add(InputError("area class", name, "each mapped class listed once"))
+        seen.add(name)
+    for name in sorted(set(patch_class) - set(class_names)):  # its patches would silently drop out of the total
+        c.add(InputError("patch class", name or "(empty)", "the class of a sampled patch among the mapped classes: "
+                         + ", ".join(class_names)))
     for name in class_names:
         if name not in patch_class:
             c.add(InputError("area class", name, "a mapped class with at least one sampled patch; sampled classes: "
@@ -661,6 +669,7 @@ def read_patch_table(path, polygons=None) -> PatchTable:
     names = text["patch"] or tuple(f"line {n}" for n in tbl.lines)
     classes = text["class"] or tuple("" for _ in tbl.lines)
     c = Collector()
+    _check_duplicate_rows(path, tbl, text["patch"], classes, c)
     if polygons is not None:
         if "area" in tbl:
             raise InputError("area", str(path), "either an area column or a polygon file, not both")
@@ -701,6 +710,28 @@ def read_patch_table(path, polygons=None) -> PatchTable:
                       lines=tbl.lines)
 
 
+def _check_duplicate_rows(path, tbl, names, classes, c):
+    """A patch named twice, or a row repeated value for value, would be counted twice: refuse it at its line."""
+    first = {}
+    if names is not None:
+        for i, name in enumerate(names):
+            if name in first:
+                c.add(InputError("patch", name, f"each patch on one line only (also on line {first[name]})",
+                                 where=f"{path}:{tbl.lines[i]}"))
+            else:
+                first[name] = int(tbl.lines[i])
+        return
+    cols = sorted(tbl.columns)
+    for i in range(len(tbl)):
+        row = (classes[i], *(float(tbl[k].magnitude[i]) for k in cols))
+        if row in first:
+            c.add(InputError("patch", f"line {tbl.lines[i]}", f"each patch once; the same values as line {first[row]} "
+                             "(name the patches in a 'patch' column if they truly are distinct)",
+                             where=f"{path}:{tbl.lines[i]}"))
+        else:
+            first[row] = int(tbl.lines[i])
+
+
 def _areas_from_polygons(polygons, names, lines, patch_path):
     tbl = read_quantity_table(polygons, {"x": "length", "y": "length"})
     vert_patch = _text_columns(polygons, ("patch",), tbl.lines)["patch"]
@@ -730,6 +761,13 @@ def read_area_classes(path):
     if names is None:
         raise InputError("column", "class", "a 'class' column naming each mapped area class", where=str(path))
     c = Collector()
+    first = {}
+    for i, name in enumerate(names):  # a class listed twice would be scaled up twice
+        if name in first:
+            c.add(InputError("class", name, f"each mapped class on one line only (also on line {first[name]})",
+                             where=f"{path}:{tbl.lines[i]}"))
+        else:
+            first[name] = int(tbl.lines[i])
     for i in np.flatnonzero(tbl["area"].magnitude < 0):
         c.add(InputError("area", f"{tbl['area'].magnitude[i]:g}", "a mapped area ≥ 0", where=f"{path}:{tbl.lines[i]}"))
     c.raise_if_any()

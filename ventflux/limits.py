@@ -6,8 +6,11 @@ from a user — on the command line, in a survey file, through ``[shared]`` —
 is checked here against one table, by the last part of its key path
 (``vent[0].orifice[1].diameter`` and ``--diameter`` both meet the
 ``orifice size`` row). An uncertain value is checked at its nominal value and
-over its distribution's 5–95 % range, so ``"0.6 ± 3 m/s"`` (whose 5 % point
-is a downward velocity) is refused as well.
+over its distribution's 5–95 % range, so ``"2 ± 15 m/s"`` (whose 95 % point
+is an absurd 27 m/s) is refused as well. A physical zero (a velocity must be
+> 0) is checked at the nominal value only: how many draws may fall below
+it is the propagation driver's policy (``ventflux.uncertainty``), which the
+survey's check applies too (``ventflux.survey.fields``).
 
 The limits are deliberately wide: they catch slips of a unit or an exponent,
 not unusual science. A value outside them is refused with one line naming
@@ -135,7 +138,7 @@ LIMITS: tuple[Limit, ...] = (
     Limit("a spreading rate", ("half_spreading_rate", "spreading_rate"), "velocity", "mm/yr", 0.0, 150.0,
           "the fastest ridges spread at about 150 mm/yr full rate (from memory)", low_open=True),
     Limit("a thermal conductivity", ("conductivity", "thermal_conductivity"), "thermal conductivity", "W/(m K)",
-          0.1, 10.0, "sediments and rocks are 0.5–5 W/(m K) (from memory); a choice made here"),
+          0.0, 10.0, "sediments and rocks are 0.5–5 W/(m K) (from memory); a choice made here", low_open=True),
     Limit("a reservoir volume", ("volume", "melt_volume"), "volume", "km^3", 0.0, 1e5,
           "a choice made here: above any crustal magma body", low_open=True),
 )
@@ -243,8 +246,16 @@ def check(field: str, value, shown=None, dimension: str | None = None):
     nom, lo, hi = span
     shown = value if shown is None else shown
     if not lim.contains(nom):
+        if lim.low is not None and lim.low >= 0 and nom <= 0 and not lim.span().startswith(f"{lim.quantity} >"):
+            # say first what is physically wrong with a zero or a negative value
+            rng = lim.span()[len(lim.quantity) + 1:]
+            raise InputError(field, str(shown), f"{lim.quantity} > 0, and plausibly {rng} (plausibility limit; "
+                                                "--allow-implausible accepts it)")
         raise InputError(field, str(shown), lim.allowed())
-    if not (lim.contains(lo) and lim.contains(hi)):
+    # The tails meet the limit too, except a physical zero (a velocity > 0): how many draws may fall
+    # below it is the propagation driver's policy (drop and count, refuse above its threshold).
+    lo_ok = lim.contains(lo) or (lim.low == 0 and (lim.high is None or lo <= lim.high))
+    if not (lo_ok and lim.contains(hi)):
         u = f" {lim.unit}" if lim.unit else ""
         raise InputError(field, str(shown), lim.allowed(f" over its whole 5-95 % range (here {lo:.3g} to {hi:.3g}{u})"))
     return value

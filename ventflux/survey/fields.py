@@ -124,6 +124,12 @@ class Fields:
         if positive and not mag > 0:
             self.error(name, raw, f"a {dimension} > 0")
             return None
+        if positive and isinstance(value, Uncertain) and not _low_tail(value, dimension) > 0:
+            # The run drops draws ≤ 0 and refuses an input when more than 5 % are: check that here, so that a
+            # file that passes --check never fails in the run.
+            self.error(name, raw, f"a {dimension} > 0 in at least 95 % of its draws (its 5 % point is "
+                                  f"{_low_tail(value, dimension):.3g} in SI units; narrow the spread)")
+            return None
         if minimum is not None and centre < minimum:
             self.error(name, raw, f"a {dimension} ≥ {minimum:~P}")
             return None
@@ -177,6 +183,14 @@ class Fields:
             self.error(name, raw, f"an existing {kind} (looked for {p})")
             return None
         return p
+
+
+def _low_tail(value, dimension) -> float:
+    """The 5 % point of a distribution, in SI (kelvin for temperatures)."""
+    from ..limits import _span
+
+    unit = "K" if dimension == "temperature" else str(Q_(1.0, value.unit).to_base_units().units)
+    return _span(value, unit)[1]
 
 
 class SharedRef:
