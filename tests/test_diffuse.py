@@ -170,8 +170,18 @@ def test_scale_up_ratio_and_bootstrap_standard_error():
 
 def test_scale_up_refuses_unsampled_class():
     with pytest.raises(InputError, match="at least one sampled patch"):
-        scale_up_by_area_class(["mat"], Q_([2.0], "m^2"), Q_([1.0], "W"), Q_([1.0], "m^3/s"), ["sediment"],
-                               Q_([10.0], "m^2"))
+        scale_up_by_area_class(["mat"], Q_([2.0], "m^2"), Q_([1.0], "W"), Q_([1.0], "m^3/s"), ["mat", "sediment"],
+                               Q_([10.0, 10.0], "m^2"))
+
+
+def test_scale_up_refuses_patches_of_unmapped_or_repeated_classes():
+    """A patch whose class is not mapped would drop out of the total; a class listed twice would count twice."""
+    with pytest.raises(InputError, match="patch class: 'crust'"):
+        scale_up_by_area_class(["mat", "crust"], Q_([2.0, 1.0], "m^2"), Q_([1.0, 1.0], "W"), Q_([1.0, 1.0], "m^3/s"),
+                               ["mat"], Q_([10.0], "m^2"))
+    with pytest.raises(InputError, match="each mapped class listed once"):
+        scale_up_by_area_class(["mat"], Q_([2.0], "m^2"), Q_([1.0], "W"), Q_([1.0], "m^3/s"), ["mat", "mat"],
+                               Q_([10.0, 10.0], "m^2"))
 
 
 def _write(path, text):

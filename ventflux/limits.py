@@ -135,7 +135,7 @@ LIMITS: tuple[Limit, ...] = (
           "published top-hat values are 0.08–0.16 (from memory); a choice made here"),
     Limit("a frame rate", ("frame_rate",), "frequency", "Hz", 0.1, 10000.0,
           "from time-lapse to high-speed cameras; a choice made here"),
-    Limit("a spreading rate", ("half_spreading_rate", "spreading_rate"), "velocity", "mm/yr", 0.0, 150.0,
+    Limit("a spreading rate", ("half_spreading_rate", "spreading_rate", "half_rate"), "velocity", "mm/yr", 0.0, 150.0,
           "the fastest ridges spread at about 150 mm/yr full rate (from memory)", low_open=True),
     Limit("a thermal conductivity", ("conductivity", "thermal_conductivity"), "thermal conductivity", "W/(m K)",
           0.0, 10.0, "sediments and rocks are 0.5–5 W/(m K) (from memory); a choice made here", low_open=True),

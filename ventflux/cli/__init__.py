@@ -52,7 +52,10 @@ def main(argv=None) -> int:
                   file=sys.stderr)
             return EXIT_USAGE
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as stop:  # --help, --version, or argparse's one-line usage error
+        return stop.code if isinstance(stop.code, int) else (0 if stop.code is None else EXIT_USAGE)
     name = f"ventflux {args.command}"
     try:
         _check_common(args)
@@ -109,8 +112,8 @@ def _os_error_line(err: OSError, argv) -> str:
             continue
         try:
             p = Path(a)
-            hit = target == p or p in target.parents or target.resolve() == p.resolve() or \
-                p.resolve() in target.resolve().parents
+            hit = target == p or p in target.parents or target in p.parents or target.resolve() == p.resolve() \
+                or p.resolve() in target.resolve().parents or target.resolve() in p.resolve().parents
         except (OSError, ValueError):
             continue
         if hit:

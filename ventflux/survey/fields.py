@@ -96,7 +96,11 @@ class Fields:
                            (", ".join(sorted(self.shared)) or "(none defined)"))
                 return None
             value = self.shared[ref]
-            try:  # a shared value meets the plausibility limit of every key that uses it
+            try:  # a shared value has the dimension and meets the plausibility limit of every key that uses it
+                from ..units import require_dimension
+
+                require_dimension(Q_(1.0, value.unit) if isinstance(value, Uncertain) else value, dimension,
+                                  self.key(name))
                 from ..limits import check
 
                 check(self.key(name), value, f"{raw} = {value}", dimension)

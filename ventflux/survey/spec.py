@@ -312,6 +312,10 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
     ctd = f.path_value("ctd")
     if ctd is not None:
         input_files[str(ctd)] = "CTD cast"
+    elif "ctd" in f.table:
+        # The cast's own error is reported; methods that would use it must not also report a missing
+        # stratification, so the site keeps a placeholder (the run never starts with errors).
+        ctd = Path("(unreadable CTD cast)")
     window = f.quantity("ctd_smoothing", "length", uncertain=False, positive=True)
     f.check_unknown()
     site = SiteSpec(name=name, pressure=pressure, depth=depth, latitude=lat, longitude=lon,
@@ -319,7 +323,7 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
     _check_ambient(f, site)
     if ctd is not None and "ctd_smoothing" in f.table and window is None:
         return site  # the window's own error is reported; the cast is read once it is fixed
-    if ctd is not None:
+    if ctd is not None and f.key("ctd") not in {e.field for e in f.errors.errors}:
         _check_ctd(f, site)
     return site
 

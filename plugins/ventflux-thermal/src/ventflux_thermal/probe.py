@@ -168,8 +168,13 @@ def read_metadata(path) -> dict:
     (J/m), ``tilt`` (deg), ``sensor_depths`` (comma-separated, one unit).
     """
     out = {}
-    with open(path, encoding="utf-8-sig") as fh:
-        for n, line in enumerate(fh, 1):
+    try:
+        lines = list(_head_lines(path))
+    except UnicodeDecodeError as e:  # a non-UTF-8 byte in the header: one line, not a traceback
+        raise InputError("file", str(path), f"a UTF-8 text record (byte 0x{e.object[e.start]:02x} at offset {e.start} "
+                         "is not UTF-8)", where=str(path)) from None
+    if True:
+        for n, line in lines:
             if not line.lstrip().startswith("#"):
                 if line.strip():
                     break
@@ -190,6 +195,15 @@ def read_metadata(path) -> dict:
             except (ValueError, InputError):
                 raise InputError(key, value, f"a number with a {dim} unit", where=where) from None
     return out
+
+
+def _head_lines(path):
+    """Numbered lines up to the first line that is neither a comment nor blank."""
+    with open(path, encoding="utf-8-sig") as fh:
+        for n, line in enumerate(fh, 1):
+            yield n, line
+            if line.strip() and not line.lstrip().startswith("#"):
+                return
 
 
 def _sensor_columns_in_header(path):
