@@ -46,6 +46,8 @@ class SiteSpec:
     ctd: Path | None
     ctd_window: object
     cruise: str | None = None
+    #: Depth range [m] of the CTD cast after binning, once --check has read it (for cross-checks).
+    ctd_extent: tuple | None = None
 
 
 @dataclass
@@ -188,6 +190,10 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     for key, s in sections.items():
         if key in raw:
             parsed_sections[key] = s.parse(top.sub(key), ctx)
+    if any("orifice" in v.methods for v in vents) and site is not None:
+        _check_ambient_for_vent_fluid(top.sub("site"), site)
+    if isinstance(parsed_sections.get("ridge_flank"), dict):
+        _check_flank_observations(errs, parsed_sections["ridge_flank"].get("table"))
     reservoirs = [_parse_reservoir(rf, names, site) for rf in top.subs("reservoir")]
     if "field_plume" in parsed_sections and isinstance(parsed_sections["field_plume"], dict):
         fp = top.sub("field_plume")
@@ -249,6 +255,10 @@ def _check_rise_height(f: Fields, height, site):
     if not hi < depth:
         f.error("height", f.table.get("height"), f"a rise height below the site's depth ({depth:.0f} m) up to its "
                                                   "95 % point: a plume cannot rise above the sea surface")
+    elif site.ctd_extent is not None and not depth - hi >= site.ctd_extent[0] and "buoyancy_frequency" not in f.table:
+        f.error("height", f.table.get("height"), f"a rise height (up to its 95 % point) within the CTD cast: at most "
+                                                  f"{depth - site.ctd_extent[0]:.0f} m above the site (the cast "
+                                                  f"starts at {site.ctd_extent[0]:.0f} m)")
 
 
 def _site_depth_m(site):
@@ -360,6 +370,51 @@ def _check_ambient(f: Fields, site: SiteSpec):
             return
 
 
+def _check_ambient_for_vent_fluid(f: Fields | None, site: SiteSpec):
+    """Orifice heat is an enthalpy difference in the vent-fluid model at both ends, so the ambient water
+    (nominal and 5 % point) must lie in that model's validity too (IAPWS-95 starts at 0.01 degC)."""
+    if f is None or site.ambient_temperature is None:
+        return
+    from ..limits import _span
+    from ..properties import fluid_model
+
+    p = _site_pressure(site)
+    if p is None or f.key("ambient_temperature") in {e.field for e in f.errors.errors}:
+        return
+    nom, lo, _ = _span(site.ambient_temperature, "K")
+    for value in (nom, lo):
+        try:
+            fluid_model().check(value, float(p.to("Pa").magnitude), "ambient_temperature")
+        except InputError as e:
+            f.error("ambient_temperature", f.table.get("ambient_temperature"),
+                    f"an ambient temperature (and its 5 % point) within the vent-fluid model used at both ends of "
+                    f"the orifice enthalpy difference: {e.allowed}")
+            return
+
+
+def _check_flank_observations(errs: Collector, table):
+    """The ridge-flank integral needs at least two distinct ages and heat flows ≥ 0 (checked at file:line)."""
+    if table is None:
+        return
+    import numpy as np
+
+    age = table["age"].to("Myr").magnitude
+    q = table["heat_flow"].to("mW/m^2").magnitude
+    where = lambda i: f"{table.path}:{table.lines[i]}"  # noqa: E731
+    if age.size < 2:
+        errs.add(InputError("age", f"{age.size} row", "at least two observations", where=str(table.path)))
+    first: dict = {}
+    for i, a in enumerate(age):
+        if a < 0:
+            errs.add(InputError("age", f"{a:g} Myr", "a crustal age ≥ 0", where=where(i)))
+        if a in first:
+            errs.add(InputError("age", f"{a:g} Myr", f"distinct observation ages (also on line {first[a]})",
+                                where=where(i)))
+        first.setdefault(a, int(table.lines[i]))
+    for i in np.flatnonzero(q < 0):
+        errs.add(InputError("heat_flow", f"{q[i]:g} mW/m^2", "a heat flow ≥ 0", where=where(i)))
+
+
 def _check_ctd(f: Fields, site: SiteSpec):
     """Read the cast now, so that --check finds every problem the run would (order, numbers, stability)."""
     from .. import profiles
@@ -368,11 +423,20 @@ def _check_ctd(f: Fields, site: SiteSpec):
     if site.ctd_window is not None:
         kwargs["window"] = site.ctd_window
     try:
-        profiles.read_ctd_cast(site.ctd, **kwargs)
+        prof = profiles.read_ctd_cast(site.ctd, **kwargs)
     except InputErrors as e:
         f.errors.errors.extend(_in_key(x, f.key("ctd")) for x in e.errors)
+        return
     except InputError as e:
         f.errors.add(_in_key(e, f.key("ctd")))
+        return
+    z = prof.depth.to("m").magnitude
+    site.ctd_extent = (float(z.min()), float(z.max()))
+    depth = _site_depth_m(site)
+    if depth is not None and not z.min() <= depth <= z.max():
+        key = "depth" if site.depth is not None else "pressure"
+        f.error(key, f.table.get(key), f"a site within the depth range of the CTD cast ({z.min():.0f} to "
+                                       f"{z.max():.0f} m after binning), or a cast that reaches the site")
 
 
 def _in_key(e: InputError, key: str) -> InputError:
