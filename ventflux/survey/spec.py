@@ -80,6 +80,8 @@ class SurveySpec:
     #: Problems that do not stop the run (a vent left out of the water total, ...): printed by the command,
     #: listed in the report's warnings section and stored in summary.json.
     warnings: Warnings = field(default_factory=lambda: Warnings())
+    #: Whether values outside the plausibility limits were accepted (``--allow-implausible`` or [run]).
+    allow_implausible: bool = False
 
 
 def survey_components():
@@ -116,8 +118,14 @@ def load_survey(path) -> SurveySpec:
     allow = raw.get("run", {}).get("allow_implausible", False) if isinstance(raw.get("run"), dict) else False
     from ..limits import allowing_implausible, implausible_allowed
 
-    with allowing_implausible(allow is True or implausible_allowed()):
-        return _load(raw, path, where)
+    allowed = allow is True or implausible_allowed()
+    with allowing_implausible(allowed):
+        spec = _load(raw, path, where)
+    spec.allow_implausible = allowed
+    if allowed:
+        spec.warnings.add("run.allow_implausible", "values outside the plausibility limits are accepted "
+                                                   "(ventflux.limits); check them before trusting the numbers")
+    return spec
 
 
 def _load(raw: dict, path: Path, where: str) -> SurveySpec:
