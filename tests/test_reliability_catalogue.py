@@ -290,10 +290,13 @@ def _run(capsys, argv, names, root: Path, out: Path | None = None):
         assert not out.exists()
 
 
-@pytest.mark.parametrize("case", CLI_CASES, ids=[c[0] for c in CLI_CASES])
-def test_cli_refuses_in_one_line(case, tmp_path, capsys, monkeypatch):
+def _case_id(c):
+    return c.values[0] if hasattr(c, "values") else c[0]
+
+
+@pytest.mark.parametrize("case_id, argv, names", CLI_CASES, ids=[_case_id(c) for c in CLI_CASES])
+def test_cli_refuses_in_one_line(case_id, argv, names, tmp_path, capsys, monkeypatch):
     monkeypatch.chdir(tmp_path)
-    _, argv, names = case
     _run(capsys, argv, names, tmp_path)
 
 

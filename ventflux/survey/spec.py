@@ -240,10 +240,36 @@ def _check_vent(f: Fields, name, exit_t, methods: dict, site, warnings: Warnings
         sub = f.sub("plume_rise")
         if sub is not None:
             _check_rise_height(sub, plume.get("height"), site)
+    for i, o in enumerate(methods.get("orifice") or []):
+        if isinstance(o, dict) and o.get("temperature") is not None:
+            sub = f.subs("orifice")[i] if i < len(f.subs("orifice")) else None
+            if sub is not None:
+                _check_hot_tail(sub, o["temperature"], site)
     if exit_t is None and "orifice" not in methods:
         warnings.add(f.path, f"vent '{name}' has no exit temperature (no exit_temperature and no orifice "
                              "measurement): its heat counts in the totals but it is left out of the field's water "
                              "flux total")
+
+
+def _check_hot_tail(f: Fields, temperature, site):
+    """The exit temperature's 95 % point must stay in the vent-fluid model (not boiling at the site's pressure):
+    the run drops draws that boil and refuses an input when more than 5 % do."""
+    value = temperature.value if isinstance(temperature, SharedRef) else temperature
+    if not hasattr(value, "kind") or site is None:
+        return  # an exact value is checked by the method's own parser
+    from ..limits import _span
+    from ..properties import fluid_model
+
+    p = _site_pressure(site)
+    if p is None:
+        return
+    _, _, hi = _span(value, "K")
+    try:
+        fluid_model().check(hi, float(p.to("Pa").magnitude), "temperature")
+    except InputError as e:
+        f.error("temperature", f.table.get("temperature"), f"an exit temperature whose 95 % point "
+                                                          f"({hi - 273.15:.1f} degC) is still {e.allowed} "
+                                                          "(narrow the spread)")
 
 
 def _check_rise_height(f: Fields, height, site):
