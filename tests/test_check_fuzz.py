@@ -40,8 +40,8 @@ UNITS = ["degC", "K", "m", "cm", "mm", "km", "m/s", "cm/s", "mm/yr", "m^2", "km^
 
 def _light(text: str) -> str:
     """The demo without video and probe records, with the closed-form plume relation (fast to run)."""
-    text = re.sub(r"\n  \[vent\.video\].*?(?=\n  \[\[vent\.orifice\]\])", "\n", text, flags=re.S)
-    text = re.sub(r"\n\[sediment_probes\].*?(?=\n\[field_plume\])", "\n", text, flags=re.S)
+    text = re.sub(r"\n  \[vent\.video\].*?(?=\n  \[\[vent\.orifice\]\])", "\n", text, flags=re.DOTALL)
+    text = re.sub(r"\n\[sediment_probes\].*?(?=\n\[field_plume\])", "\n", text, flags=re.DOTALL)
     return text.replace('level = "maximum"', 'level = "maximum"\nmethod = "closed-form"')
 
 

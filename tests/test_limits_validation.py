@@ -127,8 +127,8 @@ def light_demo(tmp_path):
     shutil.copytree(DEMO, tmp_path / "demo", ignore=shutil.ignore_patterns("*.mp4", "probes", "make_demo_data.py"))
     p = tmp_path / "demo" / "survey.toml"
     text = p.read_text()
-    text = re.sub(r"\n  \[vent\.video\].*?(?=\n  \[\[vent\.orifice\]\])", "\n", text, flags=re.S)
-    text = re.sub(r"\n\[sediment_probes\].*?(?=\n\[field_plume\])", "\n", text, flags=re.S)
+    text = re.sub(r"\n  \[vent\.video\].*?(?=\n  \[\[vent\.orifice\]\])", "\n", text, flags=re.DOTALL)
+    text = re.sub(r"\n\[sediment_probes\].*?(?=\n\[field_plume\])", "\n", text, flags=re.DOTALL)
     p.write_text(text.replace('level = "maximum"', 'level = "maximum"\nmethod = "closed-form"'))
     return p
 

@@ -700,7 +700,7 @@ def read_patch_table(path, polygons=None) -> PatchTable:
         q = temperature_difference(q, k) if k == "temperature_anomaly_sd" else q
         for i in np.flatnonzero(q.magnitude < 0):
             c.add(InputError(k, f"{q.magnitude[i]:g}", "a standard deviation ≥ 0", where=f"{path}:{tbl.lines[i]}"))
-        sds[k] = q
+        sds[k] = Q_(q.magnitude + 0.0, q.units)  # -0 is 0 (a normal's scale must not carry a sign)
     c.raise_if_any()
     return PatchTable(names=tuple(names), classes=tuple(classes), area=area, active_fraction=frac,
                       temperature_anomaly=dT, velocity=w, area_sd=sds["area_sd"],
@@ -770,6 +770,13 @@ def read_area_classes(path):
             first[name] = int(tbl.lines[i])
     for i in np.flatnonzero(tbl["area"].magnitude < 0):
         c.add(InputError("area", f"{tbl['area'].magnitude[i]:g}", "a mapped area ≥ 0", where=f"{path}:{tbl.lines[i]}"))
+    sd = None
+    if "area_sd" in tbl:
+        sd = tbl["area_sd"].to("m^2")
+        for i in np.flatnonzero(sd.magnitude < 0):
+            c.add(InputError("area_sd", f"{sd.magnitude[i]:g}", "a standard deviation ≥ 0",
+                             where=f"{path}:{tbl.lines[i]}"))
+        sd = Q_(sd.magnitude + 0.0, "m^2")  # -0 is 0 (a normal's scale must not carry a sign)
     c.raise_if_any()
-    return names, tbl["area"].to("m^2"), (tbl["area_sd"].to("m^2") if "area_sd" in tbl else None)
+    return names, tbl["area"].to("m^2"), sd
 

@@ -110,7 +110,7 @@ class Warnings:
         if item not in self._items:
             self._items.append(item)
 
-    def extend(self, other: "Warnings") -> None:
+    def extend(self, other: Warnings) -> None:
         for key, message in other._items:
             self.add(key, message)
 

@@ -23,13 +23,8 @@ Each row gives its reason. "A choice made here" marks a limit that is a
 judgement (common practice, no source); a row's values "from memory" are
 recalled, not looked up.
 
-The table (``LIMITS``), as documented in the contributor guide:
-
-=====================  ==============  ===================  ======================================
-quantity               keys            allowed              reason
-=====================  ==============  ===================  ======================================
-(see ``table_rows()`` — the guide's table is generated from it)
-=====================  ==============  ===================  ======================================
+The table is ``LIMITS`` below; ``markdown_table()`` prints it as the
+contributor guide shows it, so the two cannot drift apart.
 """
 
 from __future__ import annotations
@@ -136,7 +131,7 @@ LIMITS: tuple[Limit, ...] = (
     Limit("a frame rate", ("frame_rate",), "frequency", "Hz", 0.1, 10000.0,
           "from time-lapse to high-speed cameras; a choice made here"),
     Limit("a spreading rate", ("half_spreading_rate", "spreading_rate", "half_rate"), "velocity", "mm/yr", 0.0, 150.0,
-          "the fastest ridges spread at about 150 mm/yr full rate (from memory)", low_open=True),
+          "the fastest ridges spread at about 150 mm/yr full rate (from memory); as a half rate, generous", low_open=True),
     Limit("a thermal conductivity", ("conductivity", "thermal_conductivity"), "thermal conductivity", "W/(m K)",
           0.0, 10.0, "sediments and rocks are 0.5–5 W/(m K) (from memory); a choice made here", low_open=True),
     Limit("a reservoir volume", ("volume", "melt_volume"), "volume", "km^3", 0.0, 1e5,
@@ -239,7 +234,7 @@ def check(field: str, value, shown=None, dimension: str | None = None):
         return value
     try:
         span = _span(value, lim.unit or "dimensionless")
-    except Exception:  # a unit of another dimension: the dimension check reports it
+    except (TypeError, ValueError, AttributeError):  # another dimension: the dimension check reports it
         return value
     if span is None:
         return value

@@ -159,6 +159,7 @@ def check_uncertain(u: Uncertain, dimension: str, field: str) -> Uncertain:
     from . import limits  # non-finite parameters never pass; magnitudes against the plausibility table
 
     limits.check_finite(field, [u.a, u.b], u)
+    u = Uncertain(u.kind, u.a + 0.0, u.b + 0.0, u.unit)  # "-0" is 0: NumPy refuses a scale with a sign bit
     return limits.check(field, u, u, dimension)
 
 

@@ -18,7 +18,8 @@ to the survey file; CSV files carry units in their column headers ("temperature 
              ambient_temperature (required), ambient_salinity (practical, default 35),
              ctd (CSV cast: "pressure [dbar]" or "depth [m]", "temperature [degC]", "salinity"),
              ctd_smoothing (a length: the profile's smoothing window)
-[run]        draws (default 10000), seed (default 20261202)
+[run]        draws (default 10000; at most what the machine's memory holds), seed (default 20261202; 0 to 2^32-1),
+             allow_implausible (default false: values outside ventflux.limits' plausibility table are refused)
 [shared]     name = value, e.g. "camera scale" = "1.00 ± 0.03" (a relative factor) or any quantity
 [[vent]]     name (required), exit_temperature (for the water flux, if no orifice gives one), and methods:
 {methods}

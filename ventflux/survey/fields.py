@@ -53,7 +53,7 @@ class Fields:
     def has(self, name) -> bool:
         return name in self.table
 
-    def sub(self, name, required=False) -> "Fields | None":
+    def sub(self, name, required=False) -> Fields | None:
         self.used.add(name)
         if name not in self.table:
             if required:
@@ -62,7 +62,7 @@ class Fields:
         return Fields(self.table[name], self.key(name), self.errors, self.where, self.base_dir, self.defaults,
                       self.shared)
 
-    def subs(self, name) -> list["Fields"]:
+    def subs(self, name) -> list[Fields]:
         """An array of tables (``[[vent]]``) as ``Fields`` with indexed key paths."""
         self.used.add(name)
         items = self.table.get(name, [])
@@ -228,4 +228,4 @@ def as_float(q):
     return q.to("dimensionless").magnitude if hasattr(q, "to") else q
 
 
-__all__ = ["Fields", "SharedRef", "resolve", "nominal_of", "as_float", "Q_"]
+__all__ = ["Q_", "Fields", "SharedRef", "as_float", "nominal_of", "resolve"]

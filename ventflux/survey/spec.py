@@ -284,7 +284,7 @@ def _check_rise_height(f: Fields, height, site):
     value = height.value if isinstance(height, SharedRef) else height
     try:
         _, _, hi = _span(value, "m")
-    except Exception:
+    except (InputError, TypeError, ValueError, AttributeError):
         return
     if not hi < depth:
         f.error("height", f.table.get("height"), f"a rise height below the site's depth ({depth:.0f} m) up to its "
@@ -305,7 +305,7 @@ def _site_depth_m(site):
             from ..properties.seawater import sea_pressure_dbar
 
             return float(-gsw.z_from_p(float(sea_pressure_dbar(site.pressure)), site.latitude or 0.0))
-    except Exception:
+    except (InputError, TypeError, ValueError, AttributeError):
         return None
     return None
 
@@ -315,7 +315,7 @@ def _site_pressure(site):
 
     try:
         return in_situ_pressure(site.pressure, site.depth, site.latitude)
-    except Exception:
+    except (InputError, TypeError, ValueError, AttributeError):
         return None
 
 
@@ -390,9 +390,9 @@ def _check_ambient(f: Fields, site: SiteSpec):
         t = np.array(_span(site.ambient_temperature, "degC"))
         sp = np.array(_span(site.ambient_salinity, "dimensionless")) if site.ambient_salinity is not None \
             else np.array([35.0])
-    except Exception:
+    except (InputError, TypeError, ValueError, AttributeError):
         return
-    for i, (tt, ss) in enumerate(((t_, s_) for t_ in t for s_ in sp)):
+    for i, (tt, ss) in enumerate((t_, s_) for t_ in t for s_ in sp):
         SA = float(absolute_salinity(ss, p, site.longitude, site.latitude))
         CT = float(gsw.CT_from_t(SA, tt, p))
         if not bool(gsw.infunnel(SA, CT, p)):
@@ -434,7 +434,7 @@ def _check_flank_observations(errs: Collector, table):
 
     age = table["age"].to("Myr").magnitude
     q = table["heat_flow"].to("mW/m^2").magnitude
-    where = lambda i: f"{table.path}:{table.lines[i]}"  # noqa: E731
+    where = lambda i: f"{table.path}:{table.lines[i]}"
     if age.size < 2:
         errs.add(InputError("age", f"{age.size} row", "at least two observations", where=str(table.path)))
     first: dict = {}
@@ -530,7 +530,7 @@ def _check_pore_fluid(f: Fields, opts: dict, site):
         try:
             drop = dT.magnitude if str(dT.units) in ("degree_Celsius", "delta_degree_Celsius") else dT.to("K").magnitude
             ends.append(("temperature_drop", Tk - float(drop)))
-        except Exception:
+        except (InputError, TypeError, ValueError, AttributeError):
             pass
     for key, value in ends:
         try:
