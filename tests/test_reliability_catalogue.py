@@ -258,6 +258,8 @@ SURVEY_CASES = [
     ("survey-flank-non-numeric", {"data/flank_heat_flow.csv": ("0.6,245", "0.6,hot")}, ["flank_heat_flow.csv:3"]),
     ("survey-probe-non-utf8", {"data/probes/OSK26-HF01.csv": ("(invented)", b"(invent\xe9d)")}, ["OSK26-HF01.csv"]),
     ("survey-not-toml", {"survey.toml": ("[site]", "[site")}, ["survey file"]),
+    ("survey-probe-records-nul", {"survey.toml": ('records = "data/probes"', 'records = "data/pro\\u0000bes"')},
+     ["sediment_probes.records"]),
     ("survey-ctd-path-nul", {"survey.toml": ('ctd = "data/ctd_cast.csv"', 'ctd = "data/ctd\\u0000cast.csv"')},
      ["site.ctd"]),
 ]

@@ -115,6 +115,11 @@ def load_survey(path) -> SurveySpec:
         raise InputError("survey file", "not valid TOML", f"valid TOML ({e})", where=where) from None
     except UnicodeDecodeError:
         raise InputError("survey file", "not UTF-8 text", "a UTF-8 TOML file", where=where) from None
+    nul = Collector()  # no file name or value may hold NUL; refuse before any reader meets one
+    for key, value in _strings(raw, ""):
+        if "\0" in value:
+            nul.add(InputError(key, value.replace("\0", "\\0"), "text without NUL characters", where=where))
+    nul.raise_if_any()
     allow = raw.get("run", {}).get("allow_implausible", False) if isinstance(raw.get("run"), dict) else False
     from ..limits import allowing_implausible, implausible_allowed
 
@@ -126,6 +131,18 @@ def load_survey(path) -> SurveySpec:
         spec.warnings.add("run.allow_implausible", "values outside the plausibility limits are accepted "
                                                    "(ventflux.limits); check them before trusting the numbers")
     return spec
+
+
+def _strings(node, path):
+    """Every string of a parsed TOML document with its key path (``vent[0].video.clip``)."""
+    if isinstance(node, dict):
+        for k, v in node.items():
+            yield from _strings(v, f"{path}.{k}" if path else str(k))
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            yield from _strings(v, f"{path}[{i}]")
+    elif isinstance(node, str):
+        yield path, node
 
 
 def _load(raw: dict, path: Path, where: str) -> SurveySpec:
