@@ -107,18 +107,26 @@ def _os_error_line(err: OSError, argv) -> str:
         return f"a file could not be read or written ({what})"
     target = Path(str(path))
     option = None
-    for i, a in enumerate(argv):
-        if str(a).startswith("-") or not a:
-            continue
-        try:
-            p = Path(a)
-            hit = target == p or p in target.parents or target in p.parents or target.resolve() == p.resolve() \
-                or p.resolve() in target.resolve().parents or target.resolve() in p.resolve().parents
-        except (OSError, ValueError):
-            continue
-        if hit:
-            option = argv[i - 1] if i and str(argv[i - 1]).startswith("--") else "path"
-            shown = a
+
+    def related(p: Path, sibling: bool) -> bool:
+        t, q = target.resolve(), p.resolve()
+        if sibling:  # a writer's temporary neighbour, '.res.x42.part' beside 'res'
+            return t.parent == q.parent and q.name in t.name
+        return t == q or q in t.parents or t in q.parents
+
+    for sibling in (False, True):
+        for i, a in enumerate(argv):
+            if str(a).startswith("-") or not a:
+                continue
+            try:
+                hit = related(Path(a), sibling)
+            except (OSError, ValueError):
+                continue
+            if hit:
+                option = argv[i - 1] if i and str(argv[i - 1]).startswith("--") else "path"
+                shown = a
+                break
+        if option is not None:
             break
     if option is None:
         option, shown = "path", str(path)

@@ -133,6 +133,16 @@ def load_survey(path) -> SurveySpec:
     return spec
 
 
+def _name_the_vent(errs: Collector, first: int, path: str, name):
+    """Problems of one vent name it too: ``vent[1].orifice[0].velocity (vent 'Coalcap')``."""
+    if not isinstance(name, str) or name == path:
+        return
+    for k in range(first, len(errs.errors)):
+        e = errs.errors[k]
+        if e.field == path or str(e.field).startswith((path + ".", path + "[")):
+            errs.errors[k] = InputError(f"{e.field} (vent '{name}')", e.value, e.allowed, where=e.where)
+
+
 def _strings(node, path):
     """Every string of a parsed TOML document with its key path (``vent[0].video.clip``)."""
     if isinstance(node, dict):
@@ -193,6 +203,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     vents = []
     names = set()
     for vf in top.subs("vent"):
+        first_error = len(errs.errors)
         name = vf.string("name", required=True) or vf.path
         if name in names:
             vf.error("name", name, "a vent name used only once in the survey")
@@ -210,6 +221,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
             vf.error("", name, "a vent with at least one method: " + ", ".join(sorted(methods)))
         vf.check_unknown()
         _check_vent(vf, name, exit_t, parsed, site, warnings)
+        _name_the_vent(errs, first_error, vf.path, name)
         vents.append(VentSpec(name=name, exit_temperature=exit_t, methods=parsed))
     parsed_sections = {}
     for key, s in sections.items():
