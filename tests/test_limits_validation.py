@@ -156,7 +156,7 @@ def test_allow_implausible_in_the_survey_is_recorded(light_demo, capsys):
     text = light_demo.read_text().replace('velocity = "1.55 ± 0.25 m/s"', 'velocity = "25 m/s"')
     light_demo.write_text(text)
     assert main(["survey", str(light_demo), "--check"]) == 2
-    assert "vent[0].orifice[0].velocity: '25 m/s'" in capsys.readouterr().err
+    assert "vent[0].orifice[0].velocity (vent 'Gildhorn'): '25 m/s'" in capsys.readouterr().err
     light_demo.write_text(text.replace("seed = 20261202", "seed = 20261202\nallow_implausible = true"))
     assert main(["survey", str(light_demo), "--check"]) == 0
     assert "warning: run.allow_implausible" in capsys.readouterr().err

@@ -701,6 +701,10 @@ def read_patch_table(path, polygons=None) -> PatchTable:
         for i in np.flatnonzero(q.magnitude < 0):
             c.add(InputError(k, f"{q.magnitude[i]:g}", "a standard deviation ≥ 0", where=f"{path}:{tbl.lines[i]}"))
         sds[k] = Q_(q.magnitude + 0.0, q.units)  # -0 is 0 (a normal's scale must not carry a sign)
+    values = {"area": area, "active_fraction": Q_(frac, "dimensionless"), "temperature_anomaly": dT, "velocity": w}
+    for k, v in values.items():
+        if v is not None and sds.get(k + "_sd") is not None:
+            _check_spread(path, tbl.lines, k, v, sds[k + "_sd"], c)
     c.raise_if_any()
     return PatchTable(names=tuple(names), classes=tuple(classes), area=area, active_fraction=frac,
                       temperature_anomaly=dT, velocity=w, area_sd=sds["area_sd"],
@@ -708,6 +712,29 @@ def read_patch_table(path, polygons=None) -> PatchTable:
                       else sds["active_fraction_sd"].to("dimensionless").magnitude,
                       temperature_anomaly_sd=sds["temperature_anomaly_sd"], velocity_sd=sds["velocity_sd"],
                       lines=tbl.lines)
+
+
+def _check_spread(path, lines, name, value, sd, c):
+    """A row's normal (value ± sd) must keep its 95 % point within the plausibility limit (a fraction ≤ 1).
+
+    Draws below zero are the propagation driver's policy (drop and count, refuse above its threshold)."""
+    from .limits import Z95, implausible_allowed, limit_for
+
+    unit = "K" if name == "temperature_anomaly" else str(value.units)
+    v = value.to(unit).magnitude if name != "temperature_anomaly" else value.magnitude
+    s = sd.to(unit).magnitude if name != "temperature_anomaly" else sd.magnitude
+    hi = v + Z95 * s
+    lim = limit_for(name)
+    top = 1.0 if name == "active_fraction" else None
+    if lim is not None and top is None and not implausible_allowed():
+        top = Q_(lim.high, lim.unit or "dimensionless").to(unit).magnitude if name != "temperature_anomaly" \
+            else lim.high
+    for i in range(v.size):
+        shown = f"{v[i]:g} ± {s[i]:g} {unit}".replace(" dimensionless", "")
+        if top is not None and hi[i] > top:
+            c.add(InputError(f"{name} ± {name}_sd", shown, f"a spread whose 95 % point ({hi[i]:.3g}) is at most "
+                             f"{top:g}" + ("" if name == "active_fraction" else " (plausibility limit)"),
+                             where=f"{path}:{lines[i]}"))
 
 
 def _check_duplicate_rows(path, tbl, names, classes, c):

@@ -116,8 +116,9 @@ LIMITS: tuple[Limit, ...] = (
           "seawater freezes near −1.9 °C at the surface; TEOS-10 ends at 40 °C (IOC et al. 2010)"),
     Limit("a reservoir temperature", ("reservoir.temperature",), "temperature", "degC", 0.0, 1400.0,
           "up to basaltic magma, about 1200 °C (from memory); a choice made here"),
-    Limit("a temperature anomaly", ("anomaly", "temperature_anomaly"), "temperature", "K", 0.0, 400.0,
-          "diffuse fluid a few to tens of kelvin above ambient; 400 K is a choice made here", low_open=True),
+    Limit("a temperature anomaly", ("anomaly", "temperature_anomaly"), "temperature", "K", 0.0, 100.0,
+          "diffuse fluid is a few to tens of kelvin above ambient, hotter flow is focused (from memory); "
+          "100 K is a choice made here", low_open=True),
     Limit("a temperature drop", ("temperature_drop",), "temperature", "K", 0.0, 1400.0,
           "at most the reservoir temperature range; a choice made here", low_open=True),
     Limit("a practical salinity", ("salinity", "ambient_salinity"), "dimensionless", "", 0.0, 42.0,
