@@ -236,6 +236,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         fp = top.sub("field_plume")
         if fp is not None:
             _check_rise_height(fp, parsed_sections["field_plume"].get("height"), site)
+            _check_plume_spread(fp, parsed_sections["field_plume"])
     top.check_unknown()
     if not vents and not parsed_sections:
         errs.add(InputError("survey", "no [[vent]] and no field-wide section", "at least one vent or section",
@@ -269,6 +270,8 @@ def _check_vent(f: Fields, name, exit_t, methods: dict, site, warnings: Warnings
         sub = f.sub("plume_rise")
         if sub is not None:
             _check_rise_height(sub, plume.get("height"), site)
+            if len(methods) > 1:
+                _check_plume_spread(sub, plume)
     for i, o in enumerate(methods.get("orifice") or []):
         if isinstance(o, dict) and o.get("temperature") is not None:
             sub = f.subs("orifice")[i] if i < len(f.subs("orifice")) else None
@@ -278,6 +281,21 @@ def _check_vent(f: Fields, name, exit_t, methods: dict, site, warnings: Warnings
         warnings.add(f.path, f"vent '{name}' has no exit temperature (no exit_temperature and no orifice "
                              "measurement): its heat counts in the totals but it is left out of the field's water "
                              "flux total")
+
+
+def _check_plume_spread(f: Fields, plume: dict):
+    """A plume estimate compared with other methods needs an uncertainty: an exact one cannot be weighed."""
+    def uncertain(v):
+        v = v.value if isinstance(v, SharedRef) else v
+        return hasattr(v, "kind") and v.b > 0 and not (v.kind == "lognormal" and v.b == 1)
+
+    keys = ["height", "buoyancy_frequency", "stratification_scale", "current"]
+    if plume.get("method", "integral") == "integral":
+        keys.append("entrainment")
+    if plume.get("height") is not None and not any(uncertain(plume.get(k)) for k in keys):
+        f.error("height", f.table.get("height"), "a rise height with its uncertainty, e.g. \"195 ± 20 m\": this "
+                                                  "estimate is compared with others, and an exact one cannot be "
+                                                  "weighed against them")
 
 
 def _check_hot_tail(f: Fields, temperature, site):
