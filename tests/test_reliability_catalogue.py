@@ -260,6 +260,10 @@ SURVEY_CASES = [
     ("survey-not-toml", {"survey.toml": ("[site]", "[site")}, ["survey file"]),
     ("survey-probe-records-nul", {"survey.toml": ('records = "data/probes"', 'records = "data/pro\\u0000bes"')},
      ["sediment_probes.records"]),
+    ("survey-field-plume-exact", {"survey.toml": ('height = "290 ± 35 m"\nlevel = "maximum"',
+                                                  'height = "290 m"\nlevel = "maximum"\nmethod = "closed-form"')},
+     ["field_plume.height"]),
+    ("survey-patch-spread-absurd", {"data/patches.csv": ("6.06,0.65", "6.06,152")}, ["patches.csv:3"]),
     ("survey-ctd-path-nul", {"survey.toml": ('ctd = "data/ctd_cast.csv"', 'ctd = "data/ctd\\u0000cast.csv"')},
      ["site.ctd"]),
 ]
