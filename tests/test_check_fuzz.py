@@ -208,7 +208,7 @@ def test_light_demo_passes_check_and_runs():
 
 
 def test_what_check_accepts_the_run_accepts():
-    counts = _fuzz(200)
+    counts = _fuzz(300)
     print(f"\nsurvey mutation fuzz: {counts}")
     # the fuzz must exercise both sides of the contract, or it tests nothing
     assert counts["passed --check"] >= 20 and counts["refused by --check"] >= 20
@@ -216,7 +216,7 @@ def test_what_check_accepts_the_run_accepts():
 
 @pytest.mark.slow
 def test_what_check_accepts_the_run_accepts_many():
-    counts = _fuzz(2000)
+    counts = _fuzz(3000)
     print(f"\nsurvey mutation fuzz (slow): {counts}")
     assert counts["passed --check"] >= 200
 
