@@ -264,6 +264,8 @@ SURVEY_CASES = [
                                                   'height = "290 m"\nlevel = "maximum"\nmethod = "closed-form"')},
      ["field_plume.height"]),
     ("survey-patch-spread-absurd", {"data/patches.csv": ("6.06,0.65", "6.06,152")}, ["patches.csv:3"]),
+    ("survey-flank-rise-tail", {"survey.toml": ('temperature_rise = "8 ± 3 K"', 'temperature_rise = "lognormal(8, 2) K"')},
+     ["ridge_flank.temperature_rise"]),
     ("survey-ctd-path-nul", {"survey.toml": ('ctd = "data/ctd_cast.csv"', 'ctd = "data/ctd\\u0000cast.csv"')},
      ["site.ctd"]),
 ]

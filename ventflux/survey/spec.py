@@ -231,6 +231,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         _check_ambient_for_vent_fluid(top.sub("site"), site)
     if isinstance(parsed_sections.get("ridge_flank"), dict):
         _check_flank_observations(errs, parsed_sections["ridge_flank"].get("table"))
+        _check_flank_rise(top.sub("ridge_flank"), parsed_sections["ridge_flank"].get("temperature_rise"), site)
     reservoirs = [_parse_reservoir(rf, names, site) for rf in top.subs("reservoir")]
     if "field_plume" in parsed_sections and isinstance(parsed_sections["field_plume"], dict):
         fp = top.sub("field_plume")
@@ -471,6 +472,36 @@ def _check_ambient_for_vent_fluid(f: Fields | None, site: SiteSpec):
                     f"an ambient temperature (and its 5 % point) within the vent-fluid model used at both ends of "
                     f"the orifice enthalpy difference: {e.allowed}")
             return
+
+
+def _check_flank_rise(f: Fields | None, rise, site):
+    """The circulated seawater (ambient + rise) is TEOS-10 seawater, at most 40 degC, in every draw: the
+    ridge-flank estimate uses each draw, so the rise's 99.99 % point is checked (about the largest of
+    10,000 draws)."""
+    if f is None or rise is None or site is None or site.ambient_temperature is None:
+        return
+    from statistics import NormalDist
+
+    value = rise.value if isinstance(rise, SharedRef) else rise
+    z = NormalDist().inv_cdf(0.9999)
+    if hasattr(value, "kind"):
+        a, b = float(value.a), float(value.b)
+        top = {"normal": a + z * b, "uniform": b, "lognormal": a * b ** z}[value.kind]
+        from ..units import Q_ as _Q
+
+        top_k = float(_Q(top, value.unit).to("K").magnitude) if value.unit not in ("degree_Celsius",) else top
+    else:
+        top_k = float(value.to("K").magnitude)
+    try:
+        from ..limits import _span
+
+        t_amb = _span(site.ambient_temperature, "degC")[0]
+    except (TypeError, ValueError, AttributeError):
+        return
+    if t_amb + top_k > 40.0:
+        f.error("temperature_rise", f.table.get("temperature_rise"),
+                f"a rise that keeps the circulated seawater within TEOS-10 (at most 40 degC) in every draw: "
+                f"its 99.99 % point, {top_k:.3g} K above {t_amb:.3g} degC, is too high (narrow the spread)")
 
 
 def _check_flank_observations(errs: Collector, table):
