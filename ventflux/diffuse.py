@@ -636,6 +636,14 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
     if Ac.shape[0] != len(class_names):
         raise InputError("class area", f"{Ac.shape[0]} areas for {len(class_names)} classes", "one area per class")
     c = Collector()
+    seen = set()
+    for name in class_names:  # a class listed twice would be added twice
+        if name in seen:
+            c.add(InputError("area class", name, "each mapped class listed once"))
+        seen.add(name)
+    for name in sorted(set(patch_class) - set(class_names)):  # its patches would silently drop out of the total
+        c.add(InputError("patch class", name or "(empty)", "the class of a sampled patch among the mapped classes: "
+                         + ", ".join(class_names)))
     for name in class_names:
         if name not in patch_class:
             c.add(InputError("area class", name, "a mapped class with at least one sampled patch; sampled classes: "
@@ -758,6 +766,7 @@ def read_patch_table(path, polygons=None) -> PatchTable:
     names = text["patch"] or tuple(f"line {n}" for n in tbl.lines)
     classes = text["class"] or tuple("" for _ in tbl.lines)
     c = Collector()
+    _check_duplicate_rows(path, tbl, text["patch"], classes, c)
     if polygons is not None:
         if "area" in tbl:
             raise InputError("area", str(path), "either an area column or a polygon file, not both")
@@ -788,7 +797,7 @@ def read_patch_table(path, polygons=None) -> PatchTable:
         q = temperature_difference(q, k) if k == "temperature_anomaly_sd" else q
         for i in np.flatnonzero(q.magnitude < 0):
             c.add(InputError(k, f"{q.magnitude[i]:g}", "a standard deviation ≥ 0", where=f"{path}:{tbl.lines[i]}"))
-        sds[k] = q
+        sds[k] = Q_(q.magnitude + 0.0, q.units)  # -0 is 0 (a normal's scale must not carry a sign)
     # A standard deviation is drawn inside the column's physical range (``PATCH_BOUNDS``): such a
     # distribution exists only for a positive mean, and for a fraction only when sd² < f(1 − f).
     for k, mean in (("area_sd", area.magnitude), ("temperature_anomaly_sd", dT.magnitude),
@@ -807,6 +816,10 @@ def read_patch_table(path, polygons=None) -> PatchTable:
                              f"√(f(1 − f)) = {np.sqrt(max(frac[i] * (1 - frac[i]), 0)):.3g} for an active fraction "
                              f"f = {frac[i]:g} (the widest spread a fraction between 0 and 1 can have)",
                              where=f"{path}:{tbl.lines[i]}"))
+    values = {"area": area, "active_fraction": Q_(frac, "dimensionless"), "temperature_anomaly": dT, "velocity": w}
+    for k, v in values.items():
+        if v is not None and sds.get(k + "_sd") is not None:
+            _check_spread(path, tbl.lines, k, v, sds[k + "_sd"], c)
     c.raise_if_any()
     return PatchTable(names=tuple(names), classes=tuple(classes), area=area, active_fraction=frac,
                       temperature_anomaly=dT, velocity=w, area_sd=sds["area_sd"],
@@ -814,6 +827,51 @@ def read_patch_table(path, polygons=None) -> PatchTable:
                       else sds["active_fraction_sd"].to("dimensionless").magnitude,
                       temperature_anomaly_sd=sds["temperature_anomaly_sd"], velocity_sd=sds["velocity_sd"],
                       lines=tbl.lines)
+
+
+def _check_spread(path, lines, name, value, sd, c):
+    """A row's normal (value ± sd) must keep its 95 % point within the plausibility limit (a fraction ≤ 1).
+
+    Draws below zero are the propagation driver's policy (drop and count, refuse above its threshold)."""
+    from .limits import Z95, implausible_allowed, limit_for
+
+    unit = "K" if name == "temperature_anomaly" else str(value.units)
+    v = value.to(unit).magnitude if name != "temperature_anomaly" else value.magnitude
+    s = sd.to(unit).magnitude if name != "temperature_anomaly" else sd.magnitude
+    hi = v + Z95 * s
+    lim = limit_for(name)
+    top = 1.0 if name == "active_fraction" else None
+    if lim is not None and top is None and not implausible_allowed():
+        top = Q_(lim.high, lim.unit or "dimensionless").to(unit).magnitude if name != "temperature_anomaly" \
+            else lim.high
+    for i in range(v.size):
+        shown = f"{v[i]:g} ± {s[i]:g} {unit}".replace(" dimensionless", "")
+        if top is not None and hi[i] > top:
+            c.add(InputError(f"{name} ± {name}_sd", shown, f"a spread whose 95 % point ({hi[i]:.3g}) is at most "
+                             f"{top:g}" + ("" if name == "active_fraction" else " (plausibility limit)"),
+                             where=f"{path}:{lines[i]}"))
+
+
+def _check_duplicate_rows(path, tbl, names, classes, c):
+    """A patch named twice, or a row repeated value for value, would be counted twice: refuse it at its line."""
+    first = {}
+    if names is not None:
+        for i, name in enumerate(names):
+            if name in first:
+                c.add(InputError("patch", name, f"each patch on one line only (also on line {first[name]})",
+                                 where=f"{path}:{tbl.lines[i]}"))
+            else:
+                first[name] = int(tbl.lines[i])
+        return
+    cols = sorted(tbl.columns)
+    for i in range(len(tbl)):
+        row = (classes[i], *(float(tbl[k].magnitude[i]) for k in cols))
+        if row in first:
+            c.add(InputError("patch", f"line {tbl.lines[i]}", f"each patch once; the same values as line {first[row]} "
+                             "(name the patches in a 'patch' column if they truly are distinct)",
+                             where=f"{path}:{tbl.lines[i]}"))
+        else:
+            first[row] = int(tbl.lines[i])
 
 
 def _areas_from_polygons(polygons, names, lines, patch_path):
@@ -845,15 +903,25 @@ def read_area_classes(path):
     if names is None:
         raise InputError("column", "class", "a 'class' column naming each mapped area class", where=str(path))
     c = Collector()
+    first = {}
+    for i, name in enumerate(names):  # a class listed twice would be scaled up twice
+        if name in first:
+            c.add(InputError("class", name, f"each mapped class on one line only (also on line {first[name]})",
+                             where=f"{path}:{tbl.lines[i]}"))
+        else:
+            first[name] = int(tbl.lines[i])
     for i in np.flatnonzero(tbl["area"].magnitude < 0):
         c.add(InputError("area", f"{tbl['area'].magnitude[i]:g}", "a mapped area ≥ 0", where=f"{path}:{tbl.lines[i]}"))
-    if "area_sd" in tbl:  # drawn lognormal with this mean and sd: a spread needs a positive area
-        sd = tbl["area_sd"].to(tbl["area"].units).magnitude
-        for i in np.flatnonzero(sd < 0):
-            c.add(InputError("area_sd", f"{sd[i]:g}", "a standard deviation ≥ 0", where=f"{path}:{tbl.lines[i]}"))
-        for i in np.flatnonzero((sd > 0) & ~(tbl["area"].magnitude > 0)):
-            c.add(InputError("area_sd", f"{sd[i]:g}", "a standard deviation of 0 for a mapped area of 0",
+    sd = None
+    if "area_sd" in tbl:
+        sd = tbl["area_sd"].to("m^2")
+        for i in np.flatnonzero(sd.magnitude < 0):
+            c.add(InputError("area_sd", f"{sd.magnitude[i]:g}", "a standard deviation ≥ 0",
+                             where=f"{path}:{tbl.lines[i]}"))
+        sd = Q_(sd.magnitude + 0.0, "m^2")  # -0 is 0 (a normal's scale must not carry a sign)
+        for i in np.flatnonzero((sd.magnitude > 0) & ~(tbl["area"].magnitude > 0)):
+            c.add(InputError("area_sd", f"{sd.magnitude[i]:g}", "a standard deviation of 0 for a mapped area of 0",
                              where=f"{path}:{tbl.lines[i]}"))
     c.raise_if_any()
-    return names, tbl["area"].to("m^2"), (tbl["area_sd"].to("m^2") if "area_sd" in tbl else None)
+    return names, tbl["area"].to("m^2"), sd
 

@@ -81,3 +81,52 @@ class _Catch:
             self.collector.add(exc)
             return True
         return False
+
+
+class Warnings:
+    """Problems that do not stop a run but change what its numbers mean.
+
+    A vent left out of a total, a class with no sampled patch, draws dropped:
+    nothing may be excluded silently, so each is recorded here under its key
+    path, printed, listed in the report's warnings section and stored in
+    ``summary.json`` (``as_list()``). Adding the same (key, message) twice
+    records it once.
+
+    Examples
+    --------
+    >>> w = Warnings()
+    >>> w.add("vent[2]", "no exit temperature: not in the field's water total")
+    >>> w.as_list()
+    [{'key': 'vent[2]', 'message': "no exit temperature: not in the field's water total"}]
+    >>> w.lines()
+    ["vent[2]: no exit temperature: not in the field's water total"]
+    """
+
+    def __init__(self):
+        self._items: list[tuple[str, str]] = []
+
+    def add(self, key: str, message: str) -> None:
+        item = (str(key), str(message))
+        if item not in self._items:
+            self._items.append(item)
+
+    def extend(self, other: Warnings) -> None:
+        for key, message in other._items:
+            self.add(key, message)
+
+    def as_list(self) -> list[dict]:
+        """The warnings as JSON-ready dictionaries ``{"key": ..., "message": ...}``, in the order added."""
+        return [{"key": k, "message": m} for k, m in self._items]
+
+    def lines(self) -> list[str]:
+        """One line per warning, ``key: message``, as printed."""
+        return [f"{k}: {m}" if k else m for k, m in self._items]
+
+    def __len__(self):
+        return len(self._items)
+
+    def __bool__(self):
+        return bool(self._items)
+
+    def __iter__(self):
+        return iter(self.as_list())

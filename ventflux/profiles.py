@@ -51,7 +51,7 @@ from dataclasses import dataclass
 import gsw
 import numpy as np
 
-from .errors import InputError
+from .errors import Collector, InputError
 from .properties.seawater import absolute_salinity, check_funnel, sea_pressure_dbar
 from .tables import read_quantity_table
 from .units import Q_, magnitude, require_dimension
@@ -171,29 +171,33 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
         p = gsw.p_from_z(-z, lat0)
     if "depth" not in tbl:
         z = -gsw.z_from_p(p, lat0)
+    # Every problem of the cast at once: its order, then each row outside the valid ranges.
+    errs = Collector()
     step = np.diff(key)
     if key.size > 1:
         sign = 1.0 if step[0] > 0 else -1.0
         bad = np.flatnonzero(~(sign * step > 0))
         if bad.size:
             i = bad[0] + 1
-            raise InputError(label, f"{key[i]:g}", f"values that strictly {'increase' if sign > 0 else 'decrease'} "
-                             f"row by row (a single down- or up-cast); after {key[i - 1]:g}", where=where(i))
+            errs.add(InputError(label, f"{key[i]:g}", f"values that strictly {'increase' if sign > 0 else 'decrease'} "
+                                f"row by row (a single down- or up-cast); after {key[i - 1]:g}", where=where(i)))
     order = np.argsort(z)
     t = tbl["temperature"].to("degC").magnitude
     sp = tbl["salinity"].to("dimensionless").magnitude
+    rows_ok = np.ones(z.size, bool)
     for name, v, lo, hi in (("depth", z, 0, 11000), ("salinity", sp, 0, 42)):
         bad = np.flatnonzero((v < lo) | (v > hi))
-        if bad.size:
-            raise InputError(name, f"{v[bad[0]]:g}", f"a value from {lo} to {hi}", where=where(bad[0]))
-    SA = absolute_salinity(sp, p, lon, lat)
+        rows_ok[bad] = False
+        for i in bad:
+            errs.add(InputError(name, f"{v[i]:g}", f"a value from {lo} to {hi}", where=where(i)))
+    SA = absolute_salinity(np.clip(sp, 0, 42), np.clip(p, 0, None), lon, lat)
     CT = gsw.CT_from_t(SA, t, p)
-    outside = np.flatnonzero(~np.asarray(gsw.infunnel(SA, CT, p), bool))
-    if outside.size:
-        i = outside[0]
-        raise InputError("temperature", f"{t[i]:g} degC at {p[i]:.0f} dbar",
-                         "seawater within TEOS-10's validity (freezing point to 40 degC, 0-8000 dbar)",
-                         where=where(i))
+    outside = np.flatnonzero(~np.asarray(gsw.infunnel(SA, CT, p), bool) & rows_ok)
+    for i in outside:
+        errs.add(InputError("temperature", f"{t[i]:g} degC at {p[i]:.0f} dbar",
+                            "seawater within TEOS-10's validity (freezing point to 40 degC, 0-8000 dbar)",
+                            where=where(i)))
+    errs.raise_if_any()
     z, p, SA, CT, t, sp = (a[order] for a in (z, p, SA, CT, t, sp))
     if window is not None:
         w = float(magnitude(require_dimension(window, "length", "window"), "m"))

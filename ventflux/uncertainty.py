@@ -251,7 +251,11 @@ def _unit_of(unit_text, dimension, field, whole, default_unit):
 def check_uncertain(u: Uncertain, dimension: str, field: str) -> Uncertain:
     require_dimension(Q_(1.0, u.unit) if ureg.Unit(u.unit) not in (ureg.degC, ureg.degF) else Q_(0.0, u.unit),
                       dimension, field)
-    return u
+    from . import limits  # non-finite parameters never pass; magnitudes against the plausibility table
+
+    limits.check_finite(field, [u.a, u.b], u)
+    u = Uncertain(u.kind, u.a + 0.0, u.b + 0.0, u.unit)  # "-0" is 0: NumPy refuses a scale with a sign bit
+    return limits.check(field, u, u, dimension)
 
 
 def nominal(x):

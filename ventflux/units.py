@@ -117,7 +117,8 @@ def parse_quantity(text, dimension: str, field: str, default_unit: str | None = 
     Raises
     ------
     InputError
-        If the text does not parse or has the wrong dimension.
+        If the text does not parse, has the wrong dimension, is not finite or
+        lies outside the plausibility limit of ``field`` (``ventflux.limits``).
     """
     if isinstance(text, pint.Quantity):
         q = text
@@ -143,7 +144,16 @@ def parse_quantity(text, dimension: str, field: str, default_unit: str | None = 
             raise
         except Exception:
             raise InputError(field, text, expected(dimension)) from None
-    return require_dimension(q, dimension, field)
+    q = require_dimension(q, dimension, field)
+    if not isinstance(text, pint.Quantity) or np.ndim(q.magnitude) == 0:
+        # Non-finite values are refused at parse level, always; implausible
+        # magnitudes against the one table of ``ventflux.limits``.
+        from . import limits
+
+        limits.check_finite(field, q.magnitude, text)
+        if np.ndim(q.magnitude) == 0:
+            limits.check(field, q, text, dimension)
+    return q
 
 
 def _bare(value, dimension, field, default_unit, shown):

@@ -11,6 +11,8 @@ import numpy as np
 
 def add_output_options(parser):
     parser.add_argument("--json", action="store_true", help="print one JSON object to standard output")
+    parser.add_argument("--allow-implausible", action="store_true",
+                        help="accept values outside the plausibility limits (ventflux.limits); never inf or nan")
 
 
 def write_output(option, path, write, *args):

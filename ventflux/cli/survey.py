@@ -18,8 +18,10 @@ to the survey file; CSV files carry units in their column headers ("temperature 
              ambient_temperature (required), ambient_salinity (practical, default 35),
              ctd (CSV cast: "pressure [dbar]" or "depth [m]", "temperature [degC]", "salinity"),
              ctd_smoothing (a length: the profile's smoothing window)
-[run]        draws (default 10000), seed (default 20261202), max_unphysical (largest share of draws dropped
-             as physically impossible, counted and reported, before the run refuses; default 0.05)
+[run]        draws (default 10000; at most what the machine's memory holds), seed (default 20261202; 0 to 2^32-1),
+             max_unphysical (largest share of draws dropped as physically impossible, counted and reported,
+             before the run refuses; default 0.05), allow_implausible (default false: values outside
+             ventflux.limits' plausibility table are refused)
 [shared]     name = value, e.g. "camera scale" = "1.00 ± 0.03" (a relative factor) or any quantity
 [[vent]]     name (required), exit_temperature (for the water flux, if no orifice gives one), and methods:
 {methods}
@@ -70,20 +72,28 @@ def run(args) -> int:
         return 0
     if not args.survey:
         raise InputError("survey", "(missing)", "the path of a survey file (see 'ventflux survey --format')")
+    if args.draws is not None and args.draws < 100:
+        raise InputError("--draws", args.draws, "at least 100 draws for a survey")
     spec = load_survey(args.survey)
     if args.draws is not None:
-        if args.draws < 100:
-            raise InputError("--draws", args.draws, "at least 100 draws for a survey")
+        from ..resources import check_memory
+        from ..survey.spec import _series
+
+        check_memory(args.draws, _series(spec.vents, spec.sections), "--draws")
         spec.draws = args.draws
     if args.seed is not None:
         spec.seed = args.seed
+    for line in spec.warnings.lines():
+        print(f"ventflux survey: warning: {line}", file=sys.stderr)
     if args.check:
         n = len(spec.vents)
+        w = len(spec.warnings)
         msg = f"{spec.path.name}: valid ({n} vent{'s' if n != 1 else ''}, sections: " \
-              f"{', '.join(spec.sections) or 'none'}, {len(spec.input_files)} input files)"
+              f"{', '.join(spec.sections) or 'none'}, {len(spec.input_files)} input files" \
+              f"{f', {w} warning' + ('s' if w != 1 else '') if w else ''})"
         if args.json:
             print_json({"valid": True, "vents": [v.name for v in spec.vents], "sections": list(spec.sections),
-                        "input_files": list(spec.input_files)})
+                        "input_files": list(spec.input_files), "warnings": spec.warnings.as_list()})
         else:
             print(msg)
         return 0

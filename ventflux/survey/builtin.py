@@ -232,6 +232,8 @@ def _parse_diffuse(f, ctx):
         missing = sorted(set(spec["classes"][0]) - set(t.classes))
         for m in missing:
             f.error("classes", m, "a mapped class with at least one sampled patch in " + str(patches))
+        for u in sorted(set(t.classes) - set(spec["classes"][0])):  # never leave sampled patches out silently
+            f.error("patches", u or "(empty class)", "a patch class listed in " + str(classes))
     return spec
 
 

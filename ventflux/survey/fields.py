@@ -9,6 +9,7 @@ answer otherwise.
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 from ..errors import Collector, InputError
@@ -52,7 +53,7 @@ class Fields:
     def has(self, name) -> bool:
         return name in self.table
 
-    def sub(self, name, required=False) -> "Fields | None":
+    def sub(self, name, required=False) -> Fields | None:
         self.used.add(name)
         if name not in self.table:
             if required:
@@ -61,7 +62,7 @@ class Fields:
         return Fields(self.table[name], self.key(name), self.errors, self.where, self.base_dir, self.defaults,
                       self.shared)
 
-    def subs(self, name) -> list["Fields"]:
+    def subs(self, name) -> list[Fields]:
         """An array of tables (``[[vent]]``) as ``Fields`` with indexed key paths."""
         self.used.add(name)
         items = self.table.get(name, [])
@@ -95,6 +96,17 @@ class Fields:
                            (", ".join(sorted(self.shared)) or "(none defined)"))
                 return None
             value = self.shared[ref]
+            try:  # a shared value has the dimension and meets the plausibility limit of every key that uses it
+                from ..units import require_dimension
+
+                require_dimension(Q_(1.0, value.unit) if isinstance(value, Uncertain) else value, dimension,
+                                  self.key(name))
+                from ..limits import check
+
+                check(self.key(name), value, f"{raw} = {value}", dimension)
+            except InputError as e:
+                self.errors.add(InputError(self.key(name), raw, e.allowed, where=self.where))
+                return None
             return SharedRef(ref, value)
         if isinstance(raw, (int, float)) and not isinstance(raw, bool):
             raw = str(raw) if dimension == "dimensionless" else raw
@@ -116,6 +128,12 @@ class Fields:
         if positive and not mag > 0:
             self.error(name, raw, f"a {dimension} > 0")
             return None
+        if positive and isinstance(value, Uncertain) and not _low_tail(value, dimension) > 0:
+            # The run drops draws ≤ 0 and refuses an input when more than 5 % are: check that here, so that a
+            # file that passes --check never fails in the run.
+            self.error(name, raw, f"a {dimension} > 0 in at least 95 % of its draws (its 5 % point is "
+                                  f"{_low_tail(value, dimension):.3g} in SI units; narrow the spread)")
+            return None
         if minimum is not None and centre < minimum:
             self.error(name, raw, f"a {dimension} ≥ {minimum:~P}")
             return None
@@ -131,6 +149,9 @@ class Fields:
         ok_type = isinstance(raw, int) if integer else isinstance(raw, (int, float))
         if isinstance(raw, bool) or not ok_type:
             self.error(name, repr(raw), "an integer" if integer else "a number")
+            return None
+        if not math.isfinite(raw):
+            self.error(name, raw, "a finite number (not inf or nan)")
             return None
         if (minimum is not None and raw < minimum) or (maximum is not None and raw > maximum):
             rng = f"from {minimum} to {maximum}" if maximum is not None else f"≥ {minimum}"
@@ -157,12 +178,23 @@ class Fields:
         if not isinstance(raw, str) or not raw.strip():
             self.error(name, repr(raw), "a path written as a string, relative to the survey file")
             return None
+        if "\0" in raw:
+            self.error(name, raw.replace("\0", "\\0"), "a path without NUL characters")
+            return None
         p = (self.base_dir / raw).resolve() if not Path(raw).is_absolute() else Path(raw)
         exists = p.is_file() if kind == "file" else p.is_dir()
         if not exists:
             self.error(name, raw, f"an existing {kind} (looked for {p})")
             return None
         return p
+
+
+def _low_tail(value, dimension) -> float:
+    """The 5 % point of a distribution, in SI (kelvin for temperatures)."""
+    from ..limits import _span
+
+    unit = "K" if dimension == "temperature" else str(Q_(1.0, value.unit).to_base_units().units)
+    return _span(value, unit)[1]
 
 
 class SharedRef:
@@ -196,4 +228,4 @@ def as_float(q):
     return q.to("dimensionless").magnitude if hasattr(q, "to") else q
 
 
-__all__ = ["Fields", "SharedRef", "resolve", "nominal_of", "as_float", "Q_"]
+__all__ = ["Q_", "Fields", "SharedRef", "as_float", "nominal_of", "resolve"]

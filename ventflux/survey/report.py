@@ -291,7 +291,9 @@ def summary_of(result, tables) -> dict:
         "method_combination": "best linear unbiased estimate on log power with the draws' covariance, "
                               "widened by the Birge factor when methods disagree (ventflux.aggregate)",
         "elapsed_s": result.elapsed,
+        "implausible_values_allowed": bool(getattr(spec, "allow_implausible", False)),
     }
+    out["warnings"] = spec.warnings.as_list() if hasattr(spec, "warnings") else []  # every exclusion, named
     return out
 
 
@@ -457,6 +459,9 @@ figure,tr{{break-inside:avoid}} .caution{{border:1px solid #e0a030}}}}
     if prov["defaults_used"]:
         parts.append("<p>Defaults used: " + esc("; ".join(f"{k} = {v}" for k, v in prov["defaults_used"].items()))
                      + "</p>")
+    if summary.get("warnings"):
+        parts.append("<h2>Warnings</h2><ul>" + "".join(f"<li><code>{esc(w['key'])}</code>: {esc(w['message'])}</li>"
+                                                       for w in summary["warnings"]) + "</ul>")
     notes = [n for vr in result.vents for e in vr.methods.values() for n in e.notes]
     notes += [n for s in result.sections.values() for n in s.notes]
     if notes:

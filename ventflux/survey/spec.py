@@ -24,10 +24,11 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ..errors import Collector, InputError
+from ..errors import Collector, InputError, InputErrors, Warnings
+from ..resources import MAX_SEED, check_memory
 from ..units import Q_
 from .api import ParseContext
-from .fields import Fields
+from .fields import Fields, SharedRef
 
 #: Default Monte Carlo draws of a survey run (a choice: the 5-95 % limits of
 #: 10,000 draws are reproducible to about 1 % of the interval width).
@@ -46,6 +47,8 @@ class SiteSpec:
     ctd: Path | None
     ctd_window: object
     cruise: str | None = None
+    #: Depth range [m] of the CTD cast after binning, once --check has read it (for cross-checks).
+    ctd_extent: tuple | None = None
 
 
 @dataclass
@@ -77,6 +80,11 @@ class SurveySpec:
     input_files: dict = field(default_factory=dict)
     #: ``[run] max_unphysical``: largest share of draws dropped as impossible before the run refuses.
     max_unphysical: float = 0.05
+    #: Problems that do not stop the run (a vent left out of the water total, ...): printed by the command,
+    #: listed in the report's warnings section and stored in summary.json.
+    warnings: Warnings = field(default_factory=lambda: Warnings())
+    #: Whether values outside the plausibility limits were accepted (``--allow-implausible`` or [run]).
+    allow_implausible: bool = False
 
 
 def survey_components():
@@ -110,7 +118,49 @@ def load_survey(path) -> SurveySpec:
         raise InputError("survey file", "not valid TOML", f"valid TOML ({e})", where=where) from None
     except UnicodeDecodeError:
         raise InputError("survey file", "not UTF-8 text", "a UTF-8 TOML file", where=where) from None
+    nul = Collector()  # no file name or value may hold NUL; refuse before any reader meets one
+    for key, value in _strings(raw, ""):
+        if "\0" in value:
+            nul.add(InputError(key, value.replace("\0", "\\0"), "text without NUL characters", where=where))
+    nul.raise_if_any()
+    allow = raw.get("run", {}).get("allow_implausible", False) if isinstance(raw.get("run"), dict) else False
+    from ..limits import allowing_implausible, implausible_allowed
+
+    allowed = allow is True or implausible_allowed()
+    with allowing_implausible(allowed):
+        spec = _load(raw, path, where)
+    spec.allow_implausible = allowed
+    if allowed:
+        spec.warnings.add("run.allow_implausible", "values outside the plausibility limits are accepted "
+                                                   "(ventflux.limits); check them before trusting the numbers")
+    return spec
+
+
+def _name_the_vent(errs: Collector, first: int, path: str, name):
+    """Problems of one vent name it too: ``vent[1].orifice[0].velocity (vent 'Coalcap')``."""
+    if not isinstance(name, str) or name == path:
+        return
+    for k in range(first, len(errs.errors)):
+        e = errs.errors[k]
+        if e.field == path or str(e.field).startswith((path + ".", path + "[")):
+            errs.errors[k] = InputError(f"{e.field} (vent '{name}')", e.value, e.allowed, where=e.where)
+
+
+def _strings(node, path):
+    """Every string of a parsed TOML document with its key path (``vent[0].video.clip``)."""
+    if isinstance(node, dict):
+        for k, v in node.items():
+            yield from _strings(v, f"{path}.{k}" if path else str(k))
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            yield from _strings(v, f"{path}[{i}]")
+    elif isinstance(node, str):
+        yield path, node
+
+
+def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     errs = Collector()
+    warnings = Warnings()
     defaults: dict = {}
     top = Fields(raw, "", errs, where, path.parent, defaults)
     input_files = {str(path): "survey"}
@@ -140,7 +190,11 @@ def load_survey(path) -> SurveySpec:
     max_unphysical = DEFAULT_MAX_UNPHYSICAL
     if run is not None:
         draws = run.number("draws", default=DEFAULT_DRAWS, minimum=100, maximum=1_000_000, integer=True)
-        seed = run.number("seed", default=None, minimum=0, integer=True)
+        seed = run.number("seed", default=None, minimum=0, maximum=MAX_SEED, integer=True)
+        allow = run.table.get("allow_implausible", False)
+        run.used.add("allow_implausible")
+        if not isinstance(allow, bool):
+            run.error("allow_implausible", repr(allow), "true or false")
         max_unphysical = run.number("max_unphysical", default=DEFAULT_MAX_UNPHYSICAL, minimum=0, maximum=0.99)
         run.check_unknown()
     from ..uncertainty import DEFAULT_SEED
@@ -156,6 +210,7 @@ def load_survey(path) -> SurveySpec:
     vents = []
     names = set()
     for vf in top.subs("vent"):
+        first_error = len(errs.errors)
         name = vf.string("name", required=True) or vf.path
         if name in names:
             vf.error("name", name, "a vent name used only once in the survey")
@@ -172,20 +227,151 @@ def load_survey(path) -> SurveySpec:
         if not parsed and isinstance(vf.table, dict):
             vf.error("", name, "a vent with at least one method: " + ", ".join(sorted(methods)))
         vf.check_unknown()
+        _check_vent(vf, name, exit_t, parsed, site, warnings)
+        _name_the_vent(errs, first_error, vf.path, name)
         vents.append(VentSpec(name=name, exit_temperature=exit_t, methods=parsed))
     parsed_sections = {}
     for key, s in sections.items():
         if key in raw:
             parsed_sections[key] = s.parse(top.sub(key), ctx)
+    if any("orifice" in v.methods for v in vents) and site is not None:
+        _check_ambient_for_vent_fluid(top.sub("site"), site)
+    if isinstance(parsed_sections.get("ridge_flank"), dict):
+        _check_flank_observations(errs, parsed_sections["ridge_flank"].get("table"))
+        _check_flank_rise(top.sub("ridge_flank"), parsed_sections["ridge_flank"].get("temperature_rise"), site)
     reservoirs = [_parse_reservoir(rf, names, site) for rf in top.subs("reservoir")]
+    if "field_plume" in parsed_sections and isinstance(parsed_sections["field_plume"], dict):
+        fp = top.sub("field_plume")
+        if fp is not None:
+            _check_rise_height(fp, parsed_sections["field_plume"].get("height"), site)
+            _check_plume_spread(fp, parsed_sections["field_plume"])
     top.check_unknown()
     if not vents and not parsed_sections:
         errs.add(InputError("survey", "no [[vent]] and no field-wide section", "at least one vent or section",
                             where=where))
+    if draws is not None:
+        with errs.check():
+            check_memory(int(draws), _series(vents, parsed_sections), "run.draws" if run is not None and
+                         "draws" in run.table else "--draws", where=where)
     errs.raise_if_any()
     return SurveySpec(path=path, site=site, draws=int(draws), seed=int(seed), shared=shared, vents=vents,
                       sections=parsed_sections, reservoirs=reservoirs, defaults_used=defaults,
-                      input_files=input_files, max_unphysical=float(max_unphysical))
+                      input_files=input_files, max_unphysical=float(max_unphysical), warnings=warnings)
+
+
+def _series(vents, sections) -> int:
+    """How many arrays of draws a run holds at once, roughly: one per orifice, patch, class and section."""
+    n = 8  # the site's shared inputs and the field totals
+    for v in vents:
+        for parsed in v.methods.values():
+            n += 4 * (len(parsed) if isinstance(parsed, list) else 1)
+    for parsed in sections.values():
+        table = parsed.get("table") if isinstance(parsed, dict) else None
+        n += 4 + 4 * (len(table.names) if hasattr(table, "names") else 0)
+    return n
+
+
+def _check_vent(f: Fields, name, exit_t, methods: dict, site, warnings: Warnings):
+    """Cross-field checks of one vent that no single key can make."""
+    plume = methods.get("plume_rise")
+    if isinstance(plume, dict):
+        sub = f.sub("plume_rise")
+        if sub is not None:
+            _check_rise_height(sub, plume.get("height"), site)
+            if len(methods) > 1:
+                _check_plume_spread(sub, plume)
+    for i, o in enumerate(methods.get("orifice") or []):
+        if isinstance(o, dict) and o.get("temperature") is not None:
+            sub = f.subs("orifice")[i] if i < len(f.subs("orifice")) else None
+            if sub is not None:
+                _check_hot_tail(sub, o["temperature"], site)
+    if exit_t is None and "orifice" not in methods:
+        warnings.add(f.path, f"vent '{name}' has no exit temperature (no exit_temperature and no orifice "
+                             "measurement): its heat counts in the totals but it is left out of the field's water "
+                             "flux total")
+
+
+def _check_plume_spread(f: Fields, plume: dict):
+    """A plume estimate compared with other methods needs an uncertainty: an exact one cannot be weighed."""
+    def uncertain(v):
+        v = v.value if isinstance(v, SharedRef) else v
+        return hasattr(v, "kind") and v.b > 0 and not (v.kind == "lognormal" and v.b == 1)
+
+    keys = ["height", "buoyancy_frequency", "stratification_scale", "current"]
+    if plume.get("method", "integral") == "integral":
+        keys.append("entrainment")
+    if plume.get("height") is not None and not any(uncertain(plume.get(k)) for k in keys):
+        f.error("height", f.table.get("height"), "a rise height with its uncertainty, e.g. \"195 ± 20 m\": this "
+                                                  "estimate is compared with others, and an exact one cannot be "
+                                                  "weighed against them")
+
+
+def _check_hot_tail(f: Fields, temperature, site):
+    """The exit temperature's 95 % point must stay in the vent-fluid model (not boiling at the site's pressure):
+    the run drops draws that boil and refuses an input when more than 5 % do."""
+    value = temperature.value if isinstance(temperature, SharedRef) else temperature
+    if not hasattr(value, "kind") or site is None:
+        return  # an exact value is checked by the method's own parser
+    from ..limits import _span
+    from ..properties import fluid_model
+
+    p = _site_pressure(site)
+    if p is None:
+        return
+    _, _, hi = _span(value, "K")
+    try:
+        fluid_model().check(hi, float(p.to("Pa").magnitude), "temperature")
+    except InputError as e:
+        f.error("temperature", f.table.get("temperature"), f"an exit temperature whose 95 % point "
+                                                          f"({hi - 273.15:.1f} degC) is still {e.allowed} "
+                                                          "(narrow the spread)")
+
+
+def _check_rise_height(f: Fields, height, site):
+    """A plume cannot rise above the sea surface: the rise height (up to its 95 % point) stays below the depth."""
+    if height is None or site is None:
+        return
+    from ..limits import _span
+
+    depth = _site_depth_m(site)
+    if depth is None:
+        return
+    value = height.value if isinstance(height, SharedRef) else height
+    try:
+        _, _, hi = _span(value, "m")
+    except (InputError, TypeError, ValueError, AttributeError):
+        return
+    if not hi < depth:
+        f.error("height", f.table.get("height"), f"a rise height below the site's depth ({depth:.0f} m) up to its "
+                                                  "95 % point: a plume cannot rise above the sea surface")
+    elif site.ctd_extent is not None and not depth - hi >= site.ctd_extent[0] and "buoyancy_frequency" not in f.table:
+        f.error("height", f.table.get("height"), f"a rise height (up to its 95 % point) within the CTD cast: at most "
+                                                  f"{depth - site.ctd_extent[0]:.0f} m above the site (the cast "
+                                                  f"starts at {site.ctd_extent[0]:.0f} m)")
+
+
+def _site_depth_m(site):
+    try:
+        if site.depth is not None:
+            return float(site.depth.to("m").magnitude)
+        if site.pressure is not None:
+            import gsw
+
+            from ..properties.seawater import sea_pressure_dbar
+
+            return float(-gsw.z_from_p(float(sea_pressure_dbar(site.pressure)), site.latitude or 0.0))
+    except (InputError, TypeError, ValueError, AttributeError):
+        return None
+    return None
+
+
+def _site_pressure(site):
+    from ..orifice import in_situ_pressure
+
+    try:
+        return in_situ_pressure(site.pressure, site.depth, site.latitude)
+    except (InputError, TypeError, ValueError, AttributeError):
+        return None
 
 
 def _guess_dimension(text: str) -> str:
@@ -225,10 +411,158 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
     ctd = f.path_value("ctd")
     if ctd is not None:
         input_files[str(ctd)] = "CTD cast"
+    elif "ctd" in f.table:
+        # The cast's own error is reported; methods that would use it must not also report a missing
+        # stratification, so the site keeps a placeholder (the run never starts with errors).
+        ctd = Path("(unreadable CTD cast)")
     window = f.quantity("ctd_smoothing", "length", uncertain=False, positive=True)
     f.check_unknown()
-    return SiteSpec(name=name, pressure=pressure, depth=depth, latitude=lat, longitude=lon,
+    site = SiteSpec(name=name, pressure=pressure, depth=depth, latitude=lat, longitude=lon,
                     ambient_temperature=t_amb, ambient_salinity=s_amb, ctd=ctd, ctd_window=window, cruise=cruise)
+    _check_ambient(f, site)
+    if ctd is not None and "ctd_smoothing" in f.table and window is None:
+        return site  # the window's own error is reported; the cast is read once it is fixed
+    if ctd is not None and f.key("ctd") not in {e.field for e in f.errors.errors}:
+        _check_ctd(f, site)
+    return site
+
+
+def _check_ambient(f: Fields, site: SiteSpec):
+    """The ambient seawater must lie in TEOS-10's funnel at the site's pressure, over its 5-95 % range."""
+    if site.ambient_temperature is None or (site.depth is None and site.pressure is None):
+        return
+    import gsw
+    import numpy as np
+
+    from ..limits import _span
+    from ..properties.seawater import absolute_salinity, sea_pressure_dbar
+
+    p_abs = _site_pressure(site)
+    if p_abs is None:
+        return
+    try:
+        p = float(sea_pressure_dbar(p_abs))
+        t = np.array(_span(site.ambient_temperature, "degC"))
+        sp = np.array(_span(site.ambient_salinity, "dimensionless")) if site.ambient_salinity is not None \
+            else np.array([35.0])
+    except (InputError, TypeError, ValueError, AttributeError):
+        return
+    for i, (tt, ss) in enumerate((t_, s_) for t_ in t for s_ in sp):
+        SA = float(absolute_salinity(ss, p, site.longitude, site.latitude))
+        CT = float(gsw.CT_from_t(SA, tt, p))
+        if not bool(gsw.infunnel(SA, CT, p)):
+            tf = float(gsw.t_freezing(SA, p, 0))
+            key = "ambient_salinity" if not 0 <= ss <= 42 else "ambient_temperature"
+            f.error(key, f.table.get(key), f"seawater within TEOS-10's validity at the site's {p:.0f} dbar over "
+                                          f"its 5-95 % range: above its freezing point ({tf:.2f} degC) and at most "
+                                          "40 degC, salinity 0-42")
+            return
+
+
+def _check_ambient_for_vent_fluid(f: Fields | None, site: SiteSpec):
+    """Orifice heat is an enthalpy difference in the vent-fluid model at both ends, so the ambient water
+    (nominal and 5 % point) must lie in that model's validity too (IAPWS-95 starts at 0.01 degC)."""
+    if f is None or site.ambient_temperature is None:
+        return
+    from ..limits import _span
+    from ..properties import fluid_model
+
+    p = _site_pressure(site)
+    if p is None or f.key("ambient_temperature") in {e.field for e in f.errors.errors}:
+        return
+    nom, lo, _ = _span(site.ambient_temperature, "K")
+    for value in (nom, lo):
+        try:
+            fluid_model().check(value, float(p.to("Pa").magnitude), "ambient_temperature")
+        except InputError as e:
+            f.error("ambient_temperature", f.table.get("ambient_temperature"),
+                    f"an ambient temperature (and its 5 % point) within the vent-fluid model used at both ends of "
+                    f"the orifice enthalpy difference: {e.allowed}")
+            return
+
+
+def _check_flank_rise(f: Fields | None, rise, site):
+    """The circulated seawater (ambient + rise) is TEOS-10 seawater, at most 40 degC, in every draw: the
+    ridge-flank estimate uses each draw, so the rise's 99.99 % point is checked (about the largest of
+    10,000 draws)."""
+    if f is None or rise is None or site is None or site.ambient_temperature is None:
+        return
+    from statistics import NormalDist
+
+    value = rise.value if isinstance(rise, SharedRef) else rise
+    z = NormalDist().inv_cdf(0.9999)
+    if hasattr(value, "kind"):
+        a, b = float(value.a), float(value.b)
+        top = {"normal": a + z * b, "uniform": b, "lognormal": a * b ** z}[value.kind]
+        from ..units import Q_ as _Q
+
+        top_k = float(_Q(top, value.unit).to("K").magnitude) if value.unit not in ("degree_Celsius",) else top
+    else:
+        top_k = float(value.to("K").magnitude)
+    try:
+        from ..limits import _span
+
+        t_amb = _span(site.ambient_temperature, "degC")[0]
+    except (TypeError, ValueError, AttributeError):
+        return
+    if t_amb + top_k > 40.0:
+        f.error("temperature_rise", f.table.get("temperature_rise"),
+                f"a rise that keeps the circulated seawater within TEOS-10 (at most 40 degC) in every draw: "
+                f"its 99.99 % point, {top_k:.3g} K above {t_amb:.3g} degC, is too high (narrow the spread)")
+
+
+def _check_flank_observations(errs: Collector, table):
+    """The ridge-flank integral needs at least two distinct ages and heat flows ≥ 0 (checked at file:line)."""
+    if table is None:
+        return
+    import numpy as np
+
+    age = table["age"].to("Myr").magnitude
+    q = table["heat_flow"].to("mW/m^2").magnitude
+    where = lambda i: f"{table.path}:{table.lines[i]}"
+    if age.size < 2:
+        errs.add(InputError("age", f"{age.size} row", "at least two observations", where=str(table.path)))
+    first: dict = {}
+    for i, a in enumerate(age):
+        if a < 0:
+            errs.add(InputError("age", f"{a:g} Myr", "a crustal age ≥ 0", where=where(i)))
+        if a in first:
+            errs.add(InputError("age", f"{a:g} Myr", f"distinct observation ages (also on line {first[a]})",
+                                where=where(i)))
+        first.setdefault(a, int(table.lines[i]))
+    for i in np.flatnonzero(q < 0):
+        errs.add(InputError("heat_flow", f"{q[i]:g} mW/m^2", "a heat flow ≥ 0", where=where(i)))
+
+
+def _check_ctd(f: Fields, site: SiteSpec):
+    """Read the cast now, so that --check finds every problem the run would (order, numbers, stability)."""
+    from .. import profiles
+
+    kwargs = {"latitude": site.latitude, "longitude": site.longitude}
+    if site.ctd_window is not None:
+        kwargs["window"] = site.ctd_window
+    try:
+        prof = profiles.read_ctd_cast(site.ctd, **kwargs)
+    except InputErrors as e:
+        f.errors.errors.extend(_in_key(x, f.key("ctd")) for x in e.errors)
+        return
+    except InputError as e:
+        f.errors.add(_in_key(e, f.key("ctd")))
+        return
+    z = prof.depth.to("m").magnitude
+    site.ctd_extent = (float(z.min()), float(z.max()))
+    depth = _site_depth_m(site)
+    if depth is not None and not z.min() <= depth <= z.max():
+        key = "depth" if site.depth is not None else "pressure"
+        f.error(key, f.table.get(key), f"a site within the depth range of the CTD cast ({z.min():.0f} to "
+                                       f"{z.max():.0f} m after binning), or a cast that reaches the site")
+
+
+def _in_key(e: InputError, key: str) -> InputError:
+    """A data file's problem keeps its file:line and also names the survey key that points at the file."""
+    if e.where and ":" in str(e.where).rsplit("/", 1)[-1]:
+        return e  # file:line already says where
+    return InputError(f"{key}: {e.field}" if e.field != key else key, e.value, e.allowed, where=e.where)
 
 
 def _parse_reservoir(f: Fields, vent_names, site=None) -> ReservoirSpec:
@@ -254,6 +588,7 @@ def _parse_reservoir(f: Fields, vent_names, site=None) -> ReservoirSpec:
             {"volume", "area", "thickness"} & set(f.table)):
         f.error("volume", "(missing)", "a volume, or an area and a thickness")
     f.check_unknown()
+    _check_pore_fluid(f, opts, site)
     return ReservoirSpec(name=name, supplies=supplies or "field total", options=opts, size=size)
 
 
@@ -299,3 +634,43 @@ def _reservoir_pressure(f: Fields, opts: dict, site) -> None:
             rv.check_pore_fluid(opts["temperature"], opts["temperature_drop"], p)
         except InputError as e:
             f.error(keys.get(e.field, "temperature"), e.value, e.allowed)
+
+
+def _check_pore_fluid(f: Fields, opts: dict, site):
+    """With porosity > 0 the pore fluid cools from ``temperature`` by ``temperature_drop``: both ends must lie
+    in the fluid model's validity at the site's pressure (a 1100 degC pore fluid does not)."""
+    from ..reservoir import POROSITY
+
+    T = opts.get("temperature")
+    if T is None or site is None:
+        return
+    phi = opts.get("porosity", POROSITY)
+    if not phi > 0:
+        return
+    p = _site_pressure(site)
+    if p is None:
+        return
+    from ..properties import fluid_model
+
+    model = fluid_model()
+    Tk = float(T.to("K").magnitude)
+    dT = opts.get("temperature_drop")
+    ends = [("temperature", Tk)]
+    if dT is not None:
+        try:
+            drop = dT.magnitude if str(dT.units) in ("degree_Celsius", "delta_degree_Celsius") else dT.to("K").magnitude
+            ends.append(("temperature_drop", Tk - float(drop)))
+        except (InputError, TypeError, ValueError, AttributeError):
+            pass
+    for key, value in ends:
+        try:
+            model.check(value, float(p.to("Pa").magnitude), key)
+        except InputError as e:
+            what = "the pore fluid's initial temperature" if key == "temperature" else \
+                "the pore fluid's final temperature (temperature - temperature_drop)"
+            shown = f.table.get(key)
+            if "porosity" not in opts:
+                shown = f"{shown} with the default porosity {POROSITY:g}"
+            f.error(key, shown, f"{what} within the fluid model's validity ({e.allowed}), or porosity = 0 "
+                                "for a reservoir without pore fluid")
+            return

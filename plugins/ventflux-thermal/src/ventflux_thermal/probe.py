@@ -207,8 +207,13 @@ def read_metadata(path) -> dict:
     (comma-separated column names).
     """
     out = {}
-    with open(path, encoding="utf-8-sig") as fh:
-        for n, line in enumerate(fh, 1):
+    try:
+        lines = list(_head_lines(path))
+    except UnicodeDecodeError as e:  # a non-UTF-8 byte in the header: one line, not a traceback
+        raise InputError("file", str(path), f"a UTF-8 text record (byte 0x{e.object[e.start]:02x} at offset {e.start} "
+                         "is not UTF-8)", where=str(path)) from None
+    if True:
+        for n, line in lines:
             if not line.lstrip().startswith("#"):
                 if line.strip():
                     break
@@ -257,6 +262,15 @@ def read_probe_record(path, n_sensors: int | None = None, sensor_columns=None) -
                              where=str(path))
         sensor_columns = [f"T{i + 1}" for i in range(n_sensors)]
     return read_record(path, sensor_columns, meta)
+
+
+def _head_lines(path):
+    """Numbered lines up to the first line that is neither a comment nor blank."""
+    with open(path, encoding="utf-8-sig") as fh:
+        for n, line in enumerate(fh, 1):
+            yield n, line
+            if line.strip() and not line.lstrip().startswith("#"):
+                return
 
 
 def _sensor_columns_in_header(path):
