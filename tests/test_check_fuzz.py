@@ -55,7 +55,7 @@ def _number(draw_):
 @st.composite
 def quantity_text(draw, old: str):
     """A new value for a quantity written ``old`` (``"351 ± 2 degC"``)."""
-    m = re.match(r"^\s*([-+]?[0-9.eE+-]+)", old)
+    m = re.match(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)", old)
     base = float(m.group(1)) if m else 1.0
     unit = old.split()[-1] if len(old.split()) > 1 and not old.split()[-1][0].isdigit() else ""
     kind = draw(st.sampled_from(["scale", "spread", "unit", "uniform", "lognormal", "special", "negate"]))

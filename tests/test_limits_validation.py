@@ -14,7 +14,8 @@ from hypothesis import strategies as st
 from ventflux import limits
 from ventflux.cli import main
 from ventflux.errors import InputError, Warnings
-from ventflux.resources import MAX_SEED, check_memory, check_seed, memory_needed
+from ventflux.resources import check_memory, memory_needed
+from ventflux.uncertainty import MAX_SEED, check_seed
 from ventflux.uncertainty import parse_uncertain
 from ventflux.units import Q_, parse_quantity
 

@@ -82,6 +82,7 @@ import numpy as np
 import pint
 
 from .errors import InputError
+
 # SharedDraws lives in the uncertainty layer (one mechanism for every command and the survey);
 # it is re-exported here for existing callers.
 from .uncertainty import SharedDraws, Summary, summarize

@@ -44,12 +44,12 @@ Registry look-ups
 
 from __future__ import annotations
 
+from . import __version__ as CORE_VERSION
 from .cli.montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .cli.output import add_output_options, print_json, print_table, write_output
+from .diffuse import diffuse_discharge
 from .errors import Collector, InputError, InputErrors
 from .hookspecs import hookimpl
-from . import __version__ as CORE_VERSION
-from .diffuse import diffuse_discharge
 from .io import (
     atomic_directory,
     atomic_write_bytes,
@@ -63,51 +63,51 @@ from .orifice import in_situ_pressure, orifice_discharge
 from .properties import FluidModel, fluid_model, pressure_from_depth, seawater_state
 from .properties.seawater import CP0, STANDARD_ATMOSPHERE, sea_pressure_dbar
 from .registry import (
-                          Command,
-                          FluidModelInfo,
-                          Method,
-                          Reader,
-                          VelocitySource,
-                          velocity_from_source,
+    Command,
+    FluidModelInfo,
+    Method,
+    Reader,
+    VelocitySource,
+    velocity_from_source,
 )
 from .registry import fluid_model as fluid_model_by_name
 from .survey.api import (
-                          MethodEstimate,
-                          ReportPart,
-                          SectionEstimate,
-                          SurveyMethod,
-                          SurveySection,
+    MethodEstimate,
+    ReportPart,
+    SectionEstimate,
+    SurveyMethod,
+    SurveySection,
 )
 from .survey.fields import SharedRef, as_float, nominal_of, resolve
 from .tables import read_quantity_table
 from .uncertainty import (
-                          DEFAULT_DRAWS,
-                          DEFAULT_MAX_UNPHYSICAL,
-                          DEFAULT_SEED,
-                          Propagation,
-                          SharedDraws,
-                          Summary,
-                          Uncertain,
-                          UnphysicalPolicy,
-                          from_mean_sd,
-                          lognormal,
-                          nominal,
-                          normal,
-                          parse_uncertain,
-                          propagate,
-                          summarize,
-                          uniform,
-                          unit_tag,
+    DEFAULT_DRAWS,
+    DEFAULT_MAX_UNPHYSICAL,
+    DEFAULT_SEED,
+    Propagation,
+    SharedDraws,
+    Summary,
+    Uncertain,
+    UnphysicalPolicy,
+    from_mean_sd,
+    lognormal,
+    nominal,
+    normal,
+    parse_uncertain,
+    propagate,
+    summarize,
+    uniform,
+    unit_tag,
 )
 from .units import (
-                          DIMENSIONS,
-                          Q_,
-                          column_name,
-                          magnitude,
-                          parse_column_name,
-                          parse_quantity,
-                          require_dimension,
-                          ureg,
+    DIMENSIONS,
+    Q_,
+    column_name,
+    magnitude,
+    parse_column_name,
+    parse_quantity,
+    require_dimension,
+    ureg,
 )
 
 #: Version of this plugin contract (changes when a name here changes meaning or goes away).

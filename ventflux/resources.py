@@ -1,4 +1,4 @@
-"""What a run may ask of the machine: the seed's range and the memory its draws need.
+"""What a run may ask of the machine: the memory its draws need.
 
 A draw count that the machine cannot hold must be refused before the run
 starts, with one line, not found out by the kernel killing the process. The
@@ -14,8 +14,6 @@ import os
 
 from .errors import InputError
 
-#: Seeds are NumPy ``SeedSequence`` entropy; the command line and the survey accept 0 … 2³²−1.
-MAX_SEED = 2**32 - 1
 #: Arrays of ``n`` float64 values alive at once per Monte Carlo series (a choice made here, see above).
 ARRAYS_PER_SERIES = 24
 #: Fraction of the available memory a run may plan to use (a choice made here: room for the interpreter).
@@ -60,9 +58,3 @@ def check_memory(draws: int, series: int = 1, field: str = "--draws", where: str
         most = max(int(USABLE_FRACTION * have / (8 * ARRAYS_PER_SERIES * max(int(series), 1))), 1)
         raise InputError(field, draws, f"at most about {most:,} draws on this machine (this run would need about "
                                        f"{need / 2**30:.1f} GiB; {have / 2**30:.1f} GiB is available)", where=where)
-
-
-def check_seed(seed, field: str = "--seed") -> None:
-    """Refuse a seed outside 0 … 2³²−1."""
-    if isinstance(seed, bool) or not isinstance(seed, int) or not 0 <= seed <= MAX_SEED:
-        raise InputError(field, seed, f"an integer seed from 0 to {MAX_SEED}")

@@ -60,6 +60,8 @@ DEFAULT_MAX_UNPHYSICAL = 0.05
 #: Largest number of draws a run may ask for (a guard against a typo that
 #: would exhaust memory; 10 million draws of one input are 80 MB).
 MAX_DRAWS = 10_000_000
+#: Seeds are NumPy ``SeedSequence`` entropy: 0 … 2³²−1 on the command line and in a survey file.
+MAX_SEED = 2**32 - 1
 #: Names of the site-wide inputs every estimator shares (one stream each per
 #: run): the same in every command and in a survey, so both draw them alike.
 SITE_INPUT_NAMES = {
@@ -294,11 +296,13 @@ def check_draws(n_draws, field: str = "draws") -> int:
 
 def check_seed(seed, field: str = "seed") -> int:
     """A seed as an int in 0 … 2³²−1, or an ``InputError`` naming ``field``."""
+    if isinstance(seed, bool):
+        raise InputError(field, seed, "a whole number from 0 to 4294967295")
     try:
         s = int(seed)
     except (TypeError, ValueError):
         raise InputError(field, seed, "a whole number from 0 to 4294967295") from None
-    if s != seed or not 0 <= s < 2**32:
+    if s != seed or not 0 <= s <= MAX_SEED:
         raise InputError(field, seed, "a whole number from 0 to 4294967295")
     return s
 

@@ -94,15 +94,17 @@ def main(argv=None) -> int:
 def _check_common(args) -> None:
     """Options every command shares: the seed's range, a draw count the machine can hold, --allow-implausible."""
     from ..limits import set_allow_implausible
-    from ..resources import check_memory, check_seed
+    from ..resources import check_memory
+    from ..uncertainty import check_draws, check_seed
+    from .montecarlo import whole_number
 
     set_allow_implausible(bool(getattr(args, "allow_implausible", False)))
     seed = getattr(args, "seed", None)
     if seed is not None:
-        check_seed(seed)
+        check_seed(whole_number(seed, "--seed"), "--seed")
     draws = getattr(args, "draws", None)
-    if draws is not None and not isinstance(draws, bool) and isinstance(draws, int):
-        check_memory(draws)
+    if draws is not None and not isinstance(draws, bool):
+        check_memory(check_draws(whole_number(draws, "--draws"), "--draws"))
 
 
 def _os_error_line(err: OSError, argv) -> str:

@@ -44,13 +44,13 @@ class MonteCarloSettings:
 
 def monte_carlo_settings(args) -> MonteCarloSettings:
     """The validated ``--draws``, ``--seed`` and ``--max-unphysical`` (``InputError`` naming the option)."""
-    draws = None if args.draws is None else check_draws(_number(args.draws, "--draws"), "--draws")
-    seed = check_seed(_number(args.seed, "--seed"), "--seed")
+    draws = None if args.draws is None else check_draws(whole_number(args.draws, "--draws"), "--draws")
+    seed = check_seed(whole_number(args.seed, "--seed"), "--seed")
     share = check_max_unphysical(args.max_unphysical, "--max-unphysical")
     return MonteCarloSettings(draws, seed, share)
 
 
-def _number(text, option):
+def whole_number(text, option):
     """An option's text as a whole number (argparse gives strings)."""
     from ..errors import InputError
 

@@ -8,8 +8,8 @@ from ..errors import Collector, InputError
 from ..orifice import DEFAULT_AMBIENT_SALINITY
 from ..registry import Method
 from ..uncertainty import DEFAULT_DRAWS, Uncertain, parse_uncertain
-from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .budget import add_budget, add_budget_option, print_budget
+from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .output import add_output_options, print_json
 
 #: Vent name of a single orifice given on the command line (keys its random streams).

@@ -43,8 +43,8 @@ FIELD_PLUME = SurveySection(key="field_plume", summary="rise of the plume above 
 
 
 def _parse_flank(f, ctx):
-    from ..tables import read_quantity_table
     from ..errors import InputError, InputErrors
+    from ..tables import read_quantity_table
 
     spec = {"observations": f.path_value("observations", required=True),
             "reference": f.string("reference", default="gdh1", choices=("gdh1", "half-space")),

@@ -22,8 +22,14 @@ from typing import TYPE_CHECKING
 import numpy as np
 import pint
 
-from ..aggregate import (FieldTotal, FocusedDiffuseSplit, MethodComparison, compare_methods, field_total,
-                         focused_diffuse_split)
+from ..aggregate import (
+    FieldTotal,
+    FocusedDiffuseSplit,
+    MethodComparison,
+    compare_methods,
+    field_total,
+    focused_diffuse_split,
+)
 from ..orifice import in_situ_pressure
 from ..uncertainty import SITE_INPUT_NAMES, SharedDraws, Summary, Uncertain, UnphysicalPolicy, summarize
 from ..units import Q_

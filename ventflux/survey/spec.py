@@ -25,7 +25,8 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import Collector, InputError, InputErrors, Warnings
-from ..resources import MAX_SEED, check_memory
+from ..resources import check_memory
+from ..uncertainty import MAX_SEED
 from ..units import Q_
 from .api import ParseContext
 from .fields import Fields, SharedRef
@@ -588,7 +589,6 @@ def _parse_reservoir(f: Fields, vent_names, site=None) -> ReservoirSpec:
             {"volume", "area", "thickness"} & set(f.table)):
         f.error("volume", "(missing)", "a volume, or an area and a thickness")
     f.check_unknown()
-    _check_pore_fluid(f, opts, site)
     return ReservoirSpec(name=name, supplies=supplies or "field total", options=opts, size=size)
 
 
@@ -634,43 +634,3 @@ def _reservoir_pressure(f: Fields, opts: dict, site) -> None:
             rv.check_pore_fluid(opts["temperature"], opts["temperature_drop"], p)
         except InputError as e:
             f.error(keys.get(e.field, "temperature"), e.value, e.allowed)
-
-
-def _check_pore_fluid(f: Fields, opts: dict, site):
-    """With porosity > 0 the pore fluid cools from ``temperature`` by ``temperature_drop``: both ends must lie
-    in the fluid model's validity at the site's pressure (a 1100 degC pore fluid does not)."""
-    from ..reservoir import POROSITY
-
-    T = opts.get("temperature")
-    if T is None or site is None:
-        return
-    phi = opts.get("porosity", POROSITY)
-    if not phi > 0:
-        return
-    p = _site_pressure(site)
-    if p is None:
-        return
-    from ..properties import fluid_model
-
-    model = fluid_model()
-    Tk = float(T.to("K").magnitude)
-    dT = opts.get("temperature_drop")
-    ends = [("temperature", Tk)]
-    if dT is not None:
-        try:
-            drop = dT.magnitude if str(dT.units) in ("degree_Celsius", "delta_degree_Celsius") else dT.to("K").magnitude
-            ends.append(("temperature_drop", Tk - float(drop)))
-        except (InputError, TypeError, ValueError, AttributeError):
-            pass
-    for key, value in ends:
-        try:
-            model.check(value, float(p.to("Pa").magnitude), key)
-        except InputError as e:
-            what = "the pore fluid's initial temperature" if key == "temperature" else \
-                "the pore fluid's final temperature (temperature - temperature_drop)"
-            shown = f.table.get(key)
-            if "porosity" not in opts:
-                shown = f"{shown} with the default porosity {POROSITY:g}"
-            f.error(key, shown, f"{what} within the fluid model's validity ({e.allowed}), or porosity = 0 "
-                                "for a reservoir without pore fluid")
-            return
