@@ -5,7 +5,8 @@ those inside functions included, since a deferred import still ties the two
 modules together; only imports under ``if TYPE_CHECKING:``, which never run,
 are left out). Layers, from the bottom:
 
-0. ``units``, ``errors``, ``cachedir`` (and the package's ``__init__``)
+0. ``units``, ``errors``, ``cachedir``, ``limits`` (plausibility of what users type; and the package's
+   ``__init__``)
 1. ``properties`` — equations of state; imports only layer 0
 2. ``uncertainty``, ``tables``, ``io``, ``profiles``, ``sensitivity`` — inputs, their distributions and
    what their draws explain
@@ -26,7 +27,7 @@ ROOT = Path(__file__).resolve().parents[1]
 PACKAGE = ROOT / "ventflux"
 
 LAYERS = [
-    ("ventflux", "ventflux.units", "ventflux.errors", "ventflux.cachedir"),
+    ("ventflux", "ventflux.units", "ventflux.errors", "ventflux.cachedir", "ventflux.limits"),
     ("ventflux.properties",),
     ("ventflux.uncertainty", "ventflux.tables", "ventflux.io", "ventflux.profiles", "ventflux.sensitivity"),
     ("ventflux.orifice", "ventflux.diffuse", "ventflux.plume", "ventflux.reservoir", "ventflux.ridge_flank",

@@ -184,12 +184,14 @@ def set_allow_implausible(allow: bool) -> None:
 
 def _span(value, unit: str):
     """Nominal value and 5–95 % range of a quantity or ``Uncertain``, as floats in ``unit``."""
-    from .units import Q_
-
-    def conv(x, u):
-        return float(Q_(x, u).to(unit).magnitude)
-
     if hasattr(value, "kind") and hasattr(value, "a"):  # an Uncertain
+        # Its nominal is a quantity of the one registry: convert with that (this module sits below ``units``,
+        # which calls it, so it imports nothing of the package but errors).
+        registry = value.nominal._REGISTRY
+
+        def conv(x, u):
+            return float(registry.Quantity(x, u).to(unit).magnitude)
+
         u, a, b = value.unit, value.a, value.b
         if value.kind == "normal":
             lo, nom, hi = a - Z95 * b, a, a + Z95 * b
