@@ -19,8 +19,9 @@ import numpy as np
 
 from ventflux.plugin_api import Q_
 
-#: Samples evaluated at once per chunk (times the draws): bounds a worker's memory whatever the record's length.
-CHUNK_SAMPLES = 4096
+#: Values (samples × draws) evaluated at once: bounds a worker's memory whatever the record's length and the
+#: number of draws (the property layer holds a few dozen temporaries of this size; a choice made here).
+CHUNK_VALUES = 200_000
 #: A record whose rows are unreadable or non-finite beyond this fraction fails (choice, stated in the docs).
 MAX_BAD_ROWS = 0.05
 
@@ -104,11 +105,12 @@ def _window_means(values, starts):
         return sums / counts, counts
 
 
-def _chunked(n_samples, starts):
-    """Chunk boundaries on window starts, each about ``CHUNK_SAMPLES`` long (windows are never split)."""
+def _chunked(n_samples, starts, n_draws):
+    """Chunk boundaries on window starts, each about ``CHUNK_VALUES / n_draws`` samples (windows never split)."""
+    size = max(1, CHUNK_VALUES // max(int(n_draws), 1))
     edges = [0]
     for s in starts[1:]:
-        if s - edges[-1] >= CHUNK_SAMPLES:
+        if s - edges[-1] >= size:
             edges.append(int(s))
     edges.append(n_samples)
     return list(zip(edges[:-1], edges[1:]))
@@ -151,7 +153,7 @@ def _reduce_record(t, per_sample_power, interval_s, n_draws):
     out = np.empty((len(starts), n_draws), np.float32)
     dropped = np.zeros(len(starts), int)
     w0 = 0
-    for lo, hi in _chunked(len(t), starts):
+    for lo, hi in _chunked(len(t), starts, n_draws):
         local = starts[(starts >= lo) & (starts < hi)] - lo
         power = per_sample_power(lo, hi)  # (draws, samples)
         # A draw is unphysical for a window if any of its samples is: the window mean would be biased otherwise.
