@@ -788,7 +788,7 @@ def read_patch_table(path, polygons=None) -> PatchTable:
     for field, bad, vals, unit, allowed in checks:
         for i in np.flatnonzero(bad):
             c.add(InputError(field, f"{vals[i]:g} {unit}".strip(), allowed, where=f"{path}:{tbl.lines[i]}"))
-    sds = {}
+    sds: dict[str, pint.Quantity | None] = {}
     for k in ("area_sd", "active_fraction_sd", "temperature_anomaly_sd", "velocity_sd"):
         if k not in tbl:
             sds[k] = None
@@ -800,17 +800,19 @@ def read_patch_table(path, polygons=None) -> PatchTable:
         sds[k] = Q_(q.magnitude + 0.0, q.units)  # -0 is 0 (a normal's scale must not carry a sign)
     # A standard deviation is drawn inside the column's physical range (``PATCH_BOUNDS``): such a
     # distribution exists only for a positive mean, and for a fraction only when sd² < f(1 − f).
-    for k, mean in (("area_sd", area.magnitude), ("temperature_anomaly_sd", dT.magnitude),
-                    ("velocity_sd", None if w is None else w.magnitude)):
-        if sds.get(k) is None or mean is None:
+    spreads = [("area_sd", area), ("temperature_anomaly_sd", dT)] + ([] if w is None else [("velocity_sd", w)])
+    for k, value in spreads:
+        sd_q = sds.get(k)
+        if sd_q is None:
             continue
-        sd = sds[k].to(area.units if k == "area_sd" else dT.units if k == "temperature_anomaly_sd"
-                       else w.units).magnitude
+        mean = value.magnitude
+        sd = sd_q.to(value.units).magnitude
         for i in np.flatnonzero((sd > 0) & ~(mean > 0)):
             c.add(InputError(k, f"{sd[i]:g}", f"a standard deviation of 0 for a {k[:-3].replace('_', ' ')} of "
                              f"{mean[i]:g} (a spread needs a positive value)", where=f"{path}:{tbl.lines[i]}"))
-    if sds.get("active_fraction_sd") is not None:
-        sd = sds["active_fraction_sd"].to("dimensionless").magnitude
+    frac_sd = sds.get("active_fraction_sd")
+    if frac_sd is not None:
+        sd = frac_sd.to("dimensionless").magnitude
         for i in np.flatnonzero((sd > 0) & ~(sd**2 < frac * (1 - frac))):
             c.add(InputError("active_fraction_sd", f"{sd[i]:g}", f"a standard deviation below "
                              f"√(f(1 − f)) = {np.sqrt(max(frac[i] * (1 - frac[i]), 0)):.3g} for an active fraction "

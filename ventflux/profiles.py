@@ -50,6 +50,7 @@ from dataclasses import dataclass
 
 import gsw
 import numpy as np
+import pint
 
 from .errors import Collector, InputError
 from .properties.seawater import absolute_salinity, check_funnel, sea_pressure_dbar
@@ -83,19 +84,19 @@ class AmbientProfile:
     window : bin width used (None: no binning).
     """
 
-    depth: object
-    sea_pressure: object
-    temperature: object
-    practical_salinity: object
-    absolute_salinity: object
-    conservative_temperature: object
-    potential_density: object
-    buoyancy_frequency_squared: object
-    n2_depth: object
+    depth: pint.Quantity
+    sea_pressure: pint.Quantity
+    temperature: pint.Quantity
+    practical_salinity: pint.Quantity
+    absolute_salinity: pint.Quantity
+    conservative_temperature: pint.Quantity
+    potential_density: pint.Quantity
+    buoyancy_frequency_squared: pint.Quantity
+    n2_depth: pint.Quantity
     latitude: float | None
     longitude: float | None
     source: str
-    window: object = None
+    window: pint.Quantity | None = None
 
     def mean_buoyancy_frequency(self, lower_depth, height):
         """Depth-weighted mean N over ``height`` above ``lower_depth``: sqrt(∫N² dz / height).

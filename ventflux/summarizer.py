@@ -92,6 +92,7 @@ class Answer:
         rows = []
         for name, (s, unit) in self.outputs.items():
             s = s.to(unit)
+            shown: str | float
             if self.draws > 1:
                 shown = f"{s.median.magnitude:.4g} [{s.p05.magnitude:.4g}, {s.p95.magnitude:.4g}]"
             else:

@@ -207,6 +207,7 @@ def _run(args) -> int:
     else:
         inputs = _single_patch(args)
     names, classes = inputs["names"], inputs["classes"]
+    assert mc.draws is not None  # --draws defaults to DEFAULT_DRAWS for this command
     shared = SharedDraws(mc.draws, mc.seed)
     policy = UnphysicalPolicy(mc.max_unphysical)
     prop = diffuse_propagation(

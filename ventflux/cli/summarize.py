@@ -33,6 +33,8 @@ Every quantity may carry an uncertainty (``"100 ± 20 MW"``, ``"uniform(600, 900
 
 from __future__ import annotations
 
+from collections.abc import Callable
+
 import numpy as np
 
 from .. import reservoir as rv
@@ -75,7 +77,8 @@ _RESERVOIR_PRESSURE = [
      "depth of the reservoir below the seafloor, for its pressure (with --seafloor-pressure)"),
     ("--seafloor-pressure", "pressure", False, None, "absolute pressure at the seafloor, e.g. '25 MPa'"),
 ]
-QUESTIONS = {
+# question -> (answering function, help text, options as (flag, dimension, required, default, help))
+QUESTIONS: dict[str, tuple[Callable[..., sm.Answer], str, list[tuple]]] = {
     "water": (sm.water_answer, "mass flux, volume flux and annual throughput carried by a heat power",
               _COMMON_WATER),
     "reservoir": (sm.reservoir_answer, "heat-mining time, decline lifetime and conductive timescale of a reservoir",

@@ -384,7 +384,7 @@ def integrate(model, src: Sources, span, track=False, max_steps=None) -> Ensembl
     active = np.arange(n)
     d, gp = model.rhs(s, y, active)
     steps = max_steps or (6 * STEPS + 200)
-    rec = [] if track else None
+    rec: list[tuple[np.ndarray, np.ndarray, np.ndarray]] | None = [] if track else None
     c = model.c
     for _ in range(steps):
         if active.size == 0:

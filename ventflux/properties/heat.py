@@ -31,6 +31,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pint
 
 from ..errors import InputError
 from ..units import Q_, magnitude
@@ -64,8 +65,8 @@ def shortcut_heat_content(temperature, ambient_temperature, heat_capacity=SHORTC
 
 @dataclass(frozen=True)
 class VentFluidState:
-    enthalpy: object
-    density: object
+    enthalpy: pint.Quantity
+    density: pint.Quantity
 
 
 def _model(model):

@@ -36,6 +36,7 @@ from dataclasses import dataclass
 
 import gsw
 import numpy as np
+import pint
 
 from ..errors import InputError
 from ..units import Q_, magnitude
@@ -54,13 +55,13 @@ CP0 = gsw.cp0 if hasattr(gsw, "cp0") else 3991.86795711963
 class SeawaterState:
     """Seawater at one or more in-situ points (arrays of quantities)."""
 
-    absolute_salinity: object
-    conservative_temperature: object
-    density: object
-    thermal_expansion: object  # with respect to conservative temperature
-    heat_capacity: object  # isobaric, at in-situ temperature
-    enthalpy: object  # specific enthalpy, TEOS-10's reference state
-    sea_pressure: object
+    absolute_salinity: pint.Quantity
+    conservative_temperature: pint.Quantity
+    density: pint.Quantity
+    thermal_expansion: pint.Quantity  # with respect to conservative temperature
+    heat_capacity: pint.Quantity  # isobaric, at in-situ temperature
+    enthalpy: pint.Quantity  # specific enthalpy, TEOS-10's reference state
+    sea_pressure: pint.Quantity
 
 
 def sea_pressure_dbar(pressure) -> np.ndarray:

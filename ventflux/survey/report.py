@@ -202,7 +202,7 @@ def figures_of(result) -> list:
                 y += 1
             y += 0.5
         fig, ax = plt.subplots(figsize=(7.5, 1.0 + 0.4 * len(rows)))
-        colours = {}
+        colours: dict[str, str] = {}
         for yy, _, lo, med, hi, k in rows:
             c = colours.setdefault(k, f"C{len(colours)}")
             ax.errorbar(med, yy, xerr=[[med - lo], [hi - med]], fmt="D" if k == "combined" else "o", color=c,
@@ -260,7 +260,7 @@ def summary_of(result, tables) -> dict:
 
     spec = result.spec
     out = {"scenario": spec.site.name, "cruise": spec.site.cruise, "complete": True,
-           "created": _dt.datetime.now(_dt.timezone.utc).isoformat(timespec="seconds")}
+           "created": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")}
     if result.focused is not None:
         out.update(result.focused.summary.as_dict("focused_heat_power", "MW"))
     if result.diffuse is not None:

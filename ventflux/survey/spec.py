@@ -24,6 +24,8 @@ import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import pint
+
 from ..errors import Collector, InputError, InputErrors, Warnings
 from ..resources import check_memory
 from ..uncertainty import MAX_SEED
@@ -46,7 +48,7 @@ class SiteSpec:
     ambient_temperature: object
     ambient_salinity: object
     ctd: Path | None
-    ctd_window: object
+    ctd_window: pint.Quantity | None
     cruise: str | None = None
     #: Depth range [m] of the CTD cast after binning, once --check has read it (for cross-checks).
     ctd_extent: tuple | None = None
@@ -255,6 +257,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
             check_memory(int(draws), _series(vents, parsed_sections), "run.draws" if run is not None and
                          "draws" in run.table else "--draws", where=where)
     errs.raise_if_any()
+    assert site is not None  # a missing [site] was reported and raised just above
     return SurveySpec(path=path, site=site, draws=int(draws), seed=int(seed), shared=shared, vents=vents,
                       sections=parsed_sections, reservoirs=reservoirs, defaults_used=defaults,
                       input_files=input_files, max_unphysical=float(max_unphysical), warnings=warnings)
@@ -268,7 +271,7 @@ def _series(vents, sections) -> int:
             n += 4 * (len(parsed) if isinstance(parsed, list) else 1)
     for parsed in sections.values():
         table = parsed.get("table") if isinstance(parsed, dict) else None
-        n += 4 + 4 * (len(table.names) if hasattr(table, "names") else 0)
+        n += 4 + 4 * len(getattr(table, "names", ()))
     return n
 
 
@@ -448,7 +451,7 @@ def _check_ambient(f: Fields, site: SiteSpec):
             else np.array([35.0])
     except (InputError, TypeError, ValueError, AttributeError):
         return
-    for i, (tt, ss) in enumerate((t_, s_) for t_ in t for s_ in sp):
+    for tt, ss in ((t_, s_) for t_ in t for s_ in sp):
         SA = float(absolute_salinity(ss, p, site.longitude, site.latitude))
         CT = float(gsw.CT_from_t(SA, tt, p))
         if not bool(gsw.infunnel(SA, CT, p)):
@@ -520,7 +523,10 @@ def _check_flank_observations(errs: Collector, table):
 
     age = table["age"].to("Myr").magnitude
     q = table["heat_flow"].to("mW/m^2").magnitude
-    where = lambda i: f"{table.path}:{table.lines[i]}"
+
+    def where(i):
+        return f"{table.path}:{table.lines[i]}"
+
     if age.size < 2:
         errs.add(InputError("age", f"{age.size} row", "at least two observations", where=str(table.path)))
     first: dict = {}
@@ -531,15 +537,15 @@ def _check_flank_observations(errs: Collector, table):
             errs.add(InputError("age", f"{a:g} Myr", f"distinct observation ages (also on line {first[a]})",
                                 where=where(i)))
         first.setdefault(a, int(table.lines[i]))
-    for i in np.flatnonzero(q < 0):
-        errs.add(InputError("heat_flow", f"{q[i]:g} mW/m^2", "a heat flow ≥ 0", where=where(i)))
+    for j in np.flatnonzero(q < 0):
+        errs.add(InputError("heat_flow", f"{q[j]:g} mW/m^2", "a heat flow ≥ 0", where=where(j)))
 
 
 def _check_ctd(f: Fields, site: SiteSpec):
     """Read the cast now, so that --check finds every problem the run would (order, numbers, stability)."""
     from .. import profiles
 
-    kwargs = {"latitude": site.latitude, "longitude": site.longitude}
+    kwargs: dict[str, object] = {"latitude": site.latitude, "longitude": site.longitude}
     if site.ctd_window is not None:
         kwargs["window"] = site.ctd_window
     try:
