@@ -50,7 +50,8 @@ def ventflux_fluid_models():
     from . import properties
 
     summaries = {
-        properties.DEFAULT_MODEL: "pure water, IAPWS-95 (explicit Helmholtz evaluation), with a cached interpolation table",
+        properties.DEFAULT_MODEL: ("pure water, IAPWS-95 (explicit Helmholtz evaluation), "
+                                   "with a cached interpolation table"),
         "iapws95-water-direct": "pure water, IAPWS-95 (CoolProp), every point solved directly (slow, exact)",
     }
     return [FluidModelInfo(name=name, summary=summaries[name], factory=partial(properties.fluid_model, name))

@@ -198,7 +198,8 @@ def _patch_arrays(values: dict):
         np.broadcast_shapes(*(a.shape for a in out.values()))
     except ValueError:
         shapes = ", ".join(f"{k} {a.shape}" for k, a in out.items())
-        raise InputError("input shapes", shapes, "arrays that broadcast: (n_patches,) or (n_patches, n_draws)") from None
+        raise InputError("input shapes", shapes,
+                         "arrays that broadcast: (n_patches,) or (n_patches, n_draws)") from None
     return out
 
 
@@ -650,7 +651,8 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
                              + ", ".join(sorted(set(patch_class)))))
     for k, a in enumerate(Ac.reshape(Ac.shape[0], -1)):
         if np.any(a < 0):
-            c.add(InputError("class area", f"{a.min():g} m^2", "a mapped area ≥ 0 m^2", where=f"class {class_names[k]}"))
+            c.add(InputError("class area", f"{a.min():g} m^2", "a mapped area ≥ 0 m^2",
+                             where=f"class {class_names[k]}"))
     c.raise_if_any()
     pc = np.asarray(patch_class)
     n_draws = H.shape[1] if H.ndim == 2 else None

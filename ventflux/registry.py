@@ -102,7 +102,7 @@ class Deferred:
 
 def deferred_command(name: str, help: str, module: str, aliases: tuple[str, ...] = (),
                      provider: str = "ventflux") -> Command:
-    """A ``Command`` whose ``configure`` and ``run`` are module ``module``'s functions of those names, imported on use."""
+    """A ``Command`` whose ``configure`` and ``run`` are ``module``'s functions of those names, imported on use."""
     return Command(name=name, help=help, configure=Deferred(module, "configure"), run=Deferred(module, "run"),
                    provider=provider, aliases=tuple(aliases))
 
@@ -194,7 +194,7 @@ def survey_sections() -> list:
     return _collect("ventflux_survey_sections")
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def fluid_model(name: str):
     """The fluid model called ``name``, built once (``InputError`` listing the known ones if absent)."""
     known = {m.name: m for m in fluid_models()}

@@ -173,8 +173,8 @@ def _check(inputs: dict, outputs) -> tuple[list, np.ndarray, list, np.ndarray]:
     if not inputs:
         raise InputError("inputs", "none", "at least one named input with draws")
     names = list(inputs)
-    X = np.vstack([np.asarray(inputs[k], float).ravel() for k in names]) if len({np.size(inputs[k]) for k in names}) == 1 \
-        else None
+    same_size = len({np.size(inputs[k]) for k in names}) == 1
+    X = np.vstack([np.asarray(inputs[k], float).ravel() for k in names]) if same_size else None
     if X is None:
         sizes = ", ".join(f"{k}: {np.size(inputs[k])}" for k in names)
         raise InputError("inputs", sizes, "the same number of draws for every input")
@@ -371,7 +371,7 @@ def conditional_width(x, y, value: float, window: float = DEFAULT_WINDOW) -> flo
 
 # ---- dedicated design ---------------------------------------------------------------
 def pick_freeze_design(A: dict, B: dict, fixed: dict | None = None) -> dict:
-    """Inputs for a dedicated design: blocks ``A``, ``B``, ``AB_1 … AB_k``, then ``A`` with each ``fixed`` input at its value.
+    """Inputs for a dedicated design: ``A``, ``B``, ``AB_1 … AB_k``, then ``A`` with each ``fixed`` input at its value.
 
     Parameters
     ----------

@@ -300,6 +300,9 @@ def reservoir_size_answer(power, duration, temperature_drop, area=None, rock_den
     return ans
 
 
+#: Default bottom-water temperature for the ridge-flank question (from memory: deep water is about 1.5–3 °C).
+FLANK_AMBIENT_TEMPERATURE = Q_(2.0, "degC")
+
 FLANK_OUTPUTS = {
     "reference_heat": (_attr("deficit", "reference_heat"), "J/m^2"),
     "conductive_heat": (_attr("deficit", "conductive_heat"), "J/m^2"),
@@ -335,7 +338,7 @@ def _flank(age, heat_flow, reference, half_spreading_rate, temperature_rise, amb
 
 
 def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, temperature_rise=None,
-                 ambient_temperature=Q_(2.0, "degC"), pressure=None, salinity=DEFAULT_AMBIENT_SALINITY,
+                 ambient_temperature=FLANK_AMBIENT_TEMPERATURE, pressure=None, salinity=DEFAULT_AMBIENT_SALINITY,
                  conductivity=None, diffusivity=None, temperature_difference=None,
                  draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, deficit_span="observed",
                  max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> Answer:

@@ -514,7 +514,7 @@ class Propagation(Generic[R]):
         return int(np.count_nonzero(self.keep))
 
     def expand(self, q: pint.Quantity, unit: str | None = None) -> pint.Quantity:
-        """Draws of ``q`` (last axis = kept draws, or a scalar) put back on all ``n_draws`` columns, NaN where dropped."""
+        """Draws of ``q`` (last axis = kept draws, or a scalar) back on all ``n_draws`` columns, NaN where dropped."""
         unit = unit or str(q.units)
         m = np.asarray(q.to(unit).magnitude, float)
         lead = m.shape[:-1] if m.ndim and m.shape[-1] == self.kept else m.shape

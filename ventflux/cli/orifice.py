@@ -57,8 +57,10 @@ def configure(p):
     where = a.add_mutually_exclusive_group(required=True)
     where.add_argument("--pressure", metavar="Q", help="absolute in-situ pressure, e.g. '26 MPa'")
     where.add_argument("--depth", metavar="Q", help="depth below the sea surface, e.g. '2550 m' (TEOS-10 p_from_z)")
-    a.add_argument("--latitude", type=float, default=None, metavar="DEG", help="latitude in degrees north (for --depth)")
-    a.add_argument("--ambient-temperature", required=True, metavar="Q", help="in-situ ambient temperature, e.g. '2.1 degC'")
+    a.add_argument("--latitude", type=float, default=None, metavar="DEG",
+                   help="latitude in degrees north (for --depth)")
+    a.add_argument("--ambient-temperature", required=True, metavar="Q",
+                   help="in-situ ambient temperature, e.g. '2.1 degC'")
     a.add_argument("--ambient-salinity", default=f"{DEFAULT_AMBIENT_SALINITY:g}", metavar="S",
                    help=f"practical salinity (default {DEFAULT_AMBIENT_SALINITY:g}, TEOS-10 standard seawater)")
     m = p.add_argument_group("model and uncertainty")

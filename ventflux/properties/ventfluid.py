@@ -211,7 +211,7 @@ def _derivative(x, f, axis):
         denom = np.prod([xs[:, k] - xs[:, m] for m in others], axis=0)
         num = np.zeros(n)
         for m in others:
-            num += np.prod([xi[:, 0] - xs[:, l] for l in others if l != m], axis=0)
+            num += np.prod([xi[:, 0] - xs[:, q] for q in others if q != m], axis=0)
         w[:, k] = num / denom
     f = np.moveaxis(f, axis, 0)
     out = np.einsum("nk,nk...->n...", w, f[idx])
@@ -223,8 +223,9 @@ def _patch_nodes(h, d):
 
     Returns ``(below, above)`` (pressures up to and from the critical
     pressure), each an array (8, nT, nP_half): h, ∂h/∂T, ∂h/∂p, ∂²h/∂T∂p,
-    then the same for density (each quantity contiguous, used without a copy). Each half's derivatives use its own nodes only,
-    so nothing crosses the critical isobar.
+    then the same for density (each quantity contiguous, used without a
+    copy). Each half's derivatives use its own nodes only, so nothing
+    crosses the critical isobar.
     """
     out = []
     for sel in (_P_NODES <= P_CRIT, _P_NODES >= P_CRIT):

@@ -167,7 +167,8 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None) -> Surve
     reservoirs = [_reservoir(r, vents, focused, diffuse, pressure, spec.seed, policy) for r in spec.reservoirs]
     shared = {k: v for k, v in draws.describe().items() if k.startswith(("shared/", "site/"))}
     return SurveyResult(spec=spec, pressure=pressure, vents=vents, sections=sec, focused=focused, diffuse=diffuse,
-                        conductive=conductive, total=total, split=split, water=water, reservoirs=reservoirs, dropped_draws=dropped,
+                        conductive=conductive, total=total, split=split, water=water, reservoirs=reservoirs,
+                        dropped_draws=dropped,
                         n_draws=int(keep.sum()), elapsed=time.perf_counter() - t0, shared_inputs=shared,
                         checks=checks, draws=draws, keep=keep,
                         report_parts={**{k: methods[k].report for v in spec.vents for k in v.methods},
