@@ -96,7 +96,8 @@ def _list_quantity(text, unit_dim, field):
     try:
         values = [float(s) for s in parts[:-1]] + [float(last.magnitude)]
     except ValueError:
-        raise InputError(field, text, "comma-separated numbers with one unit at the end, e.g. '0.5,1.0,1.5 m'") from None
+        raise InputError(field, text,
+                         "comma-separated numbers with one unit at the end, e.g. '0.5,1.0,1.5 m'") from None
     return Q_(np.array(values), last.units)
 
 

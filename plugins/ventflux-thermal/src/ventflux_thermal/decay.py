@@ -61,7 +61,7 @@ def _table(alpha_key: float):
     """log F on a dense log-τ grid: the cubic spline through the quadrature, read by linear interpolation
     (step 5e-4 in ln τ, interpolation error below 1e-7 relative; np.interp is several times faster)."""
     from scipy.interpolate import CubicSpline
-    
+
     tau = np.exp(_LOG_TAU)
     F = cylinder_decay_exact(alpha_key, tau)
     return CubicSpline(_LOG_TAU, np.log(F))(_DENSE)

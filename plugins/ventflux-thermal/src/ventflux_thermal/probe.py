@@ -686,8 +686,9 @@ def screen_sensors(rec: ProbeRecord, t_start: float, exclude=()) -> dict:
         elif np.nanmax(y) - np.nanmin(y) < 1e-6:
             out[name] = f"constant reading ({np.nanmin(y) - 273.15:g} degC)"
         elif np.nanmin(y) < PLAUSIBLE_TEMPERATURE[0] or np.nanmax(y) > PLAUSIBLE_TEMPERATURE[1]:
-            out[name] = (f"non-physical temperature ({(np.nanmin(y) if np.nanmin(y) < PLAUSIBLE_TEMPERATURE[0] else np.nanmax(y)) - 273.15:g} degC; "
-                         f"allowed {PLAUSIBLE_TEMPERATURE[0] - 273.15:g} to {PLAUSIBLE_TEMPERATURE[1] - 273.15:g} degC)")
+            worst = np.nanmin(y) if np.nanmin(y) < PLAUSIBLE_TEMPERATURE[0] else np.nanmax(y)
+            lo, hi = (t - 273.15 for t in PLAUSIBLE_TEMPERATURE)
+            out[name] = f"non-physical temperature ({worst - 273.15:g} degC; allowed {lo:g} to {hi:g} degC)"
     return out
 
 

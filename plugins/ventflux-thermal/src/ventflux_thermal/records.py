@@ -17,7 +17,7 @@ from __future__ import annotations
 import csv
 import re
 from dataclasses import dataclass, field
-from datetime import datetime, timezone
+from datetime import UTC, datetime
 from pathlib import Path
 
 import numpy as np
@@ -83,7 +83,7 @@ def parse_timestamps(cells, lines, where) -> tuple[np.ndarray, datetime]:
             raise InputError("time", text or "(empty)", "an ISO 8601 timestamp such as 2026-03-14T08:00:00Z",
                              where=f"{where}:{lines[r]}") from None
         if d.tzinfo is None:
-            d = d.replace(tzinfo=timezone.utc)
+            d = d.replace(tzinfo=UTC)
         if first is None:
             first = d
         out[r] = (d - first).total_seconds()

@@ -61,7 +61,7 @@ def _probe(f):
     sub = f.sub("probe")
     values = {}
     if sub is not None:
-        for key, (unit, dim) in PROBE_FIELDS.items():
+        for key, (_unit, dim) in PROBE_FIELDS.items():
             v = sub.quantity(key, dim, positive=key != "heat_pulse_duration", shareable=False)
             if v is not None:
                 values[key] = v
@@ -242,5 +242,6 @@ def _figures(results, stations):
 
 
 SEDIMENT_PROBES = SurveySection(key="sediment_probes",
-                                summary="sediment heat-flow probe records → conductive heat loss of the sedimented area",
+                                summary="sediment heat-flow probe records → conductive heat loss of the "
+                                        "sedimented area",
                                 parse=_parse, estimate=_estimate, provider="ventflux-thermal")

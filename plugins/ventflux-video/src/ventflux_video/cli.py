@@ -202,7 +202,8 @@ def _field_summary(field, mpp):
 
     u, w, _, _ = (q.to("m/s").magnitude for q in field.velocity(mpp))
     return {
-        "mode": field.mode, "frame_pairs": field.pairs, "grid_rows": int(field.y.size), "grid_columns": int(field.x.size),
+        "mode": field.mode, "frame_pairs": field.pairs,
+        "grid_rows": int(field.y.size), "grid_columns": int(field.x.size),
         "frame_interval_s": field.interval.to("s").magnitude, "metres_per_pixel_m": mpp.to("m").magnitude,
         "mean_w_m_s": float(np.nanmean(w)), "max_w_m_s": float(np.nanmax(w)), "mean_u_m_s": float(np.nanmean(u)),
         "replaced_vector_fraction": field.replaced_fraction, "frames_skipped": field.skipped_frames,

@@ -11,7 +11,8 @@ the two windows symmetrically by the rounded displacement of the previous one
 (window offset) [1], [2], so the final residual displacement is below half a
 pixel, where the Gaussian estimator's bias (peak locking) is smallest [1].
 Coarse passes, whose windows are at least twice the last pass's, run on
-2 x 2-binned frames by default: they only predict the offsets. Between passes and at the end, spurious vectors are found by the normalized
+2 x 2-binned frames by default: they only predict the offsets. Between
+passes and at the end, spurious vectors are found by the normalized
 median test and replaced by the median of their valid neighbours [3].
 
 Signal-to-noise is reported as the ratio of the highest correlation peak to

@@ -218,7 +218,8 @@ class FrameStream:
         except Exception as err:  # ffmpeg's reasons vary: no moov atom, invalid data, ...
             reason = str(err).splitlines()[0] if str(err) else type(err).__name__
             raise InputError("clip", self.source,
-                             f"a readable video file (ffmpeg could not open it: {reason}; truncated or not a video?)") from None
+                             f"a readable video file (ffmpeg could not open it: {reason}; "
+                             "truncated or not a video?)") from None
         w, h = meta["size"]
         fps = meta.get("fps") or None
         dur = meta.get("duration") or None

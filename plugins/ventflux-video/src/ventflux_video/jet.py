@@ -93,7 +93,8 @@ def centreline_profile(mean_field, metres_per_pixel, orifice_xy, search_half_wid
     w, w_sd = w.to("m/s").magnitude, w_sd.to("m/s").magnitude
     above = mean_field.y < oy
     if not above.any():
-        raise InputError("--orifice", f"{ox:g},{oy:g}", "an orifice below some of the region's window centres (row larger)")
+        raise InputError("--orifice", f"{ox:g},{oy:g}",
+                         "an orifice below some of the region's window centres (row larger)")
     cols = np.ones(mean_field.x.size, bool)
     if search_half_width is not None:
         hw = magnitude(search_half_width, "m", "length", "search half-width") / mpp
@@ -248,7 +249,8 @@ def exit_velocity(profile: CentrelineProfile, points=4):
     se = profile.velocity_se.to("m/s").magnitude
     ok = np.isfinite(w) & np.isfinite(z)
     if ok.sum() < points:
-        raise InputError("--exit-points", points, f"at most the {int(ok.sum())} heights with a velocity above the orifice")
+        raise InputError("--exit-points", points,
+                         f"at most the {int(ok.sum())} heights with a velocity above the orifice")
     z, w, se = z[ok][:points], w[ok][:points], se[ok][:points]
     se = np.where(np.isfinite(se) & (se > 0), se, np.nanmax(np.r_[se[np.isfinite(se)], 1e-6]))
     wt = 1 / se**2

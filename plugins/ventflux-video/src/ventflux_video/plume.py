@@ -219,5 +219,6 @@ def heat_power_from_buoyancy_flux(buoyancy_flux, temperature, salinity, pressure
     alpha = sw.thermal_expansion.to("1/K").magnitude
     if np.any(np.asarray(alpha) <= 0):
         raise InputError("ambient temperature", f"{temperature:~P}",
-                         "water warmer than its density maximum (thermal expansion > 0) for a buoyancy-to-heat conversion")
+                         "water warmer than its density maximum (thermal expansion > 0) "
+                         "for a buoyancy-to-heat conversion")
     return Q_(rho * CP0 * np.asarray(f) / (gravity(latitude, pressure) * alpha), "W")

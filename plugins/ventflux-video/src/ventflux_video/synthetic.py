@@ -66,7 +66,8 @@ def render_particles(shape, x, y, diameter=2.5, intensity=None, background=0.0, 
     iy = np.floor(y + 0.5).astype(int)[:, None] + offs
 
     def _share(idx, centre):  # fraction of the Gaussian falling in each pixel
-        return 0.5 * (erf((idx + 0.5 - centre[:, None]) / (_SQRT2 * s)) - erf((idx - 0.5 - centre[:, None]) / (_SQRT2 * s)))
+        return 0.5 * (erf((idx + 0.5 - centre[:, None]) / (_SQRT2 * s))
+                      - erf((idx - 0.5 - centre[:, None]) / (_SQRT2 * s)))
 
     ex, ey = _share(ix, x), _share(iy, y)
     vals = (amp * 2 * np.pi * s * s)[:, None, None] * ey[:, :, None] * ex[:, None, :]
