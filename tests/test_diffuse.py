@@ -212,7 +212,8 @@ def test_cli_table_polygons_and_scale_up(tmp_path, capsys):
                "--json"])
     assert rc == 0
     out = json.loads(capsys.readouterr().out)
-    assert [p["effective_area_m2"] for p in out["patches"]] == pytest.approx([1.0, 0.9, 1.0])  # triangle 2 m² × 0.5, triangle 3 m² × 0.3, 10 m² × 0.1
+    # triangle 2 m² × 0.5, triangle 3 m² × 0.3, 10 m² × 0.1
+    assert [p["effective_area_m2"] for p in out["patches"]] == pytest.approx([1.0, 0.9, 1.0])
     su = out["scale_up"]
     assert [c["class"] for c in su["classes"]] == ["mat", "basalt"]
     assert su["heat_power_MW_p05"] < su["heat_power_MW_median"] < su["heat_power_MW_p95"]
@@ -252,8 +253,10 @@ def test_cli_bad_site_or_orphan_source_options(capsys, extra, field):
 
 def test_cli_patch_velocities_with_sd_and_bad_rows(tmp_path, capsys):
     p = _write(tmp_path / "pv.csv", "patch,class,area [m^2],active_fraction,temperature_anomaly [K],"
-                                    "velocity [cm/s],velocity_sd [cm/s]\nA,mat,4,0.5,2,0.4,0.1\nB,mat,6,0.2,3,0.9,0.2\n")
-    rc = main(["diffuse", "--patches", p, "--ambient-temperature", "2 degC", "--pressure", "20 MPa", "--draws", "400",
+                                    "velocity [cm/s],velocity_sd [cm/s]\n"
+                                    "A,mat,4,0.5,2,0.4,0.1\nB,mat,6,0.2,3,0.9,0.2\n")
+    rc = main(["diffuse", "--patches", p, "--ambient-temperature", "2 degC", "--pressure", "20 MPa",
+               "--draws", "400",
                "--json"])
     assert rc == 0
     out = json.loads(capsys.readouterr().out)

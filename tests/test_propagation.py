@@ -154,12 +154,12 @@ def test_orifice_cli_max_unphysical_is_settable(capsys):
     assert "--velocity" in err and "0.1%" in err
 
 
-PATCHES = """patch,class,area [m^2],area_sd [m^2],active_fraction,active_fraction_sd,temperature_anomaly [K],temperature_anomaly_sd [K],velocity [cm/s],velocity_sd [cm/s]
-P1,mat,18.5,1.5,0.37,0.05,6.1,0.6,0.16,0.07
-P2,mat,28.2,2.3,0.39,0.05,2.5,0.6,0.19,0.07
-P3,crack,9.5,0.8,0.20,0.05,0.5,0.4,0.05,0.02
-P4,crack,12.0,1.0,0.25,0.05,1.5,0.4,0.09,0.02
-"""
+PATCHES = ("patch,class,area [m^2],area_sd [m^2],active_fraction,active_fraction_sd,"
+           "temperature_anomaly [K],temperature_anomaly_sd [K],velocity [cm/s],velocity_sd [cm/s]\n"
+           "P1,mat,18.5,1.5,0.37,0.05,6.1,0.6,0.16,0.07\n"
+           "P2,mat,28.2,2.3,0.39,0.05,2.5,0.6,0.19,0.07\n"
+           "P3,crack,9.5,0.8,0.20,0.05,0.5,0.4,0.05,0.02\n"
+           "P4,crack,12.0,1.0,0.25,0.05,1.5,0.4,0.09,0.02\n")
 CLASSES = "class,area [m^2],area_sd [m^2]\nmat,1850,250\ncrack,4200,600\n"
 
 

@@ -87,7 +87,9 @@ def test_heat_flow_close_to_trade_rule_of_thumb():
 def test_cumulative_reference_matches_quadrature():
     # Independent: numerical quadrature of the reference heat flow, against the exact integral.
     for ref in ("gdh1", "half-space"):
-        f = (lambda t: rf.reference_heat_flow(Q_(t, "Myr"), ref).magnitude)
+        def f(t, ref=ref):
+            return rf.reference_heat_flow(Q_(t, "Myr"), ref).magnitude
+
         num, _ = quad(f, 2.0, 80.0, points=[55.0], limit=200)
         exact = rf.cumulative_reference_heat(Q_(2.0, "Myr"), Q_(80.0, "Myr"), ref).magnitude
         assert exact == pytest.approx(num * 1e-3 * MYR, rel=1e-6)

@@ -159,7 +159,10 @@ def test_indices_do_not_depend_on_the_output_s_unit_or_offset_nor_on_input_order
         assert h.first[j] == pytest.approx(g.first[i], abs=1e-4)
         assert h.total[j] == pytest.approx(g.total[i], abs=1e-4)
     B = {k: rng.permutation(v) for k, v in X.items()}
-    f = lambda d: d["a"] + 2 * d["b"] * d["c"]
+
+    def f(d):
+        return d["a"] + 2 * d["b"] * d["c"]
+
     p = pick_freeze(f, X, B, bootstrap=0)["output"]
     q = pick_freeze(lambda d: scale * f(d) + shift, X, B, bootstrap=0)["output"]
     assert np.allclose(p.first, q.first, atol=1e-6) and np.allclose(p.total, q.total, atol=1e-6)

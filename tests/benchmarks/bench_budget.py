@@ -62,7 +62,10 @@ def ours(n, resamples, seed):
     from ventflux.sensitivity import pick_freeze
 
     rng = np.random.default_rng(seed)
-    draw = lambda: {k: rng.uniform(a, b, n) for k, (a, b) in BOUNDS.items()}
+
+    def draw():
+        return {k: rng.uniform(a, b, n) for k, (a, b) in BOUNDS.items()}
+
     res = pick_freeze(lambda d: power(d["T"], d["v"], d["d"]), draw(), draw(), bootstrap=resamples, seed=seed)
     return res["output"]
 
@@ -93,7 +96,8 @@ def design_versus_salib(n, resamples, repeats):
     print(f"  ventflux pick-freeze {to:.2f} s, SALib Saltelli sampling + Sobol' analysis {ts:.2f} s: "
           f"ratio {ts / to:.2f} (SALib / ventflux)")
     for i, nm in enumerate(BOUNDS):
-        print(f"  {nm}: S1 {a.first[i]:.4f} ± {a.first_error[i]:.4f} vs {b['S1'][i]:.4f} ± {b['S1_conf'][i] / 1.96:.4f};"
+        print(f"  {nm}: S1 {a.first[i]:.4f} ± {a.first_error[i]:.4f} "
+              f"vs {b['S1'][i]:.4f} ± {b['S1_conf'][i] / 1.96:.4f};"
               f"  ST {a.total[i]:.4f} ± {a.total_error[i]:.4f} vs {b['ST'][i]:.4f} ± {b['ST_conf'][i] / 1.96:.4f}")
 
 

@@ -82,8 +82,13 @@ def _names(kind, n, var):
 def vent_chunk(draws, vents, sl, shared):
     n = len(vents["temperature"])
     idx = range(n)[sl]
-    pick = lambda var: [vents[var][i] for i in idx]
-    names = lambda var: [f"vent {i}/{var}" for i in idx]
+
+    def pick(var):
+        return [vents[var][i] for i in idx]
+
+    def names(var):
+        return [f"vent {i}/{var}" for i in idx]
+
     T = draws.draw_each(names("temperature"), pick("temperature"), "degC").magnitude
     T = Q_(T + shared["hot probe calibration"].to("K").magnitude, "degC")
     v = draws.draw_each(names("velocity"), pick("velocity"), "m/s")
@@ -97,8 +102,13 @@ def vent_chunk(draws, vents, sl, shared):
 def patch_chunk(draws, patches, sl, shared):
     n = len(patches["area"])
     idx = range(n)[sl]
-    pick = lambda var: [patches[var][i] for i in idx]
-    names = lambda var: [f"patch {i}/{var}" for i in idx]
+
+    def pick(var):
+        return [patches[var][i] for i in idx]
+
+    def names(var):
+        return [f"patch {i}/{var}" for i in idx]
+
     A = draws.draw_each(names("area"), pick("area"), "m^2") * shared["camera pixel scale"] ** 2
     f = draws.draw_each(names("active_fraction"), pick("active_fraction"), "dimensionless").magnitude
     dT = draws.draw_each(names("temperature_anomaly"), pick("temperature_anomaly"), "K").magnitude

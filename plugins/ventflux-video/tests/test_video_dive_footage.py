@@ -83,8 +83,11 @@ def test_deformation_against_openpiv_multipass(flow):
     # windows (64, 32, 32 px, 50 % overlap): ours at most as far from the truth, and no slower.
     shape = (256, 256)
     if flow == "uniform":
-        move = lambda x, y: (x + 1.37, y - 2.62)
-        truth = lambda x, y: (np.full_like(x, 1.37), np.full_like(y, -2.62))
+        def move(x, y):
+            return x + 1.37, y - 2.62
+
+        def truth(x, y):
+            return np.full_like(x, 1.37), np.full_like(y, -2.62)
     elif flow == "shear":
         move, truth = (lambda x, y: (x + 0.04 * (y - 128), y)), (lambda x, y: (0.04 * (y - 128), 0 * y))
     else:
