@@ -328,14 +328,14 @@ def reservoir_heat(temperature_drop, volume=None, area=None, thickness=None, roc
                          "either a reservoir pressure or a depth below the seafloor, not both")
     if pressure is None and depth_below_seafloor is not None:
         if seafloor_pressure is None:
-            raise InputError("seafloor pressure", "none", "the seafloor pressure, with a depth below the seafloor")
+            raise InputError("seafloor pressure", "(missing)", "the seafloor pressure, with a depth below the seafloor")
         pressure = reservoir_pressure(seafloor_pressure, depth_below_seafloor, pressure_regime, rock_density)
     phase = ""
     if np.any(phi > 0):
         missing = [n for n, v in (("reservoir temperature", temperature), ("reservoir pressure", pressure))
                    if v is None]
         if missing:
-            raise InputError(missing[0], "none",
+            raise InputError(missing[0], "(missing)",
                              "a reservoir temperature and a pressure (or a depth below the seafloor) for the "
                              "pore fluid, or porosity 0 for dry rock")
         fluid = Q_(phi * pore_fluid_heat_density(temperature, Q_(dT, "K"), pressure, model).magnitude
