@@ -165,3 +165,23 @@ def test_allow_implausible_in_the_survey_is_recorded(light_demo, capsys):
     assert main(["survey", str(light_demo), "--check", "--allow-implausible"]) == 0
     capsys.readouterr()
     assert main(["survey", str(light_demo), "--check"]) == 2  # the option lasts for one command only
+
+
+@pytest.mark.parametrize("argv", [
+    ["orifice", "--temperature", "352 degC", "--velocity", "1.4 m/s", "--diameter", "12 cm", "--depth", "2550 m",
+     "--ambient-temperature", "2.1 degC"],
+    ["diffuse", "--area", "12 m^2", "--active-fraction", "0.4", "--anomaly", "3 K", "--velocity", "1 cm/s",
+     "--ambient-temperature", "2.1 degC", "--depth", "2200 m"],
+    ["plume-rise", "--rise-height", "250 m", "--buoyancy-frequency", "1e-3/s", "--ambient-temperature", "2 degC",
+     "--ambient-salinity", "34.6", "--pressure", "25 MPa"],
+])
+def test_latitude_bounds_are_the_same_for_every_command(argv, capsys):
+    """Latitude is bounded by geometry (±90°), the same bound as the survey file's, whatever the command."""
+    from ventflux.cli import main
+    from ventflux.limits import POSITION_BOUNDS
+
+    assert POSITION_BOUNDS["latitude"] == (-90.0, 90.0)
+    assert main(argv + ["--latitude", "95"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--latitude" in err[0] and "-90 to 90" in err[0]
+    assert main(argv + ["--latitude", "95", "--allow-implausible"]) == 2  # validity, not plausibility

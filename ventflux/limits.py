@@ -82,6 +82,23 @@ class Limit:
 #: The table. Keys are matched against the end of a field's key path, with
 #: array indices dropped and ``--option-name`` read as ``option_name``; the
 #: longest matching key wins (``orifice.area`` before ``area``).
+#: Geographic positions, degrees: bounds of validity, not of plausibility, so ``--allow-implausible`` never
+#: widens them. The same bounds for every command (``cli`` frame), the survey file and CTD casts.
+POSITION_BOUNDS = {"latitude": (-90.0, 90.0), "longitude": (-180.0, 360.0)}
+
+
+def check_position(name: str, value, field: str) -> float:
+    """``value`` (degrees) as a float inside ``POSITION_BOUNDS[name]``, or an ``InputError`` naming ``field``."""
+    lo, hi = POSITION_BOUNDS[name]
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise InputError(field, value, f"a {name} in degrees from {lo:g} to {hi:g}") from None
+    if not lo <= v <= hi:  # NaN fails too
+        raise InputError(field, value, f"a {name} in degrees from {lo:g} to {hi:g}")
+    return v
+
+
 LIMITS: tuple[Limit, ...] = (
     Limit("a vent-fluid or seafloor velocity", ("velocity", "exit_velocity", "mean_velocity"), "velocity", "m/s",
           0.0, 20.0, "the fastest vent jets reported are a few m/s (from memory); 20 m/s is a choice made here",

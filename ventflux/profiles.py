@@ -121,11 +121,10 @@ class AmbientProfile:
 def _degrees(x, field):
     if x is None:
         return None
+    from .limits import check_position
+
     v = float(x.to("degree").magnitude) if hasattr(x, "to") else float(x)
-    limit = 90 if field == "latitude" else 360
-    if not -limit <= v <= limit:
-        raise InputError(field, f"{v:g}", f"degrees between {-limit} and {limit}")
-    return v
+    return check_position("latitude" if field == "latitude" else "longitude", v, field)
 
 
 def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,

@@ -93,12 +93,15 @@ def main(argv=None) -> int:
 
 def _check_common(args) -> None:
     """Options every command shares: the seed's range, a draw count the machine can hold, --allow-implausible."""
-    from ..limits import set_allow_implausible
+    from ..limits import check_position, set_allow_implausible
     from ..resources import check_memory
     from ..uncertainty import check_draws, check_seed
     from .montecarlo import whole_number
 
     set_allow_implausible(bool(getattr(args, "allow_implausible", False)))
+    for name in ("latitude", "longitude"):  # one set of bounds for every command (plugins' included)
+        if getattr(args, name, None) is not None:
+            check_position(name, getattr(args, name), f"--{name}")
     seed = getattr(args, "seed", None)
     if seed is not None:
         check_seed(whole_number(seed, "--seed"), "--seed")

@@ -27,6 +27,7 @@ from pathlib import Path
 import pint
 
 from ..errors import Collector, InputError, InputErrors, Warnings
+from ..limits import POSITION_BOUNDS
 from ..resources import check_memory
 from ..uncertainty import MAX_SEED
 from ..units import Q_
@@ -403,8 +404,10 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
     pressure = f.quantity("pressure", "pressure", uncertain=False, positive=True)
     if (depth is None) == (pressure is None) and ("depth" in f.table) == ("pressure" in f.table):
         f.error("depth", "both or neither of depth and pressure", "exactly one of depth or pressure")
-    lat = f.number("latitude", required=True, minimum=-90, maximum=90)
-    lon = f.number("longitude", required=True, minimum=-180, maximum=360)
+    lat = f.number("latitude", required=True, minimum=POSITION_BOUNDS["latitude"][0],
+                   maximum=POSITION_BOUNDS["latitude"][1])
+    lon = f.number("longitude", required=True, minimum=POSITION_BOUNDS["longitude"][0],
+                   maximum=POSITION_BOUNDS["longitude"][1])
     t_amb = f.quantity("ambient_temperature", "temperature", required=True)
     s_amb = f.quantity("ambient_salinity", "dimensionless", default=None)
     if s_amb is None and "ambient_salinity" not in f.table:
