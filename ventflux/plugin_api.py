@@ -29,7 +29,8 @@ Survey values
     ``nominal_of``, ``as_float``, ``SharedRef``.
 Properties
     ``seawater_state``, ``pressure_from_depth``, ``sea_pressure_dbar``,
-    ``CP0``, ``fluid_model``, ``FluidModel``.
+    ``CP0``, ``fluid_model``, ``FluidModel``, ``absolute_salinity``, ``seawater_enthalpy_density`` (seawater
+    from freezing to boiling, continuous across its models).
 Estimators
     ``orifice_discharge``, ``in_situ_pressure``, ``diffuse_discharge`` (deterministic, vectorized).
 Files and output
@@ -61,7 +62,8 @@ from .io import (
 )
 from .orifice import in_situ_pressure, orifice_discharge
 from .properties import FluidModel, fluid_model, pressure_from_depth, seawater_state
-from .properties.seawater import CP0, STANDARD_ATMOSPHERE, sea_pressure_dbar
+from .properties.seawater import CP0, STANDARD_ATMOSPHERE, absolute_salinity, sea_pressure_dbar
+from .properties.seawater_heat import seawater_enthalpy_density
 from .registry import (
     Command,
     FluidModelInfo,
@@ -118,6 +120,8 @@ __all__ = [
                           "CORE_VERSION",
                           "DIMENSIONS",
                           "STANDARD_ATMOSPHERE",
+                          "absolute_salinity",
+                          "seawater_enthalpy_density",
                           "cache_dir",
                           "check_results_destination",
                           "diffuse_discharge",

@@ -171,3 +171,18 @@ def test_no_flow_false_detection_rate_is_the_stated_level():
 def test_no_flow_false_detection_rate_many_profiles(n_points):
     rate = _false_detection_rate(4000, n_points, seed=n_points)
     assert 0.05 - 0.011 <= rate <= 0.05 + 0.011, rate  # ±3.2 binomial standard errors (0.34 %)
+
+
+def test_warm_pore_fluid_at_a_shallow_site_is_seawater_not_refused():
+    """60 °C pore water at 3 MPa lies beyond TEOS-10 (40 °C); its ρ·c_p comes from the core's warm-seawater model
+    and agrees with the `iapws` package's IAPWS-08 seawater (test-only reference) within 0.1 %."""
+    import gsw
+    from iapws import SeaWater
+
+    from ventflux.units import Q_
+    from ventflux_thermal.advection import pore_fluid_heat_capacity
+
+    SA = float(gsw.SR_from_SP(34.7))  # reference-composition absolute salinity, as the plugin takes it
+    ref = SeaWater(T=333.15, P=3.0, S=SA / 1000)
+    got = pore_fluid_heat_capacity(Q_(60, "degC"), Q_(3, "MPa"), 34.7)
+    assert got == pytest.approx(ref.rho * ref.cp * 1e3, rel=1e-3)

@@ -45,7 +45,6 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import optimize
 from ventflux.plugin_api import InputError
-from ventflux.plugin_api import seawater_state
 from ventflux.plugin_api import read_quantity_table
 from ventflux.plugin_api import Uncertain, nominal, parse_uncertain
 from ventflux.plugin_api import Q_, parse_quantity
@@ -187,9 +186,20 @@ def _grid_sse(grid, zeta, T):
 
 
 def pore_fluid_heat_capacity(temperature, pressure, salinity=DEFAULT_SALINITY):
-    """ρ·c_p of seawater pore fluid [J/(m³ K)] from TEOS-10 at in-situ temperature and absolute pressure."""
-    st = seawater_state(temperature, salinity, pressure)
-    return float((st.density * st.heat_capacity).to("J/(m^3*K)").magnitude)
+    """ρ·c_p of seawater pore fluid [J/(m³ K)] at in-situ temperature and absolute pressure.
+
+    From the core's seawater model from freezing to boiling (TEOS-10 to 40 °C, IAPWS-08's saline part beyond,
+    continuous across the joins): c_p as the centred difference of enthalpy over ±0.05 K, ρ at the temperature.
+    Warm pore water at a shallow site is taken as seawater, not refused.
+    """
+    from ventflux.plugin_api import absolute_salinity, sea_pressure_dbar, seawater_enthalpy_density
+
+    t = float(temperature.to("degC").magnitude)
+    p = float(sea_pressure_dbar(pressure))
+    SA = float(absolute_salinity(float(salinity), p))
+    dt = 0.05
+    h, rho, _ = seawater_enthalpy_density([t - dt, t, t + dt], SA, p, field="temperature")
+    return float(rho[1] * (h[2] - h[0]) / (2 * dt))
 
 
 def fit_advection(depth, temperature, conductivity, *, pressure=None, layer_thickness=None,
