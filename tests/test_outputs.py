@@ -243,3 +243,13 @@ def test_never_destroys_what_it_did_not_create(tmp_path_factory, sequence):
     except InputError:
         assert protected
         assert (_tree(out) if out.is_dir() else out.read_bytes()) == user
+
+
+def test_a_path_through_a_file_is_refused_before_any_work(tmp_path):
+    """The survey checks its --out before computing (report.check_output_location calls this)."""
+    from ventflux.io import check_results_destination
+
+    (tmp_path / "afile").write_text("mine")
+    with pytest.raises(InputError, match="is a file"):
+        check_results_destination(tmp_path / "afile" / "sub" / "res")
+    assert (tmp_path / "afile").read_text() == "mine"

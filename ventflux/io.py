@@ -202,6 +202,15 @@ def check_results_destination(path, option: str = "--out") -> Path:
             raise _refuse(option, path, "it is a file")
         if not is_results_folder(path) and any(path.iterdir()):
             raise _refuse(option, path, "it holds files ventflux did not write")
+    # Say now, not after the computation, when the folder could not be written: the nearest existing folder
+    # above it must be a folder we may write in (a path through a file, a read-only file system).
+    above = path.absolute().parent
+    while not above.exists() and above != above.parent:
+        above = above.parent
+    if not above.is_dir():
+        raise InputError(option, str(path), f"a path whose folders can be created ({above} is a file)")
+    if not os.access(above, os.W_OK):
+        raise InputError(option, str(path), f"a location that can be written ({above} is read-only)")
     return path
 
 
