@@ -21,7 +21,7 @@ Units and errors
     ``Collector`` (bad input: one line naming the field, exit 2).
 Uncertainty (the one propagation driver)
     ``Uncertain``, ``normal``, ``uniform``, ``lognormal``, ``from_mean_sd``,
-    ``parse_uncertain``, ``nominal``, ``SharedDraws``, ``propagate``,
+    ``parse_uncertain``, ``nominal``, ``SharedDraws``, ``named_stream``, ``propagate``,
     ``Propagation``, ``UnphysicalPolicy``, ``summarize``, ``Summary``,
     ``DEFAULT_DRAWS``, ``DEFAULT_SEED``, ``DEFAULT_MAX_UNPHYSICAL``.
 Survey values
@@ -93,6 +93,7 @@ from .uncertainty import (
     UnphysicalPolicy,
     from_mean_sd,
     lognormal,
+    named_stream,
     nominal,
     normal,
     parse_uncertain,
@@ -148,6 +149,7 @@ __all__ = [
                           "ReportPart",
                           "SectionEstimate",
                           "SharedDraws",
+                          "named_stream",
                           "SharedRef",
                           "Summary",
                           "SurveyMethod",

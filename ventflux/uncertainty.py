@@ -318,6 +318,12 @@ def check_max_unphysical(share, field: str = "max unphysical") -> float:
     return x
 
 
+def named_stream(seed: int, name: str) -> np.random.Generator:
+    """The generator of the random stream called ``name`` under the run's ``seed`` (the only way ventflux, and a
+    plugin, gets random numbers: streams are told apart by name, never by offsets of the seed)."""
+    return np.random.default_rng(np.random.SeedSequence(int(seed), spawn_key=stream_key(name)))
+
+
 def stream_key(name: str) -> tuple[int, int]:
     """A stable 64-bit key of an input's name (BLAKE2b), as two 32-bit words.
 
@@ -365,7 +371,7 @@ class SharedDraws:
 
     def rng(self, name: str) -> np.random.Generator:
         """The random generator of the stream called ``name`` (a new generator, always the same draws)."""
-        return np.random.default_rng(np.random.SeedSequence(self.seed, spawn_key=stream_key(name)))
+        return named_stream(self.seed, name)
 
     _rng = rng  # older name
 

@@ -791,7 +791,10 @@ def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None
     R = resistance(k)
     q, T0, se, resid = heat_flow_regression(R, Teq)
     parts = {"regression": float(se)}
-    rng = np.random.default_rng(seed)
+    from ventflux.plugin_api import named_stream
+
+    # one named stream per penetration (its record and label), never an offset of the seed
+    rng = named_stream(seed, f"{rec.path.name}/{label}/reduction spread")
     # conductivity fits: the slope's spread when each k is drawn from its fit (vectorized over draws); draws of
     # k below 0.05 W/(m K), the pulse fit's lower bound, are redrawn as that bound (a choice made here)
     kd = np.clip(k[:, None] + np.nan_to_num(k_se)[:, None] * rng.standard_normal((k.size, draws)), 0.05, None)

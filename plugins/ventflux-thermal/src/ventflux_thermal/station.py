@@ -307,7 +307,7 @@ def reduce_station(record_path, sensor_depths=None, *, heat_pulse_energy=None, h
                                 heat_pulse_time=p.pulse,  # with known k, only the end of the frictional window
                                 heat_pulse_energy=probe.heat_pulse_energy, tilt=tilt_v,
                                 tilt_sd=standard_deviation(tilt_in, "radian"), known_k=known_k, method=method,
-                                probe=probe, exclude_sensors=exclude, draws=draws, seed=seed + p.number,
+                                probe=probe, exclude_sensors=exclude, draws=draws, seed=seed,
                                 keep_record=keep_record, label=p.label)
         except InputError as e:
             out.skipped[p.label] = e.allowed if e.field == "sensors" else e.line()
