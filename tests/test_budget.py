@@ -162,3 +162,17 @@ def test_orifice_command_prints_and_returns_the_budget(capsys):
     assert main(args + ["--json"]) == 0
     rows = json.loads(capsys.readouterr().out)["budget"]
     assert rows[0]["input"] == "velocity" and rows[0]["rank"] == 1
+
+
+def test_orifice_budget_takes_the_draws_and_seed_as_typed(capsys):
+    """--draws and --seed reach the budget parsed like the estimate's own (they arrive from argparse as text)."""
+    import json
+
+    from ventflux.cli import main
+
+    argv = ["orifice", "--temperature", "352 ± 3 degC", "--velocity", "1.4 ± 0.2 m/s", "--diameter", "12 ± 1 cm",
+            "--depth", "2550 m", "--ambient-temperature", "2.1 degC", "--budget", "--draws", "2000", "--seed", "5",
+            "--json"]
+    assert main(argv) == 0
+    rows = json.loads(capsys.readouterr().out)["budget"]
+    assert {r["input"] for r in rows} >= {"velocity", "diameter"}

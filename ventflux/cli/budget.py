@@ -19,9 +19,11 @@ def add_budget(args, payload, estimator, inputs, valid=None, output="heat_power"
         return []
     from ..budget import budget_lines, estimate_budget
     from ..uncertainty import DEFAULT_DRAWS
+    from .montecarlo import monte_carlo_settings
 
+    mc = monte_carlo_settings(args)  # the same parsing of --draws and --seed as the estimate's own
     ind = estimate_budget(estimator, inputs, output=output, unit=unit, mode=args.budget,
-                          draws=args.draws or DEFAULT_DRAWS, seed=args.seed, valid=valid)
+                          draws=mc.draws or DEFAULT_DRAWS, seed=mc.seed, valid=valid)
     payload["budget"] = ind.rows()
     return budget_lines(ind, {k: "--" + k.replace("_", "-") for k in ind.names})
 
