@@ -274,4 +274,6 @@ def json_ready(value):
         return f if math.isfinite(f) else None
     if isinstance(value, np.integer):
         return int(value)
+    if isinstance(value, np.bool_):
+        return bool(value)
     return value

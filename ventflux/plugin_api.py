@@ -36,6 +36,7 @@ Estimators
 Files and output
     ``read_quantity_table``, ``atomic_write_text``, ``atomic_write_bytes``,
     ``results_directory`` (alias ``atomic_directory``), ``check_results_destination``, ``cache_dir``,
+    ``json_ready``,
     ``sha256_of``,
     ``add_output_options``, ``add_monte_carlo_options``,
     ``monte_carlo_settings``, ``print_json``, ``print_table``, ``write_output``.
@@ -57,6 +58,7 @@ from .io import (
     atomic_write_text,
     cache_dir,
     check_results_destination,
+    json_ready,
     results_directory,
     sha256_of,
 )
@@ -125,6 +127,7 @@ __all__ = [
                           "seawater_enthalpy_density",
                           "cache_dir",
                           "check_results_destination",
+                          "json_ready",
                           "diffuse_discharge",
                           "in_situ_pressure",
                           "orifice_discharge",

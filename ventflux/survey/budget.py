@@ -32,14 +32,13 @@ from __future__ import annotations
 
 import copy
 import time
-import zlib
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from .. import sensitivity
 from ..errors import InputError
-from ..uncertainty import SharedDraws
+from ..uncertainty import SharedDraws, named_stream
 
 MODES = ("draws", "full", "off")
 #: The budget row of the variance share no single named input explains.
@@ -352,7 +351,8 @@ class DesignDraws(SharedDraws):
 
 
 def _stream(seed, name, which):
-    return np.random.default_rng(np.random.SeedSequence([int(seed), zlib.crc32(name.encode("utf-8")), 7, which]))
+    """The design's two independent matrices (A, B) draw each input from its own named stream."""
+    return named_stream(seed, f"{name}/budget design {'AB'[which]}")
 
 
 # ---- outputs -------------------------------------------------------------------------

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.plugin_api import results_directory
+from ventflux.plugin_api import json_ready, results_directory
 
 from .analysis import TIDAL_PERIODS_H, VentSeries
 
@@ -147,18 +147,6 @@ def summary_of(manifest, series: list[VentSeries], results, stats: dict, inputs:
             "inputs": inputs}
 
 
-def _clean(v):
-    if isinstance(v, dict):
-        return {k: _clean(x) for k, x in v.items()}
-    if isinstance(v, (list, tuple)):
-        return [_clean(x) for x in v]
-    if isinstance(v, (float, np.floating)):
-        return float(v) if np.isfinite(v) else None
-    if isinstance(v, (np.integer, np.bool_)):
-        return v.item()
-    return v
-
-
 def report_html(manifest, series, summary, figures) -> str:
     esc = html.escape
     parts = [f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">
@@ -219,7 +207,7 @@ th{{background:#f4f4f4}} img{{max-width:100%;height:auto}}
 def write_results(out: Path, manifest, series, results, stats, inputs) -> Path:
     """Write the folder; return the report's path."""
     by_index = {r.index: r for r in results}
-    summary = _clean(summary_of(manifest, series, results, stats, inputs))
+    summary = json_ready(summary_of(manifest, series, results, stats, inputs))
     figures = {}
     for s in series:
         figs = []
