@@ -42,6 +42,9 @@ Files and output
     ``monte_carlo_settings``, ``print_json``, ``print_table``, ``write_output``.
 Registry look-ups
     ``velocity_from_source``, ``fluid_model_by_name``.
+Vocabulary
+    ``RENAMED_COLUMNS``, ``deprecation_line``, ``warn_deprecated`` (old CSV
+    column spellings accepted for one release, with one deprecation line).
 """
 
 from __future__ import annotations
@@ -104,6 +107,7 @@ from .uncertainty import (
     uniform,
     unit_tag,
 )
+from .vocabulary import RENAMED_COLUMNS, deprecation_line, warn_deprecated
 from .units import (
     DIMENSIONS,
     Q_,
@@ -120,6 +124,9 @@ API_VERSION = "1"
 
 __all__ = [
                           "API_VERSION",
+                          "RENAMED_COLUMNS",
+                          "deprecation_line",
+                          "warn_deprecated",
                           "CORE_VERSION",
                           "DIMENSIONS",
                           "STANDARD_ATMOSPHERE",

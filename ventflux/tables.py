@@ -46,7 +46,8 @@ def _rows(path):
             yield n, next(csv.reader([line]))
 
 
-def read_quantity_table(path, columns: dict, optional: dict | None = None, alternatives=()) -> QuantityTable:
+def read_quantity_table(path, columns: dict, optional: dict | None = None, alternatives=(),
+                        allow_missing: bool = False) -> QuantityTable:
     """Read a CSV with unit-carrying headers and return the named columns as quantities.
 
     Parameters
@@ -59,6 +60,10 @@ def read_quantity_table(path, columns: dict, optional: dict | None = None, alter
     alternatives : sequence of tuple of str
         Groups of which at least one column must be present (e.g.
         ``("depth", "pressure")``); list them in ``optional``.
+    allow_missing : bool
+        Read an empty cell or ``nan`` as NaN instead of refusing it (for a
+        caller that drops such samples and counts them); text that is not a
+        number, and infinities, are still refused.
 
     Returns
     -------
@@ -113,6 +118,9 @@ def read_quantity_table(path, columns: dict, optional: dict | None = None, alter
         values = np.empty(len(data))
         for r, (n, cells) in enumerate(data):
             cell = cells[i].strip() if i < len(cells) else ""
+            if allow_missing and cell.lower() in ("", "nan"):
+                values[r] = np.nan
+                continue
             try:
                 values[r] = float(cell)
             except ValueError:

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import TYPE_CHECKING, Callable
+from typing import TYPE_CHECKING, Any, Callable
 
 from ..uncertainty import SharedDraws, UnphysicalPolicy
 
@@ -109,6 +109,7 @@ class ParseContext:
     base_dir: Path
     site: SiteSpec | None
     input_files: dict  # path -> role, every file the survey reads (for hashing)
+    warnings: Any = None  # the run's Warnings: exclusions a parser counts (dropped samples) are recorded there
 
 
 @dataclass

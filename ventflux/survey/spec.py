@@ -210,7 +210,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         defaults["run.draws"] = str(DEFAULT_DRAWS)
 
     methods, sections = survey_components()
-    ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files)
+    ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files, warnings=warnings)
     vents = []
     names = set()
     for vf in top.subs("vent"):

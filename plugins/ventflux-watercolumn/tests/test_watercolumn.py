@@ -152,7 +152,7 @@ def test_netcdf_with_cf_names_reads_like_its_csv_twin(tmp_path):
     # reads back identically to the CSV with units in its headers.
     d = towyo(n_profiles=4)
     csv = tmp_path / "twin.csv"
-    cols = ["time [s]", "east [m]", "north [m]", "pressure [dbar]", "temperature [degC]", "salinity",
+    cols = ["time [s]", "east [m]", "north [m]", "sea_pressure [dbar]", "temperature [degC]", "salinity",
             "current_east [cm/s]", "current_north [cm/s]"]
     n = d["time"].size
     arr = np.column_stack([d["time"], d["east"], d["north"], d["pressure"], d["temperature"], d["salinity"],

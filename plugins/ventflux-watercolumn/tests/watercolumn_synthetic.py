@@ -53,7 +53,7 @@ def towyo(n_profiles=20, spacing=None, ship=0.5, winch=1.0, z_top=1900.0, z_bott
 
 
 def write_csv(path, d):
-    cols = ["time [s]", "east [m]", "north [m]", "pressure [dbar]", "temperature [degC]", "salinity"]
+    cols = ["time [s]", "east [m]", "north [m]", "sea_pressure [dbar]", "temperature [degC]", "salinity"]
     arr = np.column_stack([d["time"], d["east"], d["north"], d["pressure"], d["temperature"], d["salinity"]])
     np.savetxt(path, arr, delimiter=",", header=",".join(cols), comments="", fmt="%.10g")
     return path

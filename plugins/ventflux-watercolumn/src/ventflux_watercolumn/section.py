@@ -98,6 +98,12 @@ class SectionAnalysis:
     factor: float
     tracer: str
     notes: list = field(default_factory=list)
+    dropped: dict = field(default_factory=dict)  # variable -> samples dropped for a missing value
+    n_dropped: int = 0
+    forced_band: tuple | None = None  # (top, bottom) depth, m, of a band given from outside (a box's common band)
+    normal: np.ndarray | None = None  # (2,) unit normal (east, north) of the section
+    profile_east: np.ndarray | None = None  # (P,) mean position of each profile, m (local)
+    profile_north: np.ndarray | None = None
     # per-sample arrays kept for figures
     sample_depth: np.ndarray | None = None
     sample_dtheta: np.ndarray | None = None
@@ -139,7 +145,7 @@ class SectionAnalysis:
 
 
 def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, bin_size=5.0, degree=2,
-                    tracer="temperature", margin=None, min_span=20.0) -> SectionAnalysis:
+                    tracer="temperature", margin=None, min_span=20.0, band_depths=None) -> SectionAnalysis:
     """Nominal analysis of one section (floats in the units named; see the module notes).
 
     Parameters
@@ -160,6 +166,9 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
         Band margin, m, each side (default half the band's thickness).
     min_span : float
         Smallest pressure span of a profile, dbar.
+    band_depths : (float, float), optional
+        Top and bottom depth, m, of the flux integral, given instead of found from the layer (a closed box
+        integrates every section over one band, including sections the layer does not reach).
     """
     if tracer not in TRACERS:
         raise InputError("tracer", tracer, "one of " + ", ".join(TRACERS))
@@ -173,7 +182,9 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
     edges = bin_edges(st.depth, bin_size)
     depth = 0.5 * (edges[:-1] + edges[1:])
     zi = np.clip(np.searchsorted(edges, st.depth, side="right") - 1, 0, depth.size - 1)
-    notes = []
+    notes = list(data.notes)
+    if data.dropped_note():
+        notes.append(data.dropped_note())
     if excluded:
         notes.append(f"{excluded} samples at turnarounds (profiles spanning < {min_span:g} dbar) left out.")
 
@@ -189,8 +200,17 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
             break
         mask = new
     layer, band, opt_bg, opt_noise, score_of = _detect(st, data, prof, P, edges, dth, mask, noise, factor, tracer)
+    forced = None
+    if band_depths is not None:
+        top, bottom = sorted(float(b) for b in band_depths)
+        if top > depth[-1] or bottom < depth[0]:
+            raise InputError("band", f"{top:g} to {bottom:g} m", f"depths within the section's {edges[0]:g} to "
+                             f"{edges[-1]:g} m", where=data.source)
+        forced = (int(np.clip(np.searchsorted(edges, top, side="right") - 1, 0, depth.size - 1)),
+                  int(np.clip(np.searchsorted(edges, bottom, side="left") - 1, 0, depth.size - 1)))
+        band = forced
     # pass 2: background proper
-    if layer.found.any():
+    if layer.found.any() or forced is not None:
         mask = _background_mask(prof, zi, band)
         sums = an.background_sums(st, prof, mask, degree, P)
         beta = an.solve_background(sums)
@@ -198,9 +218,11 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
         noise = an.robust_sd(dth[mask])
         layer, band, opt_bg, opt_noise, score_of = _detect(st, data, prof, P, edges, dth, mask, noise, factor,
                                                            tracer)
+        band = forced if forced is not None else band
     dth, _ = an.anomalies(st, sums, beta)
     # the fit's reach: the same fit over a window twice as wide
-    sums_alt = an.background_sums(st, prof, _background_mask(prof, zi, band, 2.0) if layer.found.any() else mask,
+    sums_alt = an.background_sums(st, prof, _background_mask(prof, zi, band, 2.0) if (
+        layer.found.any() or forced is not None) else mask,
                                   degree, P)
     bg_shift = (st.CT - an.anomalies(st, sums, beta)[1]) - (st.CT - an.anomalies(st, sums_alt, an.solve_background(
         sums_alt))[1])
@@ -231,7 +253,7 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
         down = np.array([np.sin(b), np.cos(b)])
     geo = section_geometry(data.east, data.north, prof, P, downstream=down)
     lo, hi = band
-    if not found.any():
+    if not found.any() and forced is None:
         lo, hi = 0, -1
         notes.append("No plume layer exceeds the threshold on any profile: no rise height, flux not computed.")
     X = sums.basis(st.sigma0)
@@ -262,9 +284,11 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
         optical_grid=score_of.get("optical"), layer=layer, top_depth=td, core_depth=cd, bottom_depth=bd,
         band=(lo, hi), A=integ["A"], C=integ["C"], A1=integ.get("A1"), C1=integ.get("C1"), shortcut=integ["S"],
         D=integ["D"], D1=integ.get("D1"),
+        forced_band=None if forced is None else (float(edges[forced[0]]), float(edges[forced[1] + 1])),
         measured_current=measured, mean_current=down if measured else None, filled_bins=filled,
         background_samples=int(mask.sum()), extrapolated=extrap, vent_depth=vent_depth, bin_size=bin_size,
-        factor=factor, tracer=tracer, notes=notes, sample_depth=st.depth, sample_dtheta=dth,
+        factor=factor, tracer=tracer, notes=notes, dropped=dict(data.dropped), n_dropped=data.n_dropped,
+        normal=geo.normal, profile_east=geo.east, profile_north=geo.north, sample_depth=st.depth, sample_dtheta=dth,
         sample_sigma0=st.sigma0, sample_theta=st.theta,
         sample_background=st.theta - dth, sample_profile=prof, sample_is_background=mask)
 
@@ -304,22 +328,36 @@ def _detect(st, data, prof, P, edges, dth, mask, noise, factor, tracer):
 
 
 def section_draws(draws, key, n_profiles, current=None, current_direction=None, current_uncertainty=None,
-                  vent_depth=None, bin_size=5.0):
+                  vent_depth=None, bin_size=5.0, current_variability=None, shared_key=None):
     """Every random input of one section, drawn through the core's shared draws (one place to change).
 
     Parameters
     ----------
     draws : ventflux.aggregate.SharedDraws
     key : str
-        The section's key path (names its own inputs, e.g. ``water_column/current``).
-    current, current_direction, current_uncertainty, vent_depth
-        Survey values (quantities, ``Uncertain`` or ``SharedRef``), or None.
+        The section's key path (names its own inputs, e.g. ``water_column/profile bootstrap 3``).
+    current, current_direction, vent_depth
+        Survey values (quantities, ``Uncertain`` or ``SharedRef``), or None. ``propagate_sections`` passes
+        None and draws them through the propagation driver instead.
+    current_uncertainty : pint.Quantity, optional
+        A measured current's accuracy (standard deviation of each horizontal component).
+    current_variability : array (2, 2), optional
+        Covariance, (m/s)², of the east and north components of a current record during the section
+        (``currents.RecordMatch.covariance``).
+    shared_key : str, optional
+        Key of the inputs a box's sections share (current, its accuracy and variability, the background
+        window, the vent depth): one draw of each for every section. Default ``key``.
+
+    Returns
+    -------
+    dict
+        ``picks`` (n, P), ``offset`` (2, n) m/s horizontal current offset (or None), ``window`` (n,),
+        ``resolution`` {level: (n,)} m, and ``current``, ``current_direction``, ``vent_depth`` (n,) if given.
     """
-    from ventflux.plugin_api import nominal_of, resolve
-    from ventflux.plugin_api import uniform
-    from ventflux.plugin_api import Q_
+    from ventflux.plugin_api import Q_, nominal_of, normal, resolve, uniform
 
     n = draws.n_draws
+    skey = key if shared_key is None else shared_key
     u = draws.draw_each([f"{key}/profile bootstrap {i + 1}" for i in range(n_profiles)],
                         [uniform(Q_(0.0, ""), Q_(1.0, ""))] * n_profiles, "")
     picks = np.minimum((u.magnitude.T * n_profiles).astype(int), n_profiles - 1)  # (n, P)
@@ -328,22 +366,30 @@ def section_draws(draws, key, n_profiles, current=None, current_direction=None, 
     def mag(value, name, unit):
         if value is None:
             return None
-        return np.broadcast_to(np.asarray(resolve(value, f"{key}/{name}", draws).to(unit).magnitude, float), (n,))
+        return np.broadcast_to(np.asarray(resolve(value, f"{skey}/{name}", draws).to(unit).magnitude, float), (n,))
 
     out["current"] = mag(current, "current", "m/s")
     out["current_direction"] = mag(current_direction, "current_direction", "degree")
     out["nominal"] = {name: None if v is None else float(nominal_of(v).to(unit).magnitude)
                       for name, v, unit in (("current", current, "m/s"), ("current_direction", current_direction,
                                                                               "degree"))}
-    out["current_uncertainty"] = None
-    if current_uncertainty is not None:  # a measured current's error along the normal: one offset per draw
-        from ventflux.plugin_api import normal
+    std = normal(Q_(0.0, ""), Q_(1.0, ""))
 
-        sd = current_uncertainty.to("m/s")
-        out["current_uncertainty"] = draws.draw(f"{key}/current offset", normal(Q_(0.0, "m/s"), sd)).to(
-            "m/s").magnitude
+    def unit_normals(name):
+        return np.stack([np.asarray(draws.draw(f"{skey}/{name} {c}", std).to("").magnitude, float)
+                         for c in ("east", "north")])
+
+    offset = None
+    if current_uncertainty is not None:  # the instrument: isotropic, sd per component
+        offset = current_uncertainty.to("m/s").magnitude * unit_normals("current accuracy")
+    if current_variability is not None:  # the record's variability: its own covariance (module notes, currents)
+        w, v = np.linalg.eigh(np.asarray(current_variability, float))
+        root = v * np.sqrt(np.clip(w, 0.0, None))
+        d = root @ unit_normals("current variability")
+        offset = d if offset is None else offset + d
+    out["offset"] = offset
     out["vent_depth"] = mag(vent_depth, "vent_depth", "m")
-    out["window"] = draws.draw(f"{key}/background window", uniform(Q_(-1.0, ""), Q_(1.0, ""))).to("").magnitude
+    out["window"] = draws.draw(f"{skey}/background window", uniform(Q_(-1.0, ""), Q_(1.0, ""))).to("").magnitude
     half = Q_(0.5 * bin_size, "m")
     out["resolution"] = {lvl: draws.draw(f"{key}/{lvl} bin resolution", uniform(-half, half)).to("m").magnitude
                          for lvl in ("top", "core", "bottom")}
@@ -360,6 +406,8 @@ class SectionDraws:
     nominal_heat_flux: float
     shortcut_heat_flux: float
     failed: int
+    unphysical: int = 0  # draws dropped by the propagation's policy (impossible inputs)
+    n_draws: int = 0
 
 
 def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
@@ -374,13 +422,17 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
     beta0 = res.beta[:, 1]
     if res.measured_current:
         speed, speed0 = 1.0, 1.0
-        off = drawn["current_uncertainty"]
-        if off is None:
+        vec = drawn.get("offset")
+        if vec is None:
             off = np.zeros(n)
             msg = ("The measured current's uncertainty was not given (current_uncertainty): the heat flux's "
                    "interval leaves it out.")
             if msg not in res.notes:
                 res.notes.append(msg)
+        else:
+            nrm = res.normal if res.normal is not None else np.array([np.sin(np.radians(res.normal_bearing)),
+                                                                      np.cos(np.radians(res.normal_bearing))])
+            off = vec[0] * nrm[0] + vec[1] * nrm[1]
         off0 = 0.0
         args = {"A1": res.A1, "C1": res.C1}
         window_args = {"A1": res.A1 + drawn["window"][:, None] * res.D1, "C1": res.C1}
@@ -408,12 +460,12 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
              "background fit": H(beta_b, w0, speed0, off0),
              "current": H(beta0, w0, speed, off),
              "background window": H(beta0, w0, speed0, off0, window=True)}  # against one twice as wide
-    if not res.found.any():  # no layer: nothing was integrated, and a zero would read as a measurement
+    if not res.found.any() and res.forced_band is None:  # nothing integrated: a zero would read as measured
         nan = np.full(n, np.nan)
         total, nominal, parts = nan, float("nan"), {k: nan for k in parts}
     failed = int((~np.isfinite(total)).sum()) if res.found.any() else 0
     heights = {}
-    if res.vent_depth is not None or drawn["vent_depth"] is not None:
+    if res.found.any() and (res.vent_depth is not None or drawn["vent_depth"] is not None):
         vd = drawn["vent_depth"] if drawn["vent_depth"] is not None else np.full(n, res.vent_depth)
         for lvl, name in (("maximum", "top"), ("spreading", "core"), ("bottom", "bottom")):
             dp = {"top": res.top_depth, "core": res.core_depth, "bottom": res.bottom_depth}[name][picks]
@@ -421,6 +473,116 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
             with np.errstate(invalid="ignore", divide="ignore"):
                 mean = np.where(cnt > 0, np.nansum(dp, axis=1) / cnt, np.nan)
             heights[lvl] = vd - mean + drawn["resolution"][name]
-    shortcut = float(np.sum(w0 * res.shortcut) * speed0) if res.found.any() else float("nan")
+    shortcut = float(np.sum(w0 * res.shortcut) * speed0) if np.isfinite(nominal) else float("nan")
     return SectionDraws(heat_flux=total, heights=heights, parts=parts, nominal_heat_flux=nominal,
-                        shortcut_heat_flux=shortcut, failed=failed)
+                        shortcut_heat_flux=shortcut, failed=failed, n_draws=n)
+
+
+def _named(value, name):
+    """``(stream name, value)`` of a survey value: a ``[shared]`` reference is drawn under its shared name."""
+    from ventflux.plugin_api import SharedRef
+
+    if isinstance(value, SharedRef):
+        return "shared/" + value.name, value.value
+    return name, value
+
+
+def _physical(args):
+    """Draws the estimator can evaluate: a current speed ≥ 0, a vent depth > 0, a background that can be fitted."""
+    ok = np.ones(np.shape(args["u"].magnitude)[-1] if np.ndim(args["u"].magnitude) else 1, bool)
+    for name, lo, strict in (("current", 0.0, False), ("vent_depth", 0.0, True)):
+        v = args.get(name)
+        if v is None:
+            continue
+        m = np.asarray(v.magnitude, float)
+        ok = ok & ((m > lo) if strict else (m >= lo))
+    return ok
+
+
+def propagate_sections(results, keys, draws, policy, *, current=None, current_direction=None,
+                       current_uncertainty=None, current_variability=None, vent_depth=None, shared_key=None):
+    """Draws of one section's or a closed box's heat flux, through the one propagation driver.
+
+    The current, its direction and the vent depth are inputs of ``ventflux.plugin_api.propagate`` (drawn
+    once per draw under the shared key, shared by every section, impossible draws dropped and counted by
+    ``policy``); each section's bootstrap over its profiles is its own; the current's accuracy and
+    variability and the background window are drawn once per draw for all sections (``section_draws``).
+
+    Parameters
+    ----------
+    results : list of SectionAnalysis
+    keys : list of str
+        One key per section (names its bootstrap streams).
+    draws : SharedDraws
+    policy : UnphysicalPolicy
+    current, current_direction, vent_depth
+        Survey values or None.
+    current_uncertainty : pint.Quantity, optional
+    current_variability : list of (2, 2) arrays or None, optional
+        Per section (a box's sections share one record; its covariance over the box's time is the same).
+
+    Returns
+    -------
+    (list of SectionDraws, SectionDraws)
+        Each section's draws and the sum over the sections, on all ``n_draws`` (NaN where dropped).
+    """
+    from ventflux.plugin_api import Q_, propagate
+
+    skey = shared_key or keys[0]
+    n = draws.n_draws
+    variability = current_variability or [None] * len(results)
+    drawn = [section_draws(draws, k, r.n_profiles, current_uncertainty=current_uncertainty,
+                           current_variability=v, bin_size=r.bin_size, shared_key=skey)
+             for r, k, v in zip(results, keys, variability)]
+    inputs, names = {"u": Q_(np.arange(n, dtype=float), "")}, {}
+    given = {"u": inputs.pop("u")}  # the draw index: subset with the kept draws
+    for name, value in (("current", current), ("current_direction", current_direction), ("vent_depth", vent_depth)):
+        if value is not None:
+            names[name], inputs[name] = _named(value, f"{skey}/{name}")
+    from ventflux.plugin_api import nominal_of
+
+    nominal = {name: None if v is None else float(nominal_of(v).to(unit).magnitude)
+               for name, v, unit in (("current", current, "m/s"), ("current_direction", current_direction, "degree"))}
+
+    def estimator(u, current=None, current_direction=None, vent_depth=None):
+        idx = np.asarray(u.magnitude, int)
+        out = []
+        for r, d in zip(results, drawn):
+            sub = {"picks": d["picks"][idx], "window": d["window"][idx],
+                   "offset": None if d["offset"] is None else d["offset"][:, idx],
+                   "resolution": {k: v[idx] for k, v in d["resolution"].items()}, "nominal": nominal}
+            for name, v, unit in (("current", current, "m/s"), ("current_direction", current_direction, "degree"),
+                                  ("vent_depth", vent_depth, "m")):
+                sub[name] = None if v is None else np.broadcast_to(np.asarray(v.to(unit).magnitude, float),
+                                                                   idx.shape)
+            out.append(draw_section(r, sub))
+        return out
+
+    def physical(args):  # and, per section, a background that the drawn profiles can fit
+        ok = _physical(args)
+        idx = np.asarray(args["u"].magnitude, int)
+        for r, d in zip(results, drawn):
+            _, counts = bootstrap_weights(r.s, d["picks"][idx])
+            ok = ok & np.isfinite(an.solve_background(r.sums, counts)).all(axis=(1, 2))
+        return ok
+
+    prop = propagate(estimator, inputs, names=names, draws=draws, physical=physical, max_unphysical=policy,
+                     drawn=given)
+
+    def full(a):
+        return prop.expand(Q_(np.asarray(a, float), "")).magnitude
+
+    per = []
+    for sd in prop.result:
+        per.append(SectionDraws(heat_flux=full(sd.heat_flux), heights={k: full(v) for k, v in sd.heights.items()},
+                                parts={k: full(v) for k, v in sd.parts.items()},
+                                nominal_heat_flux=sd.nominal_heat_flux, shortcut_heat_flux=sd.shortcut_heat_flux,
+                                failed=sd.failed, unphysical=prop.unphysical, n_draws=n))
+    if len(per) == 1:
+        return per, per[0]
+    total = SectionDraws(heat_flux=sum(p.heat_flux for p in per), heights={},
+                         parts={k: sum(p.parts[k] for p in per) for k in per[0].parts},
+                         nominal_heat_flux=float(sum(p.nominal_heat_flux for p in per)),
+                         shortcut_heat_flux=float(sum(p.shortcut_heat_flux for p in per)),
+                         failed=int(sum(p.failed for p in per)), unphysical=prop.unphysical, n_draws=n)
+    return per, total
