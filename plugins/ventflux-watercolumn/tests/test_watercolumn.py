@@ -273,7 +273,7 @@ def test_cli_prints_json_and_refuses_in_one_line(synthetic, tmp_path, capsys):
     assert "top_depth_m" in out["profiles"][0]
     assert (tmp_path / "p.csv").read_text().startswith("profile,")
     assert len(list((tmp_path / "f").glob("*.png"))) == 3
-    assert main(args) == 2
+    assert main([*args, "--quiet"]) == 2  # --quiet: no progress line, the refusal alone
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--current" in err[0]
 

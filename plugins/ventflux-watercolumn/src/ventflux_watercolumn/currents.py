@@ -240,6 +240,12 @@ class RecordMatch:
     outside_bins: int  # samples above or below the ADCP's bins (held at the nearest bin)
     notes: tuple
 
+    def covariance(self) -> np.ndarray:
+        """Covariance, (m/s)², of the record's east and north components during the section (2, 2)."""
+        if self.east.size < 2:
+            return np.zeros((2, 2))
+        return np.cov(np.stack([self.east, self.north]), ddof=1)
+
     def variability(self, normal) -> float:
         """Standard deviation, m/s, of the record's component along ``normal`` during the section."""
         un = self.east * normal[0] + self.north * normal[1]

@@ -145,7 +145,8 @@ class SectionAnalysis:
 
 
 def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, bin_size=5.0, degree=2,
-                    tracer="temperature", margin=None, min_span=20.0, band_depths=None) -> SectionAnalysis:
+                    tracer="temperature", margin=None, min_span=20.0, band_depths=None,
+                    outward=None) -> SectionAnalysis:
     """Nominal analysis of one section (floats in the units named; see the module notes).
 
     Parameters
@@ -169,6 +170,9 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
     band_depths : (float, float), optional
         Top and bottom depth, m, of the flux integral, given instead of found from the layer (a closed box
         integrates every section over one band, including sections the layer does not reach).
+    outward : (float, float), optional
+        A horizontal direction (east, north) the section's normal is to point along (a box's outward side);
+        without it the normal points downstream.
     """
     if tracer not in TRACERS:
         raise InputError("tracer", tracer, "one of " + ", ".join(TRACERS))
@@ -251,7 +255,8 @@ def analyse_section(data, vent_depth=None, current_direction=None, factor=3.0, b
     elif current_direction is not None:
         b = np.radians(current_direction)
         down = np.array([np.sin(b), np.cos(b)])
-    geo = section_geometry(data.east, data.north, prof, P, downstream=down)
+    geo = section_geometry(data.east, data.north, prof, P, downstream=down if outward is None else
+                           np.asarray(outward, float))
     lo, hi = band
     if not found.any() and forced is None:
         lo, hi = 0, -1

@@ -1,37 +1,47 @@
-"""Survey section ``[water_column]``: the heat carried across a tow-yo section, as a check on the field's total.
+"""Survey section ``[water_column]``: the heat carried across a tow-yo section, or out of a closed box of sections.
 
 ::
 
     [water_column]
     data = "data/towyo.csv"                 # CSV (units in headers) or netCDF (CF standard names)
-    current = "0.04 ± 0.01 m/s"             # constant current (or current columns in the file)
+    current = "0.04 ± 0.01 m/s"             # constant current (or current columns in the file, or a record)
     current_direction = "80 ± 15 deg"       # toward which it flows, clockwise from north
     vent_depth = "2480 m"                   # default: the site's depth
     compares_with = "field total"           # or "focused"
 
-Optional: ``current_uncertainty`` (a velocity: the measured current's error
-along the normal, drawn once per draw), ``factor`` (detection threshold in
-noise sds, 3), ``bin_size`` (5 m), ``degree`` (of the background fit, 2),
-``tracer`` (``temperature``, ``optical``, ``either``), ``margin`` (the band's
-margin).
+A closed box instead of one section: ``sections = ["data/north.csv",
+"data/east.csv", "data/south.csv", "data/west.csv"]`` (in order around the
+box; ``closure_tolerance``, a length, and ``band_top``/``band_bottom``,
+depths, optional; ``ventflux_watercolumn.box``).
 
-The section is read and analysed when the survey is checked (so ``--check``
-refuses what the run would); the run draws the bootstrap, the current and
-the vent depth through the survey's shared draws. Its heat flux counts as a
-``check``: compared draw by draw with the survey's own total, beside the
-field plume's rise, and not added to the totals. Its rise heights are
-reported with their uncertainty.
+Currents from a record: ``current_record = "data/mooring.nc"`` (a current
+meter's or ADCP's record, ``ventflux_watercolumn.currents``), with
+``current_uncertainty`` its accuracy (per component).
+
+Optional: ``current_uncertainty`` (a velocity: a measured current's accuracy,
+per horizontal component, drawn once per draw), ``factor`` (detection
+threshold in noise sds, 3), ``bin_size`` (5 m), ``degree`` (of the background
+fit, 2), ``tracer`` (``temperature``, ``optical``, ``either``), ``margin``
+(the band's margin).
+
+The sections are read and analysed when the survey is checked (so
+``--check`` refuses what the run would); the run draws the bootstrap, the
+current and the vent depth through the survey's shared draws and the
+propagation driver (``section.propagate_sections``, the run's
+``max_unphysical`` policy). The heat flux counts as a ``check``: compared
+draw by draw with the survey's own total, beside the field plume's rise, and
+not added to the totals. Samples dropped for missing values are counted in
+the run's warnings.
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from ventflux.plugin_api import InputError, InputErrors
-from ventflux.plugin_api import SectionEstimate, SurveySection
-from ventflux.plugin_api import Q_
+from ventflux.plugin_api import Q_, InputError, InputErrors, SectionEstimate, SurveySection
 
 from .section import LEVELS as LEVEL_NAMES
 from .section import TRACERS
@@ -39,20 +49,58 @@ from .section import TRACERS
 KEY = "water_column"
 
 
+def _paths(f, name):
+    """A list of file paths (relative to the survey file), each checked; None if the key is absent."""
+    raw, _ = f._get(name, False, None)
+    if raw is None:
+        return None
+    if not isinstance(raw, list) or not raw:
+        f.error(name, repr(raw), "a list of section files, in order around the box")
+        return None
+    out = []
+    for i, item in enumerate(raw):
+        if not isinstance(item, str) or not item.strip():
+            f.error(f"{name}[{i}]", repr(item), "a path written as a string, relative to the survey file")
+            continue
+        p = (f.base_dir / item).resolve() if not Path(item).is_absolute() else Path(item)
+        if not p.is_file():
+            f.error(f"{name}[{i}]", item, f"an existing file (looked for {p})")
+            continue
+        out.append(p)
+    return out
+
+
 def _parse(f, ctx):
-    spec = {"data": f.path_value("data", required=True),
+    spec = {"data": f.path_value("data"),
+            "sections": _paths(f, "sections"),
             "current": f.quantity("current", "velocity", minimum=Q_(0.0, "m/s")),
             "current_direction": f.quantity("current_direction", "angle"),
             "current_uncertainty": f.quantity("current_uncertainty", "velocity", uncertain=False,
                                               minimum=Q_(0.0, "m/s")),
+            "current_record": f.path_value("current_record"),
             "vent_depth": f.quantity("vent_depth", "length", positive=True),
             "factor": f.number("factor", default=3.0, minimum=1.0),
             "bin_size": f.quantity("bin_size", "length", uncertain=False, positive=True, shareable=False),
             "degree": f.number("degree", default=2, minimum=1, maximum=2, integer=True),
             "tracer": f.string("tracer", default="temperature", choices=TRACERS),
             "margin": f.quantity("margin", "length", uncertain=False, minimum=Q_(0.0, "m"), shareable=False),
+            "closure_tolerance": f.quantity("closure_tolerance", "length", uncertain=False, minimum=Q_(0.0, "m"),
+                                            shareable=False),
+            "band_top": f.quantity("band_top", "length", uncertain=False, minimum=Q_(0.0, "m"), shareable=False),
+            "band_bottom": f.quantity("band_bottom", "length", uncertain=False, minimum=Q_(0.0, "m"),
+                                      shareable=False),
             "compares_with": f.string("compares_with", default="field total", choices=("field total", "focused"))}
     f.check_unknown()
+    if ("data" in f.table) == ("sections" in f.table):
+        f.error("data", f.table.get("data", "(missing)"), "one section file (data) or a list of them around a "
+                "closed box (sections), not both")
+    if ("band_top" in f.table) != ("band_bottom" in f.table):
+        f.error("band_top" if "band_top" not in f.table else "band_bottom", "(missing)", "band_top and band_bottom "
+                "together")
+    if "data" in f.table:
+        for k in ("closure_tolerance", "band_top", "band_bottom"):
+            if k in f.table:
+                f.error(k, f.table[k], "no value for one section (it applies to a box of sections)")
     site = ctx.site
     if spec["vent_depth"] is None and "vent_depth" not in f.table:
         if site is not None and site.depth is not None:
@@ -60,31 +108,69 @@ def _parse(f, ctx):
         else:
             f.error("vent_depth", "(missing)", "the vent's depth (the site gives a pressure, not a depth)")
     spec["analysis"] = None
-    if spec["data"] is None or f.errors.errors:
+    if (spec["data"] is None and not spec["sections"]) or f.errors.errors:
         return spec
-    ctx.input_files[str(spec["data"])] = "water-column section"
+    for p in [spec["data"]] if spec["data"] is not None else spec["sections"]:
+        ctx.input_files[str(p)] = "water-column section"
+    if spec["current_record"] is not None:
+        ctx.input_files[str(spec["current_record"])] = "current record"
     try:
         spec["analysis"] = analyse(spec, site)
     except InputErrors as e:
         f.errors.errors.extend(e.errors)
     except InputError as e:
         f.errors.add(e)
-    if spec["analysis"] is not None and not spec["analysis"].found.any():
+    a = spec["analysis"]
+    if a is None:
+        return spec
+    if a.box is None and not a.results[0].found.any():
         f.error("data", f.table["data"], f"a section in which the plume layer exceeds {spec['factor']:g} noise sds "
                 "on at least one profile (none does: no flux to compare; lower factor or check the section)")
-    if spec["analysis"] is not None and spec["analysis"].measured_current:
+    if a.measured:
         for k in ("current", "current_direction"):
             if spec[k] is not None:
-                f.error(k, f.table[k], "no constant current: the section file has current columns "
-                        "(give their error as current_uncertainty)")
-    if spec["analysis"] is not None and not spec["analysis"].measured_current and spec["current"] is None:
+                f.error(k, f.table[k], "no constant current: the currents are measured (current columns or "
+                        "current_record; give their accuracy as current_uncertainty)")
+    elif spec["current"] is None:
         f.error("current", "(missing)", "a current speed such as \"0.04 ± 0.01 m/s\" (the section file has no "
-                "current columns)")
+                "current columns and no current_record is given)")
+    if getattr(ctx, "warnings", None) is not None:
+        for r in a.results:
+            if r.n_dropped:
+                ctx.warnings.add(f"{KEY}.data", f"{Path(r.source).name}: " + _dropped_line(r))
     return spec
 
 
-def analyse(spec, site):
-    """Read and analyse the section named by a parsed ``[water_column]`` table (nominal values)."""
+def _dropped_line(res) -> str:
+    per = ", ".join(f"{k} {v}" for k, v in res.dropped.items())
+    return f"{res.n_dropped} samples dropped for missing values (missing: {per})"
+
+
+@dataclass
+class WaterColumnAnalysis:
+    """One section or a closed box: the nominal analyses, and what the draws need besides."""
+
+    results: list  # SectionAnalysis, one per section
+    names: list
+    box: object | None  # BoxAnalysis
+    matches: list | None  # RecordMatch per section (a current record), or None
+    notes: list = field(default_factory=list)
+
+    @property
+    def measured(self) -> bool:
+        return bool(self.results[0].measured_current)
+
+    def variability(self):
+        """Per section, the current record's covariance during the section (None without a record)."""
+        return None if self.matches is None else [m.covariance() for m in self.matches]
+
+
+def _length(q, unit="m"):
+    return None if q is None else float(q.to(unit).magnitude)
+
+
+def analyse(spec, site) -> WaterColumnAnalysis:
+    """Read and analyse the section (or box of sections) named by a parsed ``[water_column]`` table."""
     from ventflux.plugin_api import nominal_of
 
     from .reading import read_section
@@ -92,15 +178,55 @@ def analyse(spec, site):
 
     lat = getattr(site, "latitude", None)
     lon = getattr(site, "longitude", None)
-    data = read_section(spec["data"], latitude=lat, longitude=lon)
-    vd = spec["vent_depth"]
-    cd = spec["current_direction"]
-    return analyse_section(
-        data, vent_depth=None if vd is None else float(nominal_of(vd).to("m").magnitude),
-        current_direction=None if cd is None else float(nominal_of(cd).to("degree").magnitude),
-        factor=float(spec["factor"]), bin_size=5.0 if spec["bin_size"] is None else float(
-            spec["bin_size"].to("m").magnitude), degree=int(spec["degree"]), tracer=spec["tracer"],
-        margin=None if spec["margin"] is None else float(spec["margin"].to("m").magnitude))
+    paths = [spec["data"]] if spec.get("data") is not None else list(spec["sections"])
+    datas = [read_section(p, latitude=lat, longitude=lon) for p in paths]
+    record = None
+    if spec.get("current_record") is not None:
+        from .currents import read_current_record
+
+        record = read_current_record(spec["current_record"])
+        for d in datas:
+            if d.current_east is not None:
+                raise InputError("current_record", str(spec["current_record"]), "no record: the section file "
+                                 f"{Path(d.source).name} has current columns already")
+    vd, cd = spec.get("vent_depth"), spec.get("current_direction")
+    settings = dict(vent_depth=None if vd is None else float(nominal_of(vd).to("m").magnitude),
+                    current_direction=None if cd is None else float(nominal_of(cd).to("degree").magnitude),
+                    factor=float(spec["factor"]), bin_size=_length(spec.get("bin_size")) or 5.0,
+                    degree=int(spec["degree"]), tracer=spec["tracer"], margin=_length(spec.get("margin")))
+    matches = None
+    if record is not None:
+        datas, matches = zip(*(_with_record(d, record, lat) for d in datas))
+        datas, matches = list(datas), list(matches)
+    names = [Path(p).name for p in paths]
+    if len(datas) == 1:
+        res = analyse_section(datas[0], **settings)
+        if matches:
+            res.notes.extend(matches[0].notes)
+        return WaterColumnAnalysis(results=[res], names=names, box=None, matches=matches)
+    from .box import analyse_box
+
+    def one(d, band_depths=None, outward=None):
+        return analyse_section(d, band_depths=band_depths, outward=outward, **settings)
+
+    band = None
+    if spec.get("band_top") is not None:
+        band = (_length(spec["band_top"]), _length(spec["band_bottom"]))
+    box = analyse_box(datas, names, one, tolerance=_length(spec.get("closure_tolerance")), band=band)
+    notes = list(box.notes)
+    for m in matches or []:
+        notes.extend(n for n in m.notes if n not in notes)
+    return WaterColumnAnalysis(results=box.sections, names=names, box=box, matches=matches, notes=notes)
+
+
+def _with_record(data, record, latitude):
+    import gsw
+
+    from .currents import currents_at
+
+    depth = -gsw.z_from_p(data.sea_pressure, 0.0 if latitude is None and data.latitude is None else
+                          (data.latitude if data.latitude is not None else latitude))
+    return currents_at(record, data, depth)
 
 
 def rise_height(path, level="maximum", site=None):
@@ -117,38 +243,67 @@ def rise_height(path, level="maximum", site=None):
                          "[site] depth (heights are measured from it)")
     spec = {"data": Path(path), "current": None, "current_direction": None, "vent_depth": depth, "factor": 3.0,
             "bin_size": None, "degree": 2, "tracer": "temperature", "margin": None}
-    res = analyse(spec, site)
+    res = analyse(spec, site).results[0]
     if res.found.sum() < 2:
         raise InputError("height", str(path), "a section with a plume layer on at least 2 profiles (found on "
                          f"{int(res.found.sum())})", where=str(path))
     return normal(Q_(res.height(level), "m"), Q_(res.height_sd(level), "m"))
 
 
-def _estimate(spec, ctx):
-    from .section import draw_section, section_draws
+def propagate_analysis(spec, a: WaterColumnAnalysis, draws, policy, key=KEY):
+    """Draws of the heat flux through one section or out of a box: ``(per-section draws, total draws)``."""
+    from .section import propagate_sections
 
-    res = spec["analysis"]
-    drawn = section_draws(ctx.draws, KEY, res.n_profiles, current=spec["current"],
-                          current_direction=spec["current_direction"],
-                          current_uncertainty=spec["current_uncertainty"], vent_depth=spec["vent_depth"],
-                          bin_size=res.bin_size)
-    out = draw_section(res, drawn)
-    rows = summary_rows(res, out)
-    notes = [(f"Water column: heat carried across the tow-yo section {Path(res.source).name} by the plume layer "
-              f"(ρ c_p0 ΔΘ u·n over the layer's band), compared with the {spec['compares_with']} of the survey.")]
-    notes += [f"Water column: {n}" for n in res.notes]
-    if out.failed:
-        notes.append(f"Water column: {out.failed} draws whose resampled background could not be fitted are NaN "
-                     "and left out of the comparison.")
+    keys = [key] if a.box is None else [f"{key}/box/{n}" for n in a.names]
+    return propagate_sections(a.results, keys, draws, policy, current=spec.get("current"),
+                              current_direction=spec.get("current_direction"),
+                              current_uncertainty=spec.get("current_uncertainty"),
+                              current_variability=a.variability(), vent_depth=spec.get("vent_depth"),
+                              shared_key=key)
+
+
+def _estimate(spec, ctx):
+    a = spec["analysis"]
+    per, out = propagate_analysis(spec, a, ctx.draws, ctx.policy)
+    res = a.results[0]
+    if a.box is None:
+        rows = summary_rows(res, out)
+        what = f"across the tow-yo section {Path(res.source).name} by the plume layer"
+        tables = {"water_column": rows, "water_column_profiles": res.rows()}
+    else:
+        rows = box_rows(a, per, out)
+        what = f"out of the closed box of {len(a.results)} sections ({', '.join(a.names)})"
+        tables = {"water_column": rows, "water_column_profiles": [
+            {"section": n, **r} for n, r_ in zip(a.names, a.results) for r in r_.rows()]}
+    notes = [(f"Water column: heat carried {what} (ρ c_p0 ΔΘ u·n over the layer's band), compared with the "
+              f"{spec['compares_with']} of the survey.")]
+    notes += [f"Water column: {n}" for n in a.notes]
+    for name, r in zip(a.names, a.results):
+        notes += [f"Water column ({name}): {n}" if a.box is not None else f"Water column: {n}" for n in r.notes]
+    notes += [f"Water column: {n}" for n in _draw_notes(out)]
     from .figures import section_figures
 
+    figures = section_figures(res, per[0]) if a.box is None else [
+        fig for i, (r, p) in enumerate(zip(a.results, per)) for fig in _prefixed(section_figures(r, p), i + 1)]
     return SectionEstimate(category="check", names=["water-column heat flux"],
-                           heat_power=Q_(out.heat_flux.reshape(1, -1), "W"), rows=rows,
-                           tables={"water_column": rows, "water_column_profiles": res.rows()},
-                           figures=section_figures(res, out), notes=notes, compares_with=spec["compares_with"])
+                           heat_power=Q_(out.heat_flux.reshape(1, -1), "W"), rows=rows, tables=tables,
+                           figures=figures, notes=notes, compares_with=spec["compares_with"])
 
 
-def summaries(res, out) -> dict:
+def _prefixed(figs, i):
+    return [(f"box{i}_{stem}", png, caption) for stem, png, caption in figs]
+
+
+def _draw_notes(out) -> list:
+    notes = []
+    if out.unphysical:
+        notes.append(f"{out.unphysical} of {out.n_draws} draws dropped as impossible (a negative current speed or "
+                     "vent depth, or a resampled background that cannot be fitted), counted and within the run's "
+                     "limit.")
+    return notes
+
+
+def summaries(res, out, heights=True) -> dict:
     """Monte Carlo summaries (``ventflux.uncertainty.Summary``) by name: heat flux (W), its parts, rise heights (m)."""
     from ventflux.plugin_api import summarize
 
@@ -158,7 +313,7 @@ def summaries(res, out) -> dict:
 
     out_ = {"heat_flux": summ(out.heat_flux, "W")}
     out_.update({f"heat_flux: {k} only": summ(v, "W") for k, v in out.parts.items()})
-    if res.found.any():
+    if heights and res is not None and res.found.any():
         out_.update({f"rise_height_{lvl}": summ(d, "m") for lvl, d in out.heights.items()})
     return out_
 
@@ -186,10 +341,37 @@ def summary_rows(res, out):
     rows.append({"quantity": "profiles", "unit": "", "nominal": res.n_profiles})
     rows.append({"quantity": "background noise of Δθ", "unit": "mK", "nominal": 1e3 * res.noise})
     rows.append({"quantity": "detection threshold", "unit": "mK", "nominal": 1e3 * res.noise * res.factor})
+    rows.append({"quantity": "samples dropped for missing values", "unit": "", "nominal": res.n_dropped})
     return rows
 
 
-WATER_COLUMN = SurveySection(key=KEY, summary="tow-yo section across the plume layer → heat flux through a "
-                                              "control surface and rise heights, as a check on the sum of vents "
-                                              "and patches (not added to the totals)",
+def box_rows(a, per, out):
+    """Rows of a box: the net heat flux with its parts, then each section's flux with its outward normal."""
+    rows = []
+    for name, s in summaries(None, out, heights=False).items():
+        r = {"quantity": ("net " if name == "heat_flux" else "net ") + name.replace("_", " "), "unit": "MW",
+             "nominal": 1e-6 * out.nominal_heat_flux}
+        if s is not None:
+            s = s.to("MW")
+            r.update({k: float(getattr(s, k).magnitude) for k in ("mean", "median", "p05", "p95", "std")})
+        rows.append(r)
+    rows.append({"quantity": "net heat flux, constant-c_p shortcut ρ c_p Δθ", "unit": "MW",
+                 "nominal": 1e-6 * out.shortcut_heat_flux})
+    for name, r, p in zip(a.names, a.results, per):
+        row = {"quantity": f"heat flux out through {name} (outward normal {r.normal_bearing:.0f}°)", "unit": "MW",
+               "nominal": 1e-6 * p.nominal_heat_flux}
+        d = p.heat_flux[np.isfinite(p.heat_flux)]
+        if d.size:
+            row.update({"mean": 1e-6 * d.mean(), "median": 1e-6 * np.median(d), "p05": 1e-6 * np.percentile(d, 5),
+                        "p95": 1e-6 * np.percentile(d, 95), "std": 1e-6 * d.std(ddof=1)})
+        rows.append(row)
+        rows.append({"quantity": f"samples dropped for missing values ({name})", "unit": "", "nominal": r.n_dropped})
+    rows.append({"quantity": "largest gap between sections", "unit": "m", "nominal": max(g for *_, g in a.box.gaps)})
+    rows.append({"quantity": "closure tolerance", "unit": "m", "nominal": a.box.tolerance})
+    return rows
+
+
+WATER_COLUMN = SurveySection(key=KEY, summary="tow-yo section across the plume layer, or a closed box of sections "
+                                              "→ heat flux through a control surface and rise heights, as a check "
+                                              "on the sum of vents and patches (not added to the totals)",
                              parse=_parse, estimate=_estimate, provider="ventflux-watercolumn")
