@@ -40,17 +40,25 @@ per draw and shared by every sample, i.e. systematic over the section):
 
 - the instrument's accuracy, given by the user (``current_uncertainty``),
   normal with that standard deviation;
-- the record's variability during the section: the standard deviation of
-  the record's normal component over the section's time span (and, for an
-  ADCP, over the bins spanning the section's depths), normal with that
-  standard deviation. The record measures the current at the mooring, not
-  at the section; the rule takes the mismatch to be as large as the current
-  varies while the section is sampled (a choice, conservative for a steady
-  current measured well, no source).
+- the record's variability that interpolation cannot follow: over the
+  section's time span (and, for an ADCP, the bins spanning the section's
+  depths), the covariance of the east and north components estimated from
+  successive differences, Σ = ⟨δu δuᵀ⟩ / 2 with δu the change from one
+  record to the next (the mean square successive difference [2]). A slow
+  tide is followed by the interpolation and adds little; noise and
+  fluctuations faster than the record's interval add their full variance.
+  Drawn as a normal offset with that covariance, projected on each
+  section's normal.
+
+What no record can tell is how far the current at the mooring differs from
+the current at the section; a user who knows it adds it to
+``current_uncertainty``.
 
 References
 ----------
 .. [1] CF Standard Name Table (version 84), cfconventions.org.
+.. [2] von Neumann, J., Kent, R. H., Bellinson, H. R. and Hart, B. I. (1941).
+   The mean square successive difference. Ann. Math. Stat. 12, 153–162.
 """
 
 from __future__ import annotations
@@ -233,23 +241,26 @@ def _clean(rec: CurrentRecord) -> CurrentRecord:
 
 @dataclass(frozen=True)
 class RecordMatch:
-    """The record's values during the section (for the variability rule) and what the matching did."""
+    """The record during the section (for the variability rule) and what the matching did."""
 
-    east: np.ndarray  # record values within the section's time span (and depths, for an ADCP), m/s
+    east: np.ndarray  # record values within the section's time span, (T,) or (T, bins), m/s
     north: np.ndarray
     outside_bins: int  # samples above or below the ADCP's bins (held at the nearest bin)
     notes: tuple
 
     def covariance(self) -> np.ndarray:
-        """Covariance, (m/s)², of the record's east and north components during the section (2, 2)."""
-        if self.east.size < 2:
+        """Covariance (2, 2), (m/s)², of east and north from successive differences in time [2] (module notes)."""
+        de = np.diff(self.east, axis=0).ravel()
+        dn = np.diff(self.north, axis=0).ravel()
+        if de.size < 2:
             return np.zeros((2, 2))
-        return np.cov(np.stack([self.east, self.north]), ddof=1)
+        d = np.stack([de, dn])
+        return (d @ d.T) / (2.0 * de.size)
 
     def variability(self, normal) -> float:
-        """Standard deviation, m/s, of the record's component along ``normal`` during the section."""
-        un = self.east * normal[0] + self.north * normal[1]
-        return float(np.std(un, ddof=1)) if un.size > 1 else 0.0
+        """Standard deviation, m/s, of the variability along ``normal`` (``covariance`` projected)."""
+        n = np.asarray(normal, float)
+        return float(np.sqrt(n @ self.covariance() @ n))
 
 
 def currents_at(record: CurrentRecord, data, depth=None):
@@ -308,7 +319,7 @@ def currents_at(record: CurrentRecord, data, depth=None):
         bins = (L >= np.min(lev) - 1e-9) & (L <= np.max(lev) + 1e-9)
         if not bins.any():
             bins = np.isin(np.arange(L.size), [j.min(), jj.max()])
-        ve, vn = record.east[within][:, bins].ravel(), record.north[within][:, bins].ravel()
+        ve, vn = record.east[within][:, bins], record.north[within][:, bins]
         if outside:
             notes.append(f"{outside} samples lie above the shallowest or below the deepest bin of the current record "
                          "and take that bin's current.")

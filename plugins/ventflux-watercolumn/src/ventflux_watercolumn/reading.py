@@ -45,6 +45,10 @@ survey's warnings). A variable with no value at all, or a profile (given by
 numbers or by the netCDF layout) with no complete sample, is refused,
 naming it. Infinities and text that is not a number are refused.
 
+Times must increase sample by sample unless the profiles are numbered (a
+``profile`` column, or the profile × level layout): casts may then carry one
+time each, and an up-cast stored by level runs against time.
+
 Geographic positions become local east/north metres about the section's
 mean position (equirectangular, mean Earth radius 6 371 km [2]; over a
 section of a few km the distortion is below 1e-6, common practice, no
@@ -385,7 +389,7 @@ def _assemble(cols, lines, source, latitude, longitude, epoch=None, layout="samp
         lon0 = None if longitude is None else float(longitude)
     t, p = cols["time"], cols["sea_pressure"]
     bad = np.flatnonzero(np.diff(t) <= 0)
-    if bad.size and layout == "samples":  # in a profile × level array, an up-cast runs against the levels
+    if bad.size and "profile" not in cols:  # numbered profiles (a column, or profile × level) may share a time
         errs.add(InputError("time", f"{t[bad[0] + 1]:g} s after {t[bad[0]]:g} s", "times that increase sample by "
                             "sample", where=_where(source, lines, bad[0] + 1)))
     for name, v, lo, hi in (("sea_pressure", p, 0.0, 8000.0), ("salinity", cols["salinity"], 0.0, 42.0)):
