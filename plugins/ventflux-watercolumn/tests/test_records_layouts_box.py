@@ -287,3 +287,36 @@ def test_a_box_that_does_not_close_is_refused(box_files):
         analyse(_spec(sections=paths, current=Q_(0.05, "m/s"), current_direction=Q_(70.0, "deg"),
                       closure_tolerance=Q_(10.0, "m")), SITE)
     assert len(e.value.lines()) == 4  # every gap named, at once
+
+
+def test_survey_box_and_current_record_keys(box_files, tmp_path):
+    # The survey's [water_column] takes a box of sections and a current record; --check refuses what the run
+    # would, in one line per problem with the full key path.
+    from ventflux.survey.run import run_survey
+    from ventflux.survey.spec import load_survey
+
+    paths, _, _ = box_files
+    head = ('[site]\nname = "Test"\ndepth = "2480 m"\nlatitude = -17.3\nlongitude = -113.6\n'
+            'ambient_temperature = "2.0 degC"\nambient_salinity = 34.69\n[run]\ndraws = 300\n'
+            '[[vent]]\nname = "A"\n  [[vent.orifice]]\n  temperature = "350 ± 2 degC"\n  velocity = "1.0 ± 0.1 m/s"'
+            '\n  diameter = "10 cm"\n')
+    listed = ", ".join(f'"{p}"' for p in paths)
+    f = tmp_path / "s.toml"
+    f.write_text(head + f'[water_column]\nsections = [{listed}]\ncurrent = "0.05 ± 0.002 m/s"\n'
+                 'current_direction = "70 ± 2 deg"\n')
+    result = run_survey(load_survey(f))
+    est = result.sections["water_column"]
+    assert est.category == "check" and est.heat_power.shape == (1, 300)
+    assert est.rows[0]["quantity"] == "net heat flux" and len(est.tables["water_column"]) > 4
+    f.write_text(head + f'[water_column]\nsections = [{listed}]\ndata = "{paths[0]}"\ncurrent = "0.05 m/s"\n'
+                 'band_top = "2000 m"\n')
+    with pytest.raises(InputErrors) as e:
+        load_survey(f)
+    lines = "\n".join(e.value.lines())
+    assert "water_column.data" in lines and "water_column.band_bottom" in lines
+    t = np.arange(-100.0, 20000.0, 60.0)
+    rec = _record_nc(tmp_path / "meter.nc", t, np.full(t.size, 0.05))
+    f.write_text(head + f'[water_column]\ndata = "{paths[1]}"\ncurrent_record = "{rec}"\n'
+                 'current_uncertainty = "0.002 m/s"\ncurrent = "0.05 m/s"\n')
+    with pytest.raises(InputError, match="water_column.current: '0.05 m/s'.*measured"):
+        load_survey(f)
