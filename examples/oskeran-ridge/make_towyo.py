@@ -9,7 +9,12 @@ background of the demo's CTD cast (make_demo_data.py); the backscatter anomaly f
 Its heat flux is ρ c_p0 u a 2π σz σx ≈ 66 MW, of the order of the demo field's total.
 Sensor noise: 0.5 mK on temperature, 0.0002 on salinity, 0.002 on backscatter.
 
-Run: python make_towyo.py   (writes data/towyo.csv next to this script; deterministic)
+A current meter moored beside the line records every 10 minutes (data/towyo_currents.csv): the same 4 cm/s
+toward 80°, with a semidiurnal oscillation of 0.8 cm/s amplitude along it and 0.3 cm/s of noise per component
+(invented).
+
+Run: python make_towyo.py   (writes data/towyo.csv and data/towyo_currents.csv next to this script;
+deterministic)
 """
 
 from __future__ import annotations
@@ -57,13 +62,29 @@ def main():
         fh.write("# Oskeran Ridge, tow-yo OSK-26-T01 (invented): sea pressure, in-situ temperature, practical "
                  "salinity, light backscatter (relative units)\n")
         w = csv.writer(fh)
-        w.writerow(["time [s]", "latitude [degree]", "longitude [degree]", "pressure [dbar]", "temperature [degC]",
+        w.writerow(["time [s]", "latitude [degree]", "longitude [degree]", "sea_pressure [dbar]", "temperature [degC]",
                     "salinity", "optical"])
         w.writerows((f"{a:.0f}", f"{b:.6f}", f"{c:.6f}", f"{d:.2f}", f"{e:.5f}", f"{f:.5f}", f"{g:.4f}")
                     for a, b, c, d, e, f, g in zip(t, lat, lon, p, temp, sal, optical))
+    write_current_record(HERE / "data" / "towyo_currents.csv", t[-1], rng)
     rho = float(gsw.rho(np.mean(sa), np.mean(ct), float(gsw.p_from_z(-(VENT_DEPTH - 225.0), LAT0))))
     print(f"wrote {path} ({t.size} samples); analytic heat flux "
           f"{rho * 3991.86795711963 * 0.04 * 0.010 * 2 * np.pi * 18.0 * 350.0 / 1e6:.1f} MW")
+
+
+def write_current_record(path, duration, rng):
+    """The moored current meter's record: 10-minute samples spanning the tow-yo with 20 minutes to spare."""
+    tr = np.arange(-1200.0, duration + 1800.0, 600.0)
+    speed = 0.04 + 0.008 * np.sin(2 * np.pi * tr / (12.42 * 3600.0))  # semidiurnal period (common practice)
+    b = np.radians(80.0)
+    ue = speed * np.sin(b) + rng.normal(0, 0.003, tr.size)
+    un = speed * np.cos(b) + rng.normal(0, 0.003, tr.size)
+    with open(path, "w", newline="", encoding="utf-8") as fh:
+        fh.write("# Oskeran Ridge, current meter OSK-26-M1 (invented), moored beside the tow-yo line; times on "
+                 "the tow-yo's clock\n")
+        w = csv.writer(fh)
+        w.writerow(["time [s]", "current_east [m/s]", "current_north [m/s]"])
+        w.writerows((f"{a:.0f}", f"{e:.4f}", f"{n:.4f}") for a, e, n in zip(tr, ue, un))
 
 
 if __name__ == "__main__":
