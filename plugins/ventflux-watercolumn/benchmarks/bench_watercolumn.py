@@ -4,8 +4,9 @@ A 20-hour tow-yo at 1 Hz (72,000 samples, 60 casts) across an analytic plume lay
 (tests/watercolumn_synthetic.py). Timed, interleaved in one run:
 
 1. The plugin: TEOS-10 state, profiles, two-pass background fit, anomalies, layer detection, band integrals
-   (``analyse_section``) and 10⁴ bootstrap/Monte Carlo draws of the heat flux and rise heights
-   (``section_draws`` + ``draw_section``).
+   (``analyse_section``) and 10⁴ bootstrap/Monte Carlo draws of the heat flux and rise heights through the
+   one propagation driver (``propagate_sections``: ``ventflux.uncertainty.propagate`` with the unphysical-draw
+   policy), as ``plume-layer`` and the survey run it.
 2. A plain per-profile loop doing the same bootstrap the obvious way: for each draw, gather the drawn
    profiles' background samples, refit θ–σ0 by least squares (numpy.linalg.lstsq), and for each drawn
    profile bin its anomaly flux with numpy.bincount and integrate; then the trapezoid rule along the
@@ -29,12 +30,13 @@ from ventflux_watercolumn.section import (
     CP0,
     analyse_section,
     draw_section,
+    propagate_sections,
     section_draws,
 )
 from watercolumn_synthetic import towyo
 
 from ventflux.aggregate import SharedDraws
-from ventflux.uncertainty import normal
+from ventflux.uncertainty import UnphysicalPolicy, normal
 from ventflux.units import Q_
 
 N_DRAWS = 10_000
@@ -49,12 +51,15 @@ def make():
                           latitude=d["latitude"], longitude=d["longitude"], lines=np.arange(n))
 
 
+CURRENT = normal(Q_(0.05, "m/s"), Q_(0.005, "m/s"))
+DIRECTION = normal(Q_(0.0, "deg"), Q_(5.0, "deg"))
+
+
 def plugin(data):
     res = analyse_section(data, vent_depth=2480.0, current_direction=0.0)
-    drawn = section_draws(SharedDraws(N_DRAWS, 1), "bench", res.n_profiles, current=normal(
-        Q_(0.05, "m/s"), Q_(0.005, "m/s")), current_direction=normal(Q_(0.0, "deg"), Q_(5.0, "deg")),
-        vent_depth=Q_(2480.0, "m"))
-    return res, drawn, draw_section(res, drawn)
+    _, out = propagate_sections([res], ["bench"], SharedDraws(N_DRAWS, 1), UnphysicalPolicy(), current=CURRENT,
+                                current_direction=DIRECTION, vent_depth=Q_(2480.0, "m"))
+    return res, out
 
 
 def loop(data, res, picks, speed):
@@ -95,7 +100,11 @@ def best(fn, repeat=3):
 def main():
     d, data = make()
     print(f"tow-yo: {data.size} samples (1 Hz, {data.size / 3600:.1f} h)")
-    t_plugin, (res, drawn, out) = best(lambda: plugin(data))
+    t_plugin, (res, out) = best(lambda: plugin(data))
+    # the same named draws as the driver's (one stream per name): the loop gets the same picks and currents
+    drawn = section_draws(SharedDraws(N_DRAWS, 1), "bench", res.n_profiles, current=CURRENT,
+                          current_direction=DIRECTION, vent_depth=Q_(2480.0, "m"))
+    assert out.unphysical == 0 and np.allclose(draw_section(res, drawn).heat_flux, out.heat_flux, rtol=1e-12)
     print(f"{res.n_profiles} profiles, layer on {int(res.found.sum())}; flux {out.nominal_heat_flux / 1e6:.1f} MW "
           f"(analytic {d['heat_flux'] / 1e6:.1f} MW), 90 %: {np.percentile(out.heat_flux, 5) / 1e6:.1f}-"
           f"{np.percentile(out.heat_flux, 95) / 1e6:.1f} MW")
