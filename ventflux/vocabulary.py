@@ -65,6 +65,21 @@ QUANTITIES: tuple[Quantity, ...] = (
     Quantity("plausibility override", "--allow-implausible", "[run] allow_implausible", "",
              "implausible_values_allowed"),
     Quantity("progress messages off", "--quiet", "", "", ""),
+    Quantity("current speed across a water-column section (a constant)", "--current", "water_column.current", "",
+             ""),
+    Quantity("bearing toward which the current flows", "--current-direction", "water_column.current_direction", "",
+             ""),
+    Quantity("measured current components", "", "", "current_east [m/s], current_north [m/s]", ""),
+    Quantity("current meter or ADCP record", "--current-record", "water_column.current_record", "", ""),
+    Quantity("accuracy of a measured current (per component)", "--current-uncertainty",
+             "water_column.current_uncertainty", "", ""),
+    Quantity("sections of a closed box", "section files (positional)", "water_column.sections", "", "box"),
+    Quantity("largest gap allowed between a box's sections", "--closure-tolerance",
+             "water_column.closure_tolerance", "", "closure_tolerance_m"),
+    Quantity("depth band of a box's integral", "--band-top, --band-bottom",
+             "water_column.band_top, water_column.band_bottom", "", "band_top_m, band_bottom_m"),
+    Quantity("heat flux across a section / out of a box", "", "", "", "heat_flux_W, net_heat_flux_W"),
+    Quantity("samples dropped for missing values", "", "", "", "missing_samples_dropped"),
 )
 
 #: Old option spelling → new, per command (``"*"``: every command that has it).

@@ -110,6 +110,7 @@ def run(args) -> int:
     from types import SimpleNamespace
 
     from ventflux.plugin_api import (
+        DEFAULT_DRAWS,
         InputError,
         SharedDraws,
         UnphysicalPolicy,
@@ -131,7 +132,7 @@ def run(args) -> int:
     if a.measured and (spec["current"] is not None or spec["current_direction"] is not None):
         raise InputError("--current", args.current or args.current_direction, "no constant current: the currents "
                          "are measured (give their accuracy with --current-uncertainty)")
-    draws = SharedDraws(mc.draws, mc.seed)
+    draws = SharedDraws(DEFAULT_DRAWS if mc.draws is None else mc.draws, mc.seed)
     policy = UnphysicalPolicy(mc.max_unphysical, option="--max-unphysical")
     _progress(args, f"propagating {mc.draws} draws")
     per, out = propagate_analysis(spec, a, draws, policy, key="plume-layer")

@@ -70,7 +70,7 @@ class SectionAnalysis:
     s: np.ndarray  # profile distance along the section, m
     normal_bearing: float
     beta: np.ndarray  # (K, 2) background coefficients (θ, CT)
-    sums: object  # BackgroundSums
+    sums: an.BackgroundSums
     noise: float  # K, per-sample Δθ noise
     optical_noise: float | None
     optical_background: float | None
@@ -450,7 +450,7 @@ def draw_section(res: SectionAnalysis, drawn) -> SectionDraws:
         speed = drawn["current"] * cosang
         speed0 = nom["current"] * (1.0 if bearing is None else float(
             np.cos(np.radians(nom["current_direction"] - res.normal_bearing))))
-        off = off0 = None
+        off = off0 = None  # type: ignore[assignment]  # a constant current has no offset
         args = window_args = {}
 
     def H(beta, Wt, sp, of, window=False):

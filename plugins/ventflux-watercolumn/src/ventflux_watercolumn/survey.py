@@ -194,10 +194,10 @@ def analyse(spec, site) -> WaterColumnAnalysis:
                     current_direction=None if cd is None else float(nominal_of(cd).to("degree").magnitude),
                     factor=float(spec["factor"]), bin_size=_length(spec.get("bin_size")) or 5.0,
                     degree=int(spec["degree"]), tracer=spec["tracer"], margin=_length(spec.get("margin")))
-    matches = None
+    matches: list | None = None
     if record is not None:
-        datas, matches = zip(*(_with_record(d, record, lat) for d in datas))
-        datas, matches = list(datas), list(matches)
+        pairs = [_with_record(d, record, lat) for d in datas]
+        datas, matches = [d for d, _ in pairs], [m for _, m in pairs]
     names = [Path(p).name for p in paths]
     if len(datas) == 1:
         res = analyse_section(datas[0], **settings)
