@@ -146,9 +146,13 @@ def run(args) -> int:
 
         folder = Path(args.figures)
         write_output("--figures", folder, lambda: folder.mkdir(parents=True, exist_ok=True))
-        for res, p in zip(a.results, per):
-            for stem, png, _ in section_figures(res, p):
-                write_output("--figures", folder, atomic_write_bytes, folder / f"{stem}.png", png)
+        figs = [fig for res, p in zip(a.results, per) for fig in section_figures(res, p)]
+        if a.box is not None:
+            from .figures import box_png
+
+            figs.append(("box", box_png(a, per, out), ""))
+        for stem, png, _ in figs:
+            write_output("--figures", folder, atomic_write_bytes, folder / f"{stem}.png", png)
     if args.json:
         print_json(_payload(a, per, out, draws, policy))
         return 0

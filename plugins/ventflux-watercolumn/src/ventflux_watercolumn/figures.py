@@ -121,3 +121,28 @@ def section_figures(res, out) -> list:
         figs.append((f"{name}_heat_flux", flux_png(out), (f"{name}: draws of the heat flux across the section "
                                                           "with its median and 90 % interval.")))
     return figs
+
+
+def box_png(a, per, out) -> bytes:
+    """Plan view of a closed box: each side's profiles, its outward normal and the heat flux out through it."""
+    plt = _plt()
+    fig, ax = plt.subplots(figsize=(6.5, 6))
+    for name, r, p in zip(a.names, a.results, per):
+        ax.plot(r.profile_east, r.profile_north, ".-", ms=3, lw=0.8)
+        mid = np.array([np.mean(r.profile_east), np.mean(r.profile_north)])
+        span = max(float(np.ptp(r.s)), 1.0)
+        ax.annotate("", xy=mid + 0.1 * span * r.normal, xytext=mid, arrowprops={"arrowstyle": "->", "lw": 1.2})
+        ax.text(*(mid - 0.12 * span * r.normal), f"{name}\n{p.nominal_heat_flux / 1e6:.3g} MW out", ha="center",
+                va="center", fontsize=7)
+    ax.plot(*a.box.centre, "k+", ms=10)
+    h = out.heat_flux[np.isfinite(out.heat_flux)] / 1e6
+    p05, p95 = np.percentile(h, [5, 95]) if h.size else (np.nan, np.nan)
+    ax.set_title(f"net heat flux out of the box {out.nominal_heat_flux / 1e6:.3g} MW (90 %: {p05:.3g}–{p95:.3g});\n"
+                 f"largest gap between sides {max(g for *_, g in a.box.gaps):.0f} m "
+                 f"(tolerance {a.box.tolerance:.0f} m)", fontsize=8)
+    ax.margins(0.2)
+    ax.set_aspect("equal", adjustable="datalim")
+    ax.set_xlabel("east [m]")
+    ax.set_ylabel("north [m]")
+    fig.tight_layout()
+    return _png(fig)

@@ -283,8 +283,15 @@ def _estimate(spec, ctx):
     notes += [f"Water column: {n}" for n in _draw_notes(out)]
     from .figures import section_figures
 
-    figures = section_figures(res, per[0]) if a.box is None else [
-        fig for i, (r, p) in enumerate(zip(a.results, per)) for fig in _prefixed(section_figures(r, p), i + 1)]
+    if a.box is None:
+        figures = section_figures(res, per[0])
+    else:
+        from .figures import box_png
+
+        figures = [("water_column_box", box_png(a, per, out), "Closed box in plan: each side's profiles, its "
+                    "outward normal and the heat flux out through it; the net flux with its 90 % interval.")]
+        figures += [fig for i, (r, p) in enumerate(zip(a.results, per))
+                    for fig in _prefixed(section_figures(r, p), i + 1)]
     return SectionEstimate(category="check", names=["water-column heat flux"],
                            heat_power=Q_(out.heat_flux.reshape(1, -1), "W"), rows=rows, tables=tables,
                            figures=figures, notes=notes, compares_with=spec["compares_with"])
