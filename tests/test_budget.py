@@ -154,8 +154,8 @@ def test_orifice_budget_matches_the_analytic_product(mode):
 
 
 def test_orifice_command_prints_and_returns_the_budget(capsys):
-    args = ["orifice", "--temperature", "340 ± 3 degC", "--velocity", "1.2 ± 0.2 m/s", "--diameter", "8 ± 0.5 cm",
-            "--pressure", "25 MPa", "--ambient-temperature", "2 degC", "--draws", "3000", "--budget"]
+    args = ["orifice", "--exit-temperature", "340 ± 3 degC", "--velocity", "1.2 ± 0.2 m/s", "--diameter", "8 ± 0.5 cm",
+            "--absolute-pressure", "25 MPa", "--ambient-temperature", "2 degC", "--draws", "3000", "--budget"]
     assert main(args) == 0
     out = capsys.readouterr().out
     assert "Uncertainty budget of heat power" in out and "--velocity" in out
@@ -170,7 +170,7 @@ def test_orifice_budget_takes_the_draws_and_seed_as_typed(capsys):
 
     from ventflux.cli import main
 
-    argv = ["orifice", "--temperature", "352 ± 3 degC", "--velocity", "1.4 ± 0.2 m/s", "--diameter", "12 ± 1 cm",
+    argv = ["orifice", "--exit-temperature", "352 ± 3 degC", "--velocity", "1.4 ± 0.2 m/s", "--diameter", "12 ± 1 cm",
             "--depth", "2550 m", "--ambient-temperature", "2.1 degC", "--budget", "--draws", "2000", "--seed", "5",
             "--json"]
     assert main(argv) == 0

@@ -191,7 +191,7 @@ def _print_readable(result, summaries, draws, seed, out=None, rejected=0, limit=
     rows = []
     for attr, unit, label in _SHOWN:
         q = getattr(result, attr).to(unit)
-        row = [label, f"{q.magnitude:.4g}", f"{q.units:~P}"]
+        row = [label, f"{q.magnitude:.4g}", "%" if unit == "percent" else unit]  # units as the vocabulary writes them
         if summaries:
             s = summaries.get(attr)
             row += [f"{getattr(s, k).to(unit).magnitude:.4g}" if s else "" for k in ("median", "p05", "p95")]
