@@ -68,11 +68,20 @@ QUANTITIES: tuple[Quantity, ...] = (
     Quantity("draws dropped as unphysical", "", "", "unphysical_draws", "unphysical_draws"),
     Quantity("spread and percentiles of the draws", "", "", "heat_power_sd [MW], heat_power_p05 [MW]",
              "heat_power_W_sd, heat_power_W_p05, heat_power_W_p95"),
-    Quantity("uncertainty budget", "--budget", "[run] budget", "first_order, total_effect, width_if_known [MW]",
-             "budget"),
+    Quantity("uncertainty budget", "--budget", "", "first_order, total_effect, width_if_known [MW]",
+             "budget, first_order, total_effect, width_if_known_W"),
     Quantity("plausibility override", "--allow-implausible", "[run] allow_implausible", "",
              "implausible_values_allowed"),
     Quantity("progress messages off", "--quiet", "", "", ""),
+    Quantity("conductive length of a reservoir", "--size, --cooled-faces", "size", "", "conductive_length"),
+    Quantity("pressure below the seafloor (reservoir)", "--depth-below-seafloor, --seafloor-pressure, "
+             "--pressure-regime", "depth_below_seafloor, pressure_regime", "", ""),
+    Quantity("flank deficit span", "--deficit-span", "", "", "water_column_deficit"),
+    Quantity("view of a clip", "--view", "view", "view", "view"),
+    Quantity("tracer-to-velocity width ratio", "--tracer-to-velocity-width-ratio", "tracer_to_velocity_width_ratio",
+             "", "tracer_to_velocity_width_ratio"),
+    Quantity("heat-pulse duration", "--pulse-duration", "sediment_probes.probe.heat_pulse_duration", "", "probe"),
+    Quantity("sensors left out", "--exclude-sensor", "exclude_sensors", "excluded_sensors", "excluded_sensors"),
 )
 
 #: Old option spelling → new, per command (``"*"``: every command that has it; ``"summarize water"``: one
@@ -149,11 +158,13 @@ class _DeprecatedOption(argparse.Action):
         setattr(namespace, "_deprecated_used", used + [(old, self, value)])
 
 
-def check_deprecated(parser, namespace) -> None:
-    """After parsing: an old spelling given together with its new one, or with another option of the new
-    one's mutually exclusive group, is a usage error (argparse cannot see it, the alias being outside the group)."""
-    for old, action, value in getattr(namespace, "_deprecated_used", []):
-        if getattr(namespace, action.dest, None) is not value:
+def check_deprecated(parser, namespace, args=()) -> None:
+    """After parsing ``args``: an old spelling given together with its new one, or with another option of the
+    new one's mutually exclusive group, is a usage error (argparse cannot see it, the alias being outside the
+    group)."""
+    given = {str(a).split("=", 1)[0] for a in args or () if str(a).startswith("--")}
+    for old, action, _value in getattr(namespace, "_deprecated_used", []):
+        if action.new in given:
             parser.error(f"argument {old}: not allowed with argument {action.new}")
         for other in getattr(action.group, "_group_actions", []):
             if other is action.target:

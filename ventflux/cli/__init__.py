@@ -31,7 +31,7 @@ class _Parser(argparse.ArgumentParser):
         from ..vocabulary import check_deprecated
 
         namespace, extras = super().parse_known_args(args, namespace)
-        check_deprecated(self, namespace)
+        check_deprecated(self, namespace, sys.argv[1:] if args is None else args)
         return namespace, extras
 
     def error(self, message):
