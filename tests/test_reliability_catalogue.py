@@ -23,10 +23,12 @@ DEMO = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge"
 ORIFICE = ["orifice", "--exit-temperature", "352 degC", "--velocity", "1.4 ± 0.2 m/s", "--diameter", "12 cm",
            "--depth", "2550 m", "--ambient-temperature", "2.1 degC", "--draws", "200"]
 PLUME = ["plume-rise", "--rise-height", "250 ± 30 m", "--buoyancy-frequency", "1.0e-3/s",
-         "--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--absolute-pressure", "25MPa", "--draws", "200"]
+         "--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--absolute-pressure", "25MPa",
+         "--draws", "200"]
 DIFFUSE = ["diffuse", "--area", "12 m^2", "--active-fraction", "0.4", "--anomaly", "3.2 ± 0.5 K",
            "--velocity", "0.8 ± 0.2 cm/s", "--ambient-temperature", "2.1 degC", "--depth", "2200 m", "--draws", "200"]
-WATER = ["summarize", "water", "--heat-power", "100 ± 20 MW", "--exit-temperature", "350 degC", "--absolute-pressure", "25 MPa",
+WATER = ["summarize", "water", "--heat-power", "100 ± 20 MW", "--exit-temperature", "350 degC",
+         "--absolute-pressure", "25 MPa",
          "--ambient-temperature", "2 degC", "--draws", "200"]
 RESERVOIR = ["summarize", "reservoir", "--heat-power", "100 MW", "--volume", "0.01 km^3", "--temperature-drop", "800 K",
              "--porosity", "0", "--draws", "200"]

@@ -115,8 +115,8 @@ def _run(capsys, *argv):
 
 
 def test_cli_water_json(capsys):
-    rc, out, _ = _run(capsys, "water", "--heat-power", "100 MW", "--exit-temperature", "350 degC", "--absolute-pressure", "25MPa",
-                      "--ambient-temperature", "2 degC", "--json")
+    rc, out, _ = _run(capsys, "water", "--heat-power", "100 MW", "--exit-temperature", "350 degC",
+                      "--absolute-pressure", "25MPa", "--ambient-temperature", "2 degC", "--json")
     assert rc == 0
     d = json.loads(out)
     # IAPWS-95 through the independent `iapws` package (IAPWS R6-95(2018)): ṁ = P / (h(350 °C) − h(2 °C)) at 25 MPa
@@ -133,7 +133,8 @@ def test_cli_questions_print_tables(capsys):
                       "--area", "1 km^2", "--porosity", "0")
     assert rc == 0 and "thickness" in out
     rc, out, _ = _run(capsys, "flank", "--observed", "1 Myr=120 mW/m^2", "--observed", "5 Myr=110 mW/m^2",
-                      "--half-spreading-rate", "25 mm/yr", "--temperature-rise", "10 K", "--absolute-pressure", "35MPa", "--json")
+                      "--half-spreading-rate", "25 mm/yr", "--temperature-rise", "10 K", "--absolute-pressure", "35MPa",
+                      "--json")
     d = json.loads(out)
     assert rc == 0 and d["advective_loss_per_length_W_m"] > 0
 

@@ -155,7 +155,7 @@ class _DeprecatedOption(argparse.Action):
         if self.group is not None:
             self.group.required = False
         used = list(getattr(namespace, "_deprecated_used", []))
-        setattr(namespace, "_deprecated_used", used + [(old, self, value)])
+        namespace._deprecated_used = used + [(old, self, value)]
 
 
 def check_deprecated(parser, namespace, args=()) -> None:

@@ -19,7 +19,8 @@ _UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) 
 # Library field names → command-line options, so messages name what the user typed.
 _FLAGS = {"rise height": "--rise-height", "heat power": "--heat-power", "buoyancy frequency": "--buoyancy-frequency",
           "ambient temperature": "--ambient-temperature", "ambient salinity": "--ambient-salinity",
-          "pressure": "--absolute-pressure", "depth": "--depth", "vent depth": "--depth", "entrainment": "--entrainment",
+          "pressure": "--absolute-pressure", "depth": "--depth", "vent depth": "--depth",
+          "entrainment": "--entrainment",
           "current": "--current", "current speed": "--current-profile", "current depth": "--current-profile",
           "method": "--method", "level": "--level", "window": "--window",
           "latitude": "--latitude", "longitude": "--longitude", "draws": "--draws",
