@@ -134,6 +134,7 @@ def test_json_keys_name_the_unit_of_their_value(capsys):
     r, _ = _json(capsys, ["summarize", "reservoir", "--heat-power", "100 MW", "--volume", "0.01 km^3",
                           "--temperature-drop", "800 K", "--porosity", "0"])
     assert r["volume_m3"] == pytest.approx(1e7)
+    assert "heat_power" in r["inputs"] and "power" not in r["inputs"]  # named by the option
     # E = ρ c V ΔT = 2900 · 1000 · 1e7 · 800 J (the command's default rock), over 100 MW, in seconds
     assert r["heat_mining_time_s"] == pytest.approx(2900 * 1000 * 1e7 * 800 / 1e8, rel=1e-9)
     p, _ = _json(capsys, PLUME)
@@ -233,7 +234,8 @@ def test_a_survey_file_error_with_json_names_where(capsys, tmp_path):
     bad.write_text('[site]\nname = "x"\ndepth = "-5 m"\n', encoding="utf-8")
     assert main(["survey", str(bad), "--check", "--json"]) == 2
     errors = _json_errors(capsys.readouterr().err)
-    assert errors and all(set(e) == {"field", "value", "allowed", "where"} for e in errors)
+    assert errors[0] == {"field": "site.depth", "value": "-5 m", "allowed": errors[0]["allowed"], "where": str(bad)}
+    assert len(errors) > 1 and all(set(e) == {"field", "value", "allowed", "where"} for e in errors)
 
 
 def test_without_json_errors_are_lines_only(capsys):

@@ -207,7 +207,11 @@ def _run(args) -> int:
         kwargs["deficit_span"] = args.deficit_span
     answer = fn(**kwargs, draws=mc.draws, seed=mc.seed, max_unphysical=mc.max_unphysical)
     if args.json:
-        print_json(answer.as_dict())
+        out = answer.as_dict()
+        # the inputs as written, named as the options that gave them (heat_power, not the keyword power)
+        named = {_RENAME.get(_dest(o[0]), _dest(o[0])): _dest(o[0]) for o in options}
+        out["inputs"] = {named.get(k, k): v for k, v in out.get("inputs", {}).items()}
+        print_json(out)
     else:
         title = f"{answer.question}: " + ("exact inputs" if answer.draws == 1 else
                                           f"median [5th, 95th percentile] of {answer.draws} draws, seed {answer.seed}")
