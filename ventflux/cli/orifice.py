@@ -210,6 +210,6 @@ def _print_readable(result, summaries, draws, seed, out=None, rejected=0, limit=
 METHODS = [Method(name="orifice", summary="exit temperature, velocity and orifice size → heat power with "
                                           "IAPWS-95 enthalpy difference; constant-cp shortcut beside it",
                   estimates="heat power, mass flux, volume flux",
-                  inputs=("exit temperature", "exit velocity", "orifice size", "pressure or depth",
+                  inputs=("exit temperature", "exit velocity", "orifice size", "absolute pressure or depth",
                           "ambient temperature", "ambient salinity"),
                   command="ventflux orifice")]
