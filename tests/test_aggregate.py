@@ -87,7 +87,7 @@ def test_split_fraction_by_hand_and_shared_factor_cancels():
     assert split.diffuse_fraction.median.magnitude == pytest.approx(0.25)
     assert split.diffuse_fraction.std.magnitude == pytest.approx(0.0, abs=1e-12)
     assert split.total.std.magnitude == pytest.approx(400 * 0.2, rel=0.05)
-    assert "diffuse_fraction_dimensionless_median" in split.as_dict()
+    assert "diffuse_fraction_median" in split.as_dict()
 
 
 def _lognormal_draws(d, name, median, sigma):

@@ -154,8 +154,8 @@ def test_orifice_budget_matches_the_analytic_product(mode):
 
 
 def test_orifice_command_prints_and_returns_the_budget(capsys):
-    args = ["orifice", "--temperature", "340 ± 3 degC", "--velocity", "1.2 ± 0.2 m/s", "--diameter", "8 ± 0.5 cm",
-            "--pressure", "25 MPa", "--ambient-temperature", "2 degC", "--draws", "3000", "--budget"]
+    args = ["orifice", "--exit-temperature", "340 ± 3 degC", "--velocity", "1.2 ± 0.2 m/s", "--diameter", "8 ± 0.5 cm",
+            "--absolute-pressure", "25 MPa", "--ambient-temperature", "2 degC", "--draws", "3000", "--budget"]
     assert main(args) == 0
     out = capsys.readouterr().out
     assert "Uncertainty budget of heat power" in out and "--velocity" in out
@@ -170,9 +170,69 @@ def test_orifice_budget_takes_the_draws_and_seed_as_typed(capsys):
 
     from ventflux.cli import main
 
-    argv = ["orifice", "--temperature", "352 ± 3 degC", "--velocity", "1.4 ± 0.2 m/s", "--diameter", "12 ± 1 cm",
+    argv = ["orifice", "--exit-temperature", "352 ± 3 degC", "--velocity", "1.4 ± 0.2 m/s", "--diameter", "12 ± 1 cm",
             "--depth", "2550 m", "--ambient-temperature", "2.1 degC", "--budget", "--draws", "2000", "--seed", "5",
             "--json"]
     assert main(argv) == 0
     rows = json.loads(capsys.readouterr().out)["budget"]
     assert {r["input"] for r in rows} >= {"velocity", "diameter"}
+
+
+def _lognormal_product_indices(exponents, factors):
+    """Analytic first-order and total indices of Y = Π X_i^a_i for independent lognormal X_i (geometric
+    standard deviation f_i, log-sd σ_i = ln f_i): Var E[Y|X_i] = (EY)² (exp(a_i² σ_i²) − 1) and
+    Var Y = (EY)² (exp(Σ a_j² σ_j²) − 1), from the lognormal moments E[X^k] = exp(kμ + k²σ²/2)."""
+    s2 = (np.asarray(exponents, float) * np.log(np.asarray(factors, float))) ** 2
+    V = np.expm1(s2.sum())
+    first = np.expm1(s2) / V
+    total = 1 - np.expm1(s2.sum() - s2) / V  # 1 − Var E[Y|X_~i] / Var Y
+    return first, total
+
+
+@pytest.mark.parametrize("mode", ["draws", "full"])
+def test_plume_rise_budget_of_the_closed_form_names_the_rise_height(capsys, mode):
+    # Closed form (Morton, Taylor & Turner 1956; Briggs 1969): F = π (z/5.0)^4 N^3 and H ∝ F at fixed ambient,
+    # so H is a product of powers of the two lognormal inputs: exponents 4 (height) and 3 (N).
+    argv = ["plume-rise", "--rise-height", "lognormal(200, 1.1) m", "--buoyancy-frequency",
+            "lognormal(1e-3, 1.05) 1/s", "--ambient-temperature", "2 degC", "--ambient-salinity", "34.6",
+            "--depth", "2500 m", "--method", "closed-form", "--draws", "4000", "--budget", mode, "--json"]
+    assert main(argv) == 0
+    rows = {r["input"]: r for r in json.loads(capsys.readouterr().out)["budget"]}
+    S, ST = _lognormal_product_indices([4, 3], [1.1, 1.05])  # ≈ (0.862, 0.119), totals ≈ (0.881, 0.138)
+    assert rows["rise_height"]["rank"] == 1 and rows["buoyancy_frequency"]["rank"] == 2
+    for i, name in enumerate(("rise_height", "buoyancy_frequency")):
+        r = rows[name]
+        assert abs(r["first_order"] - S[i]) < 3 * r["first_order_error"] + 0.02, (name, r, S)
+        assert abs(r["total_effect"] - ST[i]) < 3 * r["total_effect_error"] + 0.02, (name, r, ST)
+        assert r["width_if_known_W"] > 0
+    assert main(argv[:-1]) == 0
+    out = capsys.readouterr().out
+    assert "Uncertainty budget of heat power" in out and "--rise-height" in out and "--buoyancy-frequency" in out
+
+
+@pytest.mark.parametrize("mode", ["draws", "full"])
+def test_diffuse_budget_of_one_patch_names_the_velocity(capsys, mode):
+    # H = ρ·w·A·f·Δh: with f and the anomaly exact, a product of the lognormal velocity and area (exponents 1).
+    argv = ["diffuse", "--area", "lognormal(12, 1.1) m^2", "--active-fraction", "0.4", "--anomaly", "3.2 K",
+            "--velocity", "lognormal(0.8, 1.5) cm/s", "--ambient-temperature", "2.1 degC", "--depth", "2200 m",
+            "--draws", "4000", "--budget", mode, "--json"]
+    assert main(argv) == 0
+    rows = {r["input"]: r for r in json.loads(capsys.readouterr().out)["budget"]}
+    S, ST = _lognormal_product_indices([1, 1], [1.5, 1.1])  # ≈ (0.943, 0.048)
+    assert rows["velocity"]["rank"] == 1 and set(rows) == {"velocity", "area"}
+    for i, name in enumerate(("velocity", "area")):
+        r = rows[name]
+        assert abs(r["first_order"] - S[i]) < 3 * r["first_order_error"] + 0.02, (name, r, S)
+        assert abs(r["total_effect"] - ST[i]) < 3 * r["total_effect_error"] + 0.02, (name, r, ST)
+    # Knowing the velocity exactly leaves the area's spread: most of the 5–95 % width goes.
+    assert rows["velocity"]["width_if_known_W"] < 0.4 * rows["velocity"]["width_p05_p95_W"]
+
+
+def test_diffuse_budget_of_a_patch_table_is_refused_in_one_line(capsys, tmp_path):
+    table = tmp_path / "p.csv"
+    table.write_text("patch,area [m^2],active_fraction,temperature_anomaly [K],velocity [cm/s]\nA,4,0.5,2,0.4\n",
+                     encoding="utf-8")
+    rc = main(["diffuse", "--patches", str(table), "--ambient-temperature", "2 degC", "--depth", "2000 m",
+               "--draws", "200", "--budget"])
+    err = capsys.readouterr().err
+    assert rc == 2 and len(err.strip().splitlines()) == 1 and "--budget" in err and "survey" in err

@@ -216,10 +216,10 @@ def test_cli_table_polygons_and_scale_up(tmp_path, capsys):
     assert [p["effective_area_m2"] for p in out["patches"]] == pytest.approx([1.0, 0.9, 1.0])
     su = out["scale_up"]
     assert [c["class"] for c in su["classes"]] == ["mat", "basalt"]
-    assert su["heat_power_MW_p05"] < su["heat_power_MW_median"] < su["heat_power_MW_p95"]
+    assert su["heat_power_W_p05"] < su["heat_power_W_median"] < su["heat_power_W_p95"]
     # anomalies of a few kelvin above 2 degC at 2000 m: in-situ seawater cp is 3927-3932 J/(kg K) there
     # (IAPWS R13-08, `iapws` package), so the c_p0 = 3991.87 shortcut reads 1.5-1.7 % high
-    ratio = out["heat_power_cp_shortcut_MW"] / out["heat_power_MW"]
+    ratio = out["heat_power_constant_cp_W"] / out["heat_power_W"]
     assert 1.012 < ratio < 1.02
 
 
@@ -255,16 +255,16 @@ def test_cli_patch_velocities_with_sd_and_bad_rows(tmp_path, capsys):
     p = _write(tmp_path / "pv.csv", "patch,class,area [m^2],active_fraction,temperature_anomaly [K],"
                                     "velocity [cm/s],velocity_sd [cm/s]\n"
                                     "A,mat,4,0.5,2,0.4,0.1\nB,mat,6,0.2,3,0.9,0.2\n")
-    rc = main(["diffuse", "--patches", p, "--ambient-temperature", "2 degC", "--pressure", "20 MPa",
+    rc = main(["diffuse", "--patches", p, "--ambient-temperature", "2 degC", "--absolute-pressure", "20 MPa",
                "--draws", "400",
                "--json"])
     assert rc == 0
     out = json.loads(capsys.readouterr().out)
     # volume flux = Σ w·f·A (definition): 0.004·0.5·4 + 0.009·0.2·6 m³/s
     assert out["volume_flux_m3_s"] == pytest.approx(0.004 * 2 + 0.009 * 1.2)
-    assert out["velocity"] == "per patch" and out["volume_flux_m3_s_std"] > 0
+    assert out["velocity"] == "per patch" and out["volume_flux_m3_s_sd"] > 0
     bad = _write(tmp_path / "pb.csv", "patch,area [m^2],active_fraction,temperature_anomaly [K],velocity [cm/s]\n"
                                       "A,4,0.5,2,0.4\nB,6,0.2,3,-0.1\n")
-    rc = main(["diffuse", "--patches", bad, "--ambient-temperature", "2 degC", "--pressure", "20 MPa"])
+    rc = main(["diffuse", "--patches", bad, "--ambient-temperature", "2 degC", "--absolute-pressure", "20 MPa"])
     err = capsys.readouterr().err.strip().splitlines()
     assert rc == 2 and len(err) == 1 and "pb.csv:3: velocity" in err[0]

@@ -168,12 +168,12 @@ def test_allow_implausible_in_the_survey_is_recorded(light_demo, capsys):
 
 
 @pytest.mark.parametrize("argv", [
-    ["orifice", "--temperature", "352 degC", "--velocity", "1.4 m/s", "--diameter", "12 cm", "--depth", "2550 m",
+    ["orifice", "--exit-temperature", "352 degC", "--velocity", "1.4 m/s", "--diameter", "12 cm", "--depth", "2550 m",
      "--ambient-temperature", "2.1 degC"],
     ["diffuse", "--area", "12 m^2", "--active-fraction", "0.4", "--anomaly", "3 K", "--velocity", "1 cm/s",
      "--ambient-temperature", "2.1 degC", "--depth", "2200 m"],
     ["plume-rise", "--rise-height", "250 m", "--buoyancy-frequency", "1e-3/s", "--ambient-temperature", "2 degC",
-     "--ambient-salinity", "34.6", "--pressure", "25 MPa"],
+     "--ambient-salinity", "34.6", "--absolute-pressure", "25 MPa"],
 ])
 def test_latitude_bounds_are_the_same_for_every_command(argv, capsys):
     """Latitude is bounded by geometry (±90°), the same bound as the survey file's, whatever the command."""

@@ -35,7 +35,7 @@ def test_plume_rise_default_entrainment_is_the_library_default(capsys):
 
     assert DEFAULT_ENTRAINMENT == pytest.approx(0.093 * np.sqrt(2), rel=1e-15)
     assert CLOSED_FORM_ENTRAINMENT == DEFAULT_ENTRAINMENT
-    site = ["--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--pressure", "25MPa"]
+    site = ["--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--absolute-pressure", "25MPa"]
     assert main(["plume-rise", "--rise-height", "200 m", "--buoyancy-frequency", "1e-3/s", *site, "--json"]) == 0
     d = json.loads(capsys.readouterr().out)
     assert float(d["entrainment_tophat"]) == DEFAULT_ENTRAINMENT
@@ -46,7 +46,7 @@ def test_plume_rise_default_entrainment_is_the_library_default(capsys):
 
 
 def test_closed_form_beside_a_current_says_it_ignores_the_current(capsys):
-    site = ["--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--pressure", "25MPa"]
+    site = ["--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--absolute-pressure", "25MPa"]
     assert main(["plume-rise", "--rise-height", "200 m", "--buoyancy-frequency", "1e-3/s", *site,
                  "--current", "0.05 m/s"]) == 0
     line = next(x for x in capsys.readouterr().out.splitlines() if "closed form" in x)

@@ -8,7 +8,7 @@ import pytest
 
 from ventflux.cli import main
 
-SITE = ["--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--pressure", "25MPa"]
+SITE = ["--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--absolute-pressure", "25MPa"]
 
 
 @pytest.fixture()
@@ -65,7 +65,7 @@ def test_monte_carlo_from_the_command_line(capsys, cast):
                           "uniform(0.12, 0.14)", "--draws", "300", "--json")
     assert code == 0, err
     d = json.loads(out)
-    assert d["draws"] == 300 and d["failed_draws"] == 0
+    assert d["draws"] == 300 and d["unphysical_draws"] == 0
     assert d["heat_power_W_p05"] < d["heat_power_W_median"] < d["heat_power_W_p95"]
 
 

@@ -145,7 +145,7 @@ def test_orifice_cli_and_survey_draw_identically(tmp_path, capsys):
 
 def test_orifice_cli_max_unphysical_is_settable(capsys):
     # 0.6 ± 0.3 m/s: P(v <= 0) = Phi(-2) = 2.3 % of draws (normal table)
-    argv = ["orifice", "--depth", "2500 m", "--ambient-temperature", "2 degC", "--temperature", "300 degC",
+    argv = ["orifice", "--depth", "2500 m", "--ambient-temperature", "2 degC", "--exit-temperature", "300 degC",
             "--velocity", "0.6 ± 0.3 m/s", "--diameter", "5 cm", "--draws", "4000"]
     out = _cli_json(capsys, argv)
     assert 0 < out["unphysical_draws"] < 0.05 * 4000
@@ -167,14 +167,14 @@ def test_diffuse_cli_and_survey_draw_identically_with_scale_up(tmp_path, capsys)
     (tmp_path / "patches.csv").write_text(PATCHES, encoding="utf-8")
     (tmp_path / "classes.csv").write_text(CLASSES, encoding="utf-8")
     result = _survey(tmp_path, SITE + '\n[diffuse]\npatches = "patches.csv"\nclasses = "classes.csv"\n')
-    H = result.sections["diffuse"].heat_power.to("MW").magnitude.sum(axis=0)
+    H = result.sections["diffuse"].heat_power.to("W").magnitude.sum(axis=0)
     out = _cli_json(capsys, ["diffuse", "--patches", str(tmp_path / "patches.csv"), "--classes",
                              str(tmp_path / "classes.csv"), "--ambient-temperature", "2.0 ± 0.05 degC", "--depth",
                              "2500 m", "--latitude", "10", "--draws", str(DRAWS), "--seed", str(SEED)])
     su = out["scale_up"]
-    assert su["heat_power_MW_p05"] == pytest.approx(np.nanpercentile(H, 5), rel=1e-12)
-    assert su["heat_power_MW_p95"] == pytest.approx(np.nanpercentile(H, 95), rel=1e-12)
-    assert su["heat_power_MW_median"] == pytest.approx(np.nanmedian(H), rel=1e-12)
+    assert su["heat_power_W_p05"] == pytest.approx(np.nanpercentile(H, 5), rel=1e-12)
+    assert su["heat_power_W_p95"] == pytest.approx(np.nanpercentile(H, 95), rel=1e-12)
+    assert su["heat_power_W_median"] == pytest.approx(np.nanmedian(H), rel=1e-12)
     # A sediment-like patch (0.5 ± 0.4 K, 0.05 ± 0.02 cm/s) is drawn within its physical range, not clipped.
     assert out["unphysical_draws"] == 0
 
@@ -214,7 +214,7 @@ def test_plume_rise_cli_and_survey_draw_identically(tmp_path, capsys):
     result = _survey(tmp_path, text)
     H = result.vents[0].methods["plume_rise"].heat_power.to("W").magnitude
     out = _cli_json(capsys, ["plume-rise", "--name", "Vent P", "--rise-height", "250 ± 25 m", "--buoyancy-frequency",
-                             "1.0e-3 ± 1e-4 1/s", "--entrainment", "0.12 ± 0.01", "--pressure", "25 MPa",
+                             "1.0e-3 ± 1e-4 1/s", "--entrainment", "0.12 ± 0.01", "--absolute-pressure", "25 MPa",
                              "--ambient-temperature", "2.0 degC", "--ambient-salinity", "35", "--latitude", "10",
                              "--longitude", "-100", "--draws", "400", "--seed", str(SEED)])
     assert out["unphysical_draws"] == int(np.count_nonzero(np.isnan(H)))
@@ -237,10 +237,10 @@ def test_survey_reservoir_is_the_summarize_reservoir_answer_on_the_field_draws(t
     assert r["mining"].median.to("year").magnitude == pytest.approx(
         direct.value("heat_mining_time").to("year").magnitude, rel=1e-12)
     # With an exact power the command takes the same route (one evaluation, no draws).
-    out = _cli_json(capsys, ["summarize", "reservoir", "--power", "100 MW", "--volume", "2 km^3",
+    out = _cli_json(capsys, ["summarize", "reservoir", "--heat-power", "100 MW", "--volume", "2 km^3",
                              "--temperature-drop", "500 K", "--porosity", "0"])
     exact = summarizer.reservoir_answer(Q_(100, "MW"), Q_(500, "K"), volume=Q_(2, "km^3"), porosity=0.0)
-    assert out["heat_mining_time_year"] == pytest.approx(exact.value("heat_mining_time").to("year").magnitude)
+    assert out["heat_mining_time_s"] == pytest.approx(exact.value("heat_mining_time").to("s").magnitude)
 
 
 @settings(max_examples=60, deadline=None)
@@ -282,7 +282,7 @@ ONE_PATCH = ["diffuse", "--anomaly", "3.2 K", "--velocity", "0.8 cm/s", "--ambie
 @pytest.mark.parametrize("area, fraction", [("12 ± 2 m^2", "0.4 ± 0.1"), ("12 m^2", "0.4 ± 0")])
 def test_single_patch_with_shared_distributions_runs(capsys, area, fraction):
     out = _cli_json(capsys, ONE_PATCH + ["--area", area, "--active-fraction", fraction])
-    assert len(out["patches"]) == 1 and out["heat_power_MW"] > 0
+    assert len(out["patches"]) == 1 and out["heat_power_W"] > 0
 
 
 def test_non_finite_exact_input_is_one_line(capsys):

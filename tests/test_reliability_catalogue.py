@@ -20,17 +20,19 @@ from ventflux.cli import main
 
 DEMO = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge"
 
-ORIFICE = ["orifice", "--temperature", "352 degC", "--velocity", "1.4 ± 0.2 m/s", "--diameter", "12 cm",
+ORIFICE = ["orifice", "--exit-temperature", "352 degC", "--velocity", "1.4 ± 0.2 m/s", "--diameter", "12 cm",
            "--depth", "2550 m", "--ambient-temperature", "2.1 degC", "--draws", "200"]
 PLUME = ["plume-rise", "--rise-height", "250 ± 30 m", "--buoyancy-frequency", "1.0e-3/s",
-         "--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--pressure", "25MPa", "--draws", "200"]
+         "--ambient-temperature", "2.0degC", "--ambient-salinity", "34.6", "--absolute-pressure", "25MPa",
+         "--draws", "200"]
 DIFFUSE = ["diffuse", "--area", "12 m^2", "--active-fraction", "0.4", "--anomaly", "3.2 ± 0.5 K",
            "--velocity", "0.8 ± 0.2 cm/s", "--ambient-temperature", "2.1 degC", "--depth", "2200 m", "--draws", "200"]
-WATER = ["summarize", "water", "--power", "100 ± 20 MW", "--temperature", "350 degC", "--pressure", "25 MPa",
+WATER = ["summarize", "water", "--heat-power", "100 ± 20 MW", "--exit-temperature", "350 degC",
+         "--absolute-pressure", "25 MPa",
          "--ambient-temperature", "2 degC", "--draws", "200"]
-RESERVOIR = ["summarize", "reservoir", "--power", "100 MW", "--volume", "0.01 km^3", "--temperature-drop", "800 K",
+RESERVOIR = ["summarize", "reservoir", "--heat-power", "100 MW", "--volume", "0.01 km^3", "--temperature-drop", "800 K",
              "--porosity", "0", "--draws", "200"]
-SIZE = ["summarize", "size", "--power", "100 MW", "--duration", "10 yr", "--temperature-drop", "800 K",
+SIZE = ["summarize", "size", "--heat-power", "100 MW", "--duration", "10 yr", "--temperature-drop", "800 K",
         "--porosity", "0", "--area", "1 km^2", "--draws", "200"]
 FLANK = ["summarize", "flank", "--observed", "1 Myr=250 mW/m^2", "--observed", "2 Myr=200 mW/m^2", "--draws", "200"]
 
@@ -67,12 +69,12 @@ CLI_CASES = [
     ("orifice-diameter-km", _with(ORIFICE, "--diameter", "12 km"), ["--diameter"]),
     ("orifice-diameter-typo-unit", _with(ORIFICE, "--diameter", "12 cmm"), ["--diameter"]),
     ("orifice-area-727-km2", _with(_without(ORIFICE, "--diameter"), "--area", "727 km^2"), ["--area"]),
-    ("orifice-temperature-overflow", _with(ORIFICE, "--temperature", "1e999 degC"), ["--temperature"]),
-    ("orifice-temperature-5000C", _with(ORIFICE, "--temperature", "5000 degC"), ["--temperature"]),
-    ("orifice-temperature-uniform-reversed", _with(ORIFICE, "--temperature", "uniform(360, 340) degC"),
-     ["--temperature"]),
-    ("orifice-temperature-lognormal-degC", _with(ORIFICE, "--temperature", "lognormal(350, 1.1) degC"),
-     ["--temperature"]),
+    ("orifice-temperature-overflow", _with(ORIFICE, "--exit-temperature", "1e999 degC"), ["--exit-temperature"]),
+    ("orifice-temperature-5000C", _with(ORIFICE, "--exit-temperature", "5000 degC"), ["--exit-temperature"]),
+    ("orifice-temperature-uniform-reversed", _with(ORIFICE, "--exit-temperature", "uniform(360, 340) degC"),
+     ["--exit-temperature"]),
+    ("orifice-temperature-lognormal-degC", _with(ORIFICE, "--exit-temperature", "lognormal(350, 1.1) degC"),
+     ["--exit-temperature"]),
     ("orifice-ambient-minus-5", _with(ORIFICE, "--ambient-temperature", "-5 degC"), ["--ambient-temperature"]),
     ("orifice-ambient-salinity-60", _with(ORIFICE, "--ambient-salinity", "60"), ["--ambient-salinity"]),
     ("orifice-depth-20-km", _with(ORIFICE, "--depth", "20 km"), ["--depth"]),
@@ -82,7 +84,7 @@ CLI_CASES = [
     ("orifice-draws-1e9", _with(ORIFICE, "--draws", "1000000000000"), ["--draws"]),
     ("orifice-draws-zero", _with(ORIFICE, "--draws", "0"), ["--draws"]),
     ("orifice-draws-text", _with(ORIFICE, "--draws", "many"), ["--draws"]),
-    ("orifice-nul-byte", _with(ORIFICE, "--temperature", "352\0 degC"), ["--temperature"]),
+    ("orifice-nul-byte", _with(ORIFICE, "--exit-temperature", "352\0 degC"), ["--exit-temperature"]),
     ("orifice-unknown-option", ORIFICE + ["--velocty", "1 m/s"], ["--velocty"]),
     # plume-rise
     ("plume-height-20-km", _with(PLUME, "--rise-height", "20 km"), ["--rise-height"]),
@@ -93,7 +95,7 @@ CLI_CASES = [
     ("plume-N-dimension", _with(PLUME, "--buoyancy-frequency", "1e-3 m"), ["--buoyancy-frequency"]),
     ("plume-ambient-minus-5", _with(PLUME, "--ambient-temperature", "-5 degC"), ["--ambient-temperature"]),
     ("plume-salinity-60", _with(PLUME, "--ambient-salinity", "60"), ["--ambient-salinity"]),
-    ("plume-pressure-1e6-MPa", _with(PLUME, "--pressure", "1e6 MPa"), ["--pressure"]),
+    ("plume-pressure-1e6-MPa", _with(PLUME, "--absolute-pressure", "1e6 MPa"), ["--absolute-pressure"]),
     ("plume-entrainment-5", _with(PLUME, "--entrainment", "5"), ["--entrainment"]),
     ("plume-seed-negative", _with(PLUME, "--seed", "-3"), ["--seed"]),
     ("plume-draws-1e12", _with(PLUME, "--draws", "1000000000000"), ["--draws"]),
@@ -106,24 +108,24 @@ CLI_CASES = [
     ("diffuse-anomaly-1e4", _with(DIFFUSE, "--anomaly", "1e4 K"), ["--anomaly"]),
     ("diffuse-velocity-1e30", _with(DIFFUSE, "--velocity", "1e30 cm/s"), ["--velocity"]),
     ("diffuse-ambient-minus-5", _with(DIFFUSE, "--ambient-temperature", "-5 degC"), ["--ambient-temperature"]),
-    ("diffuse-salinity-60", _with(DIFFUSE, "--salinity", "60"), ["--salinity"]),
+    ("diffuse-salinity-60", _with(DIFFUSE, "--ambient-salinity", "60"), ["--ambient-salinity"]),
     ("diffuse-seed-negative", _with(DIFFUSE, "--seed", "-1"), ["--seed"]),
     ("diffuse-draws-1e12", _with(DIFFUSE, "--draws", "1000000000000"), ["--draws"]),
     # summarize
-    ("water-power-1e30", _with(WATER, "--power", "1e30 MW"), ["--power"]),
-    ("water-power-inf", _with(WATER, "--power", "inf MW"), ["--power"]),
+    ("water-power-1e30", _with(WATER, "--heat-power", "1e30 MW"), ["--heat-power"]),
+    ("water-power-inf", _with(WATER, "--heat-power", "inf MW"), ["--heat-power"]),
     ("water-ambient-minus-5", _with(WATER, "--ambient-temperature", "-5 degC"), ["--ambient-temperature"]),
     ("water-seed-negative", _with(WATER, "--seed", "-1"), ["--seed"]),
     ("water-draws-1e12", _with(WATER, "--draws", "1000000000000"), ["--draws"]),
-    ("reservoir-power-nan", _with(RESERVOIR, "--power", "nan MW"), ["--power"]),
+    ("reservoir-power-nan", _with(RESERVOIR, "--heat-power", "nan MW"), ["--heat-power"]),
     ("reservoir-volume-1e9-km3", _with(RESERVOIR, "--volume", "1e9 km^3"), ["--volume"]),
     ("reservoir-drop-1e5", _with(RESERVOIR, "--temperature-drop", "1e5 K"), ["--temperature-drop"]),
     ("reservoir-seed-2-32", _with(RESERVOIR, "--seed", str(2**32)), ["--seed"]),
-    ("size-power-1e30", _with(SIZE, "--power", "1e30 W"), ["--power"]),
+    ("size-power-1e30", _with(SIZE, "--heat-power", "1e30 W"), ["--heat-power"]),
     ("size-area-inf", _with(SIZE, "--area", "inf km^2"), ["--area"]),
     ("size-draws-1e12", _with(SIZE, "--draws", "1000000000000"), ["--draws"]),
     ("flank-seed-negative", _with(FLANK, "--seed", "-1"), ["--seed"]),
-    ("flank-half-rate-absurd", FLANK + ["--half-rate", "1e6 mm/yr"], ["--half-rate"]),
+    ("flank-half-rate-absurd", FLANK + ["--half-spreading-rate", "1e6 mm/yr"], ["--half-spreading-rate"]),
 ]
 
 

@@ -112,7 +112,7 @@ def test_sheet_uses_its_thickness_and_matches_textbook_cooling_times():
 
 
 def test_summarize_reservoir_depth_below_seafloor_and_named_length(capsys):
-    rc = main(["summarize", "reservoir", "--power", "100 MW", "--area", "1 km^2", "--thickness", "50 m",
+    rc = main(["summarize", "reservoir", "--heat-power", "100 MW", "--area", "1 km^2", "--thickness", "50 m",
                "--temperature-drop", "300 K", "--temperature", "600 degC", "--depth-below-seafloor", "1 km",
                "--seafloor-pressure", "8 MPa", "--json"])
     assert rc == 0
@@ -120,7 +120,7 @@ def test_summarize_reservoir_depth_below_seafloor_and_named_length(capsys):
     assert out["size_m"] == pytest.approx(50.0)
     assert out["conductive_length"].startswith("sheet thickness")
     assert out["pore_fluid_phase"] == "vapour-like"  # 18.1 MPa, 600 degC
-    rc = main(["summarize", "reservoir", "--power", "100 MW", "--volume", "0.01 km^3", "--temperature-drop",
+    rc = main(["summarize", "reservoir", "--heat-power", "100 MW", "--volume", "0.01 km^3", "--temperature-drop",
                "300 K", "--temperature", "600 degC"])
     assert rc == 2
     err = capsys.readouterr().err

@@ -70,7 +70,7 @@ def test_every_core_command_configures():
 
 def test_orifice_estimate_does_not_import_coolprop():
     # The saturation check and tabulated points need no CoolProp (explicit IAPWS-95 and the cached table).
-    out = _run(["orifice", "--temperature", "352 degC", "--velocity", "1.4 m/s", "--diameter", "12 cm",
-                "--pressure", "26 MPa", "--ambient-temperature", "2.1 degC", "--json"], core_only=True)
+    out = _run(["orifice", "--exit-temperature", "352 degC", "--velocity", "1.4 m/s", "--diameter", "12 cm",
+                "--absolute-pressure", "26 MPa", "--ambient-temperature", "2.1 degC", "--json"], core_only=True)
     assert '"heat_power_W"' in out["help"]  # the command ran and printed its JSON
     assert "CoolProp" not in out["loaded"] and "matplotlib" not in out["loaded"]

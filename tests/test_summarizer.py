@@ -77,7 +77,7 @@ def test_water_answer_with_uncertain_power():
     assert s.p05.magnitude == pytest.approx(m0 * (1 - 1.645 * 0.2), rel=0.02)
     assert s.p95.magnitude == pytest.approx(m0 * (1 + 1.645 * 0.2), rel=0.02)
     d = ans.as_dict()
-    assert d["draws"] == 20_000 and "annual_volume_km3_year_p95" in d
+    assert d["draws"] == 20_000 and "annual_volume_m3_s_p95" in d
 
 
 def test_reservoir_answer_names_the_controlling_process():
@@ -115,8 +115,8 @@ def _run(capsys, *argv):
 
 
 def test_cli_water_json(capsys):
-    rc, out, _ = _run(capsys, "water", "--power", "100 MW", "--temperature", "350 degC", "--pressure", "25MPa",
-                      "--ambient-temperature", "2 degC", "--json")
+    rc, out, _ = _run(capsys, "water", "--heat-power", "100 MW", "--exit-temperature", "350 degC",
+                      "--absolute-pressure", "25MPa", "--ambient-temperature", "2 degC", "--json")
     assert rc == 0
     d = json.loads(out)
     # IAPWS-95 through the independent `iapws` package (IAPWS R6-95(2018)): ṁ = P / (h(350 °C) − h(2 °C)) at 25 MPa
@@ -126,16 +126,17 @@ def test_cli_water_json(capsys):
 
 
 def test_cli_questions_print_tables(capsys):
-    rc, out, _ = _run(capsys, "reservoir", "--power", "100 ± 20 MW", "--volume", "0.01 km^3",
+    rc, out, _ = _run(capsys, "reservoir", "--heat-power", "100 ± 20 MW", "--volume", "0.01 km^3",
                       "--temperature-drop", "800 K", "--porosity", "0", "--draws", "2000")
     assert rc == 0 and "controlling" in out and "advective decline" in out
-    rc, out, _ = _run(capsys, "size", "--power", "100 MW", "--duration", "10 yr", "--temperature-drop", "300 K",
+    rc, out, _ = _run(capsys, "size", "--heat-power", "100 MW", "--duration", "10 yr", "--temperature-drop", "300 K",
                       "--area", "1 km^2", "--porosity", "0")
     assert rc == 0 and "thickness" in out
     rc, out, _ = _run(capsys, "flank", "--observed", "1 Myr=120 mW/m^2", "--observed", "5 Myr=110 mW/m^2",
-                      "--half-rate", "25 mm/yr", "--temperature-rise", "10 K", "--pressure", "35MPa", "--json")
+                      "--half-spreading-rate", "25 mm/yr", "--temperature-rise", "10 K", "--absolute-pressure", "35MPa",
+                      "--json")
     d = json.loads(out)
-    assert rc == 0 and d["advective_loss_per_length_MW_km"] > 0
+    assert rc == 0 and d["advective_loss_per_length_W_m"] > 0
 
 
 def test_cli_flank_profile_file(capsys, tmp_path):
@@ -147,14 +148,14 @@ def test_cli_flank_profile_file(capsys, tmp_path):
 
 
 @pytest.mark.parametrize("argv, field", [
-    (["water", "--power", "5 m", "--temperature", "350 degC", "--pressure", "25MPa",
-      "--ambient-temperature", "2 degC"], "--power"),
-    (["reservoir", "--power", "100 MW", "--volume", "0.01 km^3", "--temperature-drop", "800 K",
-      "--temperature", "400 degC", "--pressure", "30MPa"], "temperature drop"),
+    (["water", "--heat-power", "5 m", "--exit-temperature", "350 degC", "--absolute-pressure", "25MPa",
+      "--ambient-temperature", "2 degC"], "--heat-power"),
+    (["reservoir", "--heat-power", "100 MW", "--volume", "0.01 km^3", "--temperature-drop", "800 K",
+      "--temperature", "400 degC", "--absolute-pressure", "30MPa"], "--temperature-drop"),
     (["flank", "--observed", "1 Myr"], "--observed"),
-    (["size", "--power", "100 MW", "--duration", "-1 yr", "--temperature-drop", "300 K", "--porosity", "0"],
+    (["size", "--heat-power", "100 MW", "--duration", "-1 yr", "--temperature-drop", "300 K", "--porosity", "0"],
      "duration"),
-    (["water", "--power", "100 MW", "--temperature", "350 degC", "--pressure", "25MPa",
+    (["water", "--heat-power", "100 MW", "--exit-temperature", "350 degC", "--absolute-pressure", "25MPa",
       "--ambient-temperature", "2 degC", "--draws", "1"], "--draws"),
 ])
 def test_cli_bad_input_is_one_line_and_exit_2(capsys, argv, field):

@@ -85,7 +85,7 @@ class OrificeDischarge:
     OUTPUTS = (
         ("heat_power", "W", "heat_power"),
         ("heat_power_constant_cp", "W", "heat_power_constant_cp"),
-        ("shortcut_difference", "percent", "constant_cp_difference"),
+        ("shortcut_difference", "dimensionless", "constant_cp_difference"),  # a ratio: bare JSON key
         ("mass_flux", "kg/s", "mass_flux"),
         ("volume_flux_exit", "m^3/s", "volume_flux_exit"),
         ("volume_flux_ambient", "m^3/s", "volume_flux_ambient"),
@@ -94,7 +94,7 @@ class OrificeDischarge:
         ("ambient_density", "kg/m^3", "ambient_density"),
         ("mean_velocity", "m/s", "mean_velocity"),
         ("area", "m^2", "area"),
-        ("pressure", "Pa", "pressure"),
+        ("pressure", "Pa", "absolute_pressure"),
     )
 
     def total(self) -> OrificeDischarge:
@@ -127,12 +127,12 @@ class OrificeDischarge:
 
     def as_dict(self) -> dict:
         """Outputs as floats (or lists) with units in the keys: ``heat_power_W``."""
-        from .uncertainty import unit_tag
+        from .vocabulary import json_key
 
         out = {}
         for attr, unit, name in self.OUTPUTS:
             v = getattr(self, attr).to(unit).magnitude
-            out[f"{name}_{unit_tag(unit)}"] = v.tolist() if np.ndim(v) else float(v)
+            out[json_key(name, "" if unit == "dimensionless" else unit)] = v.tolist() if np.ndim(v) else float(v)
         return out
 
 
@@ -310,15 +310,10 @@ class UncertainDischarge:
         return self.rejected
 
     def as_dict(self) -> dict:
-        from .uncertainty import unit_tag
-
         out = self.nominal.as_dict()
         for attr, unit, name in OrificeDischarge.OUTPUTS:
             if attr in self.summaries:
-                s = self.summaries[attr].to(unit)
-                tag = unit_tag(unit)
-                for k in ("mean", "median", "p05", "p95", "std"):
-                    out[f"{name}_{tag}_{k}"] = float(getattr(s, k).magnitude)
+                out.update(self.summaries[attr].as_dict(name, unit))
         out["draws"] = self.n_draws + self.rejected
         out["kept_draws"] = self.n_draws
         out["unphysical_draws"] = self.rejected

@@ -47,9 +47,9 @@ from .uncertainty import (
     UnphysicalPolicy,
     propagate,
     summarize,
-    unit_tag,
 )
 from .units import Q_
+from .vocabulary import json_key, si_unit
 
 #: Former name of the package-wide limit on dropped draws (``uncertainty.DEFAULT_MAX_UNPHYSICAL``).
 MAX_DROPPED_SHARE = DEFAULT_MAX_UNPHYSICAL
@@ -78,11 +78,12 @@ class Answer:
         """Flat JSON-ready dictionary, units in the key names (``mass_flux_kg_s_median``)."""
         out = {"question": self.question, "draws": self.draws, "unphysical_draws": self.dropped,
                "max_unphysical_share": self.max_unphysical, "seed": self.seed}
-        for name, (s, unit) in self.outputs.items():
+        for name, (s, unit) in self.outputs.items():  # JSON in SI units (ventflux.vocabulary.si_unit)
+            si = si_unit(unit)
             if self.draws > 1:
-                out.update(s.as_dict(name, unit))
+                out.update(s.as_dict(name, si or "dimensionless"))
             else:
-                out[f"{name}_{unit_tag(unit)}"] = float(s.median.to(unit).magnitude)
+                out[json_key(name, si)] = float(s.median.to(si or "dimensionless").magnitude)
         out.update(self.labels)
         out["inputs"] = dict(self.inputs)
         return out
@@ -384,7 +385,8 @@ def flank_answer(age, heat_flow, reference="gdh1", half_spreading_rate=None, tem
         ans.labels["circulated_water_model"] = "; ".join(out["water_model"])
     ans.labels["water_column_deficit"] = ("observed ages only" if deficit_span == "observed"
                                           else "from age 0 (no conduction before the first observation)")
-    ans.labels["age_range_Myr"] = f"{out['deficit'].age_from.magnitude:g}-{out['deficit'].age_to.magnitude:g}"
+    ans.labels["age_range"] = (f"{out['deficit'].age_from.to('Myr').magnitude:g}-"
+                               f"{out['deficit'].age_to.to('Myr').magnitude:g} Myr")
     ans.inputs["age"] = f"{np.asarray(age.to('Myr').magnitude).tolist()} Myr"
     ans.inputs["heat_flow"] = f"{np.asarray(heat_flow.to('mW/m^2').magnitude).tolist()} mW/m^2"
     return ans

@@ -675,10 +675,14 @@ class Summary:
         return replace(self, **{k: getattr(self, k).to(unit) for k in ("mean", "median", "p05", "p95", "std")})
 
     def as_dict(self, name: str, unit: str) -> dict:
-        """Flat dictionary with units in the keys (``heat_power_MW_p05``)."""
+        """Flat dictionary with units in the keys (``heat_power_W_p05``, ``heat_power_W_sd``; a bare name for
+        a dimensionless quantity), as ``ventflux.vocabulary.json_key`` writes them."""
+        from .vocabulary import json_key
+
         s = self.to(unit)
-        tag = unit_tag(unit)
-        return {f"{name}_{tag}_{k}": float(getattr(s, k).magnitude) for k in ("mean", "median", "p05", "p95", "std")}
+        shown = "" if unit in ("dimensionless", "1", "") else unit
+        return {json_key(name, shown, "sd" if k == "std" else k): float(getattr(s, k).magnitude)
+                for k in ("mean", "median", "p05", "p95", "std")}
 
 
 def summarize(values: pint.Quantity, seed: int | None = None) -> Summary:
@@ -695,6 +699,7 @@ def summarize(values: pint.Quantity, seed: int | None = None) -> Summary:
 
 
 def unit_tag(unit: str) -> str:
-    """``'m^3/s'`` → ``'m3_s'``: a unit written for a JSON key."""
-    return (unit.replace("**", "").replace("^", "").replace("/", "_").replace("*", "_").replace(" ", "")
-            .replace("°", "deg"))
+    """``'m^3/s'`` → ``'m3_s'``: a unit written for a JSON key (``ventflux.vocabulary.unit_tag``)."""
+    from .vocabulary import unit_tag as tag
+
+    return tag(unit)

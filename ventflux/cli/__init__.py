@@ -3,7 +3,12 @@
 Subcommands come from the ``ventflux_commands`` hook, so the core's and every
 plugin's commands appear side by side. A user's mistake (``InputError``) is
 printed as one line per problem on standard error with exit status 2 and no
-traceback; anything else is a bug and keeps its traceback.
+traceback; anything else is a bug and keeps its traceback. With ``--json``,
+the same problems are also written as one JSON object on the last line of
+standard error, ``{"errors": [{"field", "value", "allowed", "where"}]}``, for
+every command (plugins' included), so a script never parses prose. Old
+option spellings (``ventflux.vocabulary.RENAMED_OPTIONS``) are accepted here,
+once for all commands, with one deprecation line each.
 """
 
 from __future__ import annotations
@@ -19,8 +24,57 @@ EXIT_USAGE = 2
 class _Parser(argparse.ArgumentParser):
     """argparse with one-line errors in the project's style (exit status 2)."""
 
+    #: Set by ``main`` when ``--json`` is on the command line: a usage error is then also JSON.
+    json_errors = False
+
+    def parse_known_args(self, args=None, namespace=None):
+        from ..vocabulary import check_deprecated
+
+        namespace, extras = super().parse_known_args(args, namespace)
+        check_deprecated(self, namespace, sys.argv[1:] if args is None else args)
+        return namespace, extras
+
     def error(self, message):
-        self.exit(EXIT_USAGE, f"{self.prog}: error: {message}\n")
+        self._print_message(f"{self.prog}: error: {message}\n", sys.stderr)
+        if _Parser.json_errors:
+            print_json_errors([_usage_error(message)])
+        self.exit(EXIT_USAGE)
+
+
+def _usage_error(message: str) -> dict:
+    """argparse's message as ``{"field", "value", "allowed", "where"}`` (the option named where it can tell)."""
+    import re
+
+    m = re.match(r"argument ([^:]+): (.*)$", message)
+    field, rest = (m.group(1).split("/")[0], m.group(2)) if m else ("arguments", message)
+    value = None
+    v = re.search(r"(?:invalid choice|invalid \w+ value|expected one argument|not allowed with argument)"
+                  r"(?:: '([^']*)')?", rest)
+    if v and v.group(1) is not None:
+        value = v.group(1)
+    elif message.startswith("unrecognized arguments: "):
+        field, value, rest = "arguments", message.split(": ", 1)[1], "only the options in --help"
+    elif message.startswith("the following arguments are required: "):
+        field, value = message.split(": ", 1)[1].split(",")[0].strip(), None
+        rest = "a value (the option is required)"
+    return {"field": field, "value": value, "allowed": rest, "where": None}
+
+
+def error_record(err) -> dict:
+    """One ``InputError`` as the JSON error object's entry."""
+    value = err.value
+    if not isinstance(value, (str, int, float, bool, type(None))):
+        value = str(value)
+    return {"field": err.field, "value": value, "allowed": err.allowed, "where": err.where}
+
+
+def print_json_errors(records, stream=None) -> None:
+    """``{"errors": [...]}`` as one line on standard error (after the readable lines)."""
+    import json
+
+    from ..io import json_ready
+
+    print(json.dumps({"errors": json_ready(list(records))}, ensure_ascii=False), file=stream or sys.stderr)
 
 
 def build_parser(argv=None) -> argparse.ArgumentParser:
@@ -32,6 +86,7 @@ def build_parser(argv=None) -> argparse.ArgumentParser:
     """
     from .. import __version__
     from ..registry import commands
+    from ..vocabulary import apply_renamed_options
 
     parser = _Parser(
         prog="ventflux",
@@ -46,49 +101,57 @@ def build_parser(argv=None) -> argparse.ArgumentParser:
         p = sub.add_parser(cmd.name, help=cmd.help, description=cmd.help, aliases=list(cmd.aliases))
         if chosen is None or chosen in (cmd.name, *cmd.aliases):
             cmd.configure(p)
+            apply_renamed_options(p, cmd.name)
         p.set_defaults(_run=cmd.run)
     return parser
 
 
 def main(argv=None) -> int:
     argv = sys.argv[1:] if argv is None else list(argv)
+    as_json = "--json" in [str(a) for a in argv]
     for i, a in enumerate(argv):
         if "\0" in str(a):  # the operating system cannot take NUL in a path or name: say so before anything
             option = argv[i - 1] if i and str(argv[i - 1]).startswith("--") else f"argument {i + 1}"
             shown = str(a).replace("\0", "\\0")
-            print(f"ventflux: error: {option}: '{shown}' is not allowed; expected a value without NUL characters",
-                  file=sys.stderr)
-            return EXIT_USAGE
+            return _fail("ventflux", [InputError(option, shown, "a value without NUL characters")], as_json)
     parser = build_parser(argv)
+    _Parser.json_errors = as_json
     try:
         args = parser.parse_args(argv)
     except SystemExit as stop:  # --help, --version, or argparse's one-line usage error
         return stop.code if isinstance(stop.code, int) else (0 if stop.code is None else EXIT_USAGE)
+    finally:
+        _Parser.json_errors = False
     name = f"ventflux {args.command}"
+    as_json = bool(getattr(args, "json", False)) or as_json
     try:
         _check_common(args)
         return int(args._run(args) or 0)
     except InputErrors as errs:
-        for line in errs.lines():
-            print(f"{name}: error: {line}", file=sys.stderr)
-        return EXIT_USAGE
+        return _fail(name, errs.errors, as_json)
     except InputError as err:
-        print(f"{name}: error: {err.line()}", file=sys.stderr)
-        return EXIT_USAGE
+        return _fail(name, [err], as_json)
     except BrokenPipeError:
         return 0
     except OSError as err:
         # A file-system fault (a path through a file, a read-only folder, a full disk): the user's
         # environment, not a bug. One line naming the option whose path it was, when we can tell.
-        print(f"{name}: error: {_os_error_line(err, argv)}", file=sys.stderr)
-        return EXIT_USAGE
+        return _fail(name, [_os_error(err, argv)], as_json)
     except UnicodeDecodeError as err:
-        print(f"{name}: error: an input file is not UTF-8 text (byte 0x{err.object[err.start]:02x} at offset "
-              f"{err.start}); save it as UTF-8", file=sys.stderr)
-        return EXIT_USAGE
+        return _fail(name, [InputError("input file", f"byte 0x{err.object[err.start]:02x} at offset {err.start}",
+                                       "UTF-8 text; save the file as UTF-8")], as_json)
     except MemoryError:
-        print(f"{name}: error: --draws: the machine ran out of memory; expected fewer draws", file=sys.stderr)
-        return EXIT_USAGE
+        return _fail(name, [InputError("--draws", getattr(args, "draws", None),
+                                       "fewer draws (the machine ran out of memory)")], as_json)
+
+
+def _fail(name: str, errors, as_json: bool) -> int:
+    """Print each error as one line (and, with ``--json``, all of them as one JSON object); exit status 2."""
+    for err in errors:
+        print(f"{name}: error: {err.line()}", file=sys.stderr)
+    if as_json:
+        print_json_errors([error_record(e) for e in errors])
+    return EXIT_USAGE
 
 
 def _check_common(args) -> None:
@@ -110,14 +173,14 @@ def _check_common(args) -> None:
         check_memory(check_draws(whole_number(draws, "--draws"), "--draws"))
 
 
-def _os_error_line(err: OSError, argv) -> str:
+def _os_error(err: OSError, argv) -> InputError:
     """``--out: '/x/y' is not allowed; expected a path that can be written (Read-only file system)``."""
     from pathlib import Path
 
     path = err.filename
     what = err.strerror or type(err).__name__
     if path is None:
-        return f"a file could not be read or written ({what})"
+        return InputError("file", what, "a file that can be read or written")
     target = Path(str(path))
     option = None
 
@@ -143,7 +206,7 @@ def _os_error_line(err: OSError, argv) -> str:
             break
     if option is None:
         option, shown = "path", str(path)
-    return f"{option}: '{shown}' is not allowed; expected a path that can be read or written here ({what}: {path})"
+    return InputError(option, shown, f"a path that can be read or written here ({what}: {path})")
 
 
 if __name__ == "__main__":  # pragma: no cover

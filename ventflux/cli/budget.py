@@ -1,4 +1,9 @@
-"""``--budget`` for single-estimate commands: which uncertain input owns the variance of the result."""
+"""``--budget`` for single-estimate commands: which uncertain input owns the variance of the result.
+
+``orifice``, ``plume-rise`` and ``diffuse`` take it. The readable table names
+each input by the option the user typed; the JSON's ``budget`` rows carry
+their widths in SI units in the key (``width_if_known_W``), as every JSON key.
+"""
 
 from __future__ import annotations
 
@@ -13,19 +18,25 @@ def add_budget_option(group):
     group.add_argument("--budget", nargs="?", const="draws", choices=("draws", "full"), default=None, help=HELP)
 
 
-def add_budget(args, payload, estimator, inputs, valid=None, output="heat_power", unit="MW"):
-    """With ``--budget``: compute the budget, add its rows to the JSON ``payload`` and return its readable lines."""
+def add_budget(args, payload, estimator, inputs, valid=None, output="heat_power", unit="MW", labels=None):
+    """With ``--budget``: compute the budget, add its rows to the JSON ``payload`` and return its readable lines.
+
+    ``estimator(**inputs)`` returns an object with the attribute ``output`` (vectorized over the draws);
+    ``labels`` maps an input's keyword to the option that gave it (default ``--<keyword>``).
+    """
     if not getattr(args, "budget", None):
         return []
     from ..budget import budget_lines, estimate_budget
     from ..uncertainty import DEFAULT_DRAWS
+    from ..vocabulary import json_record
     from .montecarlo import monte_carlo_settings
 
     mc = monte_carlo_settings(args)  # the same parsing of --draws and --seed as the estimate's own
     ind = estimate_budget(estimator, inputs, output=output, unit=unit, mode=args.budget,
                           draws=mc.draws or DEFAULT_DRAWS, seed=mc.seed, valid=valid)
-    payload["budget"] = ind.rows()
-    return budget_lines(ind, {k: "--" + k.replace("_", "-") for k in ind.names})
+    payload["budget"] = [json_record(row) for row in ind.rows()]
+    shown = {k: "--" + k.replace("_", "-") for k in ind.names}
+    return budget_lines(ind, {**shown, **(labels or {})})
 
 
 def print_budget(lines, out=None):

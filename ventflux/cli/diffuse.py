@@ -10,7 +10,7 @@ One patch, velocity measured::
 A table of sampled patches scaled up to mapped area classes::
 
     ventflux diffuse --patches patches.csv --classes classes.csv \\
-        --velocity "lognormal(0.5, 1.6) cm/s" --ambient-temperature "2.1 degC" --pressure "22.3 MPa"
+        --velocity "lognormal(0.5, 1.6) cm/s" --ambient-temperature "2.1 degC" --absolute-pressure "22.3 MPa"
 
 Velocity from a velocity source installed by a plugin::
 
@@ -41,6 +41,7 @@ from ..uncertainty import (
     summarize,
 )
 from ..units import Q_, parse_quantity
+from .budget import add_budget, add_budget_option, print_budget
 from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .output import add_output_options, print_json, print_table
 
@@ -70,23 +71,25 @@ def configure(p):
                    help="option passed to the velocity source (repeatable)")
     a = p.add_argument_group("ambient seawater")
     a.add_argument("--ambient-temperature", required=True, help="in-situ ambient temperature, e.g. '2.1 degC'")
-    a.add_argument("--salinity", default=DEFAULT_SALINITY,
+    a.add_argument("--ambient-salinity", default=DEFAULT_SALINITY,
                    help=f"ambient practical salinity (default {DEFAULT_SALINITY}, TEOS-10 standard seawater)")
-    a.add_argument("--pressure", help="absolute in-situ pressure, e.g. '22.3 MPa'")
-    a.add_argument("--depth", help="depth below the sea surface, e.g. '2200 m' (instead of --pressure)")
+    a.add_argument("--absolute-pressure", help="absolute in-situ pressure (sea pressure plus one atmosphere), "
+                                               "e.g. '22.3 MPa'")
+    a.add_argument("--depth", help="depth below the sea surface, e.g. '2200 m' (instead of --absolute-pressure)")
     a.add_argument("--latitude", type=float, help="latitude in degrees north, for --depth")
     m = p.add_argument_group("Monte Carlo (draws are named as in a survey's [diffuse] section: the same seed "
                              "gives the same draws)")
     add_monte_carlo_options(m, DEFAULT_DRAWS)
+    add_budget_option(m)
     add_output_options(p)
 
 
 def _pressure(args):
-    if (args.pressure is None) == (args.depth is None):
-        raise InputError("--pressure/--depth", "both" if args.pressure else "neither",
-                         "exactly one of --pressure (absolute) or --depth")
-    if args.pressure is not None:
-        return parse_quantity(args.pressure, "pressure", "--pressure")
+    if (args.absolute_pressure is None) == (args.depth is None):
+        raise InputError("--absolute-pressure/--depth", "both" if args.absolute_pressure else "neither",
+                         "exactly one of --absolute-pressure or --depth")
+    if args.absolute_pressure is not None:
+        return parse_quantity(args.absolute_pressure, "pressure", "--absolute-pressure")
     if args.latitude is not None and not -90 <= args.latitude <= 90:
         raise InputError("--latitude", f"{args.latitude:g}", "degrees between -90 and 90")
     return pressure_from_depth(parse_quantity(args.depth, "length", "--depth", "m"), args.latitude)
@@ -180,7 +183,8 @@ def _summary(q, unit, name, seed):
 #: Library input names and the options that give them, for one-line errors.
 _FLAGS = {"area": "--area", "active_fraction": "--active-fraction", "temperature_anomaly": "--anomaly",
           "velocity": "--velocity", "ambient temperature": "--ambient-temperature",
-          "ambient salinity": "--salinity"}
+          "ambient salinity": "--ambient-salinity", "ambient_temperature": "--ambient-temperature",
+          "ambient_salinity": "--ambient-salinity"}
 
 
 def run(args) -> int:
@@ -199,7 +203,7 @@ def _run(args) -> int:
         raise InputError("--polygons", args.polygons, "a polygon file together with --patches")
     p = _pressure(args)
     ambient = parse_uncertain(args.ambient_temperature, "temperature", "--ambient-temperature")
-    salinity = parse_uncertain(args.salinity, "dimensionless", "--salinity")
+    salinity = parse_uncertain(args.ambient_salinity, "dimensionless", "--ambient-salinity")
     if args.patches is not None:
         if any(getattr(args, k) is not None for k in ("area", "polygon", "active_fraction", "anomaly")):
             raise InputError("--patches", args.patches, "either --patches or the single-patch options, not both")
@@ -219,31 +223,33 @@ def _run(args) -> int:
         row = {"patch": name, "class": classes[i] or None,
                "effective_area_m2": float(nom.effective_area.to("m^2").magnitude[i]),
                "heat_power_W": float(nom.heat_power.to("W").magnitude[i]),
-               "heat_power_cp_shortcut_W": float(nom.heat_power_cp_shortcut.to("W").magnitude[i]),
+               "heat_power_constant_cp_W": float(nom.heat_power_cp_shortcut.to("W").magnitude[i]),
                "volume_flux_m3_s": float(nom.volume_flux.to("m^3/s").magnitude[i]),
                "seawater_model": str(nom.heat_model[i])}
         row.update(_summary(dr.heat_power[i], "W", "heat_power", mc.seed))
         patches.append(row)
     out = {"method": "diffuse", "draws": mc.draws, "seed": mc.seed, "unphysical_draws": prop.unphysical,
            "max_unphysical_share": mc.max_unphysical,
-           "pressure_Pa": float(p.to("Pa").magnitude),
+           "absolute_pressure_Pa": float(p.to("Pa").magnitude),
            "velocity": str(inputs["velocity"]) if not isinstance(inputs["velocity"], tuple) else "per patch",
-           "heat_power_MW": float(nom.total_heat_power.to("MW").magnitude),
-           "heat_power_cp_shortcut_MW": float(nom.total_heat_power_cp_shortcut.to("MW").magnitude),
+           "heat_power_W": float(nom.total_heat_power.to("W").magnitude),
+           "heat_power_constant_cp_W": float(nom.total_heat_power_cp_shortcut.to("W").magnitude),
            "seawater_models": sorted({str(m) for m in np.ravel(nom.heat_model)}),
            "volume_flux_m3_s": float(nom.total_volume_flux.to("m^3/s").magnitude),
-           **_summary(dr.total_heat_power, "MW", "heat_power", mc.seed),
+           **_summary(dr.total_heat_power, "W", "heat_power", mc.seed),
            **_summary(dr.total_volume_flux, "m^3/s", "volume_flux", mc.seed),
            "patches": patches}
     if args.classes is not None:
         out["scale_up"] = _scale_up(args, inputs, prop, shared, policy)
+    budget = _budget(args, out, inputs, ambient, salinity, p)
     if args.json:
         print_json(out)
         return 0
     rows = [("sampled patches", len(names), ""),
-            (f"heat power (enthalpy, {'; '.join(out['seawater_models'])})", out["heat_power_MW"], "MW"),
-            ("  5th-95th percentile", f"{out['heat_power_MW_p05']:.4g} – {out['heat_power_MW_p95']:.4g}", "MW"),
-            ("heat power (c_p0·ΔT shortcut, TEOS-10 c_p0)", out["heat_power_cp_shortcut_MW"], "MW"),
+            (f"heat power (enthalpy, {'; '.join(out['seawater_models'])})", out["heat_power_W"] / 1e6, "MW"),
+            ("  5th-95th percentile", f"{out['heat_power_W_p05'] / 1e6:.4g} – {out['heat_power_W_p95'] / 1e6:.4g}",
+             "MW"),
+            ("heat power (c_p0·ΔT shortcut, TEOS-10 c_p0)", out["heat_power_constant_cp_W"] / 1e6, "MW"),
             ("volume flux", out["volume_flux_m3_s"], "m^3/s"),
             ("  5th-95th percentile", f"{out['volume_flux_m3_s_p05']:.4g} – {out['volume_flux_m3_s_p95']:.4g}",
              "m^3/s")]
@@ -251,13 +257,71 @@ def _run(args) -> int:
                             f"physically impossible, limit {mc.max_unphysical:.1%})")
     if "scale_up" in out:
         su = out["scale_up"]
-        rows = [(f"{c['class']} ({c['n_sampled']} sampled, {c['mapped_area_m2']:.4g} m^2)",
-                 f"{c['heat_power_MW_median']:.4g} [{c['heat_power_MW_p05']:.3g}, {c['heat_power_MW_p95']:.3g}]",
-                 "MW") for c in su["classes"]]
-        rows.append(("field total", f"{su['heat_power_MW_median']:.4g} [{su['heat_power_MW_p05']:.3g}, "
-                                    f"{su['heat_power_MW_p95']:.3g}]", "MW"))
+        def mw(d):
+            return (f"{d['heat_power_W_median'] / 1e6:.4g} [{d['heat_power_W_p05'] / 1e6:.3g}, "
+                    f"{d['heat_power_W_p95'] / 1e6:.3g}]")
+
+        rows = [(f"{c['class']} ({c['n_sampled']} sampled, {c['mapped_area_m2']:.4g} m^2)", mw(c), "MW")
+                for c in su["classes"]]
+        rows.append(("field total", mw(su), "MW"))
         print_table(rows, title="scaled up to mapped area classes (median [5th, 95th percentile])")
+    print_budget(budget)
     return 0
+
+
+def _budget(args, out, inputs, ambient, salinity, pressure):
+    """``--budget`` of one patch's heat power: its uncertain options through ``diffuse_discharge``.
+
+    A patch table's inputs are drawn per patch (many independent inputs); their budget is the survey's
+    (``ventflux survey``, ``[diffuse]``), so here it is refused rather than given for the shared inputs only.
+    """
+    if not getattr(args, "budget", None):
+        return []
+    if args.patches is not None:
+        raise InputError("--budget", args.budget, "a single patch (--area or --polygon); the budget of a patch "
+                         "table is the survey's ([diffuse] in 'ventflux survey')")
+    from ..diffuse import diffuse_discharge, diffuse_physical, temperature_difference
+
+    given = {"area": inputs["area"], "active_fraction": inputs["active_fraction"],
+             "temperature_anomaly": inputs["temperature_anomaly"], "velocity": inputs["velocity"],
+             "ambient_temperature": ambient, "ambient_salinity": salinity}
+    given = {k: (Q_(float(np.ravel(v.magnitude)[0]), v.units) if isinstance(v, Q_) and np.size(v.magnitude) == 1
+                 else v) for k, v in given.items()}
+
+    def estimator(**a):  # one patch: a patch axis of length one, the draws along the second
+        one = {k: (Q_(np.reshape(a[k].magnitude, (1, -1)), a[k].units)) for k in PATCH}
+        one["temperature_anomaly"] = temperature_difference(one["temperature_anomaly"])
+        one["active_fraction"] = one["active_fraction"].to("dimensionless").magnitude
+        res = diffuse_discharge(**one, ambient_temperature=a["ambient_temperature"],
+                                ambient_salinity=_salinity(a["ambient_salinity"]), pressure=pressure, check=False)
+        return _Total(res.total_heat_power)
+
+    def valid(sampled, exact, m):
+        patch = {k: np.broadcast_to(np.asarray(_magnitude({**exact, **sampled}[k]), float), (m,)) for k in PATCH}
+        patch["temperature_anomaly"] = np.broadcast_to(
+            temperature_difference({**exact, **sampled}["temperature_anomaly"]).magnitude, (m,))
+        return np.asarray(diffuse_physical(patch), bool)
+
+    return add_budget(args, out, estimator, given, valid, labels=_FLAGS)
+
+
+#: The inputs of a patch (``ventflux.diffuse.PATCH_INPUTS``).
+PATCH = ("area", "active_fraction", "temperature_anomaly", "velocity")
+
+
+class _Total:
+    """The field's heat power as the attribute the budget reads."""
+
+    def __init__(self, heat_power):
+        self.heat_power = heat_power
+
+
+def _magnitude(x):
+    return x.magnitude if hasattr(x, "magnitude") else x
+
+
+def _salinity(s):
+    return s.to("dimensionless").magnitude if hasattr(s, "to") else s
 
 
 def _scale_up(args, inputs, prop, shared, policy):
@@ -268,10 +332,10 @@ def _scale_up(args, inputs, prop, shared, policy):
     for k, name in enumerate(su.classes):
         row = {"class": name, "n_sampled": int(su.n_sampled[k]), "mapped_area_m2": float(area.magnitude[k])}
         row.update(_summary(su.heat_flux_density[k], "W/m^2", "heat_flux", seed))
-        row.update(_summary(su.heat_power[k], "MW", "heat_power", seed))
+        row.update(_summary(su.heat_power[k], "W", "heat_power", seed))
         row.update(_summary(su.volume_flux[k], "m^3/s", "volume_flux", seed))
         classes.append(row)
-    return {"classes": classes, **_summary(su.total_heat_power, "MW", "heat_power", seed),
+    return {"classes": classes, **_summary(su.total_heat_power, "W", "heat_power", seed),
             **_summary(su.total_volume_flux, "m^3/s", "volume_flux", seed), "unphysical_draws": sp.unphysical,
             "note": "class heat flux per unit area = ΣH/ΣA of its sampled patches, bootstrapped over patches"}
 
@@ -282,7 +346,7 @@ METHODS = [
         summary="diffuse-flow heat balance: ρ·w·A_eff·Δh over patches, Monte Carlo, scale-up to mapped classes",
         estimates="heat power, volume flux",
         inputs=("patch area or polygon", "active fraction", "temperature anomaly", "upward velocity",
-                "ambient temperature", "salinity", "pressure"),
+                "ambient temperature", "ambient salinity", "absolute pressure or depth"),
         command="diffuse",
     )
 ]

@@ -28,7 +28,7 @@ _SHOWN = (
     ("ambient_density", "kg/m^3", "ambient density (TEOS-10)"),
     ("mean_velocity", "m/s", "area-mean exit velocity"),
     ("area", "cm^2", "orifice area"),
-    ("pressure", "MPa", "in-situ pressure"),
+    ("pressure", "MPa", "absolute in-situ pressure"),
 )
 
 _UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) unit'"
@@ -36,7 +36,8 @@ _UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) 
 
 def configure(p):
     g = p.add_argument_group("orifice measurements")
-    g.add_argument("--temperature", required=True, metavar="Q", help="exit temperature, e.g. '352 degC'" + _UNC)
+    g.add_argument("--exit-temperature", required=True, metavar="Q",
+                   help="exit temperature of the vent fluid, e.g. '352 degC'" + _UNC)
     vel = g.add_mutually_exclusive_group(required=True)
     vel.add_argument("--velocity", metavar="Q",
                      help="exit velocity, e.g. '1.4 m/s' (area-mean unless --velocity-kind centerline)" + _UNC)
@@ -55,7 +56,8 @@ def configure(p):
                         "1/7-power-law turbulent profile)")
     a = p.add_argument_group("site and ambient seawater")
     where = a.add_mutually_exclusive_group(required=True)
-    where.add_argument("--pressure", metavar="Q", help="absolute in-situ pressure, e.g. '26 MPa'")
+    where.add_argument("--absolute-pressure", metavar="Q",
+                       help="absolute in-situ pressure (sea pressure plus one atmosphere), e.g. '26 MPa'")
     where.add_argument("--depth", metavar="Q", help="depth below the sea surface, e.g. '2550 m' (TEOS-10 p_from_z)")
     a.add_argument("--latitude", type=float, default=None, metavar="DEG",
                    help="latitude in degrees north (for --depth)")
@@ -77,13 +79,12 @@ def configure(p):
 def _inputs(args):
     errs = Collector()
     vals = {}
-    spec = [("temperature", "temperature", "--temperature"), ("velocity", "velocity", "--velocity"),
-            ("diameter", "length", "--diameter"), ("area", "area", "--area"),
-            ("minor_diameter", "length", "--minor-diameter"), ("pressure", "pressure", "--pressure"),
-            ("depth", "length", "--depth"), ("ambient_temperature", "temperature", "--ambient-temperature"),
-            ("ambient_salinity", "dimensionless", "--ambient-salinity")]
-    for key, dim, flag in spec:
-        text = getattr(args, key)
+    dims = {"temperature": "temperature", "velocity": "velocity", "diameter": "length", "area": "area",
+            "minor_diameter": "length", "pressure": "pressure", "depth": "length",
+            "ambient_temperature": "temperature", "ambient_salinity": "dimensionless"}
+    for key, dim in dims.items():
+        flag = _FLAGS[key]
+        text = getattr(args, flag[2:].replace("-", "_"))
         if text is None:
             continue
         with errs.check():
@@ -139,14 +140,17 @@ def run(args) -> int:
     try:
         return _run(args)
     except InputError as err:  # name the command-line option rather than the library argument
-        flag = "--" + err.field.rsplit("/", 1)[-1].replace(" ", "-").replace("_", "-")
-        if err.where is None and flag in _FLAGS:
+        flag = _FLAGS.get(err.field.rsplit("/", 1)[-1].replace(" ", "_").replace("-", "_"))
+        if err.where is None and flag is not None:
             raise InputError(flag, err.value, err.allowed) from None
         raise
 
 
-_FLAGS = {"--temperature", "--velocity", "--diameter", "--area", "--minor-diameter", "--pressure", "--depth",
-          "--ambient-temperature", "--ambient-salinity", "--profile-factor", "--velocity-kind"}
+#: The estimator's keyword → the option that gives it (``ventflux.vocabulary``'s names).
+_FLAGS = {"temperature": "--exit-temperature", "velocity": "--velocity", "diameter": "--diameter", "area": "--area",
+          "minor_diameter": "--minor-diameter", "pressure": "--absolute-pressure", "depth": "--depth",
+          "ambient_temperature": "--ambient-temperature", "ambient_salinity": "--ambient-salinity",
+          "profile_factor": "--profile-factor", "velocity_kind": "--velocity-kind"}
 
 
 def _run(args) -> int:
@@ -172,7 +176,7 @@ def _run(args) -> int:
         payload = result.as_dict()
     payload["vent"] = args.name
     payload["fluid_model"] = args.fluid
-    budget = add_budget(args, payload, orifice_discharge, vals, physical_draws)  # --budget (ventflux.cli.budget)
+    budget = add_budget(args, payload, orifice_discharge, vals, physical_draws, labels=_FLAGS)  # --budget
     if args.json:
         print_json(payload)
         return 0
@@ -187,7 +191,7 @@ def _print_readable(result, summaries, draws, seed, out=None, rejected=0, limit=
     rows = []
     for attr, unit, label in _SHOWN:
         q = getattr(result, attr).to(unit)
-        row = [label, f"{q.magnitude:.4g}", f"{q.units:~P}"]
+        row = [label, f"{q.magnitude:.4g}", "%" if unit == "percent" else unit]  # units as the vocabulary writes them
         if summaries:
             s = summaries.get(attr)
             row += [f"{getattr(s, k).to(unit).magnitude:.4g}" if s else "" for k in ("median", "p05", "p95")]
@@ -206,6 +210,6 @@ def _print_readable(result, summaries, draws, seed, out=None, rejected=0, limit=
 METHODS = [Method(name="orifice", summary="exit temperature, velocity and orifice size → heat power with "
                                           "IAPWS-95 enthalpy difference; constant-cp shortcut beside it",
                   estimates="heat power, mass flux, volume flux",
-                  inputs=("exit temperature", "exit velocity", "orifice size", "pressure or depth",
+                  inputs=("exit temperature", "exit velocity", "orifice size", "absolute pressure or depth",
                           "ambient temperature", "ambient salinity"),
                   command="ventflux orifice")]

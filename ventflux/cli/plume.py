@@ -8,8 +8,9 @@ import numpy as np
 
 from ..errors import Collector, InputError
 from ..registry import Method
-from ..uncertainty import DEFAULT_DRAWS, Uncertain, parse_uncertain
-from ..units import column_name, parse_quantity
+from ..uncertainty import DEFAULT_DRAWS, Uncertain, nominal, parse_uncertain
+from ..units import Q_, column_name, parse_quantity
+from .budget import add_budget, add_budget_option, print_budget
 from .montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .output import add_output_options, print_json, write_output
 
@@ -18,7 +19,8 @@ _UNC = "; accepts '± sd', 'uniform(lo, hi) unit' or 'lognormal(median, factor) 
 # Library field names → command-line options, so messages name what the user typed.
 _FLAGS = {"rise height": "--rise-height", "heat power": "--heat-power", "buoyancy frequency": "--buoyancy-frequency",
           "ambient temperature": "--ambient-temperature", "ambient salinity": "--ambient-salinity",
-          "pressure": "--pressure", "depth": "--depth", "vent depth": "--depth", "entrainment": "--entrainment",
+          "pressure": "--absolute-pressure", "depth": "--depth", "vent depth": "--depth",
+          "entrainment": "--entrainment",
           "current": "--current", "current speed": "--current-profile", "current depth": "--current-profile",
           "method": "--method", "level": "--level", "window": "--window",
           "latitude": "--latitude", "longitude": "--longitude", "draws": "--draws",
@@ -48,7 +50,8 @@ def configure(p):
                    help="factor on N² (e.g. '1 ± 0.1' for a 10 %% uncertainty of the profile's N²)")
     a = p.add_argument_group("vent site and ambient seawater")
     where = a.add_mutually_exclusive_group()
-    where.add_argument("--pressure", metavar="Q", help="absolute pressure at the vent, e.g. '25MPa'")
+    where.add_argument("--absolute-pressure", metavar="Q",
+                       help="absolute pressure at the vent (sea pressure plus one atmosphere), e.g. '25MPa'")
     where.add_argument("--depth", metavar="Q", help="vent depth, e.g. '2500 m' (default with --ctd: the cast's "
                                                      "deepest point)")
     a.add_argument("--ambient-temperature", metavar="Q", help="in-situ temperature at the vent (with "
@@ -71,6 +74,7 @@ def configure(p):
                    help="the vent's name: keys its random streams, so the draws equal those of a survey's "
                         "[vent.plume_rise] of a vent of that name with the same seed (default 'vent')")
     add_monte_carlo_options(m, draws_default=None)
+    add_budget_option(m)
     o = p.add_argument_group("extra outputs")
     o.add_argument("--figure", metavar="PNG", help="write a figure of the plume's profiles beside the stratification")
     o.add_argument("--profile-table", metavar="CSV", help="write radius, speed and volume flux along the plume")
@@ -101,13 +105,14 @@ def _inputs(args):
             ("pressure", "pressure"), ("depth", "length"), ("entrainment", "dimensionless"),
             ("current", "velocity"), ("stratification_scale", "dimensionless")]
     for key, dim in spec:
-        text = getattr(args, key)
+        text = getattr(args, "absolute_pressure" if key == "pressure" else key)
         if text is None:
             continue
         with errs.check():
             exact_only = key in ("ambient_temperature", "ambient_salinity", "pressure", "depth", "exit_temperature",
                                  "exit_velocity", "diameter")
-            vals[key] = (parse_quantity if exact_only else parse_uncertain)(text, dim, "--" + key.replace("_", "-"))
+            flag = _FLAGS["pressure"] if key == "pressure" else "--" + key.replace("_", "-")
+            vals[key] = (parse_quantity if exact_only else parse_uncertain)(text, dim, flag)
     with errs.check():
         if args.method not in ("integral", "closed-form"):
             raise InputError("--method", args.method, "one of integral, closed-form")
@@ -129,8 +134,9 @@ def _inputs(args):
         for key in ("ambient_temperature", "ambient_salinity"):
             if getattr(args, key) is None:
                 errs.add(InputError("--" + key.replace("_", "-"), "(none)", "a value with --buoyancy-frequency"))
-        if args.pressure is None and args.depth is None:
-            errs.add(InputError("--pressure", "(none)", "the vent's --pressure or --depth with --buoyancy-frequency"))
+        if args.absolute_pressure is None and args.depth is None:
+            errs.add(InputError("--absolute-pressure", "(none)",
+                                "the vent's --absolute-pressure or --depth with --buoyancy-frequency"))
     with errs.check():
         for key in ("buoyancy_frequency", "rise_height", "heat_power"):
             v = vals.get(key)
@@ -201,10 +207,11 @@ def _run(args) -> int:
         else:
             res = inversion.rise_height_from_heat_power(vals.get("heat_power"), strat, source=source, **common)
         nom = res
-    payload = _payload(res, nom, direction, args, strat)
+    payload = _payload(res, nom, direction, args, vals)
     if unphysical is not None:
-        payload["unphysical_draws"] = unphysical
+        payload["unphysical_draws"] = unphysical  # outside an input's range or without a plume solution
         payload["max_unphysical_share"] = mc.max_unphysical
+    budget = _budget(args, payload, vals, strat, site, source, profile)
     if args.figure:
         write_output("--figure", args.figure, figures.save_plume_figure, res, args.figure)
     if args.profile_table:
@@ -213,7 +220,51 @@ def _run(args) -> int:
         print_json(payload)
     else:
         _print_readable(payload, res)
+        print_budget(budget)
     return 0
+
+
+def _budget(args, payload, vals, strat, site, source, profile):
+    """``--budget``: the estimate's uncertain inputs (named as the survey draws them) through the same solver.
+
+    The estimator below only routes the drawn inputs to ``ventflux.plume.inversion`` (``predrawn``), as
+    ``plume_rise_propagation`` does; the inverse's budget is of the heat power, the forward's of the rise height.
+    """
+    if not getattr(args, "budget", None):
+        return []
+    import pint
+
+    from ..plume import inversion
+    from ..plume.propagation import _physical
+
+    inverse = args.rise_height is not None
+    keys = ("rise_height", "heat_power", "entrainment", "current", "stratification_scale")
+    inputs = {k: vals[k] for k in keys if vals.get(k) is not None}
+    if args.ctd is None:
+        inputs["buoyancy_frequency"] = strat
+    if args.current_profile is not None:
+        inputs.pop("current", None)
+
+    def estimator(**a):
+        m = max(np.size(v.magnitude) if isinstance(v, pint.Quantity) else 1 for v in a.values())
+        a = {k: (Q_(np.broadcast_to(v.magnitude, (m,)), v.units) if isinstance(v, pint.Quantity) else v)
+             for k, v in a.items()}
+        stratification = a.pop("buoyancy_frequency", strat)
+        kw = {k: a[k].to("dimensionless").magnitude for k in ("entrainment", "stratification_scale") if k in a}
+        current = profile if profile is not None else a.get("current")
+        if inverse:
+            return inversion.heat_power_from_rise_height(a["rise_height"], stratification, current=current, **kw,
+                                                         **site, predrawn=True)
+        return inversion.rise_height_from_heat_power(a.get("heat_power"), stratification, current=current,
+                                                     source=source, **kw, **site, predrawn=True)
+
+    def valid(sampled, exact, m):
+        named = {("height" if k == "rise_height" else k): v for k, v in sampled.items()}  # the survey's names
+        return np.broadcast_to(_physical(named), (m,))
+
+    labels = {k: _FLAGS.get(k.replace("_", " "), "--" + k.replace("_", "-")) for k in inputs}
+    return add_budget(args, payload, estimator, inputs, valid, output="heat_power" if inverse else "rise_height",
+                      unit="MW" if inverse else "m", labels=labels)
 
 
 
@@ -229,7 +280,7 @@ def _val(q, unit):
     return float(np.asarray(q.to(unit).magnitude))
 
 
-def _payload(res, nom, direction, args, strat):
+def _payload(res, nom, direction, args, vals):
     from ..plume.propagation import closed_form_heat_power
     from ..properties.seawater import CP0
 
@@ -242,12 +293,12 @@ def _payload(res, nom, direction, args, strat):
         "spreading_volume_flux_m3_s": _val(nom.spreading_volume_flux, "m^3/s"),
         "spreading_ct_excess_K": _val(nom.spreading_anomaly, "K"),
         "spreading_dilution": _val(nom.spreading_dilution, "dimensionless"),
-        "vent_depth_m": col.vent_depth, "vent_sea_pressure_dbar": col.p0,
+        "vent_depth_m": col.vent_depth, "vent_sea_pressure_Pa": _val(Q_(col.p0, "dbar"), "Pa"),
         "ambient_absolute_salinity_g_kg": col.SA0, "ambient_conservative_temperature_degC": col.CT0,
         "ambient_density_kg_m3": col.rho0, "thermal_expansion_1_K": col.alpha0, "cp0_J_kg_K": CP0,
         "stratification": ("constant N" if args.ctd is None else f"CTD cast {args.ctd}"),
         "mean_buoyancy_frequency_1_s": float(col.mean_n(max(_val(nom.rise_height, "m"), 1.0))),
-        "entrainment_tophat": args.entrainment,
+        "entrainment_tophat": float(nominal(vals["entrainment"]).to("dimensionless").magnitude),
     }
     if nom.method == "integral" and args.rise_height is not None:
         # The common practice beside the full computation: the point-source formula with the mean N.
@@ -256,7 +307,6 @@ def _payload(res, nom, direction, args, strat):
     if res.summary:
         out["draws"] = res.draws
         out["seed"] = res.seed
-        out["failed_draws"] = res.failed
         units = {"heat_power": "W", "buoyancy_flux": "m^4/s^3", "rise_height": "m", "spreading_height": "m",
                  "downstream_distance": "m"}
         for k, s in res.summary.items():
@@ -268,13 +318,13 @@ def _print_readable(p, res):
     out = sys.stdout
     out.write(f"Plume rise, {p['direction']} ({p['method']}, {p['stratification']}; densities TEOS-10)\n")
     rows = [("heat power", p["heat_power_W"] / 1e6, "MW", "heat_power", 1e-6),
-            ("buoyancy flux", p["buoyancy_flux_m4_s3"], "m⁴/s³", "buoyancy_flux", 1.0),
+            ("buoyancy flux", p["buoyancy_flux_m4_s3"], "m^4/s^3", "buoyancy_flux", 1.0),
             ("maximum rise height", p["rise_height_m"], "m", "rise_height", 1.0),
             ("spreading height", p["spreading_height_m"], "m", "spreading_height", 1.0),
             ("downstream distance of the top", p["downstream_distance_m"], "m", "downstream_distance", 1.0),
-            ("volume flux at spreading level", p["spreading_volume_flux_m3_s"], "m³/s", None, 1.0),
+            ("volume flux at spreading level", p["spreading_volume_flux_m3_s"], "m^3/s", None, 1.0),
             ("CT excess at spreading level", p["spreading_ct_excess_K"], "K", None, 1.0),
-            ("dilution at spreading level", p["spreading_dilution"], "", None, 1.0),
+            ("dilution at spreading level", p["spreading_dilution"], "1", None, 1.0),
             ("mean N over the rise", p["mean_buoyancy_frequency_1_s"], "1/s", None, 1.0)]
     if "closed_form_heat_power_W" in p:
         label = ("heat power, closed form (formula ignores the current)" if p.get("closed_form_ignores_current")
@@ -288,8 +338,8 @@ def _print_readable(p, res):
                                                         ("median", "p05", "p95")))
         out.write(line + "\n")
     if res.summary:
-        out.write(f"Monte Carlo: {p['draws']} draws, seed {p['seed']}, {p['failed_draws']} failed; value column is "
-                  "the nominal estimate.\n")
+        out.write(f"Monte Carlo: {p['draws']} draws, seed {p['seed']}, {p['unphysical_draws']} dropped (outside an "
+                  "input's range or without a plume solution); value column is the nominal estimate.\n")
 
 
 def _fmt(v):
@@ -315,7 +365,7 @@ METHODS = [
            summary="rise height ↔ heat power with a top-hat integral plume model on TEOS-10 densities, "
                    "in a CTD profile or constant N, optionally bent over by a current",
            estimates="heat power, buoyancy flux, rise height",
-           inputs=("rise height or heat power", "CTD cast or buoyancy frequency", "vent depth or pressure",
+           inputs=("rise height or heat power", "CTD cast or buoyancy frequency", "vent depth or absolute pressure",
                    "entrainment coefficient", "current"),
            command="ventflux plume-rise --method integral"),
     Method(name="plume-rise-closed-form",

@@ -4,28 +4,29 @@ Examples
 --------
 Water carried by a 100 MW vent at 350 °C and 25 MPa::
 
-    ventflux summarize water --power "100 ± 20 MW" --temperature "350 degC" \\
-        --pressure 25MPa --ambient-temperature "2 degC"
+    ventflux summarize water --heat-power "100 ± 20 MW" --exit-temperature "350 degC" \\
+        --absolute-pressure 25MPa --ambient-temperature "2 degC"
 
 How long 10⁻² km³ of dry hot rock cooled by 800 K sustains it (and L²/κ beside it)::
 
-    ventflux summarize reservoir --power "100 MW" --volume "0.01 km^3" --temperature-drop "800 K" --porosity 0
+    ventflux summarize reservoir --heat-power "100 MW" --volume "0.01 km^3" --temperature-drop "800 K" --porosity 0
 
 With pore fluid (IAPWS-95 enthalpy difference at the reservoir pressure) and a melt lens::
 
-    ventflux summarize reservoir --power "100 ± 30 MW" --area "1 km^2" --thickness "50 m" \\
-        --temperature-drop "uniform(250, 350) K" --temperature "420 degC" --pressure 30MPa \\
+    ventflux summarize reservoir --heat-power "100 ± 30 MW" --area "1 km^2" --thickness "50 m" \\
+        --temperature-drop "uniform(250, 350) K" --temperature "420 degC" --absolute-pressure 30MPa \\
         --melt-volume "0.001 km^3"
 
 The reservoir needed for 100 MW over 10 years under 1 km²::
 
-    ventflux summarize size --power "100 MW" --duration "10 yr" --temperature-drop "300 K" --area "1 km^2" \\
+    ventflux summarize size --heat-power "100 MW" --duration "10 yr" --temperature-drop "300 K" --area "1 km^2" \\
         --porosity 0
 
 Ridge-flank heat deficit against GDH1 and the water column for a 10 K rise::
 
     ventflux summarize flank --observed "1 Myr=120 mW/m^2" --observed "5 Myr=110 mW/m^2" \\
-        --observed "10 Myr=100 mW/m^2" --half-rate "25 mm/yr" --temperature-rise "10 K" --pressure 35MPa
+        --observed "10 Myr=100 mW/m^2" --half-spreading-rate "25 mm/yr" --temperature-rise "10 K" \\
+        --absolute-pressure 35MPa
 
 Every quantity may carry an uncertainty (``"100 ± 20 MW"``, ``"uniform(600, 900) K"``,
 ``"lognormal(0.01, 2) km^3"``); results are then medians with 5th–95th percentiles.
@@ -52,11 +53,11 @@ from .output import add_output_options, print_json, print_table
 # (option, dimension, required, default text, help) per question; the option's
 # dest is the library function's parameter name.
 _COMMON_WATER = [
-    ("--power", "power", True, None, "heat power, e.g. '100 ± 20 MW'"),
-    ("--temperature", "temperature", True, None, "vent exit temperature, e.g. '350 degC'"),
-    ("--pressure", "pressure", True, None, "absolute in-situ pressure, e.g. '25 MPa'"),
+    ("--heat-power", "power", True, None, "heat power, e.g. '100 ± 20 MW'"),
+    ("--exit-temperature", "temperature", True, None, "vent exit temperature, e.g. '350 degC'"),
+    ("--absolute-pressure", "pressure", True, None, "absolute in-situ pressure, e.g. '25 MPa'"),
     ("--ambient-temperature", "temperature", True, None, "ambient seawater temperature, e.g. '2 degC'"),
-    ("--salinity", "dimensionless", False, f"{DEFAULT_AMBIENT_SALINITY:g}",
+    ("--ambient-salinity", "dimensionless", False, f"{DEFAULT_AMBIENT_SALINITY:g}",
      "ambient practical salinity; the default is TEOS-10's reference salinity"),
 ]
 _HEAT = [
@@ -69,7 +70,7 @@ _HEAT = [
      "pore fraction filled with fluid, a few per cent in upper crust (from memory)"),
     ("--temperature", "temperature", False, None,
      "initial reservoir temperature (needed for the pore fluid when porosity > 0)"),
-    ("--pressure", "pressure", False, None,
+    ("--absolute-pressure", "pressure", False, None,
      "absolute reservoir pressure (for the pore fluid; or give --depth-below-seafloor and --seafloor-pressure)"),
 ]
 _RESERVOIR_PRESSURE = [
@@ -82,7 +83,7 @@ QUESTIONS: dict[str, tuple[Callable[..., sm.Answer], str, list[tuple]]] = {
     "water": (sm.water_answer, "mass flux, volume flux and annual throughput carried by a heat power",
               _COMMON_WATER),
     "reservoir": (sm.reservoir_answer, "heat-mining time, decline lifetime and conductive timescale of a reservoir",
-                  [("--power", "power", True, None, "heat power drawn from the reservoir")] + _HEAT
+                  [("--heat-power", "power", True, None, "heat power drawn from the reservoir")] + _HEAT
                   + _RESERVOIR_PRESSURE + [
                       ("--volume", "volume", False, None, "hot-rock volume, e.g. '0.01 km^3'"),
                       ("--area", "area", False, None, "reservoir area (with --thickness)"),
@@ -99,22 +100,25 @@ QUESTIONS: dict[str, tuple[Callable[..., sm.Answer], str, list[tuple]]] = {
                        "thermal diffusivity of the rock, from memory"),
                   ]),
     "size": (sm.reservoir_size_answer, "reservoir size needed to sustain a power for a time",
-             [("--power", "power", True, None, "heat power to sustain"),
+             [("--heat-power", "power", True, None, "heat power to sustain"),
               ("--duration", "time", True, None, "how long, e.g. '10 yr'")] + _HEAT + _RESERVOIR_PRESSURE + [
                  ("--area", "area", False, None, "area, to give the thickness")]),
     "flank": (sm.flank_answer, "ridge-flank heat deficit against a conductive cooling reference",
-              [("--half-rate", "velocity", False, None, "half spreading rate, e.g. '25 mm/yr'"),
+              [("--half-spreading-rate", "velocity", False, None, "half spreading rate, e.g. '25 mm/yr'"),
                ("--temperature-rise", "temperature", False, None, "warming of the circulated seawater, e.g. '10 K'"),
                ("--ambient-temperature", "temperature", False, "2 degC",
                 "bottom-water temperature, typical of deep water (from memory)"),
-               ("--pressure", "pressure", False, None, "absolute seafloor pressure (with --temperature-rise)"),
-               ("--salinity", "dimensionless", False, f"{DEFAULT_AMBIENT_SALINITY:g}", "bottom-water salinity"),
+               ("--absolute-pressure", "pressure", False, None, "absolute seafloor pressure (with --temperature-rise)"),
+               ("--ambient-salinity", "dimensionless", False, f"{DEFAULT_AMBIENT_SALINITY:g}",
+                "bottom-water practical salinity"),
                ("--conductivity", "thermal conductivity", False, None, "half-space: thermal conductivity"),
                ("--diffusivity", "diffusivity", False, None, "half-space: thermal diffusivity"),
                ("--temperature-difference", "temperature", False, None,
                 "half-space: mantle minus surface temperature")]),
 }
-_RENAME = {"half_rate": "half_spreading_rate"}
+#: Option destination → the answering function's keyword, where the vocabulary's name differs.
+_RENAME = {"heat_power": "power", "exit_temperature": "temperature", "absolute_pressure": "pressure",
+           "ambient_salinity": "salinity"}
 
 
 def _dest(option):
@@ -172,6 +176,18 @@ def _observations(args):
 
 
 def run(args) -> int:
+    try:
+        return _run(args)
+    except InputError as err:  # the answering function names its keyword: name the option the user typed
+        _, _, options = QUESTIONS[args.question]
+        flags = {_RENAME.get(_dest(o[0]), _dest(o[0])): o[0] for o in options}
+        flag = flags.get(err.field.rsplit("/", 1)[-1].replace(" ", "_"))
+        if err.where is None and flag is not None:
+            raise InputError(flag, err.value, err.allowed) from None
+        raise
+
+
+def _run(args) -> int:
     fn, _, options = QUESTIONS[args.question]
     mc = monte_carlo_settings(args)
     kwargs = {}
@@ -191,11 +207,16 @@ def run(args) -> int:
         kwargs["deficit_span"] = args.deficit_span
     answer = fn(**kwargs, draws=mc.draws, seed=mc.seed, max_unphysical=mc.max_unphysical)
     if args.json:
-        print_json(answer.as_dict())
+        out = answer.as_dict()
+        # the inputs as written, named as the options that gave them (heat_power, not the keyword power)
+        named = {_RENAME.get(_dest(o[0]), _dest(o[0])): _dest(o[0]) for o in options}
+        out["inputs"] = {named.get(k, k): v for k, v in out.get("inputs", {}).items()}
+        print_json(out)
     else:
         title = f"{answer.question}: " + ("exact inputs" if answer.draws == 1 else
                                           f"median [5th, 95th percentile] of {answer.draws} draws, seed {answer.seed}")
-        print_table(answer.rows(), title=title)
+        rows = [(label, value, "1" if unit == "dimensionless" else unit) for label, value, unit in answer.rows()]
+        print_table(rows, title=title)
     return 0
 
 
@@ -203,12 +224,14 @@ def run(args) -> int:
 METHODS = [
     Method(name="water-throughput", summary="mass and volume flux and annual throughput from heat power "
            "(IAPWS-95 enthalpy difference, TEOS-10 ambient density)", estimates="water throughput",
-           inputs=("power", "temperature", "pressure", "ambient temperature"), command="summarize water"),
+           inputs=("heat power", "exit temperature", "absolute pressure", "ambient temperature"),
+           command="summarize water"),
     Method(name="reservoir-heat-mining", summary="heat-mining time, exponential-decline lifetime and L^2/kappa of a "
            "hot-rock reservoir", estimates="reservoir lifetime",
-           inputs=("power", "volume or area and thickness", "temperature drop"), command="summarize reservoir"),
+           inputs=("heat power", "volume or area and thickness", "temperature drop"), command="summarize reservoir"),
     Method(name="reservoir-sizing", summary="hot-rock volume that sustains a power for a time",
-           estimates="reservoir size", inputs=("power", "duration", "temperature drop"), command="summarize size"),
+           estimates="reservoir size", inputs=("heat power", "duration", "temperature drop"),
+           command="summarize size"),
     Method(name="flank-heat-deficit", summary="conductive heat-flow deficit against half-space cooling or GDH1, "
            "per area, per ridge length and as a circulated-water column", estimates="advective heat loss",
            inputs=("age", "heat flow", "half spreading rate", "fluid temperature rise"), command="summarize flank"),

@@ -80,7 +80,7 @@ def test_cli_json_feeds_diffuse(tmp_path, capsys):
                "0.5 cm/s", "--ambient-temperature", "2.05 degC", "--depth", "1800 m", "--draws", "200",
                # a normal anomaly of 1.8 ± 1.2 K is <= 0 in 6 % of draws, above the default 5 % limit
                "--max-unphysical", "0.1", "--json"])
-    assert rc == 0 and json.loads(capsys.readouterr().out)["heat_power_MW"] > 0
+    assert rc == 0 and json.loads(capsys.readouterr().out)["heat_power_W"] > 0
 
 
 def test_cli_bad_records(tmp_path, capsys):

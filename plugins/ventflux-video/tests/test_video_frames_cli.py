@@ -181,11 +181,11 @@ def test_region_parse_errors():
 
 
 def test_orifice_command_takes_the_video_exit_velocity(clip, capsys):
-    argv = ["orifice", "--temperature", "340 degC", "--velocity-source", "video-exit-velocity",
+    argv = ["orifice", "--exit-temperature", "340 degC", "--velocity-source", "video-exit-velocity",
             "--source-option", f"clip={clip.path}", "--source-option", f"metres_per_pixel={clip.metres_per_pixel} m",
             "--source-option", f"orifice_xy={clip.orifice_xy[0]},{clip.orifice_xy[1]}",
             "--source-option", "passes=32,16", "--velocity-kind", "centerline", "--diameter", "4 cm",
-            "--pressure", "25 MPa", "--ambient-temperature", "2 degC", "--json"]
+            "--absolute-pressure", "25 MPa", "--ambient-temperature", "2 degC", "--json"]
     assert main(argv) == 0
     out = capsys.readouterr().out
     assert "heat_power" in out

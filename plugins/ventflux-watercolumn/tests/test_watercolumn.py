@@ -269,7 +269,7 @@ def test_cli_prints_json_and_refuses_in_one_line(synthetic, tmp_path, capsys):
                  "--json", "--out", str(tmp_path / "p.csv"), "--figures", str(tmp_path / "f")]) == 0
     out = json.loads(capsys.readouterr().out)
     assert out["heat_flux_W"] > 0 and out["heat_flux_W_p05"] < out["heat_flux_W"] < out["heat_flux_W_p95"]
-    assert {"heat_flux_current_only_W_std", "rise_height_spreading_m_median", "noise_dtheta_K"} <= set(out)
+    assert {"heat_flux_current_only_W_sd", "rise_height_spreading_m_median", "noise_dtheta_K"} <= set(out)
     assert "top_depth_m" in out["profiles"][0]
     assert (tmp_path / "p.csv").read_text().startswith("profile,")
     assert len(list((tmp_path / "f").glob("*.png"))) == 3

@@ -340,10 +340,10 @@ def run_jet(args) -> int:
     out["exit_velocity_sd_m_s"] = summarize(mc.exit_velocity).std.to("m/s").magnitude
     out["exit_velocity_fit_sd_m_s"] = res.exit_velocity_sd.to("m/s").magnitude
     out.update(summarize(mc.buoyancy_flux).as_dict("buoyancy_flux", "m^4/s^3"))
-    out["buoyancy_flux_sd_m4_s3"] = out["buoyancy_flux_m4_s3_std"]
+    out["buoyancy_flux_sd_m4_s3"] = out["buoyancy_flux_m4_s3_sd"]
     if mc.heat_power is not None:
         out.update(summarize(mc.heat_power).as_dict("heat_power", "W"))
-        out["heat_power_sd_W"] = out["heat_power_W_std"]
+        out["heat_power_sd_W"] = out["heat_power_W_sd"]
     out["uncertainty_parts_relative_sd"] = mc.parts
     out["uncertainty_inputs"] = {name: draws.describe().get(name) for name in mc.inputs.values()}
     out["draws"], out["seed"] = draws.n_draws, draws.seed
