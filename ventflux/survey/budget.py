@@ -388,7 +388,8 @@ def figures(budget: SurveyBudget) -> list:
         ind = budget.indices[key]
         order = ind.order()[:FIGURE_INPUTS]
         neg = ind.negligible[order]
-        labels = [label(ind.names[i], "") + (" (negligible)" if g else "") for i, g in zip(order, neg)]
+        labels = [label(ind.names[i], "").replace("_", " ") + (" (negligible)" if g else "")  # as a reader says it
+                  for i, g in zip(order, neg)]
         design = ind.estimator == sensitivity.PICK_FREEZE
         if not design:  # totals from the draws are only bounds (first order + the unattributed share): one bar
             labels.append("not explained by any single input")
@@ -405,7 +406,7 @@ def figures(budget: SurveyBudget) -> list:
         ax.set_yticks(y, labels, fontsize=8)
         ax.invert_yaxis()
         ax.set_xlim(0, 1.05)
-        ax.set_xlabel("share of the variance")
+        ax.set_xlabel("share of the variance [1]")
         ax.set_title(f"Uncertainty budget: {key}", fontsize=10)
         ax.legend(fontsize=8, loc="best")
         ax.grid(axis="x", alpha=0.3)
