@@ -14,7 +14,9 @@ import datetime as _dt
 import html
 import io
 import json
+import math
 import platform
+import re
 from pathlib import Path
 
 import numpy as np
@@ -270,7 +272,7 @@ def reservoir_figure(reservoirs):
     """Heat-mining time, decline time and conductive time of each reservoir hypothesis, on one log axis."""
     import matplotlib.pyplot as plt
 
-    fig, ax = plt.subplots(figsize=(7.0, 1.2 + 0.7 * len(reservoirs)))
+    fig, ax = plt.subplots(figsize=(7.0, 1.8 + 0.7 * len(reservoirs)))
     for i, r in enumerate(reservoirs):
         for s, dy, colour, marker, label in ((r["mining"], -0.15, "C1", "o", "heat-mining time"),
                                              (r["decline"], 0.15, "C4", "v", "decline time")):
@@ -285,7 +287,7 @@ def reservoir_figure(reservoirs):
     ax.set_xscale("log")
     ax.set_xlabel("time [yr]")
     ax.grid(axis="x", alpha=0.3)
-    ax.legend(fontsize=8, loc="best")
+    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.28), ncol=3, frameon=False)  # off the data
     ax.set_title("How long each heat reservoir can feed the output", fontsize=10)
     fig.tight_layout()
     return fig
@@ -298,6 +300,14 @@ METHOD_LABELS = {"plume_rise": "plume rise", "combined": "combined"}
 def method_label(key: str) -> str:
     """``'plume_rise'`` → ``'plume rise'``: a method's key as a reader sees it."""
     return METHOD_LABELS.get(key, key.replace("_", " "))
+
+
+#: Table columns whose cells name methods by their key (shown with ``method_label`` in the report; the CSV keeps keys).
+METHOD_COLUMNS = {"method", "methods", "first", "second", "check"}
+
+
+def _method_text(text: str) -> str:
+    return " + ".join(method_label(k) for k in text.split(" + "))
 
 
 def _slug(name):
@@ -456,19 +466,88 @@ def human_label(column: str) -> str:
     return f"{text} [{unit}" if unit else text
 
 
+#: A table with more columns than this and at most ``TRANSPOSE_ROWS`` rows is shown transposed (it fits the page).
+TRANSPOSE_COLUMNS = 9
+TRANSPOSE_ROWS = 4
+_TRIPLE = re.compile(r"^(?P<base>.+)_(?:p50|median) \[(?P<unit>[^\]]*)\]$")
+
+
+def _combined_intervals(rows: list[dict]) -> tuple[list[dict], set]:
+    """The report's view of a table: each ``X_p50``/``X_p05``/``X_p95`` triple as one cell ``12.3 (11.2–14.1)``,
+    rounded by ``paper_table``'s rule (the CSV keeps every column). Returns the rows and the combined labels."""
+    from .paper_table import paper_cell
+
+    cols = list(dict.fromkeys(k for r in rows for k in r))
+    merged, labels = {}, set()
+    for c in cols:
+        m = _TRIPLE.match(str(c))
+        if m and f"{m['base']}_p05 [{m['unit']}]" in cols and f"{m['base']}_p95 [{m['unit']}]" in cols:
+            unit = m["unit"].replace("degC", "°C").replace("^3", "³").replace("^2", "²")
+            label = f"{human_label(m['base'])} [{unit}], median (5–95 %)"
+            merged[c] = (f"{m['base']}_p05 [{m['unit']}]", f"{m['base']}_p95 [{m['unit']}]", label)
+            labels.add(label)
+    if not merged:
+        return rows, labels
+    drop = {x for lo, hi, _ in merged.values() for x in (lo, hi)}
+    out = []
+    for r in rows:
+        row = {}
+        for c in cols:
+            if c in drop:
+                continue
+            if c in merged:
+                lo, hi, label = merged[c]
+                v, a, b = (_number(r.get(k)) for k in (c, lo, hi))
+                row[label] = paper_cell(v, a, b) if all(math.isfinite(x) for x in (v, a, b)) else "–"
+            elif c in r:
+                row[c] = r[c]
+        out.append(row)
+    return out, labels
+
+
+def _number(v) -> float:
+    try:
+        return float(v)
+    except (TypeError, ValueError):
+        return float("nan")
+
+
+def _cell(v) -> tuple[str, bool]:
+    """A table cell as (HTML text, is a number)."""
+    v = _plain_cell(v)
+    if v is None or (isinstance(v, float) and not math.isfinite(v)):
+        return "–", True
+    if isinstance(v, (bool, np.bool_)):
+        return ("yes" if v else "no"), False
+    if isinstance(v, (int, float, np.integer, np.floating)):
+        return f"{v:.4g}", True
+    return html.escape(str(v)), False
+
+
 def _table_html(rows, raw_columns=False, widths=None):
-    """A table for the report: human column labels (unless ``raw_columns``), optional column widths in %."""
+    """A table for the report: human column labels (unless ``raw_columns``), interval triples in one cell, numbers
+    right-aligned and text left-aligned, transposed when it has many columns and few rows; optional widths in %."""
     if not rows:
         return "<p>(none)</p>"
-    frame = _frame(rows)
-    if not raw_columns:
-        frame.columns = [human_label(str(c)) for c in frame.columns]
-    table = frame.to_html(index=False, float_format=lambda x: f"{x:.4g}", na_rep="–", border=0, classes="t",
-                          escape=True)
-    if widths:
-        cols = "".join(f"<col style='width:{w}%'>" for w in widths)
-        table = table.replace("<thead>", f"<colgroup>{cols}</colgroup><thead>", 1)
-    return f"<div class='wrap'>{table}</div>"
+    rows, done = _combined_intervals(rows)
+    rows = [{k: (_method_text(v) if k in METHOD_COLUMNS and isinstance(v, str) else v) for k, v in r.items()}
+            for r in rows]
+    cols = list(dict.fromkeys(k for r in rows for k in r))
+    heads = [c if raw_columns or c in done else human_label(str(c)) for c in cols]
+    if len(cols) > TRANSPOSE_COLUMNS and len(rows) <= TRANSPOSE_ROWS and not widths:
+        first = [_cell(r.get(cols[0]))[0] for r in rows]
+        body = "".join(
+            f"<tr><th scope='row'>{html.escape(h)}</th>" + "".join(
+                f"<td class='{'n' if num else 's'}'>{text}</td>" for text, num in (_cell(r.get(c)) for r in rows))
+            + "</tr>" for c, h in zip(cols[1:], heads[1:]))
+        head = (f"<tr><th>{html.escape(heads[0])}</th>" + "".join(f"<th>{t}</th>" for t in first) + "</tr>")
+        return f"<div class='wrap'><table class='t tr'><thead>{head}</thead><tbody>{body}</tbody></table></div>"
+    colgroup = ("<colgroup>" + "".join(f"<col style='width:{w}%'>" for w in widths) + "</colgroup>") if widths else ""
+    head = "<tr>" + "".join(f"<th>{html.escape(h)}</th>" for h in heads) + "</tr>"
+    body = "".join("<tr>" + "".join(f"<td class='{'n' if num else 's'}'>{text}</td>"
+                                    for text, num in (_cell(r.get(c)) for c in cols)) + "</tr>" for r in rows)
+    return (f"<div class='wrap'><table class='t'>{colgroup}<thead>{head}</thead><tbody>{body}</tbody></table>"
+            "</div>")
 
 
 def _unit_html(unit: str) -> str:
@@ -484,9 +563,11 @@ def _html(result, tables, images, summary, budget_html="", paper=None, inputs=No
 body{{font-family:system-ui,sans-serif;max-width:62rem;margin:2rem auto;padding:0 1rem;color:#222;line-height:1.45}}
 h1{{font-size:1.6rem}} h2{{font-size:1.2rem;border-bottom:1px solid #ccc;padding-bottom:.2rem;margin-top:2rem}}
 table.t{{border-collapse:collapse;font-size:.8rem;margin:.5rem 0;width:100%;table-layout:fixed}}
-table.t td,table.t th{{padding:.2rem .35rem;border-bottom:1px solid #e3e3e3;text-align:right;overflow-wrap:anywhere}}
-table.t th{{overflow-wrap:anywhere}}
-table.t th{{background:#f4f4f4;font-weight:600;vertical-align:bottom}} table.t td:first-child{{text-align:left}}
+table.t td,table.t th{{padding:.2rem .35rem;border-bottom:1px solid #e3e3e3;text-align:left;overflow-wrap:break-word;
+hyphens:auto}}
+table.t td.n{{text-align:right;font-variant-numeric:tabular-nums}}
+table.t.tr th[scope=row]{{text-align:left;font-weight:500}}
+table.t th{{background:#f4f4f4;font-weight:600;vertical-align:bottom}}
 .caution{{background:#fff4e0;border-left:4px solid #e0a030;padding:.6rem 1rem}}
 .key{{font-size:1.1rem}} .note{{color:#555;font-style:italic}}
 figure{{margin:1rem 0}} figcaption{{font-size:.85rem;color:#555}}

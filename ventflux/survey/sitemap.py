@@ -157,13 +157,18 @@ def site_map_figure(items: list[Place], site_name: str = ""):
         if pts:
             ax.scatter([p.east_m for p in pts], [p.north_m for p in pts], marker=marker, s=size, color=colour,
                        edgecolor="k", linewidth=0.5, label=label, zorder=3)
+    ax.plot([0.0], [0.0], "+", color="0.3", ms=9, label="site's latitude and longitude")
     for p in items:
-        ax.annotate(p.name, (p.east_m, p.north_m), xytext=(4, 4), textcoords="offset points", fontsize=7)
+        power = f" ({p.heat_power_MW:.2g} MW)" if math.isfinite(p.heat_power_MW) else ""
+        ax.annotate(p.name + power, (p.east_m, p.north_m), xytext=(4, 4), textcoords="offset points", fontsize=7)
+    ax.margins(0.12)
     ax.set_aspect("equal", adjustable="datalim")
     ax.set_xlabel("east of the site [m]")
     ax.set_ylabel("north of the site [m]")
     ax.grid(alpha=0.3)
     ax.legend(fontsize=8, loc="best")
-    ax.set_title(f"Site map{': ' + site_name if site_name else ''}: vents and diffuse patches", fontsize=10)
+    what = " and ".join(k for k, there in (("vents", any(p.kind == "vent" for p in items)),
+                                           ("diffuse patches", any(p.kind == "patch" for p in items))) if there)
+    ax.set_title(f"{site_name + ': ' if site_name else ''}positions of the {what} (heat power)", fontsize=10)
     fig.tight_layout()
     return fig
