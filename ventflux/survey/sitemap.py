@@ -56,10 +56,8 @@ def _fields(position) -> dict:
     """A position written as a mapping or an object → ``{'latitude': ..., 'east': ...}`` (what it has)."""
     if position is None:
         return {}
-    if isinstance(position, dict):
-        items = position.items()
-    else:
-        items = ((k, getattr(position, k)) for k in _AXES if hasattr(position, k))
+    items: list[tuple] = (list(position.items()) if isinstance(position, dict) else
+                          [(k, getattr(position, k)) for k in _AXES if hasattr(position, k)])
     out = {}
     for k, v in items:
         axis = _AXES.get(str(k).partition(" [")[0].strip().lower())
