@@ -1,7 +1,7 @@
 """The survey report's parts: paper table rounding, SI keys in the JSON, site map, inputs as written, figures.
 
-Outside checks: the rounding rule of the Particle Data Group's *Review of Particle Physics* (introduction,
-"Rounding"; from memory), and the international nautical mile (1852 m by definition, historically one minute of
+Outside checks: the three-digit rounding rule of the *Review of Particle Physics* (introduction, "Rounding";
+from memory), and the international nautical mile (1852 m by definition, historically one minute of
 arc of latitude) for the site map's projection.
 """
 
@@ -72,7 +72,7 @@ def test_the_brief_s_example_rounds_to_the_uncertainty_s_digits():
 
 
 @pytest.mark.parametrize(("half_width", "decimals"), [
-    # The PDG rule (from memory): leading digits 100-354 keep two significant digits, 355-949 one,
+    # The three-digit rule of the Review of Particle Physics (from memory): leading digits 100-354 keep two significant digits, 355-949 one,
     # 950-999 round up to 1000 and keep two.
     (0.827, 1),   # 827 → one digit: 0.8
     (0.354, 2),   # 354 → two digits: 0.35
@@ -124,8 +124,8 @@ def test_json_keys_are_si_with_the_unit_before_the_statistic():
 
 # ---- the site map --------------------------------------------------------------------------------------------
 def test_one_minute_of_latitude_is_about_a_nautical_mile():
-    # The international nautical mile is 1852 m, historically one minute of latitude: the spherical projection
-    # (mean radius) gives 1853.2 m, well within 0.2 %.
+    # The international nautical mile is 1852 m (a defined unit), historically one minute of latitude: the
+    # spherical projection (mean radius) gives 1853.2 m, well within 0.2 %.
     e, n = sitemap.local_metres({"latitude": 10.0 + 1 / 60, "longitude": -100.0}, 10.0, -100.0)
     assert e == pytest.approx(0.0, abs=1e-9) and n == pytest.approx(1852.0, rel=2e-3)
     e, n = sitemap.local_metres({"latitude": 60.0, "longitude": 1 / 60}, 60.0, 0.0)
@@ -178,7 +178,7 @@ def test_vents_with_positions_get_a_site_map(demo):
         page = report.write_results(result, tmp / "mapped").read_text(encoding="utf-8")
     finally:
         for v in spec.vents:
-            del v.position
+            v.position = None  # as a vent without a position (the fixture is shared)
     assert [p.name for p in on_map] == ["North spire", "South mound"]
     assert on_map[0].north_m == pytest.approx(0.001 * 60 * 1852.0, rel=2e-3)
     assert (tmp / "mapped" / "figures" / "site_map.png").is_file()

@@ -1,7 +1,7 @@
 """The survey's paper-ready summary: each headline value with its 5–95 % interval, rounded for print.
 
-Rounding rule (the rule of the Particle Data Group's *Review of Particle
-Physics*, introduction, section "Rounding"; from memory): the uncertainty is
+Rounding rule (the three-digit rule of the *Review of Particle Physics*,
+introduction, section "Rounding" [1]_; from memory): the uncertainty is
 the smaller distance from the value to an end of its 5–95 % interval. Take its
 three leading significant digits: from 100 to 354 it keeps two significant
 digits, from 355 to 949 one, and from 950 to 999 it is rounded up to 1000 and
@@ -11,6 +11,11 @@ same decimal place as that uncertainty. Examples: 12.3456 with interval
 
 Written as ``summary_table.csv`` and ``summary_table.md`` in the results
 folder, and shown at the top of the report.
+
+References
+----------
+.. [1] Review of Particle Physics, Introduction, "Rounding" (published every two years; the rule has been
+   unchanged for decades).
 """
 
 from __future__ import annotations
@@ -150,4 +155,4 @@ def csv_rows(rows: list[dict]) -> list[dict]:
 #: The rounding rule in one sentence, for the report.
 RULE = ("Median and 5–95 % interval of the Monte Carlo draws, rounded to the significant digits of the smaller "
         "distance from the median to an end of the interval: two digits when its leading digits are 100–354, one "
-        "when 355–949, two of the next decade when 950–999 (the Particle Data Group's rounding rule).")
+        "when 355–949, two of the next decade when 950–999.")

@@ -3,8 +3,8 @@
 Positions may be written as latitude/longitude (degrees) or as local east/north
 offsets in metres from the site's own latitude and longitude (``[site]``).
 Latitude/longitude are mapped to metres with the local equirectangular
-projection, east = R cos(φ₀) Δλ, north = R Δφ, R = 6 371 008.8 m (the IUGG
-mean Earth radius, from memory); across a vent field a few kilometres wide its
+projection, east = R cos(φ₀) Δλ, north = R Δφ, R = 6 371 008.8 m (the mean
+radius (2a + b)/3 of the GRS 80 ellipsoid, from memory); across a vent field a few kilometres wide its
 error is far below a GPS or USBL fix (common practice, no source).
 
 The position of a vent is read from ``VentSpec.position`` and of a patch from
@@ -18,7 +18,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-#: Mean Earth radius [m] (IUGG; from memory).
+#: Mean Earth radius [m]: (2a + b)/3 of the GRS 80 ellipsoid (from memory).
 EARTH_RADIUS_M = 6_371_008.8
 _AXES = {"latitude": "latitude", "lat": "latitude", "longitude": "longitude", "lon": "longitude",
          "east": "east", "north": "north", "x": "east", "y": "north"}
