@@ -72,7 +72,8 @@ def test_the_brief_s_example_rounds_to_the_uncertainty_s_digits():
 
 
 @pytest.mark.parametrize(("half_width", "decimals"), [
-    # The three-digit rule of the Review of Particle Physics (from memory): leading digits 100-354 keep two significant digits, 355-949 one,
+    # The three-digit rule of the Review of Particle Physics (from memory): leading digits 100-354 keep two
+    # significant digits, 355-949 one,
     # 950-999 round up to 1000 and keep two.
     (0.827, 1),   # 827 → one digit: 0.8
     (0.354, 2),   # 354 → two digits: 0.35
