@@ -114,6 +114,7 @@ def test_json_keys_are_si_with_the_unit_before_the_statistic():
     assert json_key("heat_power_std [MW]")[0] == "heat_power_W_sd"
     assert json_key("decline_time_p05 [yr]")[0] == "decline_time_s_p05"
     assert json_key("exit_temperature [degC]")[0] == "exit_temperature_degC"
+    assert json_key("annual_volume_p50 [km^3/yr]")[0] == "volume_flux_ambient_m3_s_p50"
     row = json_row({"heat_power_p05 [MW]": 2.0, "conductive_time [yr]": 1.0, "vent": "A"})
     assert row["heat_power_W_p05"] == 2.0e6 and row["vent"] == "A"
     assert row["conductive_time_s"] == pytest.approx(365.25 * 86400)  # one Julian year (IAU), pint's 'year'

@@ -17,6 +17,9 @@ SI_UNITS = ("W", "J", "s", "kg/s", "m^3/s", "m", "m^2", "m^3", "W/m^2", "W/m", "
 #: Statistic suffixes of a column and their one spelling (``vocabulary``: ``_sd``, ``_p05``/``_p50``/``_p95``).
 STATISTICS = {"mean": "mean", "median": "p50", "p50": "p50", "p05": "p05", "p95": "p95", "std": "sd", "sd": "sd"}
 _DIMENSIONLESS = ("", "1", "dimensionless")
+#: A yearly amount written in SI is a rate per second, named as one (``annual_volume [km^3/yr]`` →
+#: ``volume_flux_ambient_m3_s``: the throughput's volume of ambient seawater per unit time).
+SI_NAMES = {"annual_volume": "volume_flux_ambient", "annual_mass": "mass_flux"}
 
 
 def si_unit(unit: str) -> str:
@@ -58,6 +61,7 @@ def json_key(column: str) -> tuple[str, str, str]:
 
     name, stat, unit = split_column(column)
     si = si_unit(unit)
+    name = SI_NAMES.get(name, name) if si else name
     key = f"{name}_{unit_tag(si)}" if si else name
     return (f"{key}_{stat}" if stat else key), unit, si
 
