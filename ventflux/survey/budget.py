@@ -407,7 +407,7 @@ def figures(budget: SurveyBudget) -> list:
         ax.invert_yaxis()
         ax.set_xlim(0, 1.05)
         ax.set_xlabel("share of the variance [1]")
-        ax.set_title(f"Uncertainty budget: {key}", fontsize=10)
+        ax.set_title(f"Uncertainty budget: {key.replace('_', ' ')}", fontsize=10)
         ax.legend(fontsize=8, loc="best")
         ax.grid(axis="x", alpha=0.3)
         fig.tight_layout()
