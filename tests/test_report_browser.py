@@ -115,3 +115,4 @@ def test_report_has_its_parts_in_human_words(report, browser):
     written = browser.execute_script("return document.body.textContent;")
     assert "351 ± 2 degC" in written  # an input exactly as the demo's survey file writes it
     assert "decline time" in written.lower()
+    assert "The water column is the height of seawater" in written  # the flank's water column explained

@@ -18,6 +18,7 @@ from hypothesis import strategies as st
 
 from ventflux.survey import paper_table, report, sitemap
 from ventflux.survey.inputs_table import input_rows
+from ventflux.survey.rendering import FIGURE_DPI
 from ventflux.survey.run import run_survey
 from ventflux.survey.si_keys import json_key, json_row, summary_json
 from ventflux.survey.spec import load_survey
@@ -235,7 +236,7 @@ def test_the_folder_carries_the_paper_table_si_json_and_print_figures(demo):
     from PIL import Image
 
     with Image.open(out / "figures" / "vents_by_method.png") as im:
-        assert round(im.info["dpi"][0]) == report.FIGURE_DPI
+        assert round(im.info["dpi"][0]) == FIGURE_DPI
     assert "data:image/svg+xml;base64," in page
 
 

@@ -470,7 +470,7 @@ def write_budget(result, out_dir, images_html) -> str:
                                            classes="t")
         parts.append(f"<div class='wrap'>{table}</div>")
     parts += [f"<p>{esc(n)}</p>" for n in b.notes]
-    from .report import render_figure
+    from .rendering import render_figure
 
     for stem, fig, caption in figures(b):
         png, svg = render_figure(fig)  # PNG at print resolution for the folder, SVG for the report

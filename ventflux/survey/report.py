@@ -12,7 +12,6 @@ from __future__ import annotations
 import base64
 import datetime as _dt
 import html
-import io
 import json
 import math
 import platform
@@ -24,6 +23,7 @@ import pandas as pd
 
 from ..errors import InputError
 from ..io import check_results_destination, results_directory, sha256_of
+from .rendering import render_figure
 
 CAUTION = ("These estimates are for scientific analysis. They are not for the operational safety of people or "
            "vehicles near hot fluids: follow the operator's procedures and local codes.")
@@ -140,12 +140,7 @@ CORE_TABLES = {"field_totals": (0, "Field totals"), "field_checks": (1, "Field-w
 CORE_FIGURES = {"vents": ["vents_by_method"], "field_totals": ["focused_diffuse"], "reservoirs": ["reservoirs"]}
 CORE_INTRO = {"method_pairs": "A pair of methods is consistent when their log-ratio differs from zero by at most "
                               "two standard deviations of its own Monte Carlo spread; the combined estimate weights "
-                              "the methods by the inverse covariance of their log draws.",
-              # The flank's section (ventflux.survey.field_sections) names its quantities; this says what one means.
-              "ridge_flank": "The water column is the height of seawater, per square metre of seafloor, that warmed "
-                             "by the given temperature rise as it circulates through the flank's crust would carry "
-                             "off the heat deficit: the deficit divided by the seawater's enthalpy gain per cubic "
-                             "metre at the seafloor's pressure."}
+                              "the methods by the inverse covariance of their log draws."}
 
 
 def _layout(result, tables):
@@ -293,13 +288,9 @@ def reservoir_figure(reservoirs):
     return fig
 
 
-#: How a method key reads in the report's figures and tables.
-METHOD_LABELS = {"plume_rise": "plume rise", "combined": "combined"}
-
-
 def method_label(key: str) -> str:
-    """``'plume_rise'`` → ``'plume rise'``: a method's key as a reader sees it."""
-    return METHOD_LABELS.get(key, key.replace("_", " "))
+    """A method's key as a reader sees it: its words (underscores as spaces)."""
+    return key.replace("_", " ")
 
 
 #: Table columns whose cells name methods by their key (shown with ``method_label`` in the report; the CSV keeps keys).
@@ -412,25 +403,6 @@ def write_results(result, out_dir) -> Path:
         (tmp / "report.html").write_text(_html(result, tables, images, summary, budget_html, paper, inputs),
                                          encoding="utf-8")
     return out_dir / "report.html"
-
-
-#: Resolution of the PNG figures in the results folder [dots per inch] (print quality; the report embeds SVG).
-FIGURE_DPI = 200
-
-
-def render_figure(fig) -> tuple[bytes, bytes]:
-    """A matplotlib figure as (PNG at ``FIGURE_DPI``, SVG): the PNG for the folder, the SVG for the report.
-
-    The SVG keeps its text as text (searchable, small) and carries no date, so a rerun writes the same bytes.
-    """
-    import matplotlib
-
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=FIGURE_DPI)
-    svg = io.BytesIO()
-    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "ventflux"}):
-        fig.savefig(svg, format="svg", metadata={"Date": None})
-    return buf.getvalue(), svg.getvalue()
 
 
 def _clean(v):
