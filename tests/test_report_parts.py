@@ -151,6 +151,11 @@ def test_patch_positions_come_from_the_patch_table_columns():
                            sections={"diffuse": SimpleNamespace(tables={"diffuse_patches": rows})})
     got = {p.name: p for p in sitemap.places(fake)}
     assert set(got) == {"P1", "P2"}  # a patch without a position is left off the map, not placed at 0, 0
+    # or the parsed patch table keeps them (columns of quantities, one entry a patch)
+    table = SimpleNamespace(names=("P3", "P4"), east=Q_([5.0, float("nan")], "m"), north=Q_([1.0, 2.0], "m"))
+    fake.spec.sections = {"diffuse": {"table": table}}
+    more = {p.name: p for p in sitemap.places(fake)}
+    assert set(more) == {"P1", "P2", "P3"} and (more["P3"].east_m, more["P3"].north_m) == (5.0, 1.0)
     assert (got["P1"].east_m, got["P1"].north_m, got["P1"].heat_power_MW) == (10.0, 20.0, 0.05)
     assert got["P2"].east_m == pytest.approx(1852.0 * math.cos(math.radians(10.0)), rel=2e-3)
 

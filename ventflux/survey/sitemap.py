@@ -40,9 +40,10 @@ def _number(v, unit: str) -> float | None:
         return None
     if hasattr(v, "to"):
         try:
-            return float(v.to(unit).magnitude)
+            x = float(v.to(unit).magnitude)
         except Exception:  # a dimension that cannot be this axis
             return None
+        return x if math.isfinite(x) else None
     if hasattr(v, "nominal"):  # an uncertain position: its central value
         return _number(v.nominal, unit)
     try:
@@ -116,16 +117,40 @@ def places(result) -> list[Place]:
             p = power.get(v.name)
             mw = float(_median(p.to("MW").magnitude)) if p is not None else float("nan")
             out.append(Place(v.name, "vent", en[0], en[1], mw))
+    patch_kw = {}
     for s in result.sections.values():
         for rows in s.tables.values():
             for row in rows:
                 if "patch" not in row:
                     continue
+                kw = row.get("heat_power_median [kW]", row.get("heat_power_p50 [kW]", float("nan")))
+                patch_kw[str(row["patch"])] = float(kw)
                 en = local_metres(_table_position(row), lat0, lon0)
                 if en is not None:
-                    kw = row.get("heat_power_median [kW]", row.get("heat_power_p50 [kW]", float("nan")))
                     out.append(Place(str(row["patch"]), "patch", en[0], en[1], float(kw) / 1e3))
+    placed = {p.name for p in out if p.kind == "patch"}
+    for name, position in _patch_table_positions(result.spec):  # positions kept on the parsed patch table
+        en = local_metres(position, lat0, lon0)
+        if en is not None and name not in placed:
+            out.append(Place(name, "patch", en[0], en[1], patch_kw.get(name, float("nan")) / 1e3))
     return out
+
+
+def _patch_table_positions(spec):
+    """(name, position) of each patch of a parsed patch table (``names`` and per-patch ``positions``, or
+    ``latitude``/``longitude`` or ``east``/``north`` columns), in every section that has one."""
+    for parsed in (getattr(spec, "sections", None) or {}).values():
+        t = parsed.get("table") if isinstance(parsed, dict) else None
+        names = getattr(t, "names", None)
+        if t is None or names is None:
+            continue
+        positions = getattr(t, "positions", None)
+        if positions is not None:
+            yield from ((str(n), p) for n, p in zip(names, positions))
+            continue
+        cols = {a: getattr(t, a) for a in ("latitude", "longitude", "east", "north") if getattr(t, a, None) is not None}
+        for i, n in enumerate(names):
+            yield str(n), {a: v[i] for a, v in cols.items()}
 
 
 def _median(a) -> float:
