@@ -116,3 +116,22 @@ def test_report_has_its_parts_in_human_words(report, browser):
     assert "351 ± 2 degC" in written  # an input exactly as the demo's survey file writes it
     assert "decline time" in written.lower()
     assert "The water column is the height of seawater" in written  # the flank's water column explained
+
+
+def test_report_fits_an_a4_page_in_print(report, browser):
+    # A4 is 210 mm wide: 794 CSS px at 96 px per inch (the CSS reference pixel); the print stylesheet applies.
+    browser.set_window_size(794, 1100)
+    try:
+        browser.get(report.as_uri())
+        browser.execute_cdp_cmd("Emulation.setEmulatedMedia", {"media": "print"})
+        width = browser.execute_script("return document.documentElement.clientWidth;")
+        too_wide = browser.execute_script("""
+            const w = arguments[0];
+            return [...document.querySelectorAll('body *')]
+                .filter(e => e.getBoundingClientRect().right > w + 0.5)
+                .map(e => e.tagName + (e.className ? '.' + e.className : '') + ' ' +
+                          Math.round(e.getBoundingClientRect().right));""", width)
+        assert too_wide == []
+    finally:
+        browser.execute_cdp_cmd("Emulation.setEmulatedMedia", {"media": ""})
+        browser.set_window_size(1200, 900)
