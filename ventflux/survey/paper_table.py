@@ -137,8 +137,7 @@ def markdown(rows: list[dict], title: str = "") -> str:
     """The paper table as a Markdown pipe table (one column of value and interval)."""
     head = (f"**{title}**\n\n" if title else "") + "| Quantity | Unit | Median (5–95 %) |\n|---|---|---:|\n"
     body = "\n".join(f"| {r['quantity']} | {_unit_text(r['unit'])} | {r['value (5–95 %)']} |" for r in rows)
-    note = ("\n\nMedian and 5–95 % interval of the Monte Carlo draws; rounded to the significant digits of the "
-            "smaller half-interval (two when its leading digits are 100–354, else one).\n")
+    note = f"\n\n{RULE}\n"
     return head + body + note
 
 

@@ -121,7 +121,7 @@ def tables_of(result) -> dict:
                     "decline_time_p95 [yr]": r["decline"].p95.magnitude,
                     "conductive_time [yr]": r["conductive"],
                     "conductive_length": _labels(r).get("conductive_length", ""),
-                    "pore_fluid_phase": _labels(r).get("pore_fluid_phase", "none (no pore fluid)"),
+                    "pore_fluid_phase": _pore_fluid_phase(r),
                     "controlling": r["controlling"]})
     if res:
         t["reservoirs"] = res
@@ -175,6 +175,19 @@ def _figure_tables(result):
 
 def _plain(s):
     return {k: float(getattr(s, attr).magnitude) for k, attr in STATS}
+
+
+def _pore_fluid_phase(r) -> str:
+    """The pore fluid's phase, "none" for a reservoir without porosity, "not determined" when the answer has none."""
+    phase = _labels(r).get("pore_fluid_phase")
+    if phase:
+        return str(phase)
+    inputs = getattr(r.get("answer"), "inputs", {}) or {}
+    try:
+        porosity = float(str(inputs.get("porosity", "nan")).split()[0])
+    except ValueError:
+        porosity = float("nan")
+    return "none (no porosity)" if porosity == 0 else "not determined"
 
 
 def _labels(r) -> dict:
