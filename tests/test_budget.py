@@ -92,9 +92,11 @@ def test_results_folder_carries_the_budget(tmp_path):
     data = json.loads((out / "budget.json").read_text(encoding="utf-8"))
     assert data["mode"] == "draws" and len(data["sentences"]) == 3
     assert {r["result"] for r in data["rows"]} >= {"V0: orifice", "field total"}
-    assert "width_if_known_MW" in data["rows"][0] and "(interactions and unnamed randomness)" in \
+    assert "width_if_known_W" in data["rows"][0] and "(interactions and unnamed randomness)" in \
         {r["input"] for r in data["rows"]}
-    assert "width_if_known [MW]" in (out / "tables" / "budget.csv").read_text(encoding="utf-8").splitlines()[0]
+    header = (out / "tables" / "budget.csv").read_text(encoding="utf-8").splitlines()[0].split(",")
+    assert {"width_p05_p95", "width_if_known", "unit"} <= set(header)  # one pair of widths, their unit by row
+    assert not [c for c in header if c.startswith("width") and c not in ("width_p05_p95", "width_if_known")]
     assert (out / "figures" / "budget_field-total.png").is_file()
     assert "Uncertainty budget" in html and "V1: measure" in html
 

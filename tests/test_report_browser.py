@@ -1,13 +1,16 @@
 """The demo report opened in a real, headless browser, as a colleague would open it.
 
 Asserts what a reader needs (no outside numeric source; behaviour checks): no console errors, every image
-decoded, nothing wider than a 1,200 px window, and the safety caution visible near the top. Needs Debian's
+decoded (the core's figures as SVG), nothing wider than a 1,200 px window, the safety caution visible near the
+top, the paper-ready summary table, the site map (or the note that no position is given), the inputs as written,
+and no snake_case in any table heading. Needs Debian's
 ``chromium`` and ``chromium-driver`` (``.ci/run`` installs them); skipped with a message where they are absent.
 """
 
 from __future__ import annotations
 
 import os
+import re
 import shutil
 import subprocess
 import sys
@@ -82,3 +85,53 @@ def test_report_reads_well_at_1200_px(report, browser):
     top, height, visibility, display = caution
     assert height > 0 and visibility == "visible" and display != "none"
     assert top < 900, "the caution is below the first screen"
+
+
+def test_report_has_its_parts_in_human_words(report, browser):
+    browser.get(report.as_uri())
+    headings = browser.execute_script("return [...document.querySelectorAll('h2')].map(h => h.textContent);")
+    for h in ("Summary for a paper", "Site map", "Inputs as written", "Heat reservoirs"):
+        assert h in headings, headings
+    kinds = browser.execute_script("""
+        return [...document.images].map(i => [i.src.slice(5, i.src.indexOf(';')), i.naturalWidth > 0,
+                                               i.getBoundingClientRect().width > 0]);""")
+    assert any(k == "image/svg+xml" for k, _, _ in kinds), "no figure is embedded as SVG"
+    assert all(ok and shown for _, ok, shown in kinds)
+    # the paper table: value and interval cells such as "71 (53–94)"
+    cells = browser.execute_script("""
+        const h = [...document.querySelectorAll('h2')].find(x => x.textContent === 'Summary for a paper');
+        let e = h.nextElementSibling;
+        while (e && !e.querySelector('table')) e = e.nextElementSibling;
+        return [...e.querySelectorAll('td')].map(td => td.textContent);""")
+    assert any(re.fullmatch(r"[0-9.]+ \([0-9.]+–[0-9.]+\)", c) for c in cells), cells
+    # the site map: a figure when positions are given, else one visible sentence saying none are
+    site = browser.execute_script("""
+        const h = [...document.querySelectorAll('h2')].find(x => x.textContent === 'Site map');
+        const e = h.nextElementSibling;
+        return [e.tagName, e.textContent, e.getBoundingClientRect().height];""")
+    assert site[0] == "FIGURE" or ("No site map" in site[1] and site[2] > 0), site
+    heads = browser.execute_script("return [...document.querySelectorAll('th')].map(x => x.textContent);")
+    assert heads and not [h for h in heads if re.search(r"[a-z]_[a-z]", h)]
+    written = browser.execute_script("return document.body.textContent;")
+    assert "351 ± 2 degC" in written  # an input exactly as the demo's survey file writes it
+    assert "decline time" in written.lower()
+    assert "The water column is the height of seawater" in written  # the flank's water column explained
+
+
+def test_report_fits_an_a4_page_in_print(report, browser):
+    # A4 is 210 mm wide: 794 CSS px at 96 px per inch (the CSS reference pixel); the print stylesheet applies.
+    browser.set_window_size(794, 1100)
+    try:
+        browser.get(report.as_uri())
+        browser.execute_cdp_cmd("Emulation.setEmulatedMedia", {"media": "print"})
+        width = browser.execute_script("return document.documentElement.clientWidth;")
+        too_wide = browser.execute_script("""
+            const w = arguments[0];
+            return [...document.querySelectorAll('body *')]
+                .filter(e => e.getBoundingClientRect().right > w + 0.5)
+                .map(e => e.tagName + (e.className ? '.' + e.className : '') + ' ' +
+                          Math.round(e.getBoundingClientRect().right));""", width)
+        assert too_wide == []
+    finally:
+        browser.execute_cdp_cmd("Emulation.setEmulatedMedia", {"media": ""})
+        browser.set_window_size(1200, 900)

@@ -132,7 +132,7 @@ def test_results_folder_is_complete_self_contained_and_inputs_untouched(tmp_path
     assert summary["provenance"]["seed"] == 5
     assert "ventflux" in summary["provenance"]["versions"]
     page = html_path.read_text()
-    assert "data:image/png;base64," in page and "http://" not in page and "https://" not in page
+    assert "data:image/svg+xml;base64," in page and "http://" not in page and "https://" not in page
     assert "operational safety" in page
     assert (out / "tables" / "vents.csv").exists()
     assert not [p for p in tmp_path.iterdir() if p.name.endswith(".part")]

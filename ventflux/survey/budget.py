@@ -82,7 +82,7 @@ class SurveyBudget:
                          "fraction_of_run": self.elapsed / self.run_elapsed if self.run_elapsed else None,
                          "evaluations_multiple": self.evaluations_multiple},
                 "inputs": self.inputs, "sentences": self.sentences(), "notes": self.notes,
-                "rows": [{_json_key(k): v for k, v in r.items()} for r in self.rows()]}
+                "rows": [_json_row(r) for r in self.rows()]}
 
     def sentences(self) -> list[str]:
         """One sentence per vent (which input to measure better, and what knowing it would buy), then the field."""
@@ -116,12 +116,32 @@ def _pct(x: float) -> str:
     return f"{x:.1%}" if abs(x) < 0.01 else f"{x:.0%}"
 
 
-def _json_key(column: str) -> str:
-    """``'width_if_known [MW]'`` → ``'width_if_known_MW'``: units in JSON keys as in ``summary.json``."""
-    from ..uncertainty import unit_tag
+def _json_row(row: dict) -> dict:
+    """A budget row for JSON: widths in SI with the unit in the key (``width_if_known_W``; a ratio's bare)."""
+    from .si_keys import json_row
 
-    name, _, unit = column.partition(" [")
-    return f"{name}_{unit_tag(unit.rstrip(']'))}" if unit else name
+    return json_row(row)
+
+
+def csv_rows(rows: list[dict]) -> list[dict]:
+    """Budget rows for ``tables/budget.csv``: one pair of width columns and a ``unit`` column.
+
+    Each result has its own unit (MW for a heat power, 1 for the diffuse fraction), so the widths cannot carry
+    one unit in their column name; the ``unit`` column names it row by row.
+    """
+    out = []
+    for r in rows:
+        row, unit = {}, ""
+        for k, v in r.items():
+            name, _, u = str(k).partition(" [")
+            if name in ("width_p05_p95", "width_if_known"):
+                unit = u.rstrip("]") or unit
+                row[name] = v
+            else:
+                row[k] = v
+        row["unit"] = unit or "1"
+        out.append(row)
+    return out
 
 
 def label(name: str, quote: str = "'") -> str:
@@ -368,7 +388,8 @@ def figures(budget: SurveyBudget) -> list:
         ind = budget.indices[key]
         order = ind.order()[:FIGURE_INPUTS]
         neg = ind.negligible[order]
-        labels = [label(ind.names[i], "") + (" (negligible)" if g else "") for i, g in zip(order, neg)]
+        labels = [label(ind.names[i], "").replace("_", " ") + (" (negligible)" if g else "")  # as a reader says it
+                  for i, g in zip(order, neg)]
         design = ind.estimator == sensitivity.PICK_FREEZE
         if not design:  # totals from the draws are only bounds (first order + the unattributed share): one bar
             labels.append("not explained by any single input")
@@ -385,8 +406,8 @@ def figures(budget: SurveyBudget) -> list:
         ax.set_yticks(y, labels, fontsize=8)
         ax.invert_yaxis()
         ax.set_xlim(0, 1.05)
-        ax.set_xlabel("share of the variance")
-        ax.set_title(f"Uncertainty budget: {key}", fontsize=10)
+        ax.set_xlabel("share of the variance [1]")
+        ax.set_title(f"Uncertainty budget: {key.replace('_', ' ')}", fontsize=10)
         ax.legend(fontsize=8, loc="best")
         ax.grid(axis="x", alpha=0.3)
         fig.tight_layout()
@@ -417,7 +438,6 @@ def write_budget(result, out_dir, images_html) -> str:
     ``images_html(stem, caption, png_bytes)`` renders a figure for the report.
     """
     import html
-    import io
     import json
 
     import matplotlib.pyplot as plt
@@ -430,7 +450,7 @@ def write_budget(result, out_dir, images_html) -> str:
         return ("<h2>Uncertainty budget</h2><p>Every input of this survey is exact: there is no variance to "
                 "attribute to an input.</p>")
     b = survey_budget(result, mode)
-    pd.DataFrame(b.rows()).to_csv(out_dir / "tables" / "budget.csv", index=False)
+    pd.DataFrame(csv_rows(b.rows())).to_csv(out_dir / "tables" / "budget.csv", index=False)
     from ..io import json_ready as _clean
 
     (out_dir / "budget.json").write_text(json.dumps(_clean(b.as_dict()), indent=2, ensure_ascii=False) + "\n",
@@ -450,12 +470,13 @@ def write_budget(result, out_dir, images_html) -> str:
                                            classes="t")
         parts.append(f"<div class='wrap'>{table}</div>")
     parts += [f"<p>{esc(n)}</p>" for n in b.notes]
+    from .rendering import render_figure
+
     for stem, fig, caption in figures(b):
-        buf = io.BytesIO()
-        fig.savefig(buf, format="png", dpi=110)
+        png, svg = render_figure(fig)  # PNG at print resolution for the folder, SVG for the report
         plt.close(fig)
-        (out_dir / "figures" / f"{stem}.png").write_bytes(buf.getvalue())
-        parts.append(images_html(stem, caption, buf.getvalue()))
+        (out_dir / "figures" / f"{stem}.png").write_bytes(png)
+        parts.append(images_html(stem, caption, svg))
     parts.append("<p>Uncertain inputs and their distributions: " +
                  esc("; ".join(f"{label(k, '')} = {v}" for k, v in b.inputs.items())) + ".</p>")
     return "\n".join(parts)

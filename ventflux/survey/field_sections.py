@@ -16,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..units import Q_
-from .api import SectionEstimate, SurveySection
+from .api import ReportPart, SectionEstimate, SurveySection
 from .plume_method import PLUME_RISE
 
 
@@ -40,6 +40,13 @@ def _estimate_field_plume(spec, ctx):
 FIELD_PLUME = SurveySection(key="field_plume", summary="rise of the plume above the whole field, as a check on the "
                                                        "sum of vents and patches (not added to the totals)",
                             parse=_parse_field_plume, estimate=_estimate_field_plume)
+
+
+#: What the flank's water column means, under its table in the report.
+FLANK_WATER_COLUMN = ("The water column is the height of seawater, per square metre of seafloor, that warmed by the "
+                      "given temperature rise as it circulates through the flank's crust would carry off the heat "
+                      "deficit: the deficit divided by the seawater's enthalpy gain per cubic metre at the "
+                      "seafloor's pressure.")
 
 
 def _parse_flank(f, ctx):
@@ -86,4 +93,5 @@ def _estimate_flank(spec, ctx):
 
 RIDGE_FLANK = SurveySection(key="ridge_flank", summary="ridge-flank heat flow against a conductive cooling reference: "
                                                        "advective heat deficit and circulated seawater",
-                            parse=_parse_flank, estimate=_estimate_flank)
+                            parse=_parse_flank, estimate=_estimate_flank,
+                            report=ReportPart(intro={"ridge_flank": FLANK_WATER_COLUMN}))

@@ -12,9 +12,10 @@ from __future__ import annotations
 import base64
 import datetime as _dt
 import html
-import io
 import json
+import math
 import platform
+import re
 from pathlib import Path
 
 import numpy as np
@@ -22,15 +23,19 @@ import pandas as pd
 
 from ..errors import InputError
 from ..io import check_results_destination, results_directory, sha256_of
+from .rendering import render_figure
 
 CAUTION = ("These estimates are for scientific analysis. They are not for the operational safety of people or "
            "vehicles near hot fluids: follow the operator's procedures and local codes.")
 
 
+#: The statistics of a Monte Carlo summary in a table, in their one spelling (``ventflux.vocabulary``).
+STATS = (("p50", "median"), ("p05", "p05"), ("p95", "p95"), ("mean", "mean"), ("sd", "std"))
+
+
 def _mw(s):
     s = s.to("MW")
-    return {"median [MW]": s.median.magnitude, "p05 [MW]": s.p05.magnitude, "p95 [MW]": s.p95.magnitude,
-            "mean [MW]": s.mean.magnitude, "std [MW]": s.std.magnitude}
+    return {f"{k} [MW]": float(getattr(s, attr).magnitude) for k, attr in STATS}
 
 
 def check_output_location(out_dir: Path, spec):
@@ -55,8 +60,8 @@ def tables_of(result) -> dict:
         if vr.throughput is not None:
             m = vr.throughput.mass_flux.to("kg/s").magnitude
             row["exit_temperature [degC]"] = float(_nom(vr.exit_temperature).to("degC").magnitude)
-            row["mass_flux_median [kg/s]"] = float(np.median(m))
-            row["annual_volume_median [km^3/yr]"] = float(np.median(vr.throughput.annual_volume.to("km^3/yr").m))
+            row["mass_flux_p50 [kg/s]"] = float(np.median(m))
+            row["annual_volume_p50 [km^3/yr]"] = float(np.median(vr.throughput.annual_volume.to("km^3/yr").m))
         vents.append(row)
     t["vents"] = vents
     methods, pairs = [], []
@@ -108,11 +113,16 @@ def tables_of(result) -> dict:
     for r in result.reservoirs:
         res.append({"reservoir": r["name"], "supplied_by": r["supplies"],
                     "heat [J]": float(np.atleast_1d(r["heat"].total.to("J").magnitude)[0]),
-                    "heat_mining_time_median [yr]": r["mining"].median.magnitude,
+                    "heat_mining_time_p50 [yr]": r["mining"].median.magnitude,
                     "heat_mining_time_p05 [yr]": r["mining"].p05.magnitude,
                     "heat_mining_time_p95 [yr]": r["mining"].p95.magnitude,
-                    "decline_time_median [yr]": r["decline"].median.magnitude,
-                    "conductive_time [yr]": r["conductive"], "controlling": r["controlling"]})
+                    "decline_time_p50 [yr]": r["decline"].median.magnitude,
+                    "decline_time_p05 [yr]": r["decline"].p05.magnitude,
+                    "decline_time_p95 [yr]": r["decline"].p95.magnitude,
+                    "conductive_time [yr]": r["conductive"],
+                    "conductive_length": _labels(r).get("conductive_length", ""),
+                    "pore_fluid_phase": _pore_fluid_phase(r),
+                    "controlling": r["controlling"]})
     if res:
         t["reservoirs"] = res
     return t
@@ -164,8 +174,26 @@ def _figure_tables(result):
 
 
 def _plain(s):
-    return {"mean": float(s.mean.magnitude), "median": float(s.median.magnitude), "p05": float(s.p05.magnitude),
-            "p95": float(s.p95.magnitude), "std": float(s.std.magnitude)}
+    return {k: float(getattr(s, attr).magnitude) for k, attr in STATS}
+
+
+def _pore_fluid_phase(r) -> str:
+    """The pore fluid's phase, "none" for a reservoir without porosity, "not determined" when the answer has none."""
+    phase = _labels(r).get("pore_fluid_phase")
+    if phase:
+        return str(phase)
+    inputs = getattr(r.get("answer"), "inputs", {}) or {}
+    try:
+        porosity = float(str(inputs.get("porosity", "nan")).split()[0])
+    except ValueError:
+        porosity = float("nan")
+    return "none (no porosity)" if porosity == 0 else "not determined"
+
+
+def _labels(r) -> dict:
+    """A reservoir's labels (``summarizer.reservoir_answer``: controlling process, conductive length, phase)."""
+    ans = r.get("answer")
+    return dict(getattr(ans, "labels", {}) or {})
 
 
 def _nom(q):
@@ -198,7 +226,7 @@ def figures_of(result) -> list:
                 items.append(("combined", vr.comparison.combined_draws.to("MW").magnitude))
             for k, d in items:
                 lo, med, hi = np.percentile(d[np.isfinite(d)], [5, 50, 95])
-                rows.append((y, f"{vr.name}: {k}", lo, med, hi, k))
+                rows.append((y, f"{vr.name}: {method_label(k)}", lo, med, hi, k))
                 y += 1
             y += 0.5
         fig, ax = plt.subplots(figsize=(7.5, 1.0 + 0.4 * len(rows)))
@@ -221,7 +249,7 @@ def figures_of(result) -> list:
             d = result.split.draws[k].to("MW").magnitude
             ax.hist(d, bins=60, histtype="step", color=c, label=k, density=True)
         ax.set_xlabel("heat power [MW]")
-        ax.set_ylabel("probability density")
+        ax.set_ylabel("probability density [1/MW]")
         frac = result.split.diffuse_fraction
         ax.set_title(f"Focused and diffuse discharge (diffuse fraction {frac.median.m:.2f}, "
                      f"5–95 %: {frac.p05.m:.2f}–{frac.p95.m:.2f})", fontsize=9)
@@ -229,19 +257,17 @@ def figures_of(result) -> list:
         fig.tight_layout()
         figs.append(("focused_diffuse", fig, "Monte Carlo distributions of the focused, diffuse and total output."))
     if result.reservoirs:
-        fig, ax = plt.subplots(figsize=(6.5, 0.8 + 0.6 * len(result.reservoirs)))
-        for i, r in enumerate(result.reservoirs):
-            m = r["mining"]
-            ax.errorbar(m.median.m, i, xerr=[[m.median.m - m.p05.m], [m.p95.m - m.median.m]], fmt="o", color="C1",
-                        capsize=3, label="heat-mining time" if i == 0 else None)
-            ax.plot(r["conductive"], i, "s", color="C2", label="conductive time L²/κ" if i == 0 else None)
-        ax.set_yticks(range(len(result.reservoirs)), [r["name"] for r in result.reservoirs])
-        ax.set_xscale("log")
-        ax.set_xlabel("time [yr]")
-        ax.legend(fontsize=8)
-        ax.invert_yaxis()
-        fig.tight_layout()
-        figs.append(("reservoirs", fig, "How long each heat-reservoir hypothesis can feed the output."))
+        figs.append(("reservoirs", reservoir_figure(result.reservoirs),
+                     "How long each heat-reservoir hypothesis can feed the output: the heat-mining time (stored heat "
+                     "over today's output), the decline time of an output that falls as the reservoir cools, and "
+                     "the conductive time L²/κ (median and 5–95 % interval)."))
+    from .sitemap import places, site_map_figure
+
+    on_map = places(result)
+    if on_map:
+        figs.append(("site_map", site_map_figure(on_map, result.spec.site.name),
+                     "Vents and diffuse patches at their positions, in metres east and north of the site's latitude "
+                     "and longitude."))
     for vr in result.vents:
         for e in vr.methods.values():
             figs += [(f"{_slug(vr.name)}_{stem}", f, cap) for stem, f, cap in e.figures]
@@ -250,33 +276,71 @@ def figures_of(result) -> list:
     return figs
 
 
+def reservoir_figure(reservoirs):
+    """Heat-mining time, decline time and conductive time of each reservoir hypothesis, on one log axis."""
+    import matplotlib.pyplot as plt
+
+    fig, ax = plt.subplots(figsize=(7.0, 1.8 + 0.7 * len(reservoirs)))
+    for i, r in enumerate(reservoirs):
+        for s, dy, colour, marker, label in ((r["mining"], -0.15, "C1", "o", "heat-mining time"),
+                                             (r["decline"], 0.15, "C4", "v", "decline time")):
+            med, lo, hi = s.median.m, s.p05.m, s.p95.m
+            ax.errorbar(med, i + dy, xerr=[[med - lo], [hi - med]], fmt=marker, color=colour, capsize=3,
+                        label=label if i == 0 else None)
+        ax.plot(r["conductive"], i, "s", color="C2", label="conductive time L²/κ" if i == 0 else None)
+        ax.annotate(f"decline {r['decline'].median.m:.3g} yr", (r["decline"].median.m, i + 0.15),
+                    xytext=(6, -10), textcoords="offset points", fontsize=7, color="C4")
+    ax.set_yticks(range(len(reservoirs)), [r["name"] for r in reservoirs])
+    ax.set_ylim(len(reservoirs) - 0.4, -0.6)
+    ax.set_xscale("log")
+    ax.set_xlabel("time [yr]")
+    ax.grid(axis="x", alpha=0.3)
+    ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.28), ncol=3, frameon=False)  # off the data
+    ax.set_title("How long each heat reservoir can feed the output", fontsize=10)
+    fig.tight_layout()
+    return fig
+
+
+def method_label(key: str) -> str:
+    """A method's key as a reader sees it: its words (underscores as spaces)."""
+    return key.replace("_", " ")
+
+
+#: Table columns whose cells name methods by their key (shown with ``method_label`` in the report; the CSV keeps keys).
+METHOD_COLUMNS = {"method", "methods", "first", "second", "check"}
+
+
+def _method_text(text: str) -> str:
+    return " + ".join(method_label(k) for k in text.split(" + "))
+
+
 def _slug(name):
     return "".join(ch if ch.isalnum() else "-" for ch in name.lower()).strip("-") or "survey"
 
 
 # ---- summary and provenance ---------------------------------------------------
 def summary_of(result, tables) -> dict:
+    """The JSON summary: SI units with the unit in every key, statistics spelled ``_p05``/``_p50``/``_p95``/``_sd``
+    (``ventflux.vocabulary``); table rows converted by ``ventflux.survey.si_keys``."""
     from ..registry import distribution_versions
+    from .si_keys import json_row, summary_json
 
     spec = result.spec
     out = {"scenario": spec.site.name, "cruise": spec.site.cruise, "complete": True,
            "created": _dt.datetime.now(_dt.UTC).isoformat(timespec="seconds")}
-    if result.focused is not None:
-        out.update(result.focused.summary.as_dict("focused_heat_power", "MW"))
-    if result.diffuse is not None:
-        out.update(result.diffuse.summary.as_dict("diffuse_heat_power", "MW"))
-    if result.conductive is not None:
-        out.update(result.conductive.summary.as_dict("conductive_heat_power", "MW"))
+    for name, ft in (("focused_heat_power", result.focused), ("diffuse_heat_power", result.diffuse),
+                     ("conductive_heat_power", result.conductive)):
+        if ft is not None:
+            out.update(summary_json(name, ft.summary, "MW"))
     if result.total is not None:
-        out.update(result.total.as_dict("total_heat_power", "MW"))
+        out.update(summary_json("total_heat_power", result.total, "MW"))
     if result.split is not None:
-        out.update(result.split.diffuse_fraction.as_dict("diffuse_fraction", "dimensionless"))
+        out.update(summary_json("diffuse_fraction", result.split.diffuse_fraction, "1"))
     for k, s in result.water.items():
-        unit = "kg/s" if "mass" in k else "m^3/s"
-        out.update(s.as_dict(k, unit))
-    out["vents"] = tables["vents"]
-    out["method_pairs"] = tables.get("method_pairs", [])
-    out["reservoirs"] = tables.get("reservoirs", [])
+        out.update(summary_json(k, s, "kg/s" if "mass" in k else "m^3/s"))
+    out["vents"] = [json_row(r) for r in tables["vents"]]
+    out["method_pairs"] = [json_row(r) for r in tables.get("method_pairs", [])]
+    out["reservoirs"] = [json_row(r) for r in tables.get("reservoirs", [])]
     out["provenance"] = {
         "versions": {**distribution_versions(), "python": platform.python_version(), **_library_versions()},
         "inputs": {str(Path(p)): {"role": role, "sha256": sha256_of(p)} for p, role in spec.input_files.items()},
@@ -285,7 +349,7 @@ def summary_of(result, tables) -> dict:
         "max_unphysical_share": getattr(spec, "max_unphysical", 0.05),
         "shared_inputs": result.shared_inputs,
         "defaults_used": spec.defaults_used,
-        "pressure_Pa": float(result.pressure.to("Pa").magnitude),
+        "absolute_pressure_Pa": float(result.pressure.to("Pa").magnitude),
         "vent_fluid_model": "iapws95-water (pure water, IAPWS-95 via CoolProp)",
         "ambient_seawater_model": "TEOS-10 via gsw",
         "method_combination": "best linear unbiased estimate on log power with the draws' covariance, "
@@ -319,29 +383,38 @@ def write_results(result, out_dir) -> Path:
     summary = summary_of(result, tables)
     import matplotlib.pyplot as plt
 
+    from . import paper_table
+    from .inputs_table import input_rows
+
+    paper = paper_table.table_rows(result)
+    inputs = input_rows(result.spec)
     with results_directory(out_dir, "--out") as tmp:
         (tmp / "tables").mkdir()
         (tmp / "figures").mkdir()
         for name, rows in tables.items():
             _frame(rows).to_csv(tmp / "tables" / f"{name}.csv", index=False)
+        _frame(inputs).to_csv(tmp / "tables" / "inputs.csv", index=False)
+        _frame(paper_table.csv_rows(paper)).to_csv(tmp / "summary_table.csv", index=False)
+        (tmp / "summary_table.md").write_text(paper_table.markdown(paper, f"Heat and water discharge: "
+                                                                          f"{result.spec.site.name}"),
+                                              encoding="utf-8")
         images = []
         for stem, fig, caption in figs:
-            if isinstance(fig, bytes):  # a method may hand over a finished PNG
-                data = fig
+            if isinstance(fig, bytes):  # a method may hand over a finished PNG: shown as it is
+                png = shown = fig
             else:
-                buf = io.BytesIO()
-                fig.savefig(buf, format="png", dpi=110)
+                png, shown = render_figure(fig)
                 plt.close(fig)
-                data = buf.getvalue()
-            (tmp / "figures" / f"{stem}.png").write_bytes(data)
-            images.append((stem, caption, data))
+            (tmp / "figures" / f"{stem}.png").write_bytes(png)
+            images.append((stem, caption, shown))
         (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2, ensure_ascii=False) + "\n",
                                           encoding="utf-8")
         # Uncertainty budget: tables/budget.csv, budget.json, its figures and its report section.
         from .budget import write_budget
 
         budget_html = write_budget(result, tmp, _figure)
-        (tmp / "report.html").write_text(_html(result, tables, images, summary, budget_html), encoding="utf-8")
+        (tmp / "report.html").write_text(_html(result, tables, images, summary, budget_html, paper, inputs),
+                                         encoding="utf-8")
     return out_dir / "report.html"
 
 
@@ -361,7 +434,8 @@ def _frame(rows):
     return pd.DataFrame([{k: _plain_cell(v) for k, v in r.items()} for r in rows])
 
 
-_LABEL_WORDS = {"p05": "5 %", "p95": "95 %", "std": "s.d.", "median": "median", "degC": "°C", "MW": "MW"}
+_LABEL_WORDS = {"p05": "5 %", "p95": "95 %", "p50": "median", "std": "s.d.", "sd": "s.d.", "median": "median",
+                "degC": "°C", "MW": "MW"}
 
 
 def human_label(column: str) -> str:
@@ -373,19 +447,99 @@ def human_label(column: str) -> str:
     words = [_LABEL_WORDS.get(w, w) for w in name.replace("_", " ").split()]
     text = " ".join(words)
     text = text[:1].upper() + text[1:]
+    unit = unit.replace("degC", "°C").replace("^3", "³").replace("^2", "²")
     return f"{text} [{unit}" if unit else text
 
 
-def _table_html(rows):
+#: A table with more columns than this and at most ``TRANSPOSE_ROWS`` rows is shown transposed (it fits the page).
+TRANSPOSE_COLUMNS = 9
+TRANSPOSE_ROWS = 4
+_TRIPLE = re.compile(r"^(?P<base>.+)_(?:p50|median) \[(?P<unit>[^\]]*)\]$")
+
+
+def _combined_intervals(rows: list[dict]) -> tuple[list[dict], set]:
+    """The report's view of a table: each ``X_p50``/``X_p05``/``X_p95`` triple as one cell ``12.3 (11.2–14.1)``,
+    rounded by ``paper_table``'s rule (the CSV keeps every column). Returns the rows and the combined labels."""
+    from .paper_table import paper_cell
+
+    cols = list(dict.fromkeys(k for r in rows for k in r))
+    merged, labels = {}, set()
+    for c in cols:
+        m = _TRIPLE.match(str(c))
+        if m and f"{m['base']}_p05 [{m['unit']}]" in cols and f"{m['base']}_p95 [{m['unit']}]" in cols:
+            unit = m["unit"].replace("degC", "°C").replace("^3", "³").replace("^2", "²")
+            label = f"{human_label(m['base'])} [{unit}], median (5–95 %)"
+            merged[c] = (f"{m['base']}_p05 [{m['unit']}]", f"{m['base']}_p95 [{m['unit']}]", label)
+            labels.add(label)
+    if not merged:
+        return rows, labels
+    drop = {x for lo, hi, _ in merged.values() for x in (lo, hi)}
+    out = []
+    for r in rows:
+        row = {}
+        for c in cols:
+            if c in drop:
+                continue
+            if c in merged:
+                lo, hi, label = merged[c]
+                v, a, b = (_number(r.get(k)) for k in (c, lo, hi))
+                row[label] = paper_cell(v, a, b) if all(math.isfinite(x) for x in (v, a, b)) else "–"
+            elif c in r:
+                row[c] = r[c]
+        out.append(row)
+    return out, labels
+
+
+def _number(v) -> float:
+    try:
+        return float(v)
+    except (TypeError, ValueError):
+        return float("nan")
+
+
+def _cell(v) -> tuple[str, bool]:
+    """A table cell as (HTML text, is a number)."""
+    v = _plain_cell(v)
+    if v is None or (isinstance(v, float) and not math.isfinite(v)):
+        return "–", True
+    if isinstance(v, (bool, np.bool_)):
+        return ("yes" if v else "no"), False
+    if isinstance(v, (int, float, np.integer, np.floating)):
+        return f"{v:.4g}", True
+    return html.escape(str(v)), False
+
+
+def _table_html(rows, raw_columns=False, widths=None):
+    """A table for the report: human column labels (unless ``raw_columns``), interval triples in one cell, numbers
+    right-aligned and text left-aligned, transposed when it has many columns and few rows; optional widths in %."""
     if not rows:
         return "<p>(none)</p>"
-    frame = _frame(rows)
-    frame.columns = [human_label(str(c)) for c in frame.columns]
-    table = frame.to_html(index=False, float_format=lambda x: f"{x:.4g}", na_rep="–", border=0, classes="t")
-    return f"<div class='wrap'>{table}</div>"
+    rows, done = _combined_intervals(rows)
+    rows = [{k: (_method_text(v) if k in METHOD_COLUMNS and isinstance(v, str) else v) for k, v in r.items()}
+            for r in rows]
+    cols = list(dict.fromkeys(k for r in rows for k in r))
+    heads = [c if raw_columns or c in done else human_label(str(c)) for c in cols]
+    if len(cols) > TRANSPOSE_COLUMNS and len(rows) <= TRANSPOSE_ROWS and not widths:
+        first = [_cell(r.get(cols[0]))[0] for r in rows]
+        body = "".join(
+            f"<tr><th scope='row'>{html.escape(h)}</th>" + "".join(
+                f"<td class='{'n' if num else 's'}'>{text}</td>" for text, num in (_cell(r.get(c)) for r in rows))
+            + "</tr>" for c, h in zip(cols[1:], heads[1:]))
+        head = (f"<tr><th>{html.escape(heads[0])}</th>" + "".join(f"<th>{t}</th>" for t in first) + "</tr>")
+        return f"<div class='wrap'><table class='t tr'><thead>{head}</thead><tbody>{body}</tbody></table></div>"
+    colgroup = ("<colgroup>" + "".join(f"<col style='width:{w}%'>" for w in widths) + "</colgroup>") if widths else ""
+    head = "<tr>" + "".join(f"<th>{html.escape(h)}</th>" for h in heads) + "</tr>"
+    body = "".join("<tr>" + "".join(f"<td class='{'n' if num else 's'}'>{text}</td>"
+                                    for text, num in (_cell(r.get(c)) for c in cols)) + "</tr>" for r in rows)
+    return (f"<div class='wrap'><table class='t'>{colgroup}<thead>{head}</thead><tbody>{body}</tbody></table>"
+            "</div>")
 
 
-def _html(result, tables, images, summary, budget_html="") -> str:
+def _unit_html(unit: str) -> str:
+    return unit.replace("^3", "³").replace("^2", "²")
+
+
+def _html(result, tables, images, summary, budget_html="", paper=None, inputs=None) -> str:
     spec = result.spec
     esc = html.escape
     parts = [f"""<!DOCTYPE html><html lang="en"><head><meta charset="utf-8">
@@ -394,11 +548,14 @@ def _html(result, tables, images, summary, budget_html="") -> str:
 body{{font-family:system-ui,sans-serif;max-width:62rem;margin:2rem auto;padding:0 1rem;color:#222;line-height:1.45}}
 h1{{font-size:1.6rem}} h2{{font-size:1.2rem;border-bottom:1px solid #ccc;padding-bottom:.2rem;margin-top:2rem}}
 table.t{{border-collapse:collapse;font-size:.8rem;margin:.5rem 0;width:100%;table-layout:fixed}}
-table.t td,table.t th{{padding:.2rem .35rem;border-bottom:1px solid #e3e3e3;text-align:right;overflow-wrap:anywhere}}
-table.t th{{overflow-wrap:anywhere}}
-table.t th{{background:#f4f4f4;font-weight:600;vertical-align:bottom}} table.t td:first-child{{text-align:left}}
+table.t td,table.t th{{padding:.2rem .35rem;border-bottom:1px solid #e3e3e3;text-align:left;overflow-wrap:break-word;
+hyphens:auto}}
+table.t td.n{{text-align:right;font-variant-numeric:tabular-nums}}
+table.t.tr th[scope=row]{{text-align:left;font-weight:500}}
+table.t th{{background:#f4f4f4;font-weight:600;vertical-align:bottom}}
 .caution{{background:#fff4e0;border-left:4px solid #e0a030;padding:.6rem 1rem}}
-.key{{font-size:1.1rem}} figure{{margin:1rem 0}} figcaption{{font-size:.85rem;color:#555}}
+.key{{font-size:1.1rem}} .note{{color:#555;font-style:italic}}
+figure{{margin:1rem 0}} figcaption{{font-size:.85rem;color:#555}}
 code{{background:#f4f4f4;padding:0 .2rem;overflow-wrap:anywhere}} .wrap{{max-width:100%}}
 img{{max-width:100%;height:auto}} li{{overflow-wrap:anywhere}}
 @media print{{body{{max-width:none;margin:0;font-size:9pt}} table.t{{font-size:7.5pt}} h2{{break-after:avoid}}
@@ -436,6 +593,20 @@ figure,tr{{break-inside:avoid}} .caution{{border:1px solid #e0a030}}}}
                  f"(limit {getattr(spec, 'max_unphysical', 0.05):.1%} of the draws, "
                  "<code>[run] max_unphysical</code>).</p>")
     img_by = {stem: (cap, data) for stem, cap, data in images}
+    if paper:
+        from .paper_table import RULE
+
+        parts.append("<h2>Summary for a paper</h2><p>" + esc(RULE) + " Also written as <code>summary_table.csv"
+                     "</code> and <code>summary_table.md</code>.</p>")
+        parts.append(_table_html([{"Quantity": r["quantity"], "Unit": _unit_html(r["unit"]),
+                                   "Median (5–95 %)": r["value (5–95 %)"]} for r in paper], raw_columns=True))
+    parts.append("<h2>Site map</h2>")
+    if "site_map" in img_by:
+        parts.append(_figure("site_map", *img_by.pop("site_map")))
+    else:
+        from .sitemap import NO_POSITIONS
+
+        parts.append(f"<p class='note'>{NO_POSITIONS}</p>")
     under = _figure_tables(result)
     shown = set()
     for n, title, intro in _layout(result, tables):
@@ -451,6 +622,11 @@ figure,tr{{break-inside:avoid}} .caution{{border:1px solid #e0a030}}}}
         parts.append("<h2>Method figures</h2>")
         parts += [_figure(s, *img_by[s]) for s in rest]
     parts.append(budget_html)  # the uncertainty budget's section (ventflux.survey.budget)
+    if inputs:
+        parts.append("<h2>Inputs as written</h2><p>Every value of the survey file as written, the defaults the run "
+                     "used for what the file leaves out, and values given on the command line; shared inputs are "
+                     "drawn once per Monte Carlo draw for every use. Also in <code>tables/inputs.csv</code>.</p>")
+        parts.append(_table_html(inputs, widths=(34, 14, 34, 18)))
     prov = summary["provenance"]
     parts.append("<h2>Provenance</h2><p>Inputs (SHA-256):</p><ul>" + "".join(
         f"<li><code>{esc(Path(p).name)}</code> ({esc(v['role'])}): <code>{v['sha256'][:16]}…</code></li>"
@@ -473,6 +649,8 @@ figure,tr{{break-inside:avoid}} .caution{{border:1px solid #e0a030}}}}
 
 
 def _figure(stem, caption, data):
+    """A figure for the report: SVG or PNG bytes embedded as a data URI (the report is one self-contained file)."""
+    mime = "image/png" if data[:8] == b"\x89PNG\r\n\x1a\n" else "image/svg+xml"
     b64 = base64.b64encode(data).decode("ascii")
-    return (f"<figure><img alt='{html.escape(stem)}' style='max-width:100%' src='data:image/png;base64,{b64}'>"
-            f"<figcaption>{html.escape(caption)}</figcaption></figure>")
+    return (f"<figure><img alt='{html.escape(caption)}' data-stem='{html.escape(stem)}' style='max-width:100%' "
+            f"src='data:{mime};base64,{b64}'><figcaption>{html.escape(caption)}</figcaption></figure>")
