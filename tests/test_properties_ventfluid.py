@@ -154,3 +154,21 @@ def test_layer_accuracy_over_the_vent_range_against_coolprop_heos():
     far = np.where(p < 22.064e6, T < ts - 10.0, (T < 620.0) | (T > 730.0))
     assert far.sum() > 10000
     assert err[far].max() <= 5e-6
+
+
+@pytest.mark.parametrize("p", [5e6, 15.5e6, 21.9e6, 22.064e6, 25e6, 26.13e6, 60e6])
+def test_one_pressure_path_gives_the_general_paths_numbers(p):
+    # A site's single pressure takes a faster route (one cubic in T per cell, from a row computed once);
+    # it must give the per-point bicubic evaluation's floats exactly, the directly solved bands included.
+    # Two pressures force the general route on the same temperatures.
+    rng = np.random.default_rng(5)
+    T = rng.uniform(275.0, 800.0, 3000)
+    T = T[IAPWS95Water().valid(T, p)]
+    h1, d1 = TABULATED.enthalpy_density(T, p)
+    both = np.concatenate([T, [300.0]])
+    h2, d2 = TABULATED.enthalpy_density(both, np.concatenate([np.full(T.size, p), [p * 1.01]]))
+    np.testing.assert_array_equal(h1, h2[:-1])
+    np.testing.assert_array_equal(d1, d2[:-1])
+    h3, d3 = TABULATED.enthalpy_density(T.reshape(-1, 1), np.full((1, 1), p))  # a shaped pressure too
+    np.testing.assert_array_equal(h3.ravel(), h1)
+    np.testing.assert_array_equal(d3.ravel(), d1)

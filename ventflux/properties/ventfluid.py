@@ -274,6 +274,69 @@ class _Patches:
         self.ny = y.size
         # one contiguous array per stored quantity: 1-D gathers are the fastest numpy has
         self.cols = [np.ascontiguousarray(nodes[k]).ravel() for k in range(nodes.shape[0])]
+        self._rows: dict[float, np.ndarray] = {}
+
+    def row(self, Y):
+        """The patches at one pressure ``Y``: per temperature node, (h, ∂h/∂T, ρ, ∂ρ/∂T) of the p-interpolation.
+
+        Returned as an array (nT, 8) whose row ``i`` holds the four numbers at
+        nodes ``i`` and ``i + 1`` (value and slope of h, then of ρ), so one
+        row gather serves a point. The numbers are those ``__call__``
+        computes per point, term for term, so ``along_row`` returns the same
+        floats bit for bit.
+        """
+        key = float(Y)
+        cached = self._rows.get(key)
+        if cached is not None:
+            return cached
+        y = self.y
+        j = int(np.clip(np.searchsorted(y, key, side="right") - 1, 0, y.size - 2))
+        yj = y[j]
+        hy = y[j + 1] - yj
+        u = (key - yj) / hy
+        u2 = u * u
+        vu1 = u2 * (3.0 - 2.0 * u)
+        vu0 = 1.0 - vu1
+        su0 = (u2 * u - 2.0 * u2 + u) * hy
+        su1 = (u2 * u - u2) * hy
+        r = np.arange(self.x.size) * self.ny + j
+        r1 = r + 1
+        out = np.empty((self.x.size, 8))
+        for k in (0, 4):
+            f, fT, fp, fTp = self.cols[k:k + 4]
+            g = vu0 * f.take(r) + vu1 * f.take(r1) + su0 * fp.take(r) + su1 * fp.take(r1)
+            gT = vu0 * fT.take(r) + vu1 * fT.take(r1) + su0 * fTp.take(r) + su1 * fTp.take(r1)
+            c = k // 2  # 0 for h, 2 for rho
+            out[:, c], out[:, c + 1] = g, gT
+        # second half of each row: the same numbers at the next temperature node
+        out[:-1, 4:] = out[1:, :4]
+        out[-1, 4:] = out[-1, :4]
+        if len(self._rows) > 64:  # a few site pressures per run; bound the memory anyway
+            self._rows.clear()
+        self._rows[key] = out
+        return out
+
+    def along_row(self, X, Y):
+        """``(h, ρ)`` at temperatures ``X`` and one pressure ``Y``: cubic Hermite in T on ``row(Y)``.
+
+        Equal bit for bit to ``__call__(X, full(Y))`` at a quarter of its gathers.
+        """
+        x = self.x
+        i = np.clip(np.searchsorted(x, X, side="right") - 1, 0, x.size - 2)
+        xi = x.take(i)
+        hx = x.take(i + 1) - xi
+        t = (X - xi) / hx
+        t2 = t * t
+        vt1 = t2 * (3.0 - 2.0 * t)
+        vt0 = 1.0 - vt1
+        st0 = (t2 * t - 2.0 * t2 + t) * hx
+        st1 = (t2 * t - t2) * hx
+        c = self.row(Y).take(i, axis=0)
+        h = vt0 * c[:, 0] + st0 * c[:, 1]
+        h = h + vt1 * c[:, 4] + st1 * c[:, 5]
+        d = vt0 * c[:, 2] + st0 * c[:, 3]
+        d = d + vt1 * c[:, 6] + st1 * c[:, 7]
+        return h, d
 
     def __call__(self, X, Y):
         x, y = self.x, self.y
@@ -391,6 +454,9 @@ class IAPWS95Water:
         """
         T = np.asarray(T, float)
         p = np.asarray(p, float)
+        # One pressure for every point (a site's pressure; the common case): the patches
+        # reduce to one cubic in T per cell, evaluated from a row computed once (same floats).
+        p_one = float(p.flat[0]) if p.size and (p.ndim == 0 or p.min() == p.max()) else None
         T, p = np.broadcast_arrays(T, p)
         shape = T.shape
         T = T.ravel()
@@ -400,9 +466,16 @@ class IAPWS95Water:
             return h.reshape(shape), d.reshape(shape)
         h = np.empty(T.shape)
         d = np.empty(T.shape)
-        direct = self._needs_direct(T, p)
-        table = ~direct
-        if table.any():
+        direct = self._needs_direct(T, p, p_one)
+        if p_one is not None:
+            patches = self._spline()[0 if p_one < P_CRIT else 1]
+            if not direct.any():
+                h, d = patches.along_row(T, p_one)
+            elif not direct.all():
+                table = ~direct
+                h[table], d[table] = patches.along_row(T[table], p_one)
+        elif not direct.all():
+            table = ~direct
             # Two tables meet at the critical pressure, so the vapour-side fill
             # of the subcritical one never leaks into supercritical points.
             for patches, part in zip(self._spline(), (p < P_CRIT, p >= P_CRIT)):
@@ -435,7 +508,20 @@ class IAPWS95Water:
             h[bad], d[bad] = _direct(T[bad], p[bad])
         return h, d
 
-    def _needs_direct(self, T, p):
+    def _needs_direct(self, T, p, p_one=None):
+        if p_one is not None:  # one pressure: the same bands as below, as bounds on T alone
+            if not _P_NODES[0] <= p_one <= _P_NODES[-1]:
+                return np.ones(T.shape, bool)
+            hi = _T_NODES[-1]
+            lo_crit = hi_crit = None
+            if P_CRIT - _CRIT_BOX_P[0] < p_one < P_CRIT + _CRIT_BOX_P[1]:
+                lo_crit, hi_crit = T_CRIT - _CRIT_BOX_T[0], T_CRIT + _CRIT_BOX_T[1]
+            out = (T < _T_NODES[0]) | (T > hi)
+            if lo_crit is not None:
+                out |= (T > lo_crit) & (T < hi_crit)
+            if p_one < P_CRIT:
+                out |= T > float(self.saturation_temperature(np.array([p_one]))[0]) - _SAT_BAND
+            return out
         outside = (T < _T_NODES[0]) | (T > _T_NODES[-1]) | (p < _P_NODES[0]) | (p > _P_NODES[-1])
         near_crit = ((T > T_CRIT - _CRIT_BOX_T[0]) & (T < T_CRIT + _CRIT_BOX_T[1])
                      & (p > P_CRIT - _CRIT_BOX_P[0]) & (p < P_CRIT + _CRIT_BOX_P[1]))
