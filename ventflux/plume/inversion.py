@@ -349,7 +349,7 @@ def _invert_many(column, z, level, alpha, scale, U, shape, reuse=None):
     logF[usable] = emu.invert(z[usable], curves, a[usable])
     if emu.guide_only:  # not accurate enough to answer: it starts every draw's direct inversion instead
         F, fields = _invert_integral(column, z, level, alpha, scale, U, shape, start=logF)
-        return F, fields, None
+        return F, fields, emu
     got = np.isfinite(logF)
     F = np.exp(logF)
     fields = {k: np.full(n, np.nan) for k in ("zt", "zs", "xt", "xs", "Qs", "dTs")}
@@ -547,7 +547,7 @@ def _solve(direction, sampled, n, column, Nnom, current, level, method, source, 
             fields = {"zt": zt, "zs": zs, "xt": nan, "xs": nan, "Qs": nan, "dTs": nan}
         else:
             F, fields, emu = _invert_many(column, z, level, alpha, scale, U, shape, reuse=reuse)
-            emu_error = None if emu is None else emu.error
+            emu_error = None if emu is None or emu.guide_only else emu.error
             if track:
                 ens, _ = _forward_integral(column, integral_H(column, F), alpha, scale, U, shape, track=True)
                 tr = ens.track
