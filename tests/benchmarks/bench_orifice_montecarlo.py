@@ -11,9 +11,10 @@ accuracy, CoolProp's tabular ``BICUBIC&HEOS`` backend in its low-level loop
 nothing and compute no seawater ambient.
 ventflux's time includes drawing, validation, the TEOS-10 ambient and the
 heat power's summary (the other outputs' summaries are computed when read, as
-the command's table does; the competitor summarizes heat power only too). Timings are interleaved over ``--rounds`` and the medians used;
-the plain per-draw loop over ventflux's own scalar estimator is a secondary
-line, timed on a subsample and scaled.
+the command's table does; the competitor summarizes heat power only too).
+Timings are interleaved over ``--rounds`` and the medians used; the plain
+per-draw loop over ventflux's own scalar estimator is a secondary line, timed
+on a subsample and scaled.
 """
 
 from __future__ import annotations
