@@ -93,14 +93,42 @@ def test_spreading_level_inversion(tmp_path):
     _check_every_draw(res, draw_inputs(inputs, DRAWS, SEED), level="spreading", forward=False)
 
 
-def test_an_emulator_that_misses_its_tolerance_is_refused(tmp_path, monkeypatch):
+def test_an_emulator_that_misses_its_tolerance_only_starts_the_integration(tmp_path, monkeypatch):
+    # Above its tolerance the emulator answers nothing: its answers start each draw's secant inversion, and
+    # each draw is accepted on its own integration (so every draw agrees with the unstarted secant).
     prof = _profile(tmp_path)
     monkeypatch.setattr(emulator, "TOLERANCE", 1e-12)
-    monkeypatch.setattr(emulator, "MAX_F_NODES", 30)
+    monkeypatch.setattr(emulator, "MAX_F_NODES", emulator.F_NODES)
     res = heat_power_from_rise_height(INPUTS["rise_height"], prof, entrainment=INPUTS["entrainment"],
                                       stratification_scale=INPUTS["stratification_scale"], draws=DRAWS, seed=SEED)
     assert res.emulator_error is None  # every draw integrated
+    _check_every_draw(res, draw_inputs(INPUTS, DRAWS, SEED))
+
+
+def test_an_emulator_far_off_is_refused(tmp_path, monkeypatch):
+    prof = _profile(tmp_path)
+    monkeypatch.setattr(emulator, "TOLERANCE", 1e-12)
+    monkeypatch.setattr(emulator, "GUIDE_TOLERANCE", 1e-12)
+    monkeypatch.setattr(emulator, "MAX_F_NODES", emulator.F_NODES)
+    res = heat_power_from_rise_height(INPUTS["rise_height"], prof, entrainment=INPUTS["entrainment"],
+                                      draws=DRAWS, seed=SEED)
+    assert res.emulator_error is None
     assert np.isfinite(res.heat_power.magnitude).mean() > 0.99
+
+
+def test_rise_depends_on_flux_over_entrainment_squared(tmp_path):
+    # The top-hat plume equations dQ/dz = 2α(πM)^(1/2), dM/dz = FQ/M, dF/dz = −N²Q are invariant under
+    # Q, M, F → λ²Q, λ²M, λ²F with α → λα (substitution; Morton, Taylor and Turner 1956 for the equations):
+    # the emulator's similarity variable. The integral model (own step grids) keeps it to its discretization.
+    from ventflux.plume.inversion import _ensemble, ambient_column
+
+    column, _, _ = ambient_column(_profile(tmp_path), None, None, None, None, None, None)  # any N(z)
+    G = np.exp(np.linspace(-3.0, 1.0, 9))
+    a1, a2 = np.full(G.size, 0.10), np.full(G.size, 0.16)
+    e1 = _ensemble(column, G * a1**2, a1, np.ones(G.size))
+    e2 = _ensemble(column, G * a2**2, a2, np.ones(G.size))
+    assert np.max(np.abs(np.log(e1.maximum_height / e2.maximum_height))) < 2e-4
+    np.testing.assert_allclose(e1.spreading_volume_flux / a1**2, e2.spreading_volume_flux / a2**2, rtol=5e-3)
 
 
 def test_few_draws_are_integrated_directly(tmp_path):

@@ -154,3 +154,56 @@ def test_layer_accuracy_over_the_vent_range_against_coolprop_heos():
     far = np.where(p < 22.064e6, T < ts - 10.0, (T < 620.0) | (T > 730.0))
     assert far.sum() > 10000
     assert err[far].max() <= 5e-6
+
+
+@pytest.mark.parametrize("p", [5e6, 15.5e6, 21.9e6, 22.064e6, 25e6, 26.13e6, 60e6])
+def test_one_pressure_path_gives_the_general_paths_numbers(p):
+    # A site's single pressure takes a faster route (one cubic in T per cell, from a row computed once);
+    # it must give the per-point bicubic evaluation's numbers to rounding, the directly solved bands included.
+    # Two pressures force the general route on the same temperatures.
+    rng = np.random.default_rng(5)
+    T = rng.uniform(275.0, 800.0, 3000)
+    T = T[IAPWS95Water().valid(T, p)]
+    h1, d1 = TABULATED.enthalpy_density(T, p)
+    both = np.concatenate([T, [300.0]])
+    h2, d2 = TABULATED.enthalpy_density(both, np.concatenate([np.full(T.size, p), [p * 1.01]]))
+    np.testing.assert_allclose(h1, h2[:-1], rtol=1e-13, atol=0)
+    np.testing.assert_allclose(d1, d2[:-1], rtol=1e-13, atol=0)
+    h3, d3 = TABULATED.enthalpy_density(T.reshape(-1, 1), np.full((1, 1), p))  # a shaped pressure too
+    np.testing.assert_array_equal(h3.ravel(), h1)
+    np.testing.assert_array_equal(d3.ravel(), d1)
+
+
+def test_cell_index_is_the_binary_searchs():
+    # The bucket table's cell index equals numpy's searchsorted at nodes, next to nodes and between them.
+    from ventflux.properties.ventfluid import _splines
+
+    patches = _splines()[1]
+    x = patches.x
+    X = np.concatenate([x, np.nextafter(x, -np.inf), np.nextafter(x, np.inf), (x[1:] + x[:-1]) / 2,
+                        np.random.default_rng(2).uniform(x[0], x[-1], 20000)])
+    want = np.clip(np.searchsorted(x, X, side="right") - 1, 0, x.size - 2)
+    np.testing.assert_array_equal(patches._cell(X), want)
+
+
+def test_orifice_draws_unchanged_by_the_one_pressure_route():
+    # Monte Carlo draws of an orifice at one site pressure go through the one-pressure route; the same
+    # draws with the pressure given per draw (forcing the per-point patches) agree to 1e-12 relative.
+    from ventflux.orifice import orifice_discharge
+
+    rng = np.random.default_rng(8)
+    n = 20000
+    T = Q_(rng.normal(352.0, 3.0, n), "degC")
+    v = Q_(rng.normal(1.4, 0.2, n), "m/s")
+    d = Q_(rng.normal(0.12, 0.01, n), "m")
+    Ta = Q_(rng.normal(2.1, 0.05, n), "degC")
+    one = orifice_discharge(T, v, d, pressure=Q_(26.0, "MPa"), ambient_temperature=Ta, ambient_salinity=34.6)
+    p = np.full(n + 1, 26e6)
+    p[-1] = 27e6
+    per_draw = orifice_discharge(Q_(np.append(T.m, 350.0), "degC"), Q_(np.append(v.m, 1.0), "m/s"),
+                                 Q_(np.append(d.m, 0.1), "m"), pressure=Q_(p, "Pa"),
+                                 ambient_temperature=Q_(np.append(Ta.m, 2.1), "degC"), ambient_salinity=34.6)
+    for attr in ("heat_power", "mass_flux", "specific_heat_content", "exit_density"):
+        a = getattr(one, attr).m
+        b = getattr(per_draw, attr).m[:-1]
+        assert np.max(np.abs(a / b - 1)) <= 1e-12, attr

@@ -148,6 +148,19 @@ def test_no_gsw_call_outside_its_validity(monkeypatch):
                           Q_(5.0, "MPa"))
     assert r.beyond_teos10.tolist() == [False, False, True, True, True, True]
     assert "enthalpy_t_exact" in seen and "gibbs" in seen
+    # patches x draws, all within TEOS-10, with an ambient drawn once per draw (the aggregation's shapes)
+    rng = np.random.default_rng(4)
+    dT = rng.uniform(0.5, 30.0, (7, 50))
+    Ta = Q_(rng.normal(2.0, 0.05, (1, 50)), "degC")
+    r = diffuse_discharge(Q_(np.ones((7, 1)), "m^2"), 0.5, Q_(dT, "K"), Q_(1.0, "cm/s"), Ta, 35.0, Q_(5.0, "MPa"),
+                          check=False)
+    assert r.heat_power.shape == (7, 50)
+    # against TEOS-10's enthalpy difference per element (gsw directly, broadcast by hand)
+    SA = gsw.SR_from_SP(35.0)
+    p = (5e6 - 101325.0) / 1e4
+    t0 = np.broadcast_to(Ta.m, dT.shape)
+    want = gsw.enthalpy_t_exact(SA, t0 + dT, p) - gsw.enthalpy_t_exact(SA, t0, p)
+    np.testing.assert_allclose(r.specific_heat_content.to("J/kg").m, want, rtol=1e-12)
 
 
 def _iapws95_liquid(T, p):

@@ -24,6 +24,7 @@ References
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field, fields
 
 import numpy as np
@@ -298,7 +299,7 @@ class UncertainDischarge:
 
     nominal: OrificeDischarge
     draws: OrificeDischarge
-    summaries: dict[str, Summary]
+    summaries: Mapping[str, Summary]  # LazySummaries: computed when read
     n_draws: int  # draws kept
     rejected: int  # draws dropped as physically impossible
     seed: int
@@ -371,10 +372,39 @@ def orifice_discharge_uncertain(draws: int | SharedDraws = DEFAULT_DRAWS, seed: 
     prop = propagate(orifice_discharge, inputs, names=names, draws=draws, seed=seed, physical=orifice_physical,
                      max_unphysical=max_unphysical)
     result = prop.result
-    summaries = {attr: summarize(getattr(result, attr), prop.seed) for attr, _, _ in OrificeDischarge.OUTPUTS
-                 if np.ndim(getattr(result, attr).magnitude)}
+    summaries = LazySummaries({attr: getattr(result, attr) for attr, _, _ in OrificeDischarge.OUTPUTS
+                               if np.ndim(getattr(result, attr).magnitude)}, prop.seed)
     return UncertainDischarge(nominal_result, result, summaries, prop.kept, prop.unphysical, prop.seed,
                               prop.policy.max_share, prop.inputs)
+
+
+class LazySummaries(Mapping):
+    """Summaries by output name, each computed (percentiles of its draws) when first read, then kept.
+
+    A caller that reads the heat power's summary pays for one set of
+    percentiles, not for all ten outputs'; one that reads them all (the
+    command's table, ``as_dict``) gets the same numbers as before.
+    """
+
+    def __init__(self, draws: dict, seed: int | None):
+        self._draws = draws
+        self._seed = seed
+        self._done: dict[str, Summary] = {}
+
+    def __getitem__(self, name: str) -> Summary:
+        s = self._done.get(name)
+        if s is None:
+            s = self._done[name] = summarize(self._draws[name], self._seed)
+        return s
+
+    def __iter__(self):
+        return iter(self._draws)
+
+    def __len__(self) -> int:
+        return len(self._draws)
+
+    def __repr__(self) -> str:
+        return f"LazySummaries({list(self._draws)})"
 
 
 def orifice_input_names(vent: str, index: int = 0) -> dict[str, str]:

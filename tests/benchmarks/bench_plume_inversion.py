@@ -1,7 +1,9 @@
 """Benchmark: Monte Carlo inversion of a rise height in a non-uniform CTD profile.
 
-ventflux (a forward emulator built once for the column with a measured
-interpolation error, then every draw inverted on it) against the fair
+ventflux (a forward emulator built once for the column over the similarity
+variable F/α² and the stratification scale, with a measured interpolation
+error, then every draw inverted on it; above its tolerance it only starts
+each draw's direct inversion) against the fair
 competitor: a straightforward precomputed lookup, i.e. the same integral
 model solved once on a regular grid over (log F, entrainment, stratification
 scale), ``scipy.interpolate.RegularGridInterpolator`` per draw along the F

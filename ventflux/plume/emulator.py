@@ -9,6 +9,21 @@ N^(-3/4) (so ∝ s^(-3/8)) is exact in a uniform stratification [1]_ — so
 4-point Lagrange interpolation along each axis is accurate to about 1e-6 in
 log z on a grid of a few hundred members.
 
+**Similarity in the entrainment coefficient.** For a pure plume the
+top-hat equations are invariant under Q → λ²Q, M → λ²M, F → λ²F with
+α → λα and the height unchanged (substitute into dQ/dz = 2α(πM)^(1/2),
+dM/dz = FQ/M, dF/dz = −N²(z) Q: every term scales alike, for any N(z); the
+plume's temperature and salinity, fluxes over Q, do not change, so neither
+does the non-linear equation of state's buoyancy). The rise and spreading
+heights and the spreading anomaly are therefore functions of G = F/α² (and
+the stratification scale) alone, and the spreading volume flux is α² times
+one. The emulator tabulates log G, one coordinate instead of two: a measured
+cast's layering puts fine structure into the rise as a function of the
+flux, which a dense 1-D grid follows where a coarse grid in α could not.
+(The integrator's step sequence depends on F, so the invariance holds to
+its discretization error, about 1e-4 in log z; the check below measures it
+with the interpolation error.)
+
 The interpolation error is controlled, not assumed: after the build, the
 model is integrated directly at points between the nodes and compared with
 the interpolant; the grid is refined until the worst difference is below
@@ -33,9 +48,19 @@ from . import closed_form
 #: Worst interpolation error accepted in log rise height (choice made here: heat power ∝ z⁴, so 1e-4
 #: in log z is 4e-4 in heat power, inside the 5e-4 asked of every draw).
 TOLERANCE = 1e-4
-#: Nodes along log F at the start, and the most after refinement (choices made here).
-F_NODES = 28
-MAX_F_NODES = 64
+#: Nodes along log G (= log F − 2 log α) at the start, and the most after refinement (choices made here:
+#: one forward integration of a 1-D grid of a thousand members costs about a tenth of one secant sweep
+#: over ten thousand draws).
+F_NODES = 64
+MAX_F_NODES = 1024
+#: Worst error (log rise height) of an emulator still used to start each draw's direct inversion (choice
+#: made here: a start within 1 % in the rise is a start within about 4 % in heat power, a sweep or two away).
+GUIDE_TOLERANCE = 1e-2
+#: Refinement factor of the log G grid between error checks.
+REFINE = 2
+#: The entrainment coefficient the closed-form rise's coefficient belongs to (the integral model's default,
+#: MTT's [1]_ top-hat value), used only to place the log G grid's ends.
+REFERENCE_ENTRAINMENT = 0.093 * np.sqrt(2.0)
 #: Nodes along a drawn log α or log s axis (4-point stencils need at least 4).
 PARAMETER_NODES = 5
 #: Points between the nodes integrated directly to measure the interpolation error.
@@ -47,11 +72,16 @@ class ForwardEmulator:
     """Grid of the integral model's outcome for one column and one level (SI, logs of positive quantities)."""
 
     level: str
-    log_F: np.ndarray
-    log_alpha: np.ndarray
+    log_F: np.ndarray  # nodes of log G = log F − 2 log α (the similarity variable, see the module notes)
+    log_alpha: np.ndarray  # one node: the α the grid was integrated with (any α gives the same G-curves)
     log_scale: np.ndarray
-    fields: dict  # name -> array (n_alpha, n_scale, n_F)
+    fields: dict  # name -> array (1, n_scale, n_G); volume flux divided by the grid's α²
     error: float  # worst measured interpolation error in log rise height
+    guide_only: bool = False  # above TOLERANCE: a starting point for direct inversion, not an answer
+
+    def to_g(self, log_F, alpha):
+        """log G of (log F, α) per draw."""
+        return np.asarray(log_F, float) - 2.0 * np.log(np.asarray(alpha, float))
 
     def curves(self, alpha, scale, names=("level",), start=None):
         """Fields along the F nodes for each draw, interpolated in α and s: (n, n_F, len(names)).
@@ -77,7 +107,7 @@ class ForwardEmulator:
                 out += (wa[:, a] * ws[:, b])[:, None, None] * table[rows_a, rows_b, cols]
         return out
 
-    def invert(self, z, curves):
+    def invert(self, z, curves, alpha):
         """log F [m⁴/s³] giving rise height ``z`` [m] for each draw; NaN where the grid cannot answer."""
         target = np.log(z)
         curve = curves[..., 0]  # (n, n_F) log z at every F node (``curves`` of the level only)
@@ -100,15 +130,19 @@ class ForwardEmulator:
             with np.errstate(divide="ignore", invalid="ignore"):
                 r = np.clip(r - f / df, 0.0, 3.0)
         h = self.log_F[1] - self.log_F[0]
-        return np.where(ok, self.log_F[0] + (i0 + r) * h, np.nan)
+        log_g = self.log_F[0] + (i0 + r) * h
+        return np.where(ok, log_g + 2.0 * np.log(np.broadcast_to(np.asarray(alpha, float), log_g.shape)), np.nan)
 
     def fields_at(self, names, log_F, alpha, scale):
         """Interpolated fields ``names`` at (log F, α, s) per draw: dict name -> array."""
-        w, i0 = _weights(log_F, self.log_F)
+        log_a = np.log(np.asarray(alpha, float))
+        w, i0 = _weights(np.asarray(log_F, float) - 2.0 * log_a, self.log_F)
         local = self.curves(alpha, scale, names, start=i0)  # (n, 4, len(names))
         out = {}
         for m, name in enumerate(names):
             v = (w * local[..., m]).sum(axis=1)
+            if name == "volume_flux":  # Q scales with α² at fixed G
+                v = v + 2.0 * log_a
             out[name] = np.exp(v) if name in _LOGGED else v
         return out
 
@@ -181,6 +215,13 @@ def _forward(column, log_F, alpha, scale, integrate):
     return {k: np.where(bad, np.nan, v) for k, v in out.items()}
 
 
+def _g_range(column, z, alpha, scale, level):
+    """log G bounds covering every target rise for the extreme α and s (closed form, widened)."""
+    f_lo, f_hi = _flux_range(column, z, np.full(1, REFERENCE_ENTRAINMENT), scale, level)
+    # the closed form's coefficient is that of the default entrainment: G = F / α_default²
+    return f_lo - 2.0 * np.log(REFERENCE_ENTRAINMENT) - 0.5, f_hi - 2.0 * np.log(REFERENCE_ENTRAINMENT) + 0.5
+
+
 def _flux_range(column, z, alpha, scale, level):
     """log F bounds covering every target rise for the extreme α and s (closed form, widened)."""
     zmax = np.asarray(z, float) / (1.0 if level == "maximum" else closed_form.SPREADING_FRACTION)
@@ -195,32 +236,42 @@ def _flux_range(column, z, alpha, scale, level):
     return np.log(min(F) / a_ratio) - 1.0, np.log(max(F) * a_ratio) + 1.0
 
 
-def build(column, z, alpha, scale, level, integrate, rng=None) -> ForwardEmulator | None:
+def build(column, z, alpha, scale, level, integrate, rng=None, guide=False) -> ForwardEmulator | None:
     """An emulator covering the draws ``z`` (target rise, m), ``alpha`` and ``scale`` (arrays), or None.
 
     None when the measured interpolation error stays above ``TOLERANCE`` at
     ``MAX_F_NODES``, or stops shrinking as the grid is refined (the rise is
     then limited by the integrator's own step-to-step roughness, as for the
     spreading level), or when too few check points stay inside the column;
-    the caller then integrates every draw.
+    the caller then integrates every draw. With ``guide`` such an emulator
+    is returned all the same when its error is below ``GUIDE_TOLERANCE``,
+    marked ``guide_only``: its answers then only start each draw's direct
+    inversion (``ventflux.plume.inversion``), they are never results.
     """
     rng = np.random.default_rng(0) if rng is None else rng
-    la, ls = _axis(alpha), _axis(scale)
-    f_lo, f_hi = _flux_range(column, z, alpha, scale, level)
+    la_draws, ls = _axis(alpha), _axis(scale)
+    la = np.array([0.5 * (la_draws[0] + la_draws[-1])])  # the grid's α: any one gives the same G-curves
+    a_grid = float(np.exp(la[0]))
+    g_lo, g_hi = _g_range(column, z, alpha, scale, level)
     nf = F_NODES
     previous = np.inf
+    best = None
     while nf <= MAX_F_NODES:
-        lf = np.linspace(f_lo, f_hi, nf)
-        A, S, LF = np.meshgrid(la, ls, lf, indexing="ij")
-        res = _forward(column, LF.ravel(), np.exp(A.ravel()), np.exp(S.ravel()), integrate)
-        fields = {k: v.reshape(A.shape) for k, v in res.items()}
+        lg = np.linspace(g_lo, g_hi, nf)
+        S, LG = np.meshgrid(ls, lg, indexing="ij")
+        res = _forward(column, LG.ravel() + 2.0 * la[0], np.full(LG.size, a_grid), np.exp(S.ravel()), integrate)
+        res["volume_flux"] = res["volume_flux"] - 2.0 * la[0]
+        fields = {k: v.reshape((1,) + S.shape) for k, v in res.items()}
         fields["level"] = fields[level]
-        emu = ForwardEmulator(level, lf, la, ls, fields, np.inf)
-        # measured error at random points between the nodes (where the rise stays inside the column)
+        emu = ForwardEmulator(level, lg, la, ls, fields, np.inf)
+        # measured error at random points between the nodes (where the rise stays inside the column), each
+        # integrated with its own α: the similarity's residue is measured with the interpolation's
         m = CHECK_POINTS
-        cf = rng.uniform(lf[1], lf[-2], m)
-        ca = np.exp(rng.uniform(la[0], la[-1], m)) if la.size > 1 else np.full(m, np.exp(la[0]))
+        cg = rng.uniform(lg[1], lg[-2], m)
+        ca = (np.exp(rng.uniform(la_draws[0], la_draws[-1], m)) if la_draws.size > 1
+              else np.full(m, np.exp(la_draws[0])))
         cs = np.exp(rng.uniform(ls[0], ls[-1], m)) if ls.size > 1 else np.full(m, np.exp(ls[0]))
+        cf = cg + 2.0 * np.log(ca)
         direct = _forward(column, cf, ca, cs, integrate)[level]
         approx = emu.fields_at(("level",), cf, ca, cs)["level"]
         both = np.isfinite(direct) & np.isfinite(approx)
@@ -229,8 +280,12 @@ def build(column, z, alpha, scale, level, integrate, rng=None) -> ForwardEmulato
         emu.error = float(np.max(np.abs(np.log(approx[both]) - direct[both])))
         if emu.error <= TOLERANCE:
             return emu
-        if emu.error > 0.6 * previous:  # not shrinking with the grid: the integrator's own roughness
-            return None
+        best = emu if best is None or emu.error < best.error else best
+        if emu.error > 0.75 * previous:  # not shrinking with the grid: the integrator's own roughness
+            break
         previous = emu.error
-        nf = int(nf * 1.5)
+        nf = int(nf * REFINE)
+    if guide and best is not None and best.error <= GUIDE_TOLERANCE:
+        best.guide_only = True
+        return best
     return None

@@ -218,6 +218,10 @@ def seawater_enthalpy_density(t, SA, p_sea, field="temperature", check=True):
     rho = np.empty(t.shape)
     model = model_of(t)
     cold = t <= TEOS10_T_MAX
+    if cold.all():  # the usual diffuse case: no masked copies
+        h = gsw.enthalpy_t_exact(SA, t, p)
+        rho = gsw.rho_t_exact(SA, t, p)
+        return h.reshape(shape), rho.reshape(shape), model.reshape(shape)
     if cold.any():
         h[cold] = gsw.enthalpy_t_exact(SA[cold], t[cold], p[cold])
         rho[cold] = gsw.rho_t_exact(SA[cold], t[cold], p[cold])
@@ -274,12 +278,17 @@ def seawater_heat_content(t_warm, t_ambient, SA, p_sea, field="temperature"):
     """
     t0, SA0, p0 = (np.asarray(x, float) for x in (t_ambient, SA, p_sea))
     check_teos10(SA0, t0, p0, "ambient temperature")  # on the inputs as given (often scalars), before broadcasting
-    t1, t0, SA, p = np.broadcast_arrays(np.asarray(t_warm, float), t0, SA0, p0)
+    t1 = np.asarray(t_warm, float)
     if np.any(t1 < t0):
-        i = np.flatnonzero((t1 < t0).ravel())[0]
-        raise InputError(field, f"{t1.ravel()[i]:.4g} degC", "a temperature at or above the ambient temperature")
+        below = np.broadcast_to(t1, np.broadcast_shapes(t1.shape, t0.shape)) < t0
+        i = np.flatnonzero(below.ravel())[0]
+        shown = np.broadcast_to(t1, below.shape).ravel()[i]
+        raise InputError(field, f"{shown:.4g} degC", "a temperature at or above the ambient temperature")
+    t1, SA, p = np.broadcast_arrays(t1, SA0, p0)
     h1, rho, model = seawater_enthalpy_density(t1, SA, p, field, check=False)
-    h0 = gsw.enthalpy_t_exact(SA, t0, p)
+    # The ambient end at its own shape: a shared ambient (one value, or one per draw) is evaluated once,
+    # not once per patch; the difference broadcasts.
+    h0 = gsw.enthalpy_t_exact(SA0, t0, p0)
     return SeawaterHeat(h1 - h0, rho, model)
 
 
