@@ -32,11 +32,92 @@ from ..resources import check_memory
 from ..uncertainty import MAX_SEED
 from ..units import Q_
 from .api import ParseContext
-from .fields import Fields, SharedRef
+from .fields import Fields, Position, SharedRef
+from .schema import DataColumn, SurveyKey, table
 
 #: Default Monte Carlo draws of a survey run (a choice: the 5-95 % limits of
 #: 10,000 draws are reproducible to about 1 % of the interval width).
 DEFAULT_DRAWS = 10_000
+
+
+#: The columns of a CTD cast (``[site] ctd``); one of depth and sea pressure is required.
+CTD_COLUMNS = (
+    DataColumn("sea_pressure", "dbar", "sea pressure (absolute minus one standard atmosphere), as a CTD reports "
+                                       "it; formerly 'pressure [dbar]' (still read, deprecated)",
+               required="unless depth is given"),
+    DataColumn("depth", "m", "depth below the sea surface", required="unless sea_pressure is given"),
+    DataColumn("temperature", "degC", "in-situ temperature"),
+    DataColumn("salinity", "", "practical salinity (no unit)"),
+)
+
+SITE_TABLE = table("site", "where the survey was made and the ambient seawater (required)", [
+    SurveyKey("name", "string", "the site's name, used in the report and the results folder", required=True,
+              example='"Tarnwick Deep"'),
+    SurveyKey("cruise", "string", "the cruise or expedition, for the report", example='"TW-01"'),
+    SurveyKey("depth", "length", "depth of the vents below the sea surface", required="unless absolute_pressure "
+              "is given (exactly one of the two)", example='"2210 m"'),
+    SurveyKey("absolute_pressure", "pressure", "absolute in-situ pressure at the vents (including the atmosphere)",
+              required="unless depth is given (exactly one of the two)"),
+    SurveyKey("latitude", "number", "latitude of the site in decimal degrees (north positive)", required=True,
+              example="-21.75"),
+    SurveyKey("longitude", "number", "longitude of the site in decimal degrees (east positive)", required=True,
+              example="-118.40"),
+    SurveyKey("ambient_temperature", "temperature", "in-situ temperature of the ambient seawater at the vents",
+              required=True, uncertain=True, example='"2.10 ± 0.02 degC"'),
+    SurveyKey("ambient_salinity", "dimensionless", "practical salinity of the ambient seawater", uncertain=True,
+              default="35.16504 (TEOS-10 reference salinity)", example="34.69"),
+    SurveyKey("ctd", "path", "a CTD cast (CSV) giving the stratification the plumes rise through",
+              columns=CTD_COLUMNS, example='"data/ctd_cast.csv"'),
+    SurveyKey("ctd_smoothing", "length", "bin width the cast is averaged over before N² is taken",
+              default="5 m"),
+])
+
+RUN_TABLE = table("run", "Monte Carlo settings of the run", [
+    SurveyKey("draws", "integer", "Monte Carlo draws (100 to 1,000,000; at most what the machine's memory holds)",
+              default=str(DEFAULT_DRAWS), example="10000"),
+    SurveyKey("seed", "integer", "random seed (0 to 2^32 - 1): the same seed gives the same numbers",
+              default="20261202", example="7"),
+    SurveyKey("max_unphysical", "number", "largest share of draws dropped as physically impossible (counted and "
+              "reported) before the run refuses (0 to 0.99)", default="0.05"),
+    SurveyKey("allow_implausible", "boolean", "accept values outside ventflux.limits' plausibility table "
+              "(recorded as a warning)", default="false"),
+])
+
+SHARED_TABLE = table("shared", "named uncertain inputs drawn once per draw for every value that refers to them as "
+                               "\"@name\" (one probe's calibration, one camera's scale, a model constant)", [],
+                     open=True)
+
+VENT_KEYS = (
+    SurveyKey("name", "string", "the vent's name, used once in the survey", required=True, example='"Emberstack"'),
+    SurveyKey("exit_temperature", "temperature", "exit temperature of the vent fluid, for the vent's water flux "
+              "when no orifice measurement gives one", uncertain=True),
+    SurveyKey("position", "position", "where the vent is, for the report's site map",
+              example='{ east = "12 m", north = "-30 m" }'),
+)
+
+RESERVOIR_TABLE = table("reservoir", "a heat-reservoir hypothesis: how long could it feed the observed output?", [
+    SurveyKey("name", "string", "the hypothesis's name", required=True, example='"cooling dike beneath the field"'),
+    SurveyKey("supplies", "string", "what it feeds: \"field total\", \"focused\", \"diffuse\" or a vent's name",
+              default='"field total"', example='"field total"'),
+    SurveyKey("volume", "volume", "volume of the hot rock", required="unless area and thickness are given",
+              example='"0.01 km^3"'),
+    SurveyKey("area", "area", "plan area of a sheet-like reservoir (with thickness)"),
+    SurveyKey("thickness", "length", "thickness of a sheet-like reservoir (with area)"),
+    SurveyKey("temperature_drop", "temperature", "how far the hot rock cools while it feeds the output",
+              required=True, example='"300 K"'),
+    SurveyKey("temperature", "temperature", "initial temperature of the rock, for the pore fluid's state",
+              example='"400 degC"'),
+    SurveyKey("porosity", "number", "pore fraction filled with fluid (0 to 0.99)", default="0.05"),
+    SurveyKey("melt_volume", "volume", "volume of melt that crystallizes (its latent heat adds to the reservoir)"),
+    SurveyKey("rock_density", "density", "density of the rock", default="2900 kg/m^3"),
+    SurveyKey("size", "length", "the length L of the conductive time L²/κ",
+              default="a sheet's thickness, else the cube root of the volume", example='"200 m"'),
+    SurveyKey("pressure", "pressure", "absolute pressure of the reservoir's pore fluid",
+              default="the site's seafloor pressure"),
+    SurveyKey("depth_below_seafloor", "length", "depth of the reservoir below the seafloor (instead of pressure)"),
+    SurveyKey("pressure_regime", "string", "how pressure grows below the seafloor",
+              choices=("hydrostatic", "lithostatic"), default='"hydrostatic"'),
+], many=True)
 
 
 @dataclass
@@ -60,6 +141,9 @@ class VentSpec:
     name: str
     exit_temperature: object
     methods: dict  # method key -> parsed spec (a list for "many" methods)
+    #: Where the vent is (``[[vent]] position``): latitude/longitude in degrees or east/north in metres; None if
+    #: the file gives none.
+    position: Position | None = None
 
 
 @dataclass
@@ -166,7 +250,9 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     errs = Collector()
     warnings = Warnings()
     defaults: dict = {}
-    top = Fields(raw, "", errs, where, path.parent, defaults)
+    from .schema import survey_schema
+
+    top = Fields(raw, "", errs, where, path.parent, defaults, schema=survey_schema(), warnings=warnings)
     input_files = {str(path): "survey"}
 
     shared = {}
@@ -196,7 +282,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         draws = run.number("draws", default=DEFAULT_DRAWS, minimum=100, maximum=1_000_000, integer=True)
         seed = run.number("seed", default=None, minimum=0, maximum=MAX_SEED, integer=True)
         allow = run.table.get("allow_implausible", False)
-        run.used.add("allow_implausible")
+        run.mark_used("allow_implausible")
         if not isinstance(allow, bool):
             run.error("allow_implausible", repr(allow), "true or false")
         max_unphysical = run.number("max_unphysical", default=DEFAULT_MAX_UNPHYSICAL, minimum=0, maximum=0.99)
@@ -220,6 +306,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
             vf.error("name", name, "a vent name used only once in the survey")
         names.add(name)
         exit_t = vf.quantity("exit_temperature", "temperature")
+        position = vf.position("position")
         parsed = {}
         for key, m in methods.items():
             if key not in vf.table:
@@ -233,7 +320,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         vf.check_unknown()
         _check_vent(vf, name, exit_t, parsed, site, warnings)
         _name_the_vent(errs, first_error, vf.path, name)
-        vents.append(VentSpec(name=name, exit_temperature=exit_t, methods=parsed))
+        vents.append(VentSpec(name=name, exit_temperature=exit_t, methods=parsed, position=position))
     parsed_sections = {}
     for key, s in sections.items():
         if key in raw:
@@ -306,7 +393,7 @@ def _check_plume_spread(f: Fields, plume: dict):
     if plume.get("method", "integral") == "integral":
         keys.append("entrainment")
     if plume.get("height") is not None and not any(uncertain(plume.get(k)) for k in keys):
-        f.error("height", f.table.get("height"), "a rise height with its uncertainty, e.g. \"195 ± 20 m\": this "
+        f.error("rise_height", f.raw("rise_height"), "a rise height with its uncertainty, e.g. \"195 ± 20 m\": this "
                                                   "estimate is compared with others, and an exact one cannot be "
                                                   "weighed against them")
 
@@ -327,7 +414,7 @@ def _check_hot_tail(f: Fields, temperature, site):
     try:
         fluid_model().check(hi, float(p.to("Pa").magnitude), "temperature")
     except InputError as e:
-        f.error("temperature", f.table.get("temperature"), f"an exit temperature whose 95 % point "
+        f.error("exit_temperature", f.raw("exit_temperature"), f"an exit temperature whose 95 % point "
                                                           f"({hi - 273.15:.1f} degC) is still {e.allowed} "
                                                           "(narrow the spread)")
 
@@ -347,10 +434,10 @@ def _check_rise_height(f: Fields, height, site):
     except (InputError, TypeError, ValueError, AttributeError):
         return
     if not hi < depth:
-        f.error("height", f.table.get("height"), f"a rise height below the site's depth ({depth:.0f} m) up to its "
+        f.error("rise_height", f.raw("rise_height"), f"a rise height below the site's depth ({depth:.0f} m) up to its "
                                                   "95 % point: a plume cannot rise above the sea surface")
-    elif site.ctd_extent is not None and not depth - hi >= site.ctd_extent[0] and "buoyancy_frequency" not in f.table:
-        f.error("height", f.table.get("height"), f"a rise height (up to its 95 % point) within the CTD cast: at most "
+    elif site.ctd_extent is not None and not depth - hi >= site.ctd_extent[0] and not f.has("buoyancy_frequency"):
+        f.error("rise_height", f.raw("rise_height"), f"a rise height (up to its 95 % point) within the CTD cast: at most "
                                                   f"{depth - site.ctd_extent[0]:.0f} m above the site (the cast "
                                                   f"starts at {site.ctd_extent[0]:.0f} m)")
 
@@ -401,9 +488,9 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
     name = f.string("name", required=True)
     cruise = f.string("cruise")
     depth = f.quantity("depth", "length", uncertain=False, positive=True)
-    pressure = f.quantity("pressure", "pressure", uncertain=False, positive=True)
-    if (depth is None) == (pressure is None) and ("depth" in f.table) == ("pressure" in f.table):
-        f.error("depth", "both or neither of depth and pressure", "exactly one of depth or pressure")
+    pressure = f.quantity("absolute_pressure", "pressure", uncertain=False, positive=True)
+    if (depth is None) == (pressure is None) and f.has("depth") == f.has("absolute_pressure"):
+        f.error("depth", "both or neither of depth and absolute_pressure", "exactly one of depth or absolute_pressure")
     lat = f.number("latitude", required=True, minimum=POSITION_BOUNDS["latitude"][0],
                    maximum=POSITION_BOUNDS["latitude"][1])
     lon = f.number("longitude", required=True, minimum=POSITION_BOUNDS["longitude"][0],
@@ -548,6 +635,11 @@ def _check_ctd(f: Fields, site: SiteSpec):
     """Read the cast now, so that --check finds every problem the run would (order, numbers, stability)."""
     from .. import profiles
 
+    from ..vocabulary import deprecation_line
+    from .schema import renamed_columns
+
+    for old, new in renamed_columns(site.ctd, CTD_COLUMNS):
+        f.warnings.add(f.key("ctd"), deprecation_line(f"{old}' column of '{site.ctd.name}", new))
     kwargs: dict[str, object] = {"latitude": site.latitude, "longitude": site.longitude}
     if site.ctd_window is not None:
         kwargs["window"] = site.ctd_window
@@ -563,8 +655,8 @@ def _check_ctd(f: Fields, site: SiteSpec):
     site.ctd_extent = (float(z.min()), float(z.max()))
     depth = _site_depth_m(site)
     if depth is not None and not z.min() <= depth <= z.max():
-        key = "depth" if site.depth is not None else "pressure"
-        f.error(key, f.table.get(key), f"a site within the depth range of the CTD cast ({z.min():.0f} to "
+        key = "depth" if site.depth is not None else "absolute_pressure"
+        f.error(key, f.raw(key), f"a site within the depth range of the CTD cast ({z.min():.0f} to "
                                        f"{z.max():.0f} m after binning), or a cast that reaches the site")
 
 
