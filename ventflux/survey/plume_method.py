@@ -40,7 +40,7 @@ PLUME_RISE_KEYS = (
               default='"integral"'),
     SurveyKey("entrainment", "dimensionless", "top-hat entrainment coefficient (a model constant: give it as "
               "\"@name\" of [shared] so every plume shares it)", uncertain=True,
-              default=f"{ENTRAINMENT_UNCERTAIN} (the spread of published values)"),
+              default=f"{ENTRAINMENT_UNCERTAIN} (the spread of published values)", example='"@entrainment"'),
     SurveyKey("current", "velocity", "ambient cross current (bends the plume; integral model)", uncertain=True),
     SurveyKey("buoyancy_frequency", "frequency", "a constant buoyancy frequency N instead of the site's CTD cast",
               required="unless [site] ctd is given", uncertain=True),

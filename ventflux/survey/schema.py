@@ -143,7 +143,9 @@ class SurveyKey:
             return "array of tables" if self.many else "table"
         if self.kind in KINDS:
             return KINDS[self.kind]
-        return f"a {self.kind}" + (" (may be uncertain)" if self.uncertain else "")
+        what = "a number (dimensionless)" if self.kind == "dimensionless" else \
+            ("an " if self.kind[0] in "aeiou" else "a ") + self.kind
+        return what + (", may be uncertain" if self.uncertain else "")
 
     def as_dict(self) -> dict:
         d: dict[str, Any] = {"key": self.name, "kind": self.kind, "meaning": self.meaning}
@@ -270,7 +272,20 @@ def _heading(path: str, t: SurveyKey) -> str:
     return f"{bracket}{who}: {t.meaning}"
 
 
-def _key_lines(k: SurveyKey) -> list[str]:
+def _old_names(scope: str, name: str) -> list[str]:
+    """Deprecated spellings of key ``name`` in the table at ``scope`` (``ventflux.vocabulary.RENAMED_KEYS``)."""
+    from ..vocabulary import RENAMED_KEYS
+
+    return sorted(old for s in (scope, "*") for old, new in RENAMED_KEYS.get(s, {}).items() if new == name)
+
+
+def _wrap(first: str, text: str) -> list[str]:
+    import textwrap
+
+    return textwrap.wrap(text, width=112, initial_indent=first, subsequent_indent=" " * len(first)) or [first]
+
+
+def _key_lines(k: SurveyKey, scope: str = "") -> list[str]:
     facts = [k.type_text()]
     if k.required is True:
         facts.append("required")
@@ -280,21 +295,19 @@ def _key_lines(k: SurveyKey) -> list[str]:
         facts.append("one of " + " | ".join(f'"{c}"' for c in k.choices))
     if k.default is not None:
         facts.append(f"default {k.default}")
-    out = [f"  {k.name:<24} {k.meaning}", f"  {'':<24}   ({'; '.join(facts)})"]
-    from ..vocabulary import RENAMED_KEYS
-
-    old = sorted(o for scope in RENAMED_KEYS.values() for o, n in scope.items() if n == k.name)
+    old = _old_names(scope, k.name)
     if old:
-        out[-1] += f" [formerly {', '.join(old)}: still read, deprecated]"
+        facts.append(f"formerly {', '.join(old)}: still read, deprecated")
+    out = _wrap(f"  {k.name:<24} ", k.meaning) + _wrap(" " * 27, f"({'; '.join(facts)})")
     for c in k.columns:
         req = "" if c.required is True else (" (optional)" if c.required is False else f" ({c.required})")
-        out.append(f"  {'':<24}   column \"{c.header}\"{req}: {c.meaning}")
+        out += _wrap(" " * 27 + "column ", f"\"{c.header}\"{req}: {c.meaning}")
     return out
 
 
 def table_text(path: str, t: SurveyKey) -> str:
     """One table as text: its heading, then each key (sub-tables are listed by their own heading)."""
-    lines = [_heading(path, t)]
+    lines = _wrap("", _heading(path, t))
     if t.open:
         lines.append("  name = value        any name of your own; the value a quantity or a bare relative factor")
     if not t.keys and not t.open:
@@ -304,7 +317,7 @@ def table_text(path: str, t: SurveyKey) -> str:
             lines.append(f"  {k.name:<24} sub-table: see [{'[' if k.many else ''}{path}.{k.name}"
                          f"{']' if k.many else ''}]")
         else:
-            lines.extend(_key_lines(k))
+            lines.extend(_key_lines(k, path))
     return "\n".join(lines)
 
 
@@ -313,7 +326,7 @@ def format_text(schema: SurveyKey, only: str | None = None) -> str:
     if only:
         path, node = _only(schema, only)
         if node.kind != "table":
-            return "\n".join([f"{path}:"] + _key_lines(node))
+            return "\n".join([f"{path}:"] + _key_lines(node, path.rpartition(".")[0]))
         return "\n\n".join(table_text(p, t) for p, t in [(path, node), *tables(node, path)])
     return "\n\n".join([INTRO] + [table_text(p, t) for p, t in tables(schema)])
 

@@ -65,7 +65,7 @@ SITE_TABLE = table("site", "where the survey was made and the ambient seawater (
     SurveyKey("ambient_temperature", "temperature", "in-situ temperature of the ambient seawater at the vents",
               required=True, uncertain=True, example='"2.10 ± 0.02 degC"'),
     SurveyKey("ambient_salinity", "dimensionless", "practical salinity of the ambient seawater", uncertain=True,
-              default="35.16504 (TEOS-10 reference salinity)", example="34.69"),
+              default="35 (the TEOS-10 standard ocean's practical salinity)", example="34.69"),
     SurveyKey("ctd", "path", "a CTD cast (CSV) giving the stratification the plumes rise through",
               columns=CTD_COLUMNS, example='"data/ctd_cast.csv"'),
     SurveyKey("ctd_smoothing", "length", "bin width the cast is averaged over before N² is taken",
