@@ -63,7 +63,8 @@ ORIFICE_KEYS = (
               "photo scale shared by every orifice", uncertain=True),
     SurveyKey("velocity_factor", "dimensionless", "calibration factor on the velocity", uncertain=True),
     SurveyKey("profile_factor", "dimensionless", "mean/centreline velocity ratio, for velocity_kind = "
-              "\"centerline\"", uncertain=True, default=f"{CENTERLINE_PROFILE_FACTOR:.3f} ± 0.025 (turbulent power-law profiles)"),
+              "\"centerline\"", uncertain=True,
+              default=f"{CENTERLINE_PROFILE_FACTOR:.3f} ± 0.025 (turbulent power-law profiles)"),
 )
 
 

@@ -75,7 +75,7 @@ class Fields:
         """The spelling of ``name`` the file uses: the key itself, a deprecated old name (recorded), or None."""
         if name in self.table:
             for old in self._old_names(name):
-                if old in self.table:
+                if old in self.table and old not in self.used:  # reported once, however often the key is read
                     self.used.add(old)
                     self.error(old, self.table[old], f"either '{name}' or its deprecated spelling '{old}', not both")
             return name

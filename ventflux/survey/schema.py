@@ -172,18 +172,22 @@ class UndeclaredKey(RuntimeError):
     """A parser read a key its table does not declare: a bug of the parser (or its plugin), not of the input."""
 
 
-_STRICT: contextvars.ContextVar[bool] = contextvars.ContextVar("ventflux_strict_schema", default=False)
+_STRICT: contextvars.ContextVar[bool | None] = contextvars.ContextVar("ventflux_strict_schema", default=None)
 #: Keys read without a declaration in this process (outside strict mode), ``table.key``: listed by tests.
 UNDECLARED_READS: set[str] = set()
 
 
 def is_strict() -> bool:
-    return _STRICT.get() or os.environ.get("VENTFLUX_STRICT_SCHEMA", "") not in ("", "0")
+    """Strict inside ``strict_schema()``; elsewhere when the environment sets ``VENTFLUX_STRICT_SCHEMA=1``."""
+    on = _STRICT.get()
+    if on is not None:
+        return on
+    return os.environ.get("VENTFLUX_STRICT_SCHEMA", "") not in ("", "0")
 
 
 @contextlib.contextmanager
 def strict_schema(on: bool = True):
-    """Raise ``UndeclaredKey`` when a parser reads a key its table does not declare (used by the tests)."""
+    """Raise ``UndeclaredKey`` when a parser reads a key its table does not declare (the test suite's mode)."""
     token = _STRICT.set(on)
     try:
         yield
@@ -208,7 +212,7 @@ def renamed_columns(path, columns) -> list[tuple[str, str]]:
     from ..vocabulary import RENAMED_COLUMNS
 
     try:
-        header = next(iter(_rows(path)), (0, []))[1]
+        header: list[str] = next(iter(_rows(path)), (0, []))[1]
     except (OSError, UnicodeDecodeError):
         return []  # the reader reports an unreadable file
     found = {parse_column_name(label)[0]: label for label in header}

@@ -437,9 +437,9 @@ def _check_rise_height(f: Fields, height, site):
         f.error("rise_height", f.raw("rise_height"), f"a rise height below the site's depth ({depth:.0f} m) up to its "
                                                   "95 % point: a plume cannot rise above the sea surface")
     elif site.ctd_extent is not None and not depth - hi >= site.ctd_extent[0] and not f.has("buoyancy_frequency"):
-        f.error("rise_height", f.raw("rise_height"), f"a rise height (up to its 95 % point) within the CTD cast: at most "
-                                                  f"{depth - site.ctd_extent[0]:.0f} m above the site (the cast "
-                                                  f"starts at {site.ctd_extent[0]:.0f} m)")
+        f.error("rise_height", f.raw("rise_height"), f"a rise height (up to its 95 % point) within the CTD cast: "
+                                                      f"at most {depth - site.ctd_extent[0]:.0f} m above the site "
+                                                      f"(the cast starts at {site.ctd_extent[0]:.0f} m)")
 
 
 def _site_depth_m(site):
@@ -638,8 +638,9 @@ def _check_ctd(f: Fields, site: SiteSpec):
     from ..vocabulary import deprecation_line
     from .schema import renamed_columns
 
-    for old, new in renamed_columns(site.ctd, CTD_COLUMNS):
-        f.warnings.add(f.key("ctd"), deprecation_line(f"{old}' column of '{site.ctd.name}", new))
+    cast = Path(site.ctd or "")
+    for old, new in renamed_columns(cast, CTD_COLUMNS):
+        f.warnings.add(f.key("ctd"), deprecation_line(f"{old}' column of '{cast.name}", new))
     kwargs: dict[str, object] = {"latitude": site.latitude, "longitude": site.longitude}
     if site.ctd_window is not None:
         kwargs["window"] = site.ctd_window
