@@ -17,8 +17,8 @@ import pytest
 from ventflux.cli import main
 from ventflux.errors import InputError, InputErrors
 from ventflux.survey.fields import Fields
-from ventflux.survey.schema import UndeclaredKey, find, strict_schema, survey_schema, tables
-from ventflux.survey.spec import load_survey
+from ventflux.survey.schema import UndeclaredKey, find, strict_schema, tables
+from ventflux.survey.spec import load_survey, survey_schema
 from ventflux.survey.template import SAMPLE_DATA, template_text, write_template
 from ventflux.vocabulary import RENAMED_KEYS, deprecation_line
 
@@ -339,3 +339,27 @@ def test_demo_copy_with_old_spellings_passes_with_warnings(tmp_path):
         spec = load_survey(tmp_path / "survey.toml")
     keys = [w["key"] for w in spec.warnings.as_list()]
     assert len(keys) == 8 and "field_plume.height" in keys and "vent[0].plume_rise.height" in keys
+
+
+def test_a_plugin_table_without_declared_keys_is_recorded_and_refused_in_strict_mode(tmp_path, monkeypatch):
+    """A third-party section that predates the schema still works for users; the test suite refuses it."""
+    from ventflux.survey import spec as spec_module
+    from ventflux.survey.api import SurveySection
+    from ventflux.survey.schema import UNDECLARED_READS, format_text
+
+    def parse(f, ctx):
+        value = f.number("width")
+        f.check_unknown()
+        return {"width": value}
+
+    legacy = SurveySection(key="legacy_sonar", summary="an undeclared plugin section", parse=parse,
+                           estimate=lambda spec, ctx: None, provider="sonar-plugin")
+    methods, sections = spec_module.survey_components()
+    monkeypatch.setattr(spec_module, "survey_components", lambda: (methods, {**sections, "legacy_sonar": legacy}))
+    path = _survey(tmp_path, SITE + "\n[legacy_sonar]\nwidth = 3.0\n")
+    with strict_schema(False):
+        assert load_survey(path).sections["legacy_sonar"] == {"width": 3.0}
+    assert "legacy_sonar.width (table without a declaration)" in UNDECLARED_READS
+    with strict_schema(), pytest.raises(UndeclaredKey):
+        load_survey(path)
+    assert "(its provider declares no keys)" in format_text(survey_schema(), "legacy_sonar")

@@ -32,7 +32,8 @@ def configure(p):
 
 def _describe(args) -> int:
     """``--format [TABLE]``: the survey schema as text or JSON."""
-    from ..survey.schema import as_json, format_text, survey_schema
+    from ..survey.schema import as_json, format_text
+    from ..survey.spec import survey_schema
 
     schema = survey_schema()
     if args.json:

@@ -30,8 +30,9 @@ class Fields:
         self.base_dir = base_dir
         self.defaults = defaults
         self.shared = shared if shared is not None else {}
-        #: The table's declaration (``ventflux.survey.schema.SurveyKey``); None for an undeclared plugin table.
-        self.schema = schema
+        #: The table's declaration (``ventflux.survey.schema.SurveyKey``); None for a table that declares no keys
+        #: (a third-party plugin's that predates the schema: its reads are recorded, and refused in strict mode).
+        self.schema = schema if schema is None or schema.keys or schema.open else None
         #: The table's place in the schema without indices (``vent.orifice``): renamed keys are looked up by it.
         self.scope = scope
         self.warnings = warnings if warnings is not None else Warnings()

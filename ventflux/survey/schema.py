@@ -12,7 +12,8 @@ a plugin declares its method's or section's keys in ``SurveyMethod.keys`` /
 
 One declaration serves three readers, so they cannot drift apart:
 
-* the validator: ``ventflux.survey.fields.Fields`` refuses a key of the file
+* the validator: ``ventflux.survey.fields.Fields`` (given the whole schema by
+  ``ventflux.survey.spec.survey_schema``) refuses a key of the file
   that its table does not declare (listing the declared ones), and a parser
   that reads an undeclared key is a programming error, raised in strict mode
   (``strict_schema()``, on in the test suite);
@@ -224,21 +225,7 @@ def renamed_columns(path, columns) -> list[tuple[str, str]]:
             out.append((found[old], f"{new} [{unit}]" if unit else new))
     return out
 
-# ---- the whole schema -----------------------------------------------------------------
-def survey_schema() -> SurveyKey:
-    """The schema of the whole survey file: the core's tables and every installed plugin's."""
-    from .spec import RESERVOIR_TABLE, RUN_TABLE, SHARED_TABLE, SITE_TABLE, VENT_KEYS, survey_components
-
-    methods, sections = survey_components()
-    method_tables = [table(k, m.summary, getattr(m, "keys", ()), many=m.many, provider=m.provider)
-                     for k, m in sorted(methods.items())]
-    vent = table("vent", "one focused vent (a chimney, a spire, a cluster of orifices) and the methods that measure "
-                         "it; at least one method", list(VENT_KEYS) + method_tables, many=True)
-    section_tables = [table(k, s.summary, getattr(s, "keys", ()), provider=s.provider)
-                      for k, s in sorted(sections.items())]
-    return table("", "a survey file", [SITE_TABLE, RUN_TABLE, SHARED_TABLE, vent, *section_tables, RESERVOIR_TABLE])
-
-
+# ---- looking up the schema ------------------------------------------------------------------
 def find(schema: SurveyKey, path: str) -> SurveyKey | None:
     """The table or key at ``path`` (``vent.orifice``, ``[[vent.orifice]]``, ``vent[0].orifice``, ``site.depth``)."""
     import re
@@ -356,4 +343,4 @@ def as_json(schema: SurveyKey, only: str | None = None) -> dict:
 
 
 __all__ = ["DataColumn", "KINDS", "SurveyKey", "UndeclaredKey", "as_json", "find", "format_text", "strict_schema",
-           "survey_schema", "table", "tables"]
+           "table", "tables"]

@@ -1,15 +1,16 @@
 """The survey file: a human-editable TOML description of one vent-field survey.
 
-Layout (every key is documented in ``ventflux survey --format``)::
+Layout (every key is declared in ``ventflux.survey.schema`` form beside its
+parser, and printed by ``ventflux survey --format``)::
 
-    [site]            name, depth or pressure, latitude, longitude,
+    [site]            name, depth or absolute_pressure, latitude, longitude,
                       ambient_temperature, ambient_salinity, ctd (a CSV cast)
     [run]             draws, seed, max_unphysical (share of draws dropped as
                       physically impossible before the run refuses; 0.05)
     [shared]          named uncertain inputs drawn once per draw for every
                       value that refers to them as "@name"
     [[vent]]          one table per focused vent: name, exit_temperature,
-                      and one or more methods as sub-tables
+                      position, and one or more methods as sub-tables
                       ([[vent.orifice]], [vent.plume_rise], [vent.video], ...)
     [diffuse]         ... and other field-wide sections
     [[reservoir]]     heat-reservoir hypotheses to test
@@ -184,6 +185,17 @@ def survey_components():
     return methods, sections
 
 
+def survey_schema():
+    """The schema of the whole survey file (``ventflux.survey.schema``): the core's tables and every installed
+    plugin's methods and sections, as one ``SurveyKey`` table."""
+    methods, sections = survey_components()
+    method_tables = [table(k, m.summary, m.keys, many=m.many, provider=m.provider) for k, m in sorted(methods.items())]
+    vent = table("vent", "one focused vent (a chimney, a spire, a cluster of orifices) and the methods that measure "
+                         "it; at least one method", list(VENT_KEYS) + method_tables, many=True)
+    section_tables = [table(k, s.summary, s.keys, provider=s.provider) for k, s in sorted(sections.items())]
+    return table("", "a survey file", [SITE_TABLE, RUN_TABLE, SHARED_TABLE, vent, *section_tables, RESERVOIR_TABLE])
+
+
 def load_survey(path) -> SurveySpec:
     """Read and validate a survey file; raise ``InputErrors`` listing every problem.
 
@@ -250,8 +262,6 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     errs = Collector()
     warnings = Warnings()
     defaults: dict = {}
-    from .schema import survey_schema
-
     top = Fields(raw, "", errs, where, path.parent, defaults, schema=survey_schema(), warnings=warnings)
     input_files = {str(path): "survey"}
 

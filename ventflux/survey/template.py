@@ -17,7 +17,8 @@ from pathlib import Path
 
 import numpy as np
 
-from .schema import DataColumn, SurveyKey, find, survey_schema
+from .schema import DataColumn, SurveyKey, find
+from .spec import survey_schema
 
 HEADER = """\
 # A starter survey written by 'ventflux survey --template'. Every name and number in it is fictional:
