@@ -67,10 +67,9 @@ class Fields:
         return k
 
     def _old_names(self, name: str) -> list[str]:
-        from ..vocabulary import RENAMED_KEYS
+        from .schema import old_names
 
-        return [old for scope in (self.scope, "*") for old, new in RENAMED_KEYS.get(scope, {}).items()
-                if new == name]
+        return old_names(self.scope, name)
 
     def _lookup(self, name: str) -> str | None:
         """The spelling of ``name`` the file uses: the key itself, a deprecated old name (recorded), or None."""

@@ -263,8 +263,9 @@ def _heading(path: str, t: SurveyKey) -> str:
     return f"{bracket}{who}: {t.meaning}"
 
 
-def _old_names(scope: str, name: str) -> list[str]:
-    """Deprecated spellings of key ``name`` in the table at ``scope`` (``ventflux.vocabulary.RENAMED_KEYS``)."""
+def old_names(scope: str, name: str) -> list[str]:
+    """Deprecated spellings of key ``name`` in the table at ``scope`` (``ventflux.vocabulary.RENAMED_KEYS``, the
+    inverse of ``ventflux.vocabulary.renamed_key``)."""
     from ..vocabulary import RENAMED_KEYS
 
     return sorted(old for s in (scope, "*") for old, new in RENAMED_KEYS.get(s, {}).items() if new == name)
@@ -286,7 +287,7 @@ def _key_lines(k: SurveyKey, scope: str = "") -> list[str]:
         facts.append("one of " + " | ".join(f'"{c}"' for c in k.choices))
     if k.default is not None:
         facts.append(f"default {k.default}")
-    old = _old_names(scope, k.name)
+    old = old_names(scope, k.name)
     if old:
         facts.append(f"formerly {', '.join(old)}: still read, deprecated")
     out = _wrap(f"  {k.name:<24} ", k.meaning) + _wrap(" " * 27, f"({'; '.join(facts)})")
