@@ -363,3 +363,12 @@ def test_a_plugin_table_without_declared_keys_is_recorded_and_refused_in_strict_
     with strict_schema(), pytest.raises(UndeclaredKey):
         load_survey(path)
     assert "(its provider declares no keys)" in format_text(survey_schema(), "legacy_sonar")
+
+
+def test_a_position_far_from_the_site_is_flagged(tmp_path):
+    far = 'position = { latitude = 10.0, longitude = -99.5 }'  # 0.5° of longitude at 10° N: about 55 km
+    spec = load_survey(_survey(tmp_path, SITE + VENT.format(key="exit_temperature", position=far)))
+    (w,) = spec.warnings.as_list()
+    assert w["key"] == "vent[0].position" and "55 km" in w["message"]
+    near = 'position = { latitude = 10.001, longitude = -100.002 }'
+    assert not load_survey(_survey(tmp_path, SITE + VENT.format(key="exit_temperature", position=near))).warnings

@@ -340,6 +340,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     if isinstance(parsed_sections.get("ridge_flank"), dict):
         _check_flank_observations(errs, parsed_sections["ridge_flank"].get("table"))
         _check_flank_rise(top.sub("ridge_flank"), parsed_sections["ridge_flank"].get("temperature_rise"), site)
+    _check_positions(site, vents, parsed_sections, warnings)
     reservoirs = [_parse_reservoir(rf, names, site) for rf in top.subs("reservoir")]
     if "field_plume" in parsed_sections and isinstance(parsed_sections["field_plume"], dict):
         fp = top.sub("field_plume")
@@ -359,6 +360,31 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     return SurveySpec(path=path, site=site, draws=int(draws), seed=int(seed), shared=shared, vents=vents,
                       sections=parsed_sections, reservoirs=reservoirs, defaults_used=defaults,
                       input_files=input_files, max_unphysical=float(max_unphysical), warnings=warnings)
+
+
+#: Farther than this from the site's latitude/longitude, a vent's or patch's position is flagged (a vent field
+#: spans a few km; a larger distance is more likely a typo or a sign error than a vent; a choice).
+POSITION_WARNING_KM = 20.0
+
+
+def _check_positions(site, vents, sections, warnings: Warnings) -> None:
+    """Flag (not refuse) a latitude/longitude far from the site's: the map would show it, the numbers not."""
+    if site is None or site.latitude is None or site.longitude is None:
+        return
+    import math
+
+    def km(p: Position) -> float:  # equirectangular, mean Earth radius 6371 km: ample at these distances
+        dlon = (p.longitude - site.longitude + 180.0) % 360.0 - 180.0
+        x = math.radians(dlon) * math.cos(math.radians((p.latitude + site.latitude) / 2))
+        return 6371.0 * math.hypot(x, math.radians(p.latitude - site.latitude))
+
+    placed = [(f"vent[{i}].position", f"vent '{v.name}'", v.position) for i, v in enumerate(vents)]
+    diffuse = sections.get("diffuse")
+    for name, pos in ((diffuse or {}).get("positions") or {}).items() if isinstance(diffuse, dict) else ():
+        placed.append(("diffuse.patches", f"patch '{name}'", pos))
+    for key, what, pos in placed:
+        if pos is not None and pos.latitude is not None and km(pos) > POSITION_WARNING_KM:
+            warnings.add(key, f"{what} lies {km(pos):.0f} km from the site's latitude/longitude: check its position")
 
 
 def _series(vents, sections) -> int:
