@@ -372,3 +372,12 @@ def test_a_position_far_from_the_site_is_flagged(tmp_path):
     assert w["key"] == "vent[0].position" and "55 km" in w["message"]
     near = 'position = { latitude = 10.001, longitude = -100.002 }'
     assert not load_survey(_survey(tmp_path, SITE + VENT.format(key="exit_temperature", position=near))).warnings
+
+
+def test_a_misspelt_key_names_the_closest_declared_one(tmp_path):
+    text = SITE + VENT.format(key="exit_temperature", position="").replace('diameter = "10 cm"',
+                                                                           'diameter = "10 cm"\n  velocity_knd = "x"')
+    with pytest.raises(InputError) as e:
+        load_survey(_survey(tmp_path, text))
+    assert e.value.value == "(unknown key)" and "(closest: 'velocity_kind')" in e.value.allowed
+    assert "ventflux survey --format vent.orifice" in e.value.allowed

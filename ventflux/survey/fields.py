@@ -158,7 +158,12 @@ class Fields:
         else:
             allowed = sorted(self.used | set(extra_allowed))
         for k in unknown:
-            self.error(k, "(unknown key)", "one of " + ", ".join(allowed))
+            import difflib
+
+            close = difflib.get_close_matches(str(k), allowed, n=1)
+            hint = f" (closest: '{close[0]}')" if close else ""
+            where = f"; see 'ventflux survey --format {self.scope}'" if self.schema is not None and self.scope else ""
+            self.error(k, "(unknown key)", "one of " + ", ".join(allowed) + hint + where)
 
     # -- getters ----------------------------------------------------------------
     def quantity(self, name, dimension, required=False, default=None, uncertain=True, positive=False,
