@@ -676,7 +676,7 @@ def _check_ctd(f: Fields, site: SiteSpec):
 
     cast = Path(site.ctd or "")
     for old, new in renamed_columns(cast, CTD_COLUMNS):
-        f.warnings.add(f.key("ctd"), deprecation_line(f"{old}' column of '{cast.name}", new))
+        f.warnings.add(f.key("ctd"), deprecation_line(old, new, where=f"column of {cast.name}"))
     kwargs: dict[str, object] = {"latitude": site.latitude, "longitude": site.longitude}
     if site.ctd_window is not None:
         kwargs["window"] = site.ctd_window
