@@ -34,7 +34,7 @@ VENT = """
 [[vent]]
 name = "{name}"
   [[vent.orifice]]
-  temperature = "{T} ± 1 degC"
+  exit_temperature = "{T} ± 1 degC"
   velocity = "{v} ± 0.02 m/s"
   diameter = "10 ± 0.1 cm"
   size_factor = "@laser scale"

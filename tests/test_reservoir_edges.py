@@ -130,7 +130,7 @@ def test_summarize_reservoir_depth_below_seafloor_and_named_length(capsys):
 _SURVEY = """
 [site]
 name = "Test Site"
-pressure = "8 MPa"
+absolute_pressure = "8 MPa"
 latitude = 10.0
 longitude = -100.0
 ambient_temperature = "2.0 degC"
@@ -138,7 +138,7 @@ ambient_temperature = "2.0 degC"
 [[vent]]
 name = "A"
   [[vent.orifice]]
-  temperature = "250 degC"
+  exit_temperature = "250 degC"
   velocity = "1.0 m/s"
   diameter = "10 cm"
 
