@@ -9,6 +9,7 @@ import json
 
 import numpy as np
 import pytest
+from conftest import survey_site
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -31,18 +32,7 @@ from ventflux.units import Q_
 SEED = 4321
 DRAWS = 3000
 
-SITE = f"""
-[site]
-name = "Test Site"
-depth = "2500 m"
-latitude = 10.0
-longitude = -100.0
-ambient_temperature = "2.0 ± 0.05 degC"
-
-[run]
-draws = {DRAWS}
-seed = {SEED}
-"""
+SITE = survey_site(ambient_temperature="2.0 ± 0.05 degC", ambient_salinity=None, draws=DRAWS, seed=SEED)
 
 
 def _survey(tmp_path, text):

@@ -6,6 +6,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import survey_site
 
 from ventflux.cli import main
 from ventflux.errors import InputError, InputErrors
@@ -13,19 +14,7 @@ from ventflux.survey import report
 from ventflux.survey.run import run_survey
 from ventflux.survey.spec import load_survey
 
-SITE = """
-[site]
-name = "Test Site"
-depth = "2500 m"
-latitude = 10.0
-longitude = -100.0
-ambient_temperature = "2.0 degC"
-ambient_salinity = 34.6
-
-[run]
-draws = 4000
-seed = 5
-"""
+SITE = survey_site(draws=4000, seed=5)
 
 VENT = """
 [[vent]]

@@ -13,6 +13,7 @@ import shutil
 from pathlib import Path
 
 import pytest
+from conftest import survey_site
 
 from ventflux.cli import main
 from ventflux.errors import InputError, InputErrors
@@ -111,15 +112,7 @@ def _collector():
 
 
 # ---- renamed keys ----------------------------------------------------------------------------------------------
-SITE = """
-[site]
-name = "Test Site"
-depth = "2500 m"
-latitude = 10.0
-longitude = -100.0
-ambient_temperature = "2.0 degC"
-ambient_salinity = 34.6
-"""
+SITE = survey_site()
 
 VENT = """
 [[vent]]
