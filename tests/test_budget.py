@@ -6,6 +6,7 @@ import numpy as np
 
 from ventflux.survey.budget import survey_budget
 import pytest
+from conftest import survey_site
 
 from ventflux.cli import main
 from ventflux.survey import report
@@ -13,19 +14,7 @@ from ventflux.survey.budget import input_draws, label
 from ventflux.survey.run import run_survey
 from ventflux.survey.spec import load_survey
 
-SITE = """
-[site]
-name = "Budget Test"
-depth = "2500 m"
-latitude = 10.0
-longitude = -100.0
-ambient_temperature = "2.0 degC"
-ambient_salinity = 34.6
-
-[run]
-draws = {draws}
-seed = 5
-
+SITE = survey_site("Budget Test", draws="{draws}", seed=5) + """
 [shared]
 "laser scale" = "1.00 ± 0.12"
 """
@@ -34,7 +23,7 @@ VENT = """
 [[vent]]
 name = "{name}"
   [[vent.orifice]]
-  temperature = "{T} ± 1 degC"
+  exit_temperature = "{T} ± 1 degC"
   velocity = "{v} ± 0.02 m/s"
   diameter = "10 ± 0.1 cm"
   size_factor = "@laser scale"

@@ -138,7 +138,7 @@ def test_a_vent_without_exit_temperature_is_a_warning_everywhere(light_demo, cap
     """A vent measured only by its plume cannot join the water total: printed at --check, in the run,
     in summary.json and in the report's warnings section."""
     text = light_demo.read_text()
-    light_demo.write_text(text + '\n[[vent]]\nname = "Far plume"\n  [vent.plume_rise]\n  height = "120 ± 20 m"\n'
+    light_demo.write_text(text + '\n[[vent]]\nname = "Far plume"\n  [vent.plume_rise]\n  rise_height = "120 ± 20 m"\n'
                                  '  method = "closed-form"\n')
     rc = main(["survey", str(light_demo), "--check"])
     cap = capsys.readouterr()

@@ -9,6 +9,7 @@ import json
 
 import numpy as np
 import pytest
+from conftest import survey_site
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -31,18 +32,7 @@ from ventflux.units import Q_
 SEED = 4321
 DRAWS = 3000
 
-SITE = f"""
-[site]
-name = "Test Site"
-depth = "2500 m"
-latitude = 10.0
-longitude = -100.0
-ambient_temperature = "2.0 ± 0.05 degC"
-
-[run]
-draws = {DRAWS}
-seed = {SEED}
-"""
+SITE = survey_site(ambient_temperature="2.0 ± 0.05 degC", ambient_salinity=None, draws=DRAWS, seed=SEED)
 
 
 def _survey(tmp_path, text):
@@ -208,8 +198,8 @@ def test_from_mean_sd_keeps_mean_and_sd_inside_the_bound():
 
 
 def test_plume_rise_cli_and_survey_draw_identically(tmp_path, capsys):
-    site = SITE.replace('depth = "2500 m"', 'pressure = "25 MPa"').replace(f"draws = {DRAWS}", "draws = 400")
-    text = site + ('\n[[vent]]\nname = "Vent P"\n  [vent.plume_rise]\n  height = "250 ± 25 m"\n'
+    site = SITE.replace('depth = "2500 m"', 'absolute_pressure = "25 MPa"').replace(f"draws = {DRAWS}", "draws = 400")
+    text = site + ('\n[[vent]]\nname = "Vent P"\n  [vent.plume_rise]\n  rise_height = "250 ± 25 m"\n'
                    '  buoyancy_frequency = "1.0e-3 ± 1e-4 1/s"\n  entrainment = "0.12 ± 0.01"\n')
     result = _survey(tmp_path, text)
     H = result.vents[0].methods["plume_rise"].heat_power.to("W").magnitude

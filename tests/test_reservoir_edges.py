@@ -9,6 +9,7 @@ import json
 
 import numpy as np
 import pytest
+from conftest import survey_site
 
 from ventflux import reservoir as rv
 from ventflux.cli import main
@@ -127,18 +128,11 @@ def test_summarize_reservoir_depth_below_seafloor_and_named_length(capsys):
     assert "reservoir pressure" in err and "Traceback" not in err
 
 
-_SURVEY = """
-[site]
-name = "Test Site"
-pressure = "8 MPa"
-latitude = 10.0
-longitude = -100.0
-ambient_temperature = "2.0 degC"
-
+_SURVEY = survey_site(absolute_pressure="8 MPa", ambient_salinity=None) + """
 [[vent]]
 name = "A"
   [[vent.orifice]]
-  temperature = "250 degC"
+  exit_temperature = "250 degC"
   velocity = "1.0 m/s"
   diameter = "10 cm"
 

@@ -6,6 +6,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from conftest import survey_site
 
 from ventflux.cli import main
 from ventflux.errors import InputError, InputErrors
@@ -13,25 +14,13 @@ from ventflux.survey import report
 from ventflux.survey.run import run_survey
 from ventflux.survey.spec import load_survey
 
-SITE = """
-[site]
-name = "Test Site"
-depth = "2500 m"
-latitude = 10.0
-longitude = -100.0
-ambient_temperature = "2.0 degC"
-ambient_salinity = 34.6
-
-[run]
-draws = 4000
-seed = 5
-"""
+SITE = survey_site(draws=4000, seed=5)
 
 VENT = """
 [[vent]]
 name = "{name}"
   [[vent.orifice]]
-  temperature = "350 degC"
+  exit_temperature = "350 degC"
   velocity = "1.0 m/s"
   diameter = "10 cm"
   size_factor = "{factor}"
@@ -50,12 +39,12 @@ def test_every_problem_is_reported_at_once(tmp_path):
 name = "A"
 colour = "red"
   [[vent.orifice]]
-  temperature = "350 degC"
+  exit_temperature = "350 degC"
   velocity = "1.0 s"
   diameter = "-3 cm"
 
   [[vent.orifice]]
-  temperature = "1.5 degC"
+  exit_temperature = "1.5 degC"
   velocity = "1.0 m/s"
   diameter = "3 cm"
 
@@ -67,7 +56,7 @@ patches = "missing.csv"
     lines = err.value.lines()
     joined = "\n".join(lines)
     for needle in ("site.latitude", "vent[0].colour", "vent[0].orifice[0].velocity", "vent[0].orifice[0].diameter",
-                   "vent[0].orifice[1].temperature", "diffuse.patches"):
+                   "vent[0].orifice[1].exit_temperature", "diffuse.patches"):
         assert needle in joined, needle
     assert all(str(tmp_path / "survey.toml") in line for line in lines)
 
@@ -81,11 +70,11 @@ def test_cli_reports_all_problems_with_exit_2(tmp_path, capsys):
 
 def test_boiling_exit_temperature_is_refused_before_computing(tmp_path):
     # At 12 MPa (about 1190 m) water boils at 324.68 degC (IAPWS-IF97 steam tables; from memory).
-    text = SITE.replace('depth = "2500 m"', 'pressure = "12 MPa"') + VENT.format(name="A", factor="1.0").replace(
-        '"350 degC"', '"330 degC"')
+    text = SITE.replace('depth = "2500 m"', 'absolute_pressure = "12 MPa"') + VENT.format(
+        name="A", factor="1.0").replace('"350 degC"', '"330 degC"')
     with pytest.raises((InputError, InputErrors)) as err:
         load_survey(_write(tmp_path, text))
-    assert "vent[0].orifice[0].temperature" in str(err.value) and "324.6" in str(err.value)
+    assert "vent[0].orifice[0].exit_temperature" in str(err.value) and "324.6" in str(err.value)
 
 
 def test_csv_problems_name_file_and_line(tmp_path):

@@ -14,7 +14,9 @@ Hooks and descriptions
     ``FluidModelInfo``, ``Reader``, ``VelocitySource`` (what hooks return);
     ``SurveyMethod``, ``SurveySection``, ``MethodEstimate``,
     ``SectionEstimate``, ``ReportPart`` (survey methods and sections, and the
-    report titles, tables and figures they supply).
+    report titles, tables and figures they supply); ``SurveyKey``,
+    ``DataColumn``, ``survey_table`` (the keys and CSV columns a survey
+    method or section declares in its ``keys``).
 Units and errors
     ``ureg``, ``Q_``, ``parse_quantity``, ``magnitude``, ``require_dimension``,
     ``column_name``, ``parse_column_name``; ``InputError``, ``InputErrors``,
@@ -86,6 +88,8 @@ from .survey.api import (
     SurveySection,
 )
 from .survey.fields import SharedRef, as_float, nominal_of, resolve
+from .survey.schema import DataColumn, SurveyKey
+from .survey.schema import table as survey_table
 from .tables import read_quantity_table
 from .uncertainty import (
     DEFAULT_DRAWS,
@@ -164,6 +168,9 @@ __all__ = [
                           "Summary",
                           "SurveyMethod",
                           "SurveySection",
+                          "SurveyKey",
+                          "DataColumn",
+                          "survey_table",
                           "Uncertain",
                           "UnphysicalPolicy",
                           "VelocitySource",

@@ -134,7 +134,7 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
     Parameters
     ----------
     path : path-like
-        CSV with ``depth [m]`` and/or ``pressure [dbar]`` (sea pressure),
+        CSV with ``depth [m]`` and/or ``sea_pressure [dbar]`` (formerly ``pressure``),
         ``temperature [degC]`` (in situ) and ``salinity`` (practical).
     latitude, longitude : float (degrees) or pint.Quantity, optional
         Position; latitude sets gravity and the depth–pressure relation, and
@@ -157,17 +157,19 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
     lat = _degrees(latitude, "latitude")
     lon = _degrees(longitude, "longitude")
     tbl = read_quantity_table(path, columns={"temperature": "temperature", "salinity": "dimensionless"},
-                              optional={"depth": "length", "pressure": "pressure"},
-                              alternatives=[("depth", "pressure")])
+                              optional={"depth": "length", "sea_pressure": "pressure", "pressure": "pressure"},
+                              alternatives=[("depth", "sea_pressure", "pressure")])
     where = lambda i: f"{path}:{tbl.lines[i]}"  # noqa: E731
     lat0 = 0.0 if lat is None else lat
-    if "pressure" in tbl:
-        p = tbl["pressure"].to("dbar").magnitude  # sea pressure, as a CTD reports it
-        key, label = p, "pressure"
+    # "pressure" is the column's name before ventflux.vocabulary (sea pressure too), read for one release.
+    sea = "sea_pressure" if "sea_pressure" in tbl else "pressure" if "pressure" in tbl else None
+    if sea is not None:
+        p = tbl[sea].to("dbar").magnitude  # sea pressure, as a CTD reports it
+        key, label = p, sea
     if "depth" in tbl:
         z = tbl["depth"].to("m").magnitude
         key, label = z, "depth"
-    if "pressure" not in tbl:
+    if sea is None:
         p = gsw.p_from_z(-z, lat0)
     if "depth" not in tbl:
         z = -gsw.z_from_p(p, lat0)

@@ -46,7 +46,7 @@ def ctd_cast():
     ct = gsw.CT_from_pt(sa, theta)
     t = gsw.t_from_CT(sa, ct, p) + RNG.normal(0, 0.001, p.size)
     rows = [(f"{a:.1f}", f"{b:.4f}", f"{c:.4f}") for a, b, c in zip(p, t, sp + RNG.normal(0, 0.0005, p.size))]
-    write_csv(DATA / "ctd_cast.csv", ["pressure [dbar]", "temperature [degC]", "salinity"], rows,
+    write_csv(DATA / "ctd_cast.csv", ["sea_pressure [dbar]", "temperature [degC]", "salinity"], rows,
               "Oskeran Ridge, cast OSK-26-C03 (invented), in-situ temperature, practical salinity")
 
 
@@ -63,13 +63,27 @@ def patches():
                          f"{dT * RNG.lognormal(0, 0.35):.2f}", f"{0.3 + 0.1 * dT:.2f}",
                          f"{w_cm * RNG.lognormal(0, 0.4):.3f}", f"{0.3 * w_cm:.3f}"))
             k += 1
+    # Where each patch is, east/north of the Gildhorn spire (the survey's local origin): mats close around the
+    # vents, cracked basalt farther out, sediment on the apron. A stream of its own, so the other data stay as
+    # they were before positions were added.
+    pos = np.random.default_rng(2026_12_02)
+    reach = {"mat": (10, 60), "cracked basalt": (50, 140), "sediment": (120, 260)}
+    rows = [r + tuple(f"{v:.0f}" for v in _east_north(pos, *reach[r[1]])) for r in rows]
     write_csv(DATA / "patches.csv",
               ["patch", "class", "area [m^2]", "area_sd [m^2]", "active_fraction", "active_fraction_sd",
-               "temperature_anomaly [K]", "temperature_anomaly_sd [K]", "velocity [cm/s]", "velocity_sd [cm/s]"],
-              rows, "diffuse-flow patches sampled on dives OSK-26-D04 to D09 (invented)")
+               "temperature_anomaly [K]", "temperature_anomaly_sd [K]", "velocity [cm/s]", "velocity_sd [cm/s]",
+               "east [m]", "north [m]"],
+              rows, "diffuse-flow patches sampled on dives OSK-26-D04 to D09 (invented); east/north from the "
+                    "Gildhorn spire")
     write_csv(DATA / "area_classes.csv", ["class", "area [m^2]", "area_sd [m^2]"],
               [("mat", "1850", "250"), ("cracked basalt", "4200", "600"), ("sediment", "9500", "1500")],
               "mapped area of each seafloor class from the photo mosaic (invented)")
+
+
+def _east_north(rng, near, far):
+    """A point at a distance from ``near`` to ``far`` metres of the origin, in any direction."""
+    r, a = rng.uniform(near, far), rng.uniform(0, 2 * np.pi)
+    return r * np.sin(a), r * np.cos(a)
 
 
 def probe_records():

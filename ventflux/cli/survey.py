@@ -8,39 +8,18 @@ from pathlib import Path
 from ..registry import Method
 from .output import add_output_options, print_json
 
-FORMAT = """\
-A survey file is TOML. Quantities are strings with units ("2.05 degC", "2480 m"); any measured value may carry
-an uncertainty ("1.4 ± 0.2 m/s", "uniform(9, 11) cm", "lognormal(0.3, 1.5) cm/s") or refer to a named entry
-of [shared] as "@name" (drawn once per Monte Carlo draw for every value that refers to it). Paths are relative
-to the survey file; CSV files carry units in their column headers ("temperature [degC]").
-
-[site]       name (required), cruise, depth | pressure (absolute), latitude, longitude (required),
-             ambient_temperature (required), ambient_salinity (practical, default 35),
-             ctd (CSV cast: "pressure [dbar]" or "depth [m]", "temperature [degC]", "salinity"),
-             ctd_smoothing (a length: the profile's smoothing window)
-[run]        draws (default 10000; at most what the machine's memory holds), seed (default 20261202; 0 to 2^32-1),
-             max_unphysical (largest share of draws dropped as physically impossible, counted and reported,
-             before the run refuses; default 0.05), allow_implausible (default false: values outside
-             ventflux.limits' plausibility table are refused)
-[shared]     name = value, e.g. "camera scale" = "1.00 ± 0.03" (a relative factor) or any quantity
-[[vent]]     name (required), exit_temperature (for the water flux, if no orifice gives one), and methods:
-{methods}
-{sections}
-[[reservoir]] name, supplies ("field total" | "focused" | "diffuse" | a vent name), volume | area + thickness,
-             temperature_drop, temperature (initial, for the pore fluid), porosity, melt_volume, rock_density,
-             pressure | depth_below_seafloor (default: the seafloor pressure), pressure_regime
-             ("hydrostatic" | "lithostatic", below the seafloor), size (the length L of the conductive
-             time L²/κ; default a sheet's thickness, else the cube root of the volume)
-"""
-
-
 def configure(p):
     p.add_argument("survey", nargs="?", help="the survey file (TOML)")
     p.add_argument("--out", metavar="DIR", default=None,
                    help="results folder (default: ventflux-results/<scenario> in the current folder); it is "
                         "replaced only once the new one is complete")
     p.add_argument("--check", action="store_true", help="validate the survey file and its data files, compute nothing")
-    p.add_argument("--format", action="store_true", help="describe the survey file's format and exit")
+    p.add_argument("--format", nargs="?", const="", default=None, metavar="TABLE",
+                   help="describe the survey file: every table, key and CSV column (or one TABLE, e.g. vent.orifice "
+                        "or diffuse; with --json as JSON) and exit")
+    p.add_argument("--template", nargs="?", const="survey.toml", default=None, metavar="PATH",
+                   help="write a commented starter survey to PATH (default survey.toml) and its sample data files "
+                        "under data/ beside it, then exit; existing files are never overwritten")
     p.add_argument("--draws", type=int, default=None, metavar="N", help="override the file's Monte Carlo draws")
     p.add_argument("--seed", type=int, default=None, help="override the file's random seed")
     p.add_argument("--quiet", action="store_true", help="no progress messages")
@@ -51,14 +30,31 @@ def configure(p):
     add_output_options(p)
 
 
-def _format_text():
-    from ..survey.spec import survey_components
+def _describe(args) -> int:
+    """``--format [TABLE]``: the survey schema as text or JSON."""
+    from ..survey.schema import as_json, format_text
+    from ..survey.spec import survey_schema
 
-    methods, sections = survey_components()
-    m = "\n".join(f"             [vent.{k}]{'(array: [[vent.' + k + ']])' if v.many else ''}: {v.summary} "
-                  f"({v.provider})" for k, v in sorted(methods.items()))
-    s = "\n".join(f"[{k}]  {v.summary} ({v.provider})" for k, v in sorted(sections.items()))
-    return FORMAT.format(methods=m, sections=s)
+    schema = survey_schema()
+    if args.json:
+        print_json(as_json(schema, args.format or None))
+    else:
+        print(format_text(schema, args.format or None))
+    return 0
+
+
+def _template(args) -> int:
+    """``--template [PATH]``: write the starter survey and its data files."""
+    from ..survey.template import write_template
+
+    written = write_template(args.template)
+    if args.json:
+        print_json({"written": [str(p) for p in written]})
+    else:
+        for p in written:
+            print(f"wrote {p}")
+        print(f"next: edit them, then 'ventflux survey --check {written[0]}'")
+    return 0
 
 
 def run(args) -> int:
@@ -67,9 +63,10 @@ def run(args) -> int:
     from ..survey.run import run_survey
     from ..survey.spec import load_survey
 
-    if args.format:
-        print(_format_text())
-        return 0
+    if args.format is not None:
+        return _describe(args)
+    if args.template is not None:
+        return _template(args)
     if not args.survey:
         raise InputError("survey", "(missing)", "the path of a survey file (see 'ventflux survey --format')")
     if args.draws is not None and args.draws < 100:

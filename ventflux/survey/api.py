@@ -61,6 +61,9 @@ class SurveyMethod:
     many: bool = False  # an array of tables ([[vent.orifice]]) rather than one table
     provider: str = "ventflux"
     report: ReportPart = field(default_factory=lambda: ReportPart(rank=30))
+    #: The keys of the method's table (``ventflux.survey.schema.SurveyKey``): the validator refuses any other,
+    #: and ``ventflux survey --format`` documents them.
+    keys: tuple = ()
 
 
 @dataclass(frozen=True)
@@ -71,6 +74,8 @@ class SurveySection:
     estimate: Callable  # (spec, context) -> SectionEstimate
     provider: str = "ventflux"
     report: ReportPart = field(default_factory=ReportPart)
+    #: The keys of the section's table (``ventflux.survey.schema.SurveyKey``), as for ``SurveyMethod.keys``.
+    keys: tuple = ()
 
 
 @dataclass

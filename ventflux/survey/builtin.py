@@ -29,6 +29,7 @@ from ..uncertainty import Uncertain, propagate
 from ..units import Q_
 from .api import MethodEstimate, ReportPart, SectionEstimate, SurveyMethod, SurveySection
 from .fields import SharedRef, as_float, nominal_of
+from .schema import DataColumn, SurveyKey
 
 #: The mean/centreline velocity ratio of a fully turbulent jet exit, a range rather than a constant: power-law
 #: profiles u ∝ (1 − r/R)^(1/m) with m from 6 to 10 (Schlichting, Boundary-Layer Theory; from memory) give
@@ -37,15 +38,42 @@ from .fields import SharedRef, as_float, nominal_of
 PROFILE_FACTOR_UNCERTAIN = Uncertain("normal", CENTERLINE_PROFILE_FACTOR, 0.025, "dimensionless")
 PROFILE_FACTOR_NAME = "constants/velocity profile factor"
 
-_ORIFICE_KEYS = (("temperature", "temperature"), ("velocity", "velocity"), ("diameter", "length"),
-                 ("minor_diameter", "length"), ("area", "area"))
+#: Survey key → (parsed name, dimension) of an orifice's measurements (the parsed names are the inputs of
+#: ``orifice_discharge`` and the draw names of ``ventflux orifice --name``).
+_ORIFICE_KEYS = (("exit_temperature", "temperature", "temperature"), ("velocity", "velocity", "velocity"),
+                 ("diameter", "diameter", "length"), ("minor_diameter", "minor_diameter", "length"),
+                 ("area", "area", "area"))
+
+ORIFICE_KEYS = (
+    SurveyKey("name", "string", "the orifice's label in the report", default="orifice 1, 2, ...",
+              example='"E-1 main spire"'),
+    SurveyKey("exit_temperature", "temperature", "exit temperature of the fluid at the orifice", required=True,
+              uncertain=True, example='"338 ± 2 degC"'),
+    SurveyKey("velocity", "velocity", "exit velocity (area mean, or centreline: see velocity_kind)", required=True,
+              uncertain=True, example='"1.2 ± 0.2 m/s"'),
+    SurveyKey("velocity_kind", "string", "what the velocity is: the area mean or the centreline speed",
+              choices=("area-mean", "centerline"), default='"area-mean"'),
+    SurveyKey("diameter", "length", "orifice diameter (the major axis of an elliptical one)",
+              required="unless area is given (exactly one of the two)", uncertain=True, example='"7.5 ± 0.6 cm"'),
+    SurveyKey("minor_diameter", "length", "minor axis of an elliptical orifice (with diameter)", uncertain=True),
+    SurveyKey("area", "area", "orifice area (instead of diameter)", uncertain=True),
+    SurveyKey("temperature_offset", "temperature", "calibration offset added to the exit temperature "
+              "(typically \"@name\" of [shared]: one probe for every orifice)", uncertain=True),
+    SurveyKey("size_factor", "dimensionless", "calibration factor on the diameters (area: squared), e.g. one "
+              "photo scale shared by every orifice", uncertain=True),
+    SurveyKey("velocity_factor", "dimensionless", "calibration factor on the velocity", uncertain=True),
+    SurveyKey("profile_factor", "dimensionless", "mean/centreline velocity ratio, for velocity_kind = "
+              "\"centerline\"", uncertain=True,
+              default=f"{CENTERLINE_PROFILE_FACTOR:.3f} ± 0.025 (turbulent power-law profiles)"),
+)
 
 
 # ---- orifice measurements ----------------------------------------------------
 def _parse_orifice(f, ctx):
     spec = {"name": f.string("name", default=None)}
-    for key, dim in _ORIFICE_KEYS:
-        spec[key] = f.quantity(key, dim, required=key in ("temperature", "velocity"), positive=key != "temperature")
+    for key, name, dim in _ORIFICE_KEYS:
+        spec[name] = f.quantity(key, dim, required=key in ("exit_temperature", "velocity"),
+                                positive=key != "exit_temperature")
     if (spec["diameter"] is None) == (spec["area"] is None) and ("diameter" in f.table) == ("area" in f.table):
         f.error("diameter", "both or neither of diameter and area", "exactly one of diameter or area")
     # Calibration terms, typically "@name" references to [shared] so that every
@@ -77,14 +105,14 @@ def _check_exit_temperature(f, temperature, site):
         return  # the site's own error is reported already
     T = nominal_of(temperature).to("K").magnitude
     Ta = nominal_of(site.ambient_temperature).to("K").magnitude
-    raw = f.table.get("temperature")
+    raw = f.raw("exit_temperature")
     if not T > Ta:
-        f.error("temperature", raw, "an exit temperature above the site's ambient temperature")
+        f.error("exit_temperature", raw, "an exit temperature above the site's ambient temperature")
         return
     try:
-        fluid_model().check(T, p, "temperature")
+        fluid_model().check(T, p, "exit_temperature")
     except InputError as e:
-        f.error("temperature", raw, e.allowed)
+        f.error("exit_temperature", raw, e.allowed)
 
 
 def _estimate_orifices(specs, vent, ctx):
@@ -196,10 +224,88 @@ def nom_value(q, unit):
 ORIFICE = SurveyMethod(key="orifice", many=True,
                        summary="exit temperature, velocity and size of each orifice (IAPWS-95 enthalpy difference)",
                        parse=_parse_orifice, estimate=_estimate_orifices,
-                       report=ReportPart(table="orifices", titles={"orifices": "Orifices"}, rank=20))
+                       report=ReportPart(table="orifices", titles={"orifices": "Orifices"}, rank=20),
+                       keys=ORIFICE_KEYS)
 
 
 # ---- diffuse patches -------------------------------------------------------------
+#: Optional position columns of a patch table (either pair, every row): where each patch is, for the site map.
+PATCH_POSITION_COLUMNS = (
+    DataColumn("east", "m", "east of a local origin (with north)", required=False),
+    DataColumn("north", "m", "north of a local origin (with east)", required=False),
+    DataColumn("latitude", "", "latitude in decimal degrees (with longitude; instead of east/north)",
+               required=False),
+    DataColumn("longitude", "", "longitude in decimal degrees (with latitude)", required=False),
+)
+
+PATCH_COLUMNS = (
+    DataColumn("patch", "", "the patch's name (text)", required=False),
+    DataColumn("class", "", "its mapped area class (text), for scaling up with classes", required=False),
+    DataColumn("area", "m^2", "sampled area", required="unless polygons are given"),
+    DataColumn("active_fraction", "", "share of the area that discharges (0 to 1)"),
+    DataColumn("temperature_anomaly", "K", "temperature above ambient of the discharging fluid"),
+    DataColumn("velocity", "cm/s", "upward velocity of the discharging fluid", required="unless velocity is given "
+               "in [diffuse]"),
+    DataColumn("area_sd", "m^2", "standard deviation of the area", required=False),
+    DataColumn("active_fraction_sd", "", "standard deviation of the active fraction", required=False),
+    DataColumn("temperature_anomaly_sd", "K", "standard deviation of the anomaly", required=False),
+    DataColumn("velocity_sd", "cm/s", "standard deviation of the velocity", required=False),
+    *PATCH_POSITION_COLUMNS,
+)
+
+DIFFUSE_KEYS = (
+    SurveyKey("patches", "path", "the sampled diffuse-flow patches (CSV, one row a patch)", required=True,
+              columns=PATCH_COLUMNS, example='"data/patches.csv"'),
+    SurveyKey("polygons", "path", "patch outlines (CSV) whose areas replace the area column",
+              columns=(DataColumn("patch", "", "the patch's name, as in the patch table"),
+                       DataColumn("x", "m", "vertex east of a local origin, in order around the patch"),
+                       DataColumn("y", "m", "vertex north of a local origin"))),
+    SurveyKey("classes", "path", "mapped area classes (CSV): the patches of a class scale up to its area",
+              columns=(DataColumn("class", "", "the class's name (text)"), DataColumn("area", "m^2", "mapped area"),
+                       DataColumn("area_sd", "m^2", "standard deviation of the mapped area", required=False)),
+              example='"data/area_classes.csv"'),
+    SurveyKey("velocity", "velocity", "one upward velocity for every patch (when the patch table has none)",
+              uncertain=True),
+    SurveyKey("category", "string", "how the section counts in the totals", choices=("diffuse", "focused"),
+              default='"diffuse"'),
+)
+
+
+def _patch_positions(path, t):
+    """Each patch's ``Position`` from the optional position columns (None when the table has none)."""
+    from ..errors import InputError
+    from ..limits import check_position
+    from ..tables import read_quantity_table
+    from .fields import Position
+
+    tbl = read_quantity_table(path, {}, optional={"east": "length", "north": "length",
+                                                  "latitude": "dimensionless", "longitude": "dimensionless"})
+    pairs = [("east", "north"), ("latitude", "longitude")]
+    given = [pair for pair in pairs if any(c in tbl for c in pair)]
+    if not given:
+        return None
+    if len(given) > 1 or not all(c in tbl for c in given[0]):
+        raise InputError("column", ", ".join(c for pair in given for c in pair if c in tbl),
+                         "either 'east [m]' and 'north [m]', or 'latitude' and 'longitude' (both of a pair)",
+                         where=str(path))
+    a, b = given[0]
+    out = {}
+    for i, name in enumerate(t.names):
+        if a == "east":
+            out[name] = Position(east=float(tbl["east"][i].to("m").magnitude),
+                                 north=float(tbl["north"][i].to("m").magnitude))
+        else:
+            where = f"{path}:{tbl.lines[i]}"
+            lat = tbl["latitude"][i].to("dimensionless").magnitude
+            lon = tbl["longitude"][i].to("dimensionless").magnitude
+            try:
+                out[name] = Position(latitude=check_position("latitude", lat, "latitude"),
+                                     longitude=check_position("longitude", lon, "longitude"))
+            except InputError as e:
+                raise InputError(e.field, e.value, e.allowed, where=where) from None
+    return out
+
+
 def _parse_diffuse(f, ctx):
     from ..diffuse import read_area_classes, read_patch_table
     from ..errors import InputError, InputErrors
@@ -216,9 +322,12 @@ def _parse_diffuse(f, ctx):
             ctx.input_files[str(p)] = role
     spec["table"] = None
     spec["classes"] = None
+    #: Patch name → ``Position`` (from the table's optional position columns), or None.
+    spec["positions"] = None
     try:
         if patches is not None:
             spec["table"] = read_patch_table(patches, polygons)
+            spec["positions"] = _patch_positions(patches, spec["table"])
         if classes is not None:
             spec["classes"] = read_area_classes(classes)
     except InputErrors as e:
@@ -307,7 +416,7 @@ def _estimate_diffuse(spec, ctx):
 
 
 DIFFUSE = SurveySection(key="diffuse", summary="diffuse-flow patches (TEOS-10 enthalpy), scaled up to mapped areas",
-                        parse=_parse_diffuse, estimate=_estimate_diffuse,
+                        parse=_parse_diffuse, estimate=_estimate_diffuse, keys=DIFFUSE_KEYS,
                         report=ReportPart(titles={"diffuse_classes": "Diffuse discharge by mapped area class",
                                                   "diffuse_patches": "Sampled diffuse patches"}, rank=40))
 

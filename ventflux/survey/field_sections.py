@@ -17,12 +17,29 @@ import numpy as np
 
 from ..units import Q_
 from .api import ReportPart, SectionEstimate, SurveySection
-from .plume_method import PLUME_RISE
+from .plume_method import PLUME_RISE, PLUME_RISE_KEYS
+from .schema import DataColumn, SurveyKey
+
+COMPARES_WITH = SurveyKey("compares_with", "string", "the survey total this check is compared with",
+                          choices=("field total", "focused"), default='"field total"')
+FIELD_PLUME_KEYS = (*PLUME_RISE_KEYS, COMPARES_WITH)
+
+RIDGE_FLANK_KEYS = (
+    SurveyKey("observations", "path", "conductive heat flow observed on the ridge flank (CSV)", required=True,
+              columns=(DataColumn("age", "Myr", "crustal age of the observation"),
+                       DataColumn("heat_flow", "mW/m^2", "observed conductive heat flow")),
+              example='"data/flank_heat_flow.csv"'),
+    SurveyKey("reference", "string", "conductive cooling reference the observations are compared with",
+              choices=("gdh1", "half-space"), default='"gdh1"'),
+    SurveyKey("half_spreading_rate", "velocity", "half spreading rate of the ridge (for the deficit per ridge "
+              "length)", uncertain=True, example='"30 ± 5 mm/yr"'),
+    SurveyKey("temperature_rise", "temperature", "warming of the circulated seawater (for its volume)",
+              uncertain=True, example='"6 ± 2 K"'),
+)
 
 
 def _parse_field_plume(f, ctx):
     compares = f.string("compares_with", default="field total", choices=("field total", "focused"))
-    f.used.add("compares_with")
     spec = PLUME_RISE.parse(f, ctx)
     spec["compares_with"] = compares
     return spec
@@ -39,7 +56,7 @@ def _estimate_field_plume(spec, ctx):
 
 FIELD_PLUME = SurveySection(key="field_plume", summary="rise of the plume above the whole field, as a check on the "
                                                        "sum of vents and patches (not added to the totals)",
-                            parse=_parse_field_plume, estimate=_estimate_field_plume)
+                            parse=_parse_field_plume, estimate=_estimate_field_plume, keys=FIELD_PLUME_KEYS)
 
 
 #: What the flank's water column means, under its table in the report.
@@ -93,5 +110,5 @@ def _estimate_flank(spec, ctx):
 
 RIDGE_FLANK = SurveySection(key="ridge_flank", summary="ridge-flank heat flow against a conductive cooling reference: "
                                                        "advective heat deficit and circulated seawater",
-                            parse=_parse_flank, estimate=_estimate_flank,
+                            parse=_parse_flank, estimate=_estimate_flank, keys=RIDGE_FLANK_KEYS,
                             report=ReportPart(intro={"ridge_flank": FLANK_WATER_COLUMN}))

@@ -10,9 +10,10 @@ answer otherwise.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from pathlib import Path
 
-from ..errors import Collector, InputError
+from ..errors import Collector, InputError, Warnings
 from ..uncertainty import Uncertain, parse_uncertain
 from ..units import Q_, parse_quantity
 
@@ -21,7 +22,7 @@ class Fields:
     """Typed access to one TOML table, collecting errors under a key path."""
 
     def __init__(self, table, path: str, errors: Collector, where: str, base_dir: Path, defaults: dict,
-                 shared: dict | None = None):
+                 shared: dict | None = None, schema=None, scope: str = "", warnings: Warnings | None = None):
         self.table = table if isinstance(table, dict) else {}
         self.path = path
         self.errors = errors
@@ -29,21 +30,71 @@ class Fields:
         self.base_dir = base_dir
         self.defaults = defaults
         self.shared = shared if shared is not None else {}
+        #: The table's declaration (``ventflux.survey.schema.SurveyKey``); None for a table that declares no keys
+        #: (a third-party plugin's that predates the schema: its reads are recorded, and refused in strict mode).
+        self.schema = schema if schema is None or schema.keys or schema.open else None
+        #: The table's place in the schema without indices (``vent.orifice``): renamed keys are looked up by it.
+        self.scope = scope
+        self.warnings = warnings if warnings is not None else Warnings()
         self.used: set[str] = set()
+        #: New key name → the deprecated spelling the file used for it.
+        self.aliases: dict[str, str] = {}
         if not isinstance(table, dict):
             self.error("", type(table).__name__, "a table (section) of keys")
 
     # -- plumbing ---------------------------------------------------------------
     def key(self, name: str) -> str:
+        name = self.aliases.get(name, name)
         return f"{self.path}.{name}" if self.path else name
 
     def error(self, name, value, allowed):
         self.errors.add(InputError(self.key(name) if name else self.path, value, allowed, where=self.where))
 
-    def _get(self, name, required, default):
-        self.used.add(name)
+    def _declare(self, name: str):
+        """The declaration of key ``name`` (None when the table has none); an undeclared read is a parser bug."""
+        if self.schema is None:
+            from .schema import undeclared
+
+            undeclared(self.scope, name + " (table without a declaration)")
+            return None
+        if self.schema.open:
+            return None
+        k = self.schema.child(name)
+        if k is None:
+            from .schema import undeclared
+
+            undeclared(self.scope, name)
+        return k
+
+    def _old_names(self, name: str) -> list[str]:
+        from .schema import old_names
+
+        return old_names(self.scope, name)
+
+    def _lookup(self, name: str) -> str | None:
+        """The spelling of ``name`` the file uses: the key itself, a deprecated old name (recorded), or None."""
         if name in self.table:
-            return self.table[name], False
+            for old in self._old_names(name):
+                if old in self.table and old not in self.used:  # reported once, however often the key is read
+                    self.used.add(old)
+                    self.error(old, self.table[old], f"either '{name}' or its deprecated spelling '{old}', not both")
+            return name
+        for old in self._old_names(name):
+            if old in self.table:
+                from ..vocabulary import deprecation_line
+
+                self.used.add(old)
+                self.aliases[name] = old
+                self.warnings.add(self.key(name), deprecation_line(old, name))
+                return old
+        return None
+
+    def _get(self, name, required, default):
+        self._declare(name)
+        self.used.add(name)
+        written = self._lookup(name)
+        if written is not None:
+            return self.table[written], False
         if required:
             self.error(name, "(missing)", "a value for this required key")
         elif default is not None:
@@ -51,19 +102,38 @@ class Fields:
         return default, True
 
     def has(self, name) -> bool:
-        return name in self.table
+        """Whether the file gives key ``name`` (under its own or a deprecated spelling)."""
+        return name in self.table or any(old in self.table for old in self._old_names(name))
+
+    def raw(self, name):
+        """The value of key ``name`` as written (for error messages), or None."""
+        self.used.add(name)
+        written = self._lookup(name)
+        return None if written is None else self.table[written]
+
+    def mark_used(self, name):
+        """Key ``name`` is read directly from ``table`` by the parser (it must be declared)."""
+        self._declare(name)
+        self.used.add(name)
+
+    def _child(self, name):
+        decl = self._declare(name)
+        scope = f"{self.scope}.{name}" if self.scope else name
+        return decl, scope
 
     def sub(self, name, required=False) -> Fields | None:
+        decl, scope = self._child(name)
         self.used.add(name)
         if name not in self.table:
             if required:
                 self.error(name, "(missing)", "a table for this required section")
             return None
         return Fields(self.table[name], self.key(name), self.errors, self.where, self.base_dir, self.defaults,
-                      self.shared)
+                      self.shared, schema=decl, scope=scope, warnings=self.warnings)
 
     def subs(self, name) -> list[Fields]:
         """An array of tables (``[[vent]]``) as ``Fields`` with indexed key paths."""
+        decl, scope = self._child(name)
         self.used.add(name)
         items = self.table.get(name, [])
         if isinstance(items, dict):
@@ -72,12 +142,28 @@ class Fields:
             self.error(name, type(items).__name__, "an array of tables, e.g. [[" + self.key(name) + "]]")
             return []
         return [Fields(t, f"{self.key(name)}[{i}]", self.errors, self.where, self.base_dir, self.defaults,
-                       self.shared) for i, t in enumerate(items)]
+                       self.shared, schema=decl, scope=scope, warnings=self.warnings) for i, t in enumerate(items)]
 
     def check_unknown(self, extra_allowed=()):
+        """Refuse every key of the table that the parser did not read, naming the table's declared keys."""
+        from .schema import is_strict, undeclared
+
+        if self.schema is not None and not self.schema.open and is_strict():
+            for name in sorted(self.used - set(self.schema.names) - set(extra_allowed)):
+                if name not in {o for n in self.schema.names for o in self._old_names(n)}:
+                    undeclared(self.scope, name)
         unknown = sorted(set(self.table) - self.used - set(extra_allowed))
+        if self.schema is not None and not self.schema.open:
+            allowed = sorted(set(self.schema.names) | set(extra_allowed))
+        else:
+            allowed = sorted(self.used | set(extra_allowed))
         for k in unknown:
-            self.error(k, "(unknown key)", "one of " + ", ".join(sorted(self.used | set(extra_allowed))))
+            import difflib
+
+            close = difflib.get_close_matches(str(k), allowed, n=1)
+            hint = f" (closest: '{close[0]}')" if close else ""
+            where = f"; see 'ventflux survey --format {self.scope}'" if self.schema is not None and self.scope else ""
+            self.error(k, "(unknown key)", "one of " + ", ".join(allowed) + hint + where)
 
     # -- getters ----------------------------------------------------------------
     def quantity(self, name, dimension, required=False, default=None, uncertain=True, positive=False,
@@ -189,6 +275,61 @@ class Fields:
         return p
 
 
+    def position(self, name, required=False):
+        """A ``Position`` from an inline table: ``{latitude, longitude}`` in degrees or ``{east, north}`` lengths."""
+        raw, _ = self._get(name, required, None)
+        if raw is None:
+            return None
+        allowed = ("an inline table {latitude = -17.3012, longitude = -113.6004} in degrees, or "
+                   "{east = \"120 m\", north = \"-35 m\"} from a local origin (lengths; a bare number is metres)")
+        if not isinstance(raw, dict) or set(raw) not in ({"latitude", "longitude"}, {"east", "north"}):
+            self.error(name, repr(raw), allowed)
+            return None
+        from ..limits import check_position
+
+        out: dict[str, float] = {}
+        for axis, v in raw.items():
+            field = f"{self.key(name)}.{axis}"
+            try:
+                if isinstance(v, bool):
+                    raise InputError(field, repr(v), "a number")
+                if axis in ("latitude", "longitude"):
+                    if isinstance(v, str):
+                        raise InputError(field, v, f"a {axis} in decimal degrees, written as a number")
+                    out[axis] = check_position(axis, v, field)
+                else:
+                    q = Q_(float(v), "m") if isinstance(v, (int, float)) else parse_quantity(str(v), "length", field)
+                    metres = float(q.to("m").magnitude)
+                    if not math.isfinite(metres) or abs(metres) > POSITION_RANGE_M:
+                        raise InputError(field, v, f"a finite distance within {POSITION_RANGE_M / 1e3:g} km of the "
+                                                   "local origin")
+                    out[axis] = metres
+            except InputError as e:
+                self.errors.add(InputError(field, e.value, e.allowed, where=self.where))
+                return None
+        return Position(**out)
+
+
+#: Largest distance of a local east/north position from its origin (a vent field spans a few km; a choice).
+POSITION_RANGE_M = 100e3
+
+
+@dataclass(frozen=True)
+class Position:
+    """Where a vent or a patch is: ``latitude``/``longitude`` in degrees, or ``east``/``north`` in metres from
+    a local origin (the survey's own; the site's coordinates are not assumed to be that origin)."""
+
+    latitude: float | None = None
+    longitude: float | None = None
+    east: float | None = None
+    north: float | None = None
+
+    @property
+    def local(self) -> bool:
+        """True for east/north in metres, False for latitude/longitude."""
+        return self.east is not None
+
+
 def _low_tail(value, dimension) -> float:
     """The 5 % point of a distribution, in SI (kelvin for temperatures)."""
     from ..limits import _span
@@ -228,4 +369,4 @@ def as_float(q):
     return q.to("dimensionless").magnitude if hasattr(q, "to") else q
 
 
-__all__ = ["Q_", "Fields", "SharedRef", "as_float", "nominal_of", "resolve"]
+__all__ = ["Q_", "Fields", "Position", "SharedRef", "as_float", "nominal_of", "resolve"]

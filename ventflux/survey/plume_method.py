@@ -20,6 +20,7 @@ from ..uncertainty import Uncertain
 from ..units import Q_
 from .api import MethodEstimate, ReportPart, SurveyMethod
 from .fields import SharedRef, nominal_of
+from .schema import SurveyKey
 
 #: The top-hat entrainment coefficient as the literature gives it, a range: published Gaussian values of pure
 #: plumes span about 0.08–0.12 (e.g. Morton, Taylor & Turner 1956: 0.093; Papanicolaou & List 1988: 0.105;
@@ -27,6 +28,25 @@ from .fields import SharedRef, nominal_of
 #: deviation of 0.015 so that ±2 sd spans that range (a choice). Used when a plume gives no entrainment.
 ENTRAINMENT_UNCERTAIN = Uncertain("normal", 0.093 * np.sqrt(2.0), 0.015, "dimensionless")
 ENTRAINMENT_NAME = "constants/entrainment coefficient"
+
+
+PLUME_RISE_KEYS = (
+    SurveyKey("rise_height", "length", "observed rise of the plume above the vent (or a water-column section file a "
+              "plugin reads, e.g. a tow-yo CSV)", required=True, uncertain=True, example='"180 ± 20 m"'),
+    SurveyKey("level", "string", "what the height is: the plume's maximum rise or its spreading level",
+              choices=("maximum", "spreading"), default='"maximum"', example='"maximum"'),
+    SurveyKey("method", "string", "plume model inverted for the heat power: the integral model, or its "
+              "closed-form constant-stratification limit", choices=("integral", "closed-form"),
+              default='"integral"'),
+    SurveyKey("entrainment", "dimensionless", "top-hat entrainment coefficient (a model constant: give it as "
+              "\"@name\" of [shared] so every plume shares it)", uncertain=True,
+              default=f"{ENTRAINMENT_UNCERTAIN} (the spread of published values)", example='"@entrainment"'),
+    SurveyKey("current", "velocity", "ambient cross current (bends the plume; integral model)", uncertain=True),
+    SurveyKey("buoyancy_frequency", "frequency", "a constant buoyancy frequency N instead of the site's CTD cast",
+              required="unless [site] ctd is given", uncertain=True),
+    SurveyKey("stratification_scale", "dimensionless", "factor on the stratification N² (its uncertainty, shared "
+              "by every plume as \"@name\")", uncertain=True),
+)
 
 
 def _parse(f, ctx):
@@ -42,12 +62,12 @@ def _parse(f, ctx):
         "buoyancy_frequency": f.quantity("buoyancy_frequency", "frequency", positive=True),
         "stratification_scale": f.quantity("stratification_scale", "dimensionless", positive=True),
     }
-    if spec["entrainment"] is None and "entrainment" not in f.table:
+    if spec["entrainment"] is None and not f.has("entrainment"):
         f.defaults[f.key("entrainment")] = (f"{ENTRAINMENT_UNCERTAIN} (top-hat, about {DEFAULT_ENTRAINMENT:.4f}; "
                                             "Morton, Taylor & Turner 1956; the spread of published values)")
     site = ctx.site
-    if site is not None and site.ctd is None and spec["buoyancy_frequency"] is None and "buoyancy_frequency" \
-            not in f.table:
+    if site is not None and site.ctd is None and spec["buoyancy_frequency"] is None and not \
+            f.has("buoyancy_frequency"):
         f.error("buoyancy_frequency", "(missing)", "a buoyancy frequency, or a CTD cast in [site] ctd")
     f.check_unknown()
     return spec
@@ -58,11 +78,11 @@ def _height(f, ctx, level):
     from ..errors import InputError, InputErrors
     from ..registry import readers
 
-    raw = f.table.get("height")
+    raw = f.raw("rise_height")
     found = {sfx: r for r in readers() if r.kind == "rise height" for sfx in r.suffixes}
     if not (isinstance(raw, str) and raw.strip().lower().endswith(tuple(found))):
-        return f.quantity("height", "length", required=True, positive=True)
-    path = f.path_value("height", required=True)
+        return f.quantity("rise_height", "length", required=True, positive=True)
+    path = f.path_value("rise_height", required=True)
     if path is None:
         return None
     ctx.input_files[str(path)] = "water-column section (rise height)"
@@ -126,5 +146,5 @@ def _estimate(spec, vent, ctx):
 
 PLUME_RISE = SurveyMethod(key="plume_rise", summary="observed rise height of the vent's plume in the site's "
                                                    "stratification (integral plume model, inverted)",
-                          parse=_parse, estimate=_estimate,
+                          parse=_parse, estimate=_estimate, keys=PLUME_RISE_KEYS,
                           report=ReportPart(titles={"plume_rise": "Plume rise of each vent"}, rank=21))

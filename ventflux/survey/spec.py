@@ -1,15 +1,16 @@
 """The survey file: a human-editable TOML description of one vent-field survey.
 
-Layout (every key is documented in ``ventflux survey --format``)::
+Layout (every key is declared in ``ventflux.survey.schema`` form beside its
+parser, and printed by ``ventflux survey --format``)::
 
-    [site]            name, depth or pressure, latitude, longitude,
+    [site]            name, depth or absolute_pressure, latitude, longitude,
                       ambient_temperature, ambient_salinity, ctd (a CSV cast)
     [run]             draws, seed, max_unphysical (share of draws dropped as
                       physically impossible before the run refuses; 0.05)
     [shared]          named uncertain inputs drawn once per draw for every
                       value that refers to them as "@name"
     [[vent]]          one table per focused vent: name, exit_temperature,
-                      and one or more methods as sub-tables
+                      position, and one or more methods as sub-tables
                       ([[vent.orifice]], [vent.plume_rise], [vent.video], ...)
     [diffuse]         ... and other field-wide sections
     [[reservoir]]     heat-reservoir hypotheses to test
@@ -32,11 +33,92 @@ from ..resources import check_memory
 from ..uncertainty import MAX_SEED
 from ..units import Q_
 from .api import ParseContext
-from .fields import Fields, SharedRef
+from .fields import Fields, Position, SharedRef
+from .schema import DataColumn, SurveyKey, table
 
 #: Default Monte Carlo draws of a survey run (a choice: the 5-95 % limits of
 #: 10,000 draws are reproducible to about 1 % of the interval width).
 DEFAULT_DRAWS = 10_000
+
+
+#: The columns of a CTD cast (``[site] ctd``); one of depth and sea pressure is required.
+CTD_COLUMNS = (
+    DataColumn("sea_pressure", "dbar", "sea pressure (absolute minus one standard atmosphere), as a CTD reports "
+                                       "it; formerly 'pressure [dbar]' (still read, deprecated)",
+               required="unless depth is given"),
+    DataColumn("depth", "m", "depth below the sea surface", required="unless sea_pressure is given"),
+    DataColumn("temperature", "degC", "in-situ temperature"),
+    DataColumn("salinity", "", "practical salinity (no unit)"),
+)
+
+SITE_TABLE = table("site", "where the survey was made and the ambient seawater (required)", [
+    SurveyKey("name", "string", "the site's name, used in the report and the results folder", required=True,
+              example='"Tarnwick Deep"'),
+    SurveyKey("cruise", "string", "the cruise or expedition, for the report", example='"TW-01"'),
+    SurveyKey("depth", "length", "depth of the vents below the sea surface", required="unless absolute_pressure "
+              "is given (exactly one of the two)", example='"2210 m"'),
+    SurveyKey("absolute_pressure", "pressure", "absolute in-situ pressure at the vents (including the atmosphere)",
+              required="unless depth is given (exactly one of the two)"),
+    SurveyKey("latitude", "number", "latitude of the site in decimal degrees (north positive)", required=True,
+              example="-21.75"),
+    SurveyKey("longitude", "number", "longitude of the site in decimal degrees (east positive)", required=True,
+              example="-118.40"),
+    SurveyKey("ambient_temperature", "temperature", "in-situ temperature of the ambient seawater at the vents",
+              required=True, uncertain=True, example='"2.10 ± 0.02 degC"'),
+    SurveyKey("ambient_salinity", "dimensionless", "practical salinity of the ambient seawater", uncertain=True,
+              default="35 (the TEOS-10 standard ocean's practical salinity)", example="34.69"),
+    SurveyKey("ctd", "path", "a CTD cast (CSV) giving the stratification the plumes rise through",
+              columns=CTD_COLUMNS, example='"data/ctd_cast.csv"'),
+    SurveyKey("ctd_smoothing", "length", "bin width the cast is averaged over before N² is taken",
+              default="5 m"),
+])
+
+RUN_TABLE = table("run", "Monte Carlo settings of the run", [
+    SurveyKey("draws", "integer", "Monte Carlo draws (100 to 1,000,000; at most what the machine's memory holds)",
+              default=str(DEFAULT_DRAWS), example="10000"),
+    SurveyKey("seed", "integer", "random seed (0 to 2^32 - 1): the same seed gives the same numbers",
+              default="20261202", example="7"),
+    SurveyKey("max_unphysical", "number", "largest share of draws dropped as physically impossible (counted and "
+              "reported) before the run refuses (0 to 0.99)", default="0.05"),
+    SurveyKey("allow_implausible", "boolean", "accept values outside ventflux.limits' plausibility table "
+              "(recorded as a warning)", default="false"),
+])
+
+SHARED_TABLE = table("shared", "named uncertain inputs drawn once per draw for every value that refers to them as "
+                               "\"@name\" (one probe's calibration, one camera's scale, a model constant)", [],
+                     open=True)
+
+VENT_KEYS = (
+    SurveyKey("name", "string", "the vent's name, used once in the survey", required=True, example='"Emberstack"'),
+    SurveyKey("exit_temperature", "temperature", "exit temperature of the vent fluid, for the vent's water flux "
+              "when no orifice measurement gives one", uncertain=True),
+    SurveyKey("position", "position", "where the vent is, for the report's site map",
+              example='{ east = "12 m", north = "-30 m" }'),
+)
+
+RESERVOIR_TABLE = table("reservoir", "a heat-reservoir hypothesis: how long could it feed the observed output?", [
+    SurveyKey("name", "string", "the hypothesis's name", required=True, example='"cooling dike beneath the field"'),
+    SurveyKey("supplies", "string", "what it feeds: \"field total\", \"focused\", \"diffuse\" or a vent's name",
+              default='"field total"', example='"field total"'),
+    SurveyKey("volume", "volume", "volume of the hot rock", required="unless area and thickness are given",
+              example='"0.01 km^3"'),
+    SurveyKey("area", "area", "plan area of a sheet-like reservoir (with thickness)"),
+    SurveyKey("thickness", "length", "thickness of a sheet-like reservoir (with area)"),
+    SurveyKey("temperature_drop", "temperature", "how far the hot rock cools while it feeds the output",
+              required=True, example='"300 K"'),
+    SurveyKey("temperature", "temperature", "initial temperature of the rock, for the pore fluid's state",
+              example='"400 degC"'),
+    SurveyKey("porosity", "number", "pore fraction filled with fluid (0 to 0.99)", default="0.05"),
+    SurveyKey("melt_volume", "volume", "volume of melt that crystallizes (its latent heat adds to the reservoir)"),
+    SurveyKey("rock_density", "density", "density of the rock", default="2900 kg/m^3"),
+    SurveyKey("size", "length", "the length L of the conductive time L²/κ",
+              default="a sheet's thickness, else the cube root of the volume", example='"200 m"'),
+    SurveyKey("pressure", "pressure", "absolute pressure of the reservoir's pore fluid",
+              default="the site's seafloor pressure"),
+    SurveyKey("depth_below_seafloor", "length", "depth of the reservoir below the seafloor (instead of pressure)"),
+    SurveyKey("pressure_regime", "string", "how pressure grows below the seafloor",
+              choices=("hydrostatic", "lithostatic"), default='"hydrostatic"'),
+], many=True)
 
 
 @dataclass
@@ -60,6 +142,9 @@ class VentSpec:
     name: str
     exit_temperature: object
     methods: dict  # method key -> parsed spec (a list for "many" methods)
+    #: Where the vent is (``[[vent]] position``): latitude/longitude in degrees or east/north in metres; None if
+    #: the file gives none.
+    position: Position | None = None
 
 
 @dataclass
@@ -98,6 +183,17 @@ def survey_components():
     methods = {m.key: m for m in survey_methods()}
     sections = {s.key: s for s in survey_sections()}
     return methods, sections
+
+
+def survey_schema():
+    """The schema of the whole survey file (``ventflux.survey.schema``): the core's tables and every installed
+    plugin's methods and sections, as one ``SurveyKey`` table."""
+    methods, sections = survey_components()
+    method_tables = [table(k, m.summary, m.keys, many=m.many, provider=m.provider) for k, m in sorted(methods.items())]
+    vent = table("vent", "one focused vent (a chimney, a spire, a cluster of orifices) and the methods that measure "
+                         "it; at least one method", list(VENT_KEYS) + method_tables, many=True)
+    section_tables = [table(k, s.summary, s.keys, provider=s.provider) for k, s in sorted(sections.items())]
+    return table("", "a survey file", [SITE_TABLE, RUN_TABLE, SHARED_TABLE, vent, *section_tables, RESERVOIR_TABLE])
 
 
 def load_survey(path) -> SurveySpec:
@@ -166,7 +262,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     errs = Collector()
     warnings = Warnings()
     defaults: dict = {}
-    top = Fields(raw, "", errs, where, path.parent, defaults)
+    top = Fields(raw, "", errs, where, path.parent, defaults, schema=survey_schema(), warnings=warnings)
     input_files = {str(path): "survey"}
 
     shared = {}
@@ -196,7 +292,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         draws = run.number("draws", default=DEFAULT_DRAWS, minimum=100, maximum=1_000_000, integer=True)
         seed = run.number("seed", default=None, minimum=0, maximum=MAX_SEED, integer=True)
         allow = run.table.get("allow_implausible", False)
-        run.used.add("allow_implausible")
+        run.mark_used("allow_implausible")
         if not isinstance(allow, bool):
             run.error("allow_implausible", repr(allow), "true or false")
         max_unphysical = run.number("max_unphysical", default=DEFAULT_MAX_UNPHYSICAL, minimum=0, maximum=0.99)
@@ -220,6 +316,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
             vf.error("name", name, "a vent name used only once in the survey")
         names.add(name)
         exit_t = vf.quantity("exit_temperature", "temperature")
+        position = vf.position("position")
         parsed = {}
         for key, m in methods.items():
             if key not in vf.table:
@@ -233,7 +330,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         vf.check_unknown()
         _check_vent(vf, name, exit_t, parsed, site, warnings)
         _name_the_vent(errs, first_error, vf.path, name)
-        vents.append(VentSpec(name=name, exit_temperature=exit_t, methods=parsed))
+        vents.append(VentSpec(name=name, exit_temperature=exit_t, methods=parsed, position=position))
     parsed_sections = {}
     for key, s in sections.items():
         if key in raw:
@@ -243,6 +340,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     if isinstance(parsed_sections.get("ridge_flank"), dict):
         _check_flank_observations(errs, parsed_sections["ridge_flank"].get("table"))
         _check_flank_rise(top.sub("ridge_flank"), parsed_sections["ridge_flank"].get("temperature_rise"), site)
+    _check_positions(site, vents, parsed_sections, warnings)
     reservoirs = [_parse_reservoir(rf, names, site) for rf in top.subs("reservoir")]
     if "field_plume" in parsed_sections and isinstance(parsed_sections["field_plume"], dict):
         fp = top.sub("field_plume")
@@ -262,6 +360,31 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     return SurveySpec(path=path, site=site, draws=int(draws), seed=int(seed), shared=shared, vents=vents,
                       sections=parsed_sections, reservoirs=reservoirs, defaults_used=defaults,
                       input_files=input_files, max_unphysical=float(max_unphysical), warnings=warnings)
+
+
+#: Farther than this from the site's latitude/longitude, a vent's or patch's position is flagged (a vent field
+#: spans a few km; a larger distance is more likely a typo or a sign error than a vent; a choice).
+POSITION_WARNING_KM = 20.0
+
+
+def _check_positions(site, vents, sections, warnings: Warnings) -> None:
+    """Flag (not refuse) a latitude/longitude far from the site's: the map would show it, the numbers not."""
+    if site is None or site.latitude is None or site.longitude is None:
+        return
+    import math
+
+    def km(p: Position) -> float:  # equirectangular, mean Earth radius 6371 km: ample at these distances
+        dlon = (p.longitude - site.longitude + 180.0) % 360.0 - 180.0
+        x = math.radians(dlon) * math.cos(math.radians((p.latitude + site.latitude) / 2))
+        return 6371.0 * math.hypot(x, math.radians(p.latitude - site.latitude))
+
+    placed = [(f"vent[{i}].position", f"vent '{v.name}'", v.position) for i, v in enumerate(vents)]
+    diffuse = sections.get("diffuse")
+    for name, pos in ((diffuse or {}).get("positions") or {}).items() if isinstance(diffuse, dict) else ():
+        placed.append(("diffuse.patches", f"patch '{name}'", pos))
+    for key, what, pos in placed:
+        if pos is not None and pos.latitude is not None and km(pos) > POSITION_WARNING_KM:
+            warnings.add(key, f"{what} lies {km(pos):.0f} km from the site's latitude/longitude: check its position")
 
 
 def _series(vents, sections) -> int:
@@ -306,7 +429,7 @@ def _check_plume_spread(f: Fields, plume: dict):
     if plume.get("method", "integral") == "integral":
         keys.append("entrainment")
     if plume.get("height") is not None and not any(uncertain(plume.get(k)) for k in keys):
-        f.error("height", f.table.get("height"), "a rise height with its uncertainty, e.g. \"195 ± 20 m\": this "
+        f.error("rise_height", f.raw("rise_height"), "a rise height with its uncertainty, e.g. \"195 ± 20 m\": this "
                                                   "estimate is compared with others, and an exact one cannot be "
                                                   "weighed against them")
 
@@ -327,7 +450,7 @@ def _check_hot_tail(f: Fields, temperature, site):
     try:
         fluid_model().check(hi, float(p.to("Pa").magnitude), "temperature")
     except InputError as e:
-        f.error("temperature", f.table.get("temperature"), f"an exit temperature whose 95 % point "
+        f.error("exit_temperature", f.raw("exit_temperature"), f"an exit temperature whose 95 % point "
                                                           f"({hi - 273.15:.1f} degC) is still {e.allowed} "
                                                           "(narrow the spread)")
 
@@ -347,12 +470,12 @@ def _check_rise_height(f: Fields, height, site):
     except (InputError, TypeError, ValueError, AttributeError):
         return
     if not hi < depth:
-        f.error("height", f.table.get("height"), f"a rise height below the site's depth ({depth:.0f} m) up to its "
+        f.error("rise_height", f.raw("rise_height"), f"a rise height below the site's depth ({depth:.0f} m) up to its "
                                                   "95 % point: a plume cannot rise above the sea surface")
-    elif site.ctd_extent is not None and not depth - hi >= site.ctd_extent[0] and "buoyancy_frequency" not in f.table:
-        f.error("height", f.table.get("height"), f"a rise height (up to its 95 % point) within the CTD cast: at most "
-                                                  f"{depth - site.ctd_extent[0]:.0f} m above the site (the cast "
-                                                  f"starts at {site.ctd_extent[0]:.0f} m)")
+    elif site.ctd_extent is not None and not depth - hi >= site.ctd_extent[0] and not f.has("buoyancy_frequency"):
+        f.error("rise_height", f.raw("rise_height"), f"a rise height (up to its 95 % point) within the CTD cast: "
+                                                      f"at most {depth - site.ctd_extent[0]:.0f} m above the site "
+                                                      f"(the cast starts at {site.ctd_extent[0]:.0f} m)")
 
 
 def _site_depth_m(site):
@@ -401,9 +524,9 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
     name = f.string("name", required=True)
     cruise = f.string("cruise")
     depth = f.quantity("depth", "length", uncertain=False, positive=True)
-    pressure = f.quantity("pressure", "pressure", uncertain=False, positive=True)
-    if (depth is None) == (pressure is None) and ("depth" in f.table) == ("pressure" in f.table):
-        f.error("depth", "both or neither of depth and pressure", "exactly one of depth or pressure")
+    pressure = f.quantity("absolute_pressure", "pressure", uncertain=False, positive=True)
+    if (depth is None) == (pressure is None) and f.has("depth") == f.has("absolute_pressure"):
+        f.error("depth", "both or neither of depth and absolute_pressure", "exactly one of depth or absolute_pressure")
     lat = f.number("latitude", required=True, minimum=POSITION_BOUNDS["latitude"][0],
                    maximum=POSITION_BOUNDS["latitude"][1])
     lon = f.number("longitude", required=True, minimum=POSITION_BOUNDS["longitude"][0],
@@ -548,6 +671,12 @@ def _check_ctd(f: Fields, site: SiteSpec):
     """Read the cast now, so that --check finds every problem the run would (order, numbers, stability)."""
     from .. import profiles
 
+    from ..vocabulary import deprecation_line
+    from .schema import renamed_columns
+
+    cast = Path(site.ctd or "")
+    for old, new in renamed_columns(cast, CTD_COLUMNS):
+        f.warnings.add(f.key("ctd"), deprecation_line(old, new, where=f"column of {cast.name}"))
     kwargs: dict[str, object] = {"latitude": site.latitude, "longitude": site.longitude}
     if site.ctd_window is not None:
         kwargs["window"] = site.ctd_window
@@ -563,8 +692,8 @@ def _check_ctd(f: Fields, site: SiteSpec):
     site.ctd_extent = (float(z.min()), float(z.max()))
     depth = _site_depth_m(site)
     if depth is not None and not z.min() <= depth <= z.max():
-        key = "depth" if site.depth is not None else "pressure"
-        f.error(key, f.table.get(key), f"a site within the depth range of the CTD cast ({z.min():.0f} to "
+        key = "depth" if site.depth is not None else "absolute_pressure"
+        f.error(key, f.raw(key), f"a site within the depth range of the CTD cast ({z.min():.0f} to "
                                        f"{z.max():.0f} m after binning), or a cast that reaches the site")
 
 

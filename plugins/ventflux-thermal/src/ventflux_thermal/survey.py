@@ -40,6 +40,7 @@ import numpy as np
 
 from ventflux.plugin_api import InputError, InputErrors
 from ventflux.plugin_api import SectionEstimate, SurveySection
+from ventflux.plugin_api import DataColumn, SurveyKey, survey_table
 from ventflux.plugin_api import resolve
 from ventflux.plugin_api import normal, uniform
 from ventflux.plugin_api import Q_
@@ -103,14 +104,14 @@ def _parse(f, ctx):
             "decay_model": f.string("decay_model", default="cylinder", choices=METHODS)}
     method = spec["decay_model"] or "cylinder"
     probe_values = _probe(f)
-    f.used.add("exclude_sensors")
+    f.mark_used("exclude_sensors")
     exclude = f.table.get("exclude_sensors", {})
     if not isinstance(exclude, dict):
         f.error("exclude_sensors", repr(exclude), "a table of record file name = [sensor columns]")
         exclude = {}
     exclude = {name: _sensor_list(f, v, f"exclude_sensors.{name}") for name, v in exclude.items()}
     rec = f.table.get("records")
-    f.used.add("records")
+    f.mark_used("records")
     paths = []
     if rec is None:
         pass
@@ -137,7 +138,7 @@ def _parse(f, ctx):
     for s in f.subs("station"):
         path = s.path_value("record", required=True)
         nav = s.path_value("navigation")
-        s.used.add("exclude_sensors")
+        s.mark_used("exclude_sensors")
         ex = _sensor_list(s, s.table["exclude_sensors"], "exclude_sensors") if "exclude_sensors" in s.table else ()
         s.check_unknown()
         if path is not None:
@@ -241,7 +242,35 @@ def _figures(results, stations):
     return out
 
 
+_RECORD_COLUMNS = (
+    DataColumn("time", "s", "time of each sample (or an ISO 8601 'time' column)"),
+    DataColumn("T1", "degC", "temperature of sensor 1 (T2, T3, ... for the others); the header lines carry "
+                             "sensor_depths, heat_pulse_energy, tilt, ... as '# name [unit]: value'"),
+)
+
+#: The keys of ``[sediment_probes]`` and its sub-tables (declared for the validator and ``--format``).
+SEDIMENT_PROBES_KEYS = (
+    SurveyKey("records", "path", "a folder of single-penetration records (*.csv), or a list of files",
+              required="unless [[sediment_probes.station]] tables are given", columns=_RECORD_COLUMNS),
+    SurveyKey("area", "area", "the sedimented area the mean heat flow applies to", required=True, uncertain=True),
+    SurveyKey("calibration", "dimensionless", "calibration factor on conductivity (heat flow scales with it; "
+              "\"@name\" of [shared] for one probe)", uncertain=True),
+    SurveyKey("decay_model", "string", "model of the heat pulse's decay", choices=tuple(METHODS),
+              default='"cylinder"'),
+    SurveyKey("exclude_sensors", "mapping", "per record file name: the sensor columns to leave out, e.g. "
+              "{ \"HF03.csv\" = [\"T4\"] }"),
+    survey_table("probe", "the probe description shared by the stations (each may be uncertain)",
+                 [SurveyKey(k, dim, f"the probe's {k.replace('_', ' ')}", uncertain=True)
+                  for k, (_u, dim) in PROBE_FIELDS.items()], provider="ventflux-thermal"),
+    survey_table("station", "a continuous station record: every penetration found and reduced", [
+        SurveyKey("record", "path", "the station's record (CSV)", required=True, columns=_RECORD_COLUMNS),
+        SurveyKey("navigation", "path", "the station's navigation (CSV)"),
+        SurveyKey("exclude_sensors", "list", "sensor columns to leave out, e.g. [\"T2\"]"),
+    ], many=True, provider="ventflux-thermal"),
+)
+
 SEDIMENT_PROBES = SurveySection(key="sediment_probes",
                                 summary="sediment heat-flow probe records → conductive heat loss of the "
                                         "sedimented area",
-                                parse=_parse, estimate=_estimate, provider="ventflux-thermal")
+                                parse=_parse, estimate=_estimate, provider="ventflux-thermal",
+                                keys=SEDIMENT_PROBES_KEYS)

@@ -24,6 +24,7 @@ import numpy as np
 
 from ventflux.plugin_api import InputError
 from ventflux.plugin_api import MethodEstimate, SurveyMethod
+from ventflux.plugin_api import SurveyKey
 from ventflux.plugin_api import as_float, nominal_of
 from ventflux.plugin_api import Q_
 
@@ -50,7 +51,7 @@ def _parse(f, ctx):
         f.defaults[f.key("tracer_to_velocity_width_ratio")] = "uniform(1.0, 1.2), one draw for every vent"
     if not f.has("view"):
         f.defaults[f.key("view")] = "volume (the camera sees the whole plume; line-of-sight correction)"
-    f.used.add("orifice")
+    f.mark_used("orifice")
     orifice = f.table.get("orifice")
     if not (isinstance(orifice, list) and len(orifice) == 2 and all(isinstance(v, (int, float)) for v in orifice)):
         f.error("orifice", repr(orifice), "the orifice's [column, row] in full-frame pixels, e.g. [80, 248]")
@@ -145,5 +146,28 @@ def _estimate(spec, vent, ctx):
                           notes=notes)
 
 
+#: The keys of ``[vent.video]`` (declared for the survey's validator and ``ventflux survey --format``).
+VIDEO_KEYS = (
+    SurveyKey("clip", "path", "the video clip (a video file, or a folder of numbered frames)", required=True),
+    SurveyKey("pixel_size", "length", "size of one pixel at the plume's distance (formerly metres_per_pixel)",
+              required=True),
+    SurveyKey("scale_factor", "dimensionless", "relative error of the pixel size (e.g. \"@camera scale\" of "
+              "[shared], one laser pair for every clip)", uncertain=True),
+    SurveyKey("frame_rate", "frequency", "frames per second", default="the clip's own"),
+    SurveyKey("region", "string", "the part of the frame analysed, \"LEFT,TOP,WIDTH,HEIGHT\" in pixels",
+              default="the whole frame"),
+    SurveyKey("orifice", "list", "the orifice's [column, row] in full-frame pixels, e.g. [80, 248]", required=True),
+    SurveyKey("mode", "string", "how velocities are measured", choices=("correlation", "tracking"),
+              default='"correlation"'),
+    SurveyKey("background", "string", "background removed from each frame", choices=("median", "none"),
+              default='"median"'),
+    SurveyKey("view", "string", "what the camera sees: the whole plume (line-of-sight correction) or a sheet",
+              choices=("volume", "sheet"), default='"volume"'),
+    SurveyKey("plume_constant", "dimensionless", "pure-plume centreline constant k of w = k (F/z)^(1/3)",
+              uncertain=True, default="uniform(3.85, 4.7), one draw for every vent"),
+    SurveyKey("tracer_to_velocity_width_ratio", "dimensionless", "width ratio of the tracer and velocity profiles "
+              "(volume view)", uncertain=True, default="uniform(1.0, 1.2), one draw for every vent"),
+)
+
 VIDEO = SurveyMethod(key="video", summary="plume velocity decay on a video clip → buoyancy flux and heat power",
-                     parse=_parse, estimate=_estimate, provider="ventflux-video")
+                     parse=_parse, estimate=_estimate, provider="ventflux-video", keys=VIDEO_KEYS)

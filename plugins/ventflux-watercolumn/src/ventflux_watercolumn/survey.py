@@ -41,7 +41,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.plugin_api import Q_, InputError, InputErrors, SectionEstimate, SurveySection
+from ventflux.plugin_api import Q_, DataColumn, InputError, InputErrors, SectionEstimate, SurveyKey, SurveySection
 
 from .section import LEVELS as LEVEL_NAMES
 from .section import TRACERS
@@ -239,13 +239,13 @@ def rise_height(path, level="maximum", site=None):
 
     depth = getattr(site, "depth", None)
     if depth is None:
-        raise InputError("height", str(path), "a plain height, or a water-column file with the site's depth in "
+        raise InputError("rise_height", str(path), "a plain height, or a water-column file with the site's depth in "
                          "[site] depth (heights are measured from it)")
     spec = {"data": Path(path), "current": None, "current_direction": None, "vent_depth": depth, "factor": 3.0,
             "bin_size": None, "degree": 2, "tracer": "temperature", "margin": None}
     res = analyse(spec, site).results[0]
     if res.found.sum() < 2:
-        raise InputError("height", str(path), "a section with a plume layer on at least 2 profiles (found on "
+        raise InputError("rise_height", str(path), "a section with a plume layer on at least 2 profiles (found on "
                          f"{int(res.found.sum())})", where=str(path))
     return normal(Q_(res.height(level), "m"), Q_(res.height_sd(level), "m"))
 
@@ -378,7 +378,43 @@ def box_rows(a, per, out):
     return rows
 
 
+#: The keys of ``[water_column]`` (declared for the survey's validator and ``ventflux survey --format``).
+WATER_COLUMN_KEYS = (
+    SurveyKey("data", "path", "one section: CSV (units in headers) or netCDF (CF standard names); or give sections",
+              columns=(DataColumn("time", "s", "time of each sample"),
+                       DataColumn("east", "m", "position east of a local origin (or latitude, longitude)"),
+                       DataColumn("north", "m", "position north of a local origin"),
+                       DataColumn("sea_pressure", "dbar", "sea pressure (old header: pressure)"),
+                       DataColumn("temperature", "degC", "in-situ temperature"),
+                       DataColumn("salinity", "", "practical salinity"),
+                       DataColumn("optical", "", "light backscatter or turbidity, any linear scale", required=False),
+                       DataColumn("current_east", "m/s", "measured current (with current_north)", required=False),
+                       DataColumn("profile", "", "profile number of each sample", required=False))),
+    SurveyKey("sections", "list", "several section files (paths) in order around a closed box (instead of data)"),
+    SurveyKey("current_record", "path", "a current meter's or ADCP's record (CF netCDF or CSV), interpolated to "
+              "each sample's time and depth"),
+    SurveyKey("closure_tolerance", "length", "largest gap allowed between neighbouring sections of a box",
+              default="the widest profile spacing"),
+    SurveyKey("band_top", "length", "top of the depth band a box is integrated over (with band_bottom)"),
+    SurveyKey("band_bottom", "length", "bottom of the depth band a box is integrated over (with band_top)"),
+    SurveyKey("current", "velocity", "constant current speed (when the file has no current columns)",
+              uncertain=True),
+    SurveyKey("current_direction", "angle", "direction the current flows toward, clockwise from north",
+              uncertain=True),
+    SurveyKey("current_uncertainty", "velocity", "error of the measured current along the section's normal"),
+    SurveyKey("vent_depth", "length", "depth of the vents", uncertain=True, default="the site's depth"),
+    SurveyKey("factor", "number", "detection threshold in noise standard deviations", default="3"),
+    SurveyKey("bin_size", "length", "vertical bin of the profiles", default="5 m"),
+    SurveyKey("degree", "integer", "degree of the background fit (1 or 2)", default="2"),
+    SurveyKey("tracer", "string", "tracer that finds the plume layer", choices=tuple(TRACERS),
+              default='"temperature"'),
+    SurveyKey("margin", "length", "margin of the layer's band"),
+    SurveyKey("compares_with", "string", "the survey total this check is compared with",
+              choices=("field total", "focused"), default='"field total"'),
+)
+
 WATER_COLUMN = SurveySection(key=KEY, summary="tow-yo section across the plume layer, or a closed box of sections "
                                               "→ heat flux through a control surface and rise heights, as a check "
                                               "on the sum of vents and patches (not added to the totals)",
-                             parse=_parse, estimate=_estimate, provider="ventflux-watercolumn")
+                             parse=_parse, estimate=_estimate, provider="ventflux-watercolumn",
+                             keys=WATER_COLUMN_KEYS)
