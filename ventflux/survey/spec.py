@@ -89,6 +89,8 @@ class SurveySpec:
     warnings: Warnings = field(default_factory=lambda: Warnings())
     #: Whether values outside the plausibility limits were accepted (``--allow-implausible`` or [run]).
     allow_implausible: bool = False
+    #: ``[run] netcdf_draws``: whether ``results.nc`` keeps the Monte Carlo draws (``ventflux.survey.netcdf``).
+    netcdf_draws: bool = False
 
 
 def survey_components():
@@ -200,6 +202,9 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         if not isinstance(allow, bool):
             run.error("allow_implausible", repr(allow), "true or false")
         max_unphysical = run.number("max_unphysical", default=DEFAULT_MAX_UNPHYSICAL, minimum=0, maximum=0.99)
+        run.used.add("netcdf_draws")  # results.nc keeps the draws (ventflux.survey.netcdf)
+        if not isinstance(run.table.get("netcdf_draws", False), bool):
+            run.error("netcdf_draws", repr(run.table["netcdf_draws"]), "true or false")
         run.check_unknown()
     from ..uncertainty import DEFAULT_SEED
 
@@ -261,7 +266,8 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     assert site is not None  # a missing [site] was reported and raised just above
     return SurveySpec(path=path, site=site, draws=int(draws), seed=int(seed), shared=shared, vents=vents,
                       sections=parsed_sections, reservoirs=reservoirs, defaults_used=defaults,
-                      input_files=input_files, max_unphysical=float(max_unphysical), warnings=warnings)
+                      input_files=input_files, max_unphysical=float(max_unphysical), warnings=warnings,
+                      netcdf_draws=run is not None and run.table.get("netcdf_draws") is True)
 
 
 def _series(vents, sections) -> int:
