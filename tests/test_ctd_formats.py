@@ -37,7 +37,8 @@ def _column():
 
 
 def _write_csv(path, p, t, sp):
-    lines = ["pressure [dbar],temperature [degC],salinity"] + [f"{float(a)!r},{float(b)!r},{float(c)!r}" for a, b, c in zip(p, t, sp)]
+    rows = [f"{float(a)!r},{float(b)!r},{float(c)!r}" for a, b, c in zip(p, t, sp)]  # repr: every digit
+    lines = ["pressure [dbar],temperature [degC],salinity", *rows]
     path.write_text("\n".join(lines) + "\n", encoding="utf-8")
 
 

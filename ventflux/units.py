@@ -237,7 +237,7 @@ def check_units(**dimensions):
                     _check_argument(bound.arguments[name], dim, name)
             return func(*args, **kwargs)
 
-        wrapper.__wrapped_dimensions__ = dict(dimensions)  # type: ignore[attr-defined]
+        wrapper.__wrapped_dimensions__ = dict(dimensions)
         return wrapper
 
     return decorate
