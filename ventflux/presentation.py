@@ -139,6 +139,14 @@ class _quiet:
         self._w.__exit__(*exc)
 
 
+def _spread(s: dict) -> bool:
+    """Whether an element's draws spread at all (an input held exact gives the same value in every draw)."""
+    if "p05" not in s:
+        return False
+    lo, hi = float(s["p05"]), float(s["p95"])
+    return bool(np.isfinite(lo) and np.isfinite(hi) and not np.isclose(lo, hi, rtol=1e-12, atol=0.0))
+
+
 def _display(v: Variable):
     """(factor, unit) to show ``v`` in."""
     unit = _DISPLAY_UNIT.get(v.unit)
@@ -188,7 +196,7 @@ def text_of(p: Presented) -> str:
         for label, s in rows:
             name = f"{v.name}[{label}]" if label else v.name
             shown = f"{_fmt(s['p50'] * f)}{_unit_text(unit)}"
-            if "p05" in s:
+            if _spread(s):
                 shown += f"  (5–95 %: {_fmt(s['p05'] * f)} to {_fmt(s['p95'] * f)})"
             lines.append(f"  {name:<{width}} {shown}" if len(name) >= width else f"  {name:<{width}}{shown}")
     if len(p.variables) > _MAX_OUTPUTS:
@@ -209,7 +217,7 @@ def html_of(p: Presented) -> str:
             name = f"{v.name} [{label}]" if label else v.name
             cells = [_fmt(s["p50"] * f)]
             if uncertain:
-                cells += [_fmt(s["p05"] * f), _fmt(s["p95"] * f)] if "p05" in s else ["", ""]
+                cells += [_fmt(s["p05"] * f), _fmt(s["p95"] * f)] if _spread(s) else ["", ""]
             body.append("<tr><td>" + e(name) + "</td>" + "".join(f"<td>{c}</td>" for c in cells)
                         + f"<td>{e(unit)}</td></tr>")
     return (f"<div class='ventflux-result'><b>{e(p.title)}</b><table><thead><tr>{head}</tr></thead>"
@@ -478,7 +486,7 @@ def _survey(r) -> Presented:
             stats = {k: np.array([e[k] for e in each]) for k in each[0]}
             variables.append(Variable(f"reservoir_{label}", stats["p50"], "year", ("reservoir",), stats=stats,
                                       long_name=f"{label.replace('_', ' ')} of each reservoir hypothesis"))
-    head = (f"{type(r).__name__}: {getattr(r.spec, 'path', '')} ({r.n_draws} draws kept, "
+    head = (f"{type(r).__name__}: {getattr(getattr(r.spec, 'path', None), 'name', '')} ({r.n_draws} draws kept, "
             f"{r.dropped_draws} dropped; seed {r.spec.seed})")
     return Presented(head, variables, coords=coords,
                      attrs={"seed": r.spec.seed, "dropped_draws": r.dropped_draws,
