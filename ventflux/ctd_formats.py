@@ -185,7 +185,8 @@ def _from_dataset(ds, where: str, latitude, longitude) -> QuantityTable:
     dims = {found[r][1].dims for r in found}
     if len(dims) != 1 or len(next(iter(dims))) != 1:
         raise InputError("variable", ", ".join(f"{v[0]}{tuple(v[1].dims)}" for v in found.values()),
-                         "one-dimensional variables along one dimension (the cast's levels)", where=where)
+                         "one-dimensional variables along one dimension (the cast's levels); for a file of "
+                         "several casts select one first, e.g. read_ctd_cast(ds.isel(profile=0))", where=where)
     dim = next(iter(dims))[0]
     columns = {}
     for role, (name, var) in found.items():
