@@ -275,6 +275,7 @@ def test_survey_from_python_checks_runs_and_presents(survey_run):
     total = ds["total_heat_power"].values
     np.testing.assert_allclose(total, ds["vent_heat_power"].values.sum(axis=0), rtol=1e-12)
     assert ds["total_heat_power"].attrs["units"] == "MW"
+    assert "item" not in ds.dims  # a survey of vents only has no section items
     df = result.to_dataframe().set_index("quantity")
     assert df.loc["total_heat_power", "p50"] == pytest.approx(result.total.median.to("MW").magnitude, rel=1e-12)
     assert "total_heat_power" in repr(result) and "5–95 %" in repr(result)

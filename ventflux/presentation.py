@@ -69,6 +69,7 @@ class Presented:
     variables: list
     coords: dict = field(default_factory=dict)  # dimension -> labels
     attrs: dict = field(default_factory=dict)
+    labels: dict = field(default_factory=dict)  # further coordinate -> (its dimension, one label per element)
 
 
 # --------------------------------------------------------------------------- the mixin
@@ -190,7 +191,8 @@ def text_of(p: Presented) -> str:
         rows = list(_element_rows(p, v))
         if len(rows) > _MAX_LISTED:
             med = np.array([r[1]["p50"] for r in rows], float) * f
-            lines.append(f"  {v.name:<{width}}{len(rows)} values, median {_fmt(np.nanmin(med))} to "
+            what = "medians" if v.has_draws or v.stats is not None else "values"
+            lines.append(f"  {v.name:<{width}}{len(rows)} {what} from {_fmt(np.nanmin(med))} to "
                          f"{_fmt(np.nanmax(med))}{_unit_text(unit)}")
             continue
         for label, s in rows:
@@ -304,6 +306,9 @@ def dataset_of(p: Presented):
                 coords.setdefault("draw", np.arange(n))
             elif d in p.coords:
                 coords.setdefault(d, np.asarray([str(x) for x in p.coords[d]], dtype=object))
+    for name, (dim, values) in p.labels.items():
+        if dim in coords:
+            coords[name] = (dim, np.asarray([str(x) for x in values], dtype=object))
     ds = xr.Dataset(data, coords=coords)
     ds.attrs.update({"title": p.title, "source": "ventflux", **{k: v for k, v in p.attrs.items() if v is not None}})
     return ds
@@ -464,6 +469,7 @@ def _survey(r) -> Presented:
                                                                for vr in vents]), "MW", ("vent", "draw"),
                                   long_name="heat power of each focused vent (methods combined)"))
     keep = np.asarray(r.keep, bool) if r.keep is not None else None
+    labels: dict = {}
     items, rows, kinds = [], [], []
     for key, s in r.sections.items():
         h = np.atleast_2d(_mag(s.heat_power, "MW"))
@@ -475,6 +481,7 @@ def _survey(r) -> Presented:
             kinds.append(s.category)
     if rows and len({len(x) for x in rows}) == 1:
         coords["item"] = items
+        labels = {"category": ("item", kinds)}  # focused, diffuse, conductive, or a check / context
         variables.append(Variable("item_heat_power", np.stack(rows), "MW", ("item", "draw"),
                                   long_name="heat power of each item of the field-wide sections"))
     for name, s in r.water.items():
@@ -488,7 +495,7 @@ def _survey(r) -> Presented:
                                       long_name=f"{label.replace('_', ' ')} of each reservoir hypothesis"))
     head = (f"{type(r).__name__}: {getattr(getattr(r.spec, 'path', None), 'name', '')} ({r.n_draws} draws kept, "
             f"{r.dropped_draws} dropped; seed {r.spec.seed})")
-    return Presented(head, variables, coords=coords,
+    return Presented(head, variables, coords=coords, labels=labels,
                      attrs={"seed": r.spec.seed, "dropped_draws": r.dropped_draws,
                             "survey_file": str(getattr(r.spec, "path", ""))})
 
