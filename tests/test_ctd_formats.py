@@ -184,12 +184,19 @@ def test_wrong_or_missing_units_name_the_variable(attrs, match):
         read_ctd_cast(ds)
 
 
-def test_two_temperatures_are_ambiguous():
+def test_a_file_with_several_temperatures_uses_in_situ_and_checks_the_others():
+    # In-situ temperature is used; conservative temperature and absolute salinity beside it must agree
+    # with what gsw derives from it (TEOS-10), else the cast is refused naming the variable and level.
     p, t, sp = _column()
+    SA = gsw.SR_from_SP(sp)
     ds = _dataset(p, t, sp)
-    ds["CT"] = ("level", t, {"standard_name": "sea_water_conservative_temperature", "units": "degC"})
-    with pytest.raises(InputError, match="one temperature and one salinity"):
-        read_ctd_cast(ds)
+    ds["CT"] = ("level", gsw.CT_from_t(SA, t, p), {"standard_name": "sea_water_conservative_temperature",
+                                                    "units": "degC"})
+    ds["SA"] = ("level", SA, {"standard_name": "sea_water_absolute_salinity", "units": "g/kg"})
+    _same(read_ctd_cast(ds, window=None), read_ctd_cast(_dataset(p, t, sp), window=None))
+    ds["CT"].values[9] += 0.5  # a different water at one level
+    with pytest.raises(InputError, match=r"CT: .* level\[9\].*agrees with 'TEMP'|level\[9\]: CT"):
+        read_ctd_cast(ds, window=None)
 
 
 def test_an_unreadable_netcdf_file_is_one_line(tmp_path):

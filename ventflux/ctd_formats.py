@@ -28,7 +28,10 @@ an ``AmbientProfile``; so a cast gives the same profile whatever its format.
   ``sea_water_potential_temperature``     potential temperature (0 dbar)
   ======================================  =====================================
 
-  The cast needs a depth or a pressure, one temperature and one salinity.
+  The cast needs a depth or a pressure, a temperature and a salinity. A
+  file that holds several temperatures (or salinities) is built from the
+  in-situ temperature (practical salinity) first, and each other one must
+  agree with it within ``AGREEMENT`` or the cast is refused.
   Conservative or potential temperature and absolute salinity are turned
   into in-situ temperature and practical salinity with TEOS-10 (gsw:
   ``t_from_CT``, ``CT_from_pt``, ``SP_from_SA`` with a position, else
@@ -176,11 +179,6 @@ def _from_dataset(ds, where: str, latitude, longitude) -> QuantityTable:
     if not _SALINITY & set(found):
         errs.add(InputError("variable", "(none)", "a variable with standard_name 'sea_water_practical_salinity' or "
                             "'sea_water_absolute_salinity'", where=where))
-    for group in (_TEMPERATURE, _SALINITY):
-        given = sorted(group & set(found))
-        if len(given) > 1:
-            errs.add(InputError("variable", ", ".join(found[r][0] for r in given),
-                                "one temperature and one salinity (the cast would be ambiguous)", where=where))
     errs.raise_if_any()
     dims = {found[r][1].dims for r in found}
     if len(dims) != 1 or len(next(iter(dims))) != 1:
@@ -197,7 +195,8 @@ def _from_dataset(ds, where: str, latitude, longitude) -> QuantityTable:
     for role, (name, _) in found.items():
         for i in np.flatnonzero(~np.isfinite(columns[role].magnitude)):
             errs.add(InputError(name, "missing value", "a finite number at every level", where=f"{where}:{lines[i]}"))
-    return _complete(columns, lines, where, latitude, longitude, errs)
+    names = {role: name for role, (name, _) in found.items()}
+    return _complete(columns, lines, where, latitude, longitude, errs, names)
 
 
 def _quantity(name, var, dimension, where):
@@ -250,34 +249,64 @@ def _pint_unit(text: str) -> str:
 
 
 # --------------------------------------------------------------------------- TEOS-10 variables to in-situ
-def _complete(columns, lines, where, latitude, longitude, errs) -> QuantityTable:
-    """In-situ temperature and practical salinity from TEOS-10 variables where those were given."""
+#: Which variable a cast is built from when a file holds several of one kind, first preferred (the others are
+#: checked against it: ``AGREEMENT``).
+PREFERENCE = (("temperature", "conservative_temperature", "potential_temperature"),
+              ("salinity", "absolute_salinity"))
+#: Largest disagreement accepted between two variables of one kind in a file: float32 storage and rounding of
+#: temperatures; for absolute salinity the size of the TEOS-10 salinity anomaly that a cast without a position
+#: cannot include (up to about 0.03 g/kg; from memory). A choice made here, no source.
+AGREEMENT = {"conservative_temperature": 1e-3, "potential_temperature": 1e-3, "absolute_salinity": 0.05}
+
+
+def _complete(columns, lines, where, latitude, longitude, errs, names=None) -> QuantityTable:
+    """In-situ temperature and practical salinity, from TEOS-10 variables where those were given.
+
+    When a file holds several variables of one kind (in-situ and conservative temperature, say), the first of
+    ``PREFERENCE`` is used and each other one must agree with it within ``AGREEMENT``, or the cast is refused.
+    """
     import gsw
 
+    from .properties.seawater import absolute_salinity
+    from .units import Q_
+
     errs.raise_if_any()
+    names = names or {}
     lat0 = 0.0 if latitude is None else float(latitude)
     if "pressure" in columns:
         p = columns["pressure"].to("dbar").magnitude
-    elif "depth" in columns:
+    else:
         p = gsw.p_from_z(-columns["depth"].to("m").magnitude, lat0)
-    out = {k: v for k, v in columns.items() if k in ("depth", "pressure", "temperature", "salinity")}
-    from .units import Q_
-
-    if "absolute_salinity" in columns:
-        SA = columns["absolute_salinity"].to("g/kg").magnitude
-        if latitude is not None and longitude is not None:
-            sp = gsw.SP_from_SA(SA, p, float(longitude), float(latitude))
-        else:
-            sp = gsw.SP_from_SR(SA)  # the inverse of the reference salinity profiles uses without a position
-        out["salinity"] = Q_(sp, "dimensionless")
-    if "conservative_temperature" in columns or "potential_temperature" in columns:
-        from .properties.seawater import absolute_salinity
-
-        sp = out["salinity"].to("dimensionless").magnitude
-        SA = absolute_salinity(sp, p, longitude, latitude)
-        if "conservative_temperature" in columns:
-            CT = columns["conservative_temperature"].to("degC").magnitude
-        else:
-            CT = gsw.CT_from_pt(SA, columns["potential_temperature"].to("degC").magnitude)
-        out["temperature"] = Q_(gsw.t_from_CT(SA, CT, p), "degC")
+    temperature, salinity = (next(r for r in group if r in columns) for group in PREFERENCE)
+    out = {k: v for k, v in columns.items() if k in ("depth", "pressure")}
+    if salinity == "salinity":
+        sp = columns["salinity"].to("dimensionless").magnitude
+    elif latitude is not None and longitude is not None:
+        sp = gsw.SP_from_SA(columns["absolute_salinity"].to("g/kg").magnitude, p, float(longitude), float(latitude))
+    else:  # the inverse of the reference salinity that profiles uses without a position
+        sp = gsw.SP_from_SR(columns["absolute_salinity"].to("g/kg").magnitude)
+    SA = absolute_salinity(sp, p, longitude, latitude)
+    if temperature == "temperature":
+        t = columns["temperature"].to("degC").magnitude
+    else:
+        CT = columns["conservative_temperature"].to("degC").magnitude if temperature == "conservative_temperature" \
+            else gsw.CT_from_pt(SA, columns["potential_temperature"].to("degC").magnitude)
+        t = gsw.t_from_CT(SA, CT, p)
+    implied = {"conservative_temperature": lambda: (gsw.CT_from_t(SA, t, p), "degC"),
+               "potential_temperature": lambda: (gsw.pt0_from_t(SA, t, p), "degC"),
+               "absolute_salinity": lambda: (SA, "g/kg")}
+    for role, tolerance in AGREEMENT.items():
+        if role in columns and role not in (temperature, salinity):
+            value, unit = implied[role]()
+            gap = np.abs(columns[role].to(unit).magnitude - value)
+            if np.nanmax(gap) > tolerance:
+                i = int(np.nanargmax(gap))
+                used = names.get(temperature if "temperature" in role else salinity, "the cast")
+                errs.add(InputError(names.get(role, role), f"{columns[role][i].to(unit).magnitude:.6g} {unit}",
+                                    f"a value that agrees with '{used}' within {tolerance:g} {unit} (TEOS-10 gives "
+                                    f"{value[i]:.6g}); a file's variables of one kind must describe the same water",
+                                    where=f"{where}:{lines[i]}"))
+    errs.raise_if_any()
+    out["temperature"] = Q_(t, "degC")
+    out["salinity"] = Q_(sp, "dimensionless")
     return QuantityTable(path=Path(str(where)), columns=out, lines=lines)
