@@ -184,19 +184,36 @@ def test_wrong_or_missing_units_name_the_variable(attrs, match):
         read_ctd_cast(ds)
 
 
-def test_a_file_with_several_temperatures_uses_in_situ_and_checks_the_others():
-    # In-situ temperature is used; conservative temperature and absolute salinity beside it must agree
-    # with what gsw derives from it (TEOS-10), else the cast is refused naming the variable and level.
+def test_a_file_with_several_temperatures_uses_teos10s_and_checks_the_others():
+    # Conservative temperature and absolute salinity are used; in-situ temperature and practical salinity beside
+    # them must agree with what gsw derives (TEOS-10), else the cast is refused naming the variable and level.
     p, t, sp = _column()
     SA = gsw.SR_from_SP(sp)
     ds = _dataset(p, t, sp)
     ds["CT"] = ("level", gsw.CT_from_t(SA, t, p), {"standard_name": "sea_water_conservative_temperature",
                                                     "units": "degC"})
     ds["SA"] = ("level", SA, {"standard_name": "sea_water_absolute_salinity", "units": "g/kg"})
-    _same(read_ctd_cast(ds, window=None), read_ctd_cast(_dataset(p, t, sp), window=None))
-    ds["CT"].values[9] += 0.5  # a different water at one level
-    with pytest.raises(InputError, match=r"CT: .* level\[9\].*agrees with 'TEMP'|level\[9\]: CT"):
+    _same(read_ctd_cast(ds, window=None), read_ctd_cast(_dataset(p, t, sp), window=None), rtol=1e-9)
+    ds["TEMP"].values[9] += 0.5  # a different water at one level
+    with pytest.raises(InputError, match=r"level\[9\]: TEMP: .*agrees with 'CT'"):
         read_ctd_cast(ds, window=None)
+
+
+def test_a_profiles_own_dataset_reads_back_as_the_same_profile():
+    # AmbientProfile.to_xarray() writes CF standard names; reading it gives the same water column.
+    p, t, sp = _column()
+    prof = read_ctd_cast(_dataset(p, t, sp), latitude=-17.3, longitude=-113.6)  # 5 m bins
+    ds = prof.to_xarray()
+    assert ds["temperature"].attrs["standard_name"] == "sea_water_temperature"
+    assert ds["depth"].attrs["positive"] == "down"
+    again = read_ctd_cast(ds, latitude=-17.3, longitude=-113.6, window=None)
+    for name in ("depth", "sea_pressure", "absolute_salinity", "conservative_temperature", "potential_density",
+                 "buoyancy_frequency_squared"):
+        np.testing.assert_allclose(getattr(again, name).magnitude, getattr(prof, name).magnitude, rtol=1e-9)
+    # a bin's mean in-situ temperature is not exactly t(mean SA, mean CT, mean p): micro-kelvins apart
+    np.testing.assert_allclose(again.temperature.to("degC").magnitude, prof.temperature.to("degC").magnitude,
+                               rtol=0, atol=1e-6)
+    assert "levels" in repr(prof).splitlines()[0] and len(repr(prof)) < 1200
 
 
 def test_an_unreadable_netcdf_file_is_one_line(tmp_path):

@@ -29,9 +29,10 @@ an ``AmbientProfile``; so a cast gives the same profile whatever its format.
   ======================================  =====================================
 
   The cast needs a depth or a pressure, a temperature and a salinity. A
-  file that holds several temperatures (or salinities) is built from the
-  in-situ temperature (practical salinity) first, and each other one must
-  agree with it within ``AGREEMENT`` or the cast is refused.
+  file that holds several temperatures (or salinities) is built from
+  conservative temperature (absolute salinity) first, TEOS-10's variables
+  of state, and each other one must agree with it within ``AGREEMENT`` or
+  the cast is refused.
   Conservative or potential temperature and absolute salinity are turned
   into in-situ temperature and practical salinity with TEOS-10 (gsw:
   ``t_from_CT``, ``CT_from_pt``, ``SP_from_SA`` with a position, else
@@ -249,14 +250,17 @@ def _pint_unit(text: str) -> str:
 
 
 # --------------------------------------------------------------------------- TEOS-10 variables to in-situ
-#: Which variable a cast is built from when a file holds several of one kind, first preferred (the others are
-#: checked against it: ``AGREEMENT``).
-PREFERENCE = (("temperature", "conservative_temperature", "potential_temperature"),
-              ("salinity", "absolute_salinity"))
+#: Which variable a cast is built from when a file holds several of one kind, first preferred; the others are
+#: checked against it (``AGREEMENT``). TEOS-10's variables of state come first: SA and CT are what the
+#: profile's densities and N² are computed from, and a file that gives them may include the salinity anomaly
+#: of its position [2]_ of ``ventflux.profiles``.
+PREFERENCE = (("conservative_temperature", "temperature", "potential_temperature"),
+              ("absolute_salinity", "salinity"))
 #: Largest disagreement accepted between two variables of one kind in a file: float32 storage and rounding of
-#: temperatures; for absolute salinity the size of the TEOS-10 salinity anomaly that a cast without a position
-#: cannot include (up to about 0.03 g/kg; from memory). A choice made here, no source.
-AGREEMENT = {"conservative_temperature": 1e-3, "potential_temperature": 1e-3, "absolute_salinity": 0.05}
+#: temperatures [K]; for salinities, the size of TEOS-10's absolute-salinity anomaly, which a cast read without
+#: a position cannot include (up to about 0.03 g/kg; from memory). A choice made here, no source.
+AGREEMENT = {"conservative_temperature": 1e-3, "temperature": 1e-3, "potential_temperature": 1e-3,
+             "absolute_salinity": 0.05, "salinity": 0.05}
 
 
 def _complete(columns, lines, where, latitude, longitude, errs, names=None) -> QuantityTable:
@@ -293,8 +297,10 @@ def _complete(columns, lines, where, latitude, longitude, errs, names=None) -> Q
             else gsw.CT_from_pt(SA, columns["potential_temperature"].to("degC").magnitude)
         t = gsw.t_from_CT(SA, CT, p)
     implied = {"conservative_temperature": lambda: (gsw.CT_from_t(SA, t, p), "degC"),
+               "temperature": lambda: (t, "degC"),
                "potential_temperature": lambda: (gsw.pt0_from_t(SA, t, p), "degC"),
-               "absolute_salinity": lambda: (SA, "g/kg")}
+               "absolute_salinity": lambda: (SA, "g/kg"),
+               "salinity": lambda: (sp, "dimensionless")}
     for role, tolerance in AGREEMENT.items():
         if role in columns and role not in (temperature, salinity):
             value, unit = implied[role]()
@@ -302,7 +308,8 @@ def _complete(columns, lines, where, latitude, longitude, errs, names=None) -> Q
             if np.nanmax(gap) > tolerance:
                 i = int(np.nanargmax(gap))
                 used = names.get(temperature if "temperature" in role else salinity, "the cast")
-                errs.add(InputError(names.get(role, role), f"{columns[role][i].to(unit).magnitude:.6g} {unit}",
+                shown = f"{columns[role][i].to(unit).magnitude:.6g}{'' if unit == 'dimensionless' else ' ' + unit}"
+                errs.add(InputError(names.get(role, role), shown,
                                     f"a value that agrees with '{used}' within {tolerance:g} {unit} (TEOS-10 gives "
                                     f"{value[i]:.6g}); a file's variables of one kind must describe the same water",
                                     where=f"{where}:{lines[i]}"))

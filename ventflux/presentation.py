@@ -35,6 +35,15 @@ _DISPLAY_UNIT = {"W": "MW", "J": "PJ", "W/m^2": "W/m^2"}
 STANDARD_NAMES = {
     "ambient_density": "sea_water_density",
     "density": "sea_water_density",
+    # a water column (``AmbientProfile``); sea pressure as CTD files store it (see ``ventflux.ctd_formats``)
+    "depth": "depth",
+    "sea_pressure": "sea_water_pressure",
+    "temperature": "sea_water_temperature",
+    "practical_salinity": "sea_water_practical_salinity",
+    "absolute_salinity": "sea_water_absolute_salinity",
+    "conservative_temperature": "sea_water_conservative_temperature",
+    "potential_density": "sea_water_potential_density",
+    "buoyancy_frequency_squared": "square_of_brunt_vaisala_frequency_in_sea_water",
 }
 #: The vocabulary's names where a result's attribute name differs (``ventflux.vocabulary``).
 _VOCABULARY = {"pressure": "absolute_pressure"}
@@ -70,6 +79,7 @@ class Presented:
     coords: dict = field(default_factory=dict)  # dimension -> labels
     attrs: dict = field(default_factory=dict)
     labels: dict = field(default_factory=dict)  # further coordinate -> (its dimension, one label per element)
+    coord_attrs: dict = field(default_factory=dict)  # dimension -> attributes of its (numeric) coordinate
 
 
 # --------------------------------------------------------------------------- the mixin
@@ -304,8 +314,10 @@ def dataset_of(p: Presented):
         for d, n in zip(v.dims, values.shape):
             if d == "draw":
                 coords.setdefault("draw", np.arange(n))
-            elif d in p.coords:
-                coords.setdefault(d, np.asarray([str(x) for x in p.coords[d]], dtype=object))
+            elif d in p.coords and d not in coords:
+                labels = np.asarray(p.coords[d])
+                coords[d] = xr.Variable(d, labels if labels.dtype.kind in "fiu" else
+                                        np.asarray([str(x) for x in labels], dtype=object), p.coord_attrs.get(d, {}))
     for name, (dim, values) in p.labels.items():
         if dim in coords:
             coords[name] = (dim, np.asarray([str(x) for x in values], dtype=object))
@@ -504,6 +516,33 @@ def _water_unit(name):
     return "kg/s" if "mass" in name else "m^3/s"
 
 
+_PROFILE = (("sea_pressure", "dbar", "sea_pressure"), ("temperature", "degC", "temperature"),
+            ("practical_salinity", "dimensionless", "practical_salinity"),
+            ("absolute_salinity", "g/kg", "absolute_salinity"),
+            ("conservative_temperature", "degC", "conservative_temperature"),
+            ("potential_density", "kg/m^3", "potential_density"))
+
+
+def _ambient_profile(r) -> Presented:
+    variables = _outputs(r, _PROFILE, lambda n: ("depth",) if n else ())
+    n2 = Variable("buoyancy_frequency_squared", _mag(r.buoyancy_frequency_squared, "1/s^2"), "1/s^2", ("n2_depth",),
+                  long_name="squared buoyancy frequency N² between the levels")
+    where = ", ".join(f"{k} {v:g}°" for k, v in (("latitude", r.latitude), ("longitude", r.longitude))
+                      if v is not None)
+    window = f"{r.window:~P} bins" if r.window is not None else "every row"
+    head = (f"{type(r).__name__}: {r.source} ({np.size(r.depth.magnitude)} levels, {window}"
+            f"{'; ' + where if where else ''})")
+    depth_attrs = {"standard_name": "depth", "units": "m", "positive": "down",
+                   "long_name": "depth below the sea surface"}
+    return Presented(head, [*variables, n2],
+                     coords={"depth": _mag(r.depth, "m"), "n2_depth": _mag(r.n2_depth, "m")},
+                     # n2_depth carries no standard_name, so that a reader finds one depth (the levels')
+                     coord_attrs={"depth": depth_attrs,
+                                  "n2_depth": {"units": "m", "positive": "down",
+                                               "long_name": "depth of the N² values (midpoints between levels)"}},
+                     attrs={"source": r.source, "latitude": r.latitude, "longitude": r.longitude})
+
+
 #: Result class name → what it shows.
 _ADAPTERS = {
     "OrificeDischarge": _orifice,
@@ -515,4 +554,5 @@ _ADAPTERS = {
     "Lifetime": _lifetime,
     "Answer": _answer,
     "SurveyResult": _survey,
+    "AmbientProfile": _ambient_profile,
 }

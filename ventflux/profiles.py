@@ -65,8 +65,11 @@ DEFAULT_MAX_UNSTABLE = Q_(50.0, "m")
 CONSTANT_N_SPACING = Q_(2.0, "m")
 
 
-@dataclass(frozen=True)
-class AmbientProfile:
+from .presentation import Presentable  # noqa: E402 - the one presentation of results (repr, pandas, xarray)
+
+
+@dataclass(frozen=True, repr=False)
+class AmbientProfile(Presentable):
     """A water column ordered by increasing depth; every field a quantity array.
 
     Attributes
