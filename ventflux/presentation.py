@@ -180,16 +180,28 @@ def _unit_text(unit: str) -> str:
 
 
 def _element_rows(p: Presented, v: Variable):
-    """(label, stats of one element) for each element of ``v`` (one row without element dimensions)."""
+    """(label, stats of one element) for each element of ``v`` (one row without element dimensions).
+
+    The label is a tuple of the element's coordinate values, one per element dimension (empty without any).
+    """
     st = _stats(v)
     element_dims = [d for d in v.dims if d != "draw"]
     if not element_dims:
-        yield "", {k: np.asarray(a).reshape(()) for k, a in st.items()}
+        yield (), {k: np.asarray(a).reshape(()) for k, a in st.items()}
         return
     shape = np.shape(st["p50"])
     for idx in np.ndindex(*shape):
-        labels = [str(p.coords.get(d, range(n))[i]) for d, n, i in zip(element_dims, shape, idx)]
-        yield ", ".join(labels), {k: np.asarray(a)[idx] for k, a in st.items()}
+        labels = tuple(_label(p.coords.get(d, range(n))[i]) for d, n, i in zip(element_dims, shape, idx))
+        yield labels, {k: np.asarray(a)[idx] for k, a in st.items()}
+
+
+def _label(x):
+    """A coordinate value as shown: numbers stay numbers (a depth), names become text."""
+    return float(x) if isinstance(x, (float, np.floating)) else int(x) if isinstance(x, (int, np.integer)) else str(x)
+
+
+def _joined(label) -> str:
+    return ", ".join(f"{x:g}" if isinstance(x, float) else str(x) for x in label)
 
 
 def text_of(p: Presented) -> str:
@@ -206,7 +218,7 @@ def text_of(p: Presented) -> str:
                          f"{_fmt(np.nanmax(med))}{_unit_text(unit)}")
             continue
         for label, s in rows:
-            name = f"{v.name}[{label}]" if label else v.name
+            name = f"{v.name}[{_joined(label)}]" if label else v.name
             shown = f"{_fmt(s['p50'] * f)}{_unit_text(unit)}"
             if _spread(s):
                 shown += f"  (5–95 %: {_fmt(s['p05'] * f)} to {_fmt(s['p95'] * f)})"
@@ -226,7 +238,7 @@ def html_of(p: Presented) -> str:
     for v in p.variables:
         f, unit = _display(v)
         for label, s in _element_rows(p, v):
-            name = f"{v.name} [{label}]" if label else v.name
+            name = f"{v.name} [{_joined(label)}]" if label else v.name
             cells = [_fmt(s["p50"] * f)]
             if uncertain:
                 cells += [_fmt(s["p05"] * f), _fmt(s["p95"] * f)] if _spread(s) else ["", ""]
@@ -252,7 +264,7 @@ def summary_frame(p: Presented):
         mine = [d for d in v.dims if d != "draw"]
         for i, (label, s) in enumerate(_element_rows(p, v)):
             row = {"quantity": v.name}
-            parts = label.split(", ") if label else []
+            parts = list(label)
             for d in element_dims:
                 row[d] = parts[mine.index(d)] if d in mine else None
             row["unit"] = v.unit
@@ -276,8 +288,8 @@ def draws_frame(p: Presented):
         x = np.asarray(v.values, float)
         element_dims = v.dims[:-1]
         for idx in np.ndindex(*x.shape[:-1]):
-            labels = [str(p.coords.get(d, range(n))[i]) for d, n, i in zip(element_dims, x.shape[:-1], idx)]
-            prefix = "/".join(labels)
+            prefix = "/".join(str(_label(p.coords.get(d, range(n))[i])) for d, n, i in zip(element_dims,
+                                                                                          x.shape[:-1], idx))
             cols[f"{prefix + '/' if prefix else ''}{v.name} [{v.unit}]"] = x[idx]
     if not cols:
         from .errors import InputError
