@@ -18,6 +18,8 @@ import gsw
 import numpy as np
 import pytest
 import xarray as xr
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from ventflux.errors import InputError, InputErrors
 from ventflux.profiles import ambient_profile, read_ctd_cast
@@ -245,3 +247,21 @@ def test_the_survey_ctd_key_takes_a_netcdf_cast(tmp_path):
     assert spec_nc.site.ctd.suffix == ".nc"
     assert spec_nc.site.ctd_extent == spec_csv.site.ctd_extent
     _same(_read_stratification(spec_nc.site), _read_stratification(spec_csv.site))
+
+
+# (unit text, factor from dbar) and (unit text, offset from degC): the file's units, however written, give one cast
+_PRESSURE_UNITS = [("dbar", 1.0), ("decibar", 1.0), ("Pa", 1e4), ("kPa", 10.0), ("bar", 0.1), ("MPa", 0.01)]
+_TEMPERATURE_UNITS = [("degC", 0.0), ("degree_Celsius", 0.0), ("Celsius", 0.0), ("K", 273.15), ("kelvin", 273.15)]
+
+
+@settings(max_examples=15, deadline=None)
+@given(pu=st.sampled_from(_PRESSURE_UNITS), tu=st.sampled_from(_TEMPERATURE_UNITS),
+       order=st.sampled_from(["down", "up"]))
+def test_a_cast_does_not_depend_on_how_its_file_writes_units_or_direction(pu, tu, order):
+    p, t, sp = _column()
+    if order == "up":  # an up-cast: the same water, rows reversed
+        p, t, sp = p[::-1], t[::-1], sp[::-1]
+    ds = _dataset(p * pu[1], t + tu[1], sp)
+    ds["PRES"].attrs["units"], ds["TEMP"].attrs["units"] = pu[0], tu[0]
+    reference = read_ctd_cast(_dataset(*_column()), window=None)
+    _same(read_ctd_cast(ds, window=None), reference, rtol=1e-9)
