@@ -8,8 +8,8 @@ are left out). Layers, from the bottom:
 0. ``units``, ``errors``, ``cachedir``, ``limits`` (plausibility of what users type; and the package's
    ``__init__``)
 1. ``properties`` — equations of state; imports only layer 0
-2. ``uncertainty``, ``tables``, ``io``, ``profiles``, ``sensitivity`` — inputs, their distributions and
-   what their draws explain
+2. ``uncertainty``, ``tables``, ``io``, ``profiles``, ``ctd_formats``, ``sensitivity``, ``presentation`` —
+   inputs, their distributions, what their draws explain, and how results present themselves
 3. estimators: ``orifice``, ``diffuse``, ``plume``, ``reservoir``, ``ridge_flank``,
    ``throughput``, ``aggregate``, ``summarizer``, ``budget`` (of one estimate)
 4. the plugin contract: ``hookspecs``, ``registry``
@@ -29,7 +29,8 @@ PACKAGE = ROOT / "ventflux"
 LAYERS = [
     ("ventflux", "ventflux.units", "ventflux.errors", "ventflux.cachedir", "ventflux.limits"),
     ("ventflux.properties",),
-    ("ventflux.uncertainty", "ventflux.tables", "ventflux.io", "ventflux.profiles", "ventflux.sensitivity"),
+    ("ventflux.uncertainty", "ventflux.tables", "ventflux.io", "ventflux.profiles", "ventflux.sensitivity",
+     "ventflux.ctd_formats", "ventflux.presentation"),
     ("ventflux.orifice", "ventflux.diffuse", "ventflux.plume", "ventflux.reservoir", "ventflux.ridge_flank",
      "ventflux.throughput", "ventflux.aggregate", "ventflux.summarizer", "ventflux.budget"),
     ("ventflux.hookspecs", "ventflux.registry"),

@@ -137,7 +137,7 @@ def test_weak_momentum_orifice_source_agrees_with_the_closed_form(stratified):
     F = res.buoyancy_flux.to("m^4/s^3").magnitude
     M0 = src.momentum_flux.to("m^4/s^2").magnitude
     assert M0 ** 0.75 / F ** 0.5 < 0.02 * res.rise_height.magnitude
-    z_cf = closed_form.rise_height_point_source(F, 1e-3)
+    z_cf = closed_form.rise_height_point_source(Q_(F, "m^4/s^3"), Q_(1e-3, "1/s")).to("m").magnitude
     assert res.rise_height.to("m").magnitude == pytest.approx(z_cf, rel=0.04)
     assert res.spreading_dilution.magnitude > 1e3  # diluted thousands of times by the spreading level
 

@@ -40,13 +40,19 @@ def test_closed_form_heat_power_follows_rho_cp0_f_over_g_alpha():
 @settings(max_examples=30, deadline=None)
 @given(z=st.floats(20, 2000), n=st.floats(2e-4, 5e-3))
 def test_closed_form_round_trip_and_unit_invariance(z, n):
-    F = closed_form.buoyancy_flux_point_source(z, n)
-    assert closed_form.rise_height_point_source(F, n) == pytest.approx(z, rel=1e-12)
-    assert closed_form.rise_height_point_source(F, n, "spreading") == pytest.approx(0.76 * z, rel=1e-12)
-    Fb = closed_form.buoyancy_flux_bent_over(z, 0.1, n)
-    assert closed_form.rise_height_bent_over(Fb, 0.1, n) == pytest.approx(z, rel=1e-12)
+    # The public functions take quantities: the same plume in metres or kilometres, per second or per minute.
+    zq, nq = Q_(z, "m"), Q_(n, "1/s")
+    F = closed_form.buoyancy_flux_point_source(zq, nq)
+    assert closed_form.buoyancy_flux_point_source(zq.to("km"), nq.to("1/min")).to("m^4/s^3").magnitude == \
+        pytest.approx(F.to("m^4/s^3").magnitude, rel=1e-12)
+    assert closed_form.rise_height_point_source(F, nq).to("m").magnitude == pytest.approx(z, rel=1e-12)
+    assert closed_form.rise_height_point_source(F, nq, "spreading").to("m").magnitude == pytest.approx(0.76 * z,
+                                                                                                       rel=1e-12)
+    U = Q_(0.1, "m/s")
+    Fb = closed_form.buoyancy_flux_bent_over(zq, U, nq)
+    assert closed_form.rise_height_bent_over(Fb, U, nq).to("m").magnitude == pytest.approx(z, rel=1e-12)
     # monotonic: a higher rise needs more flux
-    assert closed_form.buoyancy_flux_point_source(1.01 * z, n) > F
+    assert closed_form.buoyancy_flux_point_source(1.01 * zq, nq) > F
 
 
 def test_integral_round_trip_both_levels():

@@ -165,8 +165,11 @@ class _Totals:
         return self.volume_flux.sum(axis=0)
 
 
-@dataclass(frozen=True)
-class DiffuseDischarge(_Totals):
+from .presentation import Presentable  # noqa: E402 - the one presentation of results (repr, pandas, xarray)
+
+
+@dataclass(frozen=True, repr=False)
+class DiffuseDischarge(_Totals, Presentable):
     """Heat and water discharge of each patch (arrays, patches along axis 0)."""
 
     heat_power: pint.Quantity
@@ -368,8 +371,8 @@ def diffuse_input_names(prefix: str = "diffuse") -> dict[str, str]:
     return {**{k: f"{prefix}/{k}" for k in PATCH_INPUTS}, **SITE_INPUT_NAMES}
 
 
-@dataclass(frozen=True)
-class DiffusePropagation:
+@dataclass(frozen=True, repr=False)
+class DiffusePropagation(Presentable):
     """Nominal and drawn discharge of patches, with the driver's bookkeeping.
 
     ``draws`` has shape ``(n_patches, n_draws)``; dropped (impossible) draw

@@ -65,8 +65,11 @@ DEFAULT_AMBIENT_SALINITY = REFERENCE_SALINITY
 VELOCITY_KINDS = ("area-mean", "centerline")
 
 
-@dataclass(frozen=True)
-class OrificeDischarge:
+from .presentation import Presentable  # noqa: E402 - the one presentation of results (repr, pandas, xarray)
+
+
+@dataclass(frozen=True, repr=False)
+class OrificeDischarge(Presentable):
     """Discharge of one orifice (or arrays of orifices or of Monte Carlo draws)."""
 
     area: pint.Quantity
@@ -293,8 +296,8 @@ def orifice_discharge(temperature, velocity, diameter=None, *, area=None, minor_
     )
 
 
-@dataclass(frozen=True)
-class UncertainDischarge:
+@dataclass(frozen=True, repr=False)
+class UncertainDischarge(Presentable):
     """Nominal discharge plus Monte Carlo draws and summaries of every output."""
 
     nominal: OrificeDischarge

@@ -54,8 +54,8 @@ import pint
 
 from .errors import Collector, InputError
 from .properties.seawater import absolute_salinity, check_funnel, sea_pressure_dbar
-from .tables import read_quantity_table
-from .units import Q_, magnitude, require_dimension
+from .ctd_formats import read_cast_columns
+from .units import Q_, check_units, magnitude, require_dimension
 
 #: Default bin width for a CTD cast (a choice made here; see the module notes).
 DEFAULT_WINDOW = Q_(5.0, "m")
@@ -65,8 +65,11 @@ DEFAULT_MAX_UNSTABLE = Q_(50.0, "m")
 CONSTANT_N_SPACING = Q_(2.0, "m")
 
 
-@dataclass(frozen=True)
-class AmbientProfile:
+from .presentation import Presentable  # noqa: E402 - the one presentation of results (repr, pandas, xarray)
+
+
+@dataclass(frozen=True, repr=False)
+class AmbientProfile(Presentable):
     """A water column ordered by increasing depth; every field a quantity array.
 
     Attributes
@@ -133,9 +136,11 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
 
     Parameters
     ----------
-    path : path-like
+    path : path-like or xarray.Dataset
         CSV with ``depth [m]`` and/or ``sea_pressure [dbar]`` (formerly ``pressure``),
-        ``temperature [degC]`` (in situ) and ``salinity`` (practical).
+        ``temperature [degC]`` (in situ) and ``salinity`` (practical); or a
+        netCDF file (``.nc``) or an ``xarray.Dataset`` whose variables carry
+        CF standard names and units (``ventflux.ctd_formats``).
     latitude, longitude : float (degrees) or pint.Quantity, optional
         Position; latitude sets gravity and the depth–pressure relation, and
         both together give TEOS-10's absolute-salinity anomaly.
@@ -156,9 +161,9 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
     """
     lat = _degrees(latitude, "latitude")
     lon = _degrees(longitude, "longitude")
-    tbl = read_quantity_table(path, columns={"temperature": "temperature", "salinity": "dimensionless"},
-                              optional={"depth": "length", "sea_pressure": "pressure", "pressure": "pressure"},
-                              alternatives=[("depth", "sea_pressure", "pressure")])
+    # A CSV or netCDF file (by suffix), an xarray Dataset, or arrays: the same columns (ventflux.ctd_formats).
+    tbl = read_cast_columns(path, lat, lon)
+    path = tbl.path  # how messages and the profile's ``source`` name the cast
     where = lambda i: f"{path}:{tbl.lines[i]}"  # noqa: E731
     lat0 = 0.0 if lat is None else lat
     # "pressure" is the column's name before ventflux.vocabulary (sea pressure too), read for one release.
@@ -212,6 +217,59 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
     prof = _profile(z, p, SA, CT, t, sp, lat, lon, str(path), window)
     _check_stability(prof, max_unstable, path)
     return prof
+
+
+@check_units(temperature="temperature", salinity="dimensionless", depth="length", sea_pressure="pressure",
+             conservative_temperature="temperature", absolute_salinity="dimensionless")
+def ambient_profile(*, depth=None, sea_pressure=None, temperature=None, salinity=None, conservative_temperature=None,
+                    absolute_salinity=None, latitude=None, longitude=None, window=DEFAULT_WINDOW,
+                    max_unstable=DEFAULT_MAX_UNSTABLE, source="arrays") -> AmbientProfile:
+    """An ``AmbientProfile`` from arrays, processed exactly as a cast read from a file.
+
+    Parameters
+    ----------
+    depth : pint.Quantity (length), optional
+        Depth below the sea surface, positive down, one value per level.
+    sea_pressure : pint.Quantity (pressure), optional
+        Sea pressure (absolute minus one standard atmosphere); give it, the
+        depth, or both.
+    temperature : pint.Quantity (temperature), optional
+        In-situ temperature; or give ``conservative_temperature``.
+    salinity : float array or dimensionless pint.Quantity, optional
+        Practical salinity (PSS-78); or give ``absolute_salinity``.
+    conservative_temperature : pint.Quantity, optional
+        TEOS-10 conservative temperature.
+    absolute_salinity : pint.Quantity (e.g. g/kg), optional
+        TEOS-10 absolute salinity.
+    latitude, longitude, window, max_unstable
+        As for ``read_ctd_cast``.
+    source : str
+        How messages and the profile name the cast.
+
+    Returns
+    -------
+    AmbientProfile
+
+    Examples
+    --------
+    >>> from ventflux.units import Q_
+    >>> prof = ambient_profile(depth=Q_([1500, 1700, 1900, 2100], "m"), temperature=Q_([3.1, 2.8, 2.5, 2.3], "degC"),
+    ...                        salinity=[34.55, 34.58, 34.6, 34.62], window=None)
+    >>> prof.depth.size
+    4
+    """
+    from .ctd_formats import cast_from_arrays
+
+    for given, names in (((depth, sea_pressure), "depth or sea_pressure"),
+                         ((temperature, conservative_temperature), "temperature or conservative_temperature"),
+                         ((salinity, absolute_salinity), "salinity or absolute_salinity")):
+        if all(g is None for g in given):
+            raise InputError(names, "(missing)", f"one of {names}")
+    cast = cast_from_arrays(temperature=temperature, salinity=salinity, depth=depth, sea_pressure=sea_pressure,
+                            conservative_temperature=conservative_temperature, absolute_salinity=absolute_salinity,
+                            latitude=_degrees(latitude, "latitude"), longitude=_degrees(longitude, "longitude"),
+                            source=source)
+    return read_ctd_cast(cast, latitude=latitude, longitude=longitude, window=window, max_unstable=max_unstable)
 
 
 def _bin(w, z, *cols):

@@ -111,8 +111,11 @@ GRAVITY = Q_(9.80665, "m/s^2")
 PRESSURE_REGIMES = ("hydrostatic", "lithostatic")
 
 
-@dataclass(frozen=True)
-class ReservoirHeat:
+from .presentation import Presentable  # noqa: E402 - the one presentation of results (repr, pandas, xarray)
+
+
+@dataclass(frozen=True, repr=False)
+class ReservoirHeat(Presentable):
     """Extractable heat of a reservoir, by part (quantities in J)."""
 
     total: object
@@ -125,8 +128,8 @@ class ReservoirHeat:
     pore_fluid_phase: str = ""  # "liquid-like", "vapour-like" or "supercritical" at the initial state
 
 
-@dataclass(frozen=True)
-class Lifetime:
+@dataclass(frozen=True, repr=False)
+class Lifetime(Presentable):
     """How long a reservoir sustains a vent's power, by three measures."""
 
     heat: ReservoirHeat

@@ -55,8 +55,11 @@ from .vocabulary import json_key, si_unit
 MAX_DROPPED_SHARE = DEFAULT_MAX_UNPHYSICAL
 
 
-@dataclass(frozen=True)
-class Answer:
+from .presentation import Presentable  # noqa: E402 - the one presentation of results (repr, pandas, xarray)
+
+
+@dataclass(frozen=True, repr=False)
+class Answer(Presentable):
     """One question's answer: outputs (name → (Summary, unit)), labels and the inputs used."""
 
     question: str

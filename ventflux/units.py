@@ -68,6 +68,8 @@ DIMENSIONS = {
     "volume flux": "[length] ** 3 / [time]",
     "momentum flux": "[length] ** 4 / [time] ** 2",
     "buoyancy flux": "[length] ** 4 / [time] ** 3",
+    "acceleration": "[length] / [time] ** 2",
+    "thermal expansion": "1 / [temperature]",
 }
 
 _EXAMPLES = {
@@ -196,3 +198,65 @@ def parse_column_name(label: str):
     if not m:
         return label.strip(), None
     return m.group(1), m.group(2).strip()
+
+
+def check_units(**dimensions):
+    """Decorator: refuse a public function's quantity arguments of the wrong dimension.
+
+    One place for the check that every public function would otherwise write
+    itself (the idea of MetPy's ``check_units``): each named argument, when
+    given and not None, must be a pint quantity of the named dimension (a key
+    of ``DIMENSIONS``), or an ``Uncertain`` whose unit has it; a
+    ``"dimensionless"`` argument may also be a plain number. Anything else
+    raises one ``InputError`` naming the argument, the value and the
+    dimension expected. The call itself is passed through unchanged.
+
+    Examples
+    --------
+    >>> @check_units(rise_height="length", buoyancy_frequency="frequency")
+    ... def f(rise_height, buoyancy_frequency): ...
+    """
+    import functools
+    import inspect
+
+    for name, dim in dimensions.items():
+        if dim not in DIMENSIONS:
+            raise ValueError(f"check_units: unknown dimension {dim!r} for {name!r}")
+
+    def decorate(func):
+        signature = inspect.signature(func)
+        missing = set(dimensions) - set(signature.parameters)
+        if missing:
+            raise TypeError(f"check_units: {func.__name__} has no argument {', '.join(sorted(missing))}")
+
+        @functools.wraps(func)
+        def wrapper(*args, **kwargs):
+            bound = signature.bind(*args, **kwargs)
+            for name, dim in dimensions.items():
+                if name in bound.arguments:
+                    _check_argument(bound.arguments[name], dim, name)
+            return func(*args, **kwargs)
+
+        wrapper.__wrapped_dimensions__ = dict(dimensions)
+        return wrapper
+
+    return decorate
+
+
+def _check_argument(value, dimension: str, name: str) -> None:
+    if value is None:
+        return
+    unit = getattr(value, "unit", None) if type(value).__name__ == "Uncertain" else None
+    if unit is not None:  # an Uncertain input: its unit carries the dimension
+        value = Q_(1.0, unit)
+    if isinstance(value, pint.Quantity):
+        if not value.check(DIMENSIONS[dimension]):
+            raise InputError(name, f"{value:~P}" if np.ndim(value.magnitude) == 0 else f"an array in {value.units:~P}",
+                             expected(dimension, with_unit=False))
+        return
+    if dimension in ("dimensionless", "angle") and isinstance(value, (int, float, np.integer, np.floating,
+                                                                         np.ndarray, list, tuple)):
+        return
+    shown = value if np.ndim(value) == 0 else f"an array of {np.size(value)} numbers"
+    raise InputError(name, shown, f"{expected(dimension, with_unit=False)} given as a pint quantity, "
+                     "e.g. ventflux.Q_(1.4, 'm/s')")

@@ -91,7 +91,7 @@ def naive_heat_power(c, z_obs, alpha, scale):
         return sol.t_events[0][0] if sol.t_events[0].size else c.top
 
     N = float(c.mean_n(z_obs)) * np.sqrt(scale)
-    F_cf = closed_form.buoyancy_flux_point_source(z_obs, N)
+    F_cf = closed_form._buoyancy_flux_point_source(z_obs, N)
     logF = brentq(lambda lf: rise(lf) - z_obs, np.log(F_cf / 3), np.log(F_cf * 3), xtol=1e-6)
     return float(integral_H(c, np.exp(logF)))
 
@@ -101,7 +101,7 @@ def lookup_heat_power(c, z, alpha, scale, nf=48, na=9, ns=9):
     from scipy.interpolate import RegularGridInterpolator
 
     N = float(c.mean_n(np.median(z)))
-    F_mid = closed_form.buoyancy_flux_point_source(np.median(z), N)
+    F_mid = closed_form._buoyancy_flux_point_source(np.median(z), N)
     lf = np.linspace(np.log(F_mid) - 3.0, np.log(F_mid) + 3.0, nf)
     ag = np.linspace(alpha.min(), alpha.max(), na)
     sg = np.linspace(scale.min(), scale.max(), ns)

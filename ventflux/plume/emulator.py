@@ -231,7 +231,7 @@ def _flux_range(column, z, alpha, scale, level):
     F = []
     for zz, s in ((lo_z, s_lo), (hi_z, s_hi), (lo_z, s_hi), (hi_z, s_lo)):
         N = float(column.mean_n(zz)) * np.sqrt(s)
-        F.append(closed_form.buoyancy_flux_point_source(zz, N))
+        F.append(closed_form._buoyancy_flux_point_source(zz, N))
     a_ratio = (float(np.max(alpha)) / float(np.min(alpha))) ** 2  # z ∝ α^(-1/2) F^(1/4): F ∝ α² at fixed z
     return np.log(min(F) / a_ratio) - 1.0, np.log(max(F) * a_ratio) + 1.0
 

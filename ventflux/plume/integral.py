@@ -150,7 +150,7 @@ class Column:
 
     def heat_to_buoyancy(self):
         """F/H [m⁴ s⁻³ W⁻¹] = g α_Θ / (ρ_0 c_p0) at the vent [3]_."""
-        return closed_form.buoyancy_flux_from_heat_power(1.0, self.rho0, self.alpha0, self.g, CP0)
+        return closed_form._buoyancy_flux_from_heat_power(1.0, self.rho0, self.alpha0, self.g, CP0)
 
     def mean_n(self, height):
         """Mean N [1/s] over ``height`` above the vent (SI arrays)."""
@@ -460,10 +460,10 @@ def expected_span(column: Column, F, current=None):
     for _ in range(3):  # the mean N over the rise depends on the rise
         N = column.mean_n(np.maximum(z, 10.0))
         N = np.where(np.isfinite(N), N, 1e-3)
-        z = closed_form.rise_height_point_source(F, N)
+        z = closed_form._rise_height_point_source(F, N)
         if current is not None:
             U = np.maximum(np.asarray(current, float), MIN_CURRENT)
-            z = np.minimum(z, closed_form.rise_height_bent_over(F, U, N))
+            z = np.minimum(z, closed_form._rise_height_bent_over(F, U, N))
     if current is None:
         return 1.3 * z, z
     U = np.maximum(np.asarray(current, float), MIN_CURRENT)

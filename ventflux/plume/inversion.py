@@ -68,8 +68,11 @@ class CurrentProfile:
     speed: object
 
 
-@dataclass
-class PlumeRiseResult:
+from ..presentation import Presentable  # noqa: E402 - the one presentation of results (repr, pandas, xarray)
+
+
+@dataclass(repr=False)
+class PlumeRiseResult(Presentable):
     """Result of either direction; quantities are arrays when drawn (``summary`` then holds the statistics)."""
 
     heat_power: object
@@ -253,9 +256,9 @@ def _closed_rise(column, F, scale, U, level):
     z = np.full_like(F, 100.0)
     for _ in range(6):
         N = _mean_n(column, z, scale)
-        zmax = closed_form.rise_height_point_source(F, N)
+        zmax = closed_form._rise_height_point_source(F, N)
         if U is not None:
-            zmax = np.minimum(zmax, closed_form.rise_height_bent_over(F, np.maximum(U, integral.MIN_CURRENT), N))
+            zmax = np.minimum(zmax, closed_form._rise_height_bent_over(F, np.maximum(U, integral.MIN_CURRENT), N))
         z = zmax
     return zmax * (1.0 if level == "maximum" else closed_form.SPREADING_FRACTION), N
 
@@ -263,9 +266,9 @@ def _closed_rise(column, F, scale, U, level):
 def _closed_flux(column, z, scale, U, level):
     zmax = z / (1.0 if level == "maximum" else closed_form.SPREADING_FRACTION)
     N = _mean_n(column, zmax, scale)
-    F = closed_form.buoyancy_flux_point_source(zmax, N)
+    F = closed_form._buoyancy_flux_point_source(zmax, N)
     if U is not None:
-        F = np.maximum(F, closed_form.buoyancy_flux_bent_over(zmax, np.maximum(U, integral.MIN_CURRENT), N))
+        F = np.maximum(F, closed_form._buoyancy_flux_bent_over(zmax, np.maximum(U, integral.MIN_CURRENT), N))
     return F
 
 

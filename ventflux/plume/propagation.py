@@ -165,7 +165,7 @@ def closed_form_heat_power(rise_height_m: float, column) -> float:
     from . import closed_form
 
     n_mean = float(column.mean_n(max(rise_height_m, 1.0)))
-    return float(closed_form.buoyancy_flux_point_source(rise_height_m, n_mean) / column.heat_to_buoyancy())
+    return float(closed_form._buoyancy_flux_point_source(rise_height_m, n_mean) / column.heat_to_buoyancy())
 
 
 def orifice_plume_source(exit_temperature, exit_velocity, diameter, stratification, *, vent_depth=None,

@@ -413,6 +413,9 @@ def write_results(result, out_dir) -> Path:
         from .budget import write_budget
 
         budget_html = write_budget(result, tmp, _figure)
+        from .netcdf import write_netcdf  # results.nc: the whole result in one netCDF file
+
+        write_netcdf(result, tmp / "results.nc", draws=getattr(result.spec, "netcdf_draws", False))
         (tmp / "report.html").write_text(_html(result, tables, images, summary, budget_html, paper, inputs),
                                          encoding="utf-8")
     return out_dir / "report.html"

@@ -50,8 +50,11 @@ class VentResult:
     exit_temperature: pint.Quantity | Uncertain | None = None
 
 
-@dataclass
-class SurveyResult:
+from ..presentation import Presentable  # noqa: E402 - the one presentation of results (repr, pandas, xarray)
+
+
+@dataclass(repr=False)
+class SurveyResult(Presentable):
     spec: SurveySpec
     pressure: pint.Quantity
     vents: list[VentResult]

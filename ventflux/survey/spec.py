@@ -67,7 +67,8 @@ SITE_TABLE = table("site", "where the survey was made and the ambient seawater (
               required=True, uncertain=True, example='"2.10 ± 0.02 degC"'),
     SurveyKey("ambient_salinity", "dimensionless", "practical salinity of the ambient seawater", uncertain=True,
               default="35 (the TEOS-10 standard ocean's practical salinity)", example="34.69"),
-    SurveyKey("ctd", "path", "a CTD cast (CSV) giving the stratification the plumes rise through",
+    SurveyKey("ctd", "path", "a CTD cast (CSV with units in the headers, or netCDF with CF standard names) "
+              "giving the stratification the plumes rise through",
               columns=CTD_COLUMNS, example='"data/ctd_cast.csv"'),
     SurveyKey("ctd_smoothing", "length", "bin width the cast is averaged over before N² is taken",
               default="5 m"),
@@ -82,6 +83,8 @@ RUN_TABLE = table("run", "Monte Carlo settings of the run", [
               "reported) before the run refuses (0 to 0.99)", default="0.05"),
     SurveyKey("allow_implausible", "boolean", "accept values outside ventflux.limits' plausibility table "
               "(recorded as a warning)", default="false"),
+    SurveyKey("netcdf_draws", "boolean", "results.nc keeps every Monte Carlo draw (dimension draw), not only "
+              "the summaries", default="false"),
 ])
 
 SHARED_TABLE = table("shared", "named uncertain inputs drawn once per draw for every value that refers to them as "
@@ -174,6 +177,8 @@ class SurveySpec:
     warnings: Warnings = field(default_factory=lambda: Warnings())
     #: Whether values outside the plausibility limits were accepted (``--allow-implausible`` or [run]).
     allow_implausible: bool = False
+    #: ``[run] netcdf_draws``: whether ``results.nc`` keeps the Monte Carlo draws (``ventflux.survey.netcdf``).
+    netcdf_draws: bool = False
 
 
 def survey_components():
@@ -296,6 +301,9 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         if not isinstance(allow, bool):
             run.error("allow_implausible", repr(allow), "true or false")
         max_unphysical = run.number("max_unphysical", default=DEFAULT_MAX_UNPHYSICAL, minimum=0, maximum=0.99)
+        run.mark_used("netcdf_draws")  # results.nc keeps the draws (ventflux.survey.netcdf)
+        if not isinstance(run.table.get("netcdf_draws", False), bool):
+            run.error("netcdf_draws", repr(run.table["netcdf_draws"]), "true or false")
         run.check_unknown()
     from ..uncertainty import DEFAULT_SEED
 
@@ -359,7 +367,8 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     assert site is not None  # a missing [site] was reported and raised just above
     return SurveySpec(path=path, site=site, draws=int(draws), seed=int(seed), shared=shared, vents=vents,
                       sections=parsed_sections, reservoirs=reservoirs, defaults_used=defaults,
-                      input_files=input_files, max_unphysical=float(max_unphysical), warnings=warnings)
+                      input_files=input_files, max_unphysical=float(max_unphysical), warnings=warnings,
+                      netcdf_draws=run is not None and run.table.get("netcdf_draws") is True)
 
 
 #: Farther than this from the site's latitude/longitude, a vent's or patch's position is flagged (a vent field
