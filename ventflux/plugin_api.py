@@ -40,6 +40,9 @@ Files and output
     ``sha256_of``,
     ``add_output_options``, ``add_monte_carlo_options``,
     ``monte_carlo_settings``, ``print_json``, ``print_table``, ``write_output``.
+Vocabulary
+    ``add_deprecated_option``, ``renamed_key``, ``warn_deprecated``, ``deprecation_line`` (old spellings of
+    options and keys, accepted for one release with one deprecation line).
 Registry look-ups
     ``velocity_from_source``, ``fluid_model_by_name``.
 """
@@ -104,6 +107,7 @@ from .uncertainty import (
     uniform,
     unit_tag,
 )
+from .vocabulary import add_deprecated_option, deprecation_line, renamed_key, warn_deprecated
 from .units import (
     DIMENSIONS,
     Q_,
@@ -161,6 +165,10 @@ __all__ = [
                           "UnphysicalPolicy",
                           "VelocitySource",
                           "add_monte_carlo_options",
+                          "add_deprecated_option",
+                          "deprecation_line",
+                          "renamed_key",
+                          "warn_deprecated",
                           "add_output_options",
                           "as_float",
                           "atomic_directory",
