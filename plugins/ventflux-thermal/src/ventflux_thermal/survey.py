@@ -202,9 +202,12 @@ def heat_flow_draws(results, draws, calibration=None, key="sediment_probes") -> 
 def _estimate(spec, ctx):
     d = ctx.draws
     n = d.n_draws
-    res = spec["results"]
-    if not res:
+    if not spec["results"]:
         raise InputError("sediment_probes", "no penetration reduced", "at least one reduced penetration")
+    from .probe import respread
+
+    # the conductivity fits' Monte Carlo again with the run's draws and rule (as probe-heat-flow --seed would)
+    res = [respread(r, d, ctx.policy) for r in spec["results"]]
     mean_q = heat_flow_draws(res, d, spec["calibration"])
     area = resolve(spec["area"], "sediment_probes/area", d).to("m^2").magnitude
     H = mean_q * np.broadcast_to(area, (n,))
