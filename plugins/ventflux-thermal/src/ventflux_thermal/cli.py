@@ -135,7 +135,10 @@ def run_probe(args) -> int:
     mc = monte_carlo_settings(args)
     records = _records(args.records)
     kwargs = probe_options(args)
-    probe = probe_from_inputs(None, {}, kwargs.pop("probe_overrides"))
+    probe = probe_from_inputs(None, {}, kwargs.pop("probe_overrides"), fields={
+        "radius": "--probe-radius", "probe_heat_capacity": "--probe-heat-capacity",
+        "sediment_heat_capacity": "--sediment-heat-capacity", "heat_pulse_energy": "--pulse-energy",
+        "heat_pulse_duration": "--pulse-duration"})
     kwargs.update(probe=probe, keep_record=args.figures is not None, draws=mc.draws, seed=mc.seed,
                   max_unphysical=mc.max_unphysical)
     if args.navigation and not args.station:

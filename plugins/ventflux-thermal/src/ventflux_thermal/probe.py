@@ -94,7 +94,7 @@ from ventflux.plugin_api import (
 from ventflux.plugin_api import Uncertain, nominal, parse_uncertain
 from ventflux.plugin_api import Q_, parse_quantity, ureg
 
-from .constants import METHODS, PROBE_FIELDS, ProbeConstants
+from .constants import METHODS, PLAUSIBLE_PROBE, PROBE_FIELDS, ProbeConstants
 from .decay import cylinder_decay, cylinder_pulse_decay, cylinder_pulse_decay_and_slopes
 from .records import ProbeRecord, read_record
 
@@ -667,8 +667,13 @@ def standard_deviation(value, unit) -> float:
     return value.a * np.log(value.b) * factor  # lognormal: median × ln(factor), to first order
 
 
-def probe_from_inputs(probe: ProbeConstants | None, meta: dict, overrides: dict | None = None) -> ProbeConstants:
-    """The probe description: defaults, then the record's header, then explicit values (each possibly uncertain)."""
+def probe_from_inputs(probe: ProbeConstants | None, meta: dict, overrides: dict | None = None,
+                      fields: dict | None = None) -> ProbeConstants:
+    """The probe description: defaults, then the record's header, then explicit values (each possibly uncertain).
+
+    Each value must be positive and within ``constants.PLAUSIBLE_PROBE``; ``fields`` names each key in an
+    error (an option such as ``--probe-radius``, or a survey key path).
+    """
     probe = probe or ProbeConstants()
     values, sds = {}, dict(probe.uncertainty)
     for source in (meta, overrides or {}):
@@ -679,9 +684,15 @@ def probe_from_inputs(probe: ProbeConstants | None, meta: dict, overrides: dict 
             sds[key] = standard_deviation(source[key], unit)
     c = Collector()
     for key, v in values.items():
+        name = (fields or {}).get(key, key.replace("_", " "))
+        unit = PROBE_FIELDS[key][0]
+        lo, hi = PLAUSIBLE_PROBE[key]
         if not v >= 0 or (key != "heat_pulse_duration" and not v > 0):
-            c.add(InputError(key.replace("_", " "), f"{v:g} {PROBE_FIELDS[key][0]}",
+            c.add(InputError(name, f"{v:g} {unit}",
                              f"a {PROBE_FIELDS[key][1]} > 0" if key != "heat_pulse_duration" else "a duration ≥ 0 s"))
+        elif not lo <= v <= hi:
+            c.add(InputError(name, f"{v:g} {unit}", f"a plausible {PROBE_FIELDS[key][1]}, {lo:g} to {hi:g} {unit} "
+                             "(ventflux_thermal.constants.PLAUSIBLE_PROBE)"))
     c.raise_if_any()
     return replace(probe.with_values(**values), uncertainty={k: v for k, v in sds.items() if v > 0})
 

@@ -150,9 +150,11 @@ def _parse(f, ctx):
     f.check_unknown()
     results, stations, notes = [], [], []
     try:
-        probe = probe_from_inputs(None, {}, probe_values)
-    except (InputError, InputErrors):
-        probe = None  # already reported through the table's own keys
+        probe = probe_from_inputs(None, {}, probe_values, fields={k: f"probe.{k}" for k in probe_values})
+    except (InputError, InputErrors) as e:  # implausible values: reported under their key paths
+        for err in (e.errors if isinstance(e, InputErrors) else [e]):
+            f.error(err.field, err.value, err.allowed)
+        probe = None
     if probe is not None:
         for p in paths:
             ctx.input_files[str(p)] = "sediment probe record"

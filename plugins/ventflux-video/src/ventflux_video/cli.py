@@ -309,6 +309,8 @@ def _uncertain_number(text, field, default):
 def run_jet(args) -> int:
     from ventflux.plugin_api import SharedDraws, nominal, pressure_from_depth
 
+    from .jet import check_funnel_pressure
+
     from .jet import analyze_jet_clip
     from .propagation import default_plume_constant, default_width_ratio, jet_draws, jet_summary, part_names
 
@@ -325,6 +327,10 @@ def run_jet(args) -> int:
     pressure = None
     if args.absolute_pressure is not None:
         pressure = parse_quantity(args.absolute_pressure, "pressure", "--absolute-pressure")
+        try:  # TEOS-10's range, named by the option the user wrote
+            check_funnel_pressure(pressure)
+        except InputError as err:
+            raise InputError("--absolute-pressure", args.absolute_pressure, err.allowed) from None
     elif args.depth is not None:
         pressure = pressure_from_depth(parse_quantity(args.depth, "length", "--depth"), args.latitude)
     if (temp is None) != (pressure is None):

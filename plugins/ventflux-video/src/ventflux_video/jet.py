@@ -434,3 +434,11 @@ def exit_velocity_from_clip(path, metres_per_pixel, orifice_xy, **options):
     options.pop("pressure", None)
     result = analyze_jet_clip(path, metres_per_pixel, orifice_xy, **options)
     return result.exit_velocity, result.exit_velocity_sd
+
+
+def check_funnel_pressure(pressure):
+    """Refuse an absolute pressure outside the seawater model's range (TEOS-10's, checked by the core)."""
+    from ventflux.plugin_api import seawater_state
+
+    seawater_state(Q_(2.0, "degC"), 35.0, pressure)  # the pressure's check is the model's own
+    return pressure
