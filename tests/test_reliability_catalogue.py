@@ -301,6 +301,13 @@ SURVEY_CASES = [
      ["ridge_flank.temperature_rise"]),
     ("survey-ctd-path-nul", {"survey.toml": ('ctd = "data/ctd_cast.csv"', 'ctd = "data/ctd\\u0000cast.csv"')},
      ["site.ctd"]),
+    # one spiked sample: 0 degC in a 2.3 degC stretch of the cast fails the real-time spike test (2 degC below
+    # 500 dbar) and is named by its line
+    ("survey-ctd-spike", {"data/ctd_cast.csv": ("2160.0,2.3114", "2160.0,0.0")}, ["ctd_cast.csv:323"]),
+    # a smaller spike (0.5 K) passes the spike test, but caps the field's plume: the rise height's 95 % point has no
+    # plume solution, as the run would find for more than 5 % of its draws
+    ("survey-ctd-spike-caps-the-field-plume", {"data/ctd_cast.csv": ("2160.0,2.3114", "2160.0,1.8")},
+     ["field_plume.height"]),
 ]
 
 
@@ -408,6 +415,14 @@ def test_survey_refuses_every_problem_at_once(case, check, demo, capsys, monkeyp
     out = demo.parent / "results"
     argv = ["survey", str(demo / "survey.toml"), "--quiet"] + (["--check"] if check else ["--out", str(out)])
     _run(capsys, argv, names, demo.parent, out)
+
+
+@pytest.mark.parametrize("share", ["1.5", "-0.1", "few"])
+def test_survey_max_unphysical_option_is_one_line(share, demo, capsys, monkeypatch):
+    monkeypatch.chdir(demo.parent)
+    out = demo.parent / "results"
+    _run(capsys, ["survey", str(demo / "survey.toml"), "--quiet", "--max-unphysical", share, "--out", str(out)],
+         ["--max-unphysical"], demo.parent, out)
 
 
 def test_catalogue_size():
