@@ -165,15 +165,19 @@ exclude_sensors = { "hf1.csv" = ["T3"] }
     row = result.sections["sediment_probes"].rows[0]
     assert main(["probe-heat-flow", str(tmp_path / "hf1.csv"), "--exclude-sensor", "T3", "--draws", "2000",
                  "--seed", "91", "--quiet", "--json"]) == 0
-    out = json.loads(capsys.readouterr().out)
+    cap = capsys.readouterr()
+    out = json.loads(cap.out)
+    assert len([ln for ln in cap.err.splitlines() if "deprecated" in ln]) == 1
     pen = out["penetrations"][0]
     assert out["seed"] == 91 and out["draws"] == 2000 and out["max_unphysical_share"] == 0.05
     assert pen["unphysical_draws"] == 0
     for part in ("conductivity fits", "interpolated conductivity"):
         key = f"heat_flow_u_{part.replace(' ', '_')} [mW/m^2]"
         assert row[key] > 0
-        assert pen["uncertainty_parts_mW_m2"][part] == pytest.approx(row[key], rel=1e-12)
-    assert pen["heat_flow_uncertainty_mW_m2"] == pytest.approx(row["heat_flow_uncertainty [mW/m^2]"], rel=1e-12)
+        assert 1e3 * pen["uncertainty_parts_W_m2"][part] == pytest.approx(row[key], rel=1e-12)
+    assert 1e3 * pen["heat_flow_uncertainty_W_m2"] == pytest.approx(row["heat_flow_uncertainty [mW/m^2]"], rel=1e-12)
+    # the earlier keys in mW/m^2 stay for one release, with one deprecation line
+    assert pen["heat_flow_uncertainty_mW_m2"] == pytest.approx(1e3 * pen["heat_flow_uncertainty_W_m2"])
 
 
 def test_conductivity_draws_below_the_floor_are_dropped_counted_and_refused_above_the_share():

@@ -33,6 +33,7 @@ from ventflux.plugin_api import parse_uncertain
 from ventflux.plugin_api import Q_, parse_quantity
 
 from .constants import DEFAULT_SALINITY
+from .jsonkeys import print_deprecation, si_json
 from .constants import METHODS, ProbeConstants
 
 # --------------------------------------------------------------------------- probe-heat-flow
@@ -193,12 +194,14 @@ def run_probe(args) -> int:
         w.writerows({k: (f"{v:.6g}" if isinstance(v, float) else v) for k, v in row.items()} for row in rows)
         write_output("--out", args.out, atomic_write_text, args.out, buf.getvalue())
     if args.json:
-        print_json({"method": "probe-heat-flow", "decay_model": args.decay_model, "draws": mc.draws, "seed": mc.seed,
-                    "max_unphysical_share": mc.max_unphysical,
+        renamed: set[tuple[str, str]] = set()
+        print_json(si_json({"method": "probe-heat-flow", "decay_model": args.decay_model, "draws": mc.draws,
+                    "seed": mc.seed, "max_unphysical_share": mc.max_unphysical,
                     "unphysical_draws": sum(r.monte_carlo.get("unphysical_draws", 0) for r in results),
                     "penetrations": [r.as_dict() for r in results],
                     "skipped": {Path(st.record).name: st.skipped for st in stations if st.skipped},
-                    "failed": [e.line() for e in errors]})
+                    "failed": [e.line() for e in errors]}, renamed))
+        print_deprecation(renamed, "probe-heat-flow")
     else:
         for r in results:
             d = r.as_dict()
@@ -273,7 +276,9 @@ def run_advection(args) -> int:
         write_output("--figure", args.figure, _profile_figure, z, T, fit, args.figure)
     d = fit.as_dict()
     if args.json:
-        print_json({"method": "profile-advection", **d})
+        renamed: set[tuple[str, str]] = set()
+        print_json(si_json({"method": "profile-advection", **d}, renamed))
+        print_deprecation(renamed, "profile-advection")
         return 0
     print_table([("Péclet number", f"{d['peclet']:.4g} ± {d['peclet_se']:.2g}", ""),
                  ("flow", d["direction"], ""),
@@ -343,7 +348,9 @@ def run_array(args) -> int:
     res = array_anomalies(t, T, ref, names, patches or None, n_peaks=args.peaks)
     d = res.as_dict()
     if args.json:
-        print_json({"method": "array-anomaly", **d})
+        renamed: set[tuple[str, str]] = set()
+        print_json(si_json({"method": "array-anomaly", **d}, renamed))
+        print_deprecation(renamed, "array-anomaly")
         return 0
     rows = [(s["sensor"], f"{s['mean_anomaly_K']:.4g} ± {s['std_anomaly_K']:.2g}",
              "K; periods " + _periods(s["dominant_periods_h"])) for s in d["sensors"]]
