@@ -648,22 +648,24 @@ def _check_plume_solvable(f: Fields, plume, site) -> None:
         scale = scale * column("stratification_scale")
     kwargs = dict(level=plume.get("level") or "maximum", method=plume.get("method") or "integral",
                   pressure=_site_pressure(site), latitude=site.latitude, longitude=site.longitude)
+    stratification: object = strat
     if strat is None:  # a constant N: its spread is a factor on N²
         n0 = spans["buoyancy_frequency"][0]
         scale = scale * (column("buoyancy_frequency") / n0) ** 2
-        strat = Q_(n0, "1/s")
+        stratification = Q_(n0, "1/s")
         kwargs.update(ambient_temperature=nominal_of(site.ambient_temperature),
                       ambient_salinity=float(as_float(nominal_of(site.ambient_salinity))))
     current = Q_(np.abs(column("current")), "m/s") if "current" in spans else None
     try:
-        res = heat_power_from_rise_height(Q_(h, "m"), strat, entrainment=alpha, current=current,
+        res = heat_power_from_rise_height(Q_(h, "m"), stratification, entrainment=alpha, current=current,
                                           stratification_scale=scale, predrawn=True, **kwargs)
     except InputError as e:
         f.error("height", f.table.get("height"), f"a rise height the plume model can invert: {e.allowed}")
         return
     except (InputErrors, TypeError, ValueError, AttributeError, ArithmeticError):
         return  # not this check's to report: the inputs' own checks name them
-    H = np.atleast_1d(np.asarray(res.heat_power.to("W").magnitude, float))
+    power: pint.Quantity = res.heat_power  # type: ignore[assignment]
+    H = np.atleast_1d(np.asarray(power.to("W").magnitude, dtype=float))
     for j in np.flatnonzero(~np.isfinite(H)):
         key, side = points[j]
         at = ", ".join(f"{k} {v:.4g}" for k, v in (("entrainment", alpha[j]), ("scale on N²", scale[j])))

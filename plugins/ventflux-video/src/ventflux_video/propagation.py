@@ -45,10 +45,12 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pint
 
 from ventflux.plugin_api import (
     DEFAULT_MAX_UNPHYSICAL,
     Q_,
+    Propagation,
     SharedRef,
     Uncertain,
     UnphysicalPolicy,
@@ -79,12 +81,12 @@ def default_width_ratio():
 class JetDraws:
     """Draws of a jet's results (the kept draws), each part's relative standard deviation and the bookkeeping."""
 
-    exit_velocity: object  # m/s, (kept,)
-    buoyancy_flux: object  # m^4/s^3, (kept,)
-    heat_power: object | None  # W, (kept,)
+    exit_velocity: pint.Quantity  # m/s, (kept,)
+    buoyancy_flux: pint.Quantity  # m^4/s^3, (kept,)
+    heat_power: pint.Quantity | None  # W, (kept,)
     parts: dict  # part -> {"buoyancy_flux": rel sd, "exit_velocity": rel sd}
     inputs: dict  # part -> input name used
-    propagation: object = None  # the driver's Propagation (keep, unphysical draws, policy, provenance)
+    propagation: Propagation  # the driver's bookkeeping (keep, unphysical draws, policy, provenance)
 
     def expand(self, q):
         """Draws of ``q`` (kept) on all the run's draws, NaN where a draw was dropped as unphysical."""
