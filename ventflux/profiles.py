@@ -205,7 +205,9 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
         errs.add(InputError("temperature", f"{t[i]:g} degC at {p[i]:.0f} dbar",
                             "seawater within TEOS-10's validity (freezing point to 40 degC, 0-8000 dbar)",
                             where=where(i)))
-    for e in _check_spikes(z, p, t, sp, order, where):
+    valid = rows_ok.copy()
+    valid[outside] = False
+    for e in _check_spikes(z, p, t, sp, order, where, valid):
         errs.add(e)
     errs.raise_if_any()
     z, p, SA, CT, t, sp = (a[order] for a in (z, p, SA, CT, t, sp))
@@ -269,8 +271,10 @@ def spike_test_value(v):
     return out
 
 
-def _check_spikes(z, p, t, sp, order, where) -> list[InputError]:
+def _check_spikes(z, p, t, sp, order, where, valid) -> list[InputError]:
     """One error per spiked sample (temperature or salinity), in depth order, naming the file's line.
+
+    Rows already refused for their range (``valid`` False) are not reported again.
 
     The binning averages a spike into a bin, where it can still fold the
     stratification over (a cold spike of 2 K in a 5 m bin of a deep cast is
@@ -288,7 +292,7 @@ def _check_spikes(z, p, t, sp, order, where) -> list[InputError]:
         test = spike_test_value(v[order])
         limit = np.where(deep, deep_limit, shallow)
         with np.errstate(invalid="ignore"):
-            bad = np.flatnonzero(test > limit)
+            bad = np.flatnonzero((test > limit) & valid[order])
         for j in bad:
             i = order[j]
             out.append(InputError(name, f"{v[i]:g}{unit} at {ps[j]:.0f} dbar",

@@ -621,6 +621,8 @@ def _check_plume_solvable(f: Fields, plume, site) -> None:
                                                    "run drops draws outside that range and refuses when more than "
                                                    "5 % are dropped")
             return
+    if any(e.field in {f.key(k) for k in spans} for e in f.errors.errors):
+        return  # an input of this plume is already refused: its own line says why
     strat = None
     if site.ctd is not None and plume.get("buoyancy_frequency") is None:
         from .. import profiles
