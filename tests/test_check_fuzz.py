@@ -12,8 +12,9 @@ other error either).
 To keep a few hundred variants inside the default suite, the base file
 drops the video clip and the probe records (their readers are checked by
 their plugins' own tests) and uses the closed-form plume relation instead
-of the integral model. The ``slow`` marker runs many more variants, and a
-few on the whole demo with the integral plume model.
+of the integral model. The ``slow`` marker runs many more variants, and 30
+plausible edits of the whole demo (its video, probe records, CTD cast and the
+integral plume model), most of which pass ``--check``.
 """
 
 from __future__ import annotations
@@ -31,6 +32,7 @@ from ventflux.errors import InputError, InputErrors
 
 DEMO = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge"
 RUN_DRAWS = 400
+FULL_RUN_DRAWS = 4000
 
 _QUANTITY = re.compile(r'^(\s*)(\w+) = "([^"@]+)"\s*$')
 _NUMBER = re.compile(r"^(\s*)(latitude|longitude|ambient_salinity|porosity|draws|seed) = ([-0-9.e]+)\s*$")
@@ -149,6 +151,72 @@ def variant(draw, base_text):
     return out
 
 
+_FIRST_NUMBER = re.compile(r"[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?")
+
+
+@st.composite
+def gentle_quantity(draw, old: str):
+    """A plausible edit of a quantity: its value scaled by 0.5-2, its spread widened or added."""
+    if draw(st.booleans()):
+        f = draw(st.floats(0.5, 2.0))
+        return _FIRST_NUMBER.sub(lambda m: f"{float(m.group(0)) * f:.6g}", old, count=1)
+    m = re.match(r"^\s*([-+]?[\d.eE+-]+)\s*±\s*([\d.eE+-]+)\s*(.*)$", old)
+    if m:
+        return f"{m.group(1)} ± {float(m.group(2)) * draw(st.floats(0.5, 4.0)):.4g} {m.group(3)}".strip()
+    n = _FIRST_NUMBER.match(old.strip())
+    if n is None or old.strip().startswith(("uniform", "normal", "lognormal")):
+        return old
+    rest = old.strip()[n.end():].strip()
+    return f"{n.group(0)} ± {abs(float(n.group(0))) * draw(st.floats(0.01, 0.3)):.4g} {rest}".strip()
+
+
+@st.composite
+def gentle_csv(draw, text: str, rel: str):
+    """A plausible edit of a data file: a CTD sample spiked by up to ±2.5 K or ±0.5 in salinity (deep in the
+    cast, where the plumes rise), a row dropped, or a number of a table scaled by 0.5-2."""
+    lines = text.splitlines()
+    data = [i for i, ln in enumerate(lines) if ln and not ln.startswith("#")][1:]
+    if rel.endswith("ctd_cast.csv"):
+        deep = [i for i in data if float(lines[i].split(",")[0]) >= 1900]
+        i = draw(st.sampled_from(deep))
+        cells = lines[i].split(",")
+        kind = draw(st.sampled_from(["temperature", "temperature", "salinity", "drop"]))
+        if kind == "drop":
+            del lines[i]
+        else:
+            j, d = (1, draw(st.floats(-2.5, 2.5))) if kind == "temperature" else (2, draw(st.floats(-0.5, 0.5)))
+            cells[j] = f"{float(cells[j]) + d:.4f}"
+            lines[i] = ",".join(cells)
+        return "\n".join(lines) + "\n"
+    i = draw(st.sampled_from(data))
+    cells = lines[i].split(",")
+    numeric = [j for j, c in enumerate(cells) if _FIRST_NUMBER.fullmatch(c.strip())]
+    if numeric:
+        j = draw(st.sampled_from(numeric))
+        cells[j] = f"{float(cells[j]) * draw(st.floats(0.5, 2.0)):.6g}"
+        lines[i] = ",".join(cells)
+    return "\n".join(lines) + "\n"
+
+
+@st.composite
+def gentle_variant(draw, base_text):
+    """1-2 plausible edits of the whole demo: what a scientist revising a survey might write."""
+    out = {"survey.toml": base_text}
+    for _ in range(draw(st.integers(1, 2))):
+        f = draw(st.sampled_from(["survey.toml", "survey.toml", "data/ctd_cast.csv", "data/ctd_cast.csv",
+                                  "data/patches.csv", "data/area_classes.csv", "data/flank_heat_flow.csv"]))
+        text = out.get(f) or (DEMO / f).read_text()
+        if f == "survey.toml":
+            lines, q, _ = _toml_lines(text)
+            i = draw(st.sampled_from(q))
+            ind, key, old = _QUANTITY.match(lines[i]).groups()
+            lines[i] = f'{ind}{key} = "{draw(gentle_quantity(old))}"'
+            out[f] = "\n".join(lines) + "\n"
+        else:
+            out[f] = draw(gentle_csv(text, f))
+    return out
+
+
 def _check_then_run(files: dict, counts: dict, full: bool = False):
     from ventflux.survey.run import run_survey
     from ventflux.survey.spec import load_survey
@@ -165,7 +233,9 @@ def _check_then_run(files: dict, counts: dict, full: bool = False):
             counts["refused by --check"] += 1
             return
         counts["passed --check"] += 1
-        spec.draws = RUN_DRAWS
+        # the whole demo runs with enough draws that a share of draws without a solution near the 5 % limit is
+        # measured to ±0.35 % (binomial), not ±1.1 % as with 400: the check's 5-95 % points are then a fair test
+        spec.draws = FULL_RUN_DRAWS if full else RUN_DRAWS
         try:
             run_survey(spec)
         except (InputError, InputErrors) as e:
@@ -193,7 +263,7 @@ def _fuzz(n, full=False):
 
     @settings(max_examples=n, deadline=None, derandomize=True, database=None,
               suppress_health_check=[HealthCheck.too_slow, HealthCheck.data_too_large])
-    @given(variant((DEMO / "survey.toml").read_text() if full else LIGHT))
+    @given(gentle_variant((DEMO / "survey.toml").read_text()) if full else variant(LIGHT))
     def prop(files):
         _check_then_run(files, counts, full)
 
@@ -223,7 +293,11 @@ def test_what_check_accepts_the_run_accepts_many():
 
 @pytest.mark.slow
 def test_what_check_accepts_the_run_accepts_on_the_whole_demo():
-    """The whole demo, with its video clip, probe records and the integral plume model (about 15 s a run)."""
+    """The whole demo, with its video clip, probe records and the integral plume model (about 30 s a run).
+
+    Plausible edits (values scaled by 0.5-2, spreads widened, CTD samples spiked deep in the cast, table numbers
+    scaled), so that most variants pass ``--check`` and the run is exercised, and some do not.
+    """
     counts = _fuzz(30, full=True)
     print(f"\nsurvey mutation fuzz (whole demo): {counts}")
-    assert counts["passed --check"] >= 3
+    assert counts["passed --check"] >= 12 and counts["refused by --check"] >= 3

@@ -279,3 +279,20 @@ def test_non_finite_exact_input_is_one_line(capsys):
     assert main(ONE_PATCH + ["--area", "12 m^2", "--active-fraction", "nan"]) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--active-fraction" in err[0] and "finite" in err[0]
+
+
+def test_survey_max_unphysical_option_overrides_the_file_and_is_recorded(tmp_path, capsys):
+    # 0.6 ± 0.3 m/s: P(v <= 0) = Phi(-2) = 2.3 % of draws (normal table): under the file's 5 %, above 1 %
+    path = tmp_path / "survey.toml"
+    path.write_text(SITE + '\n[[vent]]\nname = "Vent V"\n  [[vent.orifice]]\n  temperature = "300 degC"\n'
+                    '  velocity = "0.6 ± 0.3 m/s"\n  diameter = "5 cm"\n', encoding="utf-8")
+    out = tmp_path / "results"
+    argv = ["survey", str(path), "--quiet", "--budget", "off", "--out", str(out)]
+    assert main(argv + ["--max-unphysical", "0.01"]) == 2
+    err = capsys.readouterr().err
+    assert "velocity" in err and "1.0%" in err and not out.exists()
+    assert main(argv + ["--max-unphysical", "0.2"]) == 0
+    capsys.readouterr()
+    provenance = json.loads((out / "summary.json").read_text())["provenance"]
+    assert provenance["max_unphysical_share"] == 0.2
+    assert 0.01 * DRAWS < provenance["unphysical_draws"] < 0.04 * DRAWS

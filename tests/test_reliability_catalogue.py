@@ -143,6 +143,15 @@ def _probe_cases(tmp):
         ("probe-conductivity-1e6", base + ["--conductivity", "1e6 W/(m K)"], ["--conductivity"]),
         ("probe-conductivity-inf", base + ["--conductivity", "inf W/(m K)"], ["--conductivity"]),
         ("probe-out-through-file", base + ["--out", str(blocker / "t.csv")], ["--out"]),
+        # the shared Monte Carlo options of the one driver
+        ("probe-seed-negative", base + ["--seed", "-1", "--out", str(tmp / "hf.csv")], ["--seed"]),
+        ("probe-draws-1e12", base + ["--draws", "1000000000000"], ["--draws"]),
+        ("probe-draws-text", base + ["--draws", "many"], ["--draws"]),
+        ("probe-max-unphysical-1.5", base + ["--max-unphysical", "1.5", "--out", str(tmp / "hf.csv")],
+         ["--max-unphysical"]),
+        ("probe-max-unphysical-text", base + ["--max-unphysical", "some"], ["--max-unphysical"]),
+        ("probe-tilt-nan", base + ["--tilt", "nan deg"], ["--tilt"]),
+        ("probe-radius-1e30", base + ["--probe-radius", "1e30 mm"], ["--probe-radius"]),
     ]
 
 
@@ -158,6 +167,9 @@ def _advection_cases(tmp):
         ("advection-salinity-60", base + ["--salinity", "60"], ["--salinity"]),
         ("advection-missing-profile", ["profile-advection", str(tmp / "none.csv"), "--conductivity", "1 W/(m K)",
                                        "--depth", "2200 m"], ["none.csv"]),
+        ("advection-absolute-pressure-inf", _without(base, "--depth") + ["--absolute-pressure", "inf MPa"],
+         ["--absolute-pressure"]),
+        ("advection-pressure-and-depth", base + ["--absolute-pressure", "22 MPa"], ["--absolute-pressure/--depth"]),
     ]
 
 
@@ -177,6 +189,10 @@ def _array_cases(tmp):
         ("array-header-only", ["array-anomaly", str(header_only)], ["grid_header.csv"]),
         ("array-unknown-sensor", ["array-anomaly", str(rec), "--patch", "mat=S0,S9"], ["--patch"]),
         ("array-unknown-reference", ["array-anomaly", str(rec), "--reference", "bottom"], ["bottom"]),
+        ("array-peaks-0", ["array-anomaly", str(rec), "--peaks", "0"], ["--peaks"]),
+        ("array-patch-without-sensors", ["array-anomaly", str(rec), "--patch", "mat"], ["--patch"]),
+        ("array-patch-twice", ["array-anomaly", str(rec), "--patch", "mat=S0", "--patch", "mat=S1"], ["--patch"]),
+        ("array-sensor-is-time", ["array-anomaly", str(rec), "--sensors", "time,S0"], ["sensors"]),
     ]
 
 
@@ -196,6 +212,22 @@ def _video_cases(tmp):
         ("video-field-pixel-nan", _with(field, "--pixel-size", "nan mm"), ["--pixel-size"]),
         ("video-field-frame-rate-0", field + ["--frame-rate", "0/s"], ["--frame-rate"]),
         ("video-scale-distance-inf", scale + ["--points", "1,1,20,20", "--distance", "inf cm"], ["--distance"]),
+        # the shared Monte Carlo options of the one driver, and the vocabulary's names
+        ("video-jet-seed-negative", jet + ["--seed", "-1", "--out", str(tmp / "jet")], ["--seed"]),
+        ("video-jet-draws-1e12", jet + ["--draws", "1000000000000"], ["--draws"]),
+        ("video-jet-draws-one", jet + ["--draws", "1"], ["--draws"]),
+        ("video-jet-max-unphysical-1", jet + ["--max-unphysical", "1", "--out", str(tmp / "jet")],
+         ["--max-unphysical"]),
+        ("video-jet-max-unphysical-text", jet + ["--max-unphysical", "few"], ["--max-unphysical"]),
+        ("video-jet-absolute-pressure-1e6-MPa", jet + ["--absolute-pressure", "1e6 MPa", "--ambient-temperature",
+                                                      "2 degC"], ["--absolute-pressure"]),
+        ("video-jet-ambient-without-pressure", jet + ["--ambient-temperature", "2 degC"], ["--absolute-pressure"]),
+        ("video-jet-plume-constant-negative", jet + ["--plume-constant", "-4"], ["--plume-constant"]),
+        ("video-jet-width-ratio-nan", jet + ["--tracer-to-velocity-width-ratio", "nan"],
+         ["--tracer-to-velocity-width-ratio"]),
+        ("video-jet-orifice-text", _with(jet, "--orifice", "left,248"), ["--orifice"]),
+        ("video-jet-windows-text", jet + ["--windows", "32,x"], ["--windows"]),
+        ("video-field-pixel-spread-absurd", _with(field, "--pixel-size", "4 ± 1e6 mm"), ["--pixel-size"]),
     ]
 
 
@@ -271,6 +303,13 @@ SURVEY_CASES = [
      ["ridge_flank.temperature_rise"]),
     ("survey-ctd-path-nul", {"survey.toml": ('ctd = "data/ctd_cast.csv"', 'ctd = "data/ctd\\u0000cast.csv"')},
      ["site.ctd"]),
+    # one spiked sample: 0 degC in a 2.3 degC stretch of the cast fails the real-time spike test (2 degC below
+    # 500 dbar) and is named by its line
+    ("survey-ctd-spike", {"data/ctd_cast.csv": ("2160.0,2.3114", "2160.0,0.0")}, ["ctd_cast.csv:323"]),
+    # a smaller spike (0.5 K) passes the spike test, but caps the field's plume: the rise height's 95 % point has no
+    # plume solution, as the run would find for more than 5 % of its draws
+    ("survey-ctd-spike-caps-the-field-plume", {"data/ctd_cast.csv": ("2160.0,2.3114", "2160.0,1.8")},
+     ["field_plume.height"]),
 ]
 
 
@@ -321,7 +360,15 @@ FILE_CASE_IDS = ["probe-non-utf8-header", "probe-missing-record", "probe-conduct
                  "array-unknown-sensor", "array-unknown-reference", "video-jet-pixel-1e-30", "video-jet-pixel-inf",
                  "video-jet-pixel-km", "video-jet-frame-rate-1e9", "video-jet-missing-clip",
                  "video-field-pixel-1e-30", "video-field-pixel-nan", "video-field-frame-rate-0",
-                 "video-scale-distance-inf"]
+                 "video-scale-distance-inf",
+                 "probe-seed-negative", "probe-draws-1e12", "probe-draws-text", "probe-max-unphysical-1.5",
+                 "probe-max-unphysical-text", "probe-tilt-nan", "probe-radius-1e30",
+                 "advection-absolute-pressure-inf", "advection-pressure-and-depth",
+                 "array-peaks-0", "array-patch-without-sensors", "array-patch-twice", "array-sensor-is-time",
+                 "video-jet-seed-negative", "video-jet-draws-1e12", "video-jet-draws-one", "video-jet-max-unphysical-1",
+                 "video-jet-max-unphysical-text", "video-jet-absolute-pressure-1e6-MPa",
+                 "video-jet-ambient-without-pressure", "video-jet-plume-constant-negative", "video-jet-width-ratio-nan",
+                 "video-jet-orifice-text", "video-jet-windows-text", "video-field-pixel-spread-absurd"]
 
 
 @pytest.mark.parametrize("case_id", FILE_CASE_IDS)
@@ -370,6 +417,14 @@ def test_survey_refuses_every_problem_at_once(case, check, demo, capsys, monkeyp
     out = demo.parent / "results"
     argv = ["survey", str(demo / "survey.toml"), "--quiet"] + (["--check"] if check else ["--out", str(out)])
     _run(capsys, argv, names, demo.parent, out)
+
+
+@pytest.mark.parametrize("share", ["1.5", "-0.1", "few"])
+def test_survey_max_unphysical_option_is_one_line(share, demo, capsys, monkeypatch):
+    monkeypatch.chdir(demo.parent)
+    out = demo.parent / "results"
+    _run(capsys, ["survey", str(demo / "survey.toml"), "--quiet", "--max-unphysical", share, "--out", str(out)],
+         ["--max-unphysical"], demo.parent, out)
 
 
 def test_catalogue_size():

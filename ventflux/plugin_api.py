@@ -45,8 +45,8 @@ Files and output
 Registry look-ups
     ``velocity_from_source``, ``fluid_model_by_name``.
 Vocabulary
-    ``RENAMED_COLUMNS``, ``deprecation_line``, ``warn_deprecated`` (old CSV
-    column spellings accepted for one release, with one deprecation line).
+    ``add_deprecated_option``, ``renamed_key``, ``RENAMED_COLUMNS``, ``warn_deprecated``, ``deprecation_line``
+    (old spellings of options, keys and CSV columns, accepted for one release with one deprecation line).
 """
 
 from __future__ import annotations
@@ -111,7 +111,7 @@ from .uncertainty import (
     uniform,
     unit_tag,
 )
-from .vocabulary import RENAMED_COLUMNS, deprecation_line, warn_deprecated
+from .vocabulary import RENAMED_COLUMNS, add_deprecated_option, deprecation_line, renamed_key, warn_deprecated
 from .units import (
     DIMENSIONS,
     Q_,
@@ -129,8 +129,6 @@ API_VERSION = "1"
 __all__ = [
                           "API_VERSION",
                           "RENAMED_COLUMNS",
-                          "deprecation_line",
-                          "warn_deprecated",
                           "CORE_VERSION",
                           "DIMENSIONS",
                           "STANDARD_ATMOSPHERE",
@@ -175,6 +173,10 @@ __all__ = [
                           "UnphysicalPolicy",
                           "VelocitySource",
                           "add_monte_carlo_options",
+                          "add_deprecated_option",
+                          "deprecation_line",
+                          "renamed_key",
+                          "warn_deprecated",
                           "add_output_options",
                           "as_float",
                           "atomic_directory",

@@ -21,7 +21,12 @@ Processing, in this order:
 1. **Order.** Depths must increase (down-cast) or decrease (up-cast) strictly
    from row to row; a cast with loops or repeated depths is refused, naming
    the first line that breaks the order. Up-casts are reversed.
-2. **Validity.** Every row must lie in TEOS-10's oceanographic funnel [2]_.
+2. **Validity.** Every row must lie in TEOS-10's oceanographic funnel [2]_,
+   and no temperature or salinity sample may be a spike: a sample whose
+   ``|V2 − (V1 + V3)/2| − |(V3 − V1)/2|`` against its neighbours in depth
+   exceeds 6 °C / 0.9 above 500 dbar and 2 °C / 0.3 at or below it (the spike
+   test of a profiling-float programme's real-time quality control [3]_;
+   thresholds from memory) is refused, naming its line.
 3. **Binning.** Rows are averaged in depth bins ``window`` wide (default
    ``DEFAULT_WINDOW``, 5 m; ``window=None`` keeps every row). Averaging SA and
    CT (not in-situ temperature) keeps the averages conservative. This removes
@@ -42,6 +47,9 @@ References
    Intergovernmental Oceanographic Commission, Manuals and Guides No. 56.
 .. [2] McDougall, T. J. and Barker, P. M. (2011). Getting started with TEOS-10
    and the Gibbs Seawater (GSW) Oceanographic Toolbox, SCOR/IAPSO WG127.
+.. [3] Wong, A., Keeley, R., Carval, T. and the Argo Data Management Team
+   (2020). Argo Quality Control Manual for CTD and Trajectory Data, version
+   3.3, doi:10.13155/33951, §2.1.2, real-time test 9 (spike test).
 """
 
 from __future__ import annotations
@@ -204,6 +212,10 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
         errs.add(InputError("temperature", f"{t[i]:g} degC at {p[i]:.0f} dbar",
                             "seawater within TEOS-10's validity (freezing point to 40 degC, 0-8000 dbar)",
                             where=where(i)))
+    valid = rows_ok.copy()
+    valid[outside] = False
+    for e in _check_spikes(z, p, t, sp, order, where, valid):
+        errs.add(e)
     errs.raise_if_any()
     z, p, SA, CT, t, sp = (a[order] for a in (z, p, SA, CT, t, sp))
     if window is not None:
@@ -290,6 +302,64 @@ def _profile(z, p, SA, CT, t, sp, lat, lon, source, window):
         conservative_temperature=Q_(CT, "degC"), potential_density=Q_(gsw.rho(SA, CT, 0.0), "kg/m^3"),
         buoyancy_frequency_squared=Q_(n2, "1/s^2"), n2_depth=Q_(z_mid, "m"),
         latitude=lat, longitude=lon, source=source, window=window)
+
+
+#: Spike test of a cast (a profiling-float programme's real-time QC, test 9 [3]_; thresholds from memory):
+#: a sample whose
+#: ``|V2 − (V1 + V3)/2| − |(V3 − V1)/2|`` against its neighbours in depth exceeds the threshold is a spike.
+#: (sea pressure from which the deep threshold applies [dbar], shallow and deep threshold).
+SPIKE_DEEP_FROM = 500.0
+SPIKE_TEMPERATURE = (6.0, 2.0)  # degC
+SPIKE_SALINITY = (0.9, 0.3)  # practical salinity
+
+
+def spike_test_value(v):
+    """``|V2 − (V1 + V3)/2| − |(V3 − V1)/2|`` of each interior sample of ``v`` (NaN at both ends).
+
+    The spike test of a profiling-float programme's real-time quality control [3]_: large where one
+    sample departs from both its neighbours in the same direction, zero across
+    a steady gradient or a single step.
+
+    Examples
+    --------
+    >>> spike_test_value(np.array([2.0, 2.0, 0.0, 2.0, 2.0]))
+    array([nan,  0.,  2.,  0., nan])
+    """
+    v = np.asarray(v, float)
+    out = np.full(v.shape, np.nan)
+    out[1:-1] = np.abs(v[1:-1] - 0.5 * (v[2:] + v[:-2])) - np.abs(0.5 * (v[2:] - v[:-2]))
+    return out
+
+
+def _check_spikes(z, p, t, sp, order, where, valid) -> list[InputError]:
+    """One error per spiked sample (temperature or salinity), in depth order, naming the file's line.
+
+    Rows already refused for their range (``valid`` False) are not reported again.
+
+    The binning averages a spike into a bin, where it can still fold the
+    stratification over (a cold spike of 2 K in a 5 m bin of a deep cast is
+    a density step no plume crosses): the run would then find draws without a
+    plume solution that ``--check`` never saw. Spikes are refused at reading,
+    with the published test and its thresholds.
+    """
+    out: list[InputError] = []
+    if z.size < 3:
+        return out
+    ps = p[order]
+    deep = ps >= SPIKE_DEEP_FROM
+    for name, v, unit, (shallow, deep_limit) in (("temperature", t, " degC", SPIKE_TEMPERATURE),
+                                                 ("salinity", sp, "", SPIKE_SALINITY)):
+        test = spike_test_value(v[order])
+        limit = np.where(deep, deep_limit, shallow)
+        with np.errstate(invalid="ignore"):
+            bad = np.flatnonzero((test > limit) & valid[order])
+        for j in bad:
+            i = order[j]
+            out.append(InputError(name, f"{v[i]:g}{unit} at {ps[j]:.0f} dbar",
+                                  f"no spike: within {limit[j]:g}{unit} of its neighbours' mean beyond their own "
+                                  f"difference (real-time spike test, {'at or below' if deep[j] else 'above'} "
+                                  f"{SPIKE_DEEP_FROM:g} dbar); remove the sample or correct it", where=where(i)))
+    return out
 
 
 def _check_stability(prof, max_unstable, path):

@@ -22,6 +22,9 @@ def configure(p):
                         "under data/ beside it, then exit; existing files are never overwritten")
     p.add_argument("--draws", type=int, default=None, metavar="N", help="override the file's Monte Carlo draws")
     p.add_argument("--seed", type=int, default=None, help="override the file's random seed")
+    p.add_argument("--max-unphysical", default=None, metavar="SHARE",
+                   help="override the file's [run] max_unphysical (share of draws dropped as impossible before the "
+                        "run refuses; recorded in summary.json)")
     p.add_argument("--quiet", action="store_true", help="no progress messages")
     p.add_argument("--budget", choices=("draws", "full", "off"), default="draws",
                    help="uncertainty budget: which input owns the variance of each result, from the run's own draws "
@@ -80,6 +83,10 @@ def run(args) -> int:
         spec.draws = args.draws
     if args.seed is not None:
         spec.seed = args.seed
+    if args.max_unphysical is not None:  # recorded in summary.json as max_unphysical_share
+        from ..uncertainty import check_max_unphysical
+
+        spec.max_unphysical = check_max_unphysical(args.max_unphysical, "--max-unphysical")
     for line in spec.warnings.lines():
         print(f"ventflux survey: warning: {line}", file=sys.stderr)
     if args.check:

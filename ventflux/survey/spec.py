@@ -355,6 +355,7 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
         if fp is not None:
             _check_rise_height(fp, parsed_sections["field_plume"].get("height"), site)
             _check_plume_spread(fp, parsed_sections["field_plume"])
+            _check_plume_solvable(fp, parsed_sections["field_plume"], site)
     top.check_unknown()
     if not vents and not parsed_sections:
         errs.add(InputError("survey", "no [[vent]] and no field-wide section", "at least one vent or section",
@@ -415,6 +416,7 @@ def _check_vent(f: Fields, name, exit_t, methods: dict, site, warnings: Warnings
         sub = f.sub("plume_rise")
         if sub is not None:
             _check_rise_height(sub, plume.get("height"), site)
+            _check_plume_solvable(sub, plume, site)
             if len(methods) > 1:
                 _check_plume_spread(sub, plume)
     for i, o in enumerate(methods.get("orifice") or []):
@@ -704,6 +706,121 @@ def _check_ctd(f: Fields, site: SiteSpec):
         key = "depth" if site.depth is not None else "absolute_pressure"
         f.error(key, f.raw(key), f"a site within the depth range of the CTD cast ({z.min():.0f} to "
                                        f"{z.max():.0f} m after binning), or a cast that reaches the site")
+
+
+#: Physical range of each plume input's draws (the run's ``plume.propagation.PLUME_INPUTS``): a 5 % point outside
+#: it means more than 5 % of the draws would be dropped.
+_PLUME_POSITIVE = {"height": True, "entrainment": True, "buoyancy_frequency": True, "stratification_scale": True,
+                   "current": False}
+
+
+def _check_plume_solvable(f: Fields, plume, site) -> None:
+    """The plume-rise inversion must have a solution over each input's 5–95 % range, as the run needs.
+
+    The run drops the draws whose rise height no plume reaches in the site's
+    stratification (a dense layer or a spike in the cast can cap every plume
+    below it) and refuses the estimate when more than ``[run] max_unphysical``
+    of them fail; ``--check`` refuses the same file here. The inversion is
+    solved at a few points: the rise height at its 5 % and 95 % points with the
+    other inputs at their nominal values, then each other uncertain input
+    (entrainment, buoyancy frequency, stratification scale, current) at its 5
+    % and 95 % points with the height at its nominal value: one vectorized
+    call of the model the run uses (its emulator or its integration), on a
+    handful of members.
+    """
+    if not isinstance(plume, dict) or plume.get("height") is None or site is None:
+        return
+
+    def key_of(k):  # the parsed plume holds "height"; the file says rise_height (or, for one release, height)
+        return "rise_height" if k == "height" and "height" not in f.table else k
+
+    def written(k, default=None):
+        return f.table.get(key_of(k), default)
+    import numpy as np
+
+    from ..limits import _span
+    from ..plume import heat_power_from_rise_height
+    from .fields import as_float, nominal_of
+    from .plume_method import ENTRAINMENT_UNCERTAIN
+
+    units = {"height": "m", "entrainment": "dimensionless", "buoyancy_frequency": "1/s",
+             "stratification_scale": "dimensionless", "current": "m/s"}
+    spans = {}
+    for key, unit in units.items():
+        v = plume.get(key)
+        v = v.value if isinstance(v, SharedRef) else v
+        if v is None and key == "entrainment":
+            v = ENTRAINMENT_UNCERTAIN
+        if v is None:
+            continue
+        try:
+            spans[key] = _span(v, unit)
+        except (InputError, TypeError, ValueError, AttributeError):
+            return
+        if spans[key] is None:
+            return
+        nom, lo, hi = spans[key]
+        if lo != hi and not (lo > 0 if _PLUME_POSITIVE[key] else lo >= 0) and key != "current":
+            f.error(key_of(key), written(key, str(v)), f"a distribution whose 5 % point is > 0 (it is {lo:.4g}): the "
+                                                   "run drops draws outside that range and refuses when more than "
+                                                   "5 % are dropped")
+            return
+    if any(e.field in {f.key(key_of(k)) for k in spans} for e in f.errors.errors):
+        return  # an input of this plume is already refused: its own line says why
+    strat = None
+    if site.ctd is not None and plume.get("buoyancy_frequency") is None:
+        from .. import profiles
+
+        kwargs: dict[str, object] = {"latitude": site.latitude, "longitude": site.longitude}
+        if site.ctd_window is not None:
+            kwargs["window"] = site.ctd_window
+        try:
+            strat = profiles.read_ctd_cast(site.ctd, **kwargs)
+        except (InputError, InputErrors):
+            return  # reported by _check_ctd
+    elif "buoyancy_frequency" not in spans:
+        return
+    points = [("height", "lo"), ("height", "hi")] + [(k, side) for k in spans if k != "height" and
+                                                     spans[k][1] != spans[k][2] for side in ("lo", "hi")]
+    pick = {"lo": 1, "hi": 2}
+
+    def column(key):
+        return np.array([spans[key][pick[side]] if k == key else spans[key][0] for k, side in points], float)
+
+    h = column("height")
+    alpha = column("entrainment")
+    scale = np.ones(len(points))
+    if "stratification_scale" in spans:
+        scale = scale * column("stratification_scale")
+    kwargs = dict(level=plume.get("level") or "maximum", method=plume.get("method") or "integral",
+                  pressure=_site_pressure(site), latitude=site.latitude, longitude=site.longitude)
+    stratification: object = strat
+    if strat is None:  # a constant N: its spread is a factor on N²
+        n0 = spans["buoyancy_frequency"][0]
+        scale = scale * (column("buoyancy_frequency") / n0) ** 2
+        stratification = Q_(n0, "1/s")
+        kwargs.update(ambient_temperature=nominal_of(site.ambient_temperature),
+                      ambient_salinity=float(as_float(nominal_of(site.ambient_salinity))))
+    current = Q_(np.abs(column("current")), "m/s") if "current" in spans else None
+    try:
+        res = heat_power_from_rise_height(Q_(h, "m"), stratification, entrainment=alpha, current=current,
+                                          stratification_scale=scale, predrawn=True, **kwargs)
+    except InputError as e:
+        f.error(key_of("height"), written("height"), f"a rise height the plume model can invert: {e.allowed}")
+        return
+    except (InputErrors, TypeError, ValueError, AttributeError, ArithmeticError):
+        return  # not this check's to report: the inputs' own checks name them
+    power: pint.Quantity = res.heat_power  # type: ignore[assignment]
+    H = np.atleast_1d(np.asarray(power.to("W").magnitude, dtype=float))
+    for j in np.flatnonzero(~np.isfinite(H)):
+        key, side = points[j]
+        at = ", ".join(f"{k} {v:.4g}" for k, v in (("entrainment", alpha[j]), ("scale on N²", scale[j])))
+        f.error(key_of(key), written(key, "(default)"),
+                f"a {key.replace('_', ' ')} whose {'5' if side == 'lo' else '95'} % point still has a plume "
+                f"solution in the site's stratification: no plume rises to {h[j]:.4g} m ({at}); the run drops "
+                "such draws and refuses when more than 5 % have none (a dense layer or a spike in the cast can cap "
+                "every plume below it)")
+        return
 
 
 def _in_key(e: InputError, key: str) -> InputError:

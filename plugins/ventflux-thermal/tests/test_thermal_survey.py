@@ -142,3 +142,56 @@ def test_record_reader_fuzz_one_line_per_column(tmp_path_factory, cells):
         pass
     else:
         assert rec.temperature.shape == (2, len(cells))
+
+
+def test_probe_heat_flow_and_the_survey_draw_the_conductivity_fits_identically(tmp_path, capsys):
+    """Same record and seed: ``probe-heat-flow`` and ``[sediment_probes]`` give the same conductivity-fit draws.
+
+    Both run the fits' Monte Carlo through ``ventflux.uncertainty.propagate`` (``probe.fit_spread``) with the
+    streams named by record, label and sensor, so the parts agree to rounding, not within Monte Carlo noise.
+    """
+    import json
+
+    from ventflux.cli import main
+
+    make_record(tmp_path / "hf1.csv", "cylinder", k=K, depths=DEPTHS, q=0.3, t_end=1100.0)
+    (tmp_path / "survey.toml").write_text(SITE.replace("seed = 5", "seed = 91") + """
+[sediment_probes]
+records = ["hf1.csv"]
+area = "1000 m^2"
+exclude_sensors = { "hf1.csv" = ["T3"] }
+""", encoding="utf-8")
+    result = run_survey(load_survey(tmp_path / "survey.toml"))
+    row = result.sections["sediment_probes"].rows[0]
+    assert main(["probe-heat-flow", str(tmp_path / "hf1.csv"), "--exclude-sensor", "T3", "--draws", "2000",
+                 "--seed", "91", "--quiet", "--json"]) == 0
+    cap = capsys.readouterr()
+    out = json.loads(cap.out)
+    assert len([ln for ln in cap.err.splitlines() if "deprecated" in ln]) == 1
+    pen = out["penetrations"][0]
+    assert out["seed"] == 91 and out["draws"] == 2000 and out["max_unphysical_share"] == 0.05
+    assert pen["unphysical_draws"] == 0
+    for part in ("conductivity fits", "interpolated conductivity"):
+        key = f"heat_flow_u_{part.replace(' ', '_')} [mW/m^2]"
+        assert row[key] > 0
+        assert 1e3 * pen["uncertainty_parts_W_m2"][part] == pytest.approx(row[key], rel=1e-12)
+    assert 1e3 * pen["heat_flow_uncertainty_W_m2"] == pytest.approx(row["heat_flow_uncertainty [mW/m^2]"], rel=1e-12)
+    # the earlier keys in mW/m^2 stay for one release, with one deprecation line
+    assert pen["heat_flow_uncertainty_mW_m2"] == pytest.approx(1e3 * pen["heat_flow_uncertainty_W_m2"])
+
+
+def test_conductivity_draws_below_the_floor_are_dropped_counted_and_refused_above_the_share():
+    # One sensor's conductivity 0.3 ± 0.12 W/(m K): P(k < 0.05) = Phi(-2.08) = 1.9 % (normal table).
+    from ventflux.plugin_api import SharedDraws as Draws
+
+    from ventflux_thermal.probe import fit_spread
+
+    k, se = np.array([0.3, 1.0, 1.1]), np.array([0.12, 0.01, 0.01])
+    model = {"distance": np.array([1.0, 2.0, 3.0]), "tilt": 0.0, "kept": [0, 1, 2], "interpolation": np.eye(3),
+             "sensors": ("T1", "T2", "T3"), "gap_sd": 0.0}
+    teq = 275.0 + 0.3 * np.cumsum(1.0 / k)
+    ok = fit_spread("r.csv", "", k, se, teq, model, Draws(20_000, seed=4))
+    assert 0.012 * 20_000 < ok.provenance["unphysical_draws"] < 0.026 * 20_000
+    with pytest.raises(InputError) as err:
+        fit_spread("r.csv", "", k, se, teq, model, Draws(20_000, seed=4), max_unphysical=0.01)
+    assert "r.csv" in err.value.field and "1.0%" in err.value.allowed

@@ -273,7 +273,7 @@ def test_red_laser_among_marine_snow_scale_within_1_percent(tmp_path, capsys):
     assert main(["video-scale", str(folder), "--frame-rate", "1/s", "--laser-separation", "10 cm",
                  "--laser-colour", "red", "--json"]) == 0
     res = json.loads(capsys.readouterr().out)
-    assert res["metres_per_pixel_m"] == pytest.approx(0.1 / sep_px, rel=0.01)  # issue 12 limit
+    assert res["pixel_size_m"] == pytest.approx(0.1 / sep_px, rel=0.01)  # issue 12 limit
     assert res["laser_colour"] == "red" and res["scale_spread"] < 0.01
 
 

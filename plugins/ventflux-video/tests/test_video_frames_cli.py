@@ -83,7 +83,7 @@ def test_video_field_on_image_sequence_counts_the_skipped_frame(sequence, capsys
 def test_video_jet_json(clip, capsys, tmp_path):
     argv = ["video-jet", clip.path, "--pixel-size", f"{clip.metres_per_pixel} m", "--orifice",
             f"{clip.orifice_xy[0]},{clip.orifice_xy[1]}", "--windows", "32,16", "--ambient-temperature", "2 degC",
-            "--pressure", "25 MPa", "--json", "--out", str(tmp_path / "jet"),
+            "--absolute-pressure", "25 MPa", "--json", "--out", str(tmp_path / "jet"),
             # the demo generator's clip is a textured sheet, rendered with k = 4.7
             "--view", "sheet", "--plume-constant", str(clip.plume_constant), "--draws", "2000"]
     assert main(argv) == 0
@@ -112,7 +112,7 @@ def test_scale_from_points_and_laser_spots(tmp_path, capsys):
     assert main(["video-scale", str(tmp_path), "--frame-rate", "1/s", "--laser-separation", "10 cm", "--json"]) == 0
     res = json.loads(capsys.readouterr().out)
     sep = np.hypot(*(spots[1] - spots[0]))
-    assert res["metres_per_pixel_m"] == pytest.approx(0.1 / sep, rel=0.005)
+    assert res["pixel_size_m"] == pytest.approx(0.1 / sep, rel=0.005)
 
 
 def test_registered_velocity_source_feeds_orifice(clip):
@@ -120,7 +120,7 @@ def test_registered_velocity_source_feeds_orifice(clip):
 
     src = velocity_source("video-exit-velocity")
     assert "orifice" in src.feeds
-    v, sd = src.estimate(clip.path, metres_per_pixel=f"{clip.metres_per_pixel} m",
+    v, sd = src.estimate(clip.path, pixel_size=f"{clip.metres_per_pixel} m",
                          orifice_xy=f"{clip.orifice_xy[0]},{clip.orifice_xy[1]}", passes="32,16")
     assert v.to("m/s").magnitude == pytest.approx(clip.exit_velocity, rel=0.2) and sd.magnitude >= 0
 
@@ -187,8 +187,10 @@ def test_orifice_command_takes_the_video_exit_velocity(clip, capsys):
             "--source-option", "passes=32,16", "--velocity-kind", "centerline", "--diameter", "4 cm",
             "--absolute-pressure", "25 MPa", "--ambient-temperature", "2 degC", "--json"]
     assert main(argv) == 0
-    out = capsys.readouterr().out
-    assert "heat_power" in out
+    captured = capsys.readouterr()
+    assert "heat_power" in captured.out
+    # the old name of the pixel size is accepted for one release, with one deprecation line naming the new one
+    assert "'metres_per_pixel' is deprecated; use 'pixel_size'" in captured.err
 
 
 @pytest.mark.parametrize("suffix, codec", [(".avi", "mpeg4"), (".mov", "libx264")])
@@ -211,3 +213,67 @@ def test_other_containers(tmp_path, suffix, codec):
 def test_progress_bar_goes_to_stderr(clip, capsys):
     list(FrameStream(clip.path, stop=5, progress=True))
     assert "frame" in capsys.readouterr().err
+
+
+# ----------------------------------------------------------------- one driver: command and survey draw alike
+def test_video_jet_and_survey_give_identical_draws(clip, capsys, tmp_path):
+    """Same clip, vent name, seed and inputs: ``video-jet`` and ``[vent.video]`` draw the same heat power.
+
+    Both go through ``ventflux.uncertainty.propagate`` with the inputs named ``<vent>/video/<part>``, so the
+    summaries agree to rounding, not merely within Monte Carlo noise. The pixel size's relative error is
+    0.04 mm / 2 mm = 0.02 exactly in binary, the survey's ``scale_factor`` "1 ± 0.02".
+    """
+    from ventflux.survey.run import run_survey
+    from ventflux.survey.spec import load_survey
+
+    x, y = clip.orifice_xy
+    survey = tmp_path / "s.toml"
+    survey.write_text(f"""
+[site]
+name = "Test Site"
+depth = "2500 m"
+latitude = 10.0
+longitude = -100.0
+ambient_temperature = "2.0 degC"
+ambient_salinity = 35
+
+[run]
+draws = 3000
+seed = 77
+
+[[vent]]
+name = "Vent J"
+  [vent.video]
+  clip = "{clip.path}"
+  pixel_size = "2 mm"
+  scale_factor = "1 ± 0.02"
+  orifice = [{x}, {y}]
+  view = "sheet"
+""", encoding="utf-8")
+    result = run_survey(load_survey(survey))
+    H = result.vents[0].methods["video"].heat_power.to("W").magnitude
+    argv = ["video-jet", clip.path, "--name", "Vent J", "--pixel-size", "2 ± 0.04 mm", "--orifice", f"{x},{y}",
+            "--view", "sheet", "--depth", "2500 m", "--latitude", "10", "--ambient-temperature", "2.0 degC",
+            "--ambient-salinity", "35", "--draws", "3000", "--seed", "77", "--quiet", "--json"]
+    assert main(argv) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert out["unphysical_draws"] == int(np.count_nonzero(np.isnan(H)))
+    assert out["max_unphysical_share"] == 0.05 and out["draws"] == 3000 and out["seed"] == 77
+    assert out["heat_power_W_p05"] == pytest.approx(np.nanpercentile(H, 5), rel=1e-9)
+    assert out["heat_power_W_median"] == pytest.approx(np.nanmedian(H), rel=1e-9)
+    assert out["heat_power_W_p95"] == pytest.approx(np.nanpercentile(H, 95), rel=1e-9)
+
+
+def test_video_jet_refuses_above_its_unphysical_share(clip, capsys):
+    # a plume constant of 4.3 ± 2.2: P(k <= 0) = Phi(-1.95) = 2.6 % of draws (normal table), above a 1 % limit
+    x, y = clip.orifice_xy
+    argv = ["video-jet", clip.path, "--pixel-size", "2 mm", "--orifice", f"{x},{y}", "--view", "sheet",
+            "--plume-constant", "4.3 ± 2.2", "--draws", "4000", "--quiet", "--json"]
+    assert main(argv + ["--max-unphysical", "0.01"]) == 2
+    lines = capsys.readouterr().err.strip().splitlines()
+    # One readable line, then (with --json) the same error as one JSON object.
+    assert len(lines) == 2 and "plume_constant" in lines[0] and "--max-unphysical" in lines[0]
+    assert json.loads(lines[1])["errors"][0]["field"].endswith("plume_constant")
+    assert main(argv) == 0
+    out = json.loads(capsys.readouterr().out)
+    assert 0.015 * 4000 < out["unphysical_draws"] < 0.04 * 4000 and out["max_unphysical_share"] == 0.05

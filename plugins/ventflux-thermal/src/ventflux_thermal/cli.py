@@ -25,6 +25,7 @@ import sys
 from pathlib import Path
 
 import numpy as np
+from ventflux.plugin_api import add_deprecated_option, add_monte_carlo_options, monte_carlo_settings
 from ventflux.plugin_api import add_output_options, print_json, print_table, write_output
 from ventflux.plugin_api import InputError, InputErrors
 from ventflux.plugin_api import atomic_write_text
@@ -32,6 +33,7 @@ from ventflux.plugin_api import parse_uncertain
 from ventflux.plugin_api import Q_, parse_quantity
 
 from .constants import DEFAULT_SALINITY
+from .jsonkeys import print_deprecation, si_json
 from .constants import METHODS, ProbeConstants
 
 # --------------------------------------------------------------------------- probe-heat-flow
@@ -66,7 +68,9 @@ def configure_probe(p):
                                         "positions and distance along the transect")
     p.add_argument("--out", help="write the table of penetrations to this CSV (units in the headers)")
     p.add_argument("--figures", help="folder for figures: T against thermal resistance and the decay fits")
-    p.add_argument("--no-progress", action="store_true", help="no progress bar")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    add_deprecated_option(p, "--no-progress", "--quiet", "quiet", takes_value=False)
+    add_monte_carlo_options(p.add_argument_group("Monte Carlo of the conductivity fits"))
     add_output_options(p)
 
 
@@ -129,17 +133,22 @@ def probe_options(args) -> dict:
 def run_probe(args) -> int:
     from .probe import probe_from_inputs, reduce_penetration, result_row
 
+    mc = monte_carlo_settings(args)
     records = _records(args.records)
     kwargs = probe_options(args)
-    probe = probe_from_inputs(None, {}, kwargs.pop("probe_overrides"))
-    kwargs.update(probe=probe, keep_record=args.figures is not None)
+    probe = probe_from_inputs(None, {}, kwargs.pop("probe_overrides"), fields={
+        "radius": "--probe-radius", "probe_heat_capacity": "--probe-heat-capacity",
+        "sediment_heat_capacity": "--sediment-heat-capacity", "heat_pulse_energy": "--pulse-energy",
+        "heat_pulse_duration": "--pulse-duration"})
+    kwargs.update(probe=probe, keep_record=args.figures is not None, draws=mc.draws, seed=mc.seed,
+                  max_unphysical=mc.max_unphysical)
     if args.navigation and not args.station:
         raise InputError("--navigation", args.navigation, "a navigation table together with --station")
     from tqdm import tqdm
 
     results, errors, stations = [], [], []
     bar = tqdm(records, desc="stations" if args.station else "penetrations", unit="record", file=sys.stderr,
-               disable=True if (args.no_progress or len(records) < 2) else None)
+               disable=True if (args.quiet or len(records) < 2) else None)
     for path in bar:  # one record per iteration; each reduction is vectorized inside
         try:
             if args.station:
@@ -185,10 +194,14 @@ def run_probe(args) -> int:
         w.writerows({k: (f"{v:.6g}" if isinstance(v, float) else v) for k, v in row.items()} for row in rows)
         write_output("--out", args.out, atomic_write_text, args.out, buf.getvalue())
     if args.json:
-        print_json({"method": "probe-heat-flow", "decay_model": args.decay_model,
+        renamed: set[tuple[str, str]] = set()
+        print_json(si_json({"method": "probe-heat-flow", "decay_model": args.decay_model, "draws": mc.draws,
+                    "seed": mc.seed, "max_unphysical_share": mc.max_unphysical,
+                    "unphysical_draws": sum(r.monte_carlo.get("unphysical_draws", 0) for r in results),
                     "penetrations": [r.as_dict() for r in results],
                     "skipped": {Path(st.record).name: st.skipped for st in stations if st.skipped},
-                    "failed": [e.line() for e in errors]})
+                    "failed": [e.line() for e in errors]}, renamed))
+        print_deprecation(renamed, "probe-heat-flow")
     else:
         for r in results:
             d = r.as_dict()
@@ -199,6 +212,8 @@ def run_probe(args) -> int:
             parts = ", ".join(f"{k} {v:.2g}" for k, v in d["uncertainty_parts_mW_m2"].items())
             table.append(("heat flow", f"{d['heat_flow_mW_m2']:.2f} ± {d['heat_flow_uncertainty_mW_m2']:.2f} "
                           f"(total; {parts})", "mW/m^2"))
+            table.append(("unphysical draws (dropped)", f"{d.get('unphysical_draws', 0)} of {mc.draws} (limit "
+                          f"{100 * mc.max_unphysical:g} %)", ""))
             print_table(table, title=f"{Path(r.record).name}{' ' + r.label if r.label else ''} ({r.method})")
     for st in stations:
         for line in st.notes:
@@ -220,8 +235,11 @@ def configure_advection(p):
     p.add_argument("profile", help="CSV with 'depth [m]' (below the seafloor) and 'temperature [degC]'")
     p.add_argument("--conductivity", default="1.0 W/(m K)",
                    help="bulk sediment conductivity, e.g. '1.0 ± 0.1 W/(m K)' (default %(default)s)")
-    p.add_argument("--pressure", help="absolute in-situ pressure at the seafloor, e.g. '22 MPa'")
-    p.add_argument("--depth", help="seafloor depth below the sea surface, e.g. '2200 m' (instead of --pressure)")
+    p.add_argument("--absolute-pressure", dest="absolute_pressure",
+                   help="absolute in-situ pressure at the seafloor, e.g. '22 MPa'")
+    add_deprecated_option(p, "--pressure", "--absolute-pressure", "absolute_pressure")
+    p.add_argument("--depth", help="seafloor depth below the sea surface, e.g. '2200 m' (instead of "
+                                   "--absolute-pressure)")
     p.add_argument("--layer-thickness", help="thickness L of the layer (default: the deepest measurement)")
     p.add_argument("--fluid-heat-capacity", help="pore-fluid ρc, e.g. '4.0e6 J/(m^3 K)' (default: TEOS-10)")
     p.add_argument("--salinity", default=f"{DEFAULT_SALINITY:g}",
@@ -237,11 +255,11 @@ def run_advection(args) -> int:
 
     z, T = read_profile(args.profile)
     k = parse_uncertain(args.conductivity, "thermal conductivity", "--conductivity")
-    if args.pressure is not None and args.depth is not None:
-        raise InputError("--pressure/--depth", "both", "one of --pressure or --depth")
+    if args.absolute_pressure is not None and args.depth is not None:
+        raise InputError("--absolute-pressure/--depth", "both", "one of --absolute-pressure or --depth")
     p = None
-    if args.pressure is not None:
-        p = parse_quantity(args.pressure, "pressure", "--pressure")
+    if args.absolute_pressure is not None:
+        p = parse_quantity(args.absolute_pressure, "pressure", "--absolute-pressure")
     elif args.depth is not None:
         p = pressure_from_depth(parse_quantity(args.depth, "length", "--depth", "m"))
     L = None if args.layer_thickness is None else parse_quantity(args.layer_thickness, "length", "--layer-thickness")
@@ -250,14 +268,17 @@ def run_advection(args) -> int:
                                                                       "--fluid-heat-capacity")
     salinity = float(parse_quantity(args.salinity, "dimensionless", "--salinity").magnitude)
     if rc is None and p is None:
-        raise InputError("--pressure/--depth", "(missing)", "the in-situ pressure or depth (for the pore fluid's "
+        raise InputError("--absolute-pressure/--depth", "(missing)", "the in-situ pressure or depth (for the pore "
+                         "fluid's "
                          "heat capacity), or --fluid-heat-capacity")
     fit = fit_advection(z, T, k, pressure=p, layer_thickness=L, fluid_heat_capacity=rc, salinity=salinity)
     if args.figure:
         write_output("--figure", args.figure, _profile_figure, z, T, fit, args.figure)
     d = fit.as_dict()
     if args.json:
-        print_json({"method": "profile-advection", **d})
+        renamed: set[tuple[str, str]] = set()
+        print_json(si_json({"method": "profile-advection", **d}, renamed))
+        print_deprecation(renamed, "profile-advection")
         return 0
     print_table([("Péclet number", f"{d['peclet']:.4g} ± {d['peclet_se']:.2g}", ""),
                  ("flow", d["direction"], ""),
@@ -327,7 +348,9 @@ def run_array(args) -> int:
     res = array_anomalies(t, T, ref, names, patches or None, n_peaks=args.peaks)
     d = res.as_dict()
     if args.json:
-        print_json({"method": "array-anomaly", **d})
+        renamed: set[tuple[str, str]] = set()
+        print_json(si_json({"method": "array-anomaly", **d}, renamed))
+        print_deprecation(renamed, "array-anomaly")
         return 0
     rows = [(s["sensor"], f"{s['mean_anomaly_K']:.4g} ± {s['std_anomaly_K']:.2g}",
              "K; periods " + _periods(s["dominant_periods_h"])) for s in d["sensors"]]

@@ -23,6 +23,13 @@ PROBE_FIELDS = {"radius": ("m", "length"),
                 "heat_pulse_energy": ("J/m", "energy per length"),
                 "heat_pulse_duration": ("s", "time")}
 
+#: Plausible range of each probe constant (SI; choices made here, common practice, no source): sensor tubes
+#: of heat-flow probes are millimetres across, heat capacities those of solids and water (a few MJ/(m³·K)),
+#: pulses of tens to thousands of J/m lasting seconds to minutes. A value outside is a typo of a unit or an
+#: exponent, refused before any fit.
+PLAUSIBLE_PROBE = {"radius": (1e-4, 0.05), "probe_heat_capacity": (1e5, 2e7), "sediment_heat_capacity": (1e5, 2e7),
+                   "heat_pulse_energy": (1.0, 1e5), "heat_pulse_duration": (0.0, 3600.0)}
+
 #: Standard uncertainties of the defaults (SI). Marine sediment's volumetric heat capacity spans about
 #: 3.0–3.8 MJ/(m³·K) with porosity (from memory), taken here as 3.4 ± 0.2 MJ/(m³·K).
 DEFAULT_UNCERTAINTY = {"sediment_heat_capacity": 0.2e6}
@@ -80,4 +87,4 @@ class ProbeConstants:
         return [k for k, v in self.provenance().items() if v["source"] != "given"]
 
 
-__all__ = ["METHODS", "DEFAULT_SALINITY", "PROBE_FIELDS", "ProbeConstants"]
+__all__ = ["METHODS", "DEFAULT_SALINITY", "PROBE_FIELDS", "PLAUSIBLE_PROBE", "ProbeConstants"]

@@ -82,11 +82,19 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.plugin_api import Collector, InputError
+from ventflux.plugin_api import (
+    DEFAULT_DRAWS,
+    DEFAULT_MAX_UNPHYSICAL,
+    DEFAULT_SEED,
+    Collector,
+    InputError,
+    SharedDraws,
+    propagate,
+)
 from ventflux.plugin_api import Uncertain, nominal, parse_uncertain
 from ventflux.plugin_api import Q_, parse_quantity, ureg
 
-from .constants import METHODS, PROBE_FIELDS, ProbeConstants
+from .constants import METHODS, PLAUSIBLE_PROBE, PROBE_FIELDS, ProbeConstants
 from .decay import cylinder_decay, cylinder_pulse_decay, cylinder_pulse_decay_and_slopes
 from .records import ProbeRecord, read_record
 
@@ -160,6 +168,11 @@ class PenetrationResult:
     noise: np.ndarray | None = None  # K, per sensor
     probe: ProbeConstants | None = None
     label: str = ""
+    #: What the Monte Carlo of the conductivity fits needs (``fit_spread``): sensor distances, kept sensors, the
+    #: interpolation matrix, the spread of the kept conductivities (m, -, -, W/(m K)).
+    spread_model: dict = field(default_factory=dict)
+    #: The driver's bookkeeping of that Monte Carlo: draws, seed, unphysical_draws, max_unphysical_share.
+    monte_carlo: dict = field(default_factory=dict)
 
     def as_dict(self) -> dict:
         out = {"record": self.record, "penetration": self.label, "method": self.method,
@@ -169,7 +182,8 @@ class PenetrationResult:
                "intercept_temperature_degC": self.intercept_temperature - 273.15,
                "excluded_sensors": dict(self.excluded), "warnings": list(self.warnings), "flags": list(self.flags),
                "probe": self.probe.provenance() if self.probe else None,
-               "defaults_used": self.probe.defaults_used() if self.probe else [], "sensors": []}
+               "defaults_used": self.probe.defaults_used() if self.probe else [],
+               **{k: v for k, v in self.monte_carlo.items() if k != "inputs"}, "sensors": []}
         for i in range(self.depth.size):
             f, p = self.friction[i], self.pulse[i]
             out["sensors"].append({
@@ -653,8 +667,13 @@ def standard_deviation(value, unit) -> float:
     return value.a * np.log(value.b) * factor  # lognormal: median × ln(factor), to first order
 
 
-def probe_from_inputs(probe: ProbeConstants | None, meta: dict, overrides: dict | None = None) -> ProbeConstants:
-    """The probe description: defaults, then the record's header, then explicit values (each possibly uncertain)."""
+def probe_from_inputs(probe: ProbeConstants | None, meta: dict, overrides: dict | None = None,
+                      fields: dict | None = None) -> ProbeConstants:
+    """The probe description: defaults, then the record's header, then explicit values (each possibly uncertain).
+
+    Each value must be positive and within ``constants.PLAUSIBLE_PROBE``; ``fields`` names each key in an
+    error (an option such as ``--probe-radius``, or a survey key path).
+    """
     probe = probe or ProbeConstants()
     values, sds = {}, dict(probe.uncertainty)
     for source in (meta, overrides or {}):
@@ -665,9 +684,15 @@ def probe_from_inputs(probe: ProbeConstants | None, meta: dict, overrides: dict 
             sds[key] = standard_deviation(source[key], unit)
     c = Collector()
     for key, v in values.items():
+        name = (fields or {}).get(key, key.replace("_", " "))
+        unit = PROBE_FIELDS[key][0]
+        lo, hi = PLAUSIBLE_PROBE[key]
         if not v >= 0 or (key != "heat_pulse_duration" and not v > 0):
-            c.add(InputError(key.replace("_", " "), f"{v:g} {PROBE_FIELDS[key][0]}",
+            c.add(InputError(name, f"{v:g} {unit}",
                              f"a {PROBE_FIELDS[key][1]} > 0" if key != "heat_pulse_duration" else "a duration ≥ 0 s"))
+        elif not lo <= v <= hi:
+            c.add(InputError(name, f"{v:g} {unit}", f"a plausible {PROBE_FIELDS[key][1]}, {lo:g} to {hi:g} {unit} "
+                             "(ventflux_thermal.constants.PLAUSIBLE_PROBE)"))
     c.raise_if_any()
     return replace(probe.with_values(**values), uncertainty={k: v for k, v in sds.items() if v > 0})
 
@@ -720,7 +745,8 @@ def _refit_pulses(rec, idx, fr, pu, k, t_pen, t_hp, energy, probe, method):
 
 def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None, heat_pulse_energy=None,
                   tilt=0.0, tilt_sd=0.0, known_k=None, method="cylinder", probe: ProbeConstants | None = None,
-                  exclude_sensors=(), draws=2000, seed=20_261_202, keep_record=False, label="") -> PenetrationResult:
+                  exclude_sensors=(), draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, keep_record=False, label="",
+                  max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> PenetrationResult:
     """Reduce one penetration of a record already read (SI floats); see ``reduce_penetration``.
 
     ``s`` holds the sensors' distances along the probe (m), one per record
@@ -781,32 +807,17 @@ def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None
         notes.append(f"{where}: the conductivity of the intervals ending at "
                      f"{', '.join(n for n in rec.sensors if n in excluded)} is interpolated from the kept sensors")
 
-    def resistance(kk, extra=None):  # cumulative resistance at the kept sensors; kk (n_kept,) or (n_kept, draws)
-        k_all = np.tensordot(W, kk, axes=1)
-        if extra is not None:
-            k_all = np.clip(k_all + extra, 0.05, None)
-        return thermal_resistance(z_all, k_all)[idx]
+    def resistance(kk):  # cumulative resistance at the kept sensors; kk (n_kept,)
+        return thermal_resistance(z_all, np.tensordot(W, kk, axes=1))[idx]
 
     Teq = np.array([f.equilibrium_temperature for f in fr])
     R = resistance(k)
     q, T0, se, resid = heat_flow_regression(R, Teq)
     parts = {"regression": float(se)}
-    from ventflux.plugin_api import named_stream
-
-    # one named stream per penetration (its record and label), never an offset of the seed
-    rng = named_stream(seed, f"{rec.path.name}/{label}/reduction spread")
-    # conductivity fits: the slope's spread when each k is drawn from its fit (vectorized over draws); draws of
-    # k below 0.05 W/(m K), the pulse fit's lower bound, are redrawn as that bound (a choice made here)
-    kd = np.clip(k[:, None] + np.nan_to_num(k_se)[:, None] * rng.standard_normal((k.size, draws)), 0.05, None)
-    qd, *_ = heat_flow_regression(resistance(kd), Teq)
-    parts["conductivity fits"] = float(np.std(qd, ddof=1))
-    gap = np.setdiff1d(np.arange(z_all.size), idx)
-    if gap.size and known_k is None:
-        # an interpolated interval's conductivity is uncertain by the spread of the measured ones
-        extra = np.zeros((z_all.size, draws))
-        extra[gap] = np.std(k, ddof=1) * rng.standard_normal((gap.size, draws))
-        qg, *_ = heat_flow_regression(resistance(np.broadcast_to(k[:, None], (k.size, draws)), extra), Teq)
-        parts["interpolated conductivity"] = float(np.std(qg, ddof=1))
+    model = {"distance": np.asarray(s, float), "tilt": float(tilt), "kept": list(idx), "interpolation": W,
+             "sensors": tuple(rec.sensors), "gap_sd": float(np.std(k, ddof=1)) if known_k is None else 0.0}
+    spread = fit_spread(Path(rec.path).name, label, k, k_se, Teq, model, SharedDraws(draws, seed), max_unphysical)
+    parts.update(spread.parts)
     k_probe = np.zeros(k.size)
     if use_pulse and probe.uncertainty:
         dq2 = 0.0
@@ -836,13 +847,15 @@ def reduce_record(rec: ProbeRecord, s, *, penetration_time, heat_pulse_time=None
                              heat_pulse_energy=energy if use_pulse else None,
                              record_data=rec if keep_record else None, sensors=tuple(rec.sensors[i] for i in idx),
                              excluded=excluded, warnings=notes, flags=flags, uncertainty_parts=parts,
-                             conductivity_uncertainty=np.hypot(k_se, k_probe), noise=noise, probe=probe, label=label)
+                             conductivity_uncertainty=np.hypot(k_se, k_probe), noise=noise, probe=probe, label=label,
+                             spread_model=model, monte_carlo=spread.provenance)
 
 
 def reduce_penetration(record_path, sensor_depths=None, *, penetration_time=None, heat_pulse_time=None,
                        heat_pulse_energy=None, heat_pulse_duration=None, tilt=None, conductivity=None,
                        method="cylinder", probe: ProbeConstants | None = None, sensor_columns=None,
-                       exclude_sensors=None, draws=2000, seed=20_261_202, keep_record=False) -> PenetrationResult:
+                       exclude_sensors=None, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, keep_record=False,
+                       max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> PenetrationResult:
     """Reduce one probe penetration to heat flow with its total uncertainty.
 
     Parameters
@@ -870,8 +883,10 @@ def reduce_penetration(record_path, sensor_depths=None, *, penetration_time=None
         Probe description; the record's header may set its fields too.
     exclude_sensors : sequence of str, optional
         Sensor columns to leave out (added to the header's ``exclude_sensors``).
-    draws, seed : int
-        Monte Carlo over the conductivities' fit errors.
+    draws, seed, max_unphysical : int, int, float
+        Monte Carlo over the conductivities' fit errors, through the core's
+        driver (``fit_spread``; draws below ``CONDUCTIVITY_FLOOR`` are dropped
+        and counted, refused above ``max_unphysical``).
 
     Returns
     -------
@@ -898,12 +913,14 @@ def reduce_penetration(record_path, sensor_depths=None, *, penetration_time=None
     return reduce_with_metadata(rec, s, meta, penetration_time=penetration_time, heat_pulse_time=heat_pulse_time,
                                 heat_pulse_energy=heat_pulse_energy, heat_pulse_duration=heat_pulse_duration,
                                 tilt=tilt, conductivity=conductivity, method=method, probe=probe,
-                                exclude_sensors=exclude_sensors, draws=draws, seed=seed, keep_record=keep_record)
+                                exclude_sensors=exclude_sensors, draws=draws, seed=seed, keep_record=keep_record,
+                                max_unphysical=max_unphysical)
 
 
 def reduce_with_metadata(rec, s, meta, *, penetration_time=None, heat_pulse_time=None, heat_pulse_energy=None,
                          heat_pulse_duration=None, tilt=None, conductivity=None, method="cylinder", probe=None,
-                         exclude_sensors=None, draws=2000, seed=20_261_202, keep_record=False, label=""):
+                         exclude_sensors=None, draws=DEFAULT_DRAWS, seed=DEFAULT_SEED, keep_record=False, label="",
+                         max_unphysical=DEFAULT_MAX_UNPHYSICAL):
     """Validate a penetration's inputs (arguments over the record's header) and reduce it."""
     path = rec.path
     where = str(path)
@@ -950,7 +967,109 @@ def reduce_with_metadata(rec, s, meta, *, penetration_time=None, heat_pulse_time
     return reduce_record(rec, s, penetration_time=t_pen, heat_pulse_time=t_hp, heat_pulse_energy=energy,
                          tilt=tilt_v, tilt_sd=standard_deviation(tilt_in, "radian"), known_k=known_k, method=method,
                          probe=probe, exclude_sensors=exclude, draws=draws, seed=seed, keep_record=keep_record,
-                         label=label)
+                         label=label, max_unphysical=max_unphysical)
+
+
+#: Lowest conductivity a draw may give an interval, W/(m K): the heat-pulse fit's own lower bound (its search
+#: range, ``fit_heat_pulse``); a draw below it is dropped and counted, never moved to the bound.
+CONDUCTIVITY_FLOOR = 0.05
+
+
+@dataclass(frozen=True)
+class FitSpread:
+    """The conductivity fits' parts of a penetration's heat-flow uncertainty, and the driver's bookkeeping."""
+
+    parts: dict  # "conductivity fits" (and "interpolated conductivity"): standard uncertainty of q, W/m^2
+    provenance: dict  # draws, seed, unphysical_draws, max_unphysical_share, inputs
+
+
+def fit_spread(record: str, label: str, conductivity, conductivity_se, equilibrium_temperature, model: dict,
+               draws, max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> FitSpread:
+    """Spread of the heat flow from the conductivity fits, by Monte Carlo through ``propagate``.
+
+    Each kept sensor's conductivity is drawn (normal, its fit's standard error)
+    under the name ``<record>/<label>/conductivity fit/<sensor>``; an interval
+    whose sensor was left out gets, besides, a normal offset with the spread
+    of the kept conductivities (``.../interpolated conductivity/<sensor>``).
+    The heat flow is regressed per draw (vectorized). A draw giving any
+    interval a conductivity below ``CONDUCTIVITY_FLOOR`` is dropped and
+    counted; above ``max_unphysical`` of the draws, the penetration is
+    refused. ``probe-heat-flow`` and the survey's ``[sediment_probes]`` call
+    this with the run's ``SharedDraws``, so one record, label and seed give
+    the same draws in both.
+
+    Parameters
+    ----------
+    record, label : str
+        The record's file name and the penetration's label (name the streams).
+    conductivity, conductivity_se : ndarray, shape (n_kept,)
+        Fitted conductivities and their standard errors, W/(m K).
+    equilibrium_temperature : ndarray, shape (n_kept,)
+        K.
+    model : dict
+        ``PenetrationResult.spread_model``.
+    draws : ventflux.plugin_api.SharedDraws
+    max_unphysical : float or UnphysicalPolicy
+    """
+    from ventflux.plugin_api import normal
+
+    k = np.asarray(conductivity, float)
+    k_se = np.nan_to_num(np.asarray(conductivity_se, float))
+    idx, W = list(model["kept"]), np.asarray(model["interpolation"], float)
+    z_all = np.asarray(model["distance"], float) * np.cos(model["tilt"])
+    names = model["sensors"]
+    gap = [j for j in range(z_all.size) if j not in idx]
+    base = f"{record}/{label}" if label else record
+    n = draws.n_draws
+
+    def per_sensor(what, rows, means, sds):
+        if not rows:
+            return np.zeros((0, n))
+        values = [normal(Q_(m, "W/(m*K)"), Q_(sd, "W/(m*K)")) if sd > 0 else Q_(m, "W/(m*K)")
+                  for m, sd in zip(means, sds)]
+        return draws.draw_each([f"{base}/{what}/{names[j]}" for j in rows], values, "W/(m*K)").magnitude
+
+    given = {"fit_conductivity": per_sensor("conductivity fit", idx, k, k_se)}
+    if gap and model["gap_sd"] > 0:
+        given["interpolation_offset"] = per_sensor("interpolated conductivity", gap, np.zeros(len(gap)),
+                                                   [model["gap_sd"]] * len(gap))
+
+    def intervals(args):
+        fits = np.tensordot(W, np.asarray(args["fit_conductivity"], float), axes=1)
+        interp = np.broadcast_to(np.tensordot(W, k, axes=1)[:, None], fits.shape).copy()
+        if "interpolation_offset" in args:
+            interp[gap] += np.asarray(args["interpolation_offset"], float)
+        return fits, interp
+
+    def physical(args):
+        fits, interp = intervals(args)
+        return np.all(fits >= CONDUCTIVITY_FLOOR, axis=0) & np.all(interp >= CONDUCTIVITY_FLOOR, axis=0)
+
+    def estimator(**args):
+        fits, interp = intervals(args)
+        T = np.asarray(equilibrium_temperature, float)
+        q_fits, *_ = heat_flow_regression(thermal_resistance(z_all, fits)[idx], T)
+        out = {"conductivity fits": float(np.std(q_fits, ddof=1))}
+        if "interpolation_offset" in args:
+            q_gap, *_ = heat_flow_regression(thermal_resistance(z_all, interp)[idx], T)
+            out["interpolated conductivity"] = float(np.std(q_gap, ddof=1))
+        return out
+
+    prop = propagate(estimator, {}, names={k: f"{base}/{k.replace('_', ' ')}" for k in given}, draws=draws,
+                     physical=physical, max_unphysical=max_unphysical, drawn=given,
+                     labels={k: f"{base}: {k.replace('_', ' ')} draws" for k in given})
+    return FitSpread(parts=prop.result, provenance=prop.provenance())
+
+
+def respread(res: PenetrationResult, draws, max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> PenetrationResult:
+    """The penetration with its conductivity-fit parts drawn again with the run's ``draws`` (a survey's seed)."""
+    if not res.spread_model:
+        return res
+    spread = fit_spread(Path(res.record).name, res.label, res.conductivity, res.conductivity_se,
+                        res.equilibrium_temperature, res.spread_model, draws, max_unphysical)
+    parts = {**res.uncertainty_parts, **spread.parts}
+    total = float(np.sqrt(sum(v**2 for v in parts.values())))
+    return replace(res, uncertainty_parts=parts, heat_flow_uncertainty=total, monte_carlo=spread.provenance)
 
 
 def result_row(res: PenetrationResult) -> dict:
@@ -964,11 +1083,13 @@ def result_row(res: PenetrationResult) -> dict:
             "max_abs_residual [mK]": 1e3 * float(np.max(np.abs(res.residual))),
             "max_friction_misfit [mK]": 1e3 * max(f.misfit_rms for f in res.friction),
             "excluded_sensors": "; ".join(f"{k}: {v}" for k, v in res.excluded.items()),
-            "penetration": res.label, "flags": "; ".join(res.flags)}
+            "penetration": res.label, "flags": "; ".join(res.flags),
+            "unphysical_draws": int(res.monte_carlo.get("unphysical_draws", 0))}
 
 
 __all__ = ["ProbeConstants", "ProbeRecord", "PenetrationResult", "reduce_penetration", "reduce_record",
            "reduce_with_metadata", "read_probe_record", "read_metadata", "fit_frictional_decay", "fit_heat_pulse",
            "thermal_resistance", "heat_flow_regression", "frictional_model", "pulse_model", "check_timing",
-           "result_row", "sensor_noise", "screen_sensors", "line_source_model_error", "probe_from_inputs",
+           "result_row", "fit_spread", "respread", "CONDUCTIVITY_FLOOR",
+           "sensor_noise", "screen_sensors", "line_source_model_error", "probe_from_inputs",
            "standard_deviation", "METHODS"]

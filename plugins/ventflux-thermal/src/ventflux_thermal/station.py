@@ -37,6 +37,7 @@ from pathlib import Path
 
 import numpy as np
 
+from ventflux.plugin_api import DEFAULT_DRAWS, DEFAULT_MAX_UNPHYSICAL, DEFAULT_SEED
 from ventflux.plugin_api import InputError
 from ventflux.plugin_api import Q_
 
@@ -224,8 +225,8 @@ def _is_number(text):
 
 def reduce_station(record_path, sensor_depths=None, *, heat_pulse_energy=None, heat_pulse_duration=None, tilt=None,
                    conductivity=None, method="cylinder", probe: ProbeConstants | None = None,
-                   exclude_sensors=(), navigation=None, window=5.0, threshold=0.05, draws=2000,
-                   seed=20_261_202, keep_record=False) -> StationResult:
+                   exclude_sensors=(), navigation=None, window=5.0, threshold=0.05, draws=DEFAULT_DRAWS,
+                   seed=DEFAULT_SEED, keep_record=False, max_unphysical=DEFAULT_MAX_UNPHYSICAL) -> StationResult:
     """Find and reduce every penetration of a continuous station record.
 
     Parameters
@@ -308,7 +309,7 @@ def reduce_station(record_path, sensor_depths=None, *, heat_pulse_energy=None, h
                                 heat_pulse_energy=probe.heat_pulse_energy, tilt=tilt_v,
                                 tilt_sd=standard_deviation(tilt_in, "radian"), known_k=known_k, method=method,
                                 probe=probe, exclude_sensors=exclude, draws=draws, seed=seed,
-                                keep_record=keep_record, label=p.label)
+                                max_unphysical=max_unphysical, keep_record=keep_record, label=p.label)
         except InputError as e:
             out.skipped[p.label] = e.allowed if e.field == "sensors" else e.line()
             continue

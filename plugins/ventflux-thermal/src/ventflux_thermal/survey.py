@@ -151,9 +151,11 @@ def _parse(f, ctx):
     f.check_unknown()
     results, stations, notes = [], [], []
     try:
-        probe = probe_from_inputs(None, {}, probe_values)
-    except (InputError, InputErrors):
-        probe = None  # already reported through the table's own keys
+        probe = probe_from_inputs(None, {}, probe_values, fields={k: f"probe.{k}" for k in probe_values})
+    except (InputError, InputErrors) as e:  # implausible values: reported under their key paths
+        for err in (e.errors if isinstance(e, InputErrors) else [e]):
+            f.error(err.field, err.value, err.allowed)
+        probe = None
     if probe is not None:
         for p in paths:
             ctx.input_files[str(p)] = "sediment probe record"
@@ -203,9 +205,12 @@ def heat_flow_draws(results, draws, calibration=None, key="sediment_probes") -> 
 def _estimate(spec, ctx):
     d = ctx.draws
     n = d.n_draws
-    res = spec["results"]
-    if not res:
+    if not spec["results"]:
         raise InputError("sediment_probes", "no penetration reduced", "at least one reduced penetration")
+    from .probe import respread
+
+    # the conductivity fits' Monte Carlo again with the run's draws and rule (as probe-heat-flow --seed would)
+    res = [respread(r, d, ctx.policy) for r in spec["results"]]
     mean_q = heat_flow_draws(res, d, spec["calibration"])
     area = resolve(spec["area"], "sediment_probes/area", d).to("m^2").magnitude
     H = mean_q * np.broadcast_to(area, (n,))

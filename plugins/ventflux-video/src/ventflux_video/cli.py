@@ -13,11 +13,18 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.plugin_api import add_output_options, print_json, print_table
-from ventflux.plugin_api import InputError
-from ventflux.plugin_api import atomic_directory
-from ventflux.plugin_api import Command
-from ventflux.plugin_api import parse_quantity
+from ventflux.plugin_api import (
+    Command,
+    InputError,
+    add_deprecated_option,
+    add_monte_carlo_options,
+    add_output_options,
+    atomic_directory,
+    monte_carlo_settings,
+    parse_quantity,
+    print_json,
+    print_table,
+)
 
 
 def _pair(text, field, n=2):
@@ -54,7 +61,8 @@ def _add_clip_options(p):
     c.add_argument("--first-frame", type=int, default=0, metavar="N", help="first frame to use (default 0)")
     c.add_argument("--last-frame", type=int, default=None, metavar="N", help="stop before this frame")
     c.add_argument("--frame-step", type=int, default=1, metavar="N", help="use every N-th frame (default 1)")
-    c.add_argument("--no-progress", action="store_true", help="no progress bar")
+    c.add_argument("--quiet", action="store_true", help="no progress bar")
+    add_deprecated_option(c, "--no-progress", "--quiet", "quiet", takes_value=False)
 
 
 def _add_scale_options(p, required=True):
@@ -137,7 +145,7 @@ def _stream(args, progress=None, colour=False):
     from .frames import FrameStream
 
     rate = None if args.frame_rate is None else parse_quantity(args.frame_rate, "frequency", "--frame-rate")
-    show = (not args.no_progress and sys.stderr.isatty()) if progress is None else progress
+    show = (not args.quiet and sys.stderr.isatty()) if progress is None else progress
     return FrameStream(args.clip, frame_rate=rate, region=args.region, start=args.first_frame,
                        stop=args.last_frame, step=args.frame_step, progress=show, colour=colour)
 
@@ -157,7 +165,8 @@ def configure_scale(p):
     p.add_argument("--first-frame", type=int, default=0, metavar="N")
     p.add_argument("--last-frame", type=int, default=None, metavar="N")
     p.add_argument("--frame-step", type=int, default=1, metavar="N")
-    p.add_argument("--no-progress", action="store_true")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    add_deprecated_option(p, "--no-progress", "--quiet", "quiet", takes_value=False)
     _add_scale_options(p)
     add_output_options(p)
 
@@ -176,7 +185,7 @@ def run_scale(args) -> int:
     else:
         mpp = metres_per_pixel(args)
     if args.json:
-        out = {"metres_per_pixel_m": mpp.to("m").magnitude, "perspective_corrected": False}
+        out = {"pixel_size_m": mpp.to("m").magnitude, "perspective_corrected": False}
         if spots is not None:
             out.update(spots.as_dict())
         print_json(out)
@@ -204,7 +213,7 @@ def _field_summary(field, mpp):
     return {
         "mode": field.mode, "frame_pairs": field.pairs,
         "grid_rows": int(field.y.size), "grid_columns": int(field.x.size),
-        "frame_interval_s": field.interval.to("s").magnitude, "metres_per_pixel_m": mpp.to("m").magnitude,
+        "frame_interval_s": field.interval.to("s").magnitude, "pixel_size_m": mpp.to("m").magnitude,
         "mean_w_m_s": float(np.nanmean(w)), "max_w_m_s": float(np.nanmax(w)), "mean_u_m_s": float(np.nanmean(u)),
         "replaced_vector_fraction": field.replaced_fraction, "frames_skipped": field.skipped_frames,
         "frames_missing": field.missing_frames, "orientation": "x right, w up (against image rows)",
@@ -263,17 +272,24 @@ def configure_jet(p):
     j.add_argument("--tracer-to-velocity-width-ratio", dest="width_ratio", default=None, metavar="R",
                    help="tracer-to-velocity width ratio for the volume view, a number or a distribution "
                         "(default: uniform(1.0, 1.2))")
-    j.add_argument("--draws", type=int, default=None, metavar="N",
-                   help="Monte Carlo draws for the uncertainty (default 10000)")
-    j.add_argument("--seed", type=int, default=None, metavar="N", help="random seed of the draws")
+    j.add_argument("--name", default=DEFAULT_VENT_NAME, metavar="NAME",
+                   help="the vent's name: keys its random streams, so the draws equal those of a survey vent of that "
+                        f"name with the same seed and inputs (default '{DEFAULT_VENT_NAME}')")
+    add_monte_carlo_options(j)
     a = p.add_argument_group("ambient seawater (for the heat power)")
     where = a.add_mutually_exclusive_group()
-    where.add_argument("--pressure", metavar="Q", help="absolute pressure at the vent, e.g. '25MPa'")
+    where.add_argument("--absolute-pressure", dest="absolute_pressure", metavar="Q",
+                       help="absolute pressure at the vent, e.g. '25MPa'")
     where.add_argument("--depth", metavar="Q", help="vent depth, e.g. '2500 m'")
+    add_deprecated_option(a, "--pressure", "--absolute-pressure", "absolute_pressure")
     a.add_argument("--ambient-temperature", metavar="Q", help="in-situ temperature, e.g. '2.0degC'")
     a.add_argument("--ambient-salinity", default="35", metavar="S", help="practical salinity (default 35)")
     a.add_argument("--latitude", type=float, default=None, metavar="DEG", help="latitude for local gravity")
     add_output_options(p)
+
+
+#: Vent name of a clip analysed on the command line (keys its random streams, as a survey vent's name does).
+DEFAULT_VENT_NAME = "vent"
 
 
 def _uncertain_number(text, field, default):
@@ -291,17 +307,16 @@ def _uncertain_number(text, field, default):
 
 
 def run_jet(args) -> int:
-    from ventflux.plugin_api import SharedDraws
-    from ventflux.plugin_api import pressure_from_depth
-    from ventflux.plugin_api import DEFAULT_DRAWS, DEFAULT_SEED, nominal, summarize
+    from ventflux.plugin_api import SharedDraws, nominal, pressure_from_depth
+
+    from .jet import check_funnel_pressure
 
     from .jet import analyze_jet_clip
-    from .outputs import field_figure, field_table, profile_figure, profile_table
-    from .propagation import default_plume_constant, default_width_ratio, jet_draws
+    from .propagation import default_plume_constant, default_width_ratio, jet_draws, jet_summary, part_names
 
-    n_draws = DEFAULT_DRAWS if args.draws is None else args.draws
-    if n_draws < 2:
-        raise InputError("--draws", args.draws, "at least 2 draws")
+    from .outputs import field_figure, field_table, profile_figure, profile_table
+
+    mc_opts = monte_carlo_settings(args)
     k = _uncertain_number(args.plume_constant, "--plume-constant", default_plume_constant())
     lam = _uncertain_number(args.width_ratio, "--tracer-to-velocity-width-ratio", default_width_ratio())
     mpp, scale = pixel_scale(args)
@@ -310,17 +325,22 @@ def run_jet(args) -> int:
                                                                          "--ambient-temperature")
     sal = parse_quantity(args.ambient_salinity, "dimensionless", "--ambient-salinity")
     pressure = None
-    if args.pressure is not None:
-        pressure = parse_quantity(args.pressure, "pressure", "--pressure")
+    if args.absolute_pressure is not None:
+        pressure = parse_quantity(args.absolute_pressure, "pressure", "--absolute-pressure")
+        try:  # TEOS-10's range, named by the option the user wrote
+            check_funnel_pressure(pressure)
+        except InputError as err:
+            raise InputError("--absolute-pressure", args.absolute_pressure, err.allowed) from None
     elif args.depth is not None:
         pressure = pressure_from_depth(parse_quantity(args.depth, "length", "--depth"), args.latitude)
     if (temp is None) != (pressure is None):
-        raise InputError("--ambient-temperature" if temp is None else "--pressure", "(missing)",
-                         "both --ambient-temperature and --pressure (or --depth) for the heat power")
+        raise InputError("--ambient-temperature" if temp is None else "--absolute-pressure", "(missing)",
+                         "both --ambient-temperature and --absolute-pressure (or --depth) for the heat power")
     heights = tuple(None if v is None else parse_quantity(v, "length", f) for v, f in
                     ((args.fit_from, "--fit-from"), (args.fit_to, "--fit-to")))
     rate = None if args.frame_rate is None else parse_quantity(args.frame_rate, "frequency", "--frame-rate")
-    show = not args.no_progress and sys.stderr.isatty()
+    draws = SharedDraws(mc_opts.draws, mc_opts.seed)  # validated before the clip is read
+    show = not args.quiet and sys.stderr.isatty()
     res = analyze_jet_clip(args.clip, mpp, orifice, roi=args.region, ambient_temperature=temp, ambient_salinity=sal,
                            pressure=pressure, latitude=args.latitude, frame_rate=rate,
                            passes=parse_windows(args.windows), overlap=args.overlap, gap=args.gap, pairs=args.pairs,
@@ -331,22 +351,10 @@ def run_jet(args) -> int:
                            parse_quantity(args.search_half_width, "length", "--search-half-width"),
                            mode=args.mode, search_radius=args.search_radius, progress=show, view=args.view,
                            width_ratio=float(nominal(lam).to("dimensionless").magnitude), background=args.background)
-    draws = SharedDraws(n_draws, DEFAULT_SEED if args.seed is None else args.seed)
-    names = {part: f"clip/{part}" for part in ("fit", "correlation", "scale", "plume_constant",
-                                                 "tracer_to_velocity_width_ratio")}
-    mc = jet_draws(res, draws, names, None if args.plume_constant is None else k,
-                   None if args.width_ratio is None else lam, scale)
-    out = res.as_dict()
-    out["exit_velocity_sd_m_s"] = summarize(mc.exit_velocity).std.to("m/s").magnitude
-    out["exit_velocity_fit_sd_m_s"] = res.exit_velocity_sd.to("m/s").magnitude
-    out.update(summarize(mc.buoyancy_flux).as_dict("buoyancy_flux", "m^4/s^3"))
-    out["buoyancy_flux_sd_m4_s3"] = out["buoyancy_flux_m4_s3_sd"]
-    if mc.heat_power is not None:
-        out.update(summarize(mc.heat_power).as_dict("heat_power", "W"))
-        out["heat_power_sd_W"] = out["heat_power_W_sd"]
-    out["uncertainty_parts_relative_sd"] = mc.parts
-    out["uncertainty_inputs"] = {name: draws.describe().get(name) for name in mc.inputs.values()}
-    out["draws"], out["seed"] = draws.n_draws, draws.seed
+    mc = jet_draws(res, draws, part_names(args.name), None if args.plume_constant is None else k,
+                   None if args.width_ratio is None else lam, scale, max_unphysical=mc_opts.max_unphysical)
+    out = jet_summary(res, mc)
+    out["vent"] = args.name
     if args.out:
         names_out = ("centreline.csv", "centreline.png", "velocity_field.csv", "velocity_field.png")
         with atomic_directory(args.out) as tmp:
@@ -373,6 +381,8 @@ def run_jet(args) -> int:
                  ("  sd (total)", out["heat_power_sd_W"] / 1e6, "MW"),
                  ("  5-95 %", f"{out['heat_power_W_p05'] / 1e6:.3g} - {out['heat_power_W_p95'] / 1e6:.3g}", "MW")]
     rows += [(f"  part: {name}", 100 * part["buoyancy_flux"], "% of F") for name, part in mc.parts.items()]
+    rows += [("unphysical draws (dropped)", f"{out['unphysical_draws']} of {out['draws']} "
+              f"(limit {100 * out['max_unphysical_share']:g} %)", "")]
     rows += [("frame pairs", out["frame_pairs"], ""), ("frames skipped", out["frames_skipped"], "")]
     rows += [("wrote", f, "") for f in out.get("files", [])]
     print_table(rows, title=f"Vent jet from video ({res.field.mode}; w up)")

@@ -305,7 +305,7 @@ class JetAnalysis:
             "exit_velocity_sd_m_s": self.exit_velocity_sd.to("m/s").magnitude,
             "heat_power_W": None if self.heat_power is None else self.heat_power.to("W").magnitude,
             "heat_power_sd_W": None if self.heat_power_sd is None else self.heat_power_sd.to("W").magnitude,
-            "metres_per_pixel_m": self.metres_per_pixel.to("m").magnitude,
+            "pixel_size_m": self.metres_per_pixel.to("m").magnitude,
             "orifice_px": list(self.orifice_xy),
             "frame_rate_per_s": self.frame_rate.to("1/s").magnitude,
             "frame_pairs": self.field.pairs,
@@ -434,3 +434,11 @@ def exit_velocity_from_clip(path, metres_per_pixel, orifice_xy, **options):
     options.pop("pressure", None)
     result = analyze_jet_clip(path, metres_per_pixel, orifice_xy, **options)
     return result.exit_velocity, result.exit_velocity_sd
+
+
+def check_funnel_pressure(pressure):
+    """Refuse an absolute pressure outside the seawater model's range (TEOS-10's, checked by the core)."""
+    from ventflux.plugin_api import seawater_state
+
+    seawater_state(Q_(2.0, "degC"), 35.0, pressure)  # the pressure's check is the model's own
+    return pressure

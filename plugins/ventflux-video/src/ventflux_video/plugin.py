@@ -42,13 +42,13 @@ def ventflux_velocity_sources():
     return [
         VelocitySource(name="video-exit-velocity",
                        summary="jet centreline velocity from a clip, extrapolated to the orifice (use "
-                               "--velocity-kind centerline; options: clip, metres_per_pixel, orifice_xy, roi, "
+                               "--velocity-kind centerline; options: clip, pixel_size, orifice_xy, roi, "
                                "frame_rate, passes, pairs, exit_points, view, tracer_to_velocity_width_ratio, "
                                "background)",
                        feeds=("orifice",), estimate=exit_velocity_source),
         VelocitySource(name="video-mean-upflow",
                        summary="mean upward velocity over a region of a clip, by particle tracking by default "
-                               "(options: clip, metres_per_pixel, roi, frame_rate, mode, pairs)",
+                               "(options: clip, pixel_size, roi, frame_rate, mode, pairs)",
                        feeds=("diffuse",), estimate=mean_upflow_source),
     ]
 

@@ -2,9 +2,13 @@
 
 One function, ``jet_draws``, turns a ``JetAnalysis`` into draws of the exit
 velocity, the buoyancy flux and the heat power. It draws through the core's
-named inputs (``ventflux.survey.fields.resolve`` on a ``SharedDraws``), so an
-input shared between vents, such as one camera's scale or the plume constant,
-is drawn once per draw for all of them; it holds no generator of its own.
+named inputs through the one driver, ``ventflux.plugin_api.propagate``, on
+the run's ``SharedDraws``, so an input shared between vents, such as one
+camera's scale or the plume constant, is drawn once per draw for all of them,
+and impossible draws are dropped, counted and refused above the run's share
+(``UnphysicalPolicy``); it holds no generator of its own. ``video-jet`` and
+the survey's ``[vent.video]`` call it alike, so the same clip, vent name and
+seed give the same draws.
 
 Parts (each an input name, each listed with its share in the result):
 
@@ -41,10 +45,19 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pint
 
-from ventflux.plugin_api import as_float, nominal_of, resolve
-from ventflux.plugin_api import Uncertain
-from ventflux.plugin_api import Q_
+from ventflux.plugin_api import (
+    DEFAULT_MAX_UNPHYSICAL,
+    Q_,
+    Propagation,
+    SharedRef,
+    Uncertain,
+    UnphysicalPolicy,
+    as_float,
+    nominal_of,
+    propagate,
+)
 
 from .plume import PLUME_CONSTANT_RANGE
 from .sightline import DEFAULT_WIDTH_RATIO_RANGE, centreline_displacement
@@ -66,13 +79,21 @@ def default_width_ratio():
 
 @dataclass
 class JetDraws:
-    """Draws of a jet's results and each part's relative standard deviation."""
+    """Draws of a jet's results (the kept draws), each part's relative standard deviation and the bookkeeping."""
 
-    exit_velocity: object  # m/s, (n,)
-    buoyancy_flux: object  # m^4/s^3, (n,)
-    heat_power: object | None  # W, (n,)
+    exit_velocity: pint.Quantity  # m/s, (kept,)
+    buoyancy_flux: pint.Quantity  # m^4/s^3, (kept,)
+    heat_power: pint.Quantity | None  # W, (kept,)
     parts: dict  # part -> {"buoyancy_flux": rel sd, "exit_velocity": rel sd}
     inputs: dict  # part -> input name used
+    propagation: Propagation  # the driver's bookkeeping (keep, unphysical draws, policy, provenance)
+
+    def expand(self, q):
+        """Draws of ``q`` (kept) on all the run's draws, NaN where a draw was dropped as unphysical."""
+        return self.propagation.expand(q)
+
+    def provenance(self) -> dict:
+        return self.propagation.provenance()
 
 
 def _spread(rel_sd, kind):
@@ -87,25 +108,79 @@ def _spread(rel_sd, kind):
 def _ratio_of_inversions(res, lam_draws, lam0, rows):
     """Median over ``rows`` of the centreline displacement for each ``λ`` draw over that for ``λ0``."""
     p = res.profile
+    lam = np.asarray(lam_draws, float)
     if res.view != "volume" or p.apparent_velocity is None or not np.any(rows):
-        return np.ones(np.shape(lam_draws))
+        return np.ones(np.shape(lam))
     px = res.field.interval.to("s").magnitude / res.metres_per_pixel.to("m").magnitude
     point = (p.apparent_velocity.to("m/s").magnitude * px / p.window_factor)[rows]
     width = res.field.pattern_width
     base = centreline_displacement(point, lam0, width)
-    lam = np.asarray(lam_draws, float)
-    out = centreline_displacement(point[None, :], lam[:, None], width) / base[None, :]
-    return np.nanmedian(out, axis=1)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out = centreline_displacement(point[None, :], np.atleast_1d(lam)[:, None], width) / base[None, :]
+    return np.nanmedian(out, axis=1).reshape(np.shape(lam)) if np.ndim(lam) else float(np.nanmedian(out))
 
 
-def jet_draws(res, draws, names, plume_constant=None, width_ratio=None, scale=None) -> JetDraws:
-    """Draws of a ``JetAnalysis``'s exit velocity, buoyancy flux and heat power.
+class _Jet:
+    """The deterministic, vectorized estimator of a jet's draws: factors on the nominal analysis."""
+
+    def __init__(self, res):
+        self.res = res
+        p = res.profile
+        z = p.height.to("m").magnitude
+        ok = np.isfinite(p.velocity.to("m/s").magnitude) & np.isfinite(z)
+        self.exit_rows = np.isin(np.arange(z.size), np.flatnonzero(ok)[:4])
+        self.fit_rows = ok & (z > 0)
+        self.k0 = float(res.plume.plume_constant)
+        self.lam0 = float(res.width_ratio)
+        self.f0 = res.buoyancy_flux.to("m^4/s^3").magnitude
+        self.w0 = res.exit_velocity.to("m/s").magnitude
+
+    def factors(self, plume_constant, width_ratio, scale, correlation, fit, fit_exit):
+        k, lam, s, c, fit_f, fit_w = (np.asarray(as_float(v), float) for v in
+                                      (plume_constant, width_ratio, scale, correlation, fit, fit_exit))
+        los_fit = _ratio_of_inversions(self.res, lam, self.lam0, self.fit_rows)
+        los_exit = _ratio_of_inversions(self.res, lam, self.lam0, self.exit_rows)
+        one = np.ones(np.broadcast(k, lam, s, c, fit_f, fit_w).shape)
+        f = {"plume_constant": (self.k0 / k) ** 3 * one, "tracer_to_velocity_width_ratio": los_fit**3 * one,
+             "scale": s**4 * one, "correlation": c**3 * one, "fit": fit_f * one}
+        w = {"plume_constant": one, "tracer_to_velocity_width_ratio": los_exit * one, "scale": s * one,
+             "correlation": c * one, "fit": fit_w * one}
+        return f, w
+
+    def physical(self, args) -> np.ndarray:
+        """Draws the jet's results exist for: positive factors (k, λ, scale, correlation) and a rising exit flow."""
+        f, w = self.factors(**args)
+        F = np.prod(list(f.values()), axis=0)
+        W = self.w0 * np.prod(list(w.values()), axis=0)
+        good = np.isfinite(F) & (F > 0) & np.isfinite(W) & (W > 0)
+        for name in ("plume_constant", "width_ratio", "scale", "correlation"):
+            good &= np.asarray(as_float(args[name]), float) > 0
+        return good
+
+    def __call__(self, **args):
+        f, w = self.factors(**args)
+        F = self.f0 * np.prod(list(f.values()), axis=0)
+        W = self.w0 * np.prod(list(w.values()), axis=0)
+        H = None if self.res.heat_power is None else Q_(self.res.heat_power.to("W").magnitude * F / self.f0, "W")
+        parts = {name: {"buoyancy_flux": float(np.std(f[name]) / np.mean(f[name])),
+                        "exit_velocity": float(np.std(w[name]) / np.mean(w[name]))} for name in PARTS}
+        return Q_(W, "m/s"), Q_(F, "m^4/s^3"), H, parts
+
+
+def jet_draws(res, draws, names, plume_constant=None, width_ratio=None, scale=None,
+              max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL) -> JetDraws:
+    """Draws of a ``JetAnalysis``'s exit velocity, buoyancy flux and heat power, through the core's driver.
+
+    Every input is drawn by ``ventflux.plugin_api.propagate`` under its name;
+    draws with a non-positive plume constant, width ratio, scale or
+    correlation factor, or a non-rising exit velocity, are dropped and
+    counted under the run's ``UnphysicalPolicy`` (refused above its share).
 
     Parameters
     ----------
     res : ventflux_video.jet.JetAnalysis
         Analysed with the nominal values of the inputs below.
-    draws : ventflux.aggregate.SharedDraws
+    draws : ventflux.plugin_api.SharedDraws
         The run's named draws.
     names : dict
         Own input names of the parts (``"fit"``, ``"correlation"``,
@@ -115,56 +190,81 @@ def jet_draws(res, draws, names, plume_constant=None, width_ratio=None, scale=No
     plume_constant, width_ratio, scale : quantity, Uncertain or SharedRef, optional
         ``None``: the default distributions (module notes); ``scale`` is a
         dimensionless factor on the pixel size (nominal 1; ``None``: exact).
+    max_unphysical : float or UnphysicalPolicy
+        The run's rule for impossible draws (default 5 %).
     """
-    n = draws.n_draws
-    inputs = {}
+    inputs, stream, used = {}, {}, {}
 
-    def take(part, value, name):
-        inputs[part] = value.name if hasattr(value, "name") and not isinstance(value, Uncertain) else name
-        return np.broadcast_to(np.asarray(as_float(resolve(value, name, draws)), float), (n,))
+    def take(part, key, value, name):
+        if isinstance(value, SharedRef):  # a [shared] input: one stream for all its users
+            name, value = "shared/" + value.name, value.value
+        inputs[key], stream[key], used[part] = value, name, name
 
     # Defaults are one property of plumes, shared by every vent: one name for all of them.
-    k = take("plume_constant", default_plume_constant() if plume_constant is None else plume_constant,
-             "video/plume_constant" if plume_constant is None else names["plume_constant"])
-    k0 = float(res.plume.plume_constant)
-    lam0 = float(res.width_ratio)
-    lam = np.full(n, lam0)
+    take("plume_constant", "plume_constant", default_plume_constant() if plume_constant is None else plume_constant,
+         "video/plume_constant" if plume_constant is None else names["plume_constant"])
     if res.view == "volume":
-        lam = take("tracer_to_velocity_width_ratio", default_width_ratio() if width_ratio is None else width_ratio,
-                   "video/tracer_to_velocity_width_ratio" if width_ratio is None else
-                   names["tracer_to_velocity_width_ratio"])
-    s = np.ones(n)
+        take("tracer_to_velocity_width_ratio", "width_ratio",
+             default_width_ratio() if width_ratio is None else width_ratio,
+             "video/tracer_to_velocity_width_ratio" if width_ratio is None else
+             names["tracer_to_velocity_width_ratio"])
+    else:
+        inputs["width_ratio"] = Q_(float(res.width_ratio), "dimensionless")
     if scale is not None:
-        s = take("scale", scale, names["scale"]) / float(as_float(nominal_of(scale)))
-
+        s0 = float(as_float(nominal_of(scale)))
+        take("scale", "scale", scale, names["scale"])
+    else:
+        inputs["scale"], s0 = Q_(1.0, "dimensionless"), 1.0
+    jet = _Jet(res)
     p = res.profile
-    z = p.height.to("m").magnitude
-    ok = np.isfinite(p.velocity.to("m/s").magnitude) & np.isfinite(z)
-    exit_rows = np.isin(np.arange(z.size), np.flatnonzero(ok)[:4])
-    fit_rows = ok & (z > 0)
     px = res.field.interval.to("s").magnitude / res.metres_per_pixel.to("m").magnitude
+    fit_rows = jet.fit_rows
     d_fit = np.nanmedian(p.velocity.to("m/s").magnitude[fit_rows]) * px if fit_rows.any() else np.nan
     fw = np.nanmedian(p.window_factor[fit_rows]) if p.window_factor is not None and fit_rows.any() else 1.0
     corr_sd = float(np.hypot(CORRELATION_BIAS_PX / d_fit if d_fit > 0 else 0.0, WINDOW_CORRECTION_SHARE * (1 - fw)))
-    c = take("correlation", _spread(corr_sd, "normal"), names["correlation"])
-    f0 = res.buoyancy_flux.to("m^4/s^3").magnitude
-    fit_f = take("fit", _spread(float(res.buoyancy_flux_sd.to("m^4/s^3").magnitude / f0) if f0 > 0 else 0.0,
-                                "lognormal"), names["fit"])
-    w0 = res.exit_velocity.to("m/s").magnitude
-    rel_w = float(res.exit_velocity_sd.to("m/s").magnitude / abs(w0)) if w0 else 0.0
-    fit_w = np.broadcast_to(as_float(resolve(_spread(rel_w, "normal"), names["fit"] + " (exit)", draws)), (n,))
+    take("correlation", "correlation", _spread(corr_sd, "normal"), names["correlation"])
+    take("fit", "fit", _spread(float(res.buoyancy_flux_sd.to("m^4/s^3").magnitude / jet.f0) if jet.f0 > 0 else 0.0,
+                               "lognormal"), names["fit"])
+    rel_w = float(res.exit_velocity_sd.to("m/s").magnitude / abs(jet.w0)) if jet.w0 else 0.0
+    inputs["fit_exit"], stream["fit_exit"] = _spread(rel_w, "normal"), names["fit"] + " (exit)"
 
-    los_fit = _ratio_of_inversions(res, lam, lam0, fit_rows)
-    los_exit = _ratio_of_inversions(res, lam, lam0, exit_rows)
-    factors_f = {"plume_constant": (k0 / k) ** 3, "tracer_to_velocity_width_ratio": los_fit**3, "scale": s**4,
-                 "correlation": c**3, "fit": fit_f}
-    factors_w = {"plume_constant": np.ones(n), "tracer_to_velocity_width_ratio": los_exit, "scale": s,
-                 "correlation": c, "fit": fit_w}
-    F = f0 * np.prod(list(factors_f.values()), axis=0)
-    W = w0 * np.prod(list(factors_w.values()), axis=0)
-    H = None
-    if res.heat_power is not None:
-        H = Q_(res.heat_power.to("W").magnitude * F / f0, "W")
-    parts = {name: {"buoyancy_flux": float(np.std(factors_f[name]) / np.mean(factors_f[name])),
-                    "exit_velocity": float(np.std(factors_w[name]) / np.mean(factors_w[name]))} for name in PARTS}
-    return JetDraws(Q_(W, "m/s"), Q_(F, "m^4/s^3"), H, parts, inputs)
+    def estimator(scale, **rest):  # the scale as a factor of nominal 1
+        return jet(scale=np.asarray(as_float(scale), float) / s0, **rest)
+
+    def physical(args):
+        return jet.physical({**args, "scale": np.asarray(as_float(args["scale"]), float) / s0})
+
+    prop = propagate(estimator, inputs, names=stream, draws=draws, physical=physical, max_unphysical=max_unphysical)
+    W, F, H, parts = prop.result
+    return JetDraws(W, F, H, parts, used, prop)
+
+
+def jet_summary(res, mc: JetDraws) -> dict:
+    """The JSON of a jet's analysis and its Monte Carlo (SI units in the keys), as ``video-jet`` prints it.
+
+    The nominal results (``res.as_dict()``), the draws' summaries of the exit
+    velocity, buoyancy flux and heat power, each part's relative spread, every
+    input by name, and the driver's provenance (``draws``, ``seed``,
+    ``unphysical_draws``, ``max_unphysical_share``).
+    """
+    from ventflux.plugin_api import summarize
+
+    prop = mc.propagation
+    out = res.as_dict()
+    out["exit_velocity_sd_m_s"] = summarize(mc.exit_velocity).std.to("m/s").magnitude
+    out["exit_velocity_fit_sd_m_s"] = res.exit_velocity_sd.to("m/s").magnitude
+    out.update(summarize(mc.buoyancy_flux).as_dict("buoyancy_flux", "m^4/s^3"))
+    out["buoyancy_flux_sd_m4_s3"] = out["buoyancy_flux_m4_s3_sd"]
+    if mc.heat_power is not None:
+        out.update(summarize(mc.heat_power).as_dict("heat_power", "W"))
+        out["heat_power_sd_W"] = out["heat_power_W_sd"]
+    out["uncertainty_parts_relative_sd"] = mc.parts
+    out["uncertainty_inputs"] = {name: prop.inputs.get(name, "exact") for name in mc.inputs.values()}
+    prov = prop.provenance()
+    out.update({k: prov[k] for k in ("draws", "seed", "unphysical_draws", "max_unphysical_share")})
+    return out
+
+
+def part_names(vent: str) -> dict:
+    """Each part's own input name for ``vent`` (``"vent A/video/fit"``): the survey's and ``video-jet --name``'s."""
+    return {part: f"{vent}/video/{'scale_factor' if part == 'scale' else part}" for part in PARTS}

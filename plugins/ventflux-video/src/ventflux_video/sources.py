@@ -1,7 +1,8 @@
 """Velocity sources for the core estimators, callable with quantities or with the CLI's strings.
 
 ``ventflux orifice``/``diffuse`` pass ``--source-option KEY=VALUE`` strings, so
-each option is converted here: ``metres_per_pixel="0.5 mm"``,
+each option is converted here: ``pixel_size="0.5 mm"`` (``metres_per_pixel``,
+its old name, is accepted until ventflux 0.4 with a deprecation line),
 ``orifice_xy="80,248"``, ``roi="0,0,160,256"``, ``frame_rate="50/s"``,
 ``passes="64,32,32"``, ``pairs="40"``, ``mode="tracking"``, ``view="sheet"``,
 ``tracer_to_velocity_width_ratio="1.1"``, ``background="none"`` (the survey's key names).
@@ -11,15 +12,23 @@ from __future__ import annotations
 
 import numpy as np
 
-from ventflux.plugin_api import InputError
-from ventflux.plugin_api import Q_, parse_quantity
+from ventflux.plugin_api import Q_, InputError, parse_quantity, renamed_key, warn_deprecated
 
-_QUANTITIES = {"metres_per_pixel": "length", "frame_rate": "frequency", "search_half_width": "length"}
+_QUANTITIES = {"pixel_size": "length", "frame_rate": "frequency", "search_half_width": "length"}
 _INTS = ("gap", "pairs", "start", "stop", "exit_points")
 
 
 def _options(options):
-    out = dict(options)
+    out = {}
+    for key, value in options.items():  # old spellings of a key: accepted, with one deprecation line
+        new = renamed_key("source_option", key)
+        if new is not None:
+            warn_deprecated(key, new, "--source-option")
+            if out.get(new) is None:
+                out[new] = value
+            continue
+        if value is not None or key not in out:
+            out[key] = value
     for key, dim in _QUANTITIES.items():
         if isinstance(out.get(key), str):
             out[key] = parse_quantity(out[key], dim, key)
@@ -66,7 +75,7 @@ def _field(path, opts, default_mode):
                               background=opts.get("background", "median"))
 
 
-def exit_velocity_source(clip=None, metres_per_pixel=None, orifice_xy=None, **options):
+def exit_velocity_source(clip=None, pixel_size=None, orifice_xy=None, **options):
     """Exit velocity of a jet and its sd from a clip (feeds the orifice estimator).
 
     It is the *centreline* speed at the orifice: with ``ventflux orifice`` give
@@ -82,10 +91,10 @@ def exit_velocity_source(clip=None, metres_per_pixel=None, orifice_xy=None, **op
     from .sightline import DEFAULT_WIDTH_RATIO_RANGE, check_view, line_of_sight_factor
 
     path = _clip(clip, options)
-    opts = _options(dict(options, metres_per_pixel=metres_per_pixel, orifice_xy=orifice_xy))
-    if opts["metres_per_pixel"] is None or opts["orifice_xy"] is None:
-        raise InputError("metres_per_pixel/orifice_xy", "(missing)", "both options for a video exit velocity")
-    mpp = check_scale(opts["metres_per_pixel"])
+    opts = _options(dict(options, pixel_size=pixel_size, orifice_xy=orifice_xy))
+    if opts.get("pixel_size") is None or opts.get("orifice_xy") is None:
+        raise InputError("pixel_size/orifice_xy", "(missing)", "both options for a video exit velocity")
+    mpp = check_scale(opts["pixel_size"], "pixel_size")
     view = check_view(opts.get("view", "volume"))
     lam = opts.get("tracer_to_velocity_width_ratio", DEFAULT_WIDTH_RATIO)
     field = _field(path, opts, "correlation")
@@ -107,7 +116,7 @@ def exit_velocity_source(clip=None, metres_per_pixel=None, orifice_xy=None, **op
     return w0, abs(w0) * float(np.sqrt(np.sum(np.square(rel))))
 
 
-def mean_upflow_source(clip=None, metres_per_pixel=None, **options):
+def mean_upflow_source(clip=None, pixel_size=None, **options):
     """Mean upward velocity over a region and its standard error (feeds the diffuse estimator).
 
     The mean is over the grid points of the time-averaged field; the standard
@@ -116,10 +125,10 @@ def mean_upflow_source(clip=None, metres_per_pixel=None, **options):
     from .jet import check_scale
 
     path = _clip(clip, options)
-    opts = _options(dict(options, metres_per_pixel=metres_per_pixel))
-    if opts["metres_per_pixel"] is None:
-        raise InputError("metres_per_pixel", "(missing)", "a pixel size, e.g. '0.5 mm'")
-    mpp = check_scale(opts["metres_per_pixel"])
+    opts = _options(dict(options, pixel_size=pixel_size))
+    if opts.get("pixel_size") is None:
+        raise InputError("pixel_size", "(missing)", "a pixel size, e.g. '0.5 mm'")
+    mpp = check_scale(opts["pixel_size"], "pixel_size")
     field = _field(path, opts, "tracking")
     w = field.velocity(mpp)[1].to("m/s").magnitude
     w = w[np.isfinite(w)]

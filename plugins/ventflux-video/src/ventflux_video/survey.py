@@ -95,7 +95,7 @@ def _check_clip(f, spec):
 def _estimate(spec, vent, ctx):
     from .jet import DEFAULT_WIDTH_RATIO, analyze_jet_clip
     from .plume import DEFAULT_PLUME_CONSTANT
-    from .propagation import jet_draws
+    from .propagation import jet_draws, part_names
 
     k0 = DEFAULT_PLUME_CONSTANT if spec["plume_constant"] is None else \
         float(as_float(nominal_of(spec["plume_constant"])))
@@ -107,12 +107,11 @@ def _estimate(spec, vent, ctx):
                            ambient_salinity=float(np.mean(ctx.ambient_salinity)), pressure=ctx.pressure,
                            latitude=ctx.site.latitude, frame_rate=spec["frame_rate"], mode=spec["mode"],
                            plume_constant=k0, view=spec["view"], width_ratio=lam0, background=spec["background"])
-    names = {part: f"{vent}/video/{part}" for part in ("fit", "correlation", "scale_factor", "plume_constant",
-                                                         "tracer_to_velocity_width_ratio")}
-    names["scale"] = names.pop("scale_factor")
-    mc = jet_draws(res, ctx.draws, names, spec["plume_constant"], lam, spec["scale_factor"])
+    names = part_names(vent)  # the same names as video-jet --name: one vent, one set of streams
+    mc = jet_draws(res, ctx.draws, names, spec["plume_constant"], lam, spec["scale_factor"],
+                   max_unphysical=ctx.policy)
     H0 = res.heat_power.to("W").magnitude
-    H = mc.heat_power.to("W").magnitude
+    H = mc.expand(mc.heat_power.to("W")).magnitude  # NaN where a draw was dropped as impossible
     row = {"vent": vent, "clip": spec["clip"].name, "pixel_size [mm]": float(spec["pixel_size"].to("mm").magnitude),
            "view": res.view, "frame_pairs": int(res.field.pairs), "frames_skipped": int(res.field.skipped_frames),
            "frames_missing": len(res.field.frame_gaps) + int(res.field.missing_frames),
@@ -123,7 +122,8 @@ def _estimate(spec, vent, ctx):
            "virtual_origin [m]": float(res.virtual_origin.to("m").magnitude),
            "heat_power [MW]": H0 / 1e6, "plume_constant": k0,
            "sightline_factor": float(np.median(res.profile.sightline_factor)),
-           "window_factor": float(np.median(res.profile.window_factor))}
+           "window_factor": float(np.median(res.profile.window_factor)),
+           "unphysical_draws": int(mc.propagation.unphysical)}
     row.update({f"heat_power_sd_{part} [%]": 100 * share["buoyancy_flux"] for part, share in mc.parts.items()})
     figs = []
     try:
@@ -141,6 +141,9 @@ def _estimate(spec, vent, ctx):
     notes = [f"Video: buoyancy flux from the decay of centreline velocity with height (k = {k0:g} nominal), "
              f"heat power H = ρ c_p0 F / (g α) with TEOS-10 at the vent; {view}; window-averaging factor "
              f"{row['window_factor']:.2f}. Spread of the heat power by part (relative sd): {shares}."]
+    if mc.propagation.unphysical:
+        notes.append(f"Video ({vent}): {mc.propagation.unphysical} of {mc.propagation.n_draws} draws dropped as "
+                     f"physically impossible (limit {mc.propagation.policy.max_share:.1%}).")
     notes += [f"Video ({vent}): {flag}" for flag in res.flags]
     return MethodEstimate(heat_power=Q_(H, "W"), nominal_heat_power=Q_(H0, "W"), rows=[row], figures=figs,
                           notes=notes)
