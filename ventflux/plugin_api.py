@@ -42,6 +42,9 @@ Files and output
     ``monte_carlo_settings``, ``print_json``, ``print_table``, ``write_output``.
 Registry look-ups
     ``velocity_from_source``, ``fluid_model_by_name``.
+Executors
+    ``Executor`` (the protocol: ``map(fn, arguments, on_done)``), ``ExecutorInfo`` (what the
+    ``ventflux_executors`` hook returns), ``SerialExecutor`` (the in-process default).
 """
 
 from __future__ import annotations
@@ -51,6 +54,7 @@ from .cli.montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .cli.output import add_output_options, print_json, print_table, write_output
 from .diffuse import diffuse_discharge
 from .errors import Collector, InputError, InputErrors
+from .executor import Executor, ExecutorInfo, SerialExecutor
 from .hookspecs import hookimpl
 from .io import (
     atomic_directory,
@@ -120,6 +124,9 @@ API_VERSION = "1"
 
 __all__ = [
                           "API_VERSION",
+                          "Executor",
+                          "ExecutorInfo",
+                          "SerialExecutor",
                           "CORE_VERSION",
                           "DIMENSIONS",
                           "STANDARD_ATMOSPHERE",

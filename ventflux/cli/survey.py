@@ -44,6 +44,10 @@ def configure(p):
     p.add_argument("--draws", type=int, default=None, metavar="N", help="override the file's Monte Carlo draws")
     p.add_argument("--seed", type=int, default=None, help="override the file's random seed")
     p.add_argument("--quiet", action="store_true", help="no progress messages")
+    p.add_argument("--scheduler", default=None, metavar="WHERE",
+                   help="where the vents are estimated: 'serial' (default, this process) or an executor a plugin "
+                        "provides (ventflux-series: 'local', 'threads' or a dask.distributed scheduler address); "
+                        "the numbers are the same")
     p.add_argument("--budget", choices=("draws", "full", "off"), default="draws",
                    help="uncertainty budget: which input owns the variance of each result, from the run's own draws "
                         "(default), from a dedicated design (full: costs about (inputs + 2 + 6) / 10 times the run) "
@@ -104,7 +108,10 @@ def run(args) -> int:
         if not args.quiet:
             print(f"ventflux survey: {msg}", file=sys.stderr, flush=True)
 
-    result = run_survey(spec, progress=progress)
+    from ..executor import open_executor
+
+    with open_executor(args.scheduler, field="--scheduler") as executor:
+        result = run_survey(spec, progress=progress, executor=executor)
     result.budget_mode = args.budget  # the uncertainty budget written with the results (ventflux.survey.budget)
     progress("writing tables, figures and the report")
     path = report.write_results(result, out)
