@@ -196,7 +196,7 @@ def run_items(manifest, draws_by_vent: dict, site: dict, *, scheduler: str | Non
             results[item.index] = hit
         else:
             todo.append((item, vent, key))
-    stats = {"items": len(manifest.items), "cached": len(results), "computed": len(todo),
+    stats: dict[str, int | str] = {"items": len(manifest.items), "cached": len(results), "computed": len(todo),
              "temporary_files_removed": len(removed)}
     total = len(manifest.items)
     _progress(len(results), total, quiet)
