@@ -93,10 +93,11 @@ def main():
     m = read_manifest(_records(folder, args.items, args.samples))
     draws, _ = series_input_draws(m)
     site = site_state(m)
+    settings = {"draws": m.draws, "seed": m.seed, "interval_s": m.interval_s, "max_unphysical": m.max_unphysical}
 
     def task_args(shared_site, shared_draws):
-        return [(it, m.vents[it.vent], shared_site, shared_draws[it.vent], m.draws, m.interval_s,
-                 m.max_unphysical, m.seed, None, "") for it in m.items]
+        return [(it, m.vents[it.vent], shared_site, shared_draws[it.vent], settings, None, False)
+                for it in m.items]
 
     plain = task_args(site, draws)
     _timed(*plain[0])  # warm the property table in this process

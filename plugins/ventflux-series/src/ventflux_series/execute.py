@@ -141,13 +141,24 @@ def remove_stale_parts(cache: Path) -> list[Path]:
     return removed
 
 
-def _task(item, vent, site, draws, n_draws, interval_s, max_unphysical, seed, cache, key):
-    """One Dask task: estimate and cache (the cache write happens on the worker, so a killed client loses
-    nothing a worker finished)."""
-    res = estimate_item(item, vent, site, draws, n_draws, interval_s, max_unphysical, seed)
+def _task(item, vent, site, draws, settings: dict, cache: str | None, fresh: bool) -> tuple[ItemResult, bool]:
+    """One task: the item's cached result if there is one, else estimate it and cache it; ``(result, cached)``.
+
+    The content key (which reads the whole item file to hash it) is computed here, on the worker, not on the
+    client: on an archive of clips, hashing every file in one process before any work starts would be a serial
+    read of the whole archive. The cache write happens here too, so a killed client loses nothing a worker
+    finished.
+    """
+    key = item_key(item, vent, site, draws, settings) if cache is not None else ""
+    if cache is not None and not fresh:
+        hit = load_cached(Path(cache), key, item)
+        if hit is not None:
+            return hit, True
+    res = estimate_item(item, vent, site, draws, settings["draws"], settings["interval_s"],
+                        settings["max_unphysical"], settings["seed"])
     if cache is not None:
         store_cached(Path(cache), key, res)
-    return res
+    return res, False
 
 
 def _progress(done: int, total: int, quiet: bool) -> None:
@@ -186,38 +197,30 @@ def run_items(manifest, draws_by_vent: dict, site: dict, *, scheduler: str | Non
     settings = {"draws": manifest.draws, "seed": manifest.seed, "interval_s": manifest.interval_s,
                 "max_unphysical": manifest.max_unphysical}
     results: dict[int, ItemResult] = {}
-    todo = []
     removed = remove_stale_parts(cache) if cache is not None and cache.is_dir() else []
-    for item in manifest.items:
-        vent = manifest.vents[item.vent]
-        key = item_key(item, vent, site, draws_by_vent[item.vent], settings) if cache is not None else ""
-        hit = None if (cache is None or fresh) else load_cached(cache, key, item)
-        if hit is not None:
-            results[item.index] = hit
-        else:
-            todo.append((item, vent, key))
-    stats: dict[str, int | str] = {"items": len(manifest.items), "cached": len(results), "computed": len(todo),
-             "temporary_files_removed": len(removed)}
     total = len(manifest.items)
-    _progress(len(results), total, quiet)
+    stats: dict[str, int | str] = {"items": total, "cached": 0, "computed": 0,
+                                   "temporary_files_removed": len(removed)}
     if scheduler is None:
-        scheduler = "threads" if len(todo) <= SMALL_MANIFEST else "processes"
+        scheduler = "threads" if total <= SMALL_MANIFEST else "processes"
     stats["scheduler"] = scheduler
+    _progress(0, total, quiet)
 
-    def done(_i, res):
+    def done(_i, out):
+        res, cached = out
         results[res.index] = res
+        stats["cached" if cached else "computed"] = int(stats["cached" if cached else "computed"]) + 1
         if on_done is not None:
             on_done(res)
         _progress(len(results), total, quiet)
 
-    with _executor(scheduler if todo else "serial", workers) as ex:
+    with _executor(scheduler if total else "serial", workers) as ex:
         # Inputs every task needs go to the workers once, not once per task.
         share = getattr(ex, "share", lambda obj: obj)
-        shared_draws = {v: share(draws_by_vent[v]) for v in {item.vent for item, _, _ in todo}}
-        shared_site = share(site) if todo else site
-        args = [(item, vent, shared_site, shared_draws[item.vent], manifest.draws, manifest.interval_s,
-                 manifest.max_unphysical, manifest.seed, None if cache is None else str(cache), key)
-                for item, vent, key in todo]
+        shared_draws = {v: share(draws_by_vent[v]) for v in {item.vent for item in manifest.items}}
+        shared_site, shared_settings = share(site), share(settings)
+        args = [(item, manifest.vents[item.vent], shared_site, shared_draws[item.vent], shared_settings,
+                 None if cache is None else str(cache), fresh) for item in manifest.items]
         ex.map(_task, args, on_done=done)
     return [results[i] for i in range(total)], stats
 
