@@ -65,6 +65,8 @@ QUANTITIES: tuple[Quantity, ...] = (
     Quantity("plausibility override", "--allow-implausible", "[run] allow_implausible", "",
              "implausible_values_allowed"),
     Quantity("progress messages off", "--quiet", "", "", ""),
+    Quantity("where tasks run (executor: serial, a Dask cluster)", "--scheduler, --workers", "", "",
+             "scheduler"),
 )
 
 #: Old option spelling → new, per command (``"*"``: every command that has it).
