@@ -113,7 +113,9 @@ def _vent_task(estimators: dict, parsed: dict, vent_name: str, ctx):
     own._shared = dict(ctx.draws._shared)
     local = replace(ctx, draws=own, progress=_quiet)
     est = {key: estimators[key](value, vent_name, local) for key, value in parsed.items()}
-    return est, own._known, own._shared
+    # Only what this vent added travels back (the run's own draws are already on the client).
+    return (est, {k: v for k, v in own._known.items() if k not in ctx.draws._known},
+            {k: v for k, v in own._shared.items() if k not in ctx.draws._shared})
 
 
 def _quiet(msg):  # progress lines from other processes would interleave; the client prints one per vent

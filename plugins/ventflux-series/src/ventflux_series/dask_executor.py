@@ -65,9 +65,10 @@ def tune_allocator() -> bool:
 class DaskExecutor:
     """Runs ``fn(*args)`` per argument tuple on Dask; results in the order given (``Executor`` protocol)."""
 
-    def __init__(self, name: str, client=None):
+    def __init__(self, name: str, client=None, threads: int | None = None):
         self.name = name
         self.client = client  # None: the threaded scheduler
+        self.threads = threads  # threads of the threaded scheduler (default: one per core)
 
     def share(self, obj):
         """``obj`` sent once to every worker (a future standing for it in task arguments), or ``obj`` itself
@@ -84,7 +85,7 @@ class DaskExecutor:
             import dask
 
             tasks = [dask.delayed(fn, pure=False)(*a) for a in arguments]
-            out = list(dask.compute(*tasks, scheduler="threads"))
+            out = list(dask.compute(*tasks, scheduler="threads", num_workers=self.threads))
             if on_done is not None:
                 for i, r in enumerate(out):
                     on_done(i, r)
@@ -130,7 +131,7 @@ def start_local_cluster(workers: int | None = None):
 def open_dask(where: str, workers: int | None = None) -> Iterator[DaskExecutor]:
     """A ``DaskExecutor`` for ``where`` (see the module docstring), closed (and its local cluster stopped) on exit."""
     if where == THREADS:
-        yield DaskExecutor(THREADS)
+        yield DaskExecutor(THREADS, threads=workers)
         return
     from distributed import Client
 
