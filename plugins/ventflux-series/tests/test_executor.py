@@ -106,3 +106,13 @@ def test_survey_cli_runs_on_threads(tmp_path, capsys):
     rc = main(["survey", str(_survey(tmp_path, video=False)), "--scheduler", "threads", "--quiet",
                "--out", str(tmp_path / "out")])
     assert rc == 0 and (tmp_path / "out" / "summary.json").exists()
+
+
+def test_dask_executor_accepts_its_names_and_scheduler_addresses_only():
+    from ventflux_series.dask_executor import accepts
+
+    for where in ("local", "processes", "threads", "tcp://10.1.2.3:8786", "head-node:8786", "tls://a.b:8786",
+                  "tcp://[::1]:8786"):
+        assert accepts(where), where
+    for where in ("serial", "nowhere", "", "tcp://host", "local cluster", "8786"):
+        assert not accepts(where), where
