@@ -204,7 +204,6 @@ def run_items(manifest, draws_by_vent: dict, site: dict, *, scheduler: str | Non
     if scheduler is None:
         scheduler = "threads" if total <= SMALL_MANIFEST else "processes"
     stats["scheduler"] = scheduler
-    _progress(0, total, quiet)
 
     def done(_i, out):
         res, cached = out
@@ -215,6 +214,7 @@ def run_items(manifest, draws_by_vent: dict, site: dict, *, scheduler: str | Non
         _progress(len(results), total, quiet)
 
     with _executor(scheduler if total else "serial", workers) as ex:
+        _progress(0, total, quiet)  # once the executor is up: a refused --scheduler is one clean line
         # Inputs every task needs go to the workers once, not once per task.
         share = getattr(ex, "share", lambda obj: obj)
         shared_draws = {v: share(draws_by_vent[v]) for v in {item.vent for item in manifest.items}}
