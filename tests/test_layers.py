@@ -12,7 +12,7 @@ are left out). Layers, from the bottom:
    inputs, their distributions, what their draws explain, and how results present themselves
 3. estimators: ``orifice``, ``diffuse``, ``plume``, ``reservoir``, ``ridge_flank``,
    ``throughput``, ``aggregate``, ``summarizer``, ``budget`` (of one estimate)
-4. the plugin contract: ``hookspecs``, ``registry``
+4. the plugin contract: ``hookspecs``, ``registry``, ``executor`` (where tasks run)
 5. ``survey``
 6. ``cli`` and the plugin API (``plugin_api``)
 7. the core's own hook implementations (``core_plugin``) and ``__main__``
@@ -33,7 +33,7 @@ LAYERS = [
      "ventflux.ctd_formats", "ventflux.presentation"),
     ("ventflux.orifice", "ventflux.diffuse", "ventflux.plume", "ventflux.reservoir", "ventflux.ridge_flank",
      "ventflux.throughput", "ventflux.aggregate", "ventflux.summarizer", "ventflux.budget"),
-    ("ventflux.hookspecs", "ventflux.registry"),
+    ("ventflux.hookspecs", "ventflux.registry", "ventflux.executor"),
     ("ventflux.survey",),
     ("ventflux.cli", "ventflux.plugin_api"),
     ("ventflux.core_plugin", "ventflux.__main__"),

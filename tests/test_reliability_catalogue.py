@@ -309,7 +309,7 @@ SURVEY_CASES = [
     # a smaller spike (0.5 K) passes the spike test, but caps the field's plume: the rise height's 95 % point has no
     # plume solution, as the run would find for more than 5 % of its draws
     ("survey-ctd-spike-caps-the-field-plume", {"data/ctd_cast.csv": ("2160.0,2.3114", "2160.0,1.8")},
-     ["field_plume.height"]),
+     ["field_plume.rise_height"]),
 ]
 
 

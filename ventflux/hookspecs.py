@@ -118,3 +118,19 @@ def ventflux_survey_sections():
         ``report`` (a ``ReportPart``) gives the titles and place of the
         tables it returns in ``SectionEstimate.tables``.
     """
+
+
+@hookspec
+def ventflux_executors():
+    """Places to run independent tasks other than this process (worker processes, a cluster).
+
+    Returns
+    -------
+    list of ventflux.plugin_api.ExecutorInfo
+        Each with a name, a one-line summary, ``accepts(where)`` (whether it
+        understands the string a user gave, e.g. ``--scheduler local`` or a
+        scheduler address) and ``open(where, workers)``, a context manager
+        yielding an executor whose ``map(fn, arguments, on_done)`` returns
+        ``fn(*a)`` for each tuple in order (``ventflux.executor``). An
+        executor decides where a task runs, never what it computes.
+    """

@@ -47,6 +47,9 @@ Registry look-ups
 Vocabulary
     ``add_deprecated_option``, ``renamed_key``, ``RENAMED_COLUMNS``, ``warn_deprecated``, ``deprecation_line``
     (old spellings of options, keys and CSV columns, accepted for one release with one deprecation line).
+Executors
+    ``Executor`` (the protocol: ``map(fn, arguments, on_done)``), ``ExecutorInfo`` (what the
+    ``ventflux_executors`` hook returns), ``SerialExecutor`` (the in-process default).
 """
 
 from __future__ import annotations
@@ -56,6 +59,7 @@ from .cli.montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .cli.output import add_output_options, print_json, print_table, write_output
 from .diffuse import diffuse_discharge
 from .errors import Collector, InputError, InputErrors
+from .executor import Executor, ExecutorInfo, SerialExecutor
 from .hookspecs import hookimpl
 from .io import (
     atomic_directory,
@@ -129,6 +133,9 @@ API_VERSION = "1"
 __all__ = [
                           "API_VERSION",
                           "RENAMED_COLUMNS",
+                          "Executor",
+                          "ExecutorInfo",
+                          "SerialExecutor",
                           "CORE_VERSION",
                           "DIMENSIONS",
                           "STANDARD_ATMOSPHERE",

@@ -26,6 +26,10 @@ def configure(p):
                    help="override the file's [run] max_unphysical (share of draws dropped as impossible before the "
                         "run refuses; recorded in summary.json)")
     p.add_argument("--quiet", action="store_true", help="no progress messages")
+    p.add_argument("--scheduler", default=None, metavar="WHERE",
+                   help="where the vents are estimated: 'serial' (default, this process) or an executor a plugin "
+                        "provides (ventflux-series: 'local', 'threads' or a dask.distributed scheduler address); "
+                        "the numbers are the same")
     p.add_argument("--budget", choices=("draws", "full", "off"), default="draws",
                    help="uncertainty budget: which input owns the variance of each result, from the run's own draws "
                         "(default), from a dedicated design (full: costs about (inputs + 2 + 6) / 10 times the run) "
@@ -108,7 +112,10 @@ def run(args) -> int:
         if not args.quiet:
             print(f"ventflux survey: {msg}", file=sys.stderr, flush=True)
 
-    result = run_survey(spec, progress=progress)
+    from ..executor import open_executor
+
+    with open_executor(args.scheduler, field="--scheduler") as executor:
+        result = run_survey(spec, progress=progress, executor=executor)
     result.budget_mode = args.budget  # the uncertainty budget written with the results (ventflux.survey.budget)
     progress("writing tables, figures and the report")
     path = report.write_results(result, out)

@@ -80,10 +80,11 @@ class SurveyResult(Presentable):
     budget_mode: str = "draws"  # what ``ventflux.survey.budget.survey_budget(result)`` does by default
 
 
-def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None) -> SurveyResult:
+def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor=None) -> SurveyResult:
     """Compute everything a survey file asks for (see ``ventflux.survey.spec``).
 
     ``draws``: the run's named draws (default a new ``SharedDraws``; the uncertainty budget's design passes its own).
+    ``executor``: where the vents are estimated (``ventflux.executor``; default this process).
     """
     t0 = time.perf_counter()
     methods, sections = survey_components()
@@ -103,13 +104,10 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None) -> Surve
     ctx = RunContext(draws=draws, site=site, pressure=pressure, ambient_temperature=ambient,
                      ambient_salinity=salinity, stratification=strat, progress=progress, policy=policy)
 
-    vents = []
-    for i, v in enumerate(spec.vents, 1):
-        progress(f"vent {i}/{len(spec.vents)}: {v.name} ({', '.join(v.methods)})")
-        est = {}
-        for key, parsed in v.methods.items():
-            est[key] = methods[key].estimate(parsed, v.name, ctx)
-        vents.append(VentResult(name=v.name, methods=est, heat_power=None))
+    from ..executor import estimate_vents  # serially here, or one task per vent on ``executor`` (same numbers)
+
+    vents = [VentResult(name=v.name, methods=est, heat_power=None)
+             for v, est in zip(spec.vents, estimate_vents(spec.vents, methods, ctx, executor), strict=True)]
     sec = {}
     for key, parsed in spec.sections.items():
         progress(f"section: {key}")

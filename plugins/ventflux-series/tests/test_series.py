@@ -214,9 +214,25 @@ def test_killed_run_resumes_with_only_unfinished_items(tmp_path):
     proc.wait()
     done = len(finished())
     assert 2 <= done < len(files), "the run finished before it could be killed"
+    # What a killed writer leaves: a temporary entry named by its host and (now dead) process id. Beside it, a
+    # live process's temporary entry and files ventflux did not make, which the next run must leave alone.
+    from ventflux_series.execute import _host
+
+    key = "ab" + "0" * 62
+    (cache / "ab").mkdir(exist_ok=True)
+    leftover = cache / "ab" / f".{key}.{_host()}.{proc.pid}.x1y2z3.part.npz"
+    alive = cache / "ab" / f".{key}.{_host()}.{os.getpid()}.q9w8e7.part.npz"
+    foreign = [cache / "ab" / ".notes.part.npz", cache / "ab" / "mine.txt", cache / f".{key}.h.1.a.part.npz"]
+    for f in [leftover, alive, *foreign]:
+        f.write_bytes(b"")
+    parts_before = {p for p in cache.rglob(".*.part.npz") if p not in {alive, *foreign}}
+    assert leftover in parts_before
     out = subprocess.run(cmd + ["--json"], env=env, capture_output=True, text=True, check=True)
     stats = json.loads(out.stdout)
     assert stats["cached"] == done and stats["computed"] == len(files) - done
+    assert stats["temporary_files_removed"] == len(parts_before)
+    assert {p for p in cache.rglob(".*.part.npz")} == {alive, foreign[0], foreign[2]}
+    assert all(f.exists() for f in foreign)
     again = subprocess.run(cmd + ["--json"], env=env, capture_output=True, text=True, check=True)
     assert json.loads(again.stdout)["computed"] == 0
     # Resumed results equal a fresh run's.

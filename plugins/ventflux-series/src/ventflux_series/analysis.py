@@ -178,8 +178,8 @@ def detect_steps(t_days, y, constituents, guard: float = 0.05):
         p = np.exp(logl - logl.max())
         p /= p.sum()
         cdf = np.cumsum(p)
-        lo = cand[min(np.searchsorted(cdf, 0.05), len(cand) - 1)]
-        hi = cand[min(np.searchsorted(cdf, 0.95), len(cand) - 1)]
+        lo = cand[min(int(np.searchsorted(cdf, 0.05)), len(cand) - 1)]
+        hi = cand[min(int(np.searchsorted(cdf, 0.95)), len(cand) - 1)]
         steps.append((int(cand[j]), int(lo), int(hi)))
         X = np.column_stack([X, H[:, j]])
         # The averaging window that straddles a step holds a mixed value; a second "step" beside the first

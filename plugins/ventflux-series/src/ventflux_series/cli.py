@@ -12,8 +12,9 @@ def configure(p):
                    help="results folder (default: ventflux-results/<series name>); replaced only when complete, "
                         "and only if ventflux wrote it")
     p.add_argument("--scheduler", default=None, metavar="WHERE",
-                   help="'serial', 'threads', 'processes' (a local Dask cluster, one worker per core) or the "
-                        "address of a dask.distributed scheduler (default: threads for up to 8 items, else processes)")
+                   help="'serial', 'threads', 'processes' or 'local' (a local Dask cluster, one worker per core) "
+                        "or the address of a dask.distributed scheduler (default: threads for up to 8 items, "
+                        "else processes)")
     p.add_argument("--workers", type=int, default=None, metavar="N", help="worker processes of a local cluster")
     p.add_argument("--fresh", action="store_true", help="recompute every item, ignoring cached results")
     p.add_argument("--cache", metavar="DIR", default=None,
@@ -44,6 +45,9 @@ def run(args) -> int:
     from ventflux.plugin_api import check_results_destination
 
     check_results_destination(out, "--out")
+    from .dask_executor import tune_allocator
+
+    tune_allocator()  # items estimated in this process (serial, threads) allocate as a cluster's workers do
     res = run_series(m, scheduler=args.scheduler, workers=args.workers, fresh=args.fresh, quiet=args.quiet,
                      cache=Path(args.cache) if args.cache else None)
     report = res.write(out)

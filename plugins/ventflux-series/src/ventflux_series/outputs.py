@@ -79,9 +79,9 @@ def figure_series(s: VentSeries) -> bytes:
     ax.fill_between(t, s.p05_W / 1e6, s.p95_W / 1e6, color="#9ecae1", label="5–95 %", step=None)
     ax.plot(t, s.median_W / 1e6, color="#08519c", lw=1, label="median")
     for st in s.steps:
-        ax.axvspan(np.datetime64(st.time_low, "s").astype(object), np.datetime64(st.time_high, "s").astype(object),
-                   color="#fdae6b", alpha=0.5)
-        ax.axvline(np.datetime64(st.time, "s").astype(object), color="#d94801", lw=1.2,
+        ax.axvspan(np.asarray(st.time_low).astype("datetime64[s]").item(),
+                   np.asarray(st.time_high).astype("datetime64[s]").item(), color="#fdae6b", alpha=0.5)
+        ax.axvline(np.asarray(st.time).astype("datetime64[s]").item(), color="#d94801", lw=1.2,
                    label=f"step {st.size_W / 1e6:+.3g} MW")
     ax.set_ylabel("heat power [MW]")
     ax.set_xlabel("time [UTC]")
@@ -134,16 +134,17 @@ def summary_of(manifest, series: list[VentSeries], results, stats: dict, inputs:
             "mean_heat_power_p95_W": float(np.percentile(m, 95)) if m.size else None,
             "trend_W_per_day": s.trend_W_per_day, "trend_sd_W_per_day": s.trend_sd_W_per_day,
             "steps": steps(s),
-            "periods_h": [] if s.periodogram is None else s.periodogram.peaks_h,
-            "tidal_constituents": {c.name: {"period_h": c.period_h, "resolved": c.resolved, "found": c.found,
+            # JSON keys carry SI units (ventflux.vocabulary): periods in s, phases in rad.
+            "periodogram_peak_periods_s": [] if s.periodogram is None else [p * 3600.0 for p in s.periodogram.peaks_h],
+            "tidal_constituents": {c.name: {"period_s": c.period_h * 3600.0, "resolved": c.resolved, "found": c.found,
                                             "amplitude_W": c.amplitude_W, "amplitude_se_W": c.amplitude_se_W,
-                                            "phase_deg": c.phase_deg} for c in s.constituents},
+                                            "phase_rad": float(np.deg2rad(c.phase_deg))} for c in s.constituents},
             "notes": s.notes}
     failed = [{"item_file": r.file, "vent": r.vent, "reason": r.error} for r in results if not r.ok]
     flagged = [{"item_file": r.file, "vent": r.vent, "flags": r.flags} for r in results if r.ok and r.flags]
     return {"series": manifest.name, "vents": vents, "failed_items": failed, "flagged_items": flagged,
             "run": {**stats, "draws": manifest.draws, "seed": manifest.seed, "interval_s": manifest.interval_s,
-                    "max_unphysical": manifest.max_unphysical},
+                    "max_unphysical_share": manifest.max_unphysical},
             "inputs": inputs}
 
 
@@ -184,7 +185,7 @@ th{{background:#f4f4f4}} img{{max-width:100%;height:auto}}
                          + (f"; not resolved by this record's length: {esc(', '.join(unresolved))}"
                             if unresolved else "")
                          + ". Strongest periodogram peaks: "
-                         + esc(", ".join(f"{p:.2f} h" for p in v["periods_h"])) + ".</p>")
+                         + esc(", ".join(f"{p / 3600:.2f} h" for p in v["periodogram_peak_periods_s"])) + ".</p>")
         for png, alt in figures.get(s.vent, []):
             parts.append(_b64(png, alt))
         for n in s.notes:

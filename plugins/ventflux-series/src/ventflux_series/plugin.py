@@ -31,3 +31,10 @@ def ventflux_estimation_methods():
                            "trend and steps; resumable, on Dask",
                    estimates="heat power through time", command="ventflux series",
                    inputs=("manifest", "items CSV", "records or clips"), provider="ventflux-series")]
+
+
+@hookimpl
+def ventflux_executors():
+    from .dask_executor import executor_info  # imports nothing of Dask until an executor is opened
+
+    return [executor_info()]
