@@ -185,3 +185,12 @@ def test_latitude_bounds_are_the_same_for_every_command(argv, capsys):
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--latitude" in err[0] and "-90 to 90" in err[0]
     assert main(argv + ["--latitude", "95", "--allow-implausible"]) == 2  # validity, not plausibility
+
+
+def test_absolute_pressure_has_the_pressure_limit():
+    # The renamed option and survey key keep the plausibility limit of an absolute pressure (ventflux.vocabulary).
+    from ventflux.limits import limit_for
+
+    for field in ("--absolute-pressure", "site.absolute_pressure", "--pressure"):
+        lim = limit_for(field, "pressure")
+        assert lim is not None and lim.quantity == "an absolute pressure", field

@@ -237,3 +237,13 @@ def test_heat_content_rises_with_temperature_everywhere(p, SA_, t0, rise, more):
     assert r.specific_heat_content[1] > r.specific_heat_content[0]
     assert 3500 < r.specific_heat_content[0] / rise < 5000
     assert np.all((r.density > 700) & (r.density < 1100))
+
+
+@pytest.mark.parametrize("SA", [5e-324, 1e-310, 0.0])
+def test_salinity_too_small_to_matter_is_pure_water(SA):
+    # gsw's Gibbs function returns NaN for a subnormal absolute salinity (found by hypothesis): it must read as
+    # pure water, not as NaN heat. Reference: the same call at SA = 0 exactly.
+    r = sh.seawater_heat_content(np.array([40.0, 45.0]), 2.0, SA, 1000.0)
+    ref = sh.seawater_heat_content(np.array([40.0, 45.0]), 2.0, 0.0, 1000.0)
+    np.testing.assert_array_equal(r.specific_heat_content, ref.specific_heat_content)
+    np.testing.assert_array_equal(r.density, ref.density)

@@ -122,7 +122,7 @@ LIMITS: tuple[Limit, ...] = (
     Limit("a rise height", ("rise_height", "plume_rise.height", "field_plume.height", "height"), "length", "m",
           0.0, 3000.0, "plumes rise hundreds of metres (from memory); 3 km is a choice made here", low_open=True),
     Limit("a depth", ("depth",), "length", "m", 0.0, 11000.0, "the deepest ocean is about 11 km", low_open=True),
-    Limit("an absolute pressure", ("pressure",), "pressure", "MPa", 0.1, 115.0,
+    Limit("an absolute pressure", ("pressure", "absolute_pressure"), "pressure", "MPa", 0.1, 115.0,
           "one atmosphere to the pressure at 11 km depth"),
     Limit("a vent-fluid temperature", ("exit_temperature", "orifice.temperature", "vent.exit_temperature"),
           "temperature", "degC", -2.5, 600.0,

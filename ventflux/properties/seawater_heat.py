@@ -166,6 +166,16 @@ def _water():
     return IAPWS95Water()
 
 
+def _normal_salinity(SA):
+    """``SA`` with subnormal values (below 2.2e-308 g/kg) set to 0.
+
+    TEOS-10's Gibbs function takes ln(SA); gsw returns NaN for a subnormal
+    SA, while any salinity that small is pure water at double precision.
+    """
+    SA = np.asarray(SA, float)
+    return np.where((SA > 0) & (SA < np.finfo(float).tiny), 0.0, SA)
+
+
 def _saline(SA, t, p_sea):
     """IAPWS-08 saline part at (SA g/kg, t degC, p dbar): enthalpy [J/kg], its T-slope [J/(kg K)], volume [m³/kg].
 
@@ -209,7 +219,7 @@ def seawater_enthalpy_density(t, SA, p_sea, field="temperature", check=True):
         Salinity or pressure out of range, seawater below its freezing point,
         or at or above the boiling point.
     """
-    t, SA, p = np.broadcast_arrays(np.asarray(t, float), np.asarray(SA, float), np.asarray(p_sea, float))
+    t, SA, p = np.broadcast_arrays(np.asarray(t, float), _normal_salinity(SA), np.asarray(p_sea, float))
     shape = t.shape
     t, SA, p = t.ravel(), SA.ravel(), p.ravel()
     if check:  # the cold side and the ranges of salinity and pressure are TEOS-10's at every point
@@ -276,7 +286,7 @@ def seawater_heat_content(t_warm, t_ambient, SA, p_sea, field="temperature"):
     -------
     SeawaterHeat
     """
-    t0, SA0, p0 = (np.asarray(x, float) for x in (t_ambient, SA, p_sea))
+    t0, SA0, p0 = np.asarray(t_ambient, float), _normal_salinity(SA), np.asarray(p_sea, float)
     check_teos10(SA0, t0, p0, "ambient temperature")  # on the inputs as given (often scalars), before broadcasting
     t1 = np.asarray(t_warm, float)
     if np.any(t1 < t0):
