@@ -44,7 +44,7 @@ seed = 5
 [[vent]]
 name = "North spire"
   [[vent.orifice]]
-  temperature = "350 ± 2 degC"
+  exit_temperature = "350 ± 2 degC"
   velocity = "1.0 ± 0.1 m/s"
   diameter = "10 cm"
   size_factor = "@laser scale"
@@ -52,7 +52,7 @@ name = "North spire"
 [[vent]]
 name = "South mound"
   [[vent.orifice]]
-  temperature = "320 degC"
+  exit_temperature = "320 degC"
   velocity = "0.8 ± 0.1 m/s"
   diameter = "6 cm"
   size_factor = "@laser scale"

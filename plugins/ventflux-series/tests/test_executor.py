@@ -41,7 +41,7 @@ def _survey(tmp_path, video: bool) -> Path:
             [[vent]]
             name = "{name}"
               [[vent.orifice]]
-              temperature = "340 ± 3 degC"
+              exit_temperature = "340 ± 3 degC"
               velocity = "1.0 ± 0.2 m/s"
               diameter = "8 ± 0.5 cm"
               size_factor = "@laser"

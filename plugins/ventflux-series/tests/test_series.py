@@ -292,13 +292,13 @@ def test_clips_give_the_video_methods_numbers(tmp_path):
         method = "video-exit-velocity"
         diameter = "10 cm"
         exit_temperature = "320 degC"
-        metres_per_pixel = "4 mm"
+        pixel_size = "4 mm"
         orifice_x = 79.5
         orifice_y = 248
         [[vent]]
         name = "Plume"
         method = "video-velocity-decay"
-        metres_per_pixel = "4 mm"
+        pixel_size = "4 mm"
         orifice_x = 79.5
         orifice_y = 248
         """))

@@ -43,7 +43,7 @@ seed = 5
 [[vent]]
 name = "A"
   [[vent.orifice]]
-  temperature = "350 degC"
+  exit_temperature = "350 degC"
   velocity = "1.0 m/s"
   diameter = "10 cm"
 """

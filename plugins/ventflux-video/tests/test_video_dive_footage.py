@@ -318,7 +318,7 @@ ambient_salinity = 34.6
 [[vent]]
 name = "A"
   [[vent.orifice]]
-  temperature = "350 degC"
+  exit_temperature = "350 degC"
   velocity = "1.0 m/s"
   diameter = "10 cm"
   [vent.video]

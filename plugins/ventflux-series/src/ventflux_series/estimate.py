@@ -258,7 +258,7 @@ def _video(item, vent, draws, site, n, seed):
     from ventflux.plugin_api import SharedDraws
     from ventflux.plugin_api import InputError
 
-    s = np.asarray(draws["metres_per_pixel"], float)
+    s = np.asarray(draws["pixel_size"], float)
     s_nom = float(np.median(s)) if np.ndim(s) else float(s)
     try:
         res = analyze_jet_clip(str(item.path), Q_(s_nom, "m"), vent.orifice_xy,

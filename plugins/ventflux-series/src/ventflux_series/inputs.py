@@ -17,7 +17,7 @@ from .manifest import Manifest, SharedName
 
 #: SI unit each input is handed to the estimators in.
 SI_UNITS = {"diameter": "m", "velocity": "m/s", "temperature_offset": "K", "area": "m^2",
-            "active_fraction": "dimensionless", "exit_temperature": "K", "metres_per_pixel": "m"}
+            "active_fraction": "dimensionless", "exit_temperature": "K", "pixel_size": "m"}
 
 
 def _si(q, key):

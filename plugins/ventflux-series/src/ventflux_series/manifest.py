@@ -8,7 +8,7 @@ Layout::
 
     [series]      name, items (CSV path), draws (default 1000), seed, interval (averaging window of continuous
                   records, default "1 h"), max_unphysical (fraction of draws, default 0.05)
-    [site]        depth | pressure (absolute), latitude, ambient_temperature, ambient_salinity (practical)
+    [site]        depth | absolute_pressure, latitude, ambient_temperature, ambient_salinity (practical)
     [shared]      name = value: inputs referred to as "@name", drawn once per draw for the whole series
     [[vent]]      name, method, and the method's fixed inputs (see ``METHOD_KEYS``)
 
@@ -29,6 +29,7 @@ import pandas as pd
 from ventflux.plugin_api import Collector, InputError
 from ventflux.plugin_api import Uncertain, parse_uncertain
 from ventflux.plugin_api import parse_quantity
+from ventflux.plugin_api import renamed_key, warn_deprecated
 
 #: The methods an item can be estimated by, with what each needs (key: (dimension, required)).
 METHOD_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
@@ -40,9 +41,9 @@ METHOD_KEYS: dict[str, dict[str, tuple[str, bool]]] = {
                       "velocity": ("velocity", True)},
     # Dive or observatory clips of a jet: exit velocity from video, fixed orifice and exit temperature.
     "video-exit-velocity": {"diameter": ("length", True), "exit_temperature": ("temperature", True),
-                            "metres_per_pixel": ("length", True)},
+                            "pixel_size": ("length", True)},
     # Clips of a buoyant plume: buoyancy flux from the decay of the centreline velocity with height.
-    "video-velocity-decay": {"metres_per_pixel": ("length", True)},
+    "video-velocity-decay": {"pixel_size": ("length", True)},
 }
 #: Keys every vent may carry whatever its method.
 COMMON_KEYS = {"name", "method", "orifice_x", "orifice_y"}
@@ -198,16 +199,29 @@ def _guess_dimension(text: str) -> str:
     return "dimensionless"
 
 
+def _current_name(table: str, key: str, where: str) -> str:
+    """A key's name in the one vocabulary; an old spelling is read with one deprecation line."""
+    new = renamed_key(table, key)
+    if new is None:
+        return key
+    warn_deprecated(f"{where}.{key}", f"{where}.{new}")
+    return new
+
+
 def _read_site(table, errors) -> dict:
     if table is None:
-        errors.add(InputError("site", "(missing)", "a [site] table with depth or pressure and ambient_temperature"))
+        errors.add(InputError("site", "(missing)", "a [site] table with depth or absolute_pressure and "
+                                                   "ambient_temperature"))
         return {}
     site: dict = {}
-    allowed = {"depth": "length", "pressure": "pressure", "ambient_temperature": "temperature"}
+    allowed = {"depth": "length", "absolute_pressure": "pressure", "ambient_temperature": "temperature"}
     for key, raw in table.items():
+        key = _current_name("site", key, "site")
         if key in allowed:
             with errors.check():
-                site[key] = parse_quantity(raw, allowed[key], f"site.{key}")
+                # held as "pressure" (absolute) inside the plugin, as in_situ_pressure takes it
+                site["pressure" if key == "absolute_pressure" else key] = parse_quantity(raw, allowed[key],
+                                                                                       f"site.{key}")
         elif key in ("latitude", "ambient_salinity"):
             lo, hi = (-90, 90) if key == "latitude" else (0, 42)
             if not isinstance(raw, (int, float)) or isinstance(raw, bool) or not lo <= raw <= hi:
@@ -215,11 +229,12 @@ def _read_site(table, errors) -> dict:
             else:
                 site[key] = float(raw)
         else:
-            errors.add(InputError(f"site.{key}", raw, "a known key: depth, pressure, latitude, ambient_temperature, "
+            errors.add(InputError(f"site.{key}", raw, "a known key: depth, absolute_pressure, latitude, "
+                                                        "ambient_temperature, "
                                                         "ambient_salinity"))
     if ("depth" in site) == ("pressure" in site) and not errors.errors:
         errors.add(InputError("site.depth", "(missing)" if "depth" not in site else site["depth"],
-                              "either depth or pressure (absolute), not both"))
+                              "either depth or absolute_pressure, not both"))
     if "ambient_temperature" not in table:
         errors.add(InputError("site.ambient_temperature", "(missing)", "the in-situ ambient temperature"))
     site.setdefault("ambient_salinity", 35.0)
@@ -240,6 +255,7 @@ def _read_vent(table, where, shared, errors) -> VentSettings | None:
     keys = METHOD_KEYS[method]
     inputs = {}
     for key, raw in table.items():
+        key = _current_name("vent", key, where)
         if key in COMMON_KEYS:
             continue
         if key not in keys:
