@@ -327,3 +327,21 @@ def test_clips_give_the_video_methods_numbers(tmp_path):
     # The plume constant's published range alone (uniform 3.85-4.7, F ∝ k^-3) spreads the power by > 1.3x.
     assert plume.p95_W[0] / plume.p05_W[0] > 1.3
     assert jet.times[0] > np.datetime64("2026-05-01T10:00:00")  # the clip's middle, not its start
+
+
+def test_old_manifest_spellings_are_read_with_a_deprecation_line(capsys):
+    # ventflux.vocabulary: site 'pressure' is now 'absolute_pressure'; 'metres_per_pixel' is now 'pixel_size'.
+    from ventflux_series.manifest import _read_site, _read_vent
+
+    from ventflux.plugin_api import Collector
+
+    errs = Collector()
+    site = _read_site({"pressure": "25 MPa", "ambient_temperature": "2 degC"}, errs)
+    vent = _read_vent({"name": "A", "method": "video-velocity-decay", "metres_per_pixel": "4 mm",
+                       "orifice_x": 10, "orifice_y": 20}, "vent[0]", {}, errs)
+    assert not errs.errors
+    assert site["pressure"].to("MPa").magnitude == 25
+    assert "pixel_size" in vent.inputs
+    err = capsys.readouterr().err
+    assert "'site.pressure' is deprecated; use 'site.absolute_pressure'" in err
+    assert "metres_per_pixel' is deprecated" in err and "pixel_size" in err

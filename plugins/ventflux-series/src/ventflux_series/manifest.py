@@ -264,8 +264,9 @@ def _read_vent(table, where, shared, errors) -> VentSettings | None:
         value = _value(raw, keys[key][0], f"{where}.{key}", shared, errors)
         if value is not None:
             inputs[key] = value
+    given = {renamed_key("vent", k) or k for k in table}  # an old spelling gives its key too
     for key, (_, required) in keys.items():
-        if required and key not in table:
+        if required and key not in given:
             errors.add(InputError(f"{where}.{key}", "(missing)", f"the {key.replace('_', ' ')} ({method})"))
     xy = None
     if method in CLIP_METHODS:
