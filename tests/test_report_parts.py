@@ -197,8 +197,8 @@ def test_vents_with_positions_get_a_site_map(demo):
 def test_every_input_appears_as_written_with_defaults_and_the_command_line(demo):
     spec, _, _ = demo
     rows = {r["key"]: r for r in input_rows(spec)}
-    assert rows["vent[0].orifice[0].temperature"]["as_written"] == "350 ± 2 degC"
-    assert rows["vent[0].orifice[0].temperature"]["vent"] == "North spire"
+    assert rows["vent[0].orifice[0].exit_temperature"]["as_written"] == "350 ± 2 degC"
+    assert rows["vent[0].orifice[0].exit_temperature"]["vent"] == "North spire"
     assert rows["vent[1].orifice[0].size_factor"]["as_written"] == "@laser scale"
     assert rows["shared.laser scale"]["source"].startswith("survey file, shared")
     assert rows["site.latitude"]["as_written"] == "10.0"

@@ -31,8 +31,8 @@ def resistance_figure(res: PenetrationResult, path):
     atomic_write_bytes(path, resistance_png(res))
 
 
-def resistance_png(res: PenetrationResult) -> bytes:
-    """Equilibrium temperature against cumulative thermal resistance, with the fitted line and residuals (PNG)."""
+def resistance_plot(res: PenetrationResult):
+    """Equilibrium temperature against cumulative thermal resistance, with the fitted line and residuals ."""
     fig, (ax, axr) = plt.subplots(1, 2, figsize=(8, 4.5), gridspec_kw={"width_ratios": [3, 1]}, sharey=True)
     T = res.equilibrium_temperature - 273.15
     R = res.resistance
@@ -50,7 +50,12 @@ def resistance_png(res: PenetrationResult) -> bytes:
     axr.set_xlabel("residual [mK]")
     fig.suptitle(f"{Path(res.record).name}{' ' + res.label if res.label else ''} ({res.method})")
     fig.tight_layout()
-    return _png(fig)
+    return fig
+
+
+def resistance_png(res: PenetrationResult) -> bytes:
+    """``resistance_plot`` as PNG bytes (for a figures folder of the command line)."""
+    return _png(resistance_plot(res))
 
 
 def decay_figure(res: PenetrationResult, path, probe: ProbeConstants | None = None):
@@ -113,7 +118,7 @@ def transect_figure(station, path):
     atomic_write_bytes(path, transect_png(station))
 
 
-def transect_png(station) -> bytes:
+def transect_plot(station):
     """Heat flow ± total uncertainty along the transect (distance from navigation, else time), PNG."""
     res = station.results
     fig, ax = plt.subplots(figsize=(8, 4))
@@ -134,4 +139,9 @@ def transect_png(station) -> bytes:
     ax.legend(fontsize=8)
     ax.set_title(f"{Path(station.record).name}: heat flow along the transect")
     fig.tight_layout()
-    return _png(fig)
+    return fig
+
+
+def transect_png(station) -> bytes:
+    """``transect_plot`` as PNG bytes (for a figures folder of the command line)."""
+    return _png(transect_plot(station))

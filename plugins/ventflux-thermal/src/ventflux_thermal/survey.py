@@ -236,13 +236,13 @@ def _estimate(spec, ctx):
 
 
 def _figures(results, stations):
-    """Temperature against thermal resistance for each penetration, and each station's transect, as PNG bytes."""
-    from .figures import resistance_png, transect_png
+    """Temperature against thermal resistance for each penetration, and each station's transect (matplotlib figures)."""
+    from .figures import resistance_plot, transect_plot
 
-    out = [(f"{Path(r.record).stem}{'_' + r.label if r.label else ''}_resistance", resistance_png(r),
+    out = [(f"{Path(r.record).stem}{'_' + r.label if r.label else ''}_resistance", resistance_plot(r),
             f"{_name(r)}: equilibrium temperature against cumulative thermal resistance; the slope is the heat flow "
             "(± total uncertainty, its regression standard error named).") for r in results]
-    out += [(f"{Path(s.record).stem}_transect", transect_png(s), f"{Path(s.record).name}: heat flow ± total "
+    out += [(f"{Path(s.record).stem}_transect", transect_plot(s), f"{Path(s.record).name}: heat flow ± total "
              "uncertainty along the transect.") for s in stations if s.results]
     return out
 

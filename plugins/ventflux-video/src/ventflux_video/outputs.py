@@ -96,7 +96,12 @@ def field_figure(mean_field, metres_per_pixel, orifice_xy=None):
 
 
 def profile_figure(profile, fit=None, exit_velocity=None, exit_velocity_sd=None):
-    """PNG bytes: centreline ``w(z)`` with its spread, the plume fit and the exit velocity."""
+    """PNG bytes of ``profile_plot`` (for the command line's output folder)."""
+    return _png(profile_plot(profile, fit, exit_velocity, exit_velocity_sd), _figure())
+
+
+def profile_plot(profile, fit=None, exit_velocity=None, exit_velocity_sd=None):
+    """A matplotlib figure: centreline ``w(z)`` with its spread, the plume fit and the exit velocity."""
     from .plume import plume_centreline_speed
 
     plt = _figure()
@@ -121,7 +126,8 @@ def profile_figure(profile, fit=None, exit_velocity=None, exit_velocity_sd=None)
     ax.set_title("Centreline velocity against height above the orifice", fontsize=9)
     ax.legend(fontsize=8)
     ax.grid(alpha=0.3)
-    return _png(fig, plt)
+    fig.tight_layout()
+    return fig
 
 
 def _png(fig, plt):

@@ -127,9 +127,9 @@ def _estimate(spec, vent, ctx):
     row.update({f"heat_power_sd_{part} [%]": 100 * share["buoyancy_flux"] for part, share in mc.parts.items()})
     figs = []
     try:
-        from .outputs import profile_figure
+        from .outputs import profile_plot
 
-        fig = profile_figure(res.profile, res.plume, res.exit_velocity, res.exit_velocity_sd)
+        fig = profile_plot(res.profile, res.plume, res.exit_velocity, res.exit_velocity_sd)
         figs.append(("video_profile", fig, f"{vent}: centreline velocity against height on video, with the "
                                            "pure-plume fit w = k (F/(z − z0))^(1/3)."))
     except Exception:  # noqa: BLE001 - a figure must not sink the run

@@ -142,11 +142,11 @@ def run(args) -> int:
                                                             for r in res.rows()]
         write_output("--out", args.out, atomic_write_text, args.out, _csv(table))
     if args.figures:
-        from .figures import section_figures
+        from .figures import _png, section_figures
 
         folder = Path(args.figures)
         write_output("--figures", folder, lambda: folder.mkdir(parents=True, exist_ok=True))
-        figs = [fig for res, p in zip(a.results, per) for fig in section_figures(res, p)]
+        figs = [(stem, _png(fig), cap) for res, p in zip(a.results, per) for stem, fig, cap in section_figures(res, p)]
         if a.box is not None:
             from .figures import box_png
 

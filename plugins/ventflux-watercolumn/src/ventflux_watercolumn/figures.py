@@ -26,7 +26,7 @@ def _plt():
     return plt
 
 
-def section_png(res) -> bytes:
+def section_plot(res):
     """Δθ on the section (distance × depth, binned per profile) with the detected layer outlined."""
     plt = _plt()
     fig, ax = plt.subplots(figsize=(8, 4.5))
@@ -50,10 +50,15 @@ def section_png(res) -> bytes:
     ax.legend(loc="lower right", fontsize=8)
     ax.set_title(f"{Path(res.source).name}: potential-temperature anomaly")
     fig.tight_layout()
-    return _png(fig)
+    return fig
 
 
-def profiles_png(res) -> bytes:
+def section_png(res) -> bytes:
+    """``section_plot`` as PNG bytes (for a figures folder of the command line)."""
+    return _png(section_plot(res))
+
+
+def profiles_plot(res):
     """θ against σ₀ with the background fit, and Δθ against depth for every profile (layer profiles dark)."""
     plt = _plt()
     optical = res.optical_grid is not None
@@ -84,13 +89,20 @@ def profiles_png(res) -> bytes:
         a3.axvline(res.factor * res.optical_noise, color="k", ls="--", lw=0.8,
                    label=f"{res.factor:g} × noise ({res.optical_noise:.2g})")
         a3.invert_yaxis()
-        a3.set_xlabel(f"optical anomaly (background {res.optical_background:.3g})")
+        # the optical sensor's own linear units (backscatter or turbidity), as recorded in the file
+        a3.set_xlabel(f"optical anomaly [sensor units] (background {res.optical_background:.3g})")
         a3.legend(fontsize=8)
+    fig.suptitle(f"{Path(res.source).name}: background fit and anomaly profiles")
     fig.tight_layout()
-    return _png(fig)
+    return fig
 
 
-def flux_png(out) -> bytes:
+def profiles_png(res) -> bytes:
+    """``profiles_plot`` as PNG bytes (for a figures folder of the command line)."""
+    return _png(profiles_plot(res))
+
+
+def flux_plot(out):
     """The heat flux's draws with its 90 % interval and the parts of its spread."""
     plt = _plt()
     fig, ax = plt.subplots(figsize=(7, 3.5))
@@ -104,26 +116,31 @@ def flux_png(out) -> bytes:
     ax.set_xlabel("heat flux across the section [MW]")
     ax.set_yticks([])
     fig.tight_layout()
-    return _png(fig)
+    return fig
+
+
+def flux_png(out) -> bytes:
+    """``flux_plot`` as PNG bytes (for a figures folder of the command line)."""
+    return _png(flux_plot(out))
 
 
 def section_figures(res, out) -> list:
-    """``(stem, PNG bytes, caption)`` for the survey report."""
+    """``(stem, matplotlib figure, caption)`` for the survey report (it writes SVG and PNG)."""
     name = Path(res.source).stem
-    figs = [(f"{name}_dtheta", section_png(res), (f"{name}: Δθ along the section, the detected layer outlined "
+    figs = [(f"{name}_dtheta", section_plot(res), (f"{name}: Δθ along the section, the detected layer outlined "
                                                   "(top and bottom) and its core marked; shaded: the band "
                                                   "integrated for the heat flux.")),
-            (f"{name}_profiles", profiles_png(res), (f"{name}: θ against σ₀ with the background fit, and Δθ "
+            (f"{name}_profiles", profiles_plot(res), (f"{name}: θ against σ₀ with the background fit, and Δθ "
                                                      "profiles (profiles with a layer in red) against the "
                                                      "detection threshold; the optical anomaly beside, if "
                                                      "recorded."))]
     if np.isfinite(out.heat_flux).any():
-        figs.append((f"{name}_heat_flux", flux_png(out), (f"{name}: draws of the heat flux across the section "
+        figs.append((f"{name}_heat_flux", flux_plot(out), (f"{name}: draws of the heat flux across the section "
                                                           "with its median and 90 % interval.")))
     return figs
 
 
-def box_png(a, per, out) -> bytes:
+def box_plot(a, per, out):
     """Plan view of a closed box: each side's profiles, its outward normal and the heat flux out through it."""
     plt = _plt()
     fig, ax = plt.subplots(figsize=(6.5, 6))
@@ -145,4 +162,9 @@ def box_png(a, per, out) -> bytes:
     ax.set_xlabel("east [m]")
     ax.set_ylabel("north [m]")
     fig.tight_layout()
-    return _png(fig)
+    return fig
+
+
+def box_png(a, per, out) -> bytes:
+    """``box_plot`` as PNG bytes (for a figures folder of the command line)."""
+    return _png(box_plot(a, per, out))

@@ -286,9 +286,9 @@ def _estimate(spec, ctx):
     if a.box is None:
         figures = section_figures(res, per[0])
     else:
-        from .figures import box_png
+        from .figures import box_plot
 
-        figures = [("water_column_box", box_png(a, per, out), "Closed box in plan: each side's profiles, its "
+        figures = [("water_column_box", box_plot(a, per, out), "Closed box in plan: each side's profiles, its "
                     "outward normal and the heat flux out through it; the net flux with its 90 % interval.")]
         figures += [fig for i, (r, p) in enumerate(zip(a.results, per))
                     for fig in _prefixed(section_figures(r, p), i + 1)]
