@@ -312,3 +312,21 @@ def test_netcdf_draws_must_be_true_or_false(tmp_path):
     (tmp_path / "s.toml").write_text(SURVEY.format(netcdf_draws='"yes"'), encoding="utf-8")
     with pytest.raises((InputError, InputErrors), match="netcdf_draws"):
         vf.Survey.from_file(tmp_path / "s.toml")
+
+
+@pytest.mark.parametrize("call, argument", [
+    (lambda: vf.orifice_discharge(Q_(350, "degC"), Q_(1.4, "m"), Q_(10, "cm"), depth=Q_(2500, "m"),
+                                  ambient_temperature=Q_(2, "degC")), "velocity"),
+    (lambda: vf.orifice_discharge(Q_(350, "degC"), Q_(1.4, "m/s"), 0.1, depth=Q_(2500, "m"),
+                                  ambient_temperature=Q_(2, "degC")), "diameter"),
+    (lambda: vf.diffuse_discharge(Q_(10, "m"), 0.4, Q_(3, "K"), Q_(1, "cm/s"), Q_(2, "degC"), 34.6,
+                                  Q_(25, "MPa")), "area"),
+    (lambda: vf.reservoir_heat(Q_(800, "K"), volume=Q_(1, "km^2")), "volume"),
+    (lambda: vf.reservoir_lifetime(Q_(100, "MJ"), Q_(1e18, "J")), "power"),
+])
+def test_public_estimators_refuse_a_wrong_dimension_by_argument_name(call, argument):
+    # One decorator (ventflux.units.check_units) guards the public estimators: a wrong dimension or a bare number
+    # is one InputError naming the argument.
+    with pytest.raises(InputError) as err:
+        call()
+    assert err.value.field == argument

@@ -68,7 +68,7 @@ from .uncertainty import (
     from_mean_sd,
     propagate,
 )
-from .units import Q_, magnitude, require_dimension, ureg
+from .units import Q_, check_units, magnitude, require_dimension, ureg
 
 __all__ = [
     "DiffuseDischarge",
@@ -239,6 +239,8 @@ def check_patch_inputs(area, active_fraction, temperature_anomaly, velocity, nam
     c.raise_if_any()
 
 
+@check_units(area="area", active_fraction="dimensionless", temperature_anomaly="temperature", velocity="velocity",
+             ambient_temperature="temperature", ambient_salinity="dimensionless", pressure="pressure")
 def diffuse_discharge(area, active_fraction, temperature_anomaly, velocity, ambient_temperature,
                       ambient_salinity, pressure, *, check=True, names=None) -> DiffuseDischarge:
     """Heat power and volume flux of diffuse-flow patches.

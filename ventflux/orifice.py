@@ -50,7 +50,7 @@ from .uncertainty import (
     propagate,
     summarize,
 )
-from .units import Q_, magnitude, require_dimension
+from .units import Q_, check_units, magnitude, require_dimension
 
 # SHORTCUT_HEAT_CAPACITY (TEOS-10's c_p0 [2]) and the shortcut itself are defined once, in
 # ventflux.properties.heat, for every estimator.
@@ -214,6 +214,9 @@ def in_situ_pressure(pressure=None, depth=None, latitude=None):
     return pressure_from_depth(depth, latitude)
 
 
+@check_units(temperature="temperature", velocity="velocity", diameter="length", area="area",
+             minor_diameter="length", pressure="pressure", depth="length", ambient_temperature="temperature",
+             ambient_salinity="dimensionless")
 def orifice_discharge(temperature, velocity, diameter=None, *, area=None, minor_diameter=None,
                       pressure=None, depth=None, latitude=None, longitude=None,
                       ambient_temperature, ambient_salinity=DEFAULT_AMBIENT_SALINITY,

@@ -82,7 +82,7 @@ import numpy as np
 
 from .diffuse import temperature_difference
 from .errors import InputError
-from .units import Q_, magnitude
+from .units import Q_, check_units, magnitude
 
 # Defaults, sources in the module notes ("Defaults").
 #: Basaltic and gabbroic crust [1] (from memory).
@@ -279,6 +279,9 @@ def pore_fluid_heat_density(temperature, temperature_drop, pressure, model=None)
     return Q_(rho * (h0 - h1), "J/m^3")
 
 
+@check_units(temperature_drop="temperature", volume="volume", area="area", thickness="length",
+             temperature="temperature", pressure="pressure", melt_volume="volume", depth_below_seafloor="length",
+             seafloor_pressure="pressure")
 def reservoir_heat(temperature_drop, volume=None, area=None, thickness=None, rock_density=ROCK_DENSITY,
                    rock_heat_capacity=ROCK_HEAT_CAPACITY, porosity=POROSITY, temperature=None, pressure=None,
                    melt_volume=None, latent_heat=LATENT_HEAT, melt_density=MELT_DENSITY, model=None,
@@ -404,6 +407,7 @@ def conductive_length(heat, size=None, cooled_faces=1):
     return Q_(np.cbrt(heat.volume.to("m^3").magnitude), "m"), "cube root of the volume (an equant body)"
 
 
+@check_units(power="power", size="length", diffusivity="diffusivity")
 def reservoir_lifetime(power, heat, size=None, diffusivity=THERMAL_DIFFUSIVITY, fraction=SPENT_FRACTION,
                        cooled_faces=1):
     """Heat-mining, decline and conductive timescales side by side, with the controlling one.
