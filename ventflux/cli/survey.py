@@ -78,7 +78,12 @@ def run(args) -> int:
         raise InputError("survey", "(missing)", "the path of a survey file (see 'ventflux survey --format')")
     if args.draws is not None and args.draws < 100:
         raise InputError("--draws", args.draws, "at least 100 draws for a survey")
-    spec = load_survey(args.survey)
+    mu = None
+    if args.max_unphysical is not None:
+        from ..uncertainty import check_max_unphysical
+
+        mu = check_max_unphysical(args.max_unphysical, "--max-unphysical")
+    spec = load_survey(args.survey, draws=args.draws, seed=args.seed, max_unphysical=mu)
     if args.draws is not None:
         from ..resources import check_memory
         from ..survey.spec import _series

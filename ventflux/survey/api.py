@@ -17,7 +17,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Callable
 
-from ..uncertainty import SharedDraws, UnphysicalPolicy
+from ..uncertainty import DEFAULT_DRAWS, DEFAULT_MAX_UNPHYSICAL, DEFAULT_SEED, SharedDraws, UnphysicalPolicy
 
 if TYPE_CHECKING:
     import numpy as np
@@ -115,6 +115,11 @@ class ParseContext:
     site: SiteSpec | None
     input_files: dict  # path -> role, every file the survey reads (for hashing)
     warnings: Any = None  # the run's Warnings: exclusions a parser counts (dropped samples) are recorded there
+    #: The run's Monte Carlo settings (``[run]`` or the command line): a parser that draws while reading uses them,
+    #: so that ``--check`` and the run agree on what is refused.
+    draws: int = DEFAULT_DRAWS
+    seed: int = DEFAULT_SEED
+    max_unphysical: float = DEFAULT_MAX_UNPHYSICAL
 
 
 @dataclass

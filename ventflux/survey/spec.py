@@ -201,13 +201,17 @@ def survey_schema():
     return table("", "a survey file", [SITE_TABLE, RUN_TABLE, SHARED_TABLE, vent, *section_tables, RESERVOIR_TABLE])
 
 
-def load_survey(path) -> SurveySpec:
+def load_survey(path, *, draws=None, seed=None, max_unphysical=None) -> SurveySpec:
     """Read and validate a survey file; raise ``InputErrors`` listing every problem.
 
     Parameters
     ----------
     path : path-like
         The TOML file; relative paths inside it are relative to its folder.
+    draws, seed, max_unphysical : optional
+        The command line's overrides of ``[run]`` (already validated). Parsers
+        that run a Monte Carlo while reading (the probe reduction) use the
+        run's settings, so that ``--check`` refuses exactly what the run would.
 
     Returns
     -------
@@ -233,7 +237,7 @@ def load_survey(path) -> SurveySpec:
 
     allowed = allow is True or implausible_allowed()
     with allowing_implausible(allowed):
-        spec = _load(raw, path, where)
+        spec = _load(raw, path, where, {"draws": draws, "seed": seed, "max_unphysical": max_unphysical})
     spec.allow_implausible = allowed
     if allowed:
         spec.warnings.add("run.allow_implausible", "values outside the plausibility limits are accepted "
@@ -263,7 +267,7 @@ def _strings(node, path):
         yield path, node
 
 
-def _load(raw: dict, path: Path, where: str) -> SurveySpec:
+def _load(raw: dict, path: Path, where: str, overrides: dict | None = None) -> SurveySpec:
     errs = Collector()
     warnings = Warnings()
     defaults: dict = {}
@@ -313,8 +317,13 @@ def _load(raw: dict, path: Path, where: str) -> SurveySpec:
     if run is None:
         defaults["run.draws"] = str(DEFAULT_DRAWS)
 
+    given = {k: v for k, v in (overrides or {}).items() if v is not None}  # the command line wins over [run]
+    draws, seed = given.get("draws", draws), given.get("seed", seed)
+    max_unphysical = given.get("max_unphysical", max_unphysical)
     methods, sections = survey_components()
-    ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files, warnings=warnings)
+    ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files, warnings=warnings,
+                       draws=int(draws or DEFAULT_DRAWS), seed=int(seed),
+                       max_unphysical=float(max_unphysical if max_unphysical is not None else DEFAULT_MAX_UNPHYSICAL))
     vents = []
     names = set()
     for vf in top.subs("vent"):

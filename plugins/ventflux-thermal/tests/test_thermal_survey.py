@@ -195,3 +195,17 @@ def test_conductivity_draws_below_the_floor_are_dropped_counted_and_refused_abov
     with pytest.raises(InputError) as err:
         fit_spread("r.csv", "", k, se, teq, model, Draws(20_000, seed=4), max_unphysical=0.01)
     assert "r.csv" in err.value.field and "1.0%" in err.value.allowed
+
+
+def test_probe_reduction_while_reading_uses_the_runs_monte_carlo_settings():
+    # --check reduces the probe records while reading; with the run's draws, seed and limit on impossible draws
+    # (the command line's overrides included) its conductivity-fit Monte Carlo is the one the run redoes, so the
+    # two cannot disagree on what is refused.
+    from pathlib import Path
+
+    from ventflux.survey.spec import load_survey
+
+    demo = Path(__file__).resolve().parents[3] / "examples" / "oskeran-ridge" / "survey.toml"
+    spec = load_survey(demo, draws=500, seed=7, max_unphysical=0.2)
+    mc = spec.sections["sediment_probes"]["results"][0].monte_carlo
+    assert (mc["draws"], mc["seed"], mc["max_unphysical_share"]) == (500, 7, 0.2)

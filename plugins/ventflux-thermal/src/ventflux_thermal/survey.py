@@ -44,6 +44,7 @@ from ventflux.plugin_api import DataColumn, SurveyKey, survey_table
 from ventflux.plugin_api import resolve
 from ventflux.plugin_api import normal, uniform
 from ventflux.plugin_api import Q_
+from ventflux.plugin_api import DEFAULT_DRAWS, DEFAULT_MAX_UNPHYSICAL, DEFAULT_SEED
 
 from .constants import METHODS, PROBE_FIELDS, ProbeConstants
 
@@ -156,16 +157,19 @@ def _parse(f, ctx):
         for err in (e.errors if isinstance(e, InputErrors) else [e]):
             f.error(err.field, err.value, err.allowed)
         probe = None
+    # the run's draws, seed and limit on impossible draws: what the run redraws, --check has already refused
+    run = dict(draws=getattr(ctx, "draws", DEFAULT_DRAWS), seed=getattr(ctx, "seed", DEFAULT_SEED),
+               max_unphysical=getattr(ctx, "max_unphysical", DEFAULT_MAX_UNPHYSICAL))
     if probe is not None:
         for p in paths:
             ctx.input_files[str(p)] = "sediment probe record"
-            _reduce("penetration", p, dict(method=method, probe=probe, exclude_sensors=exclude.get(p.name, ())), f,
-                    results, stations, notes)
+            _reduce("penetration", p, dict(method=method, probe=probe, exclude_sensors=exclude.get(p.name, ()),
+                                           **run), f, results, stations, notes)
         for path, nav, ex in station_specs:
             ctx.input_files[str(path)] = "sediment probe station record"
             if nav is not None:
                 ctx.input_files[str(nav)] = "navigation"
-            _reduce("station", path, dict(method=method, probe=probe, exclude_sensors=ex, navigation=nav), f,
+            _reduce("station", path, dict(method=method, probe=probe, exclude_sensors=ex, navigation=nav, **run), f,
                     results, stations, notes)
     spec["results"], spec["stations"], spec["notes"] = results, stations, notes
     return spec
