@@ -432,15 +432,15 @@ def summary_rows(budget: SurveyBudget) -> list[dict]:
     return rows
 
 
-def write_budget(result, out_dir, images_html) -> str:
+def write_budget(result, out_dir, images_html, renderer=None) -> str:
     """Write ``tables/budget.csv``, ``budget.json`` and the figures into ``out_dir``; return the report section.
 
-    ``images_html(stem, caption, png_bytes)`` renders a figure for the report.
+    ``images_html(stem, caption, svg_bytes)`` renders a figure for the report; ``renderer`` (a
+    ``ventflux.survey.rendering.FigureRenderer``) renders the figures, by default in this process.
     """
     import html
     import json
 
-    import matplotlib.pyplot as plt
     import pandas as pd
 
     mode = getattr(result, "budget_mode", "draws")
@@ -470,11 +470,12 @@ def write_budget(result, out_dir, images_html) -> str:
                                            classes="t")
         parts.append(f"<div class='wrap'>{table}</div>")
     parts += [f"<p>{esc(n)}</p>" for n in b.notes]
-    from .rendering import render_figure
+    from .rendering import FigureRenderer
 
-    for stem, fig, caption in figures(b):
-        png, svg = render_figure(fig)  # PNG at print resolution for the folder, SVG for the report
-        plt.close(fig)
+    r = renderer if renderer is not None else FigureRenderer(workers=0)
+    jobs = [(stem, caption, r.submit(fig)) for stem, fig, caption in figures(b)]
+    for stem, caption, job in jobs:
+        png, svg = job.result()  # PNG at print resolution for the folder, SVG for the report
         (out_dir / "figures" / f"{stem}.png").write_bytes(png)
         parts.append(images_html(stem, caption, svg))
     parts.append("<p>Uncertain inputs and their distributions: " +

@@ -23,7 +23,6 @@ import pandas as pd
 
 from ..errors import InputError
 from ..io import check_results_destination, results_directory, sha256_of
-from .rendering import render_figure
 
 CAUTION = ("These estimates are for scientific analysis. They are not for the operational safety of people or "
            "vehicles near hot fluids: follow the operator's procedures and local codes.")
@@ -381,7 +380,6 @@ def write_results(result, out_dir) -> Path:
     tables = tables_of(result)
     figs = figures_of(result)
     summary = summary_of(result, tables)
-    import matplotlib.pyplot as plt
 
     from . import paper_table
     from .inputs_table import input_rows
@@ -398,24 +396,27 @@ def write_results(result, out_dir) -> Path:
         (tmp / "summary_table.md").write_text(paper_table.markdown(paper, f"Heat and water discharge: "
                                                                           f"{result.spec.site.name}"),
                                               encoding="utf-8")
-        images = []
-        for stem, fig, caption in figs:
-            if isinstance(fig, bytes):  # a method may hand over a finished PNG: shown as it is
-                png = shown = fig
-            else:
-                png, shown = render_figure(fig)
-                plt.close(fig)
-            (tmp / "figures" / f"{stem}.png").write_bytes(png)
-            images.append((stem, caption, shown))
-        (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2, ensure_ascii=False) + "\n",
-                                          encoding="utf-8")
-        # Uncertainty budget: tables/budget.csv, budget.json, its figures and its report section.
         from .budget import write_budget
+        from .netcdf import write_netcdf
+        from .rendering import FigureRenderer
 
-        budget_html = write_budget(result, tmp, _figure)
-        from .netcdf import write_netcdf  # results.nc: the whole result in one netCDF file
-
-        write_netcdf(result, tmp / "results.nc", draws=getattr(result.spec, "netcdf_draws", False))
+        with FigureRenderer() as renderer:
+            # figures render in worker processes while this one writes the netCDF file and the budget
+            pending = []
+            for stem, fig, caption in figs:
+                # a method may hand over a finished PNG: shown as it is
+                pending.append((stem, caption, fig if isinstance(fig, bytes) else renderer.submit(fig)))
+            (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2, ensure_ascii=False) + "\n",
+                                              encoding="utf-8")
+            # results.nc: the whole result in one netCDF file
+            write_netcdf(result, tmp / "results.nc", draws=getattr(result.spec, "netcdf_draws", False))
+            # Uncertainty budget: tables/budget.csv, budget.json, its figures and its report section.
+            budget_html = write_budget(result, tmp, _figure, renderer)
+            images = []
+            for stem, caption, job in pending:
+                png, shown = (job, job) if isinstance(job, bytes) else job.result()
+                (tmp / "figures" / f"{stem}.png").write_bytes(png)
+                images.append((stem, caption, shown))
         (tmp / "report.html").write_text(_html(result, tables, images, summary, budget_html, paper, inputs),
                                          encoding="utf-8")
     return out_dir / "report.html"

@@ -210,7 +210,12 @@ def mean_field_of_clip(stream, mode="correlation", passes=(64, 32, 32), overlap=
     from .tracking import mean_tracked_field
 
     if mode == "correlation":
-        return mean_displacement_field(stream, passes, overlap, gap, pairs, background)
+        from .correlation import release_threads
+
+        try:
+            return mean_displacement_field(stream, passes, overlap, gap, pairs, background)
+        finally:
+            release_threads()
     if mode == "tracking":
         check_passes(passes, overlap)
         return mean_tracked_field(stream, cell=passes[-1], overlap=overlap, gap=gap, pairs=pairs,

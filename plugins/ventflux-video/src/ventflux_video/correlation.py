@@ -298,6 +298,20 @@ def _map_chunks(fn, n, size):
     return list(_POOL[2].map(fn, chunks))
 
 
+def release_threads():
+    """Stop the correlation's worker threads (made again on next use).
+
+    Called once a clip is done, so that a process that has finished its video
+    is single-threaded again (the survey's figure workers are forked only from
+    a single-threaded process).
+    """
+    global _POOL
+    if _POOL is not None:
+        pool, _POOL = _POOL, None
+        if pool[1] == os.getpid():
+            pool[2].shutdown(wait=True)
+
+
 def _correlate_pass(frame_a, frame_b, top_a, left_a, top_b, left_b, window, shift=None):
     """Peak displacement and ratio for windows of ``frame_a`` and ``frame_b`` at the given corners.
 

@@ -230,6 +230,7 @@ class FrameStream:
     def __iter__(self):
         from tqdm import tqdm
 
+        tqdm.monitor_interval = 0  # no monitor thread: the bar is updated every frame, and a caller may fork later
         bar = tqdm(total=self.expected_frames, disable=not self.progress, unit="frame", file=sys.stderr,
                    desc=Path(self.source).name, leave=False)
         try:

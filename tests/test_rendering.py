@@ -1,0 +1,64 @@
+"""Figures rendered in worker processes are the figures rendered here (``ventflux.survey.rendering``)."""
+
+import re
+import threading
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+import pytest  # noqa: E402
+
+from ventflux.survey.rendering import FigureRenderer, render_figure  # noqa: E402
+
+
+def _figure(k):
+    fig, ax = plt.subplots(figsize=(4, 3))
+    x = np.linspace(0.0, 1.0, 50)
+    ax.plot(x, x ** (k + 1), label=f"power {k + 1}")
+    ax.set_title(f"figure {k}")
+    ax.legend()
+    return fig
+
+
+def _content(svg: bytes):
+    # the texts and the sequence of element kinds; matplotlib names clip paths by a hash of object addresses
+    # and places a tick label by metrics it caches per process, so identifiers and coordinates may differ
+    return re.findall(rb">([^<>]+)<", svg), re.findall(rb"<([a-z]+)", svg)
+
+
+def test_worker_processes_render_the_same_bytes_as_the_caller():
+    here = [render_figure(_figure(k)) for k in range(3)]
+    with FigureRenderer(workers=2) as r:
+        if r.workers == 0:
+            pytest.skip("this process has other threads: the renderer renders here (checked below)")
+        jobs = [r.submit(_figure(k)) for k in range(3)]
+    away = [j.result() for j in jobs]
+    assert [a[0] for a in away] == [h[0] for h in here]  # PNG
+    assert [_content(a[1]) for a in away] == [_content(h[1]) for h in here]  # SVG: same elements and texts
+    assert away[0][0][:8] == b"\x89PNG\r\n\x1a\n" and away[0][1].lstrip().startswith(b"<?xml")
+
+
+def test_a_process_with_other_threads_renders_its_figures_itself():
+    # a fork would copy the other thread's locks without the thread: no workers then
+    stop = threading.Event()
+    t = threading.Thread(target=stop.wait)
+    t.start()
+    try:
+        r = FigureRenderer(workers=2)
+        assert r.workers == 0
+        with r:
+            png, svg = r.submit(_figure(0)).result()
+        assert png == render_figure(_figure(0))[0]
+    finally:
+        stop.set()
+        t.join()
+
+
+def test_a_submitted_figure_is_closed_in_the_caller():
+    fig = _figure(1)
+    with FigureRenderer(workers=0) as r:
+        r.submit(fig).result()
+    assert not plt.fignum_exists(fig.number)
+
