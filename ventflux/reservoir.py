@@ -84,6 +84,11 @@ from .diffuse import temperature_difference
 from .errors import InputError
 from .units import Q_, check_units, magnitude
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    import pint
+
 # Defaults, sources in the module notes ("Defaults").
 #: Basaltic and gabbroic crust [1] (from memory).
 ROCK_DENSITY = Q_(2900.0, "kg/m^3")
@@ -118,13 +123,13 @@ from .presentation import Presentable  # noqa: E402 - the one presentation of re
 class ReservoirHeat(Presentable):
     """Extractable heat of a reservoir, by part (quantities in J)."""
 
-    total: object
-    rock: object
-    pore_fluid: object
-    latent: object
-    volume: object
-    area: object = None  # given with a thickness (a sheet), else None
-    thickness: object = None
+    total: pint.Quantity
+    rock: pint.Quantity
+    pore_fluid: pint.Quantity
+    latent: pint.Quantity
+    volume: pint.Quantity
+    area: pint.Quantity | None = None  # given with a thickness (a sheet), else None
+    thickness: pint.Quantity | None = None
     pore_fluid_phase: str = ""  # "liquid-like", "vapour-like" or "supercritical" at the initial state
 
 
@@ -133,11 +138,11 @@ class Lifetime(Presentable):
     """How long a reservoir sustains a vent's power, by three measures."""
 
     heat: ReservoirHeat
-    mining_time: object  # E / P at constant power
-    decline_time: object  # time to fall to spent_fraction of P under exponential decline
-    efolding_time: object  # τ = E / P
-    conductive_time: object  # L² / κ
-    size: object  # L used for L²/κ
+    mining_time: pint.Quantity  # E / P at constant power
+    decline_time: pint.Quantity  # time to fall to spent_fraction of P under exponential decline
+    efolding_time: pint.Quantity  # τ = E / P
+    conductive_time: pint.Quantity  # L² / κ
+    size: pint.Quantity  # L used for L²/κ
     controlling: np.ndarray  # "advective decline" or "conductive cooling", per element
     spent_fraction: float
     size_basis: str = ""  # which length L is: given, sheet thickness, half-thickness or cube root

@@ -62,6 +62,11 @@ from .properties.seawater_heat import seawater_heat_content
 from .reservoir import _article
 from .units import Q_, magnitude
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    import pint
+
 # Half-space parameters, the values used in [1] (from memory).
 #: Thermal conductivity of the lithosphere.
 CONDUCTIVITY = Q_(3.3, "W/(m*K)")
@@ -270,17 +275,18 @@ class HeatDeficit:
     """Advective heat loss of a ridge flank inferred from conductive heat flow."""
 
     reference: str
-    age_from: object
-    age_to: object
-    reference_heat: object  # ∫ q_ref dt, J/m²
-    conductive_heat: object  # ∫ q_obs dt, J/m²
-    deficit: object  # J/m², advective heat loss per unit area
-    mean_advective_flux: object  # deficit / age span, mW/m²
-    fraction: object  # deficit / reference heat
-    per_length: object  # W/m of ridge, both flanks, if a spreading rate is given (else None)
-    before_first: object = None  # ∫₀^t₀ q_ref dt, J/m²: the reference's heat loss younger than the first age
-    deficit_from_axis: object = None  # deficit + before_first, J/m² (no conduction before the first age)
-    per_length_from_axis: object = None  # W/m, like per_length, from the axis
+    age_from: pint.Quantity
+    age_to: pint.Quantity
+    reference_heat: pint.Quantity  # ∫ q_ref dt, J/m²
+    conductive_heat: pint.Quantity  # ∫ q_obs dt, J/m²
+    deficit: pint.Quantity  # J/m², advective heat loss per unit area
+    mean_advective_flux: pint.Quantity  # deficit / age span, mW/m²
+    fraction: pint.Quantity  # deficit / reference heat
+    per_length: pint.Quantity  # W/m of ridge, both flanks, if a spreading rate is given (else None)
+    #: ∫₀^t₀ q_ref dt, J/m²: the reference's heat loss younger than the first age
+    before_first: pint.Quantity | None = None
+    deficit_from_axis: pint.Quantity | None = None  # deficit + before_first, J/m² (no conduction before the first age)
+    per_length_from_axis: pint.Quantity | None = None  # W/m, like per_length, from the axis
 
     def span(self, which="observed"):
         """``(deficit, per_length)`` over the observed ages or from the axis (``DEFICIT_SPANS``)."""

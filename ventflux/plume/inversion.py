@@ -30,6 +30,7 @@ References
 from __future__ import annotations
 
 from dataclasses import dataclass, field
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pint
@@ -40,6 +41,9 @@ from ..uncertainty import DEFAULT_SEED, Uncertain, draw_inputs, nominal, summari
 from ..units import Q_, magnitude, require_dimension
 from . import closed_form, integral
 from .source import PlumeSource
+
+if TYPE_CHECKING:
+    from .emulator import ForwardEmulator
 
 METHODS = ("integral", "closed-form")
 LEVELS = closed_form.LEVELS
@@ -64,8 +68,8 @@ EMULATOR_MIN_DRAWS = 1000
 class CurrentProfile:
     """A current that varies with depth: ``speed`` (velocity array) at ``depth`` (length array)."""
 
-    depth: object
-    speed: object
+    depth: pint.Quantity
+    speed: pint.Quantity
 
 
 from ..presentation import Presentable  # noqa: E402 - the one presentation of results (repr, pandas, xarray)
@@ -75,17 +79,17 @@ from ..presentation import Presentable  # noqa: E402 - the one presentation of r
 class PlumeRiseResult(Presentable):
     """Result of either direction; quantities are arrays when drawn (``summary`` then holds the statistics)."""
 
-    heat_power: object
-    buoyancy_flux: object
-    rise_height: object  # maximum rise above the vent
-    spreading_height: object
-    downstream_distance: object  # horizontal distance of the top from the vent (0 without current)
-    spreading_volume_flux: object
-    spreading_dilution: object  # plume volume flux / vent-fluid volume flux (NaN for a pure plume)
-    spreading_anomaly: object  # plume's CT excess over the ambient at the spreading level
+    heat_power: pint.Quantity
+    buoyancy_flux: pint.Quantity
+    rise_height: pint.Quantity  # maximum rise above the vent
+    spreading_height: pint.Quantity
+    downstream_distance: pint.Quantity  # horizontal distance of the top from the vent (0 without current)
+    spreading_volume_flux: pint.Quantity
+    spreading_dilution: pint.Quantity  # plume volume flux / vent-fluid volume flux (NaN for a pure plume)
+    spreading_anomaly: pint.Quantity  # plume's CT excess over the ambient at the spreading level
     level: str
     method: str
-    vent_depth: object
+    vent_depth: pint.Quantity
     column: integral.Column
     draws: int | None = None
     seed: int | None = None
@@ -96,7 +100,7 @@ class PlumeRiseResult(Presentable):
     #: Worst measured interpolation error (in log rise height) of the forward emulator, when the draws were
     #: inverted on one (``ventflux.plume.emulator``); None when every draw was integrated.
     emulator_error: float | None = None
-    _emulator: object = field(default=None, repr=False, compare=False)
+    _emulator: ForwardEmulator | None = field(default=None, repr=False, compare=False)
 
 
 # --------------------------------------------------------------------------- set-up

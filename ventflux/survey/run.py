@@ -75,8 +75,8 @@ class SurveyResult(Presentable):
     #: key of every method and section used → its ``ReportPart`` (titles, tables, order in the report)
     report_parts: dict[str, ReportPart] = field(default_factory=dict)
     # Uncertainty budget (ventflux.survey.budget): the run's draws, its kept draw columns, the budget's mode.
-    draws: object = None
-    keep: object = None
+    draws: SharedDraws | None = None
+    keep: np.ndarray | None = None
     budget_mode: str = "draws"  # what ``ventflux.survey.budget.survey_budget(result)`` does by default
 
 

@@ -30,7 +30,7 @@ import pint
 from ..errors import Collector, InputError, InputErrors, Warnings
 from ..limits import POSITION_BOUNDS
 from ..resources import check_memory
-from ..uncertainty import MAX_SEED
+from ..uncertainty import MAX_SEED, Uncertain
 from ..units import Q_
 from .api import ParseContext
 from .fields import Fields, Position, SharedRef
@@ -127,12 +127,12 @@ RESERVOIR_TABLE = table("reservoir", "a heat-reservoir hypothesis: how long coul
 @dataclass
 class SiteSpec:
     name: str
-    pressure: object
-    depth: object
+    pressure: pint.Quantity | None  # absolute, at the vents' depth
+    depth: pint.Quantity | None
     latitude: float
     longitude: float
-    ambient_temperature: object
-    ambient_salinity: object
+    ambient_temperature: pint.Quantity | Uncertain | None
+    ambient_salinity: pint.Quantity | Uncertain | None
     ctd: Path | None
     ctd_window: pint.Quantity | None
     cruise: str | None = None
@@ -143,7 +143,7 @@ class SiteSpec:
 @dataclass
 class VentSpec:
     name: str
-    exit_temperature: object
+    exit_temperature: pint.Quantity | Uncertain | None
     methods: dict  # method key -> parsed spec (a list for "many" methods)
     #: Where the vent is (``[[vent]] position``): latitude/longitude in degrees or east/north in metres; None if
     #: the file gives none.
@@ -155,7 +155,7 @@ class ReservoirSpec:
     name: str
     supplies: str
     options: dict
-    size: object
+    size: pint.Quantity | Uncertain | None
 
 
 @dataclass
@@ -819,7 +819,7 @@ def _check_plume_solvable(f: Fields, plume, site) -> None:
         return
     except (InputErrors, TypeError, ValueError, AttributeError, ArithmeticError):
         return  # not this check's to report: the inputs' own checks name them
-    power: pint.Quantity = res.heat_power  # type: ignore[assignment]
+    power: pint.Quantity = res.heat_power
     H = np.atleast_1d(np.asarray(power.to("W").magnitude, dtype=float))
     for j in np.flatnonzero(~np.isfinite(H)):
         key, side = points[j]

@@ -29,6 +29,11 @@ from ventflux.plugin_api import Q_, magnitude
 from .correlation import VectorField, check_passes, displacement_field, pattern_width
 from .frames import frame_pairs
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    import pint
+
 #: Frames taken, evenly spread over the clip's range, for the median background (a choice: a median of
 #: 21 values is robust to a tracer on a pixel in up to 10 of them).
 BACKGROUND_FRAMES = 21
@@ -49,7 +54,7 @@ class MeanField:
     pairs: int
     replaced_fraction: float
     snr: np.ndarray  # mean peak ratio (correlation) or NaN (tracking)
-    interval: object  # pint time between the two frames of a pair
+    interval: pint.Quantity  # pint time between the two frames of a pair
     background: np.ndarray | None = None  # a frame of the clip, for figures
     origin: tuple = (0, 0)
     skipped_frames: int = 0

@@ -339,7 +339,8 @@ def run_jet(args) -> int:
     heights = tuple(None if v is None else parse_quantity(v, "length", f) for v, f in
                     ((args.fit_from, "--fit-from"), (args.fit_to, "--fit-to")))
     rate = None if args.frame_rate is None else parse_quantity(args.frame_rate, "frequency", "--frame-rate")
-    draws = SharedDraws(mc_opts.draws, mc_opts.seed)  # validated before the clip is read
+    assert mc_opts.draws is not None  # the video command always draws (validated before the clip is read)
+    draws = SharedDraws(mc_opts.draws, mc_opts.seed)
     show = not args.quiet and sys.stderr.isatty()
     res = analyze_jet_clip(args.clip, mpp, orifice, roi=args.region, ambient_temperature=temp, ambient_salinity=sal,
                            pressure=pressure, latitude=args.latitude, frame_rate=rate,

@@ -46,6 +46,13 @@ from ventflux.plugin_api import Q_, magnitude, parse_quantity
 from .plume import DEFAULT_PLUME_CONSTANT, PlumeFit, buoyancy_flux_from_centreline, heat_power_from_buoyancy_flux
 from .sightline import DEFAULT_VIEW, DEFAULT_WIDTH_RATIO_RANGE, check_view
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    import pint
+
+    from .averaging import MeanField
+
 #: Nominal tracer-to-velocity width ratio: the middle of the default range (sightline).
 DEFAULT_WIDTH_RATIO = 0.5 * sum(DEFAULT_WIDTH_RATIO_RANGE)
 #: A jet narrower than this many windows (full width at half maximum) is flagged (the issue's "about two").
@@ -56,15 +63,15 @@ NARROW_JET_WINDOWS = 2.0
 class CentrelineProfile:
     """Upward centreline velocity by height above the orifice."""
 
-    height: object  # m
-    velocity: object  # m/s, time mean
-    velocity_sd: object  # m/s, sd over frame pairs
-    velocity_se: object  # m/s, standard error of the mean
+    height: pint.Quantity  # m
+    velocity: pint.Quantity  # m/s, time mean
+    velocity_sd: pint.Quantity  # m/s, sd over frame pairs
+    velocity_se: pint.Quantity  # m/s, standard error of the mean
     samples: np.ndarray  # valid pairs at each point
     centre_x: np.ndarray  # column of the centreline, full-frame pixels
-    half_width: object  # m, lateral sd of the upward-velocity profile
+    half_width: pint.Quantity  # m, lateral sd of the upward-velocity profile
     lateral_sd_px: np.ndarray | None = None  # px, Gaussian sd through the 3 values around the centreline
-    apparent_velocity: object = None  # m/s, as measured, before the corrections
+    apparent_velocity: pint.Quantity | None = None  # m/s, as measured, before the corrections
     window_factor: np.ndarray | None = None  # measured over point centreline speed (window averaging)
     sightline_factor: np.ndarray | None = None  # apparent over centreline speed (line of sight; 1 for a sheet)
 
@@ -282,19 +289,19 @@ def plume_buoyancy_flux(profile: CentrelineProfile, heights=None, plume_constant
 class JetAnalysis:
     """Everything ``analyze_jet_clip`` derives from one clip."""
 
-    exit_velocity: object
-    exit_velocity_sd: object
-    buoyancy_flux: object
-    buoyancy_flux_sd: object
-    virtual_origin: object
-    heat_power: object
-    heat_power_sd: object
+    exit_velocity: pint.Quantity
+    exit_velocity_sd: pint.Quantity
+    buoyancy_flux: pint.Quantity
+    buoyancy_flux_sd: pint.Quantity
+    virtual_origin: pint.Quantity
+    heat_power: pint.Quantity | None  # None without an ambient temperature and pressure
+    heat_power_sd: pint.Quantity | None
     plume: PlumeFit
     profile: CentrelineProfile
-    field: object  # MeanField
-    metres_per_pixel: object
+    field: MeanField
+    metres_per_pixel: pint.Quantity
     orifice_xy: tuple
-    frame_rate: object
+    frame_rate: pint.Quantity
     view: str = DEFAULT_VIEW
     width_ratio: float = DEFAULT_WIDTH_RATIO
     flags: tuple = ()

@@ -52,6 +52,11 @@ from scipy.optimize import curve_fit
 from ventflux.plugin_api import InputError
 from ventflux.plugin_api import Q_, magnitude
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    import pint
+
 #: Published range of the centreline velocity constant of pure-plume theory, [3] to [2] (from memory).
 PLUME_CONSTANT_RANGE = (3.85, 4.7)
 #: Nominal k: the middle of the published range.
@@ -90,13 +95,13 @@ def plume_centreline_speed(height, buoyancy_flux, virtual_origin, plume_constant
 class PlumeFit:
     """Buoyancy flux and virtual origin fitted to a centreline profile."""
 
-    buoyancy_flux: object  # m^4/s^3
-    buoyancy_flux_sd: object
-    virtual_origin: object  # m
-    virtual_origin_sd: object
+    buoyancy_flux: pint.Quantity  # m^4/s^3
+    buoyancy_flux_sd: pint.Quantity
+    virtual_origin: pint.Quantity  # m
+    virtual_origin_sd: pint.Quantity
     plume_constant: float
     points: int
-    rms_residual: object  # m/s
+    rms_residual: pint.Quantity  # m/s
 
     def as_dict(self):
         return {

@@ -23,6 +23,11 @@ import numpy as np
 from ventflux.plugin_api import InputError
 from ventflux.plugin_api import Q_, magnitude
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    import pint
+
 
 def _check_length(length, field):
     d = magnitude(length, "m", "length", field)
@@ -113,8 +118,8 @@ def laser_spots(frame, colour="white", smoothing=1.0, min_separation=5):
 class LaserScale:
     """Pixel size from two laser spots over several frames."""
 
-    metres_per_pixel: object  # median over frames
-    sd: object  # standard deviation over frames
+    metres_per_pixel: pint.Quantity  # median over frames
+    sd: pint.Quantity  # standard deviation over frames
     spread: float  # sd / median
     frames_used: int
     colour: str
@@ -153,15 +158,15 @@ def metres_per_pixel_from_laser_spots(frames, separation, max_frames=25, colour=
     LaserScale
     """
     d = _check_length(separation, "--laser-separation")
-    seps = []
+    found: list[float] = []
     for item in frames:
         frame = item[1] if isinstance(item, tuple) else item
         spots = laser_spots(frame, colour)
         if spots is not None:
-            seps.append(float(np.hypot(*(spots[1] - spots[0]))))
-        if len(seps) >= max_frames:
+            found.append(float(np.hypot(*(spots[1] - spots[0]))))
+        if len(found) >= max_frames:
             break
-    seps = np.asarray(seps)
+    seps = np.asarray(found)
     seps = seps[seps > 0]
     if seps.size == 0:
         raise InputError("--laser-separation", f"{separation:~P}",

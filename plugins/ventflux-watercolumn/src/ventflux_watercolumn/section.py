@@ -45,6 +45,11 @@ from .flux import (
 )
 from .layer import bin_edges, bin_profiles, detect_layer
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from .layer import LayerIndices
+
 TRACERS = ("temperature", "optical", "either")
 #: Background window: the samples within this fraction of the band's thickness above and below it (at least
 #: BACKGROUND_MIN_BINS bins). Local enough that a low-degree polynomial follows a curved θ–σ0 relation across the
@@ -76,7 +81,7 @@ class SectionAnalysis:
     optical_background: float | None
     dtheta_grid: np.ndarray  # (P, Z) binned Δθ
     optical_grid: np.ndarray | None
-    layer: object  # LayerIndices
+    layer: LayerIndices
     top_depth: np.ndarray  # (P,) m, NaN without a layer
     core_depth: np.ndarray
     bottom_depth: np.ndarray

@@ -38,6 +38,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:
+    from .box import BoxAnalysis
 
 import numpy as np
 
@@ -152,7 +156,7 @@ class WaterColumnAnalysis:
 
     results: list  # SectionAnalysis, one per section
     names: list
-    box: object | None  # BoxAnalysis
+    box: BoxAnalysis | None
     matches: list | None  # RecordMatch per section (a current record), or None
     notes: list = field(default_factory=list)
 
