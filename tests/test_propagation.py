@@ -291,6 +291,7 @@ def test_survey_max_unphysical_option_overrides_the_file_and_is_recorded(tmp_pat
     assert main(argv + ["--max-unphysical", "0.01"]) == 2
     err = capsys.readouterr().err
     assert "velocity" in err and "1.0%" in err and not out.exists()
+    assert "--max-unphysical" in err and "run.max_unphysical" not in err  # the limit is named where it was set
     assert main(argv + ["--max-unphysical", "0.2"]) == 0
     capsys.readouterr()
     provenance = json.loads((out / "summary.json").read_text())["provenance"]

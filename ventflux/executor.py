@@ -6,10 +6,17 @@ the ``ventflux_executors`` hook (``ventflux-series`` provides Dask: ``local``, `
 ``dask.distributed`` scheduler address). An executor only decides *where* a task runs, never what it computes:
 every task is a deterministic function of its arguments, so the numbers are the same on every executor.
 
-Survey vents (``estimate_vents``) are estimated as one task per vent. Each task draws its inputs through its own
-copy of the run's ``SharedDraws``; the named streams make a name's draws the same in every process, and the
-names a task drew are merged back into the run's ``SharedDraws`` afterwards (a name given two different values
-by two vents is refused there, as in a serial run).
+A survey's estimates (``estimate_survey``) are one task per method of each vent and one per section. Each task
+draws its inputs through its own copy of the run's ``SharedDraws``; the named streams make a name's draws the same
+in every process, and the names a task drew are merged back into the run's ``SharedDraws`` afterwards (a name
+given two different values by two tasks is refused there, as in a serial run).
+
+``"auto"`` (the survey command's default) is ``ForkExecutor`` where it is safe and worth it, else the plain
+loop: worker processes forked from this one, so they start at once with everything already imported and read
+their tasks from memory (nothing is pickled on the way in; results are pickled on the way back). A fork is made
+only from a single-threaded process (a fork copies the locks other threads hold, not the threads that would
+release them), only where the platform forks, with more than one core and more than one task. A task that fails
+in a worker is run again here, so that an error is raised exactly as a serial run raises it.
 """
 
 from __future__ import annotations
@@ -23,6 +30,10 @@ from .errors import InputError
 
 #: The name of the in-process executor.
 SERIAL = "serial"
+#: Forked workers where safe and worth it, else the plain loop (``ForkExecutor.usable``).
+AUTO = "auto"
+#: Worker processes of the forked executor at most (choice made here: these machines have two cores).
+FORK_WORKERS = 2
 
 
 class Executor(Protocol):
@@ -48,6 +59,64 @@ class SerialExecutor:
             if on_done is not None:
                 on_done(i, r)
             out.append(r)
+        return out
+
+
+_FORK_TASKS: list = []  # (fn, args) of the forked executor's current map, inherited by its workers
+
+
+def _run_forked(i: int):
+    fn, args = _FORK_TASKS[i]
+    return fn(*args)
+
+
+class ForkExecutor:
+    """Worker processes forked from this one (see the module notes); ``usable()`` says whether to use it."""
+
+    name = "forked processes"
+
+    def __init__(self, workers: int | None = None):
+        import os
+
+        self.workers = workers or min(FORK_WORKERS, os.cpu_count() or 1)
+
+    @staticmethod
+    def usable(tasks: int) -> bool:
+        import multiprocessing
+        import os
+        import threading
+
+        return (tasks > 1 and (os.cpu_count() or 1) > 1 and threading.active_count() == 1
+                and "fork" in multiprocessing.get_all_start_methods())
+
+    def map(self, fn, arguments, on_done=None):
+        import multiprocessing
+        from concurrent.futures import ProcessPoolExecutor
+
+        if not self.usable(len(arguments)):
+            return SerialExecutor().map(fn, arguments, on_done)
+        _FORK_TASKS[:] = [(fn, a) for a in arguments]
+        out: list = [None] * len(arguments)
+        failed = []
+        try:
+            # with the fork method every worker is forked at the first submit, before the pool starts its thread
+            with ProcessPoolExecutor(min(self.workers, len(arguments)),
+                                     mp_context=multiprocessing.get_context("fork")) as pool:
+                futures = [pool.submit(_run_forked, i) for i in range(len(arguments))]
+                for i, f in enumerate(futures):
+                    try:
+                        out[i] = f.result()
+                    except Exception:  # noqa: BLE001 - rerun here: the error is raised as a serial run raises it
+                        failed.append(i)
+                        continue
+                    if on_done is not None:
+                        on_done(i, out[i])
+        finally:
+            _FORK_TASKS.clear()
+        for i in failed:
+            out[i] = fn(*arguments[i])
+            if on_done is not None:
+                on_done(i, out[i])
         return out
 
 
@@ -92,42 +161,50 @@ def open_executor(where: str | None = None, workers: int | None = None,
     if where is None or where == SERIAL:
         yield SerialExecutor()
         return
+    if where == AUTO:
+        yield ForkExecutor(workers)
+        return
     options = available_executors()
     for info in options:
         if info.accepts(where):
             with info.open(where, workers) as ex:
                 yield ex
             return
-    allowed = "'serial'" + "".join(f"; {e.summary} ({e.provider})" for e in options)
+    allowed = "'auto', 'serial'" + "".join(f"; {e.summary} ({e.provider})" for e in options)
     if not options:
         allowed += " (other executors come with plugins, e.g. ventflux-series for Dask)"
     raise InputError(field, where, allowed)
 
 
-def _vent_task(estimators: dict, parsed: dict, vent_name: str, ctx):
-    """One vent's methods on a copy of the run context; returns the estimates and the names drawn."""
+def _task(estimate: Callable, parsed, vent_name: str | None, ctx):
+    """One method of a vent (``vent_name``) or one section (``None``) on a copy of the run context.
+
+    Returns the estimate and the names it drew that the run had not drawn yet.
+    """
     from .uncertainty import SharedDraws
 
     own = SharedDraws(ctx.draws.n_draws, ctx.draws.seed)
     own._known = dict(ctx.draws._known)
     own._shared = dict(ctx.draws._shared)
     local = replace(ctx, draws=own, progress=_quiet)
-    est = {key: estimators[key](value, vent_name, local) for key, value in parsed.items()}
-    # Only what this vent added travels back (the run's own draws are already on the client).
+    est = estimate(parsed, vent_name, local) if vent_name is not None else estimate(parsed, local)
+    # Only what this task added travels back (the run's own draws are already on the client).
     return (est, {k: v for k, v in own._known.items() if k not in ctx.draws._known},
             {k: v for k, v in own._shared.items() if k not in ctx.draws._shared})
 
 
-def _quiet(msg):  # progress lines from other processes would interleave; the client prints one per vent
+def _quiet(msg):  # progress lines from other processes would interleave; the client prints one per task
     pass
 
 
-def estimate_vents(vents: Sequence, methods: dict, ctx, executor: Executor | None = None) -> list[dict]:
-    """Every vent's method estimates (``{method key: MethodEstimate}`` per vent, in order) on ``executor``.
+def estimate_survey(vents: Sequence, methods: dict, sections_parsed: dict, sections: dict, ctx,
+                    executor: Executor | None = None) -> tuple[list[dict], dict]:
+    """Every vent's method estimates and every section's estimate: ``([{method key: estimate}, …], {key: …})``.
 
-    Serially (the default) each method's ``estimate`` runs here with the run's own context, exactly as a plain
-    loop. On another executor one task per vent runs with a copy of the context; the names it drew are merged
-    into ``ctx.draws`` (same seed and name, same draws: the numbers are identical).
+    Serially (the default) each ``estimate`` runs here with the run's own context, vents first, in the file's
+    order: a plain loop. On another executor each method of each vent and each section is one task with a copy
+    of the context; the names a task drew are merged into ``ctx.draws`` in the same order (same seed and name,
+    same draws: the numbers are identical).
     """
     n = len(vents)
     if executor is None or isinstance(executor, SerialExecutor):
@@ -135,24 +212,39 @@ def estimate_vents(vents: Sequence, methods: dict, ctx, executor: Executor | Non
         for i, v in enumerate(vents, 1):
             ctx.progress(f"vent {i}/{n}: {v.name} ({', '.join(v.methods)})")
             out.append({key: methods[key].estimate(parsed, v.name, ctx) for key, parsed in v.methods.items()})
-        return out
-    args = [({k: methods[k].estimate for k in v.methods}, dict(v.methods), v.name, ctx) for v in vents]
+        sec = {}
+        for key, parsed in sections_parsed.items():
+            ctx.progress(f"section: {key}")
+            sec[key] = sections[key].estimate(parsed, ctx)
+        return out, sec
+    where: list[tuple[int | None, str]] = [(i, key) for i, v in enumerate(vents) for key in v.methods]
+    where += [(None, key) for key in sections_parsed]
+    args = [(methods[key].estimate, vents[vi].methods[key], vents[vi].name, ctx) if vi is not None else
+            (sections[key].estimate, sections_parsed[key], None, ctx) for vi, key in where]
 
-    def done(i, _res):
-        v = vents[i]
-        ctx.progress(f"vent {v.name} ({', '.join(v.methods)}) done on {executor.name}")
+    def done(j, _res):
+        vj, key = where[j]
+        what = f"vent {vents[vj].name}: {key}" if vj is not None else f"section: {key}"
+        ctx.progress(f"{what} done ({executor.name})")
 
-    results = executor.map(_vent_task, args, on_done=done)
-    out = []
-    for est, known, shared in results:
+    ctx.progress(f"estimating {len(vents)} vents and {len(sections_parsed)} sections ({executor.name})")
+    results = executor.map(_task, args, on_done=done)
+    got: list[dict] = [{} for _ in vents]
+    by_section: dict = {}
+    for (vi, key), (est, known, shared) in zip(where, results, strict=True):
         for name, value in known.items():
             ctx.draws._register(name, value)  # refuses a name given two different values, as a serial run does
         for name, value in shared.items():
             ctx.draws._shared.setdefault(name, value)
-        out.append(est)
-    return out
+        if vi is None:
+            by_section[key] = est
+        else:
+            got[vi][key] = est
+    # each vent's methods and the sections in the file's order, as the serial loop makes them
+    return ([{key: got[i][key] for key in v.methods} for i, v in enumerate(vents)],
+            {key: by_section[key] for key in sections_parsed})
 
 
-__all__ = ["SERIAL", "Executor", "ExecutorInfo", "SerialExecutor", "available_executors", "estimate_vents",
-           "open_executor"]
+__all__ = ["AUTO", "SERIAL", "Executor", "ExecutorInfo", "ForkExecutor", "SerialExecutor", "available_executors",
+           "estimate_survey", "open_executor"]
 

@@ -97,7 +97,7 @@ QUANTITIES: tuple[Quantity, ...] = (
              "", "tracer_to_velocity_width_ratio"),
     Quantity("heat-pulse duration", "--pulse-duration", "sediment_probes.probe.heat_pulse_duration", "", "probe"),
     Quantity("sensors left out", "--exclude-sensor", "exclude_sensors", "excluded_sensors", "excluded_sensors"),
-    Quantity("where tasks run (executor: serial, a Dask cluster)", "--scheduler, --workers", "", "",
+    Quantity("where tasks run (executor: auto, serial, a Dask cluster)", "--scheduler, --workers", "", "",
              "scheduler"),
 )
 

@@ -26,10 +26,11 @@ def configure(p):
                    help="override the file's [run] max_unphysical (share of draws dropped as impossible before the "
                         "run refuses; recorded in summary.json)")
     p.add_argument("--quiet", action="store_true", help="no progress messages")
-    p.add_argument("--scheduler", default=None, metavar="WHERE",
-                   help="where the vents are estimated: 'serial' (default, this process) or an executor a plugin "
-                        "provides (ventflux-series: 'local', 'threads' or a dask.distributed scheduler address); "
-                        "the numbers are the same")
+    p.add_argument("--scheduler", default="auto", metavar="WHERE",
+                   help="where the vents' methods and the sections are estimated: 'auto' (default: processes "
+                        "forked from this one on a machine with several cores, else this process), 'serial' (this "
+                        "process) or an executor a plugin provides (ventflux-series: 'local', 'threads' or a "
+                        "dask.distributed scheduler address); the numbers are the same")
     p.add_argument("--budget", choices=("draws", "full", "off"), default="draws",
                    help="uncertainty budget: which input owns the variance of each result, from the run's own draws "
                         "(default), from a dedicated design (full: costs about (inputs + 2 + 6) / 10 times the run) "
@@ -83,19 +84,16 @@ def run(args) -> int:
         from ..uncertainty import check_max_unphysical
 
         mu = check_max_unphysical(args.max_unphysical, "--max-unphysical")
+    # the command line's draws, seed and limit replace [run]'s while the file is read (the probe reduction
+    # draws then): the limit is recorded in summary.json as max_unphysical_share
     spec = load_survey(args.survey, draws=args.draws, seed=args.seed, max_unphysical=mu)
+    if mu is not None:
+        spec.max_unphysical_option = "--max-unphysical"  # what a refusal names
     if args.draws is not None:
         from ..resources import check_memory
         from ..survey.spec import _series
 
         check_memory(args.draws, _series(spec.vents, spec.sections), "--draws")
-        spec.draws = args.draws
-    if args.seed is not None:
-        spec.seed = args.seed
-    if args.max_unphysical is not None:  # recorded in summary.json as max_unphysical_share
-        from ..uncertainty import check_max_unphysical
-
-        spec.max_unphysical = check_max_unphysical(args.max_unphysical, "--max-unphysical")
     for line in spec.warnings.lines():
         print(f"ventflux survey: warning: {line}", file=sys.stderr)
     if args.check:

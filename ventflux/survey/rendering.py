@@ -86,13 +86,11 @@ class FigureRenderer:
     """
 
     def __init__(self, workers: int | None = None):
-        cores = os.cpu_count() or 1
-        if workers is None:
-            workers = min(MAX_WORKERS, cores) if cores > 1 else 0
-        import multiprocessing
-        import threading
+        from ..executor import ForkExecutor
 
-        if threading.active_count() > 1 or "fork" not in multiprocessing.get_all_start_methods():
+        if workers is None:
+            workers = min(MAX_WORKERS, os.cpu_count() or 1)
+        if not ForkExecutor.usable(2):  # the one rule for forking (ventflux.executor)
             workers = 0
         self.workers = workers
         self._pool = None

@@ -89,7 +89,7 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor
     t0 = time.perf_counter()
     methods, sections = survey_components()
     draws = SharedDraws(spec.draws, spec.seed) if draws is None else draws
-    policy = UnphysicalPolicy(getattr(spec, "max_unphysical", UnphysicalPolicy.max_share), "run.max_unphysical")
+    policy = UnphysicalPolicy(spec.max_unphysical, spec.max_unphysical_option)
     site = spec.site
     pressure = in_situ_pressure(site.pressure, site.depth, site.latitude)
     ambient = draws.draw(SITE_INPUT_NAMES["ambient_temperature"], site.ambient_temperature)
@@ -104,14 +104,10 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor
     ctx = RunContext(draws=draws, site=site, pressure=pressure, ambient_temperature=ambient,
                      ambient_salinity=salinity, stratification=strat, progress=progress, policy=policy)
 
-    from ..executor import estimate_vents  # serially here, or one task per vent on ``executor`` (same numbers)
+    from ..executor import estimate_survey  # serially here, or one task per method and section (same numbers)
 
-    vents = [VentResult(name=v.name, methods=est, heat_power=None)
-             for v, est in zip(spec.vents, estimate_vents(spec.vents, methods, ctx, executor), strict=True)]
-    sec = {}
-    for key, parsed in spec.sections.items():
-        progress(f"section: {key}")
-        sec[key] = sections[key].estimate(parsed, ctx)
+    per_vent, sec = estimate_survey(spec.vents, methods, spec.sections, sections, ctx, executor)
+    vents = [VentResult(name=v.name, methods=est, heat_power=None) for v, est in zip(spec.vents, per_vent, strict=True)]
 
     # One mask of usable draw columns for the whole field, under the run's one limit.
     masks = {}

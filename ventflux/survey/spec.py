@@ -172,6 +172,8 @@ class SurveySpec:
     input_files: dict = field(default_factory=dict)
     #: ``[run] max_unphysical``: largest share of draws dropped as impossible before the run refuses.
     max_unphysical: float = 0.05
+    #: Where that limit was set, named when the run refuses (the command line's option replaces it).
+    max_unphysical_option: str = "run.max_unphysical"
     #: Problems that do not stop the run (a vent left out of the water total, ...): printed by the command,
     #: listed in the report's warnings section and stored in summary.json.
     warnings: Warnings = field(default_factory=lambda: Warnings())
