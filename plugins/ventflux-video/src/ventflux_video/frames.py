@@ -211,15 +211,21 @@ class FrameStream:
     def _probe_video(self):
         import imageio_ffmpeg
 
-        try:
-            gen = imageio_ffmpeg.read_frames(self.source, pix_fmt="gray", bpp=1)
-            meta = next(gen)
-            gen.close()
-        except Exception as err:  # ffmpeg's reasons vary: no moov atom, invalid data, ...
-            reason = str(err).splitlines()[0] if str(err) else type(err).__name__
-            raise InputError("clip", self.source,
-                             f"a readable video file (ffmpeg could not open it: {reason}; "
-                             "truncated or not a video?)") from None
+        for attempt in (1, 2):
+            try:
+                gen = imageio_ffmpeg.read_frames(self.source, pix_fmt="gray", bpp=1)
+                meta = next(gen)
+                gen.close()
+                break
+            except Exception as err:  # ffmpeg's reasons vary: no moov atom, invalid data, ...
+                # imageio-ffmpeg waits 10 s for ffmpeg's header; on a loaded machine a sound file can miss that
+                # once, so a file is refused only when a second try fails too (a broken one fails in milliseconds)
+                if attempt == 1 and str(err).startswith("Could not load meta information"):
+                    continue
+                reason = str(err).splitlines()[0] if str(err) else type(err).__name__
+                raise InputError("clip", self.source,
+                                 f"a readable video file (ffmpeg could not open it: {reason}; "
+                                 "truncated or not a video?)") from None
         w, h = meta["size"]
         fps = meta.get("fps") or None
         dur = meta.get("duration") or None
