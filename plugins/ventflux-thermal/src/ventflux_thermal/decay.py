@@ -48,7 +48,9 @@ def cylinder_decay_exact(alpha: float, tau) -> np.ndarray:
     g = 1.0 / d  # integrand × u: dU = u d(ln u)
     s = np.log(u)
     e = np.exp(-np.multiply.outer(tau.ravel(), u * u)) * g
-    val = np.trapezoid(e, s, axis=-1) if hasattr(np, "trapezoid") else np.trapz(e, s, axis=-1)
+    # numpy ≥ 2 names it trapezoid; numpy 1.26 (still supported) only trapz
+    trapezoid = getattr(np, "trapezoid", None) or getattr(np, "trapz")  # noqa: B009
+    val = trapezoid(e, s, axis=-1)
     return (4.0 * alpha / np.pi**2 * val).reshape(tau.shape)
 
 

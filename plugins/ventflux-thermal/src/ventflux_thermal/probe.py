@@ -204,10 +204,11 @@ class PenetrationResult:
 
 # --------------------------------------------------------------------------- reading
 _META = re.compile(r"^\s*#\s*([A-Za-z_][A-Za-z0-9_ ]*?)\s*(?:\[(.*?)\])?\s*[:=]\s*(.+?)\s*$")
-_META_KEYS = {"penetration_time": "time", "heat_pulse_time": "time", "heat_pulse_energy": "energy per length",
+_META_KEYS: dict[str, str] = {
+              "penetration_time": "time", "heat_pulse_time": "time", "heat_pulse_energy": "energy per length",
               "heat_pulse_duration": "time", "tilt": "angle", "sensor_depths": "length",
               "radius": "length", "probe_heat_capacity": "volumetric heat capacity",
-              "sediment_heat_capacity": "volumetric heat capacity", "exclude_sensors": None}
+              "sediment_heat_capacity": "volumetric heat capacity", "exclude_sensors": ""}  # "": names, no unit
 
 
 def read_metadata(path) -> dict:
@@ -220,37 +221,36 @@ def read_metadata(path) -> dict:
     (each may carry an uncertainty, ``4.0 ± 0.1``), and ``exclude_sensors``
     (comma-separated column names).
     """
-    out = {}
+    out: dict[str, object] = {}  # quantities, uncertain quantities, and the excluded sensors' names
     try:
         lines = list(_head_lines(path))
     except UnicodeDecodeError as e:  # a non-UTF-8 byte in the header: one line, not a traceback
         raise InputError("file", str(path), f"a UTF-8 text record (byte 0x{e.object[e.start]:02x} at offset {e.start} "
                          "is not UTF-8)", where=str(path)) from None
-    if True:
-        for n, line in lines:
-            if not line.lstrip().startswith("#"):
-                if line.strip():
-                    break
-                continue
-            m = _META.match(line)
-            if not m or m.group(1).strip() not in _META_KEYS:
-                continue
-            key, unit, value = m.group(1).strip(), m.group(2), m.group(3)
-            dim = _META_KEYS[key]
-            where = f"{path}:{n}"
-            try:
-                if key == "exclude_sensors":
-                    out[key] = tuple(v.strip() for v in value.split(",") if v.strip())
-                elif key == "sensor_depths":
-                    out[key] = Q_([float(v) for v in value.split(",")], unit or "m")
-                elif key == "tilt":
-                    out[key] = parse_uncertain(f"{value} {unit or 'degree'}", "angle", key)
-                elif key in PROBE_FIELDS:
-                    out[key] = parse_uncertain(f"{value} {unit or ''}".strip(), dim, key)
-                else:
-                    out[key] = parse_quantity(f"{value} {unit or ''}".strip(), dim, key)
-            except (ValueError, InputError):
-                raise InputError(key, value, f"a number with a {dim or 'name'} unit", where=where) from None
+    for n, line in lines:
+        if not line.lstrip().startswith("#"):
+            if line.strip():
+                break
+            continue
+        m = _META.match(line)
+        if not m or m.group(1).strip() not in _META_KEYS:
+            continue
+        key, unit, value = m.group(1).strip(), m.group(2), m.group(3)
+        dim = _META_KEYS[key]
+        where = f"{path}:{n}"
+        try:
+            if key == "exclude_sensors":
+                out[key] = tuple(v.strip() for v in value.split(",") if v.strip())
+            elif key == "sensor_depths":
+                out[key] = Q_([float(v) for v in value.split(",")], unit or "m")
+            elif key == "tilt":
+                out[key] = parse_uncertain(f"{value} {unit or 'degree'}", "angle", key)
+            elif key in PROBE_FIELDS:
+                out[key] = parse_uncertain(f"{value} {unit or ''}".strip(), dim, key)
+            else:
+                out[key] = parse_quantity(f"{value} {unit or ''}".strip(), dim, key)
+        except (ValueError, InputError):
+            raise InputError(key, value, f"a number with a {dim or 'name'} unit", where=where) from None
     return out
 
 

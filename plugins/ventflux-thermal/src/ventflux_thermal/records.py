@@ -71,8 +71,8 @@ def _unit_ok(unit, dimension):
         return False
 
 
-def parse_timestamps(cells, lines, where) -> tuple[np.ndarray, datetime]:
-    """ISO 8601 cells → seconds since the first one, and the first as an aware UTC datetime."""
+def parse_timestamps(cells, lines, where) -> tuple[np.ndarray, datetime | None]:
+    """ISO 8601 cells → seconds since the first one, and the first as an aware UTC datetime (None without cells)."""
     out = np.empty(len(cells))
     first = None
     for r, cell in enumerate(cells):
