@@ -90,7 +90,7 @@ def test_survey_vents_identical_on_threads(tmp_path):
         _same(serial, run_survey(load_survey(path), executor=ex))
 
 
-def test_serial_is_the_default_and_unknown_executors_are_refused(tmp_path, capsys):
+def test_no_scheduler_means_serial_and_unknown_executors_are_refused(tmp_path, capsys):
     with open_executor(None) as ex:
         assert isinstance(ex, SerialExecutor)
         assert ex.map(pow, [(2, 3), (3, 2)]) == [8, 9]
