@@ -74,3 +74,21 @@ def test_a_submitted_figure_is_closed_in_the_caller():
         r.submit(fig).result()
     assert not plt.fignum_exists(fig.number)
 
+
+
+def test_a_survey_run_leaves_no_figure_in_pyplot(tmp_path):
+    # ventflux's figures are files: a notebook must not show two dozen of them at the end of a cell, and repeated
+    # runs must not pile them up in pyplot's list of open figures
+    from test_executor_fork import _light_demo
+
+    from ventflux.executor import SerialExecutor
+    from ventflux.survey.report import write_results
+    from ventflux.survey.run import run_survey
+    from ventflux.survey.spec import load_survey
+
+    plt.close("all")
+    result = run_survey(load_survey(_light_demo(tmp_path)), executor=SerialExecutor())
+    assert plt.get_fignums() == []
+    write_results(result, tmp_path / "out")
+    assert plt.get_fignums() == []
+    assert len(list((tmp_path / "out" / "figures").glob("*.png"))) >= 5

@@ -92,6 +92,7 @@ from .survey.api import (
     SurveySection,
 )
 from .survey.fields import SharedRef, as_float, nominal_of, resolve
+from .survey.rendering import subplots
 from .survey.schema import DataColumn, SurveyKey
 from .survey.schema import table as survey_table
 from .tables import read_quantity_table
@@ -131,6 +132,7 @@ from .units import (
 API_VERSION = "1"
 
 __all__ = [
+                          "subplots",
                           "API_VERSION",
                           "RENAMED_COLUMNS",
                           "Executor",

@@ -39,6 +39,7 @@ import numpy as np
 from .. import sensitivity
 from ..errors import InputError
 from ..uncertainty import SharedDraws, named_stream
+from .rendering import subplots
 
 MODES = ("draws", "full", "off")
 #: The budget row of the variance share no single named input explains.
@@ -378,10 +379,7 @@ def _stream(seed, name, which):
 # ---- outputs -------------------------------------------------------------------------
 def figures(budget: SurveyBudget) -> list:
     """One bar figure per headline result: first-order and total index of its top inputs, with errors."""
-    import matplotlib
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
 
     figs = []
     for key in budget.headline:
@@ -394,7 +392,7 @@ def figures(budget: SurveyBudget) -> list:
         if not design:  # totals from the draws are only bounds (first order + the unattributed share): one bar
             labels.append("not explained by any single input")
         y = np.arange(len(labels))
-        fig, ax = plt.subplots(figsize=(7.5, 1.2 + 0.38 * len(labels)))
+        fig, ax = subplots(figsize=(7.5, 1.2 + 0.38 * len(labels)))
         ax.barh(y[:order.size] - (0.2 if design else 0), ind.first[order], 0.4, xerr=ind.first_error[order],
                 color="C0", label="first order", capsize=2)
         if design:

@@ -27,6 +27,20 @@ FIGURE_DPI = 200
 MAX_WORKERS = 2
 
 
+def subplots(*args, figsize=None, dpi=None, **kwargs):
+    """``(figure, axes)`` like ``matplotlib.pyplot.subplots``, but a figure pyplot does not hold.
+
+    ventflux's figures are files, never windows: made this way they are not
+    shown by a notebook at the end of a cell, do not pile up in pyplot's list
+    of open figures over repeated runs, and need no change of the user's
+    backend.
+    """
+    from matplotlib.figure import Figure
+
+    fig = Figure(figsize=figsize, dpi=dpi)
+    return fig, fig.subplots(*args, **kwargs)
+
+
 def render_figure(fig) -> tuple[bytes, bytes]:
     """A matplotlib figure as (PNG at ``FIGURE_DPI``, SVG): the PNG for the folder, the SVG for the report.
 
@@ -42,15 +56,21 @@ def render_figure(fig) -> tuple[bytes, bytes]:
     return buf.getvalue(), svg.getvalue()
 
 
+def _release(fig) -> None:
+    """Close a figure that pyplot holds (one made with ``matplotlib.pyplot``); ``subplots`` figures it does not."""
+    if getattr(fig.canvas, "manager", None) is not None:
+        import matplotlib.pyplot as plt
+
+        plt.close(fig)
+
+
 def _render_pickled(data: bytes) -> tuple[bytes, bytes]:
     """Worker side: unpickle a figure, render it, close it."""
-    import matplotlib.pyplot as plt
-
     fig = pickle.loads(data)
     try:
         return render_figure(fig)
     finally:
-        plt.close(fig)
+        _release(fig)
 
 
 class _Done:
@@ -111,8 +131,6 @@ class FigureRenderer:
         return False
 
     def submit(self, fig):
-        import matplotlib.pyplot as plt
-
         try:
             if self._pool is None:
                 return _Done(render_figure(fig))
@@ -122,7 +140,7 @@ class FigureRenderer:
                 return _Done(render_figure(fig))
             return _Pending(self._pool.submit(_render_pickled, data), data)
         finally:
-            plt.close(fig)
+            _release(fig)
 
 
-__all__ = ["FIGURE_DPI", "FigureRenderer", "render_figure"]
+__all__ = ["FIGURE_DPI", "FigureRenderer", "render_figure", "subplots"]

@@ -23,6 +23,7 @@ import pandas as pd
 
 from ..errors import InputError
 from ..io import check_results_destination, results_directory, sha256_of
+from .rendering import subplots
 
 CAUTION = ("These estimates are for scientific analysis. They are not for the operational safety of people or "
            "vehicles near hot fluids: follow the operator's procedures and local codes.")
@@ -210,11 +211,6 @@ def _summary(q):
 
 # ---- figures -----------------------------------------------------------------
 def figures_of(result) -> list:
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
     figs = []
     if result.vents:
         rows = []  # (y, label, lo, median, hi, method)
@@ -228,7 +224,7 @@ def figures_of(result) -> list:
                 rows.append((y, f"{vr.name}: {method_label(k)}", lo, med, hi, k))
                 y += 1
             y += 0.5
-        fig, ax = plt.subplots(figsize=(7.5, 1.0 + 0.4 * len(rows)))
+        fig, ax = subplots(figsize=(7.5, 1.0 + 0.4 * len(rows)))
         colours: dict[str, str] = {}
         for yy, _, lo, med, hi, k in rows:
             c = colours.setdefault(k, f"C{len(colours)}")
@@ -243,7 +239,7 @@ def figures_of(result) -> list:
         fig.tight_layout()
         figs.append(("vents_by_method", fig, "Heat power of each vent by each method, and their combination."))
     if result.split is not None:
-        fig, ax = plt.subplots(figsize=(6.5, 3.4))
+        fig, ax = subplots(figsize=(6.5, 3.4))
         for k, c in (("focused", "C3"), ("diffuse", "C0"), ("total", "k")):
             d = result.split.draws[k].to("MW").magnitude
             ax.hist(d, bins=60, histtype="step", color=c, label=k, density=True)
@@ -277,9 +273,7 @@ def figures_of(result) -> list:
 
 def reservoir_figure(reservoirs):
     """Heat-mining time, decline time and conductive time of each reservoir hypothesis, on one log axis."""
-    import matplotlib.pyplot as plt
-
-    fig, ax = plt.subplots(figsize=(7.0, 1.8 + 0.7 * len(reservoirs)))
+    fig, ax = subplots(figsize=(7.0, 1.8 + 0.7 * len(reservoirs)))
     for i, r in enumerate(reservoirs):
         for s, dy, colour, marker, label in ((r["mining"], -0.15, "C1", "o", "heat-mining time"),
                                              (r["decline"], 0.15, "C4", "v", "decline time")):

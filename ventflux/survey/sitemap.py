@@ -18,6 +18,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from .rendering import subplots
+
 #: Mean Earth radius [m]: (2a + b)/3 of the GRS 80 ellipsoid (from memory).
 EARTH_RADIUS_M = 6_371_008.8
 _AXES = {"latitude": "latitude", "lat": "latitude", "longitude": "longitude", "lon": "longitude",
@@ -168,12 +170,9 @@ NO_POSITIONS = ("No site map: the survey gives no position for any vent or patch
 
 def site_map_figure(items: list[Place], site_name: str = ""):
     """The map: vents as triangles, patches as circles, labelled, in metres east and north of the site."""
-    import matplotlib
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
 
-    fig, ax = plt.subplots(figsize=(6.5, 5.5))
+    fig, ax = subplots(figsize=(6.5, 5.5))
     style = {"vent": ("^", "C3", 70, "vent"), "patch": ("o", "C0", 30, "diffuse patch")}
     for kind, (marker, colour, size, label) in style.items():
         pts = [p for p in items if p.kind == kind]

@@ -14,7 +14,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ventflux.plugin_api import json_ready, results_directory
+from ventflux.plugin_api import json_ready, results_directory, subplots
 
 from .analysis import TIDAL_PERIODS_H, VentSeries
 
@@ -60,21 +60,13 @@ def to_dataset(series: list[VentSeries]):
 
 
 def _png(fig) -> bytes:
-    import matplotlib.pyplot as plt
-
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=150, bbox_inches="tight")
-    plt.close(fig)
     return buf.getvalue()
 
 
 def figure_series(s: VentSeries) -> bytes:
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    fig, ax = plt.subplots(figsize=(9, 3.6))
+    fig, ax = subplots(figsize=(9, 3.6))
     t = s.times.astype("datetime64[s]").astype(object)
     ax.fill_between(t, s.p05_W / 1e6, s.p95_W / 1e6, color="#9ecae1", label="5–95 %", step=None)
     ax.plot(t, s.median_W / 1e6, color="#08519c", lw=1, label="median")
@@ -94,13 +86,10 @@ def figure_series(s: VentSeries) -> bytes:
 def figure_periodogram(s: VentSeries) -> bytes | None:
     if s.periodogram is None:
         return None
-    import matplotlib
 
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
 
     pg = s.periodogram
-    fig, ax = plt.subplots(figsize=(9, 3.2))
+    fig, ax = subplots(figsize=(9, 3.2))
     ax.semilogx(pg.period_h, pg.power, color="#333", lw=0.8)
     found_by = {c.name: c.found for c in s.constituents}
     for name, period in TIDAL_PERIODS_H.items():

@@ -25,16 +25,26 @@ import sys
 from pathlib import Path
 
 import numpy as np
-from ventflux.plugin_api import add_deprecated_option, add_monte_carlo_options, monte_carlo_settings
-from ventflux.plugin_api import add_output_options, print_json, print_table, write_output
-from ventflux.plugin_api import InputError, InputErrors
-from ventflux.plugin_api import atomic_write_text
-from ventflux.plugin_api import parse_uncertain
-from ventflux.plugin_api import Q_, parse_quantity
 
-from .constants import DEFAULT_SALINITY
+from ventflux.plugin_api import (
+    Q_,
+    InputError,
+    InputErrors,
+    add_deprecated_option,
+    add_monte_carlo_options,
+    add_output_options,
+    atomic_write_text,
+    monte_carlo_settings,
+    parse_quantity,
+    parse_uncertain,
+    print_json,
+    print_table,
+    subplots,
+    write_output,
+)
+
+from .constants import DEFAULT_SALINITY, METHODS, ProbeConstants
 from .jsonkeys import print_deprecation, si_json
-from .constants import METHODS, ProbeConstants
 
 # --------------------------------------------------------------------------- probe-heat-flow
 
@@ -291,18 +301,13 @@ def run_advection(args) -> int:
 
 
 def _profile_figure(z, T, fit, path):
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
     from .advection import profile_shape
     from .figures import _save
 
     zz = np.linspace(0, fit.layer_thickness, 100)
     model = fit.top_temperature + (fit.base_temperature - fit.top_temperature) * profile_shape(
         fit.peclet, zz / fit.layer_thickness)
-    fig, ax = plt.subplots(figsize=(4.5, 5))
+    fig, ax = subplots(figsize=(4.5, 5))
     ax.plot(T.to("degC").magnitude, z.to("m").magnitude, "o", color="tab:red", label="measured")
     ax.plot(model - 273.15, zz, "-", color="0.3", label=f"Pe = {fit.peclet:.3g} ± {fit.peclet_se:.2g}")
     ax.invert_yaxis()

@@ -5,20 +5,16 @@ from __future__ import annotations
 import io
 from pathlib import Path
 
-import matplotlib
+import numpy as np
 
-matplotlib.use("Agg")
-import matplotlib.pyplot as plt  # noqa: E402
-import numpy as np  # noqa: E402
-from ventflux.plugin_api import atomic_write_bytes  # noqa: E402
+from ventflux.plugin_api import atomic_write_bytes, subplots
 
-from .probe import PenetrationResult, ProbeConstants, frictional_model, pulse_model  # noqa: E402
+from .probe import PenetrationResult, ProbeConstants, frictional_model, pulse_model
 
 
 def _png(fig) -> bytes:
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110)
-    plt.close(fig)
     return buf.getvalue()
 
 
@@ -33,7 +29,7 @@ def resistance_figure(res: PenetrationResult, path):
 
 def resistance_plot(res: PenetrationResult):
     """Equilibrium temperature against cumulative thermal resistance, with the fitted line and residuals ."""
-    fig, (ax, axr) = plt.subplots(1, 2, figsize=(8, 4.5), gridspec_kw={"width_ratios": [3, 1]}, sharey=True)
+    fig, (ax, axr) = subplots(1, 2, figsize=(8, 4.5), gridspec_kw={"width_ratios": [3, 1]}, sharey=True)
     T = res.equilibrium_temperature - 273.15
     R = res.resistance
     ax.plot(T, R, "o", color="tab:red", label="sensors")
@@ -66,7 +62,7 @@ def decay_figure(res: PenetrationResult, path, probe: ProbeConstants | None = No
     probe = res.probe or probe or ProbeConstants()
     n = res.depth.size
     rows = [rec.sensors.index(name) for name in res.sensors] if res.sensors else list(range(n))
-    fig, axes = plt.subplots(n, 1, figsize=(7, 1.6 * n + 0.8), sharex=True, squeeze=False)
+    fig, axes = subplots(n, 1, figsize=(7, 1.6 * n + 0.8), sharex=True, squeeze=False)
     for i, ax in enumerate(axes[:, 0]):
         f = res.friction[i]
         ax.plot(rec.time, rec.temperature[rows[i]] - 273.15, ".", ms=1.5, color="0.4")
@@ -92,7 +88,7 @@ def record_figure(station, path):
     rec = station.record_data
     if rec is None:
         raise ValueError("record_figure needs reduce_station(..., keep_record=True)")
-    fig, ax = plt.subplots(figsize=(11, 4.5))
+    fig, ax = subplots(figsize=(11, 4.5))
     hours = rec.time / 3600.0
     for i, name in enumerate(rec.sensors):
         ax.plot(hours, rec.temperature[i] - 273.15, lw=0.6, label=name)
@@ -121,7 +117,7 @@ def transect_figure(station, path):
 def transect_plot(station):
     """Heat flow ± total uncertainty along the transect (distance from navigation, else time), PNG."""
     res = station.results
-    fig, ax = plt.subplots(figsize=(8, 4))
+    fig, ax = subplots(figsize=(8, 4))
     if station.distance and all(r.label in station.distance for r in res):
         x = np.array([station.distance[r.label] for r in res])
         ax.set_xlabel("distance along the transect [m]")

@@ -6,7 +6,7 @@ import io
 
 import numpy as np
 
-from ventflux.plugin_api import column_name, magnitude
+from ventflux.plugin_api import column_name, magnitude, subplots
 
 
 def _csv(columns):
@@ -59,20 +59,10 @@ def tracks_table(tracks):
                  column_name("y", "px"): tracks.y})
 
 
-def _figure():
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    return plt
-
-
 def field_figure(mean_field, metres_per_pixel, orifice_xy=None):
     """PNG bytes: mean velocity vectors over a frame of the clip (arrows point up for ``w > 0``)."""
-    plt = _figure()
     u, w, _, _ = (q.to("m/s").magnitude for q in mean_field.velocity(metres_per_pixel))
-    fig, ax = plt.subplots(figsize=(5, 6), dpi=110)
+    fig, ax = subplots(figsize=(5, 6), dpi=110)
     if mean_field.background is not None:
         h, wd = mean_field.background.shape
         x0, y0 = mean_field.origin
@@ -92,23 +82,22 @@ def field_figure(mean_field, metres_per_pixel, orifice_xy=None):
     ax.set_xlabel("column [px]")
     ax.set_ylabel("row [px]")
     ax.set_title(f"mean velocity, {mean_field.pairs} pairs ({mean_field.mode})", fontsize=9)
-    return _png(fig, plt)
+    return _png(fig)
 
 
 def profile_figure(profile, fit=None, exit_velocity=None, exit_velocity_sd=None):
     """PNG bytes of ``profile_plot`` (for the command line's output folder)."""
-    return _png(profile_plot(profile, fit, exit_velocity, exit_velocity_sd), _figure())
+    return _png(profile_plot(profile, fit, exit_velocity, exit_velocity_sd))
 
 
 def profile_plot(profile, fit=None, exit_velocity=None, exit_velocity_sd=None):
     """A matplotlib figure: centreline ``w(z)`` with its spread, the plume fit and the exit velocity."""
     from .plume import plume_centreline_speed
 
-    plt = _figure()
     z = profile.height.to("m").magnitude
     w = profile.velocity.to("m/s").magnitude
     sd = profile.velocity_sd.to("m/s").magnitude
-    fig, ax = plt.subplots(figsize=(5, 5), dpi=110)
+    fig, ax = subplots(figsize=(5, 5), dpi=110)
     ax.fill_betweenx(z, w - sd, w + sd, color="tab:blue", alpha=0.2, label="± 1 sd over pairs")
     ax.plot(w, z, "o", color="tab:blue", ms=4, label="centreline")
     if fit is not None:
@@ -130,9 +119,8 @@ def profile_plot(profile, fit=None, exit_velocity=None, exit_velocity_sd=None):
     return fig
 
 
-def _png(fig, plt):
+def _png(fig):
     buf = io.BytesIO()
     fig.tight_layout()
     fig.savefig(buf, format="png")
-    plt.close(fig)
     return buf.getvalue()

@@ -7,29 +7,20 @@ from pathlib import Path
 
 import numpy as np
 
+from ventflux.plugin_api import subplots
+
 
 def _png(fig) -> bytes:
-    import matplotlib.pyplot as plt
-
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=110)
-    plt.close(fig)
     return buf.getvalue()
 
 
-def _plt():
-    import matplotlib
-
-    matplotlib.use("Agg")
-    import matplotlib.pyplot as plt
-
-    return plt
 
 
 def section_plot(res):
     """Δθ on the section (distance × depth, binned per profile) with the detected layer outlined."""
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(8, 4.5))
+    fig, ax = subplots(figsize=(8, 4.5))
     order = np.argsort(res.s)
     s = res.s[order]
     grid = 1e3 * res.dtheta_grid[order].T
@@ -60,9 +51,8 @@ def section_png(res) -> bytes:
 
 def profiles_plot(res):
     """θ against σ₀ with the background fit, and Δθ against depth for every profile (layer profiles dark)."""
-    plt = _plt()
     optical = res.optical_grid is not None
-    fig, axes = plt.subplots(1, 3 if optical else 2, figsize=(13 if optical else 9, 4.5))
+    fig, axes = subplots(1, 3 if optical else 2, figsize=(13 if optical else 9, 4.5))
     a1, a2 = axes[0], axes[1]
     use = res.sample_profile >= 0
     step = max(1, int(use.sum() // 20000))  # a readable scatter, not every sample
@@ -70,7 +60,9 @@ def profiles_plot(res):
     a1.plot(res.sample_sigma0[idx], res.sample_theta[idx], ".", ms=1, color="tab:red", label="samples")
     o = np.argsort(res.sample_sigma0[idx])
     a1.plot(res.sample_sigma0[idx][o], res.sample_background[idx][o], "k-", lw=1, label="background fit")
-    a1.xaxis.set_major_locator(plt.MaxNLocator(4))
+    from matplotlib.ticker import MaxNLocator
+
+    a1.xaxis.set_major_locator(MaxNLocator(4))
     a1.set_xlabel("σ₀ [kg/m³]")
     a1.set_ylabel("θ [°C]")
     a1.legend(fontsize=8)
@@ -104,8 +96,7 @@ def profiles_png(res) -> bytes:
 
 def flux_plot(out):
     """The heat flux's draws with its 90 % interval and the parts of its spread."""
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(7, 3.5))
+    fig, ax = subplots(figsize=(7, 3.5))
     h = out.heat_flux[np.isfinite(out.heat_flux)] / 1e6
     ax.hist(h, bins=60, color="tab:orange", alpha=0.7, density=True)
     p05, p50, p95 = np.percentile(h, [5, 50, 95])
@@ -142,8 +133,7 @@ def section_figures(res, out) -> list:
 
 def box_plot(a, per, out):
     """Plan view of a closed box: each side's profiles, its outward normal and the heat flux out through it."""
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(6.5, 6))
+    fig, ax = subplots(figsize=(6.5, 6))
     for name, r, p in zip(a.names, a.results, per):
         ax.plot(r.profile_east, r.profile_north, ".-", ms=3, lw=0.8)
         mid = np.array([np.mean(r.profile_east), np.mean(r.profile_north)])
