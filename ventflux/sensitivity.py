@@ -305,17 +305,18 @@ def _one_blas_thread():
 def _bin_sums(Xs, Z, cols, WT, tail, M, c, nb, r, sums, first):
     """Weighted bin sums of every input (sorted once each) for every output and replicate, into ``first``."""
     n = Xs.shape[1]
+    wbuf, cbuf = np.empty_like(WT), np.empty_like(cols)  # the gathered rows, reused for every input
     for i in range(Xs.shape[0]):  # one sort per input; every output and replicate at once
         x = Xs[i]
         cols[:n, 0], cols[:n, 1] = x, x * x
         cols[:n, 2 + 2 * r:] = (Z * x).T
         order = np.concatenate([np.argsort(x, kind="stable"), tail])
-        Wb = np.ascontiguousarray(WT[order].reshape(M, c, nb).transpose(0, 2, 1))  # (M, nb, c)
-        Cb = cols[order].reshape(M, c, 2 + 3 * r)
-        for m in range(M):  # per-bin 2-D products: BLAS (numpy's stacked matmul is far slower here)
-            np.matmul(Wb[m], Cb[m], out=sums[m])
-        cnt = Wb.sum(axis=2, dtype=np.float64).T  # (nb, M)
-        cnt2 = np.einsum("mbc,mbc->bm", Wb, Wb, dtype=np.float64)  # Σw² per bin: duplicated draws add no information
+        Wb = np.take(WT, order, axis=0, out=wbuf).reshape(M, c, nb)  # (M, c, nb), no copy to transpose
+        Cb = np.take(cols, order, axis=0, out=cbuf).reshape(M, c, 2 + 3 * r)
+        for m in range(M):  # per-bin 2-D products: BLAS reads the transposed view as it is
+            np.matmul(Wb[m].T, Cb[m], out=sums[m])
+        cnt = Wb.sum(axis=1, dtype=np.float64).T  # (nb, M)
+        cnt2 = np.einsum("mcb,mcb->bm", Wb, Wb, dtype=np.float64)  # Σw² per bin: duplicated draws add no information
         s64 = sums.astype(np.float64).transpose(1, 2, 0)  # (nb, 2 + 3r, M)
         first[i] = _bin_index(cnt, cnt2, s64[:, 0], s64[:, 1], s64[:, 2:2 + r], s64[:, 2 + r:2 + 2 * r],
                               s64[:, 2 + 2 * r:])
