@@ -38,6 +38,7 @@ Estimators
 Files and output
     ``read_quantity_table``, ``atomic_write_text``, ``atomic_write_bytes``,
     ``results_directory`` (alias ``atomic_directory``), ``check_results_destination``, ``cache_dir``,
+    ``cached_arrays`` (arrays built once per machine),
     ``json_ready``,
     ``sha256_of``,
     ``add_output_options``, ``add_monte_carlo_options``,
@@ -57,6 +58,7 @@ from __future__ import annotations
 from . import __version__ as CORE_VERSION
 from .cli.montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .cli.output import add_output_options, print_json, print_table, write_output
+from .cachedir import cached_arrays
 from .diffuse import diffuse_discharge
 from .errors import Collector, InputError, InputErrors
 from .executor import Executor, ExecutorInfo, SerialExecutor
@@ -144,6 +146,7 @@ __all__ = [
                           "absolute_salinity",
                           "seawater_enthalpy_density",
                           "cache_dir",
+                          "cached_arrays",
                           "check_results_destination",
                           "json_ready",
                           "diffuse_discharge",

@@ -41,8 +41,6 @@ from __future__ import annotations
 
 import functools
 import hashlib
-import os
-from pathlib import Path
 from typing import Protocol
 
 import numpy as np
@@ -124,12 +122,6 @@ _TABLE_VERSION = "7"
 _SAT_BAND = 4.0
 _CRIT_BOX_T = (12.0, 30.0)  # below, above the critical temperature
 _CRIT_BOX_P = (2.5e6, 8.0e6)  # below, above the critical pressure
-
-
-def _cache_dir() -> Path:
-    from ..cachedir import cache_dir
-
-    return cache_dir()
 
 
 def _table_key():
@@ -247,22 +239,14 @@ def _patch_nodes(h, d):
 
 def _load_table():
     """(below, above) node arrays of ``_patch_nodes``, from the cache or built and cached."""
-    path = _cache_dir() / f"iapws95-water-{_table_key()}.npz"
-    if path.exists():
-        try:
-            with np.load(path) as z:
-                return z["below"], z["above"]
-        except Exception:  # a damaged cache is rebuilt, never trusted
-            pass
-    below, above = _patch_nodes(*_build_table(progress=_say))
-    try:
-        path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = path.with_name(f"{path.stem}.{os.getpid()}.part.npz")
-        np.savez(tmp, below=below, above=above)
-        os.replace(tmp, path)
-    except OSError as exc:  # an unwritable cache costs a rebuild next time, not the result
-        _say(f"could not cache the property table in {path.parent} ({exc}); it will be rebuilt next time")
-    return below, above
+    from ..cachedir import cached_arrays
+
+    def build():
+        below, above = _patch_nodes(*_build_table(progress=_say))
+        return {"below": below, "above": above}
+
+    z = cached_arrays(f"iapws95-water-{_table_key()}.npz", build, _say)
+    return z["below"], z["above"]
 
 
 class _Patches:

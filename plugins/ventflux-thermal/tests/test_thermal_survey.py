@@ -209,3 +209,19 @@ def test_probe_reduction_while_reading_uses_the_runs_monte_carlo_settings():
     spec = load_survey(demo, draws=500, seed=7, max_unphysical=0.2)
     mc = spec.sections["sediment_probes"]["results"][0].monte_carlo
     assert (mc["draws"], mc["seed"], mc["max_unphysical_share"]) == (500, 7, 0.2)
+
+
+def test_cached_decay_table_is_the_built_table(tmp_path, monkeypatch):
+    # the cylinder-decay table is kept per machine (ventflux.cachedir.cached_arrays): a reader gets the same
+    # numbers as a fresh build, bit for bit
+    import numpy as np
+    from ventflux_thermal import decay
+
+    monkeypatch.setenv("VENTFLUX_CACHE", str(tmp_path / "cache"))
+    decay._table.cache_clear()
+    built = decay._table(1.75)
+    decay._table.cache_clear()
+    read = decay._table(1.75)
+    decay._table.cache_clear()
+    assert len(list((tmp_path / "cache").glob("cylinder-decay-*.npz"))) == 1
+    np.testing.assert_array_equal(built, read)

@@ -31,9 +31,12 @@ References
 from __future__ import annotations
 
 import functools
+import hashlib
+from pathlib import Path
 
 import numpy as np
 from scipy import special
+from ventflux.plugin_api import cached_arrays
 
 # Integration grid in u (log-spaced); the upper end keeps exp(−τu²) < 1e-30 for τ ≥ 1e-3.
 _U = np.geomspace(1e-7, 300.0, 6000)
@@ -55,18 +58,27 @@ def cylinder_decay_exact(alpha: float, tau) -> np.ndarray:
 
 
 _DENSE = np.linspace(_LOG_TAU[0], _LOG_TAU[-1], 40001)
+#: What a cached table depends on besides α: this module's code (grids, quadrature, constants).
+_CODE_KEY = hashlib.sha256(Path(__file__).read_bytes()).hexdigest()[:16]
 _INV_STEP = 1.0 / (_DENSE[1] - _DENSE[0])
 
 
 @functools.lru_cache(maxsize=32)
 def _table(alpha_key: float):
     """log F on a dense log-τ grid: the cubic spline through the quadrature, read by linear interpolation
-    (step 5e-4 in ln τ, interpolation error below 1e-7 relative; np.interp is several times faster)."""
-    from scipy.interpolate import CubicSpline
+    (step 5e-4 in ln τ, interpolation error below 1e-7 relative; np.interp is several times faster).
 
-    tau = np.exp(_LOG_TAU)
-    F = cylinder_decay_exact(alpha_key, tau)
-    return CubicSpline(_LOG_TAU, np.log(F))(_DENSE)
+    Built once per machine and α (``cached_arrays``, keyed by a hash of this module's code and α): the
+    quadrature and scipy's spline cost about half a second a table.
+    """
+    def build():
+        from scipy.interpolate import CubicSpline
+
+        tau = np.exp(_LOG_TAU)
+        F = cylinder_decay_exact(alpha_key, tau)
+        return {"log_decay": CubicSpline(_LOG_TAU, np.log(F))(_DENSE)}
+
+    return cached_arrays(f"cylinder-decay-{_CODE_KEY}-{alpha_key!r}.npz", build)["log_decay"]
 
 
 def cylinder_decay(alpha: float, tau) -> np.ndarray:
