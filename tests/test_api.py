@@ -288,6 +288,18 @@ def test_survey_run_options_and_errors(survey_run):
         survey.run(draws=10)
 
 
+def test_survey_budget_from_python(survey_run):
+    # the budget of a run from the top level. Power ∝ velocity × enthalpy difference: a 17 % (North) or 12 %
+    # (South) spread in velocity against about 1 % in the enthalpy difference (±3 K of some 300 K) makes each
+    # vent's own velocity the first input of its power
+    _, result, _ = survey_run
+    budget = vf.survey_budget(result)
+    first = {r["result"]: r["input"] for r in budget.rows() if r["rank"] == 1}
+    assert first["North: orifice"] == "North/orifice[0]/velocity"
+    assert first["South: orifice"] == "South/orifice[0]/velocity"
+    assert any(line.startswith("North: measure") for line in budget.sentences())
+
+
 def test_results_nc_holds_statistics_and_draws_on_request(survey_run, tmp_path):
     import xarray as xr
 

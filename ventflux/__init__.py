@@ -73,6 +73,7 @@ _API = {
     "Survey": ".survey.python_api",
     "SurveyResult": ".survey.run",
     "write_netcdf": ".survey.netcdf",
+    "survey_budget": ".survey.budget",
 }
 
 __all__ = sorted(_API) + ["__version__"]

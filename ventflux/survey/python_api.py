@@ -14,7 +14,6 @@ scripts and notebooks::
 
 from __future__ import annotations
 
-import dataclasses
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -125,7 +124,12 @@ class Survey:
         if seed is not None:
             changes["seed"] = int(seed)
         if changes:
-            spec = dataclasses.replace(spec, **changes)
+            # read again with the run's own draws and seed: what reading reduces with a Monte Carlo (the probe
+            # records) then refuses exactly what the run would, as on the command line
+            from .spec import load_survey
+
+            spec = load_survey(spec.path, draws=changes.get("draws"), seed=changes.get("seed"),
+                               max_unphysical=spec.max_unphysical)
         result = run_survey(spec, progress=progress or (lambda msg: None))
         if out is not None:
             from .report import write_results
