@@ -43,7 +43,8 @@ def _compare_in_this_process():
     assert away[0][0][:8] == b"\x89PNG\r\n\x1a\n" and away[0][1].lstrip().startswith(b"<?xml")
 
 
-@pytest.mark.skipif((os.cpu_count() or 1) < 2, reason="one core: figures are rendered in the caller")
+@pytest.mark.skipif((os.cpu_count() or 1) < 2 or not sys.platform.startswith("linux"),
+                    reason="one core, or not Linux: figures are rendered in the caller")
 def test_worker_processes_render_the_same_figures_as_the_caller():
     # in a fresh process: the test session may hold threads of its own (then nothing is forked, rightly)
     code = "import sys; sys.path.insert(0, sys.argv[1]); import test_rendering as t; t._compare_in_this_process()"

@@ -15,7 +15,7 @@ given two different values by two tasks is refused there, as in a serial run).
 loop: worker processes forked from this one, so they start at once with everything already imported and read
 their tasks from memory (nothing is pickled on the way in; results are pickled on the way back). A fork is made
 only from a single-threaded process (a fork copies the locks other threads hold, not the threads that would
-release them), only where the platform forks, with more than one core and more than one task. A task that fails
+release them), only on Linux, with more than one core and more than one task. A task that fails
 in a worker is run again here, so that an error is raised exactly as a serial run raises it.
 """
 
@@ -82,12 +82,14 @@ class ForkExecutor:
 
     @staticmethod
     def usable(tasks: int) -> bool:
-        import multiprocessing
         import os
+        import sys
         import threading
 
+        # Linux only: macOS system libraries are not safe across a fork (Python itself stopped forking there by
+        # default), and Windows does not fork
         return (tasks > 1 and (os.cpu_count() or 1) > 1 and threading.active_count() == 1
-                and "fork" in multiprocessing.get_all_start_methods())
+                and sys.platform.startswith("linux"))
 
     def map(self, fn, arguments, on_done=None):
         import multiprocessing

@@ -28,7 +28,7 @@ def configure(p):
     p.add_argument("--quiet", action="store_true", help="no progress messages")
     p.add_argument("--scheduler", default="auto", metavar="WHERE",
                    help="where the vents' methods and the sections are estimated: 'auto' (default: processes "
-                        "forked from this one on a machine with several cores, else this process), 'serial' (this "
+                        "forked from this one on Linux with several cores, else this process), 'serial' (this "
                         "process) or an executor a plugin provides (ventflux-series: 'local', 'threads' or a "
                         "dask.distributed scheduler address); the numbers are the same")
     p.add_argument("--budget", choices=("draws", "full", "off"), default="draws",
