@@ -22,9 +22,6 @@ import pickle
 
 #: Resolution of the PNG figures in the results folder [dots per inch] (print quality; the report embeds SVG).
 FIGURE_DPI = 200
-#: Worker processes rendering figures at most (choice made here: these machines have two cores; more
-#: workers than cores only adds memory).
-MAX_WORKERS = 2
 
 
 def subplots(*args, figsize=None, dpi=None, **kwargs):
@@ -106,11 +103,11 @@ class FigureRenderer:
     """
 
     def __init__(self, workers: int | None = None):
-        from ..executor import ForkExecutor
+        from ..executor import FORK_WORKERS, ForkExecutor
 
         if workers is None:
-            workers = min(MAX_WORKERS, os.cpu_count() or 1)
-        if not ForkExecutor.usable(2):  # the one rule for forking (ventflux.executor)
+            workers = min(FORK_WORKERS, os.cpu_count() or 1)
+        if not ForkExecutor.usable(2):  # the one rule for forking, and one worker count (ventflux.executor)
             workers = 0
         self.workers = workers
         self._pool = None
