@@ -44,7 +44,6 @@ from ventflux.plugin_api import DataColumn, SurveyKey, survey_table
 from ventflux.plugin_api import resolve
 from ventflux.plugin_api import normal, uniform
 from ventflux.plugin_api import Q_
-from ventflux.plugin_api import DEFAULT_DRAWS, DEFAULT_MAX_UNPHYSICAL, DEFAULT_SEED
 
 from .constants import METHODS, PROBE_FIELDS, ProbeConstants
 
@@ -158,8 +157,7 @@ def _parse(f, ctx):
             f.error(err.field, err.value, err.allowed)
         probe = None
     # the run's draws, seed and limit on impossible draws: what the run redraws, --check has already refused
-    run = dict(draws=getattr(ctx, "draws", DEFAULT_DRAWS), seed=getattr(ctx, "seed", DEFAULT_SEED),
-               max_unphysical=getattr(ctx, "max_unphysical", DEFAULT_MAX_UNPHYSICAL))
+    run = dict(draws=ctx.draws, seed=ctx.seed, max_unphysical=ctx.max_unphysical)
     if probe is not None:
         for p in paths:
             ctx.input_files[str(p)] = "sediment probe record"
