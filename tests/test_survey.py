@@ -174,3 +174,21 @@ def test_demo_survey_runs_end_to_end(tmp_path):
     assert html.exists() and (tmp_path / "demo" / "tables" / "method_pairs.csv").exists()
     assert (tmp_path / "demo" / "tables" / "field_checks.csv").exists()
     assert (tmp_path / "demo" / "tables" / "ridge_flank.csv").exists()
+
+
+def test_a_draw_count_that_cannot_fit_is_refused_before_anything_draws(monkeypatch, capsys):
+    # the probe records are reduced with a Monte Carlo while the file is read: a --draws that cannot fit in memory
+    # must be refused, naming --draws, before that reduction starts (not after it has filled the memory)
+    pytest.importorskip("ventflux_thermal")
+    import ventflux.resources as resources
+    import ventflux_thermal.survey as probe_survey
+
+    reduced = []
+    monkeypatch.setattr(resources, "available_memory", lambda: 2**30)  # 1 GiB
+    original = probe_survey._reduce
+    monkeypatch.setattr(probe_survey, "_reduce", lambda *a, **k: reduced.append(1) or original(*a, **k))
+    demo = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge" / "survey.toml"
+    assert main(["survey", str(demo), "--draws", "2000000", "--check"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--draws" in err[0] and "2000000" in err[0] and "run.draws" not in err[0]
+    assert reduced == []

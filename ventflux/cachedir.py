@@ -37,12 +37,16 @@ def cached_arrays(name: str, build: Callable[[], dict], say: Callable[[str], Non
         except Exception:  # noqa: BLE001 - a damaged cache is rebuilt, never trusted
             pass
     arrays = build()
+    tmp = path.with_name(f"{path.stem}.{os.getpid()}.part.npz")
     try:
         path.parent.mkdir(parents=True, exist_ok=True)
-        tmp = path.with_name(f"{path.stem}.{os.getpid()}.part.npz")
         np.savez(tmp, **arrays)
         os.replace(tmp, path)
     except OSError as exc:
+        try:  # a half-written temporary file (a full disk) is ventflux's own: removed
+            tmp.unlink(missing_ok=True)
+        except OSError:
+            pass
         if say is not None:
             say(f"could not cache {path.name} in {path.parent} ({exc}); it will be rebuilt next time")
     return arrays

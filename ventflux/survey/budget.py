@@ -379,8 +379,6 @@ def _stream(seed, name, which):
 # ---- outputs -------------------------------------------------------------------------
 def figures(budget: SurveyBudget) -> list:
     """One bar figure per headline result: first-order and total index of its top inputs, with errors."""
-
-
     figs = []
     for key in budget.headline:
         ind = budget.indices[key]

@@ -374,7 +374,6 @@ def write_results(result, out_dir) -> Path:
     tables = tables_of(result)
     figs = figures_of(result)
     summary = summary_of(result, tables)
-
     from . import paper_table
     from .inputs_table import input_rows
 

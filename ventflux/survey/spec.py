@@ -322,6 +322,17 @@ def _load(raw: dict, path: Path, where: str, overrides: dict | None = None) -> S
     given = {k: v for k, v in (overrides or {}).items() if v is not None}  # the command line wins over [run]
     draws, seed = given.get("draws", draws), given.get("seed", seed)
     max_unphysical = given.get("max_unphysical", max_unphysical)
+    # the draw count is named where it was set: the command line's option, or the file's key
+    draws_field, draws_where = (("--draws", None) if "draws" in given else
+                                ("run.draws" if run is not None and "draws" in run.table else "--draws", where))
+    if draws is not None:
+        # Parsers draw while reading (the probe reduction): refuse a count that cannot fit before they start,
+        # on what the file holds for certain (the full count, patches and classes included, is checked below).
+        before = len(errs.errors)
+        with errs.check():
+            check_memory(int(draws), _raw_series(raw), draws_field, where=draws_where)
+        if len(errs.errors) > before:  # nothing else is read then: what was found so far is reported with it
+            errs.raise_if_any()
     methods, sections = survey_components()
     ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files, warnings=warnings,
                        draws=int(draws or DEFAULT_DRAWS), seed=int(seed),
@@ -373,8 +384,7 @@ def _load(raw: dict, path: Path, where: str, overrides: dict | None = None) -> S
                             where=where))
     if draws is not None:
         with errs.check():
-            check_memory(int(draws), _series(vents, parsed_sections), "run.draws" if run is not None and
-                         "draws" in run.table else "--draws", where=where)
+            check_memory(int(draws), _series(vents, parsed_sections), draws_field, where=draws_where)
     errs.raise_if_any()
     assert site is not None  # a missing [site] was reported and raised just above
     return SurveySpec(path=path, site=site, draws=int(draws), seed=int(seed), shared=shared, vents=vents,
@@ -417,6 +427,20 @@ def _series(vents, sections) -> int:
     for parsed in sections.values():
         table = parsed.get("table") if isinstance(parsed, dict) else None
         n += 4 + 4 * len(getattr(table, "names", ()))
+    return n
+
+
+def _raw_series(raw: dict) -> int:
+    """A lower bound of ``_series`` from the file as read, before any parser runs: its vents' methods, its
+    sections."""
+    n = 8
+    for vent in raw.get("vent", []) if isinstance(raw.get("vent"), list) else []:
+        for value in vent.values() if isinstance(vent, dict) else ():
+            if isinstance(value, dict):
+                n += 4
+            elif isinstance(value, list):
+                n += 4 * sum(isinstance(v, dict) for v in value)
+    n += 4 * sum(isinstance(v, dict) for k, v in raw.items() if k not in ("site", "run", "shared", "vent"))
     return n
 
 
