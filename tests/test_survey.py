@@ -192,3 +192,14 @@ def test_a_draw_count_that_cannot_fit_is_refused_before_anything_draws(monkeypat
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--draws" in err[0] and "2000000" in err[0] and "run.draws" not in err[0]
     assert reduced == []
+
+
+def test_survey_json_prints_each_headline_interval_with_its_median(tmp_path, capsys):
+    # --json prints the report's location and every 5 / 50 / 95 % point of summary.json (SI units in the keys)
+    path = _write(tmp_path, SITE + VENT.format(name="A", factor="1.0"))
+    assert main(["survey", str(path), "--out", str(tmp_path / "out"), "--quiet", "--json", "--budget", "off"]) == 0
+    printed = json.loads(capsys.readouterr().out)
+    summary = json.loads((tmp_path / "out" / "summary.json").read_text())
+    for q in ("p05", "p50", "p95"):
+        assert printed[f"total_heat_power_W_{q}"] == summary[f"total_heat_power_W_{q}"]
+    assert printed["report"].endswith("report.html")

@@ -127,7 +127,7 @@ def run(args) -> int:
 
         print_json({"report": str(path), "results": str(out),
                     **{k: v for k, v in json.loads((out / "summary.json").read_text()).items()
-                       if k.endswith(("_MW_median", "_MW_p05", "_MW_p95", "_median", "_p05", "_p95"))}})
+                       if k.endswith(("_p05", "_p50", "_p95"))}})
         return 0
     s = result.total
     if s is not None:
