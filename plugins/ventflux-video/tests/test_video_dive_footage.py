@@ -114,13 +114,27 @@ def test_thread_count_is_measured_and_kept():
     assert cc._thread_count() == n  # measured once per process
 
 
-def test_bspline_coefficients_match_scipy():
+def _spline_at_nodes(coef, taps):
+    """Sum of ``coef[i + k] * taps[|k|]`` along both axes, whole-sample mirror beyond the edges."""
+    m = len(taps) - 1
+    out = np.asarray(coef, float)
+    for axis in (0, 1):
+        pad = np.pad(out, [(m, m) if a == axis else (0, 0) for a in (0, 1)], mode="reflect")
+        n = out.shape[axis]
+        out = sum(taps[abs(k)] * np.take(pad, np.arange(m + k, m + k + n), axis=axis) for k in range(-m, m + 1))
+    return out
+
+
+def test_bspline_coefficients_interpolate_the_frame():
     from scipy import ndimage
 
+    # Interpolating B-spline coefficients reproduce the pixels when the spline is sampled at the
+    # nodes [Unser 1999, eqs. 2-3]: B3 = (1, 4, 1)/6 and B5 = (1, 26, 66, 26, 1)/120 at the integers.
     img = np.random.default_rng(0).random((40, 57)).astype(np.float32)
-    for order in (3, 5):
-        ref = ndimage.spline_filter(img.astype(float), order=order, mode="mirror")
-        assert np.allclose(cc.spline_coefficients(img, order), ref, atol=1e-5)
+    for order, taps in ((3, (4 / 6, 1 / 6)), (5, (66 / 120, 26 / 120, 1 / 120))):
+        coef = cc.spline_coefficients(img, order)
+        assert coef.dtype == np.float32 and coef.shape == img.shape
+        assert np.allclose(_spline_at_nodes(coef, taps), img, atol=2e-5)
         sampled = cc.deform_frame(img, np.full(img.shape, 0.3, np.float32), np.full(img.shape, -0.45, np.float32),
                                   order=order)
         yy, xx = np.mgrid[0:40, 0:57]
