@@ -20,9 +20,10 @@ the stratification scale) alone, and the spreading volume flux is α² times
 one. The emulator tabulates log G, one coordinate instead of two: a measured
 cast's layering puts fine structure into the rise as a function of the
 flux, which a dense 1-D grid follows where a coarse grid in α could not.
-(The integrator's step sequence depends on F, so the invariance holds to
-its discretization error, about 1e-4 in log z; the check below measures it
-with the interpolation error.)
+(The integrator steps a pure plume on the grid of its G, not of F, so the
+invariance holds for the discrete solutions too, to rounding; what remains
+between the nodes is the rise's step-to-step roughness along G, which the
+check below measures with the interpolation error.)
 
 The interpolation error is controlled, not assumed: after the build, the
 model is integrated directly at points between the nodes and compared with

@@ -227,7 +227,14 @@ def _forward_integral(column, H, alpha, scale, U, shape, source=None, track=Fals
         src = integral.forced_plume(column, *(np.broadcast_to(np.asarray(v, float), np.shape(alpha))
                                               for v in source))
         F = src.F
-    span, z0 = _grid(column, F, U) if grid is None else grid
+    if grid is None:
+        # A pure plume without a current takes the step grid of its similarity variable G = F/α² (scaled to
+        # the default α): then members of one G integrate in exactly the same steps, whatever their α (see
+        # ``ventflux.plume.emulator``), and the expected rise it sets the span from is the better one.
+        G = F * (integral.DEFAULT_ENTRAINMENT / np.asarray(alpha, float)) ** 2 if source is None and U is None else F
+        span, z0 = _grid(column, G, U)
+    else:
+        span, z0 = grid
     if source is None:  # a pure plume starts on the similarity solution at the grid's start height
         src = integral.pure_plume(column, H, alpha, z0)
     if U is None:
