@@ -404,7 +404,8 @@ def heat_power_from_rise_height(rise_height, stratification, level="maximum", me
                                 entrainment=integral.DEFAULT_ENTRAINMENT, current=None, draws=None,
                                 seed=DEFAULT_SEED, vent_depth=None, pressure=None, ambient_temperature=None,
                                 ambient_salinity=None, latitude=None, longitude=None,
-                                stratification_scale=None, track=False, predrawn=False) -> PlumeRiseResult:
+                                stratification_scale=None, track=False, predrawn=False,
+                                emulated_by: PlumeRiseResult | None = None) -> PlumeRiseResult:
     """Heat power and buoyancy flux of a plume from its observed rise height.
 
     Parameters
@@ -441,6 +442,11 @@ def heat_power_from_rise_height(rise_height, stratification, level="maximum", me
         The array inputs are already Monte Carlo draws (shared with other
         estimates): solve them as they are and summarize (seed None); a draw
         outside the allowed range gives NaN and counts in ``failed``.
+    emulated_by : PlumeRiseResult, optional
+        A Monte Carlo result for the same column and level: its forward
+        emulator (when it has one) answers this call, as it answers the
+        nominal of a call with ``draws`` (a run's nominal solved apart from
+        its draws: no second inversion by integration).
 
     Returns
     -------
@@ -448,7 +454,8 @@ def heat_power_from_rise_height(rise_height, stratification, level="maximum", me
     """
     return _estimate("inverse", rise_height, stratification, level, method, entrainment, current, draws, seed,
                      vent_depth, pressure, ambient_temperature, ambient_salinity, latitude, longitude,
-                     stratification_scale, track, None, predrawn)
+                     stratification_scale, track, None, predrawn,
+                     reuse=None if emulated_by is None else emulated_by._emulator)
 
 
 def rise_height_from_heat_power(heat_power, stratification, level="maximum", method="integral",
@@ -472,7 +479,7 @@ def rise_height_from_heat_power(heat_power, stratification, level="maximum", met
 
 def _estimate(direction, value, stratification, level, method, entrainment, current, draws, seed, vent_depth,
               pressure, ambient_temperature, ambient_salinity, latitude, longitude, stratification_scale, track,
-              source, predrawn=False):
+              source, predrawn=False, reuse=None):
     _check_choice(method, METHODS, "method")
     _check_choice(level, LEVELS, "level")
     if source is not None and method != "integral":
@@ -496,7 +503,8 @@ def _estimate(direction, value, stratification, level, method, entrainment, curr
         _check_power(centre(value))
     sampled = _sample({k: v for k, v in inputs.items() if v is not None}, draws, seed)
     n = _size(sampled)
-    res = _solve(direction, sampled, n, column, Nnom, current, level, method, source, track=track and draws is None)
+    res = _solve(direction, sampled, n, column, Nnom, current, level, method, source, track=track and draws is None,
+                 reuse=reuse)
     if draws is not None:
         res.nominal = _solve(direction, {k: nominal(v) for k, v in inputs.items() if v is not None}, 1, column, Nnom,
                              current, level, method, source, track=track, reuse=res._emulator)

@@ -108,7 +108,7 @@ def plume_rise_propagation(inputs: dict, stratification, *, draws: SharedDraws |
                 ambient_temperature=ambient_temperature, ambient_salinity=ambient_salinity, latitude=latitude,
                 longitude=longitude)
 
-    def solve(predrawn, **a):
+    def solve(predrawn, emulated_by=None, **a):
         strat = stratification
         if strat is None:
             strat = a.pop("buoyancy_frequency")
@@ -118,7 +118,8 @@ def plume_rise_propagation(inputs: dict, stratification, *, draws: SharedDraws |
         current = current_profile if current_profile is not None else a.pop("current", None)
         if "height" in a:
             return heat_power_from_rise_height(a.pop("height"), strat, current=current, **kw, **site,
-                                               predrawn=predrawn, track=not predrawn and track)
+                                               predrawn=predrawn, track=not predrawn and track,
+                                               emulated_by=emulated_by)
         return rise_height_from_heat_power(a.pop("heat_power", None), strat, current=current, source=source, **kw,
                                            **site, predrawn=predrawn, track=not predrawn and track)
 
@@ -137,7 +138,7 @@ def plume_rise_propagation(inputs: dict, stratification, *, draws: SharedDraws |
         policy.enforce(keep, f"{vent}/plume_rise", f"{n - prop.kept} of {n} draws outside an input's range, "
                                                    f"{failed} without a plume solution", "draws")
     nominal_inputs = {k: nominal(v) for k, v in given.items()}
-    nom = solve(False, **nominal_inputs)
+    nom = solve(False, emulated_by=prop.result, **nominal_inputs)  # the draws' emulator answers it, if built
     res = replace(res, nominal=nom, draws=n, seed=shared.seed, failed=n - int(keep.sum()),
                   summary={k: replace(s, seed=shared.seed) for k, s in res.summary.items()})
     return PlumePropagation(result=res, heat_power=Q_(H, "W"), unphysical=n - int(keep.sum()), n_draws=n,
