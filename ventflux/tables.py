@@ -43,7 +43,8 @@ def _rows(path):
         for n, line in enumerate(fh, 1):
             if not line.strip() or line.lstrip().startswith("#"):
                 continue
-            yield n, next(csv.reader([line]))
+            # a line without quotes splits exactly as the csv module splits it, many times faster
+            yield n, (line.rstrip("\r\n").split(",") if '"' not in line else next(csv.reader([line])))
 
 
 def read_quantity_table(path, columns: dict, optional: dict | None = None, alternatives=(),
@@ -115,7 +116,11 @@ def read_quantity_table(path, columns: dict, optional: dict | None = None, alter
         if name not in found:
             continue
         i, unit, label = found[name]
-        values = np.empty(len(data))
+        values = _numbers([cells[i] if i < len(cells) else "" for _, cells in data])
+        if values is not None:
+            out[name] = Q_(values, unit or "dimensionless")
+            continue
+        values = np.empty(len(data))  # some cell is empty, not a number or not finite: each one is named
         for r, (n, cells) in enumerate(data):
             cell = cells[i].strip() if i < len(cells) else ""
             if allow_missing and cell.lower() in ("", "nan"):
@@ -132,6 +137,15 @@ def read_quantity_table(path, columns: dict, optional: dict | None = None, alter
         out[name] = Q_(values, unit or "dimensionless")
     errs.raise_if_any()
     return QuantityTable(path=path, columns=out, lines=lines)
+
+
+def _numbers(cells: list[str]) -> np.ndarray | None:
+    """The cells as finite floats, or None when any is not one (the caller then names each such cell)."""
+    try:
+        values = np.fromiter(map(float, cells), float, len(cells))
+    except ValueError:
+        return None
+    return values if np.isfinite(values).all() else None
 
 
 def _check_unit(unit, dimension, label, where):
