@@ -95,6 +95,25 @@ def _tasks_run_elsewhere():
     assert os.getpid() not in pids and len(pids) == 3
 
 
+def test_a_forked_task_is_given_its_share_of_the_cores():
+    _in_a_fresh_process("_cores_are_shared")
+
+
+def _task_cores(_k):
+    from ventflux.executor import task_cores
+
+    return task_cores()
+
+
+def _cores_are_shared():
+    from ventflux.executor import task_cores
+
+    here = task_cores()
+    assert here == len(os.sched_getaffinity(0))
+    assert ForkExecutor(2).map(_task_cores, [(1,), (2,), (3,)]) == [max(1, here // 2)] * 3
+    assert task_cores() == here  # the caller keeps all of its cores
+
+
 def test_a_process_with_other_threads_runs_its_tasks_itself():
     stop = threading.Event()
     t = threading.Thread(target=stop.wait)

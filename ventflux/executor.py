@@ -63,11 +63,27 @@ class SerialExecutor:
 
 
 _FORK_TASKS: list = []  # (fn, args) of the forked executor's current map, inherited by its workers
+_FORK_SHARE = 1  # worker processes of the current forked map: they share the machine's cores
+_SIBLINGS = 1  # in a forked worker, the processes its cores are shared with (itself included)
 
 
 def _run_forked(i: int):
+    global _SIBLINGS
+    _SIBLINGS = _FORK_SHARE
     fn, args = _FORK_TASKS[i]
     return fn(*args)
+
+
+def task_cores() -> int:
+    """Cores one task may use: this process's usable cores, shared out among the forked workers when in one.
+
+    A method that can use threads (the video correlation) asks here: in a survey's forked worker its
+    sibling workers already keep the other cores busy, and threads would only contend with them.
+    """
+    import os
+
+    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
+    return max(1, cores // _SIBLINGS)
 
 
 class ForkExecutor:
@@ -97,12 +113,14 @@ class ForkExecutor:
 
         if not self.usable(len(arguments)):
             return SerialExecutor().map(fn, arguments, on_done)
+        global _FORK_SHARE
         _FORK_TASKS[:] = [(fn, a) for a in arguments]
+        _FORK_SHARE = min(self.workers, len(arguments))
         out: list = [None] * len(arguments)
         failed = []
         try:
             # with the fork method every worker is forked at the first submit, before the pool starts its thread
-            with ProcessPoolExecutor(min(self.workers, len(arguments)),
+            with ProcessPoolExecutor(_FORK_SHARE,
                                      mp_context=multiprocessing.get_context("fork")) as pool:
                 futures = [pool.submit(_run_forked, i) for i in range(len(arguments))]
                 for i, f in enumerate(futures):
@@ -115,6 +133,7 @@ class ForkExecutor:
                         on_done(i, out[i])
         finally:
             _FORK_TASKS.clear()
+            _FORK_SHARE = 1
         for i in failed:
             out[i] = fn(*arguments[i])
             if on_done is not None:
@@ -248,5 +267,5 @@ def estimate_survey(vents: Sequence, methods: dict, sections_parsed: dict, secti
 
 
 __all__ = ["AUTO", "SERIAL", "Executor", "ExecutorInfo", "ForkExecutor", "SerialExecutor", "available_executors",
-           "estimate_survey", "open_executor"]
+           "estimate_survey", "open_executor", "task_cores"]
 

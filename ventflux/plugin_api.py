@@ -50,7 +50,8 @@ Vocabulary
     (old spellings of options, keys and CSV columns, accepted for one release with one deprecation line).
 Executors
     ``Executor`` (the protocol: ``map(fn, arguments, on_done)``), ``ExecutorInfo`` (what the
-    ``ventflux_executors`` hook returns), ``SerialExecutor`` (the in-process default).
+    ``ventflux_executors`` hook returns), ``SerialExecutor`` (the in-process default), ``task_cores``
+    (cores a task may use for threads: shared out among a survey's forked workers).
 """
 
 from __future__ import annotations
@@ -61,7 +62,7 @@ from .cli.output import add_output_options, print_json, print_table, write_outpu
 from .cachedir import cached_arrays
 from .diffuse import diffuse_discharge
 from .errors import Collector, InputError, InputErrors
-from .executor import Executor, ExecutorInfo, SerialExecutor
+from .executor import Executor, ExecutorInfo, SerialExecutor, task_cores
 from .hookspecs import hookimpl
 from .io import (
     atomic_directory,
@@ -140,6 +141,7 @@ __all__ = [
                           "Executor",
                           "ExecutorInfo",
                           "SerialExecutor",
+                          "task_cores",
                           "CORE_VERSION",
                           "DIMENSIONS",
                           "STANDARD_ATMOSPHERE",

@@ -24,6 +24,7 @@ from __future__ import annotations
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import Any
 
 import pint
 
@@ -806,7 +807,7 @@ def _check_plume_solvable(f: Fields, plume, site) -> None:
     if site.ctd is not None and plume.get("buoyancy_frequency") is None:
         from .. import profiles
 
-        kwargs: dict[str, object] = {"latitude": site.latitude, "longitude": site.longitude}
+        kwargs: dict[str, Any] = {"latitude": site.latitude, "longitude": site.longitude}
         if site.ctd_window is not None:
             kwargs["window"] = site.ctd_window
         try:

@@ -344,3 +344,26 @@ name = "A"
     assert main(["survey", str(survey), "--check"]) == 2
     err = capsys.readouterr().err
     assert "vent[0].video.orifice" in err and "300 x 400 frame" in err
+
+
+def test_a_clips_header_is_read_once_per_process_until_the_file_changes(tmp_path, monkeypatch):
+    import os
+    import shutil
+    from pathlib import Path
+
+    from ventflux_video import frames
+
+    clip = tmp_path / "clip.mp4"
+    shutil.copy(Path(__file__).resolve().parents[3] / "examples" / "oskeran-ridge" / "data" / "gildhorn_jet.mp4",
+                clip)
+    calls = []
+    real = frames._probe_video
+    monkeypatch.setattr(frames, "_probe_video", lambda src: calls.append(src) or real(src))
+    a, b = FrameStream(clip), FrameStream(clip)
+    assert len(calls) == 1 and a.frame_shape == b.frame_shape and a.expected_frames == b.expected_frames
+    a.times[0] = -1.0  # each stream has its own copy of the times
+    assert b.times[0] == 0.0
+    st = clip.stat()
+    os.utime(clip, ns=(st.st_atime_ns, st.st_mtime_ns + 1_000_000))
+    FrameStream(clip)
+    assert len(calls) == 2

@@ -234,7 +234,10 @@ def _peak_search(corr, norm=None, lag_of_index_zero=0):
 
 
 def _usable_cores():
-    return len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
+    """Cores this process may use (shared out among a survey's forked workers: ``task_cores``)."""
+    from ventflux.plugin_api import task_cores
+
+    return task_cores()
 
 
 def _thread_count():

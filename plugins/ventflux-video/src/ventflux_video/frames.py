@@ -147,8 +147,8 @@ class FrameStream:
             native_rate, total = None, self._files[-1][0] + 1  # gaps are announced frames never delivered
         elif path.is_file():
             self.kind = "video"
-            native_rate, total, self.frame_shape = self._probe_video()
-            self.times = container_times(self.source)
+            native_rate, total, self.frame_shape, times = _video_header(self.source)
+            self.times = None if times is None else times.copy()
             if self.times is not None and self.times.size >= 2:
                 steps = np.diff(self.times)
                 if np.all(steps > 0):
@@ -208,30 +208,6 @@ class FrameStream:
                 return img.shape
         raise InputError("clip", self.source, "an image sequence with at least one readable image")
 
-    def _probe_video(self):
-        import imageio_ffmpeg
-
-        for attempt in (1, 2):
-            try:
-                gen = imageio_ffmpeg.read_frames(self.source, pix_fmt="gray", bpp=1)
-                meta = next(gen)
-                gen.close()
-                break
-            except Exception as err:  # ffmpeg's reasons vary: no moov atom, invalid data, ...
-                # imageio-ffmpeg waits 10 s for ffmpeg's header; on a loaded machine a sound file can miss that
-                # once, so a file is refused only when a second try fails too (a broken one fails in milliseconds)
-                if attempt == 1 and str(err).startswith("Could not load meta information"):
-                    continue
-                reason = str(err).splitlines()[0] if str(err) else type(err).__name__
-                raise InputError("clip", self.source,
-                                 f"a readable video file (ffmpeg could not open it: {reason}; "
-                                 "truncated or not a video?)") from None
-        w, h = meta["size"]
-        fps = meta.get("fps") or None
-        dur = meta.get("duration") or None
-        total = int(round(dur * fps)) if (fps and dur) else None
-        return fps, total, (int(h), int(w))
-
     # -- iteration ------------------------------------------------------------------
     def __iter__(self):
         from tqdm import tqdm
@@ -289,6 +265,47 @@ class FrameStream:
                 i += 1
         finally:
             gen.close()
+
+
+#: A video's header and frame times, read once per process: (path, size, modification time) -> (frame rate, frames,
+#: shape, times). A survey reads them when it checks the file; its forked workers inherit them.
+_HEADERS: dict = {}
+
+
+def _video_header(source):
+    """(frame rate or None, frame count or None, (rows, columns), container times or None) of a video file."""
+    import os
+
+    st = os.stat(source)
+    key = (os.path.abspath(source), st.st_size, st.st_mtime_ns)
+    if key not in _HEADERS:
+        _HEADERS[key] = (*_probe_video(source), container_times(source))
+    return _HEADERS[key]
+
+
+def _probe_video(source):
+    import imageio_ffmpeg
+
+    for attempt in (1, 2):
+        try:
+            gen = imageio_ffmpeg.read_frames(source, pix_fmt="gray", bpp=1)
+            meta = next(gen)
+            gen.close()
+            break
+        except Exception as err:  # ffmpeg's reasons vary: no moov atom, invalid data, ...
+            # imageio-ffmpeg waits 10 s for ffmpeg's header; on a loaded machine a sound file can miss that
+            # once, so a file is refused only when a second try fails too (a broken one fails in milliseconds)
+            if attempt == 1 and str(err).startswith("Could not load meta information"):
+                continue
+            reason = str(err).splitlines()[0] if str(err) else type(err).__name__
+            raise InputError("clip", source,
+                             f"a readable video file (ffmpeg could not open it: {reason}; "
+                             "truncated or not a video?)") from None
+    w, h = meta["size"]
+    fps = meta.get("fps") or None
+    dur = meta.get("duration") or None
+    total = int(round(dur * fps)) if (fps and dur) else None
+    return fps, total, (int(h), int(w))
 
 
 #: ffmpeg output options: pass every decoded frame through as stored (no constant-rate resampling).
