@@ -45,8 +45,14 @@ def render_figure(fig) -> tuple[bytes, bytes]:
     """
     import matplotlib
 
+    from matplotlib.layout_engine import PlaceHolderLayoutEngine
+
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=FIGURE_DPI)
+    if fig.get_layout_engine() is not None and not isinstance(fig.get_layout_engine(), PlaceHolderLayoutEngine):
+        # The PNG's drawing placed the axes: the SVG keeps those places instead of solving the layout again
+        # (constrained layout costs about 0.2 s a figure, measured on the demo's plume figures).
+        fig.set_layout_engine("none")
     svg = io.BytesIO()
     with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "ventflux"}):
         fig.savefig(svg, format="svg", metadata={"Date": None})
