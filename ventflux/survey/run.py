@@ -104,7 +104,13 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor
     ctx = RunContext(draws=draws, site=site, pressure=pressure, ambient_temperature=ambient,
                      ambient_salinity=salinity, stratification=strat, progress=progress, policy=policy)
 
-    from ..executor import estimate_survey  # serially here, or one task per method and section (same numbers)
+    from ..executor import SerialExecutor, estimate_survey  # serially here, or one task per method and section
+
+    if executor is not None and not isinstance(executor, SerialExecutor):
+        # Methods draw figures in their tasks and the report draws its own here: import matplotlib once before
+        # the tasks are forked, not once in every worker and again here (about 0.45 s each time, measured)
+        import matplotlib.backends.backend_agg  # noqa: F401
+        import matplotlib.figure  # noqa: F401
 
     per_vent, sec = estimate_survey(spec.vents, methods, spec.sections, sections, ctx, executor)
     vents = [VentResult(name=v.name, methods=est, heat_power=None) for v, est in zip(spec.vents, per_vent, strict=True)]
