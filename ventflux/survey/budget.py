@@ -32,6 +32,7 @@ from __future__ import annotations
 
 import copy
 import time
+from collections.abc import Callable
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -434,6 +435,15 @@ def write_budget(result, out_dir, images_html, renderer=None) -> str:
     ``images_html(stem, caption, svg_bytes)`` renders a figure for the report; ``renderer`` (a
     ``ventflux.survey.rendering.FigureRenderer``) renders the figures, by default in this process.
     """
+    return start_budget(result, out_dir, images_html, renderer)()
+
+
+def start_budget(result, out_dir, images_html, renderer=None) -> Callable[[], str]:
+    """``write_budget`` in two steps: compute and write the tables, hand the figures to ``renderer``; the
+    function returned waits for the figures, writes them and returns the report section.
+
+    The caller can write something else while the figures render (the survey writes its netCDF file).
+    """
     import html
     import json
 
@@ -441,10 +451,10 @@ def write_budget(result, out_dir, images_html, renderer=None) -> str:
 
     mode = getattr(result, "budget_mode", "draws")
     if mode == "off" or result.draws is None:
-        return ""
+        return lambda: ""
     if not _named(result.draws):
-        return ("<h2>Uncertainty budget</h2><p>Every input of this survey is exact: there is no variance to "
-                "attribute to an input.</p>")
+        return lambda: ("<h2>Uncertainty budget</h2><p>Every input of this survey is exact: there is no variance "
+                        "to attribute to an input.</p>")
     b = survey_budget(result, mode)
     pd.DataFrame(csv_rows(b.rows())).to_csv(out_dir / "tables" / "budget.csv", index=False)
     from ..io import json_ready as _clean
@@ -470,13 +480,17 @@ def write_budget(result, out_dir, images_html, renderer=None) -> str:
 
     r = renderer if renderer is not None else FigureRenderer(workers=0)
     jobs = [(stem, caption, r.submit(fig)) for stem, fig, caption in figures(b)]
-    for stem, caption, job in jobs:
-        png, svg = job.result()  # PNG at print resolution for the folder, SVG for the report
-        (out_dir / "figures" / f"{stem}.png").write_bytes(png)
-        parts.append(images_html(stem, caption, svg))
-    parts.append("<p>Uncertain inputs and their distributions: " +
-                 esc("; ".join(f"{label(k, '')} = {v}" for k, v in b.inputs.items())) + ".</p>")
-    return "\n".join(parts)
+
+    def finish() -> str:
+        for stem, caption, job in jobs:
+            png, svg = job.result()  # PNG at print resolution for the folder, SVG for the report
+            (out_dir / "figures" / f"{stem}.png").write_bytes(png)
+            parts.append(images_html(stem, caption, svg))
+        parts.append("<p>Uncertain inputs and their distributions: " +
+                     esc("; ".join(f"{label(k, '')} = {v}" for k, v in b.inputs.items())) + ".</p>")
+        return "\n".join(parts)
+
+    return finish
 
 
 __all__ = [
@@ -488,5 +502,6 @@ __all__ = [
     "label",
     "result_draws",
     "survey_budget",
+    "start_budget",
     "write_budget",
 ]

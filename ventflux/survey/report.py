@@ -389,7 +389,7 @@ def write_results(result, out_dir) -> Path:
         (tmp / "summary_table.md").write_text(paper_table.markdown(paper, f"Heat and water discharge: "
                                                                           f"{result.spec.site.name}"),
                                               encoding="utf-8")
-        from .budget import write_budget
+        from .budget import start_budget
         from .netcdf import write_netcdf
         from .rendering import FigureRenderer
 
@@ -401,10 +401,12 @@ def write_results(result, out_dir) -> Path:
                 pending.append((stem, caption, fig if isinstance(fig, bytes) else renderer.submit(fig)))
             (tmp / "summary.json").write_text(json.dumps(_clean(summary), indent=2, ensure_ascii=False) + "\n",
                                               encoding="utf-8")
+            # Uncertainty budget: tables/budget.csv, budget.json, its figures and its report section; its figures
+            # render while this process writes the netCDF file (it would otherwise wait for them)
+            finish_budget = start_budget(result, tmp, _figure, renderer)
             # results.nc: the whole result in one netCDF file
             write_netcdf(result, tmp / "results.nc", draws=getattr(result.spec, "netcdf_draws", False))
-            # Uncertainty budget: tables/budget.csv, budget.json, its figures and its report section.
-            budget_html = write_budget(result, tmp, _figure, renderer)
+            budget_html = finish_budget()
             images = []
             for stem, caption, job in pending:
                 png, shown = (job, job) if isinstance(job, bytes) else job.result()
