@@ -633,16 +633,19 @@ def _tap_polynomials(order):
 
 
 def _bspline_weights(t, order=SPLINE_ORDER):
-    """Weights of the ``order + 1`` taps of the B-spline of ``order`` at fraction ``t`` [5] (Horner form)."""
-    out = []
-    for coef in _tap_polynomials(order):
-        w = t * coef[0]
-        w += coef[1]
-        for c in coef[2:]:
-            w *= t
-            w += c
-        out.append(w)
-    return out
+    """Weights of the ``order + 1`` taps of the B-spline of ``order`` at fraction ``t`` [5], in ``t``'s precision.
+
+    The powers of ``t`` once, then every tap's polynomial in one small matrix product (a dozen array
+    operations instead of sixty Horner steps, on the small bands of ``deform_frame``).
+    """
+    t = np.asarray(t)
+    powers = np.empty((order + 1,) + t.shape, t.dtype)  # t^order … t, 1
+    powers[order] = 1
+    powers[order - 1] = t
+    for k in range(order - 2, -1, -1):
+        np.multiply(powers[k + 1], t, out=powers[k])
+    coef = np.asarray(_tap_polynomials(order), t.dtype)  # (taps, powers), highest power first
+    return list(np.tensordot(coef, powers, axes=1))
 
 
 def spline_coefficients(frame, order=SPLINE_ORDER):
@@ -713,14 +716,17 @@ def deform_frame(frame, dy, dx, coefficients=None, order=SPLINE_ORDER):
         x = np.clip(cols + dx[s:e], -1, w - 1)
         iy, ix = np.floor(y), np.floor(x)
         wy, wx = _bspline_weights(y - iy, order), _bspline_weights(x - ix, order)
-        base = ((iy + 1) * wp + ix + 1).astype(np.int32)  # first tap (1 - m, 1 - m) in the padded coefficients
+        # first tap (1 - m, 1 - m) in the padded coefficients; native index width and mode "clip" (the indices
+        # are in range by construction) let ``take`` write straight into ``out`` (measured 2.4x faster than
+        # int32 indices with the default mode, which converts them and buffers the output)
+        base = ((iy + 1) * wp + ix + 1).astype(np.intp)
         acc = out[s:e]
         row, tap = np.empty_like(acc), np.empty_like(acc)
         for j in range(order + 1):
             at = base + j * wp if j else base
-            np.multiply(flat.take(at, out=row), wx[0], out=row)
+            np.multiply(flat.take(at, out=row, mode="clip"), wx[0], out=row)
             for i in range(1, order + 1):  # the next tap along the row: the same indices into a view moved by i
-                np.multiply(shifted[i].take(at, out=tap), wx[i], out=tap)
+                np.multiply(shifted[i].take(at, out=tap, mode="clip"), wx[i], out=tap)
                 row += tap
             if j:
                 row *= wy[j]
