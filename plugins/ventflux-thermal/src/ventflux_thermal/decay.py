@@ -35,7 +35,6 @@ import hashlib
 from pathlib import Path
 
 import numpy as np
-from scipy import special
 from ventflux.plugin_api import cached_arrays
 
 # Integration grid in u (log-spaced); the upper end keeps exp(−τu²) < 1e-30 for τ ≥ 1e-3.
@@ -45,6 +44,8 @@ _LOG_TAU = np.linspace(np.log(1e-3), np.log(1e6), 700)
 
 def cylinder_decay_exact(alpha: float, tau) -> np.ndarray:
     """F(α, τ) by direct quadrature, vectorized over τ (τ > 0)."""
+    from scipy import special  # here: only a table's build needs it, and the table is cached per machine
+
     tau = np.asarray(tau, float)
     u = _U
     d = (u * special.j0(u) - alpha * special.j1(u)) ** 2 + (u * special.y0(u) - alpha * special.y1(u)) ** 2
