@@ -126,3 +126,36 @@ def test_a_laid_out_figure_keeps_its_layout_in_the_svg():
     for a, b in zip(here, there, strict=True):
         np.testing.assert_allclose(a, b, atol=0.5)
     assert _content(svg)[0] == _content(fresh.getvalue())[0]
+
+
+@pytest.mark.parametrize("label, text", [(r"$\mathdefault{10^{-2}}$", "10⁻²"), (r"$\mathdefault{10^{0}}$", "10⁰"),
+                                         (r"$\mathdefault{2\times10^{1}}$", "2×10¹"),
+                                         (r"$\mathdefault{10^{15}}$", "10¹⁵"), ("", ""), ("0.5", "0.5")])
+def test_log_tick_labels_in_plain_text(label, text):
+    from ventflux.survey.rendering import unicode_power
+
+    assert unicode_power(label) == text
+
+
+def test_a_log_axis_is_labelled_without_mathtext(monkeypatch):
+    # The same ticks carry labels as with matplotlib's own formatter (a span under one decade labels minor
+    # ticks), set as plain text: the SVG holds them as text, and mathtext is never parsed.
+    import matplotlib.mathtext
+
+    from matplotlib.figure import Figure
+
+    def refuse(*a, **k):
+        raise AssertionError("mathtext parsed")
+
+    fig = Figure(figsize=(4, 3))
+    ax1, ax2 = fig.subplots(1, 2)
+    ax1.plot([1e-3, 1e2], [1, 2])
+    ax1.set_xscale("log")
+    ax2.plot([20, 80], [1, 2])
+    ax2.set_xscale("log")
+    monkeypatch.setattr(matplotlib.mathtext.MathTextParser, "parse", refuse)
+    _, svg = render_figure(fig)
+    texts = set(_content(svg)[0])
+    decades = {t.decode() for t in texts if t.startswith("10".encode()) and not t.strip().isdigit()}
+    assert "10⁰" in decades and any("⁻" in t for t in decades), decades
+    assert {"2×10¹".encode(), "6×10¹".encode()} <= texts

@@ -19,6 +19,7 @@ from __future__ import annotations
 import io
 import os
 import pickle
+import re
 
 #: Resolution of the PNG figures in the results folder [dots per inch] (print quality; the report embeds SVG).
 FIGURE_DPI = 200
@@ -38,6 +39,39 @@ def subplots(*args, figsize=None, dpi=None, **kwargs):
     return fig, fig.subplots(*args, **kwargs)
 
 
+_SUPERSCRIPT = str.maketrans("0123456789-−", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻⁻")
+_MATHTEXT_POWER = re.compile(r"^\$\\mathdefault\{(?:([0-9.]+)\\times)?(10)\^\{([-−]?[0-9]+)\}\}\$$")
+
+
+def unicode_power(label: str) -> str:
+    """A log axis's tick label ``$\\mathdefault{2\\times10^{-3}}$`` as plain text ``2×10⁻³``.
+
+    Any other label is returned as it is.
+    """
+    m = _MATHTEXT_POWER.match(label)
+    if m is None:
+        return label
+    mantissa, base, power = m.groups()
+    return f"{mantissa + '×' if mantissa else ''}{base}{power.translate(_SUPERSCRIPT)}"
+
+
+def _plain_log_labels(fig) -> None:
+    """Log axes label their ticks in plain text (``10⁻²``) instead of matplotlib's mathtext.
+
+    The same ticks get labels (matplotlib's own formatter chooses them); only the text is set in Unicode
+    superscripts. Parsing mathtext was about a tenth of the rendering time (measured on the demo survey).
+    """
+    from matplotlib.ticker import FuncFormatter, LogFormatterSciNotation
+
+    for ax in fig.axes:
+        for axis in (ax.xaxis, ax.yaxis):
+            for get, set_ in ((axis.get_major_formatter, axis.set_major_formatter),
+                              (axis.get_minor_formatter, axis.set_minor_formatter)):
+                f = get()
+                if type(f) is LogFormatterSciNotation:
+                    set_(FuncFormatter(lambda x, pos, f=f: unicode_power(f(x, pos))))
+
+
 def render_figure(fig) -> tuple[bytes, bytes]:
     """A matplotlib figure as (PNG at ``FIGURE_DPI``, SVG): the PNG for the folder, the SVG for the report.
 
@@ -47,6 +81,7 @@ def render_figure(fig) -> tuple[bytes, bytes]:
 
     from matplotlib.layout_engine import PlaceHolderLayoutEngine
 
+    _plain_log_labels(fig)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=FIGURE_DPI)
     if fig.get_layout_engine() is not None and not isinstance(fig.get_layout_engine(), PlaceHolderLayoutEngine):
