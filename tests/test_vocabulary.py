@@ -8,6 +8,8 @@ import re
 from pathlib import Path
 
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from ventflux import vocabulary as vocab
 from ventflux.cli import main
@@ -277,3 +279,18 @@ def test_a_plugin_command_s_error_with_json_is_json_too(capsys):
             {"field": "--strength", "value": "7", "allowed": "a number between 0 and 1", "where": "stand-in.csv:3"}]
     finally:
         pm.unregister(plugin)
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.sampled_from(["MW", "kW", "GW", "yr", "km^3/yr", "L/s", "degF", "mK", "GJ", "cm", "mm/yr", "bar", "MPa",
+                        "kJ/kg", "t/yr", "W/cm^2"]),
+       st.floats(-1e9, 1e9, allow_nan=False))
+def test_json_values_are_pints_conversion_to_si(unit, value):
+    # JSON carries SI: the remembered conversion per unit must give what pint gives for every value (affine units
+    # included: degF to K has an offset)
+    from ventflux.survey.si_keys import si_unit, to_si
+    from ventflux.units import ureg
+
+    si = si_unit(unit)
+    expect = float(ureg.Quantity(value, unit).to(si).magnitude)
+    assert to_si(value, unit, si) == pytest.approx(expect, rel=1e-12, abs=1e-9)

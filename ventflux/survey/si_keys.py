@@ -9,6 +9,7 @@ underscore and the statistic last (``heat_power_W_p50``). Temperatures stay in
 
 from __future__ import annotations
 
+import functools
 import math
 
 #: The SI unit a JSON key is written in, by dimension (first match wins).
@@ -22,8 +23,12 @@ _DIMENSIONLESS = ("", "1", "dimensionless")
 SI_NAMES = {"annual_volume": "volume_flux_ambient", "annual_mass": "mass_flux"}
 
 
+@functools.lru_cache(maxsize=256)
 def si_unit(unit: str) -> str:
-    """The SI unit a value in ``unit`` is written in for JSON (``'MW'`` → ``'W'``, ``'yr'`` → ``'s'``)."""
+    """The SI unit a value in ``unit`` is written in for JSON (``'MW'`` → ``'W'``, ``'yr'`` → ``'s'``).
+
+    Remembered per unit: a results folder asks for the same few units for thousands of cells.
+    """
     if unit in _DIMENSIONLESS:
         return ""
     if unit in ("degC", "°C"):
@@ -72,9 +77,18 @@ def to_si(value, unit: str, si: str):
         return value
     if isinstance(value, float) and not math.isfinite(value):
         return value
+    scale, offset = _conversion(unit, si)
+    return float(value) * scale + offset
+
+
+@functools.lru_cache(maxsize=256)
+def _conversion(unit: str, si: str) -> tuple[float, float]:
+    """``(scale, offset)`` with ``value_si = value * scale + offset``: every unit pint knows is affine in another of
+    its dimension (an offset only for temperatures), so two points give the conversion exactly."""
     from ..units import ureg
 
-    return float(ureg.Quantity(float(value), unit).to(si).magnitude)
+    zero = float(ureg.Quantity(0.0, unit).to(si).magnitude)
+    return float(ureg.Quantity(1.0, unit).to(si).magnitude) - zero, zero
 
 
 def json_row(row: dict) -> dict:
