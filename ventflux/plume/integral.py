@@ -130,6 +130,10 @@ class Column:
         self.beta0 = float(gsw.beta(self.SA0, self.CT0, self.p0))
         self.g = float(gsw.grav(self.latitude, self.p0))
         self._dh = np.diff(self.height)
+        # SA, CT and p as one table and its steps, so that ``at`` interpolates all three in one gather
+        self._table = np.vstack([self.SA, self.CT, self.p])
+        self._steps = np.diff(self._table, axis=1)
+        self._last = self.height.size - 2
 
     @property
     def top(self) -> float:
@@ -138,11 +142,11 @@ class Column:
 
     def at(self, z, scale=1.0):
         """SA, CT, sea pressure at heights ``z``; ``scale`` multiplies the anomalies from the vent (N² ∝ scale)."""
-        i = np.clip(np.searchsorted(self.height, z) - 1, 0, self.height.size - 2)
-        f = np.clip((z - self.height[i]) / self._dh[i], 0.0, None)
-        sa = self.SA[i] + f * (self.SA[i + 1] - self.SA[i])
-        ct = self.CT[i] + f * (self.CT[i + 1] - self.CT[i])
-        p = self.p[i] + f * (self.p[i + 1] - self.p[i])
+        # minimum/maximum rather than np.clip: this runs four times a step on a handful of members, where
+        # the call overhead is the cost
+        i = np.minimum(np.maximum(np.searchsorted(self.height, z) - 1, 0), self._last)
+        f = np.maximum((z - self.height[i]) / self._dh[i], 0.0)
+        sa, ct, p = self._table[:, i] + f * self._steps[:, i]
         if not np.isscalar(scale) or scale != 1.0:
             sa = self.SA0 + scale * (sa - self.SA0)
             ct = self.CT0 + scale * (ct - self.CT0)
@@ -246,12 +250,18 @@ class _Model:
         c = self.c
         sa, ct, p = c.at(z, self._take(self.scale, idx))
         Qs = np.maximum(Q, 1e-300)
-        ctp = c.CT0 + T / Qs
+        ctp = c.CT0 + T / Qs  # the plume's CT and SA, and their excess over the ambient's
         sap = c.SA0 + S / Qs
-        lin = c.g * (c.alpha0 * (ctp - ct) - c.beta0 * (sap - sa))
+        dct, dsa = ctp - ct, sap - sa
+        if self.linear:
+            return c.g * (c.alpha0 * dct - c.beta0 * dsa), sa, ct
+        hot = np.abs(dct) > START_ANOMALY
+        if hot.all():  # near the source every member is hot: the linear equation of state only
+            return c.g * (c.alpha0 * dct - c.beta0 * dsa), sa, ct
         teos = c.g * (gsw.rho(sa, ct, p) - gsw.rho(sap, ctp, p)) / c.rho0
-        hot = (np.abs(ctp - ct) > START_ANOMALY) | self.linear
-        return np.where(hot, lin, teos), sa, ct
+        if hot.any():
+            teos = np.where(hot, c.g * (c.alpha0 * dct - c.beta0 * dsa), teos)
+        return teos, sa, ct
 
 
 class VerticalModel(_Model):
@@ -270,7 +280,11 @@ class VerticalModel(_Model):
         M = np.sqrt(np.maximum(P, 0.0))
         dQ = 2.0 * self._take(self.alpha, idx) * np.sqrt(np.pi * M)
         gp, sa, ct = self.buoyancy(Q, T, S, s, idx)
-        d = np.vstack([dQ, 2.0 * gp * Q * Q, (ct - self.c.CT0) * dQ, (sa - self.c.SA0) * dQ])
+        d = np.empty_like(y)
+        d[0] = dQ
+        np.multiply(2.0 * gp, Q * Q, out=d[1])
+        np.multiply(ct - self.c.CT0, dQ, out=d[2])
+        np.multiply(sa - self.c.SA0, dQ, out=d[3])
         return d, gp
 
     def height(self, s, y):
