@@ -52,3 +52,15 @@ def test_missing_cells_read_as_nan_when_allowed(tmp_path):
     t = read_quantity_table(path, {"depth": "length"}, allow_missing=True)
     np.testing.assert_array_equal(t.columns["depth"].magnitude, [1.0, np.nan, np.nan, 2.0])
     np.testing.assert_array_equal(t.lines, [2, 3, 4, 5])
+
+
+@pytest.mark.parametrize("newline", ["\n", "\r\n", "\r"])
+def test_line_endings_and_a_byte_order_mark(tmp_path, newline):
+    # spreadsheet exports: Windows and old Mac line endings, a UTF-8 byte order mark, a trailing empty column
+    path = tmp_path / "t.csv"
+    text = newline.join(["depth [m],temperature [degC],", "1.5,2.25,", "3,4.5,"]) + newline
+    path.write_bytes(b"\xef\xbb\xbf" + text.encode("utf-8"))
+    t = read_quantity_table(path, {"depth": "length", "temperature": "temperature"})
+    np.testing.assert_array_equal(t.columns["depth"].magnitude, [1.5, 3.0])
+    np.testing.assert_array_equal(t.columns["temperature"].magnitude, [2.25, 4.5])
+    np.testing.assert_array_equal(t.lines, [2, 3])
