@@ -156,6 +156,6 @@ def test_a_log_axis_is_labelled_without_mathtext(monkeypatch):
     monkeypatch.setattr(matplotlib.mathtext.MathTextParser, "parse", refuse)
     _, svg = render_figure(fig)
     texts = set(_content(svg)[0])
-    decades = {t.decode() for t in texts if t.startswith("10".encode()) and not t.strip().isdigit()}
+    decades = {t.decode() for t in texts if t.startswith(b"10") and not t.strip().isdigit()}
     assert "10⁰" in decades and any("⁻" in t for t in decades), decades
     assert {"2×10¹".encode(), "6×10¹".encode()} <= texts
