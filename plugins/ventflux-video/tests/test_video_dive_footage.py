@@ -367,3 +367,10 @@ def test_a_clips_header_is_read_once_per_process_until_the_file_changes(tmp_path
     os.utime(clip, ns=(st.st_atime_ns, st.st_mtime_ns + 1_000_000))
     FrameStream(clip)
     assert len(calls) == 2
+    # only the last few files are kept (a series of many clips would otherwise keep every clip's frame times)
+    monkeypatch.setattr(frames, "_HEADERS_KEPT", 1)
+    other = tmp_path / "other.mp4"
+    shutil.copy(clip, other)
+    FrameStream(other)
+    FrameStream(clip)
+    assert len(calls) == 4 and len(frames._HEADERS) == 1

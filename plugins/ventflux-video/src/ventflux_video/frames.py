@@ -35,6 +35,7 @@ import glob
 import re
 import subprocess
 import sys
+from collections import OrderedDict
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -267,20 +268,28 @@ class FrameStream:
             gen.close()
 
 
-#: A video's header and frame times, read once per process: (path, size, modification time) -> (frame rate, frames,
-#: shape, times). A survey reads them when it checks the file; its forked workers inherit them.
-_HEADERS: dict = {}
-
-
 def _video_header(source):
-    """(frame rate or None, frame count or None, (rows, columns), container times or None) of a video file."""
+    """(frame rate or None, frame count or None, (rows, columns), container times or None) of a video file.
+
+    Read once per process and version of the file (path, size, modification time): a survey reads them when
+    it checks the file, and its forked workers inherit them. The last few files only (a long series of clips
+    would otherwise keep every clip's frame times).
+    """
     import os
 
     st = os.stat(source)
     key = (os.path.abspath(source), st.st_size, st.st_mtime_ns)
-    if key not in _HEADERS:
-        _HEADERS[key] = (*_probe_video(source), container_times(source))
+    if key in _HEADERS:
+        _HEADERS.move_to_end(key)
+    else:
+        _HEADERS[key] = (*_probe_video(source), container_times(source))  # a refusal names the path as given
+        while len(_HEADERS) > _HEADERS_KEPT:
+            _HEADERS.popitem(last=False)
     return _HEADERS[key]
+
+
+_HEADERS: OrderedDict = OrderedDict()
+_HEADERS_KEPT = 8
 
 
 def _probe_video(source):
