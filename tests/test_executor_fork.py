@@ -109,7 +109,7 @@ def _cores_are_shared():
     from ventflux.executor import task_cores
 
     here = task_cores()
-    assert here == len(os.sched_getaffinity(0))
+    assert here == len(os.sched_getaffinity(0))  # the process's own cores (its affinity)
     assert ForkExecutor(2).map(_task_cores, [(1,), (2,), (3,)]) == [max(1, here // 2)] * 3
     assert task_cores() == here  # the caller keeps all of its cores
 

@@ -74,16 +74,20 @@ def _run_forked(i: int):
     return fn(*args)
 
 
+def usable_cores() -> int:
+    """Cores this process may run on (its CPU affinity where the system tells it, else the machine's count)."""
+    import os
+
+    return len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
+
+
 def task_cores() -> int:
     """Cores one task may use: this process's usable cores, shared out among the forked workers when in one.
 
     A method that can use threads (the video correlation) asks here: in a survey's forked worker its
     sibling workers already keep the other cores busy, and threads would only contend with them.
     """
-    import os
-
-    cores = len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
-    return max(1, cores // _SIBLINGS)
+    return max(1, usable_cores() // _SIBLINGS)
 
 
 class ForkExecutor:
@@ -92,19 +96,16 @@ class ForkExecutor:
     name = "forked processes"
 
     def __init__(self, workers: int | None = None):
-        import os
-
-        self.workers = workers or min(FORK_WORKERS, os.cpu_count() or 1)
+        self.workers = workers or min(FORK_WORKERS, usable_cores())
 
     @staticmethod
     def usable(tasks: int) -> bool:
-        import os
         import sys
         import threading
 
         # Linux only: macOS system libraries are not safe across a fork (Python itself stopped forking there by
         # default), and Windows does not fork
-        return (tasks > 1 and (os.cpu_count() or 1) > 1 and threading.active_count() == 1
+        return (tasks > 1 and usable_cores() > 1 and threading.active_count() == 1
                 and sys.platform.startswith("linux"))
 
     def map(self, fn, arguments, on_done=None):
@@ -267,5 +268,5 @@ def estimate_survey(vents: Sequence, methods: dict, sections_parsed: dict, secti
 
 
 __all__ = ["AUTO", "SERIAL", "Executor", "ExecutorInfo", "ForkExecutor", "SerialExecutor", "available_executors",
-           "estimate_survey", "open_executor", "task_cores"]
+           "estimate_survey", "open_executor", "task_cores", "usable_cores"]
 

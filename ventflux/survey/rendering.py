@@ -17,7 +17,6 @@ SVG has the same elements and texts (a test compares them).
 from __future__ import annotations
 
 import io
-import os
 import pickle
 import re
 
@@ -144,10 +143,10 @@ class FigureRenderer:
     """
 
     def __init__(self, workers: int | None = None):
-        from ..executor import FORK_WORKERS, ForkExecutor
+        from ..executor import FORK_WORKERS, ForkExecutor, usable_cores
 
         if workers is None:
-            workers = min(FORK_WORKERS, os.cpu_count() or 1)
+            workers = min(FORK_WORKERS, usable_cores())
         if not ForkExecutor.usable(2):  # the one rule for forking, and one worker count (ventflux.executor)
             workers = 0
         self.workers = workers
