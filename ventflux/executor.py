@@ -63,13 +63,10 @@ class SerialExecutor:
 
 
 _FORK_TASKS: list = []  # (fn, args) of the forked executor's current map, inherited by its workers
-_FORK_SHARE = 1  # worker processes of the current forked map: they share the machine's cores
-_SIBLINGS = 1  # in a forked worker, the processes its cores are shared with (itself included)
+_SIBLINGS = 1  # worker processes of the current forked map, sharing the cores (its workers inherit it)
 
 
 def _run_forked(i: int):
-    global _SIBLINGS
-    _SIBLINGS = _FORK_SHARE
     fn, args = _FORK_TASKS[i]
     return fn(*args)
 
@@ -114,14 +111,14 @@ class ForkExecutor:
 
         if not self.usable(len(arguments)):
             return SerialExecutor().map(fn, arguments, on_done)
-        global _FORK_SHARE
+        global _SIBLINGS
         _FORK_TASKS[:] = [(fn, a) for a in arguments]
-        _FORK_SHARE = min(self.workers, len(arguments))
+        _SIBLINGS = min(self.workers, len(arguments))  # set before the fork: the workers inherit it
         out: list = [None] * len(arguments)
         failed = []
         try:
             # with the fork method every worker is forked at the first submit, before the pool starts its thread
-            with ProcessPoolExecutor(_FORK_SHARE,
+            with ProcessPoolExecutor(_SIBLINGS,
                                      mp_context=multiprocessing.get_context("fork")) as pool:
                 futures = [pool.submit(_run_forked, i) for i in range(len(arguments))]
                 for i, f in enumerate(futures):
@@ -134,7 +131,7 @@ class ForkExecutor:
                         on_done(i, out[i])
         finally:
             _FORK_TASKS.clear()
-            _FORK_SHARE = 1
+            _SIBLINGS = 1  # this process reruns failed tasks with all of its cores
         for i in failed:
             out[i] = fn(*arguments[i])
             if on_done is not None:

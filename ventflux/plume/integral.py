@@ -133,7 +133,6 @@ class Column:
         # SA, CT and p as one table and its steps, so that ``at`` interpolates all three in one gather
         self._table = np.vstack([self.SA, self.CT, self.p])
         self._steps = np.diff(self._table, axis=1)
-        self._last = self.height.size - 2
 
     @property
     def top(self) -> float:
@@ -144,7 +143,7 @@ class Column:
         """SA, CT, sea pressure at heights ``z``; ``scale`` multiplies the anomalies from the vent (N² ∝ scale)."""
         # minimum/maximum rather than np.clip: this runs four times a step on a handful of members, where
         # the call overhead is the cost
-        i = np.minimum(np.maximum(np.searchsorted(self.height, z) - 1, 0), self._last)
+        i = np.minimum(np.maximum(np.searchsorted(self.height, z) - 1, 0), self._dh.size - 1)
         f = np.maximum((z - self.height[i]) / self._dh[i], 0.0)
         sa, ct, p = self._table[:, i] + f * self._steps[:, i]
         if not np.isscalar(scale) or scale != 1.0:
@@ -252,16 +251,13 @@ class _Model:
         Qs = np.maximum(Q, 1e-300)
         ctp = c.CT0 + T / Qs  # the plume's CT and SA, and their excess over the ambient's
         sap = c.SA0 + S / Qs
-        dct, dsa = ctp - ct, sap - sa
-        if self.linear:
-            return c.g * (c.alpha0 * dct - c.beta0 * dsa), sa, ct
+        dct = ctp - ct
+        lin = c.g * (c.alpha0 * dct - c.beta0 * (sap - sa))
         hot = np.abs(dct) > START_ANOMALY
-        if hot.all():  # near the source every member is hot: the linear equation of state only
-            return c.g * (c.alpha0 * dct - c.beta0 * dsa), sa, ct
+        if self.linear or hot.all():  # near the source every member is hot: TEOS-10 is not evaluated
+            return lin, sa, ct
         teos = c.g * (gsw.rho(sa, ct, p) - gsw.rho(sap, ctp, p)) / c.rho0
-        if hot.any():
-            teos = np.where(hot, c.g * (c.alpha0 * dct - c.beta0 * dsa), teos)
-        return teos, sa, ct
+        return np.where(hot, lin, teos), sa, ct
 
 
 class VerticalModel(_Model):

@@ -77,7 +77,6 @@ def render_figure(fig) -> tuple[bytes, bytes]:
     The SVG keeps its text as text (searchable, small) and carries no date.
     """
     import matplotlib
-
     from matplotlib.layout_engine import PlaceHolderLayoutEngine
 
     _plain_log_labels(fig)
