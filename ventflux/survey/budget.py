@@ -407,7 +407,7 @@ def figures(budget: SurveyBudget) -> list:
         ax.set_title(f"Uncertainty budget: {key.replace('_', ' ')}", fontsize=10)
         ax.legend(fontsize=8, loc="best")
         ax.grid(axis="x", alpha=0.3)
-        fig.tight_layout()
+        fig.set_layout_engine("tight")
         stem = "budget_" + "".join(ch if ch.isalnum() else "-" for ch in key.lower()).strip("-")
         figs.append((stem, fig, (f"Which inputs own the variance of {key}: first-order and total-effect indices "
                                 f"with their bootstrap errors ({ind.n} draws).")))

@@ -236,7 +236,7 @@ def figures_of(result) -> list:
         ax.invert_yaxis()
         ax.grid(axis="x", alpha=0.3)
         ax.set_title("Heat power by vent and method")
-        fig.tight_layout()
+        fig.set_layout_engine("tight")
         figs.append(("vents_by_method", fig, "Heat power of each vent by each method, and their combination."))
     if result.split is not None:
         fig, ax = subplots(figsize=(6.5, 3.4))
@@ -249,7 +249,7 @@ def figures_of(result) -> list:
         ax.set_title(f"Focused and diffuse discharge (diffuse fraction {frac.median.m:.2f}, "
                      f"5–95 %: {frac.p05.m:.2f}–{frac.p95.m:.2f})", fontsize=9)
         ax.legend()
-        fig.tight_layout()
+        fig.set_layout_engine("tight")
         figs.append(("focused_diffuse", fig, "Monte Carlo distributions of the focused, diffuse and total output."))
     if result.reservoirs:
         figs.append(("reservoirs", reservoir_figure(result.reservoirs),
@@ -290,7 +290,7 @@ def reservoir_figure(reservoirs):
     ax.grid(axis="x", alpha=0.3)
     ax.legend(fontsize=8, loc="upper center", bbox_to_anchor=(0.5, -0.28), ncol=3, frameon=False)  # off the data
     ax.set_title("How long each heat reservoir can feed the output", fontsize=10)
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     return fig
 
 

@@ -192,5 +192,5 @@ def site_map_figure(items: list[Place], site_name: str = ""):
     what = " and ".join(k for k, there in (("vents", any(p.kind == "vent" for p in items)),
                                            ("diffuse patches", any(p.kind == "patch" for p in items))) if there)
     ax.set_title(f"{site_name + ': ' if site_name else ''}positions of the {what} (heat power)", fontsize=10)
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     return fig

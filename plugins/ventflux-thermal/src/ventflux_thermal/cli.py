@@ -314,7 +314,7 @@ def _profile_figure(z, T, fit, path):
     ax.set_xlabel("temperature [°C]")
     ax.set_ylabel("depth below seafloor [m]")
     ax.legend()
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     _save(fig, path)
 
 

@@ -45,7 +45,7 @@ def resistance_plot(res: PenetrationResult):
     axr.axvline(0.0, color="0.5", lw=0.8)
     axr.set_xlabel("residual [mK]")
     fig.suptitle(f"{Path(res.record).name}{' ' + res.label if res.label else ''} ({res.method})")
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     return fig
 
 
@@ -79,7 +79,7 @@ def decay_figure(res: PenetrationResult, path, probe: ProbeConstants | None = No
         ax.set_ylabel(f"{rec.sensors[rows[i]]} [°C]", fontsize=8)
         ax.text(0.99, 0.85, f"misfit {1e3 * f.misfit_rms:.2f} mK", transform=ax.transAxes, ha="right", fontsize=7)
     axes[-1, 0].set_xlabel("time [s]")
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     _save(fig, path)
 
 
@@ -105,7 +105,7 @@ def record_figure(station, path):
     ax.set_ylabel("temperature [°C]")
     ax.legend(fontsize=7, ncol=min(len(rec.sensors), 6), loc="lower right")
     ax.set_title(f"{Path(station.record).name}: penetrations found (green reduced, red skipped; dotted: heat pulse)")
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     _save(fig, path)
 
 
@@ -134,7 +134,7 @@ def transect_plot(station):
     ax.set_ylabel("heat flow [mW/m²]")
     ax.legend(fontsize=8)
     ax.set_title(f"{Path(station.record).name}: heat flow along the transect")
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     return fig
 
 

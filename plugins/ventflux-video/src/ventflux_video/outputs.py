@@ -115,12 +115,12 @@ def profile_plot(profile, fit=None, exit_velocity=None, exit_velocity_sd=None):
     ax.set_title("Centreline velocity against height above the orifice", fontsize=9)
     ax.legend(fontsize=8)
     ax.grid(alpha=0.3)
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     return fig
 
 
 def _png(fig):
     buf = io.BytesIO()
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     fig.savefig(buf, format="png")
     return buf.getvalue()

@@ -40,7 +40,7 @@ def section_plot(res):
     ax.set_ylabel("depth [m]")
     ax.legend(loc="lower right", fontsize=8)
     ax.set_title(f"{Path(res.source).name}: potential-temperature anomaly")
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     return fig
 
 
@@ -85,7 +85,7 @@ def profiles_plot(res):
         a3.set_xlabel(f"optical anomaly [sensor units] (background {res.optical_background:.3g})")
         a3.legend(fontsize=8)
     fig.suptitle(f"{Path(res.source).name}: background fit and anomaly profiles")
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     return fig
 
 
@@ -106,7 +106,7 @@ def flux_plot(out):
     ax.set_title(f"heat flux {p50:.3g} MW (90 %: {p05:.3g}–{p95:.3g})\nsd of each part alone: {parts} MW", fontsize=8)
     ax.set_xlabel("heat flux across the section [MW]")
     ax.set_yticks([])
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     return fig
 
 
@@ -151,7 +151,7 @@ def box_plot(a, per, out):
     ax.set_aspect("equal", adjustable="datalim")
     ax.set_xlabel("east [m]")
     ax.set_ylabel("north [m]")
-    fig.tight_layout()
+    fig.set_layout_engine("tight")
     return fig
 
 
