@@ -233,13 +233,6 @@ def _peak_search(corr, norm=None, lag_of_index_zero=0):
     return dy, dx, snr
 
 
-def _usable_cores():
-    """Cores this process may use (shared out among a survey's forked workers: ``task_cores``)."""
-    from ventflux.plugin_api import task_cores
-
-    return task_cores()
-
-
 def _thread_count():
     """Threads for the correlation and the deformation.
 
@@ -253,7 +246,9 @@ def _thread_count():
     global _MEASURED
     if _WORKERS != -1:
         return max(1, int(_WORKERS))
-    cores = _usable_cores()
+    from ventflux.plugin_api import task_cores  # this process's cores, shared out among a survey's forked workers
+
+    cores = task_cores()
     if cores <= 1:
         return 1
     if _MEASURED is None or _MEASURED[1] != os.getpid():
