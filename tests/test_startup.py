@@ -33,8 +33,8 @@ print(json.dumps({{"loaded": sorted(m for m in {heavy!r} if m in sys.modules), "
 """
 
 
-def _run(argv, core_only):
-    code = _SCRIPT.format(core_only=core_only, argv=list(argv), heavy=HEAVY)
+def _run(argv, core_only, heavy=HEAVY):
+    code = _SCRIPT.format(core_only=core_only, argv=list(argv), heavy=tuple(heavy))
     res = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120, check=False)
     assert res.returncode == 0, res.stderr
     return json.loads(res.stdout.strip().splitlines()[-1])
@@ -74,3 +74,15 @@ def test_orifice_estimate_does_not_import_coolprop():
                 "--absolute-pressure", "26 MPa", "--ambient-temperature", "2.1 degC", "--json"], core_only=True)
     assert '"heat_power_W"' in out["help"]  # the command ran and printed its JSON
     assert "CoolProp" not in out["loaded"] and "matplotlib" not in out["loaded"]
+
+
+def test_checking_a_survey_imports_nothing_for_the_results():
+    # ``survey --check`` reads and validates every file; the tables, figures and netCDF file need pandas,
+    # matplotlib and xarray, which a check does not (about 0.3 s for pandas alone)
+    from pathlib import Path
+
+    demo = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge" / "survey.toml"
+    out = _run(["survey", str(demo), "--check"], core_only=False,
+               heavy=("pandas", "matplotlib", "xarray", "CoolProp"))
+    assert "valid" in out["help"]  # the check ran and passed
+    assert out["loaded"] == []

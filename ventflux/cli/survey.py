@@ -67,7 +67,6 @@ def _template(args) -> int:
 
 def run(args) -> int:
     from ..errors import InputError
-    from ..survey import report
     from ..survey.run import run_survey
     from ..survey.spec import load_survey
 
@@ -108,6 +107,8 @@ def run(args) -> int:
         else:
             print(msg)
         return 0
+    from ..survey import report  # pandas comes with it: not needed to check a file (about 0.3 s)
+
     out = Path(args.out) if args.out else Path.cwd() / "ventflux-results" / report._slug(spec.site.name)
     report.check_output_location(out, spec)
 
