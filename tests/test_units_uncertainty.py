@@ -76,3 +76,13 @@ def test_summary_percentiles():
     assert s.median.magnitude == pytest.approx(501)
     assert s.p05.magnitude == pytest.approx(51)
     assert s.p95.magnitude == pytest.approx(951)
+
+
+def test_summary_of_one_finite_draw_has_no_spread_and_no_warning():
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # numpy's "Degrees of freedom <= 0" must not reach a user's terminal
+        s = summarize(Q_(np.array([np.nan, 3.0]), "W"))
+    assert s.draws == 1 and s.median.magnitude == 3.0
+    assert np.isnan(s.std.magnitude)  # undefined, not zero: one draw says nothing of the spread

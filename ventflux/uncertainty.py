@@ -694,8 +694,9 @@ def summarize(values: pint.Quantity, seed: int | None = None) -> Summary:
         raise InputError("inputs", "no draw with a finite result",
                          "finite inputs within the estimator's range (check for nan or inf)")
     p05, med, p95 = np.percentile(v, [5, 50, 95])
-    return Summary(Q_(v.mean(), units), Q_(med, units), Q_(p05, units), Q_(p95, units),
-                   Q_(v.std(ddof=1), units), int(v.size), seed)
+    sd = v.std(ddof=1) if v.size > 1 else np.nan  # one finite draw has no spread to estimate (and numpy warns)
+    return Summary(Q_(v.mean(), units), Q_(med, units), Q_(p05, units), Q_(p95, units), Q_(sd, units),
+                   int(v.size), seed)
 
 
 def unit_tag(unit: str) -> str:
