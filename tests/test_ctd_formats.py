@@ -227,7 +227,7 @@ def test_an_unreadable_netcdf_file_is_one_line(tmp_path):
 
 def test_the_survey_ctd_key_takes_a_netcdf_cast(tmp_path):
     # The demo's CSV cast, rewritten as netCDF: the survey check and the run read the same profile.
-    from ventflux.survey.run import _read_stratification
+    from ventflux.survey.api import read_stratification
     from ventflux.survey.spec import load_survey
     from ventflux.tables import read_quantity_table
 
@@ -246,7 +246,7 @@ def test_the_survey_ctd_key_takes_a_netcdf_cast(tmp_path):
     spec_csv = load_survey(survey)
     assert spec_nc.site.ctd.suffix == ".nc"
     assert spec_nc.site.ctd_extent == spec_csv.site.ctd_extent
-    _same(_read_stratification(spec_nc.site), _read_stratification(spec_csv.site))
+    _same(read_stratification(spec_nc.site), read_stratification(spec_csv.site))
 
 
 # (unit text, factor from dbar) and (unit text, offset from degC): the file's units, however written, give one cast

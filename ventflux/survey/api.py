@@ -135,3 +135,36 @@ class RunContext:
     progress: Callable = lambda msg: None
     #: The run's one rule for impossible draws (``[run] max_unphysical``); pass it to ``propagate``.
     policy: UnphysicalPolicy = field(default_factory=lambda: UnphysicalPolicy(option="run.max_unphysical"))
+
+
+def read_stratification(site: SiteSpec) -> AmbientProfile:
+    """The site's CTD cast as the run reads it (``[site] ctd``, its window and position)."""
+    from .. import profiles
+
+    kwargs: dict[str, Any] = {"latitude": site.latitude, "longitude": site.longitude}
+    if site.ctd_window is not None:
+        kwargs["window"] = site.ctd_window
+    return profiles.read_ctd_cast(site.ctd, **kwargs)
+
+
+def run_context(site: SiteSpec, draws: SharedDraws, policy: UnphysicalPolicy, stratification=None,
+                progress: Callable = lambda msg: None) -> RunContext:
+    """The context every estimate of a run is given: the site's pressure and its ambient draws.
+
+    One definition for the run and for a check that must see what the run will see (``--check`` propagates a
+    plume's rise on the run's own draws: its refusals are then the run's).
+    """
+    import numpy as np
+
+    from ..orifice import in_situ_pressure
+    from ..uncertainty import SITE_INPUT_NAMES
+    from ..units import Q_
+
+    pressure = in_situ_pressure(site.pressure, site.depth, site.latitude)
+    ambient = draws.draw(SITE_INPUT_NAMES["ambient_temperature"], site.ambient_temperature)
+    if np.ndim(ambient.magnitude) == 0:
+        ambient = Q_(np.full(draws.n_draws, ambient.to("K").magnitude), "K")
+    salinity = draws.draw(SITE_INPUT_NAMES["ambient_salinity"], site.ambient_salinity)
+    salinity = salinity.to("dimensionless").magnitude if hasattr(salinity, "to") else salinity
+    return RunContext(draws=draws, site=site, pressure=pressure, ambient_temperature=ambient,
+                      ambient_salinity=salinity, stratification=stratification, progress=progress, policy=policy)

@@ -14,6 +14,8 @@ Propagation goes through ``ventflux.plume.propagation.plume_rise_propagation``
 
 from __future__ import annotations
 
+from collections import OrderedDict
+
 import numpy as np
 
 from ..uncertainty import Uncertain
@@ -95,7 +97,67 @@ def _height(f, ctx, level):
     return None
 
 
-def _estimate(spec, vent, ctx):
+def propagation(spec, vent, ctx, track: bool = False, hand_over: bool = False):
+    """The plume's Monte Carlo rise inversion as a survey run makes it (``PlumePropagation``).
+
+    The run's estimate and ``--check`` call this one function with the run's context (``api.run_context``) and
+    the run's draws: what ``--check`` accepts, the run then accepts, draw for draw. Raises the run's
+    ``InputError`` when more draws than ``[run] max_unphysical`` have no plume solution.
+
+    ``hand_over=True`` (the check) keeps the result for the run: the first call after it with the same inputs,
+    draws and site (``_handover_key``) takes it, with the draws it registered, instead of solving again. It is
+    taken once: a later call solves again.
+    """
+    key = _handover_key(spec, vent, ctx, track)
+    kept = _HANDED_OVER.pop(key, None) if key is not None else None
+    if kept is not None:
+        pp, known, shared = kept
+        for name, value in known.items():  # the names this propagation draws, as drawing them would register them
+            ctx.draws._register(name, value)
+        for name, value in shared.items():
+            ctx.draws._shared.setdefault(name, value)
+        return pp
+    before_known, before_shared = set(ctx.draws._known), set(ctx.draws._shared)
+    pp = _propagate(spec, vent, ctx, track)
+    if hand_over and key is not None:
+        _HANDED_OVER[key] = (pp, {k: v for k, v in ctx.draws._known.items() if k not in before_known},
+                             {k: v for k, v in ctx.draws._shared.items() if k not in before_shared})
+        while len(_HANDED_OVER) > 8:  # a survey's plumes; never more than a few results held
+            _HANDED_OVER.popitem(last=False)
+    return pp
+
+
+_HANDED_OVER: OrderedDict = OrderedDict()
+
+
+def _handover_key(spec, vent, ctx, track):
+    """Everything the propagation's result depends on, or None (then nothing is handed over).
+
+    The plume's parsed inputs (their text form), the vent's name, the draws (plain ``SharedDraws`` only: count
+    and seed name every stream), the limit on dropped draws, the site's pressure, position and ambient values,
+    and the CTD file (path, size, modification time, window).
+    """
+    import os
+
+    from ..uncertainty import SharedDraws
+
+    if type(ctx.draws) is not SharedDraws or np.ndim(ctx.pressure.magnitude) != 0:
+        return None
+    site = ctx.site
+    ctd = None
+    if site.ctd is not None:
+        try:
+            st = os.stat(site.ctd)
+        except OSError:
+            return None
+        ctd = (str(site.ctd), st.st_size, st.st_mtime_ns, repr(site.ctd_window))
+    ambient = (repr(site.ambient_temperature), repr(site.ambient_salinity))
+    return (vent, bool(track), repr(sorted((k, repr(v)) for k, v in spec.items())), ctx.draws.n_draws,
+            ctx.draws.seed, ctx.policy.max_share, float(ctx.pressure.to("Pa").magnitude), site.latitude,
+            site.longitude, ambient, ctd)
+
+
+def _propagate(spec, vent, ctx, track):
     from ..plume.propagation import plume_input_names, plume_rise_propagation
 
     names = plume_input_names(vent)
@@ -118,8 +180,12 @@ def _estimate(spec, vent, ctx):
     else:
         strat = ctx.stratification
         inputs.pop("buoyancy_frequency")
-    pp = plume_rise_propagation(inputs, strat, draws=ctx.draws, names=names, vent=vent, max_unphysical=ctx.policy,
-                                track=spec["method"] == "integral", **kwargs)
+    return plume_rise_propagation(inputs, strat, draws=ctx.draws, names=names, vent=vent, max_unphysical=ctx.policy,
+                                  track=track, **kwargs)
+
+
+def _estimate(spec, vent, ctx):
+    pp = propagation(spec, vent, ctx, track=spec["method"] == "integral")
     nominal = pp.result.nominal
     H = pp.heat_power.to("W").magnitude
     row = {"vent": vent, "observed_height [m]": float(nominal_of(spec["height"]).to("m").magnitude),

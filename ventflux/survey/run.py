@@ -30,10 +30,9 @@ from ..aggregate import (
     field_total,
     focused_diffuse_split,
 )
-from ..orifice import in_situ_pressure
-from ..uncertainty import SITE_INPUT_NAMES, SharedDraws, Summary, Uncertain, UnphysicalPolicy, summarize
+from ..uncertainty import SharedDraws, Summary, Uncertain, UnphysicalPolicy, summarize
 from ..units import Q_
-from .api import MethodEstimate, ReportPart, RunContext, SectionEstimate
+from .api import MethodEstimate, ReportPart, SectionEstimate, read_stratification, run_context
 from .spec import SurveySpec, survey_components
 
 if TYPE_CHECKING:
@@ -91,18 +90,12 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor
     draws = SharedDraws(spec.draws, spec.seed) if draws is None else draws
     policy = UnphysicalPolicy(spec.max_unphysical, spec.max_unphysical_option)
     site = spec.site
-    pressure = in_situ_pressure(site.pressure, site.depth, site.latitude)
-    ambient = draws.draw(SITE_INPUT_NAMES["ambient_temperature"], site.ambient_temperature)
-    if np.ndim(ambient.magnitude) == 0:
-        ambient = Q_(np.full(spec.draws, ambient.to("K").magnitude), "K")
-    salinity = draws.draw(SITE_INPUT_NAMES["ambient_salinity"], site.ambient_salinity)
-    salinity = salinity.to("dimensionless").magnitude if hasattr(salinity, "to") else salinity
     strat = None
     if site.ctd is not None:
         progress("reading the CTD cast")
-        strat = _read_stratification(site)
-    ctx = RunContext(draws=draws, site=site, pressure=pressure, ambient_temperature=ambient,
-                     ambient_salinity=salinity, stratification=strat, progress=progress, policy=policy)
+        strat = read_stratification(site)
+    ctx = run_context(site, draws, policy, strat, progress)
+    pressure = ctx.pressure
 
     from ..executor import SerialExecutor, estimate_survey  # serially here, or one task per method and section
 
@@ -195,15 +188,6 @@ def _field_checks(sec, focused, diffuse, keep, seed):
         label = "sum of focused vents" if s.compares_with == "focused" else "sum of vents and patches"
         out.append((key, compare_methods({label: own, s.names[0]: other}, "MW", seed=seed)))
     return out
-
-
-def _read_stratification(site):
-    from .. import profiles
-
-    kwargs = {"latitude": site.latitude, "longitude": site.longitude}
-    if site.ctd_window is not None:
-        kwargs["window"] = site.ctd_window
-    return profiles.read_ctd_cast(site.ctd, **kwargs)
 
 
 def _throughput(vr, ctx, keep):
