@@ -83,6 +83,26 @@ def test_non_monotonic_cast_is_refused_naming_the_line(tmp_path):
     assert e.value.where.endswith(":4") and "strictly increase" in e.value.allowed
 
 
+@pytest.mark.parametrize("absurd", ["1e+30", "-50", "2e4"])
+def test_a_row_outside_the_ocean_is_one_error_with_its_value_as_written(tmp_path, absurd):
+    # One mistyped pressure: one line naming it as written, not a complaint about the rows after it (its order)
+    # nor a depth computed from it; and no numpy overflow warning on the way.
+    import warnings
+
+    _linear_ct_cast(tmp_path / "cast.csv", header="sea_pressure [dbar],temperature [degC],salinity", step=10.0)
+    lines = (tmp_path / "cast.csv").read_text().splitlines()
+    lines[5] = absurd + lines[5][lines[5].index(","):]
+    (tmp_path / "cast.csv").write_text("\n".join(lines) + "\n")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        with pytest.raises(InputError) as e:
+            read_ctd_cast(tmp_path / "cast.csv", latitude=LAT, longitude=LON)
+    assert e.value.where.endswith(":6")
+    assert e.value.field == "sea_pressure" and e.value.value == f"{float(absurd):g}"
+    # the limit is the pressure of 11000 m at the cast's latitude (TEOS-10's p_from_z)
+    assert f"{float(gsw.p_from_z(-11000.0, LAT)):.0f} dbar" in e.value.allowed
+
+
 def test_long_unstable_stretch_is_refused_short_one_kept(tmp_path):
     p = np.arange(1500.0, 2500.0, 1.0)
     t = 3.0 - 1e-3 * (p - 1500)

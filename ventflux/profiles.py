@@ -182,32 +182,43 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
     if "depth" in tbl:
         z = tbl["depth"].to("m").magnitude
         key, label = z, "depth"
-    if sea is None:
-        p = gsw.p_from_z(-z, lat0)
-    if "depth" not in tbl:
-        z = -gsw.z_from_p(p, lat0)
-    # Every problem of the cast at once: its order, then each row outside the valid ranges.
+    # Absurd rows (a pressure of 1e30 dbar) are refused below with their values as written; the TEOS-10
+    # arithmetic on them may overflow meanwhile, which is no news to the user (numpy would print it).
+    with np.errstate(all="ignore"):
+        if sea is None:
+            p = gsw.p_from_z(-z, lat0)
+        if "depth" not in tbl:
+            z = -gsw.z_from_p(p, lat0)
+    # Every problem of the cast at once: each row outside the ocean's ranges, then the order of the others.
     errs = Collector()
-    step = np.diff(key)
-    if key.size > 1:
-        sign = 1.0 if step[0] > 0 else -1.0
-        bad = np.flatnonzero(~(sign * step > 0))
-        if bad.size:
-            i = bad[0] + 1
-            errs.add(InputError(label, f"{key[i]:g}", f"values that strictly {'increase' if sign > 0 else 'decrease'} "
-                                f"row by row (a single down- or up-cast); after {key[i - 1]:g}", where=where(i)))
-    order = np.argsort(z)
     t = tbl["temperature"].to("degC").magnitude
     sp = tbl["salinity"].to("dimensionless").magnitude
     rows_ok = np.ones(z.size, bool)
-    for name, v, lo, hi in (("depth", z, 0, 11000), ("salinity", sp, 0, 42)):
-        bad = np.flatnonzero((v < lo) | (v > hi))
-        rows_ok[bad] = False
-        for i in bad:
-            errs.add(InputError(name, f"{v[i]:g}", f"a value from {lo} to {hi}", where=where(i)))
-    SA = absolute_salinity(np.clip(sp, 0, 42), np.clip(p, 0, None), lon, lat)
-    CT = gsw.CT_from_t(SA, t, p)
-    outside = np.flatnonzero(~np.asarray(gsw.infunnel(SA, CT, p), bool) & rows_ok)
+    out_of_ocean = ~((z >= 0) & (z <= 11000))  # NaN too; checked on the depth, named by the column read
+    rows_ok &= ~out_of_ocean
+    for i in np.flatnonzero(out_of_ocean):
+        allowed = ("a value from 0 to 11000" if label == "depth" else
+                   f"a sea pressure from 0 to {float(gsw.p_from_z(-11000.0, lat0)):.0f} dbar (11000 m depth at the "
+                   "cast's latitude)")
+        errs.add(InputError(label, f"{key[i]:g}", allowed, where=where(i)))
+    bad_salinity = ~((sp >= 0) & (sp <= 42))
+    rows_ok &= ~bad_salinity
+    for i in np.flatnonzero(bad_salinity):
+        errs.add(InputError("salinity", f"{sp[i]:g}", "a value from 0 to 42", where=where(i)))
+    inside = np.flatnonzero(~out_of_ocean)  # the order of the rows in the ocean: one absurd row is one error
+    step = np.diff(key[inside])
+    if inside.size > 1:
+        sign = 1.0 if step[0] > 0 else -1.0
+        bad = np.flatnonzero(~(sign * step > 0))
+        if bad.size:
+            i, before = inside[bad[0] + 1], inside[bad[0]]
+            errs.add(InputError(label, f"{key[i]:g}", f"values that strictly {'increase' if sign > 0 else 'decrease'} "
+                                f"row by row (a single down- or up-cast); after {key[before]:g}", where=where(i)))
+    order = np.argsort(z)
+    with np.errstate(all="ignore"):
+        SA = absolute_salinity(np.clip(sp, 0, 42), np.clip(p, 0, None), lon, lat)
+        CT = gsw.CT_from_t(SA, t, p)
+        outside = np.flatnonzero(~np.asarray(gsw.infunnel(SA, CT, p), bool) & rows_ok)
     for i in outside:
         errs.add(InputError("temperature", f"{t[i]:g} degC at {p[i]:.0f} dbar",
                             "seawater within TEOS-10's validity (freezing point to 40 degC, 0-8000 dbar)",
