@@ -141,7 +141,8 @@ def _handover_key(spec, vent, ctx, track):
 
     from ..uncertainty import SharedDraws
 
-    if type(ctx.draws) is not SharedDraws or np.ndim(ctx.pressure.magnitude) != 0:
+    pressure = getattr(ctx.pressure, "magnitude", None)
+    if type(ctx.draws) is not SharedDraws or pressure is None or np.ndim(pressure) != 0:
         return None
     site = ctx.site
     ctd = None
