@@ -200,6 +200,18 @@ def test_patch_table_reports_bad_rows_by_line(tmp_path):
     assert any(":4: temperature_anomaly" in s for s in lines)
 
 
+def test_a_row_whose_spread_leaves_no_distribution_is_refused_by_the_table_check(tmp_path):
+    # An area of 2.2e-308 m² ± 1.5 m² (a typo): the lognormal with that mean and sd has a median below the
+    # smallest float. The table check refuses it with its line, as the propagation would (found by the survey
+    # fuzz: the run raised OverflowError after --check had passed).
+    p = _write(tmp_path / "p.csv", "patch,class,area [m^2],area_sd [m^2],active_fraction,temperature_anomaly [K]\n"
+                                   "A,mat,4,0.5,0.5,2\nB,mat,2.22507e-308,1.5,0.5,2\n")
+    with pytest.raises(InputError) as e:
+        read_patch_table(p)
+    assert e.value.where.endswith(":3") and e.value.field == "area_sd" and e.value.value == "1.5"
+    assert "no median > 0" in e.value.allowed
+
+
 def test_cli_table_polygons_and_scale_up(tmp_path, capsys):
     patches = _write(tmp_path / "patches.csv",
                      "patch,class,active_fraction,temperature_anomaly [degC],temperature_anomaly_sd [K]\n"

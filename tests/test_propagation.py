@@ -197,6 +197,28 @@ def test_from_mean_sd_keeps_mean_and_sd_inside_the_bound():
             assert x.min() > 0 and (bound != "fraction" or x.max() < 1)
 
 
+@given(st.floats(1e-300, 1e300), st.floats(-6.0, 330.0))
+@settings(max_examples=200, deadline=None, derandomize=True)
+def test_from_mean_sd_positive_is_a_lognormal_of_that_mean_and_sd_or_one_clear_refusal(mean, log10_ratio):
+    # Lognormal moments (Johnson, Kotz & Balakrishnan 1994, ch. 14): mean = median·exp(σ²/2),
+    # variance = mean²·(exp(σ²) − 1). Either the parameters reproduce them, or InputError; never an overflow.
+    # Relative spreads from 1e-6 (below that the factor exp(σ), stored as a float, holds fewer digits of σ).
+    from ventflux.uncertainty import from_mean_sd
+
+    with np.errstate(over="ignore"):  # the largest ratios are capped at the largest sd a float holds
+        sd = float(min(np.float64(mean) * np.power(10.0, log10_ratio), 1e308))
+    try:
+        u = from_mean_sd(mean, sd, "m", "positive")
+    except InputError:
+        # only when the median, about mean²/sd, falls below the smallest full-precision float
+        assert np.log(mean) - np.log(sd / mean) < np.log(np.finfo(float).tiny) + 1.0
+        return
+    s2 = np.log(u.b) ** 2  # u.b is the factor exp(σ)
+    assert np.log(u.a) + s2 / 2 == pytest.approx(np.log(mean), rel=1e-9, abs=1e-9)
+    # sd/mean = √(exp(σ²) − 1), compared in logarithms (the ratio reaches 1e300)
+    assert 0.5 * (s2 + np.log(-np.expm1(-s2))) == pytest.approx(np.log(sd / mean), rel=1e-6, abs=1e-6)
+
+
 def test_plume_rise_cli_and_survey_draw_identically(tmp_path, capsys):
     site = SITE.replace('depth = "2500 m"', 'absolute_pressure = "25 MPa"').replace(f"draws = {DRAWS}", "draws = 400")
     text = site + ('\n[[vent]]\nname = "Vent P"\n  [vent.plume_rise]\n  rise_height = "250 ± 25 m"\n'

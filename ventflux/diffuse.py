@@ -829,6 +829,7 @@ def read_patch_table(path, polygons=None) -> PatchTable:
     for k, v in values.items():
         if v is not None and sds.get(k + "_sd") is not None:
             _check_spread(path, tbl.lines, k, v, sds[k + "_sd"], c)
+            _check_distribution(path, tbl.lines, k, v, sds[k + "_sd"], c)
     c.raise_if_any()
     return PatchTable(names=tuple(names), classes=tuple(classes), area=area, active_fraction=frac,
                       temperature_anomaly=dT, velocity=w, area_sd=sds["area_sd"],
@@ -836,6 +837,26 @@ def read_patch_table(path, polygons=None) -> PatchTable:
                       else sds["active_fraction_sd"].to("dimensionless").magnitude,
                       temperature_anomaly_sd=sds["temperature_anomaly_sd"], velocity_sd=sds["velocity_sd"],
                       lines=tbl.lines)
+
+
+def _check_distribution(path, lines, name, value, sd, c):
+    """Each row's distribution made as the propagation makes it (``from_mean_sd`` within ``PATCH_BOUNDS``): a row
+    it refuses is refused here, so that what a check accepts the run accepts. Rows already refused above keep
+    their first line."""
+    unit = str(value.units)
+    means = np.atleast_1d(value.magnitude)
+    sds = np.atleast_1d(sd.to(value.units).magnitude)
+    field = f"{name}_sd"
+    named = {e.where for e in c.errors if e.field == field}
+    for i, (m, s) in enumerate(zip(means, sds, strict=True)):
+        where = f"{path}:{lines[i]}"
+        if where in named:
+            continue
+        try:
+            from_mean_sd(m, s, unit, PATCH_BOUNDS[name], field)
+        except InputError as e:
+            c.add(InputError(field, f"{s:g}", f"{e.allowed} (the row's {name.replace('_', ' ')} is {m:g} {unit})",
+                             where=where))
 
 
 def _check_spread(path, lines, name, value, sd, c):

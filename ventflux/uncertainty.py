@@ -172,8 +172,15 @@ def from_mean_sd(mean: float, sd: float, unit: str, bound: str | None = None, fi
     if bound == "positive":
         if not mean > 0:
             raise InputError(field, f"{mean:g} ± {sd:g}", "a mean > 0 for a positive quantity")
-        r2 = 1 + (sd / mean) ** 2
-        return Uncertain("lognormal", mean / np.sqrt(r2), float(np.exp(np.sqrt(np.log(r2)))), unit)
+        # σ² = ln(1 + r²), r = sd/mean: log1p keeps a tiny spread's digits, and a huge r (a mistyped tiny mean)
+        # is taken as 2 ln r + ln(1 + r⁻²) instead of overflowing
+        r = sd / mean
+        s2 = float(np.log1p(r * r) if r < 1e150 else 2.0 * np.log(r) + np.log1p(1.0 / r / r))
+        median = mean * float(np.exp(-0.5 * s2))  # mean / √(1 + r²)
+        if not median >= np.finfo(float).tiny:  # below the smallest full-precision float: no usable median
+            raise InputError(field, f"{mean:g} ± {sd:g}", "a spread a positive quantity of that mean can have "
+                             "(a lognormal of that mean and standard deviation has no median > 0)")
+        return Uncertain("lognormal", median, float(np.exp(np.sqrt(s2))), unit)
     if bound == "fraction":
         if not (0 < mean < 1 and sd**2 < mean * (1 - mean)):
             raise InputError(field, f"{mean:g} ± {sd:g}",
