@@ -13,6 +13,7 @@ from ventflux.diffuse import (
     diffuse_discharge,
     diffuse_discharge_uncertain,
     polygon_area,
+    read_area_classes,
     read_patch_table,
     scale_up_by_area_class,
     temperature_difference,
@@ -210,6 +211,10 @@ def test_a_row_whose_spread_leaves_no_distribution_is_refused_by_the_table_check
         read_patch_table(p)
     assert e.value.where.endswith(":3") and e.value.field == "area_sd" and e.value.value == "1.5"
     assert "no median > 0" in e.value.allowed
+    classes = _write(tmp_path / "c.csv", "class,area [m^2],area_sd [m^2]\nmat,400,40\nbasalt,1e-300,5\n")
+    with pytest.raises(InputError) as e:
+        read_area_classes(classes)  # the mapped areas are drawn the same way
+    assert e.value.where.endswith(":3") and e.value.field == "area_sd"
 
 
 def test_cli_table_polygons_and_scale_up(tmp_path, capsys):

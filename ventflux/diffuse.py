@@ -952,6 +952,7 @@ def read_area_classes(path):
         for i in np.flatnonzero((sd.magnitude > 0) & ~(tbl["area"].magnitude > 0)):
             c.add(InputError("area_sd", f"{sd.magnitude[i]:g}", "a standard deviation of 0 for a mapped area of 0",
                              where=f"{path}:{tbl.lines[i]}"))
+        _check_distribution(path, tbl.lines, "area", tbl["area"].to("m^2"), sd, c)  # drawn as a positive area
     c.raise_if_any()
     return names, tbl["area"].to("m^2"), sd
 
