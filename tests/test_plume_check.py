@@ -86,3 +86,14 @@ def test_other_draws_are_solved_not_handed_over(tmp_path):
     result = run_survey(spec)
     assert len(plume_method._HANDED_OVER) == 2  # not taken: made for other draws
     assert result.sections["field_plume"].heat_power.shape[-1] == 1000
+
+
+def test_an_input_whose_draws_cross_zero_just_above_the_limit_is_refused_by_check(tmp_path):
+    # 1 ± 0.6: its 5 % point (0.013) is > 0, so a check of each input's 5 % point passed it, while 102 of the
+    # run's 2,000 draws (5.1 %) are ≤ 0 and the run refused it. The check now meets the same draws.
+    path = _demo(tmp_path, spike=False)
+    path.write_text(path.read_text().replace("[field_plume]\n", '[field_plume]\nstratification_scale = "1 ± 0.600"\n'))
+    with pytest.raises(InputError) as refused:
+        load_survey(path)
+    assert refused.value.field == "field_plume.stratification_scale" and refused.value.value == "1 ± 0.600"
+    assert "102 of 2000" in refused.value.allowed and "run.max_unphysical" in refused.value.allowed

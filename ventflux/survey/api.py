@@ -120,6 +120,8 @@ class ParseContext:
     draws: int = DEFAULT_DRAWS
     seed: int = DEFAULT_SEED
     max_unphysical: float = DEFAULT_MAX_UNPHYSICAL
+    #: How the user set that limit, named in a refusal: the file's key, or the command line's option.
+    max_unphysical_option: str = "run.max_unphysical"
 
 
 @dataclass

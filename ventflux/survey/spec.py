@@ -336,7 +336,8 @@ def _load(raw: dict, path: Path, where: str, overrides: dict | None = None) -> S
     methods, sections = survey_components()
     ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files, warnings=warnings,
                        draws=int(draws or DEFAULT_DRAWS), seed=int(seed),
-                       max_unphysical=float(max_unphysical if max_unphysical is not None else DEFAULT_MAX_UNPHYSICAL))
+                       max_unphysical=float(max_unphysical if max_unphysical is not None else DEFAULT_MAX_UNPHYSICAL),
+                       max_unphysical_option="--max-unphysical" if "max_unphysical" in given else "run.max_unphysical")
     vents = []
     names = set()
     for vf in top.subs("vent"):
@@ -812,15 +813,21 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
     from .plume_method import propagation
 
     try:
-        ctx = run_context(site, SharedDraws(run.draws, run.seed), UnphysicalPolicy(run.max_unphysical), strat)
+        ctx = run_context(site, SharedDraws(run.draws, run.seed),
+                          UnphysicalPolicy(run.max_unphysical, run.max_unphysical_option), strat)
     except (InputError, InputErrors, TypeError, ValueError, AttributeError):
         return  # the site's own checks name it
     try:
         # the run takes this result instead of solving again (same inputs, draws and site)
         propagation(plume, vent, ctx, track=plume.get("method") == "integral", hand_over=True)
     except InputError as e:
-        if not str(e.field).endswith("plume_rise"):
-            return  # an input refused by its own rule: reported by the input's own check
+        if not str(e.field).endswith("plume_rise"):  # one input's draws refused: named by its key, as the run would
+            stream = str(e.field)
+            key = next((k for k, v in plume.items() if isinstance(v, SharedRef) and stream == f"shared/{v.name}"),
+                       stream.rsplit("/", 1)[-1])
+            key = key if key in units else "height"
+            f.error(key_of(key), written(key, "(default)"), f"{e.allowed} (met in the run's {run.draws} draws)")
+            return
         f.error(key_of("height"), written("height"),
                 f"a rise height the plume model reaches in the site's stratification in all but at most "
                 f"{run.max_unphysical:.1%} of the run's {run.draws} draws ({e.value}; a dense layer or a spike in "
