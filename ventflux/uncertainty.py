@@ -549,7 +549,7 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
               physical: Callable[[dict], np.ndarray] | None = None,
               max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL,
               drawn: Mapping[str, pint.Quantity] | None = None,
-              labels: Mapping[str, str] | None = None) -> Propagation[R]:
+              labels: Mapping[str, str] | None = None, screen_only: bool = False) -> Propagation[R]:
     """The propagation driver: draw every named input, drop unphysical draws, call the estimator once.
 
     Parameters
@@ -580,6 +580,10 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
         How to show an input in a refusal (its value or distribution as the
         user wrote it), where ``str`` of the argument would not; ``names``
         gives its name.
+    screen_only : bool
+        Draw, drop and refuse as a run does, but do not call the estimator
+        (``result`` is None): a validation that must refuse exactly what the
+        run refuses, on the run's draws, without the run's cost.
 
     Returns
     -------
@@ -619,10 +623,10 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
         dropped = policy.enforce(keep, culprit, value)
     else:
         dropped = 0
-    if dropped:
+    if dropped and not screen_only:
         for k in list(sampled) + list(given):
             args[k] = _subset(args[k], keep, n)
-    result = estimator(**args)
+    result = None if screen_only else estimator(**args)
     described = {names.get(k, k): str(v) for k, v in inputs.items() if isinstance(v, Uncertain)}
     return Propagation(result=result, keep=keep, n_draws=n, unphysical=dropped, seed=shared.seed, policy=policy,
                        inputs=described)

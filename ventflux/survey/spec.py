@@ -460,10 +460,41 @@ def _check_vent(f: Fields, name, exit_t, methods: dict, site, warnings: Warnings
             sub = f.subs("orifice")[i] if i < len(f.subs("orifice")) else None
             if sub is not None:
                 _check_hot_tail(sub, o["temperature"], site)
+    _screen_orifices(f, name, methods.get("orifice"), site, ctx)
     if exit_t is None and "orifice" not in methods:
         warnings.add(f.path, f"vent '{name}' has no exit temperature (no exit_temperature and no orifice "
                              "measurement): its heat counts in the totals but it is left out of the field's water "
                              "flux total")
+
+
+def _screen_orifices(f: Fields, vent: str, orifices, site, run: ParseContext) -> None:
+    """A vent's orifices drawn and screened as the run will (``builtin.screen_orifices``, on the run's draws).
+
+    Each input's own 5–95 % range is checked above; what only the draws together show (two inputs each
+    impossible in 4 % of their draws drop 8 % of the orifice's draws) is refused here, by the key of the input
+    whose draws were impossible most often, as the run would refuse it. Skipped while an input of the vent is
+    refused already (its own line says why; the draws of a refused input mean nothing).
+    """
+    if not orifices or site is None or not all(isinstance(o, dict) for o in orifices):
+        return
+    if any(str(e.field).startswith(f.path + ".") or e.field == f.path for e in f.errors.errors):
+        return
+    from ..uncertainty import SharedDraws, UnphysicalPolicy
+    from .api import run_context
+    from .builtin import orifice_key, screen_orifices
+
+    try:
+        ctx = run_context(site, SharedDraws(run.draws, run.seed),
+                          UnphysicalPolicy(run.max_unphysical, run.max_unphysical_option))
+        refused = screen_orifices(orifices, vent, ctx)
+    except (InputError, InputErrors, TypeError, ValueError, AttributeError, ArithmeticError):
+        return  # the site's or the inputs' own checks name it
+    subs = f.subs("orifice")
+    for i, e in refused:
+        sub = subs[i] if i < len(subs) else f
+        key = orifice_key(str(e.field), orifices[i])
+        written = sub.table.get(key, e.value) if key else e.value
+        sub.error(key, written, f"{e.allowed} (met in the run's {run.draws} draws; drawn as '{e.field}')")
 
 
 def _check_plume_spread(f: Fields, plume: dict):

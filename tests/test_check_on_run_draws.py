@@ -1,4 +1,4 @@
-"""``--check`` makes the run's plume propagation on the run's draws, so that what it accepts the run accepts.
+"""``--check`` draws and screens as the run does, on the run's draws, so that what it accepts the run accepts.
 
 A spike of fresher water deep in the CTD cast can cap the plumes of the high rise heights and strong
 entrainments together: each input at its 5 % and 95 % points alone still has a solution, while 15 % of the
@@ -97,3 +97,30 @@ def test_an_input_whose_draws_cross_zero_just_above_the_limit_is_refused_by_chec
         load_survey(path)
     assert refused.value.field == "field_plume.stratification_scale" and refused.value.value == "1 ± 0.600"
     assert "102 of 2000" in refused.value.allowed and "run.max_unphysical" in refused.value.allowed
+
+
+def test_two_inputs_each_within_the_limit_that_drop_too_many_draws_together_are_refused_by_check(tmp_path):
+    # Velocity 0.6 ± 0.35 m/s and diameter 5.0 ± 2.9 cm: each is ≤ 0 in about 4 % of its draws (within the 5 %
+    # limit, so each passes its own range check) and together they drop 7.8 % of the orifice's 2,000 draws;
+    # the run refused the file after --check had passed it.
+    path = _demo(tmp_path, spike=False)
+    path.write_text(path.read_text().replace('velocity = "0.6 ± 0.15 m/s"', 'velocity = "0.6 ± 0.35 m/s"')
+                    .replace('diameter = "5.0 ± 0.5 cm"', 'diameter = "5.0 ± 2.9 cm"'))
+    with pytest.raises(InputError) as refused:
+        load_survey(path)
+    e = refused.value
+    assert e.field == "vent[2].orifice[0].velocity (vent 'Wickstack')" and e.value == "0.6 ± 0.35 m/s"
+    assert "156 of 2000" in e.allowed
+
+
+def test_the_orifice_screening_is_the_runs_own_refusal(tmp_path):
+    # The same file run without its check: the run's refusal counts the same draws.
+    spec = load_survey(_demo(tmp_path / "clean", spike=False))
+    wick = [v for v in spec.vents if v.name == "Wickstack"][0].methods["orifice"][0]
+    from ventflux.uncertainty import parse_uncertain
+
+    wick["velocity"] = parse_uncertain("0.6 ± 0.35 m/s", "velocity", "velocity")
+    wick["diameter"] = parse_uncertain("5.0 ± 2.9 cm", "length", "diameter")
+    with pytest.raises(InputError) as refused:
+        run_survey(spec)
+    assert refused.value.field == "Wickstack/orifice[0]/velocity" and "156 of 2000" in refused.value.allowed
