@@ -123,6 +123,13 @@ class ParseContext:
     #: How the user set that limit, named in a refusal: the file's key, or the command line's option.
     max_unphysical_option: str = "run.max_unphysical"
 
+    def trial_run(self, stratification=None) -> RunContext:
+        """The context the run will give its estimates (its draws, seed and limit), for a check that must
+        refuse exactly what the run refuses (``run_context``)."""
+        assert self.site is not None  # callers check the site first
+        return run_context(self.site, SharedDraws(self.draws, self.seed),
+                           UnphysicalPolicy(self.max_unphysical, self.max_unphysical_option), stratification)
+
 
 @dataclass
 class RunContext:

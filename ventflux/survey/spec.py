@@ -479,13 +479,10 @@ def _screen_orifices(f: Fields, vent: str, orifices, site, run: ParseContext) ->
         return
     if any(str(e.field).startswith(f.path + ".") or e.field == f.path for e in f.errors.errors):
         return
-    from ..uncertainty import SharedDraws, UnphysicalPolicy
-    from .api import run_context
     from .builtin import orifice_key, screen_orifices
 
     try:
-        ctx = run_context(site, SharedDraws(run.draws, run.seed),
-                          UnphysicalPolicy(run.max_unphysical, run.max_unphysical_option))
+        ctx = run.trial_run()
         refused = screen_orifices(orifices, vent, ctx)
     except (InputError, InputErrors, TypeError, ValueError, AttributeError, ArithmeticError):
         return  # the site's or the inputs' own checks name it
@@ -801,7 +798,7 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
     def written(k, default=None):
         return f.table.get(key_of(k), default)
     from ..limits import _span
-    from .api import read_stratification, run_context
+    from .api import read_stratification
     from .plume_method import ENTRAINMENT_UNCERTAIN
 
     units = {"height": "m", "entrainment": "dimensionless", "buoyancy_frequency": "1/s",
@@ -840,12 +837,10 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
     # without a plume solution is then exactly the run's. Trying each input's 5 % and 95 % points one at a time
     # missed joint failures: a spike in the cast that caps the plumes of the high rises and strong entrainments
     # together (found by the whole-demo fuzz of tests/test_check_fuzz.py).
-    from ..uncertainty import SharedDraws, UnphysicalPolicy
     from .plume_method import propagation
 
     try:
-        ctx = run_context(site, SharedDraws(run.draws, run.seed),
-                          UnphysicalPolicy(run.max_unphysical, run.max_unphysical_option), strat)
+        ctx = run.trial_run(strat)
     except (InputError, InputErrors, TypeError, ValueError, AttributeError):
         return  # the site's own checks name it
     try:
