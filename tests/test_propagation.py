@@ -319,3 +319,26 @@ def test_survey_max_unphysical_option_overrides_the_file_and_is_recorded(tmp_pat
     provenance = json.loads((out / "summary.json").read_text())["provenance"]
     assert provenance["max_unphysical_share"] == 0.2
     assert 0.01 * DRAWS < provenance["unphysical_draws"] < 0.04 * DRAWS
+
+
+def test_screen_drops_and_refuses_exactly_as_propagate_does():
+    # The check's screening is the driver's own first half: same count of impossible draws, same refusal line.
+    from ventflux.uncertainty import normal, propagate, screen
+
+    inputs = {"x": normal(Q_(1.0, "m"), Q_(0.6, "m")), "y": normal(Q_(2.0, "m"), Q_(1.1, "m"))}
+    names = {"x": "test/x", "y": "test/y"}
+
+    def physical(a):
+        return (a["x"].magnitude > 0) & (a["y"].magnitude > 0)
+
+    kept = propagate(lambda x, y: x * y, inputs, names=names, draws=2000, seed=7, physical=physical,
+                     max_unphysical=0.2)
+    assert kept.unphysical > 0
+    assert screen(inputs, names=names, draws=2000, seed=7, physical=physical, max_unphysical=0.2) == kept.unphysical
+    lines = []
+    for run in (lambda: propagate(lambda x, y: x * y, inputs, names=names, draws=2000, seed=7, physical=physical),
+                lambda: screen(inputs, names=names, draws=2000, seed=7, physical=physical)):
+        with pytest.raises(InputError) as refused:
+            run()
+        lines.append(refused.value.line())
+    assert lines[0] == lines[1]

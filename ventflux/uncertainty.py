@@ -549,7 +549,7 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
               physical: Callable[[dict], np.ndarray] | None = None,
               max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL,
               drawn: Mapping[str, pint.Quantity] | None = None,
-              labels: Mapping[str, str] | None = None, screen_only: bool = False) -> Propagation[R]:
+              labels: Mapping[str, str] | None = None) -> Propagation[R]:
     """The propagation driver: draw every named input, drop unphysical draws, call the estimator once.
 
     Parameters
@@ -580,10 +580,6 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
         How to show an input in a refusal (its value or distribution as the
         user wrote it), where ``str`` of the argument would not; ``names``
         gives its name.
-    screen_only : bool
-        Draw, drop and refuse as a run does, but do not call the estimator
-        (``result`` is None): a validation that must refuse exactly what the
-        run refuses, on the run's draws, without the run's cost.
 
     Returns
     -------
@@ -598,6 +594,49 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
     """
     shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
     policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    names, args, sampled, given, keep, dropped = _draw_and_screen(inputs, names, shared, physical, policy, drawn,
+                                                                  labels)
+    n = shared.n_draws
+    if dropped:
+        for k in list(sampled) + list(given):
+            args[k] = _subset(args[k], keep, n)
+    result = estimator(**args)
+    described = {names.get(k, k): str(v) for k, v in inputs.items() if isinstance(v, Uncertain)}
+    return Propagation(result=result, keep=keep, n_draws=n, unphysical=dropped, seed=shared.seed, policy=policy,
+                       inputs=described)
+
+
+def screen(inputs: Mapping[str, Any], *, names: Mapping[str, str] | str | None = None,
+           draws: SharedDraws | int = DEFAULT_DRAWS, seed: int | None = DEFAULT_SEED,
+           physical: Callable[[dict], np.ndarray] | None = None,
+           max_unphysical: float | UnphysicalPolicy = DEFAULT_MAX_UNPHYSICAL,
+           drawn: Mapping[str, pint.Quantity] | None = None, labels: Mapping[str, str] | None = None) -> int:
+    """Draw and screen the inputs exactly as ``propagate`` does, without calling an estimator.
+
+    For a validation that must refuse what the run refuses, on the run's draws, at no cost of estimation
+    (``ventflux survey --check``). The parameters are ``propagate``'s.
+
+    Returns
+    -------
+    int
+        The number of impossible draws (dropped by the run).
+
+    Raises
+    ------
+    InputError
+        As ``propagate`` raises it: more than ``max_unphysical`` of the draws impossible.
+    """
+    shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
+    policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    return _draw_and_screen(inputs, names, shared, physical, policy, drawn, labels)[-1]
+
+
+_Screened = tuple[Mapping[str, str], dict[str, Any], dict[str, Any], dict[str, Any], np.ndarray, int]
+
+
+def _draw_and_screen(inputs, names, shared, physical, policy, drawn, labels) -> _Screened:
+    """``propagate``'s first half: names, arguments (drawn and exact), which draws are possible, and the refusal
+    above the limit. Returns ``(names, args, sampled, given, keep, dropped)``."""
     if isinstance(names, str) or names is None:
         names = input_names(inputs, names)
     else:
@@ -623,13 +662,7 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
         dropped = policy.enforce(keep, culprit, value)
     else:
         dropped = 0
-    if dropped and not screen_only:
-        for k in list(sampled) + list(given):
-            args[k] = _subset(args[k], keep, n)
-    result = None if screen_only else estimator(**args)
-    described = {names.get(k, k): str(v) for k, v in inputs.items() if isinstance(v, Uncertain)}
-    return Propagation(result=result, keep=keep, n_draws=n, unphysical=dropped, seed=shared.seed, policy=policy,
-                       inputs=described)
+    return names, args, sampled, given, keep, dropped
 
 
 def _require_finite(v, name, label=None):

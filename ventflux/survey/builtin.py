@@ -26,7 +26,7 @@ from ..orifice import (
     orifice_physical,
 )
 from ..errors import InputError
-from ..uncertainty import Uncertain, propagate
+from ..uncertainty import Uncertain, propagate, screen
 from ..units import Q_
 from .api import MethodEstimate, ReportPart, SectionEstimate, SurveyMethod, SurveySection
 from .fields import SharedRef, as_float, nominal_of
@@ -185,16 +185,16 @@ def screen_orifices(specs, vent, ctx) -> list:
     """The refusals the run's propagation raises for a vent's orifices, on the run's draws: ``[(i, InputError)]``.
 
     Each orifice's inputs are drawn and screened exactly as the run draws and screens them (the driver's
-    ``screen_only``): impossible draws of several inputs together (a velocity and a diameter each ≤ 0 in 4 % of
-    their draws drop 8 % of the orifice's) are counted as the run counts them, at no cost of estimation.
+    first half, ``uncertainty.screen``): impossible draws of several inputs together (a velocity and a diameter
+    each ≤ 0 in 4 % of their draws drop 8 % of the orifice's) are counted as the run counts them, at no cost of
+    estimation.
     """
     out = []
     for i, spec in enumerate(specs):
         inputs, _, names, drawn, common = _orifice_arguments(spec, i, vent, ctx)
         try:
-            propagate(calibrated_orifice_discharge, {**inputs, **common}, names=names, draws=ctx.draws,
-                      physical=calibrated_orifice_physical, max_unphysical=ctx.policy, drawn=drawn,
-                      screen_only=True)
+            screen({**inputs, **common}, names=names, draws=ctx.draws, physical=calibrated_orifice_physical,
+                   max_unphysical=ctx.policy, drawn=drawn)
         except InputError as e:
             out.append((i, e))
     return out
