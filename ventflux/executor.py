@@ -208,8 +208,7 @@ def _task(estimate: Callable, parsed, vent_name: str | None, ctx):
     local = replace(ctx, draws=own, progress=_quiet)
     est = estimate(parsed, vent_name, local) if vent_name is not None else estimate(parsed, local)
     # Only what this task added travels back (the run's own draws are already on the client).
-    return (est, {k: v for k, v in own._known.items() if k not in ctx.draws._known},
-            {k: v for k, v in own._shared.items() if k not in ctx.draws._shared})
+    return (est, *own.drawn_since(ctx.draws._known, ctx.draws._shared))
 
 
 def _quiet(msg):  # progress lines from other processes would interleave; the client prints one per task
@@ -251,10 +250,7 @@ def estimate_survey(vents: Sequence, methods: dict, sections_parsed: dict, secti
     got: list[dict] = [{} for _ in vents]
     by_section: dict = {}
     for (vi, key), (est, known, shared) in zip(where, results, strict=True):
-        for name, value in known.items():
-            ctx.draws._register(name, value)  # refuses a name given two different values, as a serial run does
-        for name, value in shared.items():
-            ctx.draws._shared.setdefault(name, value)
+        ctx.draws.adopt(known, shared)  # refuses a name given two different values, as a serial run does
         if vi is None:
             by_section[key] = est
         else:

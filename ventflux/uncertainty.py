@@ -391,6 +391,21 @@ class SharedDraws:
                              "inputs that share a name share their draws, so give different inputs different names")
         self._known[name] = value
 
+    def drawn_since(self, known: Iterable[str], shared: Iterable[str]) -> tuple[dict, dict]:
+        """The names (and their draws) registered here that are not among ``known`` and ``shared``: what a
+        computation drew, to be taken in by another ``SharedDraws`` with ``adopt``."""
+        known, shared = set(known), set(shared)
+        return ({k: v for k, v in self._known.items() if k not in known},
+                {k: v for k, v in self._shared.items() if k not in shared})
+
+    def adopt(self, known: dict, shared: dict) -> None:
+        """Take in names and draws made elsewhere (``drawn_since`` of a copy, in another process or earlier), as
+        drawing them here would: a name given two different values is refused, as in one run."""
+        for name, value in known.items():
+            self._register(name, value)
+        for name, value in shared.items():
+            self._shared.setdefault(name, value)
+
     def draw(self, name: str, value):
         """Draws of the input ``name`` (shape ``(n_draws,)``); the same array on every call.
 

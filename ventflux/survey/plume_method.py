@@ -112,16 +112,12 @@ def propagation(spec, vent, ctx, track: bool = False, hand_over: bool = False):
     kept = _HANDED_OVER.pop(key, None) if key is not None else None
     if kept is not None:
         pp, known, shared = kept
-        for name, value in known.items():  # the names this propagation draws, as drawing them would register them
-            ctx.draws._register(name, value)
-        for name, value in shared.items():
-            ctx.draws._shared.setdefault(name, value)
+        ctx.draws.adopt(known, shared)  # the names this propagation draws, as drawing them would register them
         return pp
-    before_known, before_shared = set(ctx.draws._known), set(ctx.draws._shared)
+    before = set(ctx.draws._known), set(ctx.draws._shared)
     pp = _propagate(spec, vent, ctx, track)
     if hand_over and key is not None:
-        _HANDED_OVER[key] = (pp, {k: v for k, v in ctx.draws._known.items() if k not in before_known},
-                             {k: v for k, v in ctx.draws._shared.items() if k not in before_shared})
+        _HANDED_OVER[key] = (pp, *ctx.draws.drawn_since(*before))
         while len(_HANDED_OVER) > 8:  # a survey's plumes; never more than a few results held
             _HANDED_OVER.popitem(last=False)
     return pp
