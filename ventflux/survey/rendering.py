@@ -80,15 +80,22 @@ def render_figure(fig) -> tuple[bytes, bytes]:
     from matplotlib.layout_engine import PlaceHolderLayoutEngine
 
     _plain_log_labels(fig)
-    buf = io.BytesIO()
-    fig.savefig(buf, format="png", dpi=FIGURE_DPI)
-    if fig.get_layout_engine() is not None and not isinstance(fig.get_layout_engine(), PlaceHolderLayoutEngine):
-        # The PNG's drawing placed the axes: the SVG keeps those places instead of solving the layout again
-        # (constrained layout costs about 0.2 s a figure, measured on the demo's plume figures).
-        fig.set_layout_engine("none")
-    svg = io.BytesIO()
-    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "ventflux"}):
-        fig.savefig(svg, format="svg", metadata={"Date": None})
+    # A figure with a layout engine is drawn twice by every savefig, once without output to place its axes
+    # and once for real, and the SVG's placeholder engine still triggers the first. The layout is therefore
+    # solved once here, at the PNG's resolution (where savefig would solve it), and the engine removed: each
+    # file is then drawn once. The bytes are those of the two-draw route (compared on the demo's figures);
+    # about 0.5 s less CPU for the demo's twenty figures (measured).
+    with matplotlib.rc_context({"figure.autolayout": False, "figure.constrained_layout.use": False}):
+        engine = fig.get_layout_engine()
+        if engine is not None and not isinstance(engine, PlaceHolderLayoutEngine):
+            fig.set_dpi(FIGURE_DPI)
+            engine.execute(fig)
+        fig.set_layout_engine(None)  # with those rc values: no engine at all, not a placeholder
+        buf = io.BytesIO()
+        fig.savefig(buf, format="png", dpi=FIGURE_DPI)
+        svg = io.BytesIO()
+        with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "ventflux"}):
+            fig.savefig(svg, format="svg", metadata={"Date": None})
     return buf.getvalue(), svg.getvalue()
 
 
