@@ -318,6 +318,28 @@ def test_results_nc_holds_statistics_and_draws_on_request(survey_run, tmp_path):
     assert not list(tmp_path.glob(".results-*"))  # no temporary file left behind
 
 
+def test_results_nc_is_the_file_xarray_writes(survey_run, tmp_path):
+    # The survey writes through the h5netcdf store directly (to skip Dask's scheduler look-up); the file must
+    # be the one xarray's own to_netcdf writes: same variables, values, attributes and compression. Reference:
+    # xarray's Dataset.to_netcdf with the same engine and encoding (a general-purpose library, test only).
+    import xarray as xr
+
+    from ventflux.survey.netcdf import results_dataset, write_netcdf
+
+    _, result, _ = survey_run
+    ours = write_netcdf(result, tmp_path / "ours.nc", draws=True)
+    ds = results_dataset(result, True)
+    encoding = {n: {"zlib": True, "complevel": 4} for n, da in ds.data_vars.items()
+                if da.dtype.kind == "f" and da.ndim > 0}
+    ds.to_netcdf(tmp_path / "theirs.nc", engine="h5netcdf", encoding=encoding)
+    with xr.open_dataset(ours) as a, xr.open_dataset(tmp_path / "theirs.nc") as b:
+        xr.testing.assert_identical(a, b)
+        for name in b.variables:
+            for key in ("zlib", "complevel", "chunksizes", "dtype", "_FillValue"):
+                va, vb = a[name].encoding.get(key), b[name].encoding.get(key)
+                assert va == vb or (va != va and vb != vb), (name, key, va, vb)
+
+
 def test_netcdf_draws_must_be_true_or_false(tmp_path):
     from ventflux.errors import InputErrors
 
