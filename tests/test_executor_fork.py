@@ -95,6 +95,29 @@ def _tasks_run_elsewhere():
     assert os.getpid() not in pids and len(pids) == 3
 
 
+def test_meanwhile_runs_once_here_while_the_workers_compute():
+    _in_a_fresh_process("_meanwhile_here")
+
+
+def _pid(_k):
+    return os.getpid()
+
+
+def _meanwhile_here():
+    import time
+
+    ran = []
+    # the workers sleep, so the caller's work is done while they are busy, not after them
+    args = [(0.5,), (0.5,)]
+    t0 = time.perf_counter()
+    out = ForkExecutor(2).map(time.sleep, args, meanwhile=lambda: ran.append((os.getpid(), time.perf_counter())))
+    assert out == [None, None]
+    assert len(ran) == 1 and ran[0][0] == os.getpid() and ran[0][1] - t0 < 0.4
+    ran.clear()
+    SerialExecutor().map(_pid, [(0,)])  # in this process there is no waiting to fill
+    assert ForkExecutor(2).map(_pid, [(0,)], meanwhile=lambda: ran.append(1)) == [os.getpid()] and ran == []
+
+
 def test_a_forked_task_is_given_its_share_of_the_cores():
     _in_a_fresh_process("_cores_are_shared")
 

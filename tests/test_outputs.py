@@ -246,7 +246,7 @@ def test_never_destroys_what_it_did_not_create(tmp_path_factory, sequence):
 
 
 def test_a_path_through_a_file_is_refused_before_any_work(tmp_path):
-    """The survey checks its --out before computing (report.check_output_location calls this)."""
+    """The survey checks its --out before computing (ventflux.io.check_output_location calls this)."""
     from ventflux.io import check_results_destination
 
     (tmp_path / "afile").write_text("mine")

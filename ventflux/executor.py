@@ -105,7 +105,13 @@ class ForkExecutor:
         return (tasks > 1 and usable_cores() > 1 and threading.active_count() == 1
                 and sys.platform.startswith("linux"))
 
-    def map(self, fn, arguments, on_done=None):
+    def map(self, fn, arguments, on_done=None, meanwhile: Callable[[], None] | None = None):
+        """As ``Executor.map``; ``meanwhile()`` runs here once the workers are forked, before waiting for them.
+
+        The caller is otherwise idle while its workers compute, and one task often outlasts the others (a
+        video correlation), leaving a core free: ``meanwhile`` is for work the caller needs next (the survey
+        imports its writers there). It is not run when the tasks run in this process.
+        """
         import multiprocessing
         from concurrent.futures import ProcessPoolExecutor
 
@@ -121,6 +127,8 @@ class ForkExecutor:
             with ProcessPoolExecutor(_SIBLINGS,
                                      mp_context=multiprocessing.get_context("fork")) as pool:
                 futures = [pool.submit(_run_forked, i) for i in range(len(arguments))]
+                if meanwhile is not None:
+                    meanwhile()
                 for i, f in enumerate(futures):
                     try:
                         out[i] = f.result()
@@ -216,13 +224,14 @@ def _quiet(msg):  # progress lines from other processes would interleave; the cl
 
 
 def estimate_survey(vents: Sequence, methods: dict, sections_parsed: dict, sections: dict, ctx,
-                    executor: Executor | None = None) -> tuple[list[dict], dict]:
+                    executor: Executor | None = None,
+                    meanwhile: Callable[[], None] | None = None) -> tuple[list[dict], dict]:
     """Every vent's method estimates and every section's estimate: ``([{method key: estimate}, …], {key: …})``.
 
     Serially (the default) each ``estimate`` runs here with the run's own context, vents first, in the file's
     order: a plain loop. On another executor each method of each vent and each section is one task with a copy
     of the context; the names a task drew are merged into ``ctx.draws`` in the same order (same seed and name,
-    same draws: the numbers are identical).
+    same draws: the numbers are identical). ``meanwhile``: see ``ForkExecutor.map`` (other executors ignore it).
     """
     n = len(vents)
     if executor is None or isinstance(executor, SerialExecutor):
@@ -246,7 +255,10 @@ def estimate_survey(vents: Sequence, methods: dict, sections_parsed: dict, secti
         ctx.progress(f"{what} done ({executor.name})")
 
     ctx.progress(f"estimating {len(vents)} vents and {len(sections_parsed)} sections ({executor.name})")
-    results = executor.map(_task, args, on_done=done)
+    if isinstance(executor, ForkExecutor):
+        results = executor.map(_task, args, on_done=done, meanwhile=meanwhile)
+    else:
+        results = executor.map(_task, args, on_done=done)
     got: list[dict] = [{} for _ in vents]
     by_section: dict = {}
     for (vi, key), (est, known, shared) in zip(where, results, strict=True):

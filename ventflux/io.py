@@ -214,6 +214,22 @@ def check_results_destination(path, option: str = "--out") -> Path:
     return path
 
 
+def check_output_location(path, input_files, option: str = "--out") -> Path:
+    """``check_results_destination``, and refuse a folder that is, or holds, any of ``input_files``."""
+    check_results_destination(path, option)
+    out = Path(path).resolve()
+    for f in input_files:
+        p = Path(f).resolve()
+        if out == p or out in p.parents:
+            raise InputError(option, str(path), f"a folder that contains no input file (it contains {p})")
+    return Path(path)
+
+
+def file_stem(name: str) -> str:
+    """A name as a file or folder name: lower case, every character but letters and digits a hyphen."""
+    return "".join(ch if ch.isalnum() else "-" for ch in name.lower()).strip("-") or "survey"
+
+
 @contextmanager
 def results_directory(path, option: str = "--out") -> Iterator[Path]:
     """Build a results folder under a temporary name and rename it to ``path`` when complete.

@@ -21,8 +21,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from ..errors import InputError
-from ..io import check_results_destination, results_directory, sha256_of
+from ..io import check_output_location, file_stem, results_directory, sha256_of
 from .rendering import subplots
 
 CAUTION = ("These estimates are for scientific analysis. They are not for the operational safety of people or "
@@ -36,16 +35,6 @@ STATS = (("p50", "median"), ("p05", "p05"), ("p95", "p95"), ("mean", "mean"), ("
 def _mw(s):
     s = s.to("MW")
     return {f"{k} [MW]": float(getattr(s, attr).magnitude) for k, attr in STATS}
-
-
-def check_output_location(out_dir: Path, spec):
-    """Refuse an output folder that holds, or is, any input, or anything ventflux did not write."""
-    check_results_destination(out_dir, "--out")
-    out = Path(out_dir).resolve()
-    for f in spec.input_files:
-        p = Path(f).resolve()
-        if out == p or out in p.parents:
-            raise InputError("--out", str(out_dir), f"a folder that contains no input file (it contains {p})")
 
 
 def tables_of(result) -> dict:
@@ -165,7 +154,7 @@ def _figure_tables(result):
     for vr in result.vents:
         for key, e in vr.methods.items():
             for stem, _, _ in e.figures:
-                out[f"{_slug(vr.name)}_{stem}"] = _method_table(result, key)
+                out[f"{file_stem(vr.name)}_{stem}"] = _method_table(result, key)
     for key, s in result.sections.items():
         first = next(iter(s.tables), key)
         for stem, _, _ in s.figures:
@@ -265,7 +254,7 @@ def figures_of(result) -> list:
                      "and longitude."))
     for vr in result.vents:
         for e in vr.methods.values():
-            figs += [(f"{_slug(vr.name)}_{stem}", f, cap) for stem, f, cap in e.figures]
+            figs += [(f"{file_stem(vr.name)}_{stem}", f, cap) for stem, f, cap in e.figures]
     for key, s in result.sections.items():
         figs += [(f"{key}_{stem}", f, cap) for stem, f, cap in s.figures]
     return figs
@@ -305,10 +294,6 @@ METHOD_COLUMNS = {"method", "methods", "first", "second", "check"}
 
 def _method_text(text: str) -> str:
     return " + ".join(method_label(k) for k in text.split(" + "))
-
-
-def _slug(name):
-    return "".join(ch if ch.isalnum() else "-" for ch in name.lower()).strip("-") or "survey"
 
 
 # ---- summary and provenance ---------------------------------------------------
@@ -370,7 +355,7 @@ def _library_versions():
 def write_results(result, out_dir) -> Path:
     """Write the results folder atomically; return the path of the HTML report."""
     out_dir = Path(out_dir)
-    check_output_location(out_dir, result.spec)
+    check_output_location(out_dir, result.spec.input_files)
     tables = tables_of(result)
     figs = figures_of(result)
     summary = summary_of(result, tables)

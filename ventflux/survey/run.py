@@ -79,11 +79,13 @@ class SurveyResult(Presentable):
     budget_mode: str = "draws"  # what ``ventflux.survey.budget.survey_budget(result)`` does by default
 
 
-def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor=None) -> SurveyResult:
+def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor=None,
+               meanwhile=None) -> SurveyResult:
     """Compute everything a survey file asks for (see ``ventflux.survey.spec``).
 
     ``draws``: the run's named draws (default a new ``SharedDraws``; the uncertainty budget's design passes its own).
     ``executor``: where the vents are estimated (``ventflux.executor``; default this process).
+    ``meanwhile``: run here while forked workers estimate (``ventflux.executor.ForkExecutor.map``).
     """
     t0 = time.perf_counter()
     methods, sections = survey_components()
@@ -105,7 +107,7 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor
         import matplotlib.backends.backend_agg  # noqa: F401
         import matplotlib.figure  # noqa: F401
 
-    per_vent, sec = estimate_survey(spec.vents, methods, spec.sections, sections, ctx, executor)
+    per_vent, sec = estimate_survey(spec.vents, methods, spec.sections, sections, ctx, executor, meanwhile)
     vents = [VentResult(name=v.name, methods=est, heat_power=None) for v, est in zip(spec.vents, per_vent, strict=True)]
 
     # One mask of usable draw columns for the whole field, under the run's one limit.
