@@ -253,3 +253,21 @@ def test_a_path_through_a_file_is_refused_before_any_work(tmp_path):
     with pytest.raises(InputError, match="is a file"):
         check_results_destination(tmp_path / "afile" / "sub" / "res")
     assert (tmp_path / "afile").read_text() == "mine"
+
+
+def test_the_survey_refuses_an_out_folder_that_holds_its_inputs(tmp_path):
+    # The survey copied into an earlier results folder and run with --out at that folder: replacing it would
+    # delete the inputs. Refused before anything is computed, naming --out; the folder is left as it was.
+    import shutil
+
+    demo = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge"
+    res = tmp_path / "res"
+    shutil.copytree(demo, res)
+    (res / RESULTS_MARKER).write_text('{"created_by": "ventflux"}\n')
+    before = _tree(res)
+    done = subprocess.run([sys.executable, "-m", "ventflux", "survey", str(res / "survey.toml"), "--out", str(res)],
+                          capture_output=True, text=True, timeout=300)
+    assert done.returncode == 2, done.stderr
+    assert done.stderr.startswith("ventflux survey: error: --out:") and "contains no input file" in done.stderr
+    assert "Traceback" not in done.stderr and len(done.stderr.strip().splitlines()) == 1
+    assert _tree(res) == before
