@@ -255,14 +255,15 @@ def given_data_indices(inputs: dict, outputs, *, bins: int | None = None, bootst
     # first keeps the sums of squares free of cancellation (float32 halves the memory traffic).
     Z = _standardized(Y)
     Xs = _standardized(X)
-    cols = np.zeros((n + pad, 2 + 3 * r), np.float32)  # per draw: x, x², y…, y²…, x·y…
+    cols = np.zeros((n + pad, 3 + 3 * r), np.float32)  # per draw: x, x², y…, y²…, x·y…, 1
+    cols[:, -1] = 1.0  # the weights' sums come out of the same products (a padded row has zero weight)
     cols[:n, 2 + r:2 + 2 * r] = (Z * Z).T
     cols[:n, 2:2 + r] = Z.T
     WT = np.zeros((n + pad, nb), np.float32)
     WT[:n] = W.T
     tail = np.arange(n, n + pad)
     first = np.empty((k, r, nb))
-    sums = np.empty((M, nb, 2 + 3 * r), np.float32)
+    sums = np.empty((M, nb, 3 + 3 * r), np.float32)
     with _one_blas_thread():
         _bin_sums(Xs, Z, cols, WT, tail, M, c, nb, r, sums, first)
     S = first[:, :, 0]
@@ -309,17 +310,19 @@ def _bin_sums(Xs, Z, cols, WT, tail, M, c, nb, r, sums, first):
     for i in range(Xs.shape[0]):  # one sort per input; every output and replicate at once
         x = Xs[i]
         cols[:n, 0], cols[:n, 1] = x, x * x
-        cols[:n, 2 + 2 * r:] = (Z * x).T
+        cols[:n, 2 + 2 * r:-1] = (Z * x).T
         order = np.concatenate([np.argsort(x, kind="stable"), tail])
         Wb = np.take(WT, order, axis=0, out=wbuf).reshape(M, c, nb)  # (M, c, nb), no copy to transpose
-        Cb = np.take(cols, order, axis=0, out=cbuf).reshape(M, c, 2 + 3 * r)
+        Cb = np.take(cols, order, axis=0, out=cbuf).reshape(M, c, 3 + 3 * r)
         for m in range(M):  # per-bin 2-D products: BLAS reads the transposed view as it is
             np.matmul(Wb[m].T, Cb[m], out=sums[m])
-        cnt = Wb.sum(axis=1, dtype=np.float64).T  # (nb, M)
-        cnt2 = np.einsum("mcb,mcb->bm", Wb, Wb, dtype=np.float64)  # Σw² per bin: duplicated draws add no information
-        s64 = sums.astype(np.float64).transpose(1, 2, 0)  # (nb, 2 + 3r, M)
-        first[i] = _bin_index(cnt, cnt2, s64[:, 0], s64[:, 1], s64[:, 2:2 + r], s64[:, 2 + r:2 + 2 * r],
-                              s64[:, 2 + 2 * r:])
+        # Σw² per bin (duplicated draws add no information). The weights are small whole numbers, so single
+        # precision sums them exactly (every partial sum is far below 2²⁴): the same counts as in double, at a
+        # third of the cost (measured)
+        cnt2 = np.einsum("mcb,mcb->bm", Wb, Wb).astype(np.float64)
+        s64 = sums.astype(np.float64).transpose(1, 2, 0)  # (nb, 3 + 3r, M)
+        first[i] = _bin_index(s64[:, -1], cnt2, s64[:, 0], s64[:, 1], s64[:, 2:2 + r], s64[:, 2 + r:2 + 2 * r],
+                              s64[:, 2 + 2 * r:-1])
 
 
 def _standardized(A):
