@@ -124,3 +124,71 @@ def test_the_orifice_screening_is_the_runs_own_refusal(tmp_path):
     with pytest.raises(InputError) as refused:
         run_survey(spec)
     assert refused.value.field == "Wickstack/orifice[0]/velocity" and "156 of 2000" in refused.value.allowed
+
+
+# --- a shared input drawn once for the whole run: the check counts the run's own draws of it ------------------
+SCALE = ('"camera scale" = "1.00 ± 0.02"', '"camera scale" = "1.00 ± 0.607"')  # its 5 % point just above 0
+
+
+def _video_demo(tmp_path: Path) -> Path:
+    """The demo with 2,000 draws, its probe records left out, the camera's scale error widened: about 5 % of
+    the scale's draws are ≤ 0, which the video estimate drops, so whether the run refuses depends on the seed."""
+    shutil.copytree(DEMO, tmp_path / "demo")
+    path = tmp_path / "demo" / "survey.toml"
+    text = path.read_text()
+    assert SCALE[0] in text
+    text = text.replace(*SCALE)
+    text = re.sub(r"\n\[sediment_probes\].*?(?=\n\[field_plume\])", "\n", text, flags=re.DOTALL)
+    text = re.sub(r"(?m)^draws\s*=\s*\d+", "draws = 2000", text)
+    path.write_text(text)
+    return path
+
+
+def _seeds():
+    """A seed whose run has more than 5 % of the 2,000 scale draws ≤ 0 and one with fewer (the run's stream)."""
+    from ventflux.uncertainty import SharedDraws, parse_uncertain
+
+    value = parse_uncertain("1.00 ± 0.607", "dimensionless", "scale")
+    over = under = None
+    for seed in range(1, 200):
+        bad = int(np.count_nonzero(SharedDraws(2000, seed).draw("shared/camera scale", value).m <= 0))
+        if bad > 100 and over is None:
+            over = (seed, bad)
+        if bad <= 100 and under is None:
+            under = seed
+        if over and under:
+            return over, under
+    raise AssertionError("no seeds on both sides")
+
+
+def test_a_shared_input_the_run_would_refuse_is_refused_by_check_and_accepted_when_it_would_not(tmp_path):
+    # A shared scale of 1.00 ± 0.607 passed --check whatever its spread (a shared value's share of draws ≤ 0 was
+    # not checked at all) and the run refused it after analysing the clip. Now the check counts the run's own
+    # draws of it: it refuses on the seeds where the run refuses, with the run's count, and accepts the others;
+    # the run is then made on both seeds and compared with the check's verdict.
+    path = _video_demo(tmp_path)
+    (over, bad), under = _seeds()
+    with pytest.raises((InputError, InputErrors)) as refused:
+        load_survey(path, seed=over)
+    e = refused.value
+    lines = e.lines() if isinstance(e, InputErrors) else [e.line()]
+    assert len(lines) == 1 and "vent[0].video.scale_factor (vent 'Gildhorn')" in lines[0], lines
+    assert "'@camera scale = 1 ± 0.607'" in lines[0] and f"({bad} are ≤ 0" in lines[0]
+    spec = load_survey(path, seed=under)
+    run_survey(spec)  # accepted by the check: the run accepts it
+    spec.seed = over  # the run on the seed the check refused
+    with pytest.raises(InputError) as run_refused:
+        run_survey(spec)
+    assert run_refused.value.field == "shared/camera scale" and f"{bad} of 2000" in run_refused.value.allowed
+
+
+def test_the_check_uses_the_runs_limit_for_an_input_of_its_own(tmp_path):
+    # An orifice velocity of 1.2 ± 0.75 m/s is ≤ 0 in 5.5 % of its draws (normal distribution: Φ(-1.6) = 0.0548,
+    # standard normal table): refused under the default 5 % limit, accepted when the run may drop 10 %.
+    path = _demo(tmp_path, spike=False)
+    text = path.read_text()
+    assert 'velocity = "1.2 ± 0.2 m/s"' in text
+    path.write_text(text.replace('velocity = "1.2 ± 0.2 m/s"', 'velocity = "1.2 ± 0.75 m/s"', 1))
+    with pytest.raises((InputError, InputErrors), match=r"orifice\[0\]\.velocity.*above run\.max_unphysical"):
+        load_survey(path)
+    load_survey(path, max_unphysical=0.10)

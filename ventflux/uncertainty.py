@@ -114,11 +114,12 @@ class Uncertain:
 
     def __str__(self):
         u = f"{ureg.Unit(self.unit):~P}"
+        u = f" {u}" if u else ""  # a pure number has no unit to write
         if self.kind == "normal":
-            return f"{self.a:g} ± {self.b:g} {u}"
+            return f"{self.a:g} ± {self.b:g}{u}"
         if self.kind == "beta":
             return f"beta(mean {self.a:g}, sd {self.b:g})"
-        return f"{self.kind}({self.a:g}, {self.b:g}) {u}"
+        return f"{self.kind}({self.a:g}, {self.b:g}){u}"
 
 
 def normal(mean: pint.Quantity, sd: pint.Quantity) -> Uncertain:

@@ -13,8 +13,10 @@ import math
 from dataclasses import dataclass
 from pathlib import Path
 
+import numpy as np
+
 from ..errors import Collector, InputError, Warnings
-from ..uncertainty import Uncertain, parse_uncertain
+from ..uncertainty import DEFAULT_DRAWS, DEFAULT_MAX_UNPHYSICAL, DEFAULT_SEED, Uncertain, parse_uncertain
 from ..units import Q_, parse_quantity
 
 
@@ -22,7 +24,8 @@ class Fields:
     """Typed access to one TOML table, collecting errors under a key path."""
 
     def __init__(self, table, path: str, errors: Collector, where: str, base_dir: Path, defaults: dict,
-                 shared: dict | None = None, schema=None, scope: str = "", warnings: Warnings | None = None):
+                 shared: dict | None = None, schema=None, scope: str = "", warnings: Warnings | None = None,
+                 run: RunSettings | None = None):
         self.table = table if isinstance(table, dict) else {}
         self.path = path
         self.errors = errors
@@ -36,6 +39,9 @@ class Fields:
         #: The table's place in the schema without indices (``vent.orifice``): renamed keys are looked up by it.
         self.scope = scope
         self.warnings = warnings if warnings is not None else Warnings()
+        #: The run's draws, seed and limit on impossible draws, shared by every table of the file (set once
+        #: ``[run]`` and the command line are read): a value whose draws the run would refuse is refused here.
+        self.run = run if run is not None else RunSettings()
         self.used: set[str] = set()
         #: New key name → the deprecated spelling the file used for it.
         self.aliases: dict[str, str] = {}
@@ -129,7 +135,7 @@ class Fields:
                 self.error(name, "(missing)", "a table for this required section")
             return None
         return Fields(self.table[name], self.key(name), self.errors, self.where, self.base_dir, self.defaults,
-                      self.shared, schema=decl, scope=scope, warnings=self.warnings)
+                      self.shared, schema=decl, scope=scope, warnings=self.warnings, run=self.run)
 
     def subs(self, name) -> list[Fields]:
         """An array of tables (``[[vent]]``) as ``Fields`` with indexed key paths."""
@@ -142,7 +148,8 @@ class Fields:
             self.error(name, type(items).__name__, "an array of tables, e.g. [[" + self.key(name) + "]]")
             return []
         return [Fields(t, f"{self.key(name)}[{i}]", self.errors, self.where, self.base_dir, self.defaults,
-                       self.shared, schema=decl, scope=scope, warnings=self.warnings) for i, t in enumerate(items)]
+                       self.shared, schema=decl, scope=scope, warnings=self.warnings, run=self.run)
+                for i, t in enumerate(items)]
 
     def check_unknown(self, extra_allowed=()):
         """Refuse every key of the table that the parser did not read, naming the table's declared keys."""
@@ -193,6 +200,12 @@ class Fields:
             except InputError as e:
                 self.errors.add(InputError(self.key(name), raw, e.allowed, where=self.where))
                 return None
+            if positive and isinstance(value, Uncertain):
+                # Drawn once for the whole run under its shared name: count the run's own draws ≤ 0
+                refused = self.run.refuses_draws("shared/" + ref, value, dimension)
+                if refused:
+                    self.error(name, f"{raw} = {value}", f"a {dimension} > 0 in all but {refused}")
+                    return None
             return SharedRef(ref, value)
         if isinstance(raw, (int, float)) and not isinstance(raw, bool):
             raw = str(raw) if dimension == "dimensionless" else raw
@@ -214,12 +227,17 @@ class Fields:
         if positive and not mag > 0:
             self.error(name, raw, f"a {dimension} > 0")
             return None
-        if positive and isinstance(value, Uncertain) and not _low_tail(value, dimension) > 0:
-            # The run drops draws ≤ 0 and refuses an input when more than 5 % are: check that here, so that a
-            # file that passes --check never fails in the run.
-            self.error(name, raw, f"a {dimension} > 0 in at least 95 % of its draws (its 5 % point is "
-                                  f"{_low_tail(value, dimension):.3g} in SI units; narrow the spread)")
-            return None
+        if positive and isinstance(value, Uncertain):
+            # The run drops draws ≤ 0 and refuses an input when more than its limit (5 %) are: check that here,
+            # so that a file that passes --check does not fail in the run. The stream this value is drawn under
+            # is its estimator's to name, so the share is the distribution's own, not counted on the run's draws.
+            share = self.run.max_unphysical
+            low = _low_point(value, dimension, share, self.run.draws)
+            if not low > 0:
+                self.error(name, raw, f"a {dimension} > 0 in at least {1 - share:.1%} of its draws (its {share:.1%} "
+                                      f"point is {low:.3g} in SI units, above {self.run.option}; narrow the spread "
+                                      "or use a lognormal)")
+                return None
         if minimum is not None and centre < minimum:
             self.error(name, raw, f"a {dimension} ≥ {minimum:~P}")
             return None
@@ -330,12 +348,49 @@ class Position:
         return self.east is not None
 
 
-def _low_tail(value, dimension) -> float:
-    """The 5 % point of a distribution, in SI (kelvin for temperatures)."""
-    from ..limits import _span
+def _low_point(value, dimension, share: float, draws: int) -> float:
+    """The point a distribution's ``share`` of draws lies below, in SI (kelvin for temperatures).
 
+    A share of 0 (no impossible draw allowed) is taken as one draw in ``draws``: a normal has some mass below
+    every point, and the run refuses only what its draws show.
+    """
+    from statistics import NormalDist
+
+    if value.kind in ("lognormal", "beta"):  # never ≤ 0
+        return math.inf
+    share = min(max(share, 1.0 / max(int(draws), 1)), 1.0)
+    if value.kind == "normal":
+        low = value.a + NormalDist().inv_cdf(share) * value.b if share < 1 else math.inf
+    else:  # uniform
+        low = value.a + share * (value.b - value.a)
     unit = "K" if dimension == "temperature" else str(Q_(1.0, value.unit).to_base_units().units)
-    return _span(value, unit)[1]
+    return float(Q_(low, value.unit).to(unit).magnitude)
+
+
+@dataclass
+class RunSettings:
+    """The run's Monte Carlo settings as the file and the command line set them (``Fields.run``)."""
+
+    draws: int = DEFAULT_DRAWS
+    seed: int = DEFAULT_SEED
+    max_unphysical: float = DEFAULT_MAX_UNPHYSICAL
+    #: Where the limit was set, for a refusal: the file's key or the command line's option.
+    option: str = "run.max_unphysical"
+
+    def refuses_draws(self, stream: str, value, dimension: str) -> str:
+        """Why the run would refuse the draws of ``value`` under ``stream`` for being ≤ 0 (``""``: it would not).
+
+        The run's own draws (same name, seed and count) are counted against its limit.
+        """
+        from ..uncertainty import SharedDraws
+
+        q = SharedDraws(self.draws, self.seed).draw(stream, value)
+        m = q.to("K").magnitude if dimension == "temperature" else q.to_base_units().magnitude
+        bad = int(np.count_nonzero(~(np.asarray(m) > 0)))
+        if bad <= self.max_unphysical * self.draws:
+            return ""
+        return (f"{self.max_unphysical:.1%} of the run's {self.draws} draws ({bad} are ≤ 0, above "
+                f"{self.option}; narrow the spread or use a lognormal)")
 
 
 class SharedRef:

@@ -292,7 +292,6 @@ def _load(raw: dict, path: Path, where: str, overrides: dict | None = None) -> S
                 shared[name] = value
     top.shared.update(shared)
 
-    site = _parse_site(top.sub("site", required=True), input_files)
     run = top.sub("run")
     from ..uncertainty import DEFAULT_MAX_UNPHYSICAL
 
@@ -333,11 +332,15 @@ def _load(raw: dict, path: Path, where: str, overrides: dict | None = None) -> S
             check_memory(int(draws), _raw_series(raw), draws_field, where=draws_where)
         if len(errs.errors) > before:  # nothing else is read then: what was found so far is reported with it
             errs.raise_if_any()
+    # every table is read with the run's settings from here on (the site's, the vents' and the sections' values)
+    top.run.draws, top.run.seed = int(draws or DEFAULT_DRAWS), int(seed)
+    top.run.max_unphysical = float(max_unphysical if max_unphysical is not None else DEFAULT_MAX_UNPHYSICAL)
+    top.run.option = "--max-unphysical" if "max_unphysical" in given else "run.max_unphysical"
+    site = _parse_site(top.sub("site", required=True), input_files)
     methods, sections = survey_components()
     ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files, warnings=warnings,
-                       draws=int(draws or DEFAULT_DRAWS), seed=int(seed),
-                       max_unphysical=float(max_unphysical if max_unphysical is not None else DEFAULT_MAX_UNPHYSICAL),
-                       max_unphysical_option="--max-unphysical" if "max_unphysical" in given else "run.max_unphysical")
+                       draws=top.run.draws, seed=top.run.seed, max_unphysical=top.run.max_unphysical,
+                       max_unphysical_option=top.run.option)
     vents = []
     names = set()
     for vf in top.subs("vent"):
