@@ -86,3 +86,14 @@ def test_summary_of_one_finite_draw_has_no_spread_and_no_warning():
         s = summarize(Q_(np.array([np.nan, 3.0]), "W"))
     assert s.draws == 1 and s.median.magnitude == 3.0
     assert np.isnan(s.std.magnitude)  # undefined, not zero: one draw says nothing of the spread
+
+
+@pytest.mark.parametrize("text", ["4 ± 3 mm", "4 +/- 3 mm", "uniform(3, 5) mm", "normal(4, 1) mm"])
+def test_a_distribution_where_one_value_is_needed_is_named_as_such(text):
+    # An input that cannot be uncertain (a video's pixel size: its error is the scale factor's) given as a
+    # distribution: the refusal says so instead of asking for a unit the value already has.
+    from ventflux.units import parse_quantity
+
+    with pytest.raises(InputError, match="one exact value") as e:
+        parse_quantity(text, "length", "pixel_size")
+    assert e.value.field == "pixel_size" and e.value.value == text

@@ -145,6 +145,10 @@ def parse_quantity(text, dimension: str, field: str, default_unit: str | None = 
         except InputError:
             raise
         except Exception:
+            if "±" in raw or "+/-" in raw or re.match(r"^(normal|uniform|lognormal|beta)\s*\(", raw):
+                # a distribution where one exact value is needed: say that, not that the unit is missing
+                raise InputError(field, text, f"one exact value (this input cannot be uncertain), "
+                                              f"{expected(dimension)}") from None
             raise InputError(field, text, expected(dimension)) from None
     q = require_dimension(q, dimension, field)
     if not isinstance(text, pint.Quantity) or np.ndim(q.magnitude) == 0:
