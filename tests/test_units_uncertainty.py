@@ -92,8 +92,6 @@ def test_summary_of_one_finite_draw_has_no_spread_and_no_warning():
 def test_a_distribution_where_one_value_is_needed_is_named_as_such(text):
     # An input that cannot be uncertain (a video's pixel size: its error is the scale factor's) given as a
     # distribution: the refusal says so instead of asking for a unit the value already has.
-    from ventflux.units import parse_quantity
-
     with pytest.raises(InputError, match="one exact value") as e:
         parse_quantity(text, "length", "pixel_size")
     assert e.value.field == "pixel_size" and e.value.value == text
