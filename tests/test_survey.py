@@ -142,6 +142,30 @@ def test_failed_run_leaves_no_results_folder(tmp_path, monkeypatch):
     assert not [p for p in tmp_path.iterdir() if ".part" in p.name]
 
 
+def _lines(tmp_path, text):
+    with pytest.raises((InputError, InputErrors)) as err:
+        load_survey(_write(tmp_path, text))
+    e = err.value
+    return e.lines() if isinstance(e, InputErrors) else [e.line()]
+
+
+def test_a_refused_shared_value_is_one_line_not_one_per_key_that_uses_it(tmp_path):
+    # A [shared] value refused by its own check is named once, where it is written; the keys that refer to it
+    # used to add one line each, claiming the name was not defined in [shared].
+    text = SITE + '[shared]\n"laser" = "1.0 ±"\n' + VENT.format(name="A", factor="@laser") + \
+        VENT.format(name="B", factor="@laser")
+    lines = _lines(tmp_path, text)
+    assert len(lines) == 1 and "shared.laser" in lines[0], lines
+
+
+def test_a_shared_value_meets_the_conditions_of_the_key_that_uses_it(tmp_path):
+    # A size factor must be > 0: a shared -1 used as one is refused at the key, with the value it refers to
+    # (it used to pass the check and make every draw of the orifice impossible in the run).
+    lines = _lines(tmp_path, SITE + '[shared]\n"laser" = "-1"\n' + VENT.format(name="A", factor="@laser"))
+    assert len(lines) == 1 and "vent[0].orifice[0].size_factor" in lines[0] and "'@laser = -1" in lines[0], lines
+    assert "> 0" in lines[0]
+
+
 def test_output_folder_holding_inputs_is_refused(tmp_path, capsys):
     path = _write(tmp_path, SITE + VENT.format(name="A", factor="1.0"))
     assert main(["survey", str(path), "--out", str(tmp_path), "--quiet"]) == 2
@@ -203,3 +227,22 @@ def test_survey_json_prints_each_headline_interval_with_its_median(tmp_path, cap
     for q in ("p05", "p50", "p95"):
         assert printed[f"total_heat_power_W_{q}"] == summary[f"total_heat_power_W_{q}"]
     assert printed["report"].endswith("report.html")
+
+
+def test_a_key_that_needs_one_exact_value_refuses_an_uncertain_shared_one(tmp_path):
+    # A clip's frame rate is one number (not drawn): a shared "25 ± 1 Hz" referred to by it is refused at the key,
+    # instead of reaching the estimate as a distribution.
+    import shutil
+
+    demo = Path(__file__).resolve().parents[1] / "examples" / "oskeran-ridge"
+    shutil.copytree(demo, tmp_path / "demo")
+    path = tmp_path / "demo" / "survey.toml"
+    text = path.read_text()
+    assert '[shared]\n' in text and 'pixel_size = "4 mm"\n' in text
+    text = text.replace('[shared]\n', '[shared]\n"fps" = "25 ± 1 Hz"\n', 1)
+    path.write_text(text.replace('pixel_size = "4 mm"\n', 'pixel_size = "4 mm"\n  frame_rate = "@fps"\n', 1))
+    with pytest.raises((InputError, InputErrors)) as err:
+        load_survey(path)
+    e = err.value
+    lines = e.lines() if isinstance(e, InputErrors) else [e.line()]
+    assert len(lines) == 1 and "vent[0].video.frame_rate" in lines[0] and "one exact frequency" in lines[0], lines

@@ -189,6 +189,8 @@ class Fields:
                            (", ".join(sorted(self.shared)) or "(none defined)"))
                 return None
             value = self.shared[ref]
+            if value is REFUSED_SHARED:
+                return None
             try:  # a shared value has the dimension and meets the plausibility limit of every key that uses it
                 from ..units import require_dimension
 
@@ -200,13 +202,12 @@ class Fields:
             except InputError as e:
                 self.errors.add(InputError(self.key(name), raw, e.allowed, where=self.where))
                 return None
-            if positive and isinstance(value, Uncertain):
-                # Drawn once for the whole run under its shared name: count the run's own draws ≤ 0
-                refused = self.run.refuses_draws("shared/" + ref, value, dimension)
-                if refused:
-                    self.error(name, f"{raw} = {value}", f"a {dimension} > 0 in all but {refused}")
-                    return None
-            return SharedRef(ref, value)
+            if not uncertain and isinstance(value, Uncertain):
+                self.error(name, f"{raw} = {value}", f"one exact {dimension} (this key cannot be uncertain)")
+                return None
+            # the key's own conditions (> 0, a minimum, a maximum) hold for the shared value too
+            ok = self._meets(name, f"{raw} = {value}", value, dimension, positive, minimum, maximum, "shared/" + ref)
+            return SharedRef(ref, value) if ok else None
         if isinstance(raw, (int, float)) and not isinstance(raw, bool):
             raw = str(raw) if dimension == "dimensionless" else raw
         if not isinstance(raw, (str, int, float)) or isinstance(raw, bool):
@@ -222,29 +223,42 @@ class Fields:
             return None
         if defaulted:
             return value
+        return value if self._meets(name, raw, value, dimension, positive, minimum, maximum) else None
+
+    def _meets(self, name, shown, value, dimension, positive, minimum, maximum, stream=None) -> bool:
+        """Whether ``value`` is > 0 (``positive``), ≥ ``minimum`` and ≤ ``maximum``; a problem is recorded.
+
+        An uncertain value that must be positive may be ≤ 0 in at most the run's share of draws (the run drops
+        such draws and refuses above its limit): a [shared] value (``stream``: the name the run draws it under)
+        is counted on the run's own draws; a value of the table's own, whose stream its estimator names, by its
+        distribution's point at that share.
+        """
         centre = value.nominal if isinstance(value, Uncertain) else value
         mag = centre.to_base_units().magnitude if dimension != "temperature" else centre.to("K").magnitude
         if positive and not mag > 0:
-            self.error(name, raw, f"a {dimension} > 0")
-            return None
+            self.error(name, shown, f"a {dimension} > 0")
+            return False
         if positive and isinstance(value, Uncertain):
-            # The run drops draws ≤ 0 and refuses an input when more than its limit (5 %) are: check that here,
-            # so that a file that passes --check does not fail in the run. The stream this value is drawn under
-            # is its estimator's to name, so the share is the distribution's own, not counted on the run's draws.
-            share = self.run.max_unphysical
-            low = _low_point(value, dimension, share, self.run.draws)
-            if not low > 0:
-                self.error(name, raw, f"a {dimension} > 0 in at least {1 - share:.1%} of its draws (its {share:.1%} "
-                                      f"point is {low:.3g} in SI units, above {self.run.option}; narrow the spread "
-                                      "or use a lognormal)")
-                return None
+            if stream is not None:
+                refused = self.run.refuses_draws(stream, value, dimension)
+                if refused:
+                    self.error(name, shown, f"a {dimension} > 0 in all but {refused}")
+                    return False
+            else:
+                share = self.run.max_unphysical
+                low = low_point(value, share, self.run.draws, dimension == "temperature")
+                if not low > 0:
+                    self.error(name, shown, f"a {dimension} > 0 in at least {1 - share:.1%} of its draws (its "
+                                            f"{share:.1%} point is {low:.3g} in SI units, above {self.run.option}; "
+                                            "narrow the spread or use a lognormal)")
+                    return False
         if minimum is not None and centre < minimum:
-            self.error(name, raw, f"a {dimension} ≥ {minimum:~P}")
-            return None
+            self.error(name, shown, f"a {dimension} ≥ {minimum:~P}")
+            return False
         if maximum is not None and centre > maximum:
-            self.error(name, raw, f"a {dimension} ≤ {maximum:~P}")
-            return None
-        return value
+            self.error(name, shown, f"a {dimension} ≤ {maximum:~P}")
+            return False
+        return True
 
     def number(self, name, required=False, default=None, minimum=None, maximum=None, integer=False):
         raw, defaulted = self._get(name, required, default)
@@ -348,8 +362,8 @@ class Position:
         return self.east is not None
 
 
-def _low_point(value, dimension, share: float, draws: int) -> float:
-    """The point a distribution's ``share`` of draws lies below, in SI (kelvin for temperatures).
+def low_point(value, share: float, draws: int, temperature: bool = False) -> float:
+    """The point a distribution's ``share`` of draws lies below, in SI (kelvin for a temperature).
 
     A share of 0 (no impossible draw allowed) is taken as one draw in ``draws``: a normal has some mass below
     every point, and the run refuses only what its draws show.
@@ -363,7 +377,7 @@ def _low_point(value, dimension, share: float, draws: int) -> float:
         low = value.a + NormalDist().inv_cdf(share) * value.b if share < 1 else math.inf
     else:  # uniform
         low = value.a + share * (value.b - value.a)
-    unit = "K" if dimension == "temperature" else str(Q_(1.0, value.unit).to_base_units().units)
+    unit = "K" if temperature else str(Q_(1.0, value.unit).to_base_units().units)
     return float(Q_(low, value.unit).to(unit).magnitude)
 
 
@@ -391,6 +405,10 @@ class RunSettings:
             return ""
         return (f"{self.max_unphysical:.1%} of the run's {self.draws} draws ({bad} are ≤ 0, above "
                 f"{self.option}; narrow the spread or use a lognormal)")
+
+
+#: The value of a [shared] name that was refused (``Fields.shared``): a key referring to it is not refused again.
+REFUSED_SHARED = object()
 
 
 class SharedRef:

@@ -33,7 +33,7 @@ from ..resources import check_memory
 from ..uncertainty import MAX_SEED, Uncertain
 from ..units import Q_
 from .api import ParseContext
-from .fields import Fields, Position, SharedRef
+from .fields import REFUSED_SHARED, Fields, Position, SharedRef, low_point
 from .schema import DataColumn, SurveyKey, table
 
 #: Default Monte Carlo draws of a survey run (a choice: the 5-95 % limits of
@@ -290,6 +290,8 @@ def _load(raw: dict, path: Path, where: str, overrides: dict | None = None) -> S
             value = sh.quantity(name, dim, required=True)
             if value is not None:
                 shared[name] = value
+            else:  # its own line says why; the keys that refer to it say nothing more
+                top.shared[name] = REFUSED_SHARED
     top.shared.update(shared)
 
     run = top.sub("run")
@@ -821,11 +823,16 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
         if spans[key] is None:
             return
         nom, lo, hi = spans[key]
-        if lo != hi and not (lo > 0 if _PLUME_POSITIVE[key] else lo >= 0) and key != "current":
-            f.error(key_of(key), written(key, str(v)), f"a distribution whose 5 % point is > 0 (it is {lo:.4g}): the "
-                                                   "run drops draws outside that range and refuses when more than "
-                                                   "5 % are dropped")
-            return
+        if lo != hi and key != "current" and isinstance(v, Uncertain):
+            # the point below which the run's share of draws lies (its limit, 5 % by default), in SI
+            low = low_point(v, run.max_unphysical, run.draws)
+            if not (low > 0 if _PLUME_POSITIVE[key] else low >= 0):
+                sign = ">" if _PLUME_POSITIVE[key] else "≥"
+                f.error(key_of(key), written(key, str(v)),
+                        f"a distribution whose {run.max_unphysical:.1%} point is {sign} 0 (it is {low:.4g}): the run "
+                        f"drops draws outside that range and refuses when more than "
+                        f"{run.max_unphysical:.1%} are dropped ({run.max_unphysical_option})")
+                return
     if any(e.field in {f.key(key_of(k)) for k in spans} for e in f.errors.errors):
         return  # an input of this plume is already refused: its own line says why
     strat = None
