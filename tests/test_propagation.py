@@ -342,3 +342,21 @@ def test_screen_drops_and_refuses_exactly_as_propagate_does():
             run()
         lines.append(refused.value.line())
     assert lines[0] == lines[1]
+
+
+def test_an_exact_input_that_makes_every_draw_impossible_is_named_not_a_drawn_one():
+    # Every draw impossible because of an exact input (a factor of -1 where the estimate needs > 0): the driver
+    # used to blame the drawn input that happened to rank first. With the drawn inputs at their central values
+    # the estimate is still impossible, so the exact inputs are named, with their values.
+    from ventflux.uncertainty import parse_uncertain
+
+    a = parse_uncertain("1 ± 0.1 m", "length", "a")
+    with pytest.raises(InputError) as e:
+        propagate(lambda a, b: a * b, {"a": a, "b": Q_(-1.0, "m")}, names={"a": "x/a", "b": "x/b"}, draws=1000,
+                  physical=lambda d: np.asarray(d["b"].m) > 0)
+    assert e.value.field == "exact inputs" and "x/b = -1.0 m" in str(e.value.value)
+    # impossible in some draws only (the drawn input crosses the limit): a drawn input is named, as before
+    with pytest.raises(InputError) as e:
+        propagate(lambda a, b: a * b, {"a": a, "b": Q_(1.0, "m")}, names={"a": "x/a", "b": "x/b"}, draws=1000,
+                  physical=lambda d: np.asarray(d["a"].m) > 1.0)
+    assert e.value.field == "x/a"

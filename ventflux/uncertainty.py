@@ -674,7 +674,7 @@ def _draw_and_screen(inputs, names, shared, physical, policy, drawn, labels) -> 
     if physical is not None:  # exact inputs too: an exact NaN makes every draw impossible
         keep = np.broadcast_to(np.asarray(physical(args), bool), (n,)).copy()
     if not keep.all():
-        culprit, value = _culprit(physical, inputs, sampled, given, args, names, n, labels or {})
+        culprit, value = _culprit(physical, inputs, sampled, given, args, names, n, labels or {}, keep)
         dropped = policy.enforce(keep, culprit, value)
     else:
         dropped = 0
@@ -695,8 +695,12 @@ def _subset(v, keep, n):
     return v[..., keep]
 
 
-def _culprit(physical, inputs, sampled, given, args, names, n, labels):
-    """The input whose own draws are impossible most often (the others held at their nominal values)."""
+def _culprit(physical, inputs, sampled, given, args, names, n, labels, keep):
+    """The input whose own draws are impossible most often (the others held at their nominal values).
+
+    ``InputError`` naming the exact inputs when every draw is impossible, and so are the drawn inputs' central
+    values: then no drawn input is to blame.
+    """
     pool = {**sampled, **given}
     if physical is None or not pool:
         return "draws", f"{n} draws"
@@ -705,6 +709,16 @@ def _culprit(physical, inputs, sampled, given, args, names, n, labels):
         m = np.asarray(v.magnitude if isinstance(v, pint.Quantity) else v, float)
         mid = np.nanmedian(m, axis=-1, keepdims=True)
         base[k] = Q_(mid, v.units) if isinstance(v, pint.Quantity) else mid
+    try:
+        nominal_ok = np.asarray(physical(base), bool)
+    except Exception:  # noqa: BLE001 - a test that cannot evaluate the central values: search the inputs below
+        nominal_ok = np.ones(1, bool)
+    exact = [k for k in inputs if k not in pool]
+    if exact and not keep.any() and not nominal_ok.any():
+        # Impossible with every drawn input at its central value: no drawn input is to blame, the exact ones are
+        value = ", ".join(f"{names.get(k, k)} = {labels.get(k, inputs[k])}" for k in exact)
+        raise InputError("exact inputs", value, "values with which the estimate is physically possible (every "
+                                                "draw is impossible with the drawn inputs at their central values)")
     worst, lost = None, -1
     for k in pool:
         trial = {**base, k: args[k]}
