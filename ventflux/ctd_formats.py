@@ -222,7 +222,7 @@ def _quantity(name, var, dimension, where):
         raise InputError(f"{name}.units", text, f"a unit of {dimension}", where=where)
     if name and var.attrs.get("standard_name", "").strip() == "depth" and \
             str(var.attrs.get("positive", "down")).strip().lower() == "up":
-        q = -q  # CF: depth with positive="up" counts upward
+        q = Q_(-q.magnitude, q.units)  # CF: depth with positive="up" counts upward
     return q
 
 

@@ -156,6 +156,9 @@ def _delta_uncertain(u: Uncertain) -> Uncertain:
 class _Totals:
     """Sums over patches or classes (axis 0), keeping any draw axis."""
 
+    heat_power: pint.Quantity  # fields of the result classes that sum with this
+    volume_flux: pint.Quantity
+
     @property
     def total_heat_power(self):
         return self.heat_power.sum(axis=0)
@@ -662,7 +665,9 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
     pc = np.asarray(patch_class)
     n_draws = H.shape[1] if H.ndim == 2 else None
     rng = np.random.default_rng(seed)
-    qh, qv, n_sampled = [], [], []
+    qh: list = []
+    qv: list = []
+    n_sampled: list[int] = []
     for name in class_names:  # loop over a handful of classes; draws stay vectorized
         idx = np.flatnonzero(pc == name)
         n_sampled.append(idx.size)
@@ -675,16 +680,15 @@ def scale_up_by_area_class(patch_class, patch_area, patch_heat_power, patch_volu
         area_sum = (A[pick, cols] if A.ndim == 2 else A[pick]).sum(axis=0)
         qh.append(H[pick, cols].sum(axis=0) / area_sum)
         qv.append(V[pick, cols].sum(axis=0) / area_sum)
-    qh = np.array(qh)
-    qv = np.array(qv)
-    Ac_b = Ac if (Ac.ndim == qh.ndim) else (Ac[:, None] if qh.ndim == 2 else Ac)
+    qh_all, qv_all = np.array(qh), np.array(qv)  # (classes[, draws])
+    Ac_b = Ac if (Ac.ndim == qh_all.ndim) else (Ac[:, None] if qh_all.ndim == 2 else Ac)
     return ScaleUp(
         classes=tuple(class_names),
         n_sampled=np.array(n_sampled),
-        heat_flux_density=Q_(qh, "W/m^2"),
-        volume_flux_density=Q_(qv, "m/s"),
-        heat_power=Q_(qh * Ac_b, "W"),
-        volume_flux=Q_(qv * Ac_b, "m^3/s"),
+        heat_flux_density=Q_(qh_all, "W/m^2"),
+        volume_flux_density=Q_(qv_all, "m/s"),
+        heat_power=Q_(qh_all * Ac_b, "W"),
+        volume_flux=Q_(qv_all * Ac_b, "m^3/s"),
     )
 
 
@@ -720,8 +724,8 @@ class PatchTable:
 def _text_columns(path, names, lines):
     """Text columns (patch names, classes) of the rows at file ``lines``; None where absent."""
     want = {int(n) for n in lines}
-    header = None
-    rows = {}
+    header: list[str] | None = None
+    rows: dict[int, list[str]] = {}
     with open(path, newline="", encoding="utf-8-sig") as fh:
         for n, line in enumerate(fh, 1):
             if not line.strip() or line.lstrip().startswith("#"):
@@ -732,9 +736,9 @@ def _text_columns(path, names, lines):
                 continue
             if n in want:
                 rows[n] = cells
-    out = {}
+    out: dict[str, tuple[str, ...] | None] = {}
     for name in names:
-        if name not in header:
+        if header is None or name not in header:  # no header: a file the table reader refused already
             out[name] = None
             continue
         i = header.index(name)
@@ -871,7 +875,7 @@ def _check_spread(path, lines, name, value, sd, c):
     hi = v + Z95 * s
     lim = limit_for(name)
     top = 1.0 if name == "active_fraction" else None
-    if lim is not None and top is None and not implausible_allowed():
+    if lim is not None and lim.high is not None and top is None and not implausible_allowed():
         top = Q_(lim.high, lim.unit or "dimensionless").to(unit).magnitude if name != "temperature_anomaly" \
             else lim.high
     for i in range(v.size):
@@ -884,7 +888,7 @@ def _check_spread(path, lines, name, value, sd, c):
 
 def _check_duplicate_rows(path, tbl, names, classes, c):
     """A patch named twice, or a row repeated value for value, would be counted twice: refuse it at its line."""
-    first = {}
+    first: dict = {}
     if names is not None:
         for i, name in enumerate(names):
             if name in first:
@@ -933,23 +937,23 @@ def read_area_classes(path):
     if names is None:
         raise InputError("column", "class", "a 'class' column naming each mapped area class", where=str(path))
     c = Collector()
-    first = {}
+    first: dict[str, int] = {}
     for i, name in enumerate(names):  # a class listed twice would be scaled up twice
         if name in first:
             c.add(InputError("class", name, f"each mapped class on one line only (also on line {first[name]})",
                              where=f"{path}:{tbl.lines[i]}"))
         else:
             first[name] = int(tbl.lines[i])
-    for i in np.flatnonzero(tbl["area"].magnitude < 0):
+    for i in np.flatnonzero(tbl["area"].magnitude < 0).tolist():
         c.add(InputError("area", f"{tbl['area'].magnitude[i]:g}", "a mapped area ≥ 0", where=f"{path}:{tbl.lines[i]}"))
     sd = None
     if "area_sd" in tbl:
         sd = tbl["area_sd"].to("m^2")
-        for i in np.flatnonzero(sd.magnitude < 0):
+        for i in np.flatnonzero(sd.magnitude < 0).tolist():
             c.add(InputError("area_sd", f"{sd.magnitude[i]:g}", "a standard deviation ≥ 0",
                              where=f"{path}:{tbl.lines[i]}"))
         sd = Q_(sd.magnitude + 0.0, "m^2")  # -0 is 0 (a normal's scale must not carry a sign)
-        for i in np.flatnonzero((sd.magnitude > 0) & ~(tbl["area"].magnitude > 0)):
+        for i in np.flatnonzero((sd.magnitude > 0) & ~(tbl["area"].magnitude > 0)).tolist():
             c.add(InputError("area_sd", f"{sd.magnitude[i]:g}", "a standard deviation of 0 for a mapped area of 0",
                              where=f"{path}:{tbl.lines[i]}"))
         _check_distribution(path, tbl.lines, "area", tbl["area"].to("m^2"), sd, c)  # drawn as a positive area

@@ -282,7 +282,7 @@ class HeatDeficit:
     deficit: pint.Quantity  # J/m², advective heat loss per unit area
     mean_advective_flux: pint.Quantity  # deficit / age span, mW/m²
     fraction: pint.Quantity  # deficit / reference heat
-    per_length: pint.Quantity  # W/m of ridge, both flanks, if a spreading rate is given (else None)
+    per_length: pint.Quantity | None  # W/m of ridge, both flanks, if a spreading rate is given (else None)
     #: ∫₀^t₀ q_ref dt, J/m²: the reference's heat loss younger than the first age
     before_first: pint.Quantity | None = None
     deficit_from_axis: pint.Quantity | None = None  # deficit + before_first, J/m² (no conduction before the first age)

@@ -241,7 +241,8 @@ def check_units(**dimensions):
                     _check_argument(bound.arguments[name], dim, name)
             return func(*args, **kwargs)
 
-        wrapper.__wrapped_dimensions__ = dict(dimensions)
+        # an attribute of our own on the wrapper, which the type functools.wraps returns does not declare
+        wrapper.__wrapped_dimensions__ = dict(dimensions)  # type: ignore[attr-defined]
         return wrapper
 
     return decorate

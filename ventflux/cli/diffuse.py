@@ -20,6 +20,8 @@ Velocity from a velocity source installed by a plugin::
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from ..diffuse import (
@@ -289,7 +291,7 @@ def _budget(args, out, inputs, ambient, salinity, pressure):
                  else v) for k, v in given.items()}
 
     def estimator(**a):  # one patch: a patch axis of length one, the draws along the second
-        one = {k: (Q_(np.reshape(a[k].magnitude, (1, -1)), a[k].units)) for k in PATCH}
+        one: dict[str, Any] = {k: (Q_(np.reshape(a[k].magnitude, (1, -1)), a[k].units)) for k in PATCH}
         one["temperature_anomaly"] = temperature_difference(one["temperature_anomaly"])
         one["active_fraction"] = one["active_fraction"].to("dimensionless").magnitude
         res = diffuse_discharge(**one, ambient_temperature=a["ambient_temperature"],

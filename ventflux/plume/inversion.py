@@ -237,6 +237,7 @@ def _forward_integral(column, H, alpha, scale, U, shape, source=None, track=Fals
         span, z0 = grid
     if source is None:  # a pure plume starts on the similarity solution at the grid's start height
         src = integral.pure_plume(column, H, alpha, z0)
+    model: integral.VerticalModel | integral.CrossflowModel
     if U is None:
         model = integral.VerticalModel(column, alpha, scale)
     else:

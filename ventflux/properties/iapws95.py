@@ -205,7 +205,7 @@ class Isotherms:
         s = 3.0 - 40.0 * delta * dm  # δ ∂/∂δ of log(δ³ e^{-20(δ-1)²})
         d1 += bell * s
         d2 += bell * (s * (s - 1.0) - 40.0 * delta * (2.0 * delta - 1.0))
-        tau_d = None
+        tau_d: np.ndarray | None = None
         if tau_derivative:
             Yt = self.At * powers[_DG_I]
             Pt = [np.einsum("gn->n", Yt[a:b]) for a, b in _SPANS]
@@ -217,6 +217,7 @@ class Isotherms:
             d1[idx] += n1
             d2[idx] += n2
             if tau_derivative:
+                assert tau_d is not None  # made above whenever tau_derivative
                 tau_d[idx] += nt
         return d1, d2, tau_d
 

@@ -174,7 +174,7 @@ def _build_table(progress=None):
     h[liq], d[liq] = h_all[:n], d_all[:n]
     h0, hm = h_all[n:n + cols.size], h_all[n + cols.size:]
     d0, dm = d_all[n:n + cols.size], d_all[n + cols.size:]
-    for k, j in enumerate(cols):
+    for k, j in enumerate(cols.tolist()):
         col = vapour[:, j]
         dT = TT[col, j] - ts[k]
         h[col, j] = h0[k] + (h0[k] - hm[k]) / 0.5 * dT

@@ -19,6 +19,7 @@ from __future__ import annotations
 import io
 import pickle
 import re
+from typing import Any
 
 #: Resolution of the PNG figures in the results folder [dots per inch] (print quality; the report embeds SVG).
 FIGURE_DPI = 200
@@ -156,7 +157,7 @@ class FigureRenderer:
         if not ForkExecutor.usable(2):  # the one rule for forking, and one worker count (ventflux.executor)
             workers = 0
         self.workers = workers
-        self._pool = None
+        self._pool: Any = None  # a ProcessPoolExecutor while open (imported only then)
 
     def __enter__(self):
         if self.workers > 0:
