@@ -242,7 +242,7 @@ def check_units(**dimensions):
             return func(*args, **kwargs)
 
         # an attribute of our own on the wrapper, which the type functools.wraps returns does not declare
-        wrapper.__wrapped_dimensions__ = dict(dimensions)  # type: ignore[attr-defined]
+        setattr(wrapper, "__wrapped_dimensions__", dict(dimensions))  # noqa: B010 - see above
         return wrapper
 
     return decorate
