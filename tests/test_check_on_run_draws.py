@@ -192,3 +192,31 @@ def test_the_check_uses_the_runs_limit_for_an_input_of_its_own(tmp_path):
     with pytest.raises((InputError, InputErrors), match=r"orifice\[0\]\.velocity.*above run\.max_unphysical"):
         load_survey(path)
     load_survey(path, max_unphysical=0.10)
+
+
+def test_a_plume_check_that_takes_long_says_what_it_is_doing(tmp_path, monkeypatch):
+    # A cast full of spikes made the plume check take 12 s with nothing on the screen: after a second the check
+    # says which plume it is inverting, once; a quick check says nothing. Slowness is simulated by a pause in
+    # the propagation the check calls (its result is unchanged).
+    import threading
+    import time
+
+    from ventflux import waiting
+
+    path = _demo(tmp_path, spike=False)
+    said = []
+    load_survey(path, progress=said.append)
+    assert said == []  # the demo's plumes are checked in well under a second each
+    real = plume_method.propagation
+
+    def slow(*a, **k):
+        time.sleep(0.5)
+        return real(*a, **k)
+
+    monkeypatch.setattr(plume_method, "propagation", slow)
+    monkeypatch.setattr(waiting, "NOTICE_AFTER", 0.2)
+    plume_method._HANDED_OVER.clear()
+    load_survey(path, progress=said.append)
+    assert len(said) == 2 and "'Gildhorn'" in said[0] and "field plume" in said[1], said
+    assert all("inverting its plume rise on the run's 2000 draws" in m for m in said)
+    assert threading.active_count() == 1  # no timer left behind: the run forks its workers after this

@@ -27,7 +27,7 @@ ROOT = Path(__file__).resolve().parents[1]
 PACKAGE = ROOT / "ventflux"
 
 LAYERS = [
-    ("ventflux", "ventflux.units", "ventflux.errors", "ventflux.cachedir", "ventflux.limits"),
+    ("ventflux", "ventflux.units", "ventflux.errors", "ventflux.cachedir", "ventflux.limits", "ventflux.waiting"),
     ("ventflux.properties",),
     ("ventflux.uncertainty", "ventflux.tables", "ventflux.io", "ventflux.profiles", "ventflux.sensitivity",
      "ventflux.ctd_formats", "ventflux.presentation"),

@@ -85,7 +85,8 @@ def run(args) -> int:
         mu = check_max_unphysical(args.max_unphysical, "--max-unphysical")
     # the command line's draws, seed and limit replace [run]'s while the file is read (the probe reduction
     # draws then): the limit is recorded in summary.json as max_unphysical_share
-    spec = load_survey(args.survey, draws=args.draws, seed=args.seed, max_unphysical=mu)
+    spec = load_survey(args.survey, draws=args.draws, seed=args.seed, max_unphysical=mu,
+                       progress=None if args.quiet else _say)
     if mu is not None:
         spec.max_unphysical_option = "--max-unphysical"  # what a refusal names
     if args.draws is not None:
@@ -137,6 +138,10 @@ def run(args) -> int:
         print(f"{spec.site.name}: total heat output {s.median.m:.3g} MW (5-95 %: {s.p05.m:.3g}-{s.p95.m:.3g} MW)")
     print(f"report: {path}")
     return 0
+
+
+def _say(msg: str) -> None:
+    print(f"ventflux survey: {msg}", file=sys.stderr, flush=True)
 
 
 def _import_writers() -> None:

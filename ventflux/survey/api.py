@@ -122,6 +122,8 @@ class ParseContext:
     max_unphysical: float = DEFAULT_MAX_UNPHYSICAL
     #: How the user set that limit, named in a refusal: the file's key, or the command line's option.
     max_unphysical_option: str = "run.max_unphysical"
+    #: Where a check that takes long says what it is doing (``ventflux.waiting``); None: it says nothing.
+    progress: Callable[[str], None] | None = None
 
     def trial_run(self, stratification=None) -> RunContext:
         """The context the run will give its estimates (its draws, seed and limit), for a check that must

@@ -203,7 +203,7 @@ def survey_schema():
     return table("", "a survey file", [SITE_TABLE, RUN_TABLE, SHARED_TABLE, vent, *section_tables, RESERVOIR_TABLE])
 
 
-def load_survey(path, *, draws=None, seed=None, max_unphysical=None) -> SurveySpec:
+def load_survey(path, *, draws=None, seed=None, max_unphysical=None, progress=None) -> SurveySpec:
     """Read and validate a survey file; raise ``InputErrors`` listing every problem.
 
     Parameters
@@ -214,6 +214,9 @@ def load_survey(path, *, draws=None, seed=None, max_unphysical=None) -> SurveySp
         The command line's overrides of ``[run]`` (already validated). Parsers
         that run a Monte Carlo while reading (the probe reduction) use the
         run's settings, so that ``--check`` refuses exactly what the run would.
+    progress : callable, optional
+        ``progress(message)`` when a check takes more than a second (the plume rise inverted on the run's
+        draws); by default nothing is said.
 
     Returns
     -------
@@ -239,7 +242,7 @@ def load_survey(path, *, draws=None, seed=None, max_unphysical=None) -> SurveySp
 
     allowed = allow is True or implausible_allowed()
     with allowing_implausible(allowed):
-        spec = _load(raw, path, where, {"draws": draws, "seed": seed, "max_unphysical": max_unphysical})
+        spec = _load(raw, path, where, {"draws": draws, "seed": seed, "max_unphysical": max_unphysical}, progress)
     spec.allow_implausible = allowed
     if allowed:
         spec.warnings.add("run.allow_implausible", "values outside the plausibility limits are accepted "
@@ -269,7 +272,7 @@ def _strings(node, path):
         yield path, node
 
 
-def _load(raw: dict, path: Path, where: str, overrides: dict | None = None) -> SurveySpec:
+def _load(raw: dict, path: Path, where: str, overrides: dict | None = None, progress=None) -> SurveySpec:
     errs = Collector()
     warnings = Warnings()
     defaults: dict = {}
@@ -342,7 +345,7 @@ def _load(raw: dict, path: Path, where: str, overrides: dict | None = None) -> S
     methods, sections = survey_components()
     ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files, warnings=warnings,
                        draws=top.run.draws, seed=top.run.seed, max_unphysical=top.run.max_unphysical,
-                       max_unphysical_option=top.run.option)
+                       max_unphysical_option=top.run.option, progress=progress)
     vents = []
     names = set()
     for vf in top.subs("vent"):
@@ -853,9 +856,14 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
         ctx = run.trial_run(strat)
     except (InputError, InputErrors, TypeError, ValueError, AttributeError):
         return  # the site's own checks name it
+    from ..waiting import notice_if_slow
+
     try:
         # the run takes this result instead of solving again (same inputs, draws and site)
-        propagation(plume, vent, ctx, track=plume.get("method") == "integral", hand_over=True)
+        with notice_if_slow(run.progress, f"checking {vent if vent == 'field plume' else repr(vent)}: inverting "
+                            f"its plume rise on the run's {run.draws} draws (slow with this cast; the run then "
+                            "reuses it)"):
+            propagation(plume, vent, ctx, track=plume.get("method") == "integral", hand_over=True)
     except InputError as e:
         if not str(e.field).endswith("plume_rise"):  # one input's draws refused: named by its key, as the run would
             stream = str(e.field)
