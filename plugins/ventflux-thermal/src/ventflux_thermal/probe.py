@@ -721,16 +721,17 @@ def _fit_sensors(rec, idx, t_pen, t_hp, end, energy, probe, method, known_k, use
     """Frictional and pulse fits of the sensors ``idx`` (two sequential passes, each vectorized over sensors)."""
     n = len(idx)
     k = known_k.copy() if known_k is not None else np.full(n, probe.start_conductivity)
-    pu = [None] * n
+    pu: list[PulseFit | None] = [None] * n  # no pulse fits before the first pass, none at all without a pulse
     after = rec.time > t_hp if use_pulse else None
     temps = rec.temperature[idx]
     for _ in range(2 if use_pulse else 1):  # sequential joint inversion: friction needs κ, pulse needs background
         fr = fit_frictional_decays(rec.time, temps, t_pen, end, k, probe, method)
         if use_pulse:
             bg = np.stack([frictional_model(fr[j], rec.time[after], t_pen, k[j], probe, method) for j in range(n)])
-            pu = fit_heat_pulses(rec.time[after], temps[:, after] - bg, t_hp, energy, probe, method,
-                                 start_conductivity=k, previous=pu if pu[0] is not None else None)
-            k = np.array([p.conductivity for p in pu])
+            fits = fit_heat_pulses(rec.time[after], temps[:, after] - bg, t_hp, energy, probe, method,
+                                   start_conductivity=k, previous=pu if pu[0] is not None else None)
+            k = np.array([p.conductivity for p in fits])
+            pu = fits
     return fr, pu, k
 
 
