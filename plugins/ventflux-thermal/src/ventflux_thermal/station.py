@@ -130,13 +130,16 @@ def find_penetrations(time, temperature, window=5.0, threshold=0.05, guard=30.0)
     rises, drops = _rises_and_drops(np.asarray(time, float), np.asarray(temperature, float), window, threshold,
                                     guard)
     events = sorted([(ti, "rise") for ti in rises] + [(ti, "drop") for ti in drops])
-    out, notes = [], []
-    state, start, pulse = "water", None, None
+    out: list[Penetration] = []
+    notes: list[str] = []
+    state, pulse = "water", None
+    start: float | None = None
     for ti, kind in events:
         if state == "water":
             if kind == "rise":
                 state, start, pulse = "sediment", ti, None
             continue
+        assert start is not None  # in the sediment: set by the rise that entered it
         if kind == "rise":
             if pulse is None:
                 pulse = ti
@@ -148,6 +151,7 @@ def find_penetrations(time, temperature, window=5.0, threshold=0.05, guard=30.0)
         out.append(Penetration(len(out) + 1, start, pulse, ti, True))
         state = "water"
     if state == "sediment":
+        assert start is not None  # as in the loop: the rise that entered the sediment set it
         out.append(Penetration(len(out) + 1, start, pulse, float(time[-1]), False))
     return out, notes
 
