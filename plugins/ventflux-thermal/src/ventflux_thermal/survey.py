@@ -35,6 +35,7 @@ and added to the total.
 from __future__ import annotations
 
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import numpy as np
 
@@ -46,6 +47,10 @@ from ventflux.plugin_api import normal, uniform
 from ventflux.plugin_api import Q_
 
 from .constants import METHODS, PROBE_FIELDS, ProbeConstants
+
+if TYPE_CHECKING:
+    from .probe import PenetrationResult
+    from .station import StationResult
 
 
 def _sensor_list(f, value, name):
@@ -149,7 +154,9 @@ def _parse(f, ctx):
     for name in unknown_names:
         f.error(f"exclude_sensors.{name}", name, "the file name of one of the section's records")
     f.check_unknown()
-    results, stations, notes = [], [], []
+    results: list[PenetrationResult] = []
+    stations: list[StationResult] = []
+    notes: list[str] = []
     try:
         probe = probe_from_inputs(None, {}, probe_values, fields={k: f"probe.{k}" for k in probe_values})
     except (InputError, InputErrors) as e:  # implausible values: reported under their key paths
