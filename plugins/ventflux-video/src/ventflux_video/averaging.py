@@ -76,7 +76,7 @@ class FieldAccumulator:
     """Running count, sum and sum of squares of valid vectors on a fixed grid."""
 
     def __init__(self):
-        self.n = None
+        self.n: np.ndarray | None = None  # no grid before the first pair
 
     def add(self, dx, dy, valid, snr=None):
         if self.n is None:
@@ -97,6 +97,7 @@ class FieldAccumulator:
         self.invalid += int((~valid).sum())
 
     def moments(self):
+        assert self.n is not None  # _finish refuses a clip without pairs before asking for the moments
         with np.errstate(invalid="ignore", divide="ignore"):
             n = self.n
             mx, my = self.sx / n, self.sy / n
