@@ -263,7 +263,7 @@ def _measure_threads(cores):
     a = rng.random((128, 128), np.float32)
     shift = np.full(a.shape, 0.3, np.float32)
     top, left = (g.ravel() for g in np.meshgrid(np.arange(0, 97, 16), np.arange(0, 97, 16), indexing="ij"))
-    best = {}
+    best: dict[int, float] = {}  # threads -> fastest time, s
     saved = _WORKERS
     try:
         for _ in range(3):
@@ -275,7 +275,7 @@ def _measure_threads(cores):
                 best[n] = min(best.get(n, np.inf), time.perf_counter() - t)
     finally:
         _WORKERS = saved
-    return min(best, key=best.get)
+    return min(best, key=best.__getitem__)
 
 
 def _map_chunks(fn, n, size):
