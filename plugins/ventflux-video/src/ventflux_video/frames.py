@@ -355,8 +355,8 @@ def _numbered_files(files):
     The index is the last number in the file's name less the first file's. If
     some name holds no number, the files are indexed in text order instead.
     """
-    numbers = [_NUMBER.search(Path(f).stem) for f in files]
-    if not all(numbers):
+    numbers = [m for m in (_NUMBER.search(Path(f).stem) for f in files) if m is not None]
+    if len(numbers) < len(files):
         return list(enumerate(sorted(files))), [], []
     keyed = sorted(zip((int(m.group(1)) for m in numbers), files), key=lambda t: (t[0], t[1]))
     out, dup, seen = [], [], set()
