@@ -74,7 +74,9 @@ def render_particles(shape, x, y, diameter=2.5, intensity=None, background=0.0, 
     rows = np.broadcast_to(iy[:, :, None], vals.shape)
     cols = np.broadcast_to(ix[:, None, :], vals.shape)
     inside = (rows >= 0) & (rows < h) & (cols >= 0) & (cols < w)
-    img = np.bincount((rows[inside] * w + cols[inside]), weights=vals[inside], minlength=h * w).reshape(h, w)
+    # float64: bincount sums the weights (numpy's stub says an integer array)
+    img: np.ndarray = np.bincount((rows[inside] * w + cols[inside]), weights=vals[inside],
+                                  minlength=h * w).reshape(h, w)
     img += background
     if noise:
         img += (rng or np.random.default_rng(0)).normal(0.0, noise, img.shape)
