@@ -121,7 +121,12 @@ class ParticleTracker:
         self.max_distance = float(max_distance)
         self.predictor = predictor
         self.threshold, self.min_distance, self.passes = threshold, min_distance, passes
-        self._frame = self._pos = self._ids = self._vel = None
+        # the previous frame: its image, detections, track ids and velocities, set together by step
+        self._frame: np.ndarray | None = None
+        self._pos: np.ndarray | None = None
+        self._ids: np.ndarray | None = None
+        self._vel: np.ndarray | None = None
+        self._index: int  # its delivered index, read only once _pos is set
         self._next_id = 0
         self._rows = []
         self.frames = 0
@@ -138,6 +143,7 @@ class ParticleTracker:
             self._next_id += len(pos)
             vel = np.full((len(pos), 2), np.nan)
         else:
+            assert self._vel is not None and self._ids is not None  # set with _pos at the previous frame
             shift = self._vel.copy()
             new = ~np.isfinite(shift[:, 0])
             if new.any():
@@ -209,6 +215,7 @@ def mean_tracked_field(stream, cell=32, overlap=0.5, gap=1, pairs=None, max_dist
             background = frame.copy()
         ia, ib = tracker.step(index, frame)
         pos_prev, pos = prev, tracker._pos
+        assert pos is not None  # step has just set it
         prev = pos
         if pos_prev is None or len(ia) == 0:  # first frame, or no links (e.g. after a skipped frame)
             continue
