@@ -110,6 +110,10 @@ def _estimate(spec, vent, ctx):
     names = part_names(vent)  # the same names as video-jet --name: one vent, one set of streams
     mc = jet_draws(res, ctx.draws, names, spec["plume_constant"], lam, spec["scale_factor"],
                    max_unphysical=ctx.policy)
+    # the run passes an ambient temperature and the site's pressure, so the heat power is there
+    assert res.heat_power is not None and mc.heat_power is not None
+    # corrected_profile, which analyze_jet_clip always applies, sets both factors
+    assert res.profile.sightline_factor is not None and res.profile.window_factor is not None
     H0 = res.heat_power.to("W").magnitude
     H = mc.expand(mc.heat_power.to("W")).magnitude  # NaN where a draw was dropped as impossible
     row = {"vent": vent, "clip": spec["clip"].name, "pixel_size [mm]": float(spec["pixel_size"].to("mm").magnitude),
