@@ -10,6 +10,8 @@ its old name, is accepted until ventflux 0.4 with a deprecation line),
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 
 from ventflux.plugin_api import Q_, InputError, parse_quantity, renamed_key, warn_deprecated
@@ -19,7 +21,7 @@ _INTS = ("gap", "pairs", "start", "stop", "exit_points")
 
 
 def _options(options):
-    out = {}
+    out: dict[str, Any] = {}  # option -> value: strings, and the quantities and numbers they are read as
     for key, value in options.items():  # old spellings of a key: accepted, with one deprecation line
         new = renamed_key("source_option", key)
         if new is not None:
