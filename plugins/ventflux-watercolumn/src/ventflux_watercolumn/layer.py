@@ -45,7 +45,8 @@ def bin_profiles(prof, depth, edges, n_profiles, **columns):
         for name, v in columns.items():
             v = np.asarray(v)
             if v.ndim == 1:
-                s = np.bincount(cell, v[use], minlength=n_profiles * nz).reshape(n_profiles, nz)
+                # (P, Z) here, (P, Z, K) below; float: bincount sums the weights (numpy's stub says integer)
+                s: np.ndarray = np.bincount(cell, v[use], minlength=n_profiles * nz).reshape(n_profiles, nz)
                 out[name] = np.where(counts > 0, s / np.maximum(counts, 1), np.nan)
             else:  # several columns at once: (N, K) → (P, Z, K)
                 s = np.stack([np.bincount(cell, v[use, k], minlength=n_profiles * nz) for k in range(v.shape[1])],
