@@ -322,6 +322,7 @@ def _read_netcdf(path):
             cols[key] = values
         errs.raise_if_any()
         if layout != "samples":
+            assert ref is not None  # a profile layout is only set from the temperature variable
             P, L = ref.shape
             cols["profile"] = np.repeat(np.arange(1.0, P + 1), L)
         n = cols["time"].size
