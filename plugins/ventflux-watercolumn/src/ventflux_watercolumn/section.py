@@ -400,8 +400,9 @@ def section_draws(draws, key, n_profiles, current=None, current_direction=None, 
     out["offset"] = offset
     out["vent_depth"] = mag(vent_depth, "vent_depth", "m")
     out["window"] = draws.draw(f"{skey}/background window", uniform(Q_(-1.0, ""), Q_(1.0, ""))).to("").magnitude
-    half = Q_(0.5 * bin_size, "m")
-    out["resolution"] = {lvl: draws.draw(f"{key}/{lvl} bin resolution", uniform(-half, half)).to("m").magnitude
+    half = 0.5 * bin_size  # the bounds made as quantities: pint's stubs type a negated one as a PlainQuantity
+    out["resolution"] = {lvl: draws.draw(f"{key}/{lvl} bin resolution",
+                                         uniform(Q_(-half, "m"), Q_(half, "m"))).to("m").magnitude
                          for lvl in ("top", "core", "bottom")}
     return out
 
@@ -590,7 +591,9 @@ def propagate_sections(results, keys, draws, policy, *, current=None, current_di
                                 failed=sd.failed, unphysical=prop.unphysical, n_draws=n))
     if len(per) == 1:
         return per, per[0]
-    total = SectionDraws(heat_flux=sum(p.heat_flux for p in per), heights={},
+    heat_flux = sum(p.heat_flux for p in per)
+    assert isinstance(heat_flux, np.ndarray)  # two sections or more: a sum of arrays, not the empty sum 0
+    total = SectionDraws(heat_flux=heat_flux, heights={},
                          parts={k: sum(p.parts[k] for p in per) for k in per[0].parts},
                          nominal_heat_flux=float(sum(p.nominal_heat_flux for p in per)),
                          shortcut_heat_flux=float(sum(p.shortcut_heat_flux for p in per)),
