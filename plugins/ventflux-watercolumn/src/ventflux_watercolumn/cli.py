@@ -231,7 +231,7 @@ def _payload(a, per, out, draws, policy):
          "net_heat_flux_constant_cp_W": out.shortcut_heat_flux, **common,
          "largest_gap_m": max(g for *_, g in a.box.gaps), "closure_tolerance_m": a.box.tolerance,
          "band_top_m": a.box.band[0], "band_bottom_m": a.box.band[1]}
-    net = {}
+    net: dict[str, object] = {}
     _flux_summaries(net, None, out, heights=False)
     p.update({f"net_{k}": v for k, v in net.items()})
     p["sections"] = [_section_payload(r, o, heights=False) for r, o in zip(a.results, per)]
