@@ -265,3 +265,150 @@ def test_a_cast_does_not_depend_on_how_its_file_writes_units_or_direction(pu, tu
     ds["PRES"].attrs["units"], ds["TEMP"].attrs["units"] = pu[0], tu[0]
     reference = read_ctd_cast(_dataset(*_column()), window=None)
     _same(read_ctd_cast(ds, window=None), reference, rtol=1e-9)
+
+
+# --- a file of several casts: CF discrete sampling geometries for profiles (CF 1.8, chapter 9, appendix H.3) -----
+def _three_casts():
+    """Three analytic casts of different lengths and waters (the middle one is ``_column()``'s)."""
+    p1, t1, s1 = _column()
+    p0 = np.arange(1600.0, 2400.0, 4.0)
+    p2 = np.arange(1400.0, 2600.0, 3.0)
+    casts = [(p0, 1.8 + 1.0 * np.exp(-(p0 - 1600.0) / 300.0), 34.69 - 0.05 * np.exp(-(p0 - 1600.0) / 600.0)),
+             (p1, t1, s1),
+             (p2, 2.0 + 1.4 * np.exp(-(p2 - 1400.0) / 450.0), 34.71 - 0.09 * np.exp(-(p2 - 1400.0) / 400.0))]
+    return casts, ["ST05", "ST07", "ST09"]
+
+
+def _attrs(i):
+    return [{"standard_name": "sea_water_pressure", "units": "dbar"},
+            {"standard_name": "sea_water_temperature", "units": "degree_Celsius"},
+            {"standard_name": "sea_water_practical_salinity", "units": "1"}][i]
+
+
+def _contiguous(casts, ids):
+    """H.3.4: the levels of every cast one after the other; ``row_size`` counts each cast's levels."""
+    cols = [np.concatenate([c[i] for c in casts]) for i in range(3)]
+    return xr.Dataset({
+        "PRES": ("obs", cols[0], _attrs(0)), "TEMP": ("obs", cols[1], _attrs(1)), "PSAL": ("obs", cols[2], _attrs(2)),
+        "row_size": ("profile", np.array([c[0].size for c in casts], "i4"),
+                     {"long_name": "levels in each cast", "sample_dimension": "obs"}),
+        "station": ("profile", np.array(ids, dtype=object), {"cf_role": "profile_id"}),
+    }, attrs={"featureType": "profile", "Conventions": "CF-1.8"})
+
+
+def _indexed(casts, ids):
+    """H.3.5: levels in any order, each with the index of its cast (here interleaved, last level first)."""
+    k = np.concatenate([np.full(c[0].size, i) for i, c in enumerate(casts)])
+    cols = [np.concatenate([c[i] for c in casts]) for i in range(3)]
+    order = np.lexsort((-np.concatenate([np.arange(c[0].size) for c in casts]), k))[::-1]
+    return xr.Dataset({
+        "PRES": ("obs", cols[0][order], _attrs(0)), "TEMP": ("obs", cols[1][order], _attrs(1)),
+        "PSAL": ("obs", cols[2][order], _attrs(2)),
+        "cast": ("obs", k[order].astype("i4"), {"long_name": "cast of each level", "instance_dimension": "profile"}),
+        "station": ("profile", np.array(ids, dtype=object), {"cf_role": "profile_id"}),
+    }, attrs={"featureType": "profile", "Conventions": "CF-1.8"})
+
+
+@pytest.mark.parametrize("layout", [_contiguous, _indexed])
+@pytest.mark.parametrize("which", [1, "ST07"])
+def test_one_cast_of_a_ragged_file_reads_as_its_own_file(tmp_path, layout, which):
+    # The cast chosen by position or by its profile_id is the same profile as that cast written alone as CSV
+    # (the indexed file holds its levels in reverse order: the reader orders them by pressure, as for any file).
+    casts, ids = _three_casts()
+    layout(casts, ids).to_netcdf(tmp_path / "casts.nc", engine="h5netcdf")
+    _write_csv(tmp_path / "one.csv", *casts[1])
+    kw = {"latitude": -17.3, "longitude": -113.6, "window": Q_(5, "m")}
+    _same(read_ctd_cast(tmp_path / "casts.nc", profile=which, **kw), read_ctd_cast(tmp_path / "one.csv", **kw))
+
+
+def test_one_cast_of_a_two_dimensional_file(tmp_path):
+    # Variables along (cast, level) with one pressure axis for every cast (CF's orthogonal layout)
+    casts, ids = _three_casts()
+    p, t, sp = _column()
+    t2 = np.vstack([t - 0.1, t, t + 0.1])
+    ds = xr.Dataset({"PRES": ("level", p, _attrs(0)), "TEMP": (("profile", "level"), t2, _attrs(1)),
+                     "PSAL": (("profile", "level"), np.vstack([sp, sp, sp]), _attrs(2)),
+                     "station": ("profile", np.array(ids, dtype=object), {"cf_role": "profile_id"})})
+    ds.to_netcdf(tmp_path / "grid.nc", engine="h5netcdf")
+    _write_csv(tmp_path / "one.csv", p, t, sp)
+    _same(read_ctd_cast(tmp_path / "grid.nc", profile="ST07", window=None), read_ctd_cast(tmp_path / "one.csv",
+                                                                                          window=None))
+
+
+def test_a_file_of_several_casts_needs_one_chosen(tmp_path):
+    casts, ids = _three_casts()
+    _contiguous(casts, ids).to_netcdf(tmp_path / "casts.nc", engine="h5netcdf")
+    with pytest.raises(InputError) as e:
+        read_ctd_cast(tmp_path / "casts.nc")
+    assert e.value.field == "profile" and "file's 3" in e.value.allowed and "ST05, ST07, ST09" in e.value.allowed
+    for bad in (3, -1, "ST08", True):
+        with pytest.raises(InputError, match="one of the file's 3 casts"):
+            read_ctd_cast(tmp_path / "casts.nc", profile=bad)
+    _contiguous(casts[:1], ids[:1]).to_netcdf(tmp_path / "one.nc", engine="h5netcdf")
+    read_ctd_cast(tmp_path / "one.nc")  # one cast: nothing to choose
+
+
+def test_a_profile_for_a_file_of_one_cast_is_refused(twins):
+    for cast in ("cast.csv", "cast.nc"):
+        with pytest.raises(InputError, match="one cast"):
+            read_ctd_cast(twins / cast, profile=0)
+
+
+def test_the_survey_chooses_a_cast_with_ctd_profile(tmp_path):
+    # The demo's cast written as the middle one of three (contiguous ragged array): --check passes with
+    # [site] ctd_profile naming it, and the run's stratification is the cast's own; without the key, or with it
+    # for a CSV cast, the file is refused at site.ctd_profile / site.ctd in one line.
+    from ventflux.survey.api import read_stratification
+    from ventflux.survey.spec import load_survey
+    from ventflux.tables import read_quantity_table
+
+    shutil.copytree(DEMO, tmp_path / "demo")
+    cast = read_quantity_table(tmp_path / "demo" / "data" / "ctd_cast.csv",
+                               columns={"temperature": "temperature", "salinity": "dimensionless"},
+                               optional={"sea_pressure": "pressure"})
+    demo = (cast["sea_pressure"].m_as("dbar"), cast["temperature"].m_as("degC"), cast["salinity"].m_as(""))
+    casts, ids = _three_casts()
+    _contiguous([casts[0], demo, casts[2]], ids).to_netcdf(tmp_path / "demo" / "data" / "casts.nc",
+                                                           engine="h5netcdf")
+    path = tmp_path / "demo" / "survey.toml"
+    text = path.read_text()
+    assert 'ctd = "data/ctd_cast.csv"' in text
+    path.write_text(text.replace('ctd = "data/ctd_cast.csv"', 'ctd = "data/casts.nc"\nctd_profile = "ST07"'))
+    spec = load_survey(path)
+    original = load_survey(DEMO / "survey.toml")
+    _same(read_stratification(spec.site), read_stratification(original.site))
+    path.write_text(text.replace('ctd = "data/ctd_cast.csv"', 'ctd = "data/casts.nc"'))
+    with pytest.raises((InputError, InputErrors)) as e:
+        load_survey(path)
+    lines = e.value.lines() if isinstance(e.value, InputErrors) else [e.value.line()]
+    assert len(lines) == 1 and "site.ctd_profile" in lines[0] and "ST05, ST07, ST09" in lines[0], lines
+    path.write_text(text.replace('ctd = "data/ctd_cast.csv"', 'ctd = "data/ctd_cast.csv"\nctd_profile = 1'))
+    with pytest.raises((InputError, InputErrors), match="site.ctd_profile"):
+        load_survey(path)
+
+
+def test_plume_rise_reads_the_chosen_cast(tmp_path, capsys):
+    # ventflux plume-rise --ctd FILE --ctd-profile ID: the same answer as the cast alone; --ctd-profile without
+    # --ctd, or a cast the file lacks, is one line naming --ctd-profile.
+    import json
+
+    from ventflux.cli import main
+
+    casts, ids = _three_casts()
+    _contiguous(casts, ids).to_netcdf(tmp_path / "casts.nc", engine="h5netcdf")
+    _write_csv(tmp_path / "one.csv", *casts[1])
+    base = ["plume-rise", "--rise-height", "200 m", "--latitude", "-17.3", "--json"]
+    assert main(base + ["--ctd", str(tmp_path / "casts.nc"), "--ctd-profile", "ST07"]) == 0
+    chosen = json.loads(capsys.readouterr().out)
+    assert main(base + ["--ctd", str(tmp_path / "one.csv")]) == 0
+    alone = json.loads(capsys.readouterr().out)
+    assert chosen["heat_power_W"] == alone["heat_power_W"]
+    assert main(base + ["--ctd", str(tmp_path / "casts.nc"), "--ctd-profile", "1"]) == 0
+    assert json.loads(capsys.readouterr().out)["heat_power_W"] == alone["heat_power_W"]
+    assert main(base + ["--buoyancy-frequency", "1e-3/s", "--ambient-temperature", "2 degC", "--ambient-salinity",
+                        "34.6", "--depth", "2000 m",
+                        "--ctd-profile", "ST07"]) == 2
+    assert "--ctd-profile" in capsys.readouterr().err
+    assert main(base + ["--ctd", str(tmp_path / "casts.nc"), "--ctd-profile", "ST08"]) == 2
+    err = capsys.readouterr().err
+    assert "--ctd-profile" in err and "ST05, ST07, ST09" in err

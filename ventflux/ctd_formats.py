@@ -39,12 +39,20 @@ an ``AmbientProfile``; so a cast gives the same profile whatever its format.
   ``SP_from_SR``, the inverse of what ``profiles`` applies). A value that is
   missing (``_FillValue``) is an error naming the level, never dropped.
 
-All variables must lie along one dimension (the cast's levels).
+All variables must lie along one dimension (the cast's levels), or the file holds several casts as CF's
+discrete sampling geometry for profiles [4]_ (``featureType = "profile"``): a contiguous ragged array (a
+variable along the casts with ``sample_dimension``: each cast's count of levels), an indexed ragged array (a
+variable along the levels with ``instance_dimension``: each level's cast) or two-dimensional variables (cast,
+level). One cast is read: ``profile`` is its position (0 first) or its identifier (the variable with
+``cf_role = "profile_id"``); a file of one cast needs none, and a file of several is refused without one,
+listing them.
 
 References
 ----------
 .. [1] CF Standard Name Table, https://cfconventions.org/Data/cf-standard-names/current/build/cf-standard-name-table.html
 .. [2] NetCDF Climate and Forecast (CF) Metadata Conventions, section 3.1 (units, UDUNITS syntax).
+.. [4] NetCDF Climate and Forecast (CF) Metadata Conventions, version 1.8, chapter 9 and appendix H.3
+   (discrete sampling geometries: profiles).
 .. [3] CF defines ``sea_water_pressure`` to include the atmosphere's load;
    CTD files written with it (e.g. profiling-float data) store the sea
    pressure a CTD measures, which ventflux assumes. A file that stores
@@ -81,7 +89,7 @@ _TEMPERATURE = {"temperature", "conservative_temperature", "potential_temperatur
 _SALINITY = {"salinity", "absolute_salinity"}
 
 
-def read_cast_columns(source, latitude=None, longitude=None) -> QuantityTable:
+def read_cast_columns(source, latitude=None, longitude=None, profile=None) -> QuantityTable:
     """The columns of a CTD cast from a file path, an ``xarray.Dataset`` or a ``QuantityTable``.
 
     Parameters
@@ -92,6 +100,9 @@ def read_cast_columns(source, latitude=None, longitude=None) -> QuantityTable:
     latitude, longitude : float, optional
         Degrees; used to convert TEOS-10 variables to in-situ temperature
         and practical salinity (and depth to pressure for that).
+    profile : int or str, optional
+        For a netCDF file or Dataset of several casts: the cast to read, by position (0 first) or by its
+        ``profile_id`` (see the module notes).
 
     Returns
     -------
@@ -100,14 +111,18 @@ def read_cast_columns(source, latitude=None, longitude=None) -> QuantityTable:
         and/or ``pressure`` (sea pressure), with ``path`` naming the source
         in messages and ``lines`` each level's place in it.
     """
+    if profile is not None and (isinstance(source, QuantityTable) or not (
+            _is_dataset(source) or Path(source).suffix.lower() in NETCDF_SUFFIXES)):
+        raise InputError("profile", str(profile), "no profile for a CSV cast (one cast per file); a profile "
+                         "selects one cast of a netCDF file of several")
     if isinstance(source, QuantityTable):
         return source
     if _is_dataset(source):
         name = source.attrs.get("id") or source.attrs.get("title") or "xarray Dataset"
-        return _from_dataset(source, f"dataset '{name}'", latitude, longitude)
+        return _from_dataset(source, f"dataset '{name}'", latitude, longitude, profile)
     path = Path(source)
     if path.suffix.lower() in NETCDF_SUFFIXES:
-        return _from_netcdf(path, latitude, longitude)
+        return _from_netcdf(path, latitude, longitude, profile)
     return read_quantity_table(path, columns={"temperature": "temperature", "salinity": "dimensionless"},
                                optional={"depth": "length", "sea_pressure": "pressure", "pressure": "pressure"},
                                alternatives=[("depth", "sea_pressure", "pressure")])
@@ -140,7 +155,7 @@ def _is_dataset(obj) -> bool:
     return type(obj).__name__ == "Dataset" and hasattr(obj, "data_vars") and hasattr(obj, "attrs")
 
 
-def _from_netcdf(path: Path, latitude, longitude) -> QuantityTable:
+def _from_netcdf(path: Path, latitude, longitude, profile=None) -> QuantityTable:
     if not path.is_file():
         raise InputError("file", str(path), "an existing, readable netCDF file")
     try:
@@ -151,14 +166,75 @@ def _from_netcdf(path: Path, latitude, longitude) -> QuantityTable:
         # decode_times=False: the cast's times are not needed, and odd calendars must not stop the read.
         with xr.open_dataset(path, decode_times=False) as ds:
             ds.load()
-            return _from_dataset(ds, str(path), latitude, longitude)
+            return _from_dataset(ds, str(path), latitude, longitude, profile)
     except InputError:
         raise
     except Exception as exc:  # noqa: BLE001 - any reader failure is the file's problem, said in one line
         raise InputError("file", str(path), f"a readable netCDF file ({type(exc).__name__}: {exc})") from None
 
 
-def _from_dataset(ds, where: str, latitude, longitude) -> QuantityTable:
+def _casts(ds) -> tuple[str, str, str, np.ndarray | None] | None:
+    """How a Dataset holds several casts: ``(layout, dimension of the casts, dimension of the levels, array)``.
+
+    ``("contiguous", casts, levels, count of levels per cast)``, ``("indexed", casts, levels, cast of each
+    level)`` or ``("2d", casts, levels, None)`` (variables along (cast, level); a depth or pressure along the
+    levels alone may be shared by every cast); None for one cast along one dimension.
+    """
+    for var in ds.variables.values():
+        if "sample_dimension" in var.attrs and var.ndim == 1:
+            return "contiguous", var.dims[0], str(var.attrs["sample_dimension"]), np.asarray(var.values)
+    for var in ds.variables.values():
+        if "instance_dimension" in var.attrs and var.ndim == 1:
+            return "indexed", str(var.attrs["instance_dimension"]), var.dims[0], np.asarray(var.values)
+    two = {var.dims for var in ds.variables.values()
+           if str(var.attrs.get("standard_name", "")).strip() in STANDARD_NAMES and var.ndim == 2}
+    if len(two) == 1:
+        casts, levels = next(iter(two))
+        return "2d", casts, levels, None
+    return None
+
+
+def _one_cast(ds, where: str, profile):
+    """The Dataset of the one cast to read, and how messages name it (see the module notes)."""
+    layout = _casts(ds)
+    if layout is None:
+        if profile is not None:
+            raise InputError("profile", str(profile), "no profile: this file holds one cast", where=where)
+        return ds, where
+    kind, dim, obs, per = layout
+    n = int(ds.sizes.get(dim, 0))
+    ids = None
+    for var in ds.variables.values():
+        if str(var.attrs.get("cf_role", "")).strip() == "profile_id" and var.dims == (dim,):
+            ids = [v.decode() if isinstance(v, bytes) else str(v) for v in np.asarray(var.values).tolist()]
+    listing = f"0 to {n - 1}" + (f", or an identifier: {', '.join(ids[:12])}{' …' if n > 12 else ''}" if ids else "")
+    if profile is None and n == 1:
+        profile = 0
+    if profile is None:
+        raise InputError("profile", "(none)", f"one cast of the file's {n}, by position {listing}", where=where)
+    k = -1
+    if isinstance(profile, (int, np.integer)) and not isinstance(profile, bool):
+        k = int(profile)
+    elif ids is not None and str(profile) in ids:
+        k = ids.index(str(profile))
+    if not 0 <= k < n:
+        raise InputError("profile", str(profile), f"one of the file's {n} casts: a position {listing}",
+                         where=where)
+    if kind == "2d":
+        one = ds.isel({dim: k})
+    else:
+        counts = np.asarray(per)
+        if kind == "contiguous":
+            start = int(counts[:k].sum())
+            rows = np.arange(start, start + int(counts[k]))
+        else:
+            rows = np.flatnonzero(counts == k)
+        one = ds.isel({obs: rows})
+    return one, f"{where} (cast {ids[k] if ids else k})"
+
+
+def _from_dataset(ds, where: str, latitude, longitude, profile=None) -> QuantityTable:
+    ds, where = _one_cast(ds, where, profile)
     errs = Collector()
     found: dict = {}
     for name, var in {**dict(ds.coords), **dict(ds.data_vars)}.items():

@@ -139,7 +139,7 @@ def _degrees(x, field):
 
 
 def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
-                  max_unstable=DEFAULT_MAX_UNSTABLE) -> AmbientProfile:
+                  max_unstable=DEFAULT_MAX_UNSTABLE, profile=None) -> AmbientProfile:
     """Read and process a CTD cast into an ``AmbientProfile``.
 
     Parameters
@@ -156,6 +156,8 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
         Bin width (see the module notes); None keeps every row.
     max_unstable : pint.Quantity (length)
         Longest contiguous stretch with N² < 0 that is accepted.
+    profile : int or str, optional
+        For a netCDF file of several casts (CF profiles): which one, by position (0 first) or identifier.
 
     Returns
     -------
@@ -170,7 +172,7 @@ def read_ctd_cast(path, latitude=None, longitude=None, window=DEFAULT_WINDOW,
     lat = _degrees(latitude, "latitude")
     lon = _degrees(longitude, "longitude")
     # A CSV or netCDF file (by suffix), an xarray Dataset, or arrays: the same columns (ventflux.ctd_formats).
-    tbl = read_cast_columns(path, lat, lon)
+    tbl = read_cast_columns(path, lat, lon, profile)
     path = tbl.path  # how messages and the profile's ``source`` name the cast
     where = lambda i: f"{path}:{tbl.lines[i]}"  # noqa: E731
     lat0 = 0.0 if lat is None else lat

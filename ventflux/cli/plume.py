@@ -46,6 +46,9 @@ def configure(p):
     strat.add_argument("--ctd", metavar="CSV", help="CTD cast: 'depth [m]' or 'pressure [dbar]' (sea pressure), "
                                                    "'temperature [degC]', 'salinity' (practical)")
     s.add_argument("--window", default="5 m", metavar="Q", help="CTD bin width (default '5 m'; 'none' keeps every row)")
+    s.add_argument("--ctd-profile", metavar="CAST", default=None,
+                   help="with a netCDF --ctd of several casts (CF profiles): the cast to read, by position (0 first) "
+                        "or by its profile_id")
     s.add_argument("--stratification-scale", default=None, metavar="X",
                    help="factor on N² (e.g. '1 ± 0.1' for a 10 %% uncertainty of the profile's N²)")
     a = p.add_argument_group("vent site and ambient seawater")
@@ -166,8 +169,19 @@ def _run(args) -> int:
     mc = vals.pop("monte_carlo")
     uncertain = any(isinstance(v, Uncertain) for v in vals.values())
     draws = mc.draws if mc.draws is not None else (DEFAULT_DRAWS if uncertain else None)
+    if args.ctd_profile is not None and args.ctd is None:
+        raise InputError("--ctd-profile", args.ctd_profile, "a cast of the file given with --ctd (no --ctd given)")
     if args.ctd is not None:
-        strat = read_ctd_cast(args.ctd, latitude=args.latitude, longitude=args.longitude, window=window)
+        profile = args.ctd_profile
+        if profile is not None and profile.strip().isdigit():
+            profile = int(profile)  # a position; any other text is an identifier
+        try:
+            strat = read_ctd_cast(args.ctd, latitude=args.latitude, longitude=args.longitude, window=window,
+                                  profile=profile)
+        except InputError as err:
+            if err.field != "profile":
+                raise
+            raise InputError("--ctd-profile", err.value, err.allowed, where=err.where) from None
         if args.ambient_temperature is not None or args.ambient_salinity is not None:
             print("ventflux plume-rise: note: the CTD cast gives the ambient at the vent; --ambient-temperature and "
                   "--ambient-salinity are not used with --ctd", file=sys.stderr)

@@ -155,6 +155,8 @@ def read_stratification(site: SiteSpec) -> AmbientProfile:
     kwargs: dict[str, Any] = {"latitude": site.latitude, "longitude": site.longitude}
     if site.ctd_window is not None:
         kwargs["window"] = site.ctd_window
+    if getattr(site, "ctd_profile", None) is not None:
+        kwargs["profile"] = site.ctd_profile
     return profiles.read_ctd_cast(site.ctd, **kwargs)
 
 

@@ -72,6 +72,8 @@ SITE_TABLE = table("site", "where the survey was made and the ambient seawater (
               columns=CTD_COLUMNS, example='"data/ctd_cast.csv"'),
     SurveyKey("ctd_smoothing", "length", "bin width the cast is averaged over before N² is taken",
               default="5 m"),
+    SurveyKey("ctd_profile", "integer or text", "for a netCDF file of several casts (CF profiles): the cast to "
+              "read, by position (0 first) or by its profile_id (e.g. \"ST07\")"),
 ])
 
 RUN_TABLE = table("run", "Monte Carlo settings of the run", [
@@ -136,6 +138,8 @@ class SiteSpec:
     ctd: Path | None
     ctd_window: pint.Quantity | None
     cruise: str | None = None
+    #: The cast to read from a netCDF file of several (``[site] ctd_profile``: a position, 0 first, or an id).
+    ctd_profile: int | str | None = None
     #: Depth range [m] of the CTD cast after binning, once --check has read it (for cross-checks).
     ctd_extent: tuple | None = None
 
@@ -629,9 +633,17 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
         # stratification, so the site keeps a placeholder (the run never starts with errors).
         ctd = Path("(unreadable CTD cast)")
     window = f.quantity("ctd_smoothing", "length", uncertain=False, positive=True)
+    profile = f.table.get("ctd_profile")
+    f.mark_used("ctd_profile")
+    if profile is not None and (isinstance(profile, bool) or not (
+            (isinstance(profile, int) and profile >= 0) or (isinstance(profile, str) and profile.strip()))):
+        f.error("ctd_profile", repr(profile), "a cast's position in the file (an integer, 0 first) or its "
+                                              "profile_id (text)")
+        profile = None
     f.check_unknown()
     site = SiteSpec(name=name, pressure=pressure, depth=depth, latitude=lat, longitude=lon,
-                    ambient_temperature=t_amb, ambient_salinity=s_amb, ctd=ctd, ctd_window=window, cruise=cruise)
+                    ambient_temperature=t_amb, ambient_salinity=s_amb, ctd=ctd, ctd_window=window, cruise=cruise,
+                    ctd_profile=profile)
     _check_ambient(f, site)
     if ctd is not None and "ctd_smoothing" in f.table and window is None:
         return site  # the window's own error is reported; the cast is read once it is fixed
@@ -752,7 +764,6 @@ def _check_flank_observations(errs: Collector, table):
 
 def _check_ctd(f: Fields, site: SiteSpec):
     """Read the cast now, so that --check finds every problem the run would (order, numbers, stability)."""
-    from .. import profiles
 
     from ..vocabulary import deprecation_line
     from .schema import renamed_columns
@@ -760,16 +771,15 @@ def _check_ctd(f: Fields, site: SiteSpec):
     cast = Path(site.ctd or "")
     for old, new in renamed_columns(cast, CTD_COLUMNS):
         f.warnings.add(f.key("ctd"), deprecation_line(old, new, where=f"column of {cast.name}"))
-    kwargs: dict[str, object] = {"latitude": site.latitude, "longitude": site.longitude}
-    if site.ctd_window is not None:
-        kwargs["window"] = site.ctd_window
+    from .api import read_stratification  # the cast as the run reads it: one reading, its options included
+
     try:
-        prof = profiles.read_ctd_cast(site.ctd, **kwargs)
+        prof = read_stratification(site)
     except InputErrors as e:
         f.errors.errors.extend(_in_key(x, f.key("ctd")) for x in e.errors)
         return
     except InputError as e:
-        f.errors.add(_in_key(e, f.key("ctd")))
+        f.errors.add(_profile_key(f, e) if e.field == "profile" else _in_key(e, f.key("ctd")))
         return
     z = prof.depth.to("m").magnitude
     site.ctd_extent = (float(z.min()), float(z.max()))
@@ -878,6 +888,12 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
                 "the cast can cap the plumes below it; the run drops such draws and refuses above that share)")
     except (InputErrors, TypeError, ValueError, AttributeError, ArithmeticError):
         return  # not this check's to report: the inputs' own checks name them
+
+
+def _profile_key(f: Fields, e: InputError) -> InputError:
+    """The cast chosen in a file of several: named by the key that chooses it (``site.ctd_profile``)."""
+    cast = f" in {Path(str(e.where)).name}" if e.where else ""
+    return InputError(f.key("ctd_profile"), e.value, f"{e.allowed}{cast}", where=f.where)
 
 
 def _in_key(e: InputError, key: str) -> InputError:
