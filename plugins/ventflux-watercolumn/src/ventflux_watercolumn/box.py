@@ -159,7 +159,13 @@ def analyse_box(datas, names, analyse, tolerance=None, band=None) -> BoxAnalysis
     for d, r in zip(datas, first):
         mid = np.array([np.mean(r.profile_east), np.mean(r.profile_north)])
         sections.append(analyse(d, band_depths=band, outward=mid - centre))
+    # what the gaps leave out: their share of the box's perimeter (the sections' lengths along their profiles)
+    walked = sum(float(np.hypot(np.diff(r.profile_east), np.diff(r.profile_north)).sum()) for r in first)
+    gap_total = sum(g for _, _, g in gaps)
+    share = gap_total / (walked + gap_total) if walked + gap_total > 0 else 0.0
     notes = [f"Box of {len(datas)} sections, integrated from {band[0]:g} to {band[1]:g} m; gaps between them "
-             + ", ".join(f"{a}–{b} {g:.0f} m" for a, b, g in gaps) + f" (tolerance {tol:.0f} m)."]
+             + ", ".join(f"{a}–{b} {g:.0f} m" for a, b, g in gaps) + f" (tolerance {tol:.0f} m). The heat "
+             f"crossing the gaps ({share:.0%} of the box's perimeter) is not counted: nothing is extrapolated "
+             "beyond a section's end profiles."]
     return BoxAnalysis(sections=sections, names=list(names), gaps=gaps, tolerance=tol, band=tuple(band),
                        centre=centre, notes=notes)
