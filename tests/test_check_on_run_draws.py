@@ -189,7 +189,8 @@ def test_the_check_uses_the_runs_limit_for_an_input_of_its_own(tmp_path):
     text = path.read_text()
     assert 'velocity = "1.2 ± 0.2 m/s"' in text
     path.write_text(text.replace('velocity = "1.2 ± 0.2 m/s"', 'velocity = "1.2 ± 0.75 m/s"', 1))
-    with pytest.raises((InputError, InputErrors), match=r"orifice\[0\]\.velocity.*above run\.max_unphysical"):
+    with pytest.raises((InputError, InputErrors),
+                       match=r"orifice\[0\]\.velocity.*limit on impossible draws \(run\.max_unphysical\)"):
         load_survey(path)
     load_survey(path, max_unphysical=0.10)
 

@@ -249,8 +249,9 @@ class Fields:
                 low = low_point(value, share, self.run.draws, dimension == "temperature")
                 if not low > 0:
                     self.error(name, shown, f"a {dimension} > 0 in at least {1 - share:.1%} of its draws (its "
-                                            f"{share:.1%} point is {low:.3g} in SI units, above {self.run.option}; "
-                                            "narrow the spread or use a lognormal)")
+                                            f"{share:.1%} point, at the run's limit on impossible draws "
+                                            f"({self.run.option}), is {low:.3g} in SI units; narrow the spread or "
+                                            "use a lognormal)")
                     return False
         if minimum is not None and centre < minimum:
             self.error(name, shown, f"a {dimension} ≥ {minimum:~P}")
