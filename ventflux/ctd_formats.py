@@ -203,6 +203,8 @@ def _one_cast(ds, where: str, profile):
         return ds, where
     kind, dim, obs, per = layout
     n = int(ds.sizes.get(dim, 0))
+    if n == 0 and kind == "indexed" and per is not None and per.size:  # no variable along the casts themselves
+        n = int(np.nanmax(per)) + 1
     ids = None
     for var in ds.variables.values():
         if str(var.attrs.get("cf_role", "")).strip() == "profile_id" and var.dims == (dim,):
