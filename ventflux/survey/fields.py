@@ -10,7 +10,7 @@ answer otherwise.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -391,6 +391,8 @@ class RunSettings:
     max_unphysical: float = DEFAULT_MAX_UNPHYSICAL
     #: Where the limit was set, for a refusal: the file's key or the command line's option.
     option: str = "run.max_unphysical"
+    #: Draws ≤ 0 counted per (stream, kelvin, draws, seed) (``refuses_draws``).
+    _counted: dict = field(default_factory=dict, repr=False)
 
     def refuses_draws(self, stream: str, value, dimension: str) -> str:
         """Why the run would refuse the draws of ``value`` under ``stream`` for being ≤ 0 (``""``: it would not).
@@ -399,9 +401,12 @@ class RunSettings:
         """
         from ..uncertainty import SharedDraws
 
-        q = SharedDraws(self.draws, self.seed).draw(stream, value)
-        m = q.to("K").magnitude if dimension == "temperature" else q.to_base_units().magnitude
-        bad = int(np.count_nonzero(~(np.asarray(m) > 0)))
+        key = (stream, dimension == "temperature", self.draws, self.seed)
+        if key not in self._counted:  # a shared value many keys refer to is drawn and counted once
+            q = SharedDraws(self.draws, self.seed).draw(stream, value)
+            m = q.to("K").magnitude if dimension == "temperature" else q.to_base_units().magnitude
+            self._counted[key] = int(np.count_nonzero(~(np.asarray(m) > 0)))
+        bad = self._counted[key]
         if bad <= self.max_unphysical * self.draws:
             return ""
         return (f"{self.max_unphysical:.1%} of the run's {self.draws} draws ({bad} are ≤ 0, above "
