@@ -790,8 +790,8 @@ def _check_ctd(f: Fields, site: SiteSpec):
                                        f"{z.max():.0f} m after binning), or a cast that reaches the site")
 
 
-#: Physical range of each plume input's draws (the run's ``plume.propagation.PLUME_INPUTS``): a 5 % point outside
-#: it means more than 5 % of the draws would be dropped.
+#: Physical range of each plume input's draws (the run's ``plume.propagation.PLUME_INPUTS``): the point at the run's
+#: limit on impossible draws (5 % by default) outside it means more than that share would be dropped.
 _PLUME_POSITIVE = {"height": True, "entrainment": True, "buoyancy_frequency": True, "stratification_scale": True,
                    "current": False}
 
@@ -804,8 +804,8 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
     below it) and refuses the estimate when more than ``[run] max_unphysical``
     of them fail; ``--check`` refuses the same file here, by making the run's
     propagation (``plume_method.propagation``) on the run's draws (``run``: its
-    count, seed and limit). An input whose 5 % point is not > 0 is refused
-    first, with its own line.
+    count, seed and limit). An input whose point at the run's limit (its 5 %
+    point by default) is not > 0 is refused first, with its own line.
     """
     if not isinstance(plume, dict) or plume.get("height") is None or site is None:
         return
