@@ -13,8 +13,8 @@ Run: python tests/benchmarks/bench_survey.py [--rounds R]
 
 3. How much work the machine's cores do together: the same pure-Python loop in one process, then in one
    process per core at once. On shared virtual cores ``cores`` busy processes do less than ``cores`` times the
-   work of one (two of these machines' vCPUs do about 1.3 times, measured); the wall time of a run cannot go
-   below its one-process CPU time over that factor.
+   work of one (two of these machines' vCPUs do 1.3 to 1.9 times, measured, depending on the other tenants);
+   the wall time of a run cannot go below its one-process CPU time over that factor.
 
 These machines are shared (2 cores): expect tens of per cent of noise in absolute times; the two modes are
 measured side by side.
