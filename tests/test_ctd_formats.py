@@ -412,3 +412,30 @@ def test_plume_rise_reads_the_chosen_cast(tmp_path, capsys):
     assert main(base + ["--ctd", str(tmp_path / "casts.nc"), "--ctd-profile", "ST08"]) == 2
     err = capsys.readouterr().err
     assert "--ctd-profile" in err and "ST05, ST07, ST09" in err
+
+
+def test_a_padded_cast_of_a_two_dimensional_file_reads_as_its_own_file(tmp_path):
+    # CF's incomplete multidimensional layout: casts of different lengths in one (cast, level) array, the
+    # shorter padded with missing values at the end. The padding is not data: the cast reads as the same cast
+    # written alone, and the padding is counted in the cast's name; a level missing only one variable is still
+    # an error naming it.
+    casts, ids = _three_casts()
+    n = max(c[0].size for c in casts)
+
+    def padded(i):
+        return np.vstack([np.concatenate([c[i], np.full(n - c[i].size, np.nan)]) for c in casts])
+
+    ds = xr.Dataset({"PRES": (("profile", "level"), padded(0), _attrs(0)),
+                     "TEMP": (("profile", "level"), padded(1), _attrs(1)),
+                     "PSAL": (("profile", "level"), padded(2), _attrs(2)),
+                     "station": ("profile", np.array(ids, dtype=object), {"cf_role": "profile_id"})})
+    ds.to_netcdf(tmp_path / "padded.nc", engine="h5netcdf")
+    _write_csv(tmp_path / "one.csv", *casts[0])
+    kw = {"latitude": -17.3, "window": Q_(5, "m")}
+    got = read_ctd_cast(tmp_path / "padded.nc", profile="ST05", **kw)
+    _same(got, read_ctd_cast(tmp_path / "one.csv", **kw))
+    assert f"{n - casts[0][0].size} padding levels" in got.source
+    ds["TEMP"][0, 3] = np.nan  # a real gap, not padding
+    ds.to_netcdf(tmp_path / "gap.nc", engine="h5netcdf")
+    with pytest.raises((InputError, InputErrors), match="missing value"):
+        read_ctd_cast(tmp_path / "gap.nc", profile="ST05")

@@ -43,7 +43,8 @@ All variables must lie along one dimension (the cast's levels), or the file hold
 discrete sampling geometry for profiles [4]_ (``featureType = "profile"``): a contiguous ragged array (a
 variable along the casts with ``sample_dimension``: each cast's count of levels), an indexed ragged array (a
 variable along the levels with ``instance_dimension``: each level's cast) or two-dimensional variables (cast,
-level). One cast is read: ``profile`` is its position (0 first) or its identifier (the variable with
+level; a shorter cast padded with missing values, whose padding levels are left out and counted in the cast's
+name). One cast is read: ``profile`` is its position (0 first) or its identifier (the variable with
 ``cf_role = "profile_id"``); a file of one cast needs none, and a file of several is refused without one,
 listing them.
 
@@ -222,8 +223,17 @@ def _one_cast(ds, where: str, profile):
     if not 0 <= k < n:
         raise InputError("profile", str(profile), f"one of the file's {n} casts: a position {listing}",
                          where=where)
+    name = ids[k] if ids else k
     if kind == "2d":
         one = ds.isel({dim: k})
+        # CF's incomplete multidimensional arrays pad a shorter cast with missing values: a level where every
+        # variable of the cast is missing is padding, not a measurement (a level missing only some is an error)
+        own = [v for v, var in ds.variables.items() if var.dims == (dim, obs)
+               and str(var.attrs.get("standard_name", "")).strip() in STANDARD_NAMES]
+        pad = np.all([~np.isfinite(np.asarray(one[v].values, float)) for v in own], axis=0)
+        if pad.any():
+            one = one.isel({obs: np.flatnonzero(~pad)})
+            return one, f"{where} (cast {name}; {int(pad.sum())} padding levels of the file's layout left out)"
     else:
         counts = np.asarray(per)
         if kind == "contiguous":
@@ -232,7 +242,7 @@ def _one_cast(ds, where: str, profile):
         else:
             rows = np.flatnonzero(counts == k)
         one = ds.isel({obs: rows})
-    return one, f"{where} (cast {ids[k] if ids else k})"
+    return one, f"{where} (cast {name})"
 
 
 def _from_dataset(ds, where: str, latitude, longitude, profile=None) -> QuantityTable:
