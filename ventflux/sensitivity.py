@@ -339,7 +339,10 @@ def _bin_sums(Xs, Z, cols, WT, tail, M, c, nb, r, sums, first):
         Wb = np.take(WT, order, axis=0, out=wbuf).reshape(M, c, nb)  # (M, c, nb), no copy to transpose
         Cb = np.take(cols, order, axis=0, out=cbuf).reshape(M, c, 3 + 3 * r)
         for m in range(M):  # per-bin 2-D products: BLAS reads the transposed view as it is
-            w = Wb[m] if Wb.dtype == np.float32 else _widen(Wb[m], wide)
+            w = Wb[m]
+            if w.dtype != np.float32:
+                w = wide
+                np.copyto(w, Wb[m])
             np.matmul(w.T, Cb[m], out=sums[m])
             # Σw² per bin (duplicated draws add no information). The weights are small whole numbers, so single
             # precision sums them exactly (every partial sum is far below 2²⁴): the same counts as in double
@@ -347,11 +350,6 @@ def _bin_sums(Xs, Z, cols, WT, tail, M, c, nb, r, sums, first):
         s64 = sums.astype(np.float64).transpose(1, 2, 0)  # (nb, 3 + 3r, M)
         first[i] = _bin_index(s64[:, -1], cnt2, s64[:, 0], s64[:, 1], s64[:, 2:2 + r], s64[:, 2 + r:2 + 2 * r],
                               s64[:, 2 + 2 * r:-1])
-
-
-def _widen(block, out):
-    out[...] = block
-    return out
 
 
 def _sort_order(x):

@@ -108,6 +108,38 @@ class SectionEstimate:
 
 
 @dataclass
+class RunSettings:
+    """The run's Monte Carlo settings as the file and the command line set them: every table's ``Fields.run``
+    and the parsers' ``ParseContext.run`` are this one object."""
+
+    draws: int = DEFAULT_DRAWS
+    seed: int = DEFAULT_SEED
+    max_unphysical: float = DEFAULT_MAX_UNPHYSICAL
+    #: Where the limit was set, for a refusal: the file's key or the command line's option.
+    option: str = "run.max_unphysical"
+    #: Draws ≤ 0 counted per (stream, kelvin, draws, seed) (``refuses_draws``).
+    _counted: dict = field(default_factory=dict, repr=False)
+
+    def refuses_draws(self, stream: str, value, dimension: str) -> str:
+        """Why the run would refuse the draws of ``value`` under ``stream`` for being ≤ 0 (``""``: it would not).
+
+        The run's own draws (same name, seed and count) are counted against its limit.
+        """
+        import numpy as np
+
+        key = (stream, dimension == "temperature", self.draws, self.seed)
+        if key not in self._counted:  # a shared value many keys refer to is drawn and counted once
+            q = SharedDraws(self.draws, self.seed).draw(stream, value)
+            m = q.to("K").magnitude if dimension == "temperature" else q.to_base_units().magnitude
+            self._counted[key] = int(np.count_nonzero(~(np.asarray(m) > 0)))
+        bad = self._counted[key]
+        if bad <= self.max_unphysical * self.draws:
+            return ""
+        return (f"{self.max_unphysical:.1%} of the run's {self.draws} draws ({bad} are ≤ 0, above "
+                f"{self.option}; narrow the spread or use a lognormal)")
+
+
+@dataclass
 class ParseContext:
     """What a parser may consult: the survey's folder and its site-wide values."""
 
@@ -116,21 +148,36 @@ class ParseContext:
     input_files: dict  # path -> role, every file the survey reads (for hashing)
     warnings: Any = None  # the run's Warnings: exclusions a parser counts (dropped samples) are recorded there
     #: The run's Monte Carlo settings (``[run]`` or the command line): a parser that draws while reading uses them,
-    #: so that ``--check`` and the run agree on what is refused.
-    draws: int = DEFAULT_DRAWS
-    seed: int = DEFAULT_SEED
-    max_unphysical: float = DEFAULT_MAX_UNPHYSICAL
-    #: How the user set that limit, named in a refusal: the file's key, or the command line's option.
-    max_unphysical_option: str = "run.max_unphysical"
+    #: so that ``--check`` and the run agree on what is refused (also ``draws``, ``seed``, ``max_unphysical``).
+    run: RunSettings = field(default_factory=RunSettings)
     #: Where a check that takes long says what it is doing (``ventflux.waiting``); None: it says nothing.
     progress: Callable[[str], None] | None = None
+    #: The site's CTD cast, read once by the site's check (``read_stratification``); None without a readable one.
+    stratification: AmbientProfile | None = None
 
-    def trial_run(self, stratification=None) -> RunContext:
-        """The context the run will give its estimates (its draws, seed and limit), for a check that must
+    @property
+    def draws(self) -> int:
+        return self.run.draws
+
+    @property
+    def seed(self) -> int:
+        return self.run.seed
+
+    @property
+    def max_unphysical(self) -> float:
+        return self.run.max_unphysical
+
+    @property
+    def max_unphysical_option(self) -> str:
+        """How the user set that limit, named in a refusal: the file's key, or the command line's option."""
+        return self.run.option
+
+    def trial_run(self) -> RunContext:
+        """The context the run will give its estimates (its draws, seed, limit and cast), for a check that must
         refuse exactly what the run refuses (``run_context``)."""
         assert self.site is not None  # callers check the site first
         return run_context(self.site, SharedDraws(self.draws, self.seed),
-                           UnphysicalPolicy(self.max_unphysical, self.max_unphysical_option), stratification)
+                           UnphysicalPolicy(self.max_unphysical, self.max_unphysical_option), self.stratification)
 
 
 @dataclass

@@ -29,7 +29,7 @@ from ..errors import InputError
 from ..uncertainty import Uncertain, propagate, screen
 from ..units import Q_
 from .api import MethodEstimate, ReportPart, SectionEstimate, SurveyMethod, SurveySection
-from .fields import SharedRef, as_float, nominal_of
+from .fields import SharedRef, as_float, key_drawn_as, nominal_of
 from .schema import DataColumn, SurveyKey
 
 #: The mean/centreline velocity ratio of a fully turbulent jet exit, a range rather than a constant: power-law
@@ -204,8 +204,7 @@ def orifice_key(stream: str, spec: dict) -> str:
     """The survey key of an orifice's input drawn under ``stream`` (``<vent>/orifice[i]/<input>`` or the
     ``shared/<name>`` one of its keys refers to); ``""`` (the orifice's table) for a site input or a constant."""
     keys = {name: key for key, name, _ in _ORIFICE_KEYS}
-    name = next((k for k, v in spec.items() if isinstance(v, SharedRef) and stream == f"shared/{v.name}"),
-                stream.rsplit("/", 1)[-1] if "/orifice[" in stream else None)
+    name = key_drawn_as(stream, spec) or (stream.rsplit("/", 1)[-1] if "/orifice[" in stream else None)
     return keys.get(name, name) if name in _DRAWN_KEYS else ""
 
 

@@ -10,14 +10,13 @@ answer otherwise.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
-import numpy as np
-
 from ..errors import Collector, InputError, Warnings
-from ..uncertainty import DEFAULT_DRAWS, DEFAULT_MAX_UNPHYSICAL, DEFAULT_SEED, Uncertain, parse_uncertain
+from ..uncertainty import Uncertain, parse_uncertain
 from ..units import Q_, parse_quantity
+from .api import RunSettings
 
 
 class Fields:
@@ -382,35 +381,10 @@ def low_point(value, share: float, draws: int, temperature: bool = False) -> flo
     return float(Q_(low, value.unit).to(unit).magnitude)
 
 
-@dataclass
-class RunSettings:
-    """The run's Monte Carlo settings as the file and the command line set them (``Fields.run``)."""
-
-    draws: int = DEFAULT_DRAWS
-    seed: int = DEFAULT_SEED
-    max_unphysical: float = DEFAULT_MAX_UNPHYSICAL
-    #: Where the limit was set, for a refusal: the file's key or the command line's option.
-    option: str = "run.max_unphysical"
-    #: Draws ≤ 0 counted per (stream, kelvin, draws, seed) (``refuses_draws``).
-    _counted: dict = field(default_factory=dict, repr=False)
-
-    def refuses_draws(self, stream: str, value, dimension: str) -> str:
-        """Why the run would refuse the draws of ``value`` under ``stream`` for being ≤ 0 (``""``: it would not).
-
-        The run's own draws (same name, seed and count) are counted against its limit.
-        """
-        from ..uncertainty import SharedDraws
-
-        key = (stream, dimension == "temperature", self.draws, self.seed)
-        if key not in self._counted:  # a shared value many keys refer to is drawn and counted once
-            q = SharedDraws(self.draws, self.seed).draw(stream, value)
-            m = q.to("K").magnitude if dimension == "temperature" else q.to_base_units().magnitude
-            self._counted[key] = int(np.count_nonzero(~(np.asarray(m) > 0)))
-        bad = self._counted[key]
-        if bad <= self.max_unphysical * self.draws:
-            return ""
-        return (f"{self.max_unphysical:.1%} of the run's {self.draws} draws ({bad} are ≤ 0, above "
-                f"{self.option}; narrow the spread or use a lognormal)")
+def key_drawn_as(stream: str, table: dict) -> str | None:
+    """The key of a parsed table whose value refers to the [shared] name drawn under ``stream`` (``shared/<name>``),
+    or None: how a refusal raised on the run's draws names the key the user wrote."""
+    return next((k for k, v in table.items() if isinstance(v, SharedRef) and stream == f"shared/{v.name}"), None)
 
 
 #: The value of a [shared] name that was refused (``Fields.shared``): a key referring to it is not refused again.

@@ -59,7 +59,7 @@ def _parse(f, ctx):
         "height": _height(f, ctx, level or "maximum"),
         "level": level,
         "method": f.string("method", default="integral", choices=METHODS),
-        "entrainment": f.quantity("entrainment", "dimensionless", default=None),
+        "entrainment": f.quantity("entrainment", "dimensionless", default=None, positive=True),
         "current": f.quantity("current", "velocity"),
         "buoyancy_frequency": f.quantity("buoyancy_frequency", "frequency", positive=True),
         "stratification_scale": f.quantity("stratification_scale", "dimensionless", positive=True),
@@ -131,7 +131,7 @@ def _handover_key(spec, vent, ctx, track):
 
     The plume's parsed inputs (their text form), the vent's name, the draws (plain ``SharedDraws`` only: count
     and seed name every stream), the limit on dropped draws, the site's pressure, position and ambient values,
-    and the CTD file (path, size, modification time, window).
+    and the CTD file (path, size, modification time, window, the cast chosen in it).
     """
     import os
 
@@ -147,7 +147,7 @@ def _handover_key(spec, vent, ctx, track):
             st = os.stat(site.ctd)
         except OSError:
             return None
-        ctd = (str(site.ctd), st.st_size, st.st_mtime_ns, repr(site.ctd_window))
+        ctd = (str(site.ctd), st.st_size, st.st_mtime_ns, repr(site.ctd_window), repr(site.ctd_profile))
     ambient = (repr(site.ambient_temperature), repr(site.ambient_salinity))
     return (vent, bool(track), repr(sorted((k, repr(v)) for k, v in spec.items())), ctx.draws.n_draws,
             ctx.draws.seed, ctx.policy.max_share, float(ctx.pressure.to("Pa").magnitude), site.latitude,

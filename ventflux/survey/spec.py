@@ -24,6 +24,7 @@ from __future__ import annotations
 import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import pint
 
@@ -33,8 +34,11 @@ from ..resources import check_memory
 from ..uncertainty import MAX_SEED, Uncertain
 from ..units import Q_
 from .api import ParseContext
-from .fields import REFUSED_SHARED, Fields, Position, SharedRef, low_point
+from .fields import REFUSED_SHARED, Fields, Position, SharedRef, key_drawn_as
 from .schema import DataColumn, SurveyKey, table
+
+if TYPE_CHECKING:
+    from ..profiles import AmbientProfile
 
 #: Default Monte Carlo draws of a survey run (a choice: the 5-95 % limits of
 #: 10,000 draws are reproducible to about 1 % of the interval width).
@@ -345,11 +349,10 @@ def _load(raw: dict, path: Path, where: str, overrides: dict | None = None, prog
     top.run.draws, top.run.seed = int(draws or DEFAULT_DRAWS), int(seed)
     top.run.max_unphysical = float(max_unphysical if max_unphysical is not None else DEFAULT_MAX_UNPHYSICAL)
     top.run.option = "--max-unphysical" if "max_unphysical" in given else "run.max_unphysical"
-    site = _parse_site(top.sub("site", required=True), input_files)
+    site, cast = _parse_site(top.sub("site", required=True), input_files)
     methods, sections = survey_components()
-    ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files, warnings=warnings,
-                       draws=top.run.draws, seed=top.run.seed, max_unphysical=top.run.max_unphysical,
-                       max_unphysical_option=top.run.option, progress=progress)
+    ctx = ParseContext(base_dir=path.parent, site=site, input_files=input_files, warnings=warnings, run=top.run,
+                       progress=progress, stratification=cast)
     vents = []
     names = set()
     for vf in top.subs("vent"):
@@ -605,9 +608,10 @@ def _guess_dimension(text: str) -> str:
     return "dimensionless"
 
 
-def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
+def _parse_site(f: Fields | None, input_files: dict) -> tuple[SiteSpec | None, AmbientProfile | None]:
+    """The site, and its CTD cast as the run reads it (None without a readable one)."""
     if f is None:
-        return None
+        return None, None
     name = f.string("name", required=True)
     cruise = f.string("cruise")
     depth = f.quantity("depth", "length", uncertain=False, positive=True)
@@ -646,10 +650,10 @@ def _parse_site(f: Fields | None, input_files: dict) -> SiteSpec | None:
                     ctd_profile=profile)
     _check_ambient(f, site)
     if ctd is not None and "ctd_smoothing" in f.table and window is None:
-        return site  # the window's own error is reported; the cast is read once it is fixed
+        return site, None  # the window's own error is reported; the cast is read once it is fixed
     if ctd is not None and f.key("ctd") not in {e.field for e in f.errors.errors}:
-        _check_ctd(f, site)
-    return site
+        return site, _check_ctd(f, site)
+    return site, None
 
 
 def _check_ambient(f: Fields, site: SiteSpec):
@@ -762,9 +766,10 @@ def _check_flank_observations(errs: Collector, table):
         errs.add(InputError("heat_flow", f"{q[j]:g} mW/m^2", "a heat flow ≥ 0", where=where(j)))
 
 
-def _check_ctd(f: Fields, site: SiteSpec):
-    """Read the cast now, so that --check finds every problem the run would (order, numbers, stability)."""
+def _check_ctd(f: Fields, site: SiteSpec) -> AmbientProfile | None:
+    """Read the cast now, so that --check finds every problem the run would (order, numbers, stability).
 
+    Returns the cast (the plume checks use it), or None when it is refused."""
     from ..vocabulary import deprecation_line
     from .schema import renamed_columns
 
@@ -777,10 +782,10 @@ def _check_ctd(f: Fields, site: SiteSpec):
         prof = read_stratification(site)
     except InputErrors as e:
         f.errors.errors.extend(_in_key(x, f.key("ctd")) for x in e.errors)
-        return
+        return None
     except InputError as e:
         f.errors.add(_profile_key(f, e) if e.field == "profile" else _in_key(e, f.key("ctd")))
-        return
+        return None
     z = prof.depth.to("m").magnitude
     site.ctd_extent = (float(z.min()), float(z.max()))
     depth = _site_depth_m(site)
@@ -788,12 +793,7 @@ def _check_ctd(f: Fields, site: SiteSpec):
         key = "depth" if site.depth is not None else "absolute_pressure"
         f.error(key, f.raw(key), f"a site within the depth range of the CTD cast ({z.min():.0f} to "
                                        f"{z.max():.0f} m after binning), or a cast that reaches the site")
-
-
-#: Physical range of each plume input's draws (the run's ``plume.propagation.PLUME_INPUTS``): the point at the run's
-#: limit on impossible draws (5 % by default) outside it means more than that share would be dropped.
-_PLUME_POSITIVE = {"height": True, "entrainment": True, "buoyancy_frequency": True, "stratification_scale": True,
-                   "current": False}
+    return prof
 
 
 def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) -> None:
@@ -804,8 +804,8 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
     below it) and refuses the estimate when more than ``[run] max_unphysical``
     of them fail; ``--check`` refuses the same file here, by making the run's
     propagation (``plume_method.propagation``) on the run's draws (``run``: its
-    count, seed and limit). An input whose point at the run's limit (its 5 %
-    point by default) is not > 0 is refused first, with its own line.
+    count, seed, limit and cast). Each input's own tail (its share of draws ≤ 0)
+    is checked where it is read (``Fields.quantity``).
     """
     if not isinstance(plume, dict) or plume.get("height") is None or site is None:
         return
@@ -813,61 +813,22 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
     def key_of(k):  # the parsed plume holds "height"; the file says rise_height (or, for one release, height)
         return "rise_height" if k == "height" and "height" not in f.table else k
 
-    def written(k, default=None):
-        return f.table.get(key_of(k), default)
-    from ..limits import _span
-    from .api import read_stratification
-    from .plume_method import ENTRAINMENT_UNCERTAIN
-
-    units = {"height": "m", "entrainment": "dimensionless", "buoyancy_frequency": "1/s",
-             "stratification_scale": "dimensionless", "current": "m/s"}
-    spans = {}
-    for key, unit in units.items():
-        v = plume.get(key)
-        v = v.value if isinstance(v, SharedRef) else v
-        if v is None and key == "entrainment":
-            v = ENTRAINMENT_UNCERTAIN
-        if v is None:
-            continue
-        try:
-            spans[key] = _span(v, unit)
-        except (InputError, TypeError, ValueError, AttributeError):
-            return
-        if spans[key] is None:
-            return
-        nom, lo, hi = spans[key]
-        if lo != hi and key != "current" and isinstance(v, Uncertain):
-            # the point below which the run's share of draws lies (its limit, 5 % by default), in SI
-            low = low_point(v, run.max_unphysical, run.draws)
-            if not (low > 0 if _PLUME_POSITIVE[key] else low >= 0):
-                sign = ">" if _PLUME_POSITIVE[key] else "≥"
-                f.error(key_of(key), written(key, str(v)),
-                        f"a distribution whose {run.max_unphysical:.1%} point is {sign} 0 (it is {low:.4g}): the run "
-                        f"drops draws outside that range and refuses when more than "
-                        f"{run.max_unphysical:.1%} are dropped ({run.max_unphysical_option})")
-                return
-    if any(e.field in {f.key(key_of(k)) for k in spans} for e in f.errors.errors):
+    keys = ("height", "entrainment", "buoyancy_frequency", "stratification_scale", "current")
+    if any(e.field in {f.key(key_of(k)) for k in keys} for e in f.errors.errors):
         return  # an input of this plume is already refused: its own line says why
-    strat = None
-    if site.ctd is not None and plume.get("buoyancy_frequency") is None:
-        try:
-            strat = read_stratification(site)
-        except (InputError, InputErrors):
-            return  # reported by _check_ctd
-    elif "buoyancy_frequency" not in spans:
-        return
+    if plume.get("buoyancy_frequency") is None and run.stratification is None:
+        return  # neither a cast (or it is refused, with its own line) nor a constant N
     # The run's own propagation on the run's own draws (same seed, count and stream names): the share of draws
     # without a plume solution is then exactly the run's. Trying each input's 5 % and 95 % points one at a time
     # missed joint failures: a spike in the cast that caps the plumes of the high rises and strong entrainments
     # together (found by the whole-demo fuzz of tests/test_check_fuzz.py).
+    from ..waiting import notice_if_slow
     from .plume_method import propagation
 
     try:
-        ctx = run.trial_run(strat)
+        ctx = run.trial_run()
     except (InputError, InputErrors, TypeError, ValueError, AttributeError):
         return  # the site's own checks name it
-    from ..waiting import notice_if_slow
-
     try:
         # the run takes this result instead of solving again (same inputs, draws and site)
         with notice_if_slow(run.progress, f"checking {vent if vent == 'field plume' else repr(vent)}: inverting "
@@ -877,12 +838,12 @@ def _check_plume_solvable(f: Fields, plume, site, vent: str, run: ParseContext) 
     except InputError as e:
         if not str(e.field).endswith("plume_rise"):  # one input's draws refused: named by its key, as the run would
             stream = str(e.field)
-            key = next((k for k, v in plume.items() if isinstance(v, SharedRef) and stream == f"shared/{v.name}"),
-                       stream.rsplit("/", 1)[-1])
-            key = key if key in units else "height"
-            f.error(key_of(key), written(key, "(default)"), f"{e.allowed} (met in the run's {run.draws} draws)")
+            key = key_drawn_as(stream, plume) or stream.rsplit("/", 1)[-1]
+            key = key if key in keys else "height"
+            f.error(key_of(key), f.table.get(key_of(key), "(default)"),
+                    f"{e.allowed} (met in the run's {run.draws} draws)")
             return
-        f.error(key_of("height"), written("height"),
+        f.error(key_of("height"), f.table.get(key_of("height")),
                 f"a rise height the plume model reaches in the site's stratification in all but at most "
                 f"{run.max_unphysical:.1%} of the run's {run.draws} draws ({e.value}; a dense layer or a spike in "
                 "the cast can cap the plumes below it; the run drops such draws and refuses above that share)")
