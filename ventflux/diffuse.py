@@ -65,6 +65,7 @@ from .uncertainty import (
     SharedDraws,
     Uncertain,
     UnphysicalPolicy,
+    driver_settings,
     from_mean_sd,
     propagate,
 )
@@ -443,8 +444,7 @@ def diffuse_propagation(area, active_fraction, temperature_anomaly, velocity, am
     nominal = diffuse_discharge(**nominal_inputs, names=names)
     n_patches = np.shape(nominal.heat_power.magnitude)[0] if nominal.heat_power.ndim else 1
     patch_names = list(names) if names is not None else ["patch"] + [f"patch {i}" for i in range(2, n_patches + 1)]
-    shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
-    policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    shared, policy = driver_settings(draws, seed, max_unphysical)
     stream = {**diffuse_input_names(prefix), **(input_names or {})}
     n = shared.n_draws
     args: dict = {}

@@ -560,6 +560,15 @@ class Propagation(Generic[R]):
                 **self.policy.as_dict(), "inputs": dict(self.inputs)}
 
 
+def driver_settings(draws: SharedDraws | int, seed: int | None,
+                    max_unphysical: float | UnphysicalPolicy) -> tuple[SharedDraws, UnphysicalPolicy]:
+    """The run's draws and its rule for impossible draws, from what a caller passes to the driver: a
+    ``SharedDraws`` or a draw count (with ``seed``), an ``UnphysicalPolicy`` or a share."""
+    shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
+    policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    return shared, policy
+
+
 def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: Mapping[str, str] | str | None = None,
               draws: SharedDraws | int = DEFAULT_DRAWS, seed: int | None = DEFAULT_SEED,
               physical: Callable[[dict], np.ndarray] | None = None,
@@ -608,8 +617,7 @@ def propagate(estimator: Callable[..., R], inputs: Mapping[str, Any], *, names: 
         When more than ``max_unphysical`` of the draws are impossible, naming
         the input whose draws were impossible most often.
     """
-    shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
-    policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    shared, policy = driver_settings(draws, seed, max_unphysical)
     names, args, sampled, given, keep, dropped = _draw_and_screen(inputs, names, shared, physical, policy, drawn,
                                                                   labels)
     n = shared.n_draws
@@ -642,8 +650,7 @@ def screen(inputs: Mapping[str, Any], *, names: Mapping[str, str] | str | None =
     InputError
         As ``propagate`` raises it: more than ``max_unphysical`` of the draws impossible.
     """
-    shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
-    policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    shared, policy = driver_settings(draws, seed, max_unphysical)
     return _draw_and_screen(inputs, names, shared, physical, policy, drawn, labels)[-1]
 
 

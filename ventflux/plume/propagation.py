@@ -24,6 +24,7 @@ from ..uncertainty import (
     SharedDraws,
     Uncertain,
     UnphysicalPolicy,
+    driver_settings,
     nominal,
     propagate,
 )
@@ -99,8 +100,7 @@ def plume_rise_propagation(inputs: dict, stratification, *, draws: SharedDraws |
     -------
     PlumePropagation
     """
-    shared = draws if isinstance(draws, SharedDraws) else SharedDraws(draws, seed)
-    policy = max_unphysical if isinstance(max_unphysical, UnphysicalPolicy) else UnphysicalPolicy(max_unphysical)
+    shared, policy = driver_settings(draws, seed, max_unphysical)
     names = {**plume_input_names(vent), **(names or {})}
     given = {k: v for k, v in inputs.items() if v is not None}
     n = shared.n_draws
