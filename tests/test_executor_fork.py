@@ -118,6 +118,53 @@ def _meanwhile_here():
     assert ForkExecutor(2).map(_pid, [(0,)], meanwhile=lambda: ran.append(1)) == [os.getpid()] and ran == []
 
 
+def test_spare_work_runs_here_only_while_a_worker_is_idle():
+    _in_a_fresh_process("_spare_here")
+
+
+def _sleep_and_pid(seconds):
+    import time
+
+    time.sleep(seconds)
+    return os.getpid()
+
+
+def _spare_here():
+    import time
+
+    calls = []  # (pid, time, indices finished so far)
+
+    def spare(done):
+        calls.append((os.getpid(), time.perf_counter(), sorted(done)))
+        time.sleep(0.05)  # one short piece of work
+        return len(calls) < 1000
+
+    # two workers: the short tasks end first; while the long one runs alone, a core is free
+    t0 = time.perf_counter()
+    out = ForkExecutor(2).map(_sleep_and_pid, [(1.5,), (0.1,), (0.1,)], spare=spare)
+    t1 = time.perf_counter()
+    assert len(out) == 3 and os.getpid() not in out
+    assert calls and all(pid == os.getpid() for pid, _, _ in calls)
+    # never while both workers had a task, and always given the tasks finished by then
+    assert all(done == [1, 2] for _, _, done in calls)
+    assert calls[0][1] - t0 >= 0.2 - 0.05
+    # called again and again until the last task ended (one call's work late at most)
+    assert len(calls) > 5 and t1 - calls[-1][1] < 0.4
+
+    calls.clear()
+    stop = []
+
+    def nothing_left(done):
+        stop.append(sorted(done))
+        return False
+
+    # a spare that has nothing to do is not asked again
+    assert len(ForkExecutor(2).map(_sleep_and_pid, [(0.8,), (0.05,)], spare=nothing_left)) == 2
+    assert stop == [[1]]
+    # in this process nothing waits: no spare work
+    assert ForkExecutor(2).map(_pid, [(0,)], spare=nothing_left) == [os.getpid()] and stop == [[1]]
+
+
 def test_a_forked_task_is_given_its_share_of_the_cores():
     _in_a_fresh_process("_cores_are_shared")
 

@@ -159,3 +159,40 @@ def test_a_log_axis_is_labelled_without_mathtext(monkeypatch):
     decades = {t.decode() for t in texts if t.startswith(b"10") and not t.strip().isdigit()}
     assert "10⁰" in decades and any("⁻" in t for t in decades), decades
     assert {"2×10¹".encode(), "6×10¹".encode()} <= texts
+
+
+def test_figures_rendered_ahead_are_handed_to_the_renderer_as_they_would_render():
+    from types import SimpleNamespace
+
+    from ventflux.survey.rendering import render_one_ahead, subplots
+
+    def made(k):
+        fig, ax = subplots(figsize=(3, 2))
+        ax.plot([0, 1, 2], [0, k, 2 * k])
+        ax.set_title(f"figure {k}")
+        fig.set_layout_engine("tight")
+        return fig
+
+    figs = [made(k) for k in range(3)]
+    estimates = [SimpleNamespace(figures=[("a", figs[0], ""), ("png", b"\x89PNG handed over", "")]),
+                 SimpleNamespace(figures=[("b", figs[1], ""), ("c", figs[2], "")]), SimpleNamespace()]
+    rendered = 0
+    while render_one_ahead(estimates):
+        rendered += 1
+    assert rendered == 3  # one figure a call; a finished PNG and an estimate without figures are passed over
+    from ventflux.survey import rendering
+
+    assert all(f in rendering._RENDERED for f in figs)
+    with FigureRenderer(workers=0) as r:
+        got = [r.submit(f).result() for f in figs]
+    assert not any(f in rendering._RENDERED for f in figs)  # handed over, not rendered again, not kept
+    assert got == [render_figure(made(k)) for k in range(3)]  # same PNG and SVG bytes as rendering them now
+    assert not render_one_ahead(estimates[:0])
+
+
+def test_a_pyplot_figure_keeps_its_canvas():
+    fig = _figure(0)
+    canvas = fig.canvas
+    render_figure(fig)
+    assert fig.canvas is canvas
+    plt.close(fig)

@@ -105,15 +105,21 @@ class ForkExecutor:
         return (tasks > 1 and usable_cores() > 1 and threading.active_count() == 1
                 and sys.platform.startswith("linux"))
 
-    def map(self, fn, arguments, on_done=None, meanwhile: Callable[[], None] | None = None):
-        """As ``Executor.map``; ``meanwhile()`` runs here once the workers are forked, before waiting for them.
+    def map(self, fn, arguments, on_done=None, meanwhile: Callable[[], None] | None = None,
+            spare: Callable[[dict[int, Any]], bool] | None = None):
+        """As ``Executor.map``, with two uses of the time this process would spend waiting.
 
         The caller is otherwise idle while its workers compute, and one task often outlasts the others (a
-        video correlation), leaving a core free: ``meanwhile`` is for work the caller needs next (the survey
-        imports its writers there). It is not run when the tasks run in this process.
+        video correlation), leaving a core free. ``meanwhile()`` runs here once the workers are forked, before
+        waiting for them: work the caller needs next (the survey imports its writers there). ``spare(done)``
+        runs here while fewer tasks are left than there are workers (a core is free), called again and again
+        with the results finished so far (``{index: result}``) until it returns False or the last tasks end:
+        one short piece of work per call (the survey renders one figure of a finished task), since the
+        results are collected only between calls. ``on_done`` is called as tasks finish, in that order.
+        Neither runs when the tasks run in this process.
         """
         import multiprocessing
-        from concurrent.futures import ProcessPoolExecutor
+        from concurrent.futures import FIRST_COMPLETED, ProcessPoolExecutor, wait
 
         if not self.usable(len(arguments)):
             return SerialExecutor().map(fn, arguments, on_done)
@@ -126,17 +132,28 @@ class ForkExecutor:
             # with the fork method every worker is forked at the first submit, before the pool starts its thread
             with ProcessPoolExecutor(_SIBLINGS,
                                      mp_context=multiprocessing.get_context("fork")) as pool:
-                futures = [pool.submit(_run_forked, i) for i in range(len(arguments))]
+                futures = {pool.submit(_run_forked, i): i for i in range(len(arguments))}
                 if meanwhile is not None:
                     meanwhile()
-                for i, f in enumerate(futures):
-                    try:
-                        out[i] = f.result()
-                    except Exception:  # noqa: BLE001 - rerun here: the error is raised as a serial run raises it
-                        failed.append(i)
-                        continue
-                    if on_done is not None:
-                        on_done(i, out[i])
+                finished: dict[int, Any] = {}
+                running = set(futures)
+                while running:
+                    if spare is not None and len(running) < _SIBLINGS:  # a worker is idle: so is a core
+                        while not any(f.done() for f in running):
+                            if not spare(finished):
+                                spare = None  # nothing left to do
+                                break
+                    done, running = wait(running, return_when=FIRST_COMPLETED)
+                    for f in sorted(done, key=futures.__getitem__):
+                        i = futures[f]
+                        try:
+                            out[i] = f.result()
+                        except Exception:  # noqa: BLE001 - rerun here: raised as a serial run raises it
+                            failed.append(i)
+                            continue
+                        finished[i] = out[i]
+                        if on_done is not None:
+                            on_done(i, out[i])
         finally:
             _FORK_TASKS.clear()
             _SIBLINGS = 1  # this process reruns failed tasks with all of its cores
@@ -225,13 +242,15 @@ def _quiet(msg):  # progress lines from other processes would interleave; the cl
 
 def estimate_survey(vents: Sequence, methods: dict, sections_parsed: dict, sections: dict, ctx,
                     executor: Executor | None = None,
-                    meanwhile: Callable[[], None] | None = None) -> tuple[list[dict], dict]:
+                    meanwhile: Callable[[], None] | None = None,
+                    spare: Callable[[list], bool] | None = None) -> tuple[list[dict], dict]:
     """Every vent's method estimates and every section's estimate: ``([{method key: estimate}, …], {key: …})``.
 
     Serially (the default) each ``estimate`` runs here with the run's own context, vents first, in the file's
     order: a plain loop. On another executor each method of each vent and each section is one task with a copy
     of the context; the names a task drew are merged into ``ctx.draws`` in the same order (same seed and name,
-    same draws: the numbers are identical). ``meanwhile``: see ``ForkExecutor.map`` (other executors ignore it).
+    same draws: the numbers are identical). ``meanwhile`` and ``spare``: see ``ForkExecutor.map`` (other executors
+    ignore them); ``spare`` is given the estimates of the tasks finished so far.
     """
     n = len(vents)
     if executor is None or isinstance(executor, SerialExecutor):
@@ -256,7 +275,8 @@ def estimate_survey(vents: Sequence, methods: dict, sections_parsed: dict, secti
 
     ctx.progress(f"estimating {len(vents)} vents and {len(sections_parsed)} sections ({executor.name})")
     if isinstance(executor, ForkExecutor):
-        results = executor.map(_task, args, on_done=done, meanwhile=meanwhile)
+        results = executor.map(_task, args, on_done=done, meanwhile=meanwhile,
+                               spare=None if spare is None else lambda got: spare([r[0] for r in got.values()]))
     else:
         results = executor.map(_task, args, on_done=done)
     got: list[dict] = [{} for _ in vents]

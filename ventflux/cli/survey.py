@@ -120,7 +120,12 @@ def run(args) -> int:
     from ..executor import open_executor
 
     with open_executor(args.scheduler, field="--scheduler") as executor:
-        result = run_survey(spec, progress=progress, executor=executor, meanwhile=_import_writers)
+        # while the estimates run, this process imports what writing needs, then renders the figures of finished
+        # tasks on the core the longest task leaves free (ventflux.executor.ForkExecutor.map)
+        from ..survey.rendering import render_one_ahead
+
+        result = run_survey(spec, progress=progress, executor=executor, meanwhile=_import_writers,
+                            spare=render_one_ahead)
     result.budget_mode = args.budget  # the uncertainty budget written with the results (ventflux.survey.budget)
     progress("writing tables, figures and the report")
     from ..survey import report

@@ -108,6 +108,34 @@ def render_figure(fig) -> tuple[bytes, bytes]:
     return buf.getvalue(), svg.getvalue()
 
 
+_RENDERED: Any = None  # figure -> (PNG, SVG) rendered ahead (``render_one_ahead``); a WeakKeyDictionary once used
+
+
+def render_one_ahead(estimates) -> bool:
+    """Render one figure of these estimates (their ``figures``) not rendered yet, keep it for ``FigureRenderer``.
+
+    Returns False when every figure is rendered. A survey calls it while a core is free during its estimates
+    (``ventflux.executor.ForkExecutor.map``'s ``spare``): the figures of finished tasks are then ready before
+    the results are written. The bytes are those ``render_figure`` gives at writing time (the same function).
+    """
+    global _RENDERED
+    import weakref
+
+    if _RENDERED is None:
+        _RENDERED = weakref.WeakKeyDictionary()
+    for est in estimates:
+        for _, fig, _ in getattr(est, "figures", ()):
+            if not isinstance(fig, bytes) and fig not in _RENDERED:
+                _RENDERED[fig] = render_figure(fig)
+                return True
+    return False
+
+
+def _ahead(fig):
+    """The (PNG, SVG) of ``fig`` rendered ahead, taken out of the store; None if it was not."""
+    return None if _RENDERED is None else _RENDERED.pop(fig, None)
+
+
 def _release(fig) -> None:
     """Close a figure that pyplot holds (one made with ``matplotlib.pyplot``); ``subplots`` figures it does not."""
     if getattr(fig.canvas, "manager", None) is not None:
@@ -184,6 +212,9 @@ class FigureRenderer:
 
     def submit(self, fig):
         try:
+            ready = _ahead(fig)
+            if ready is not None:
+                return _Done(ready)
             if self._pool is None:
                 return _Done(render_figure(fig))
             try:
@@ -195,4 +226,4 @@ class FigureRenderer:
             _release(fig)
 
 
-__all__ = ["FIGURE_DPI", "FigureRenderer", "render_figure", "subplots"]
+__all__ = ["FIGURE_DPI", "FigureRenderer", "render_figure", "render_one_ahead", "subplots"]

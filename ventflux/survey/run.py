@@ -80,12 +80,12 @@ class SurveyResult(Presentable):
 
 
 def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor=None,
-               meanwhile=None) -> SurveyResult:
+               meanwhile=None, spare=None) -> SurveyResult:
     """Compute everything a survey file asks for (see ``ventflux.survey.spec``).
 
     ``draws``: the run's named draws (default a new ``SharedDraws``; the uncertainty budget's design passes its own).
     ``executor``: where the vents are estimated (``ventflux.executor``; default this process).
-    ``meanwhile``: run here while forked workers estimate (``ventflux.executor.ForkExecutor.map``).
+    ``meanwhile``, ``spare``: run here while forked workers estimate (``ventflux.executor.ForkExecutor.map``).
     """
     t0 = time.perf_counter()
     methods, sections = survey_components()
@@ -107,7 +107,8 @@ def run_survey(spec: SurveySpec, progress=lambda msg: None, draws=None, executor
         import matplotlib.backends.backend_agg  # noqa: F401
         import matplotlib.figure  # noqa: F401
 
-    per_vent, sec = estimate_survey(spec.vents, methods, spec.sections, sections, ctx, executor, meanwhile)
+    per_vent, sec = estimate_survey(spec.vents, methods, spec.sections, sections, ctx, executor, meanwhile,
+                                   spare)
     vents = [VentResult(name=v.name, methods=est, heat_power=None) for v, est in zip(spec.vents, per_vent, strict=True)]
 
     # One mask of usable draw columns for the whole field, under the run's one limit.
