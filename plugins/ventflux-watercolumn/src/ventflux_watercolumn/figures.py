@@ -25,7 +25,10 @@ def section_plot(res):
     s = res.s[order]
     grid = 1e3 * res.dtheta_grid[order].T
     lim = max(float(np.nanpercentile(np.abs(grid), 99)), 1e-3) if np.isfinite(grid).any() else 1.0
-    m = ax.pcolormesh(s, res.depth, np.ma.masked_invalid(grid), cmap="RdBu_r", vmin=-lim, vmax=lim, shading="nearest")
+    # rasterized: in a vector file (the report's SVG) the mesh is one embedded image instead of a path per cell
+    # (a third of a megabyte on the demo's section); axes, labels and the layer outline stay vectors
+    m = ax.pcolormesh(s, res.depth, np.ma.masked_invalid(grid), cmap="RdBu_r", vmin=-lim, vmax=lim, shading="nearest",
+                      rasterized=True)
     fig.colorbar(m, ax=ax, label="Δθ [mK]")
     f = res.found[order]
     half = 0.5 * res.bin_size
@@ -57,7 +60,9 @@ def profiles_plot(res):
     use = res.sample_profile >= 0
     step = max(1, int(use.sum() // 20000))  # a readable scatter, not every sample
     idx = np.flatnonzero(use)[::step]
-    a1.plot(res.sample_sigma0[idx], res.sample_theta[idx], ".", ms=1, color="tab:red", label="samples")
+    # rasterized, as the section's mesh: thousands of dots are one image in the SVG, not one element each
+    a1.plot(res.sample_sigma0[idx], res.sample_theta[idx], ".", ms=1, color="tab:red", label="samples",
+            rasterized=True)
     o = np.argsort(res.sample_sigma0[idx])
     a1.plot(res.sample_sigma0[idx][o], res.sample_background[idx][o], "k-", lw=1, label="background fit")
     from matplotlib.ticker import MaxNLocator
