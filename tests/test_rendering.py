@@ -196,3 +196,35 @@ def test_a_pyplot_figure_keeps_its_canvas():
     render_figure(fig)
     assert fig.canvas is canvas
     plt.close(fig)
+
+
+@pytest.mark.parametrize("transparent", [False, True])
+def test_the_png_holds_the_pixels_matplotlib_draws(transparent):
+    import io
+
+    from PIL import Image
+
+    from ventflux.survey.rendering import FIGURE_DPI, subplots
+
+    def made():
+        fig, ax = subplots(figsize=(3, 2))
+        ax.plot([0, 1, 2], [0, 1, 4], "o-")
+        ax.set_title("pixels")
+        if transparent:
+            fig.patch.set_alpha(0.0)
+            ax.patch.set_alpha(0.0)
+        return fig
+
+    png, _ = render_figure(made())
+    fig = made()
+    render_figure(fig)  # the same state (layout solved), then matplotlib's own PNG of it
+    ref = io.BytesIO()
+    fig.savefig(ref, format="png", dpi=FIGURE_DPI)
+    got, want = Image.open(io.BytesIO(png)), Image.open(io.BytesIO(ref.getvalue()))
+    assert want.mode == "RGBA" and got.size == want.size
+    # an opaque figure is written without its alpha channel (every alpha 255), a transparent one keeps it
+    assert got.mode == ("RGBA" if transparent else "RGB")
+    np.testing.assert_array_equal(np.asarray(got), np.asarray(want)[:, :, :np.asarray(got).shape[2]])
+    if not transparent:
+        assert (np.asarray(want)[:, :, 3] == 255).all()
+    assert got.info["Software"] == want.info["Software"] and round(got.info["dpi"][0]) == FIGURE_DPI

@@ -72,6 +72,39 @@ def _plain_log_labels(fig) -> None:
                     set_(FuncFormatter(lambda x, pos, f=f: unicode_power(f(x, pos))))
 
 
+#: zlib level of the PNG files: 1 (fastest). Without the alpha channel of an opaque figure, the files are as large
+#: as matplotlib's RGBA files at its default level 6, in half the encoding time (the demo's twenty figures:
+#: 2.19 against 2.17 MB, 0.5 against 1.0 s, measured). Encoding was the largest single part of rendering.
+PNG_COMPRESS_LEVEL = 1
+
+
+def _png(fig) -> bytes:
+    """The figure as PNG at ``FIGURE_DPI``: drawn by ``savefig`` (every savefig setting applies), then written
+    as RGB when every pixel is opaque (the same pixels; a figure with transparency keeps its alpha channel)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    if not isinstance(fig.canvas, FigureCanvasAgg):  # a canvas of pyplot's: matplotlib's own PNG
+        buf = io.BytesIO()
+        fig.savefig(buf, format="png", dpi=FIGURE_DPI)
+        return buf.getvalue()
+    import matplotlib
+    import numpy as np
+    from PIL import Image, PngImagePlugin
+
+    raw = io.BytesIO()
+    fig.savefig(raw, format="rgba", dpi=FIGURE_DPI)
+    renderer = fig.canvas.renderer  # the one that drew it: its size is the image's
+    pixels = np.frombuffer(raw.getbuffer(), np.uint8).reshape(int(renderer.height), int(renderer.width), 4)
+    image = Image.frombuffer("RGBA", (pixels.shape[1], pixels.shape[0]), pixels, "raw", "RGBA", 0, 1)  # as matplotlib
+    if pixels[:, :, 3].min() == 255:
+        image = image.convert("RGB")
+    info = PngImagePlugin.PngInfo()  # what matplotlib writes: its name and version
+    info.add_text("Software", f"Matplotlib version{matplotlib.__version__}, https://matplotlib.org/")
+    out = io.BytesIO()
+    image.save(out, format="png", pnginfo=info, dpi=(FIGURE_DPI, FIGURE_DPI), compress_level=PNG_COMPRESS_LEVEL)
+    return out.getvalue()
+
+
 def render_figure(fig) -> tuple[bytes, bytes]:
     """A matplotlib figure as (PNG at ``FIGURE_DPI``, SVG): the PNG for the folder, the SVG for the report.
 
@@ -100,12 +133,11 @@ def render_figure(fig) -> tuple[bytes, bytes]:
             fig.set_dpi(FIGURE_DPI)
             engine.execute(fig)
         fig.set_layout_engine(None)  # with those rc values: no engine at all, not a placeholder
-        buf = io.BytesIO()
-        fig.savefig(buf, format="png", dpi=FIGURE_DPI)
+        png = _png(fig)
         svg = io.BytesIO()
         with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": "ventflux"}):
             fig.savefig(svg, format="svg", metadata={"Date": None})
-    return buf.getvalue(), svg.getvalue()
+    return png, svg.getvalue()
 
 
 _RENDERED: Any = None  # figure -> (PNG, SVG) rendered ahead (``render_one_ahead``); a WeakKeyDictionary once used
