@@ -228,3 +228,22 @@ def test_the_png_holds_the_pixels_matplotlib_draws(transparent):
     if not transparent:
         assert (np.asarray(want)[:, :, 3] == 255).all()
     assert got.info["Software"] == want.info["Software"] and round(got.info["dpi"][0]) == FIGURE_DPI
+
+
+def test_a_figure_that_fails_ahead_is_left_to_the_writer():
+    from types import SimpleNamespace
+
+    from ventflux.survey.rendering import render_one_ahead, subplots
+
+    fig, ax = subplots(figsize=(3, 2))
+    ax.plot([0, 1], [0, 1])
+
+    def broken(*_a, **_k):
+        raise ValueError("cannot draw this")
+
+    ax.draw = broken  # an artist that raises when drawn
+    estimates = [SimpleNamespace(figures=[("x", fig, "")])]
+    assert render_one_ahead(estimates) is True  # the run goes on
+    assert render_one_ahead(estimates) is False  # and does not try it again
+    with FigureRenderer(workers=0) as r, pytest.raises(ValueError, match="cannot draw this"):
+        r.submit(fig)  # the writer renders it and raises, as without rendering ahead

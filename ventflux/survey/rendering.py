@@ -140,7 +140,8 @@ def render_figure(fig) -> tuple[bytes, bytes]:
     return png, svg.getvalue()
 
 
-_RENDERED: Any = None  # figure -> (PNG, SVG) rendered ahead (``render_one_ahead``); a WeakKeyDictionary once used
+_RENDERED: Any = None  # figure -> (PNG, SVG) rendered ahead, or None if that failed (``render_one_ahead``); a
+# WeakKeyDictionary once used
 
 
 def render_one_ahead(estimates) -> bool:
@@ -158,7 +159,10 @@ def render_one_ahead(estimates) -> bool:
     for est in estimates:
         for _, fig, _ in getattr(est, "figures", ()):
             if not isinstance(fig, bytes) and fig not in _RENDERED:
-                _RENDERED[fig] = render_figure(fig)
+                try:
+                    _RENDERED[fig] = render_figure(fig)
+                except Exception:  # noqa: BLE001 - left to the writer, which renders it again and raises there
+                    _RENDERED[fig] = None  # as a figure that fails to render always did: not ahead of the run
                 return True
     return False
 
