@@ -33,7 +33,7 @@ LAYERS = [
      "ventflux.ctd_formats", "ventflux.presentation"),
     ("ventflux.orifice", "ventflux.diffuse", "ventflux.plume", "ventflux.reservoir", "ventflux.ridge_flank",
      "ventflux.throughput", "ventflux.aggregate", "ventflux.summarizer", "ventflux.budget"),
-    ("ventflux.hookspecs", "ventflux.registry", "ventflux.executor"),
+    ("ventflux.hookspecs", "ventflux.registry", "ventflux.executor", "ventflux.ahead"),
     ("ventflux.survey",),
     ("ventflux.cli", "ventflux.plugin_api"),
     ("ventflux.core_plugin", "ventflux.__main__"),

@@ -78,6 +78,12 @@ def usable_cores() -> int:
     return len(os.sched_getaffinity(0)) if hasattr(os, "sched_getaffinity") else (os.cpu_count() or 1)
 
 
+def share_cores(processes: int) -> None:
+    """This process shares the cores with ``processes - 1`` others (``task_cores`` divides by ``processes``)."""
+    global _SIBLINGS
+    _SIBLINGS = max(1, int(processes))
+
+
 def task_cores() -> int:
     """Cores one task may use: this process's usable cores, shared out among the forked workers when in one.
 

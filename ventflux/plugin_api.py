@@ -59,6 +59,8 @@ from __future__ import annotations
 from . import __version__ as CORE_VERSION
 from .cli.montecarlo import add_monte_carlo_options, monte_carlo_settings
 from .cli.output import add_output_options, print_json, print_table, write_output
+from .ahead import start as start_ahead
+from .ahead import take as take_ahead
 from .cachedir import cached_arrays
 from .diffuse import diffuse_discharge
 from .errors import Collector, InputError, InputErrors
@@ -142,6 +144,8 @@ __all__ = [
                           "ExecutorInfo",
                           "SerialExecutor",
                           "task_cores",
+                          "start_ahead",
+                          "take_ahead",
                           "CORE_VERSION",
                           "DIMENSIONS",
                           "STANDARD_ATMOSPHERE",

@@ -66,6 +66,15 @@ def _template(args) -> int:
 
 
 def run(args) -> int:
+    from .. import ahead
+
+    try:
+        return _run(args)
+    finally:
+        ahead.discard()  # whatever was begun ahead and is no longer needed (a file with problems, an error)
+
+
+def _run(args) -> int:
     from ..errors import InputError
     from ..survey.run import run_survey
     from ..survey.spec import load_survey
@@ -85,8 +94,16 @@ def run(args) -> int:
         mu = check_max_unphysical(args.max_unphysical, "--max-unphysical")
     # the command line's draws, seed and limit replace [run]'s while the file is read (the probe reduction
     # draws then): the limit is recorded in summary.json as max_unphysical_share
-    spec = load_survey(args.survey, draws=args.draws, seed=args.seed, max_unphysical=mu,
-                       progress=None if args.quiet else _say)
+    from contextlib import nullcontext
+
+    from .. import ahead
+    from ..executor import AUTO
+
+    # For a run on forked workers, a parser may begin a long computation of the run's on the core the check
+    # leaves idle (ventflux.ahead: the video correlation); --check and the other schedulers begin nothing.
+    with ahead.allowed() if not args.check and args.scheduler == AUTO else nullcontext():
+        spec = load_survey(args.survey, draws=args.draws, seed=args.seed, max_unphysical=mu,
+                           progress=None if args.quiet else _say)
     if mu is not None:
         spec.max_unphysical_option = "--max-unphysical"  # what a refusal names
     if args.draws is not None:
