@@ -1,6 +1,7 @@
 """Frame reading, scale, the three commands and every bad-input case of issue 5 (exit 2, one line)."""
 
 import json
+import os
 
 import imageio.v3 as iio
 import numpy as np
@@ -215,6 +216,28 @@ def test_progress_bar_goes_to_stderr(clip, capsys):
     assert "frame" in capsys.readouterr().err
 
 
+_SHEET_SURVEY = """
+[site]
+name = "Test Site"
+depth = "2500 m"
+latitude = 10.0
+longitude = -100.0
+ambient_temperature = "2.0 degC"
+ambient_salinity = 35
+
+[run]
+{run}
+
+[[vent]]
+name = "Vent J"
+  [vent.video]
+  clip = "{path}"
+  pixel_size = "2 mm"
+{more}  orifice = [{x}, {y}]
+  view = "sheet"
+"""
+
+
 # ----------------------------------------------------------------- one driver: command and survey draw alike
 def test_video_jet_and_survey_give_identical_draws(clip, capsys, tmp_path):
     """Same clip, vent name, seed and inputs: ``video-jet`` and ``[vent.video]`` draw the same heat power.
@@ -228,28 +251,8 @@ def test_video_jet_and_survey_give_identical_draws(clip, capsys, tmp_path):
 
     x, y = clip.orifice_xy
     survey = tmp_path / "s.toml"
-    survey.write_text(f"""
-[site]
-name = "Test Site"
-depth = "2500 m"
-latitude = 10.0
-longitude = -100.0
-ambient_temperature = "2.0 degC"
-ambient_salinity = 35
-
-[run]
-draws = 3000
-seed = 77
-
-[[vent]]
-name = "Vent J"
-  [vent.video]
-  clip = "{clip.path}"
-  pixel_size = "2 mm"
-  scale_factor = "1 ± 0.02"
-  orifice = [{x}, {y}]
-  view = "sheet"
-""", encoding="utf-8")
+    survey.write_text(_SHEET_SURVEY.format(run="draws = 3000\nseed = 77", path=clip.path, x=x, y=y,
+                                           more='  scale_factor = "1 ± 0.02"\n'), encoding="utf-8")
     result = run_survey(load_survey(survey))
     H = result.vents[0].methods["video"].heat_power.to("W").magnitude
     argv = ["video-jet", clip.path, "--name", "Vent J", "--pixel-size", "2 ± 0.04 mm", "--orifice", f"{x},{y}",
@@ -262,6 +265,50 @@ name = "Vent J"
     assert out["heat_power_W_p05"] == pytest.approx(np.nanpercentile(H, 5), rel=1e-9)
     assert out["heat_power_W_median"] == pytest.approx(np.nanmedian(H), rel=1e-9)
     assert out["heat_power_W_p95"] == pytest.approx(np.nanpercentile(H, 95), rel=1e-9)
+
+
+
+
+def _survey_with_the_field_begun_ahead(folder):
+    """In a fresh process (a fork needs one thread): the run with the clip's field begun while the file was read,
+    against the plain run."""
+    from pathlib import Path
+
+    from ventflux import ahead
+    from ventflux.survey.run import run_survey
+    from ventflux.survey.spec import load_survey
+
+    folder = Path(folder)
+    c = render_plume_clip(folder / "jet.mp4", seconds=0.6)
+    survey = folder / "s.toml"
+    survey.write_text(_SHEET_SURVEY.format(run="draws = 2000", path=c.path, x=c.orifice_xy[0], y=c.orifice_xy[1],
+                                           more=""), encoding="utf-8")
+    plain = run_survey(load_survey(survey)).vents[0].methods["video"]
+    assert not ahead._STARTED  # the library begins nothing
+    try:
+        with ahead.allowed():
+            spec = load_survey(survey)
+        (key,) = ahead._STARTED  # begun while the file was read
+        early = run_survey(spec).vents[0].methods["video"]
+        assert ahead.take(key) is not None  # and taken from there, not computed again
+    finally:
+        ahead.discard()
+    np.testing.assert_array_equal(early.heat_power.m_as("W"), plain.heat_power.m_as("W"))
+    assert early.rows == plain.rows
+
+
+def test_a_clip_field_begun_ahead_gives_the_same_draws(tmp_path):
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    if (os.cpu_count() or 1) < 2 or not sys.platform.startswith("linux"):
+        pytest.skip("one core, or not Linux: nothing is begun ahead")
+    code = ("import sys; sys.path.insert(0, sys.argv[1]); import test_video_frames_cli as t; "
+            "t._survey_with_the_field_begun_ahead(sys.argv[2])")
+    done = subprocess.run([sys.executable, "-c", code, str(Path(__file__).parent), str(tmp_path)],
+                          capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr[-3000:]
 
 
 def test_video_jet_refuses_above_its_unphysical_share(clip, capsys):

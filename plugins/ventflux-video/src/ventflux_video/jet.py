@@ -57,6 +57,11 @@ if TYPE_CHECKING:
 DEFAULT_WIDTH_RATIO = 0.5 * sum(DEFAULT_WIDTH_RATIO_RANGE)
 #: A jet narrower than this many windows (full width at half maximum) is flagged (the issue's "about two").
 NARROW_JET_WINDOWS = 2.0
+#: Correlation settings of a jet's analysis unless given: window sizes of the passes [px], the windows' overlap
+#: and the tracking mode's search radius [px] (those of ``averaging.mean_field_of_clip``).
+DEFAULT_PASSES = (64, 32, 32)
+DEFAULT_OVERLAP = 0.5
+DEFAULT_SEARCH_RADIUS = 3.0
 
 
 @dataclass
@@ -338,11 +343,11 @@ class JetAnalysis:
 
 
 def analyze_jet_clip(path, metres_per_pixel, orifice_xy, roi=None, ambient_temperature=None, ambient_salinity=None,
-                     pressure=None, latitude=None, frame_rate=None, passes=(64, 32, 32), overlap=0.5, gap=1,
-                     pairs=None, start=0, stop=None, plume_constant=DEFAULT_PLUME_CONSTANT, plume_heights=None,
-                     exit_points=4, search_half_width=None, mode="correlation", search_radius=3.0,
+                     pressure=None, latitude=None, frame_rate=None, passes=DEFAULT_PASSES, overlap=DEFAULT_OVERLAP,
+                     gap=1, pairs=None, start=0, stop=None, plume_constant=DEFAULT_PLUME_CONSTANT, plume_heights=None,
+                     exit_points=4, search_half_width=None, mode="correlation", search_radius=DEFAULT_SEARCH_RADIUS,
                      progress=False, view=DEFAULT_VIEW, width_ratio=DEFAULT_WIDTH_RATIO,
-                     background="median") -> JetAnalysis:
+                     background="median", field=None) -> JetAnalysis:
     """Exit velocity, buoyancy flux and heat power of a vent jet from one clip.
 
     Parameters
@@ -386,20 +391,23 @@ def analyze_jet_clip(path, metres_per_pixel, orifice_xy, roi=None, ambient_tempe
         (``DEFAULT_WIDTH_RATIO``, the middle of ``sightline.DEFAULT_WIDTH_RATIO_RANGE``).
     background : {"median", "none"}
         Static-background removal before correlation (``averaging``).
+    field : (ventflux_video.averaging.MeanField, pint.Quantity), optional
+        The clip's mean field and frame rate when already computed by ``clip_field`` with these clip and
+        correlation settings (a survey begins it while the file is checked, ``ventflux.ahead``); else computed
+        here.
 
     Returns
     -------
     JetAnalysis
         ``flags`` names what puts a result in doubt (a narrow jet, frame gaps).
     """
-    from .averaging import mean_field_of_clip
-    from .frames import FrameStream
-
     mpp = parse_quantity(metres_per_pixel, "length", "metres per pixel")
     check_scale(mpp)
     check_view(view)
-    stream = FrameStream(path, frame_rate=frame_rate, region=roi, start=start, stop=stop, progress=progress)
-    field = mean_field_of_clip(stream, mode, passes, overlap, gap, pairs, search_radius, background)
+    if field is None:
+        field = clip_field(path, frame_rate, roi, start, stop, mode, passes, overlap, gap, pairs, search_radius,
+                           background, progress)
+    field, rate = field
     profile = corrected_profile(centreline_profile(field, mpp, orifice_xy, search_half_width), field.interval, mpp,
                                 passes[-1], view, width_ratio, field.pattern_width)
     flags = [f for f in (narrow_jet(profile, passes[-1], exit_points), frame_flag(field)) if f]
@@ -411,8 +419,21 @@ def analyze_jet_clip(path, metres_per_pixel, orifice_xy, roi=None, ambient_tempe
         heat = heat_power_from_buoyancy_flux(fit.buoyancy_flux, ambient_temperature, salinity, pressure, latitude)
         heat_sd = heat * (fit.buoyancy_flux_sd / fit.buoyancy_flux).to("dimensionless").magnitude
     return JetAnalysis(w0, w0_sd, fit.buoyancy_flux, fit.buoyancy_flux_sd, fit.virtual_origin, heat, heat_sd, fit,
-                       profile, field, mpp.to("m"), tuple(float(v) for v in orifice_xy), stream.frame_rate,
+                       profile, field, mpp.to("m"), tuple(float(v) for v in orifice_xy), rate,
                        view, float(width_ratio), tuple(flags))
+
+
+def clip_field(path, frame_rate=None, roi=None, start=0, stop=None, mode="correlation", passes=DEFAULT_PASSES,
+               overlap=DEFAULT_OVERLAP, gap=1, pairs=None, search_radius=DEFAULT_SEARCH_RADIUS, background="median",
+               progress=False):
+    """The time-averaged displacement field of a clip (``averaging.mean_field_of_clip``) and the clip's frame rate;
+    parameters as for ``analyze_jet_clip``. The part of a jet's analysis that takes long and depends on the clip
+    alone."""
+    from .averaging import mean_field_of_clip
+    from .frames import FrameStream
+
+    stream = FrameStream(path, frame_rate=frame_rate, region=roi, start=start, stop=stop, progress=progress)
+    return mean_field_of_clip(stream, mode, passes, overlap, gap, pairs, search_radius, background), stream.frame_rate
 
 
 def frame_flag(field):

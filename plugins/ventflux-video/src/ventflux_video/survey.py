@@ -16,6 +16,9 @@ Keys: ``clip``, ``pixel_size``, ``orifice = [column, row]`` (required);
 ``sheet``), ``frame_rate``, ``region``, ``mode``, ``background``.
 Checking the file (``--check``) opens each clip's header: its frame size,
 frame count and rate, and whether the orifice and the region lie in the frame.
+A survey run on forked workers begins each usable clip's correlation as soon as
+its keys are read (``ventflux.ahead``), while the rest of the file is checked;
+the estimate takes that field, or computes it itself if none was begun.
 """
 
 from __future__ import annotations
@@ -27,6 +30,7 @@ from ventflux.plugin_api import MethodEstimate, SurveyMethod
 from ventflux.plugin_api import SurveyKey
 from ventflux.plugin_api import as_float, nominal_of
 from ventflux.plugin_api import Q_
+from ventflux.plugin_api import start_ahead, take_ahead
 
 
 def _parse(f, ctx):
@@ -60,13 +64,34 @@ def _parse(f, ctx):
     f.check_unknown()
     if spec["clip"] is not None:
         ctx.input_files[str(spec["clip"])] = "video clip"
-        _check_clip(f, spec)
+        if _check_clip(f, spec) and _field_key(spec) is not None:
+            # the clip's correlation (seconds) depends on the clip alone: begun now, on the core the file's
+            # check leaves idle, when the survey command allows it (ventflux.ahead); the estimate takes it
+            from functools import partial
+
+            from .jet import clip_field
+
+            # the settings _estimate gives analyze_jet_clip, the rest its defaults: the same field
+            start_ahead(_field_key(spec), partial(clip_field, spec["clip"], frame_rate=spec["frame_rate"],
+                                                  roi=spec["region"], mode=spec["mode"],
+                                                  background=spec["background"]))
     return spec
 
 
-def _check_clip(f, spec):
+def _field_key(spec):
+    """What the clip's mean field depends on: the file (its path, size and time of last change) and the settings
+    the survey passes to ``analyze_jet_clip``."""
+    try:
+        st = spec["clip"].stat()
+    except OSError:
+        return None
+    return ("ventflux-video clip field", str(spec["clip"]), st.st_size, st.st_mtime_ns, str(spec["frame_rate"]),
+            str(spec["region"]), spec["mode"], spec["background"])
+
+
+def _check_clip(f, spec) -> bool:
     """Open the clip's header now, so an unreadable file, a bad region or an orifice off the frame is reported
-    with the file's other problems (the run and ``--check`` accept the same files)."""
+    with the file's other problems (the run and ``--check`` accept the same files). True if the clip is usable."""
     from .frames import FrameStream
 
     try:
@@ -74,22 +99,27 @@ def _check_clip(f, spec):
     except InputError as e:
         key = {"--region": "region", "--frame-rate": "frame_rate"}.get(e.field, "clip")
         f.error(key, spec.get(key) if key != "clip" else str(spec["clip"].name), e.allowed)
-        return
+        return False
     h, w = stream.frame_shape
     spec["frame_shape"], spec["frame_count"] = (h, w), stream.expected_frames
+    usable = True
     if stream.expected_frames is not None and stream.expected_frames < 2:
         f.error("clip", str(spec["clip"].name), f"a clip of at least 2 frames (it holds {stream.expected_frames})")
+        usable = False
     if spec["orifice"] is None:
-        return
+        return False
     x, y = spec["orifice"]
     if not (0 <= x <= w - 1 and 0 <= y <= h - 1):
         f.error("orifice", repr(spec["orifice"]), f"a [column, row] inside the clip's {w} x {h} frame "
                 f"(column 0 to {w - 1}, row 0 to {h - 1})")
-    elif stream.region is not None:
+        return False
+    if stream.region is not None:
         r = stream.region
         if not (r.left <= x <= r.left + r.width - 1 and r.top < y):
             f.error("orifice", repr(spec["orifice"]), f"a column inside the region ({r.left} to "
                     f"{r.left + r.width - 1}) and a row below its top ({r.top}), so the plume above it is in view")
+            return False
+    return usable
 
 
 def _estimate(spec, vent, ctx):
@@ -102,11 +132,13 @@ def _estimate(spec, vent, ctx):
     lam = spec["tracer_to_velocity_width_ratio"]
     lam0 = DEFAULT_WIDTH_RATIO if lam is None else float(as_float(nominal_of(lam)))
     ctx.progress(f"{vent}: reading {spec['clip'].name}")
+    field = take_ahead(_field_key(spec))  # the clip's field if it was begun while the file was read, else None
     res = analyze_jet_clip(spec["clip"], spec["pixel_size"], tuple(spec["orifice"]), roi=spec["region"],
                            ambient_temperature=Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
                            ambient_salinity=float(np.mean(ctx.ambient_salinity)), pressure=ctx.pressure,
                            latitude=ctx.site.latitude, frame_rate=spec["frame_rate"], mode=spec["mode"],
-                           plume_constant=k0, view=spec["view"], width_ratio=lam0, background=spec["background"])
+                           plume_constant=k0, view=spec["view"], width_ratio=lam0, background=spec["background"],
+                           field=field)
     names = part_names(vent)  # the same names as video-jet --name: one vent, one set of streams
     mc = jet_draws(res, ctx.draws, names, spec["plume_constant"], lam, spec["scale_factor"],
                    max_unphysical=ctx.policy)
