@@ -76,3 +76,24 @@ def test_synthetic_plume_clip_gives_buoyancy_flux_within_10_percent(plume_clip):
     # Up is up: the profile's velocities are positive and decay with height.
     w = res.profile.velocity.to("m/s").magnitude
     assert (w > 0).all() and w[0] > w[-1]
+
+
+@pytest.mark.parametrize("rising", [False, True])
+def test_a_profile_without_plume_decay_is_refused(rising):
+    # speeds that stay level (or grow) with height: no pure-plume solution w = k (F/(z - z0))^(1/3) has them,
+    # since that speed falls with height for every F > 0 and z0 below the points (analytic)
+    z = np.linspace(0.05, 0.9, 15)
+    # level (the fit cannot converge: the origin runs away without end), or growing with a little scatter
+    w = 0.8 + 0.05 * z + 0.003 * np.sin(7.0 * z) if rising else np.full(z.size, 0.8)
+    with pytest.raises(InputError, match="no plume-like decay") as err:
+        plume.buoyancy_flux_from_centreline(Q_(z, "m"), Q_(w, "m/s"), Q_(np.full(z.size, 0.02), "m/s"))
+    assert err.value.field == "centreline profile"
+
+
+def test_a_decaying_profile_with_scatter_is_still_fitted():
+    # the pure-plume law itself (F = 0.02 m^4/s^3, z0 = -0.1 m, k = 4.3), with 2 % scatter: fitted, finite errors
+    z = np.linspace(0.05, 0.9, 15)
+    w = 4.3 * np.cbrt(0.02 / (z + 0.1)) * (1 + 0.02 * np.sin(11.0 * z))
+    fit = plume.buoyancy_flux_from_centreline(Q_(z, "m"), Q_(w, "m/s"), plume_constant=4.3)
+    assert np.isfinite(fit.buoyancy_flux_sd.m) and fit.buoyancy_flux.m == pytest.approx(0.02, rel=0.15)
+    assert fit.virtual_origin.m == pytest.approx(-0.1, abs=0.05)

@@ -164,9 +164,20 @@ def buoyancy_flux_from_centreline(height, centreline_velocity, velocity_sd=None,
 
     lo_z0 = z.min() - 1e3 * span
     hi_z0 = z.min() - 1e-6 * span
-    (c, z0), cov = curve_fit(model, z, w, p0=(c0, float(np.clip(z00, lo_z0 + span, hi_z0 - 1e-3 * span))),
-                             sigma=sd, absolute_sigma=False, bounds=([0.0, lo_z0], [np.inf, hi_z0]))
-    sd_c, sd_z0 = np.sqrt(np.clip(np.diag(cov), 0, np.inf))
+    try:
+        (c, z0), cov = curve_fit(model, z, w, p0=(c0, float(np.clip(z00, lo_z0 + span, hi_z0 - 1e-3 * span))),
+                                 sigma=sd, absolute_sigma=False, bounds=([0.0, lo_z0], [np.inf, hi_z0]))
+        sd_c, sd_z0 = np.sqrt(np.clip(np.diag(cov), 0, np.inf))
+    except RuntimeError:  # the fit did not converge (a level profile runs the origin away without end)
+        c, z0, sd_c, sd_z0 = np.nan, lo_z0, np.inf, np.inf
+    # A profile whose speed does not fall with height (a clip of noise, a corrupted video, a region beside the
+    # plume) sends the virtual origin to the fit's far bound and the buoyancy flux's error to infinity: no result
+    # rather than a number. "At the bound" is within 1 % of the bound's range (common practice, no source).
+    if not (np.isfinite(sd_c) and np.isfinite(sd_z0)) or z0 - lo_z0 < 0.01 * (hi_z0 - lo_z0):
+        raise InputError("centreline profile", f"no plume-like decay of the centreline speed over {z.size} heights "
+                         f"({z.min():.3g}-{z.max():.3g} m; the fit's virtual origin runs to {z0:.3g} m or beyond)",
+                         "a centreline speed that falls with height as w = k (F/(z - z0))^(1/3); check the clip, "
+                         "its region and the orifice position")
     resid = w - model(z, c, z0)
     return PlumeFit(
         buoyancy_flux=Q_(c**3, "m^4/s^3"),

@@ -61,6 +61,7 @@ def _parse(f, ctx):
         f.error("orifice", repr(orifice), "the orifice's [column, row] in full-frame pixels, e.g. [80, 248]")
         orifice = None
     spec["orifice"] = orifice
+    spec["clip_key"], spec["where"] = f.key("clip"), f.where  # how a refusal of the clip's analysis names it
     f.check_unknown()
     if spec["clip"] is not None:
         ctx.input_files[str(spec["clip"])] = "video clip"
@@ -133,12 +134,15 @@ def _estimate(spec, vent, ctx):
     lam0 = DEFAULT_WIDTH_RATIO if lam is None else float(as_float(nominal_of(lam)))
     ctx.progress(f"{vent}: reading {spec['clip'].name}")
     field = take_ahead(_field_key(spec))  # the clip's field if it was begun while the file was read, else None
-    res = analyze_jet_clip(spec["clip"], spec["pixel_size"], tuple(spec["orifice"]), roi=spec["region"],
-                           ambient_temperature=Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
-                           ambient_salinity=float(np.mean(ctx.ambient_salinity)), pressure=ctx.pressure,
-                           latitude=ctx.site.latitude, frame_rate=spec["frame_rate"], mode=spec["mode"],
-                           plume_constant=k0, view=spec["view"], width_ratio=lam0, background=spec["background"],
-                           field=field)
+    try:
+        res = analyze_jet_clip(spec["clip"], spec["pixel_size"], tuple(spec["orifice"]), roi=spec["region"],
+                               ambient_temperature=Q_(float(np.mean(ctx.ambient_temperature.to("K").magnitude)), "K"),
+                               ambient_salinity=float(np.mean(ctx.ambient_salinity)), pressure=ctx.pressure,
+                               latitude=ctx.site.latitude, frame_rate=spec["frame_rate"], mode=spec["mode"],
+                               plume_constant=k0, view=spec["view"], width_ratio=lam0, background=spec["background"],
+                               field=field)
+    except InputError as e:  # what the clip gave cannot be analysed: named by the survey's key of the clip
+        raise InputError(f"{spec['clip_key']} ({e.field})", e.value, e.allowed, where=spec["where"]) from None
     names = part_names(vent)  # the same names as video-jet --name: one vent, one set of streams
     mc = jet_draws(res, ctx.draws, names, spec["plume_constant"], lam, spec["scale_factor"],
                    max_unphysical=ctx.policy)
